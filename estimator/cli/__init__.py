@@ -1,0 +1,80 @@
+"""The ``lowflow`` command line: one verb a module, all sharing one error policy.
+
+Errors a user can cause (bad values, bad files) print one line on stderr naming the field, the
+value and the valid range, and exit with status 2. No traceback reaches the user.
+
+Each verb lives in its own module of this package and registers itself on :data:`app` with
+``@app.command()``; add the module name to ``_VERBS`` below.
+"""
+
+from __future__ import annotations
+
+import importlib
+import sys
+
+import typer
+
+from .. import __version__
+from ..errors import InputError
+
+CAUTION = (
+    "Planning and audit aid only: not a monitor and not a prescription. Continuous inspired-O2 and "
+    "agent monitoring is mandatory at low flow. Follow the agent's local labelling, local codes and "
+    "licensed clinical practice."
+)
+
+app = typer.Typer(
+    name="lowflow",
+    help="Low-flow anaesthesia gas-consumption and cost estimator. " + CAUTION,
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)
+
+_VERBS: tuple[str, ...] = ()
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"lowflow {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
+                                 help="Print the version and exit."),
+) -> None:
+    """Low-flow anaesthesia gas-consumption and cost estimator."""
+
+
+for _name in _VERBS:
+    importlib.import_module(f"{__name__}.{_name}")
+
+
+def fail(message: str) -> None:
+    """Print one error line on stderr and exit with status 2."""
+    typer.echo(f"lowflow: error: {message}", err=True)
+    raise SystemExit(2)
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Console-script entry point; maps every user error to one line and exit status 2."""
+    try:
+        app(args=argv, standalone_mode=True)
+    except InputError as exc:
+        fail(str(exc))
+    except (FileNotFoundError, IsADirectoryError, PermissionError) as exc:
+        fail(f"{exc.filename}: {exc.strerror}")
+    except KeyboardInterrupt:
+        raise SystemExit(130) from None
+    except SystemExit:
+        raise
+    except Exception as exc:  # noqa: BLE001 - last line of defence: never show a traceback
+        typer.echo(f"lowflow: internal error: {type(exc).__name__}: {exc} (please report it)", err=True)
+        raise SystemExit(1) from None
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main(sys.argv[1:])
