@@ -1,0 +1,319 @@
+"""Reading and strict validation of a fresh-gas audit log (CSV, one row per sample).
+
+The header names the columns, each with an optional unit in square brackets; file-level problems
+(missing required column, duplicated or unknown-unit column) raise :class:`InputError` naming the
+column. Row problems reject the row with its line number and reason; nothing is dropped silently.
+The accepted rows come back as plain floats in fixed units (minutes, L/min, fractions 0-1, kg,
+years), sorted per case, ready for vectorised integration by :mod:`estimator.audit`.
+
+Examples
+--------
+>>> log = read_log("case_id,time,oxygen_flow [mL/min],air_flow,nitrous_oxide_flow,agent,vaporizer_setting\\n"
+...                "A,0,500,0,0,isoflurane,1\\nA,5,-1,0,0,isoflurane,1\\n")
+>>> log.rows, log.rejections
+({'read': 2, 'used': 1, 'rejected': 1}, [(3, "oxygen_flow: got '-1' mL/min; expected 0 to 30 L/min")])
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pint
+
+from .errors import InputError
+from .properties import AGENTS
+from .units import Q_, ureg
+
+REQUIRED = ("case_id", "time", "oxygen_flow", "air_flow", "nitrous_oxide_flow", "agent", "vaporizer_setting")
+OPTIONAL = ("end_tidal_agent", "inspired_oxygen", "room", "patient_weight", "patient_age")
+#: Column -> (kind, default unit, canonical unit, valid range in the canonical unit).
+SPEC: dict[str, tuple[str, str | None, str | None, tuple[float, float] | None]] = {
+    "case_id": ("text", None, None, None),
+    "time": ("time", "min", "min", None),
+    "oxygen_flow": ("flow", "L/min", "L/min", (0.0, 30.0)),
+    "air_flow": ("flow", "L/min", "L/min", (0.0, 30.0)),
+    "nitrous_oxide_flow": ("flow", "L/min", "L/min", (0.0, 30.0)),
+    "agent": ("text", None, None, None),
+    "vaporizer_setting": ("fraction", "%", "", (0.0, 1.0)),
+    "end_tidal_agent": ("fraction", "%", "", (0.0, 1.0)),
+    "inspired_oxygen": ("fraction", "%", "", (0.0, 1.0)),
+    "room": ("text", None, None, None),
+    "patient_weight": ("mass", "kg", "kg", (0.5, 300.0)),
+    "patient_age": ("age", "year", "year", (0.0, 120.0)),
+}
+DIMENSION = {"flow": "[length] ** 3 / [time]", "time": "[time]", "mass": "[mass]", "age": "[time]",
+             "fraction": "[]"}
+EXAMPLE = {"flow": "'L/min' or 'mL/min'", "time": "'min', 's', 'h' or 'ISO 8601'", "mass": "'kg' or 'lb'",
+           "age": "'year'", "fraction": "'%' or '1' (a 0-1 fraction)"}
+NO_AGENT = ("", "none", "off")
+NO_DATE = "no date (elapsed-time log)"
+
+
+@dataclass(frozen=True)
+class LogData:
+    """A validated log: samples used, the rejection report and per-case labels."""
+
+    samples: pd.DataFrame
+    case_ids: list[str]
+    case_start: list[str | None]
+    case_room: list[str]
+    case_month: list[str]
+    case_weight: np.ndarray
+    case_age: np.ndarray
+    agent_names: list[str]
+    rows: dict[str, int]
+    rejections: list[tuple[int, str]]
+    units: dict[str, str] = field(default_factory=dict)
+    warnings: tuple[tuple[str, str], ...] = ()
+
+
+def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
+    """Column names and the factor to the canonical unit (or 'iso' for time) of each column."""
+    names: list[str] = []
+    factors: dict[str, float | str] = {}
+    for cell in raw:
+        text = cell.strip().lstrip("\ufeff")
+        name, _, rest = text.partition("[")
+        name = name.strip().lower()
+        unit = rest.rstrip().removesuffix("]").strip() if rest else None
+        if rest and not rest.rstrip().endswith("]"):
+            raise InputError(f"log column '{text}'", text, "a column name with its unit in square brackets, e.g. 'oxygen_flow [mL/min]'")
+        if name in names:
+            raise InputError(f"log column '{name}'", text, "each column once")
+        names.append(name)
+        if name not in SPEC:
+            continue
+        kind, default, canonical, _ = SPEC[name]
+        if kind == "text":
+            if unit:
+                raise InputError(f"log column '{name}'", unit, "no unit (a text column)")
+            continue
+        unit = unit or default
+        if kind == "time" and unit.lower().replace(" ", "") in ("iso8601", "iso"):
+            factors[name] = "iso"
+            continue
+        if kind == "fraction" and unit.lower() in ("1", "fraction", "dimensionless"):
+            factors[name] = 1.0
+            continue
+        try:
+            q = Q_(1.0, ureg.parse_units({"%": "percent", "years": "year", "y": "year"}.get(unit, unit)))
+        except (pint.errors.PintError, ValueError, AttributeError, TypeError, SyntaxError, KeyError):
+            raise InputError(f"log column '{name}'", unit, f"a known unit such as {EXAMPLE[kind]}") from None
+        if not q.check(DIMENSION[kind]):
+            raise InputError(f"log column '{name}'", unit, f"a unit of {kind} such as {EXAMPLE[kind]}")
+        factors[name] = float(q.to(canonical or "dimensionless").magnitude)
+    missing = [c for c in REQUIRED if c not in names]
+    if missing:
+        raise InputError(f"log column '{missing[0]}'", "missing", "a header with the columns " + ", ".join(REQUIRED))
+    return names, factors
+
+
+def _load(source: Any) -> tuple[list[str], pd.DataFrame, list[tuple[int, str]]]:
+    """Header cells and a string DataFrame with a ``line`` column; rows of the wrong width rejected."""
+    if isinstance(source, str) and ("\n" in source or "," in source) and not Path(source).exists():
+        handle: Any = io.StringIO(source.lstrip("\ufeff"))
+    elif isinstance(source, str | Path):
+        handle = open(source, encoding="utf-8-sig", newline="")  # noqa: SIM115 - closed below
+    else:
+        handle = io.StringIO(source.read().lstrip("\ufeff"))
+    with handle:
+        header_line = handle.readline()
+        raw = next(csv.reader([header_line]), [])
+        if not raw:
+            raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
+        start = handle.tell()
+        try:
+            df = pd.read_csv(handle, header=None, names=list(range(len(raw))), dtype=str, keep_default_na=False,
+                             skip_blank_lines=False, skipinitialspace=True, engine="c")
+            df["line"] = np.arange(2, len(df) + 2)
+            return raw, df, []
+        except pd.errors.ParserError:
+            handle.seek(start)
+        good, lines, bad = [], [], []
+        reader = csv.reader(handle, skipinitialspace=True)
+        prev = 1
+        for row in reader:
+            line = prev + 1
+            prev = reader.line_num
+            if len(row) == 0:
+                row = [""] * len(raw)
+            if len(row) != len(raw):
+                bad.append((line, f"{len(row)} fields where the header has {len(raw)}"))
+                continue
+            good.append(row)
+            lines.append(line)
+    df = pd.DataFrame(good, columns=list(range(len(raw))), dtype=str)
+    df["line"] = np.array(lines, dtype=int)
+    return raw, df, bad
+
+
+class _Reasons:
+    """Collects rejection reasons per row index; loops only over the bad rows."""
+
+    def __init__(self, n: int) -> None:
+        self.bad = np.zeros(n, dtype=bool)
+        self.skip = np.zeros(n, dtype=bool)
+        self.text: dict[int, list[str]] = {}
+
+    def add(self, mask: np.ndarray, message: Any, raw: np.ndarray | None = None) -> None:
+        idx = np.flatnonzero(mask & ~self.skip)
+        self.bad[idx] = True
+        for i in idx:
+            msg = message(raw[i]) if callable(message) else message
+            self.text.setdefault(int(i), []).append(msg)
+
+
+def _numeric(col: pd.Series, name: str, reasons: _Reasons, factor: float, unit_label: str,
+             required: bool) -> np.ndarray:
+    text = col.to_numpy(dtype=object)
+    stripped = col.str.strip()
+    empty = (stripped == "").to_numpy()
+    values = pd.to_numeric(stripped.where(~(stripped == ""), None), errors="coerce").to_numpy(dtype=float, copy=True)
+    bad_number = ~empty & ~np.isfinite(values)
+    if required:
+        reasons.add(empty, f"{name}: empty")
+    reasons.add(bad_number, lambda v: f"{name}: got {v.strip()!r}; expected a number ({unit_label})", text)
+    rng = SPEC[name][3]
+    out = values * factor
+    if rng is not None:
+        lo, hi = rng
+        outside = np.isfinite(out) & ((out < lo) | (out > hi))
+        canonical = SPEC[name][2] or "fraction"
+        shown = f"{lo * 100:g} to {hi * 100:g} %" if canonical == "fraction" else f"{lo:g} to {hi:g} {canonical}"
+        reasons.add(outside, lambda v: f"{name}: got {v.strip()!r} {unit_label}; expected {shown}", text)
+    out[empty | bad_number] = np.nan
+    return out
+
+
+def read_log(source: Any) -> LogData:
+    """Read and validate an audit log.
+
+    Parameters
+    ----------
+    source : path, file object or CSV text
+
+    Returns
+    -------
+    LogData
+
+    Raises
+    ------
+    InputError
+        For a file-level problem, naming the column.
+    """
+    raw, df, bad_width = _load(source)
+    names, factors = _header(raw)
+    df.columns = [*names, "line"]
+    unknown = [n for n in names if n not in SPEC]
+    warnings: list[tuple[str, str]] = []
+    if unknown:
+        warnings.append(("UNUSED_COLUMNS", "columns not used by the audit: " + ", ".join(unknown)))
+    n = len(df)
+    r = _Reasons(n)
+    blank = np.all(np.stack([(df[c].str.strip() == "").to_numpy() for c in names]), axis=0) if n else np.zeros(0, bool)
+    r.add(blank, "empty line")
+    r.skip = blank
+    case = df["case_id"].str.strip()
+    r.add((case == "").to_numpy() & ~blank, "case_id: empty")
+    units: dict[str, str] = {}
+    for c, cell in zip(names, raw, strict=True):
+        if c in SPEC and SPEC[c][0] != "text":
+            units[c] = cell.partition("[")[2].rstrip().removesuffix("]").strip() or str(SPEC[c][1])
+
+    # Time: elapsed number in the header unit, or an ISO 8601 timestamp.
+    ttext = df["time"].str.strip()
+    t_empty = (ttext == "").to_numpy()
+    r.add(t_empty & ~blank, "time: empty")
+    iso_only = factors.get("time") == "iso"
+    t_num = np.full(n, np.nan) if iso_only else pd.to_numeric(ttext.where(~(ttext == ""), None), errors="coerce").to_numpy(dtype=float, copy=True)
+    t_num[~np.isfinite(t_num)] = np.nan
+    need_ts = np.isnan(t_num) & ~t_empty
+    ts = pd.to_datetime(ttext.where(need_ts, None), format="ISO8601", utc=True, errors="coerce")
+    ts_ok = ts.notna().to_numpy()
+    r.add(need_ts & ~ts_ok, lambda v: f"time: got {v.strip()!r}; expected elapsed time (a number) or an ISO 8601 timestamp",
+          df["time"].to_numpy(dtype=object))
+    t_factor = 1.0 if iso_only else float(factors["time"])
+    epoch_min = ((ts - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(minutes=1)).to_numpy(dtype=float)
+    is_ts = ts_ok
+    t_abs = np.where(is_ts, epoch_min, t_num * t_factor)
+
+    flows = {c: _numeric(df[c], c, r, float(factors[c]), units[c], True)
+             for c in ("oxygen_flow", "air_flow", "nitrous_oxide_flow")}
+    setting = _numeric(df["vaporizer_setting"], "vaporizer_setting", r, float(factors["vaporizer_setting"]),
+                       units["vaporizer_setting"], True)
+    agent = df["agent"].str.strip().str.lower().to_numpy(dtype=object)
+    known = np.isin(agent, list(AGENTS))
+    none = np.isin(agent, NO_AGENT)
+    r.add(~known & ~none & ~blank, lambda v: f"agent: got {v.strip()!r}; expected one of " + ", ".join(sorted(AGENTS))
+          + " (empty for none)", df["agent"].to_numpy(dtype=object))
+    r.add(none & (setting > 0), "agent: empty while vaporizer_setting is above 0")
+    for name, sp in AGENTS.items():
+        top = sp.vaporizer_max.to("dimensionless").magnitude
+        r.add((agent == name) & (setting > top) & (setting <= 1.0),
+              f"vaporizer_setting: above the {name} vaporizer's maximum dial {top * 100:g} %")
+    r.add(setting >= 1.0, "vaporizer_setting: must be below 100 %")
+    opt = {c: _numeric(df[c], c, r, float(factors[c]), units[c], False)
+           for c in ("end_tidal_agent", "inspired_oxygen", "patient_weight", "patient_age") if c in names}
+
+    codes_all, uniques = pd.factorize(case)
+    # A case keeps one kind of time: the kind of its first valid row; rows of the other kind are rejected.
+    valid_t = ~r.bad & np.isfinite(t_abs)
+    first_kind = pd.Series(np.where(valid_t, is_ts, np.nan)).groupby(codes_all).transform("first").to_numpy()
+    mixed = valid_t & (is_ts != (first_kind == 1))
+    r.add(mixed, lambda v: f"time: got {v.strip()!r}; this case mixes elapsed times and timestamps (first kind kept)",
+          df["time"].to_numpy(dtype=object))
+
+    ok = ~r.bad
+    rejections = sorted([(int(df["line"].iat[i]), "; ".join(m)) for i, m in r.text.items()] + bad_width)
+    rows = {"read": n + len(bad_width), "used": int(ok.sum()), "rejected": len(rejections)}
+    idx = np.flatnonzero(ok)
+    used_case = case.to_numpy(dtype=object)[idx]
+    codes, case_ids = pd.factorize(pd.Series(used_case, dtype=object))
+    t_used = t_abs[idx]
+    lines = df["line"].to_numpy()[idx]
+    file_order_t = pd.Series(t_used).groupby(codes).diff().to_numpy()
+    if (file_order_t < 0).any():
+        warnings.append(("TIME_NOT_ORDERED", f"{int((file_order_t < 0).sum())} sample(s) out of time order within "
+                         "their case: samples were sorted by time"))
+    if (file_order_t == 0).any():
+        warnings.append(("DUPLICATE_TIME", f"{int((file_order_t == 0).sum())} sample(s) repeat the time of the "
+                         "previous sample of their case: the later one holds"))
+    order = np.lexsort((lines, t_used, codes))
+    idx, codes, t_used = idx[order], codes[order], t_used[order]
+    n_cases = len(case_ids)
+    start = np.full(n_cases, np.inf)
+    np.minimum.at(start, codes, t_used)
+    agent_names = ["", *sorted({a for a in agent[idx] if a not in NO_AGENT})]
+    agent_index = {a: i for i, a in enumerate(agent_names)}
+    s = pd.DataFrame({"case": codes, "line": df["line"].to_numpy()[idx], "t_min": t_used - start[codes],
+                      "oxygen": flows["oxygen_flow"][idx], "air": flows["air_flow"][idx],
+                      "nitrous_oxide": flows["nitrous_oxide_flow"][idx], "setting": setting[idx],
+                      "agent_code": pd.Series(agent[idx], dtype=object).map(agent_index).fillna(0).astype(int).to_numpy()})
+    per_case = {}
+    for c, key in (("end_tidal_agent", "end_tidal"), ("inspired_oxygen", "min_inspired_oxygen"),
+                   ("patient_weight", "weight"), ("patient_age", "age")):
+        if c in opt:
+            s[key] = opt[c][idx]
+            if key in ("weight", "age"):
+                per_case[key] = s[key].groupby(codes).first().reindex(range(n_cases)).to_numpy()
+                s[key] = per_case[key][codes]
+    case_is_ts = np.zeros(n_cases, dtype=bool)
+    case_is_ts[codes] = is_ts[idx]
+    start_ts = pd.to_datetime(np.where(case_is_ts, start, 0.0) * 6e7, unit="us", utc=True)
+    room = pd.Series(df["room"].str.strip().to_numpy(dtype=object)[idx] if "room" in names
+                     else np.full(len(idx), "", dtype=object), dtype=object)
+    room_case = room.where(room != "").groupby(codes).first().reindex(range(n_cases)).fillna("unassigned")
+    return LogData(
+        samples=s, case_ids=[str(c) for c in case_ids],
+        case_start=[ts.isoformat() if k else None for ts, k in zip(start_ts, case_is_ts, strict=True)],
+        case_room=room_case.tolist(),
+        case_month=[ts.strftime("%Y-%m") if k else NO_DATE for ts, k in zip(start_ts, case_is_ts, strict=True)],
+        case_weight=per_case.get("weight", np.full(n_cases, np.nan)),
+        case_age=per_case.get("age", np.full(n_cases, np.nan)),
+        agent_names=agent_names, rows=rows, rejections=rejections, units=units, warnings=tuple(warnings))
