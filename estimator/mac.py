@@ -1,0 +1,410 @@
+"""MAC: Mapleson's age correction, additivity with nitrous oxide, and MAC as a partial pressure.
+
+MAC (minimum alveolar concentration) falls with age by the same proportion for every agent,
+about 6 % a decade (Mapleson 1996). Fractions of MAC add, nitrous oxide included (Nickalls and
+Mapleson 2003). MAC is a partial pressure: at a lower ambient pressure the same MAC is a larger
+volume percent.
+
+All public functions take pint quantities or strings that pint parses (``"70 years"``,
+``"67 %"``, ``"1.2 MAC"``) and return pint quantities, with fractions in percent. Ages may be a
+numpy array (or a quantity with an array magnitude); the result then has the same shape.
+
+References
+----------
+.. [1] Mapleson WW. Effect of age on MAC in humans: a meta-analysis. Br J Anaesth 1996;76:179-85
+   (MAC(age) = MAC40 x 10^(-0.00269 (age - 40)); Table 2: MAC at 40 years).
+.. [2] Nickalls RWD, Mapleson WW. Age-related iso-MAC charts for isoflurane, sevoflurane and
+   desflurane in man. Br J Anaesth 2003;91:170-4 (MAC fractions add, nitrous oxide included).
+
+Examples
+--------
+>>> round(mac_at_age("sevoflurane", "70 years").mac.to("percent").magnitude, 2)
+1.49
+>>> round(total_mac({"sevoflurane": "1.2 %", "nitrous_oxide": "50 %"}, 40).total.magnitude, 3)
+1.147
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pint
+
+from .errors import InputError
+from .properties import Species, agent, gas
+from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
+
+#: Slope of log10(MAC) against age [1/year] (Mapleson 1996).
+MAPLESON_SLOPE = 0.00269
+#: Reference age of the tabulated MAC values [year] (Mapleson 1996, Table 2).
+MAPLESON_REFERENCE_AGE = 40.0
+#: Ages [year] the fit was made over: above 1 year (Mapleson 1996). Below it MAC does not follow
+#: the log-linear law (it peaks in infancy and is lower in neonates; from memory).
+MAPLESON_VALID_FROM = 1.0
+#: Ages [year] accepted at all.
+AGE_RANGE = (0.0, 120.0)
+#: Ambient pressures [kPa] accepted, and the range of inhabited elevations (about 6000 m to the
+#: Dead Sea shore) outside which a warning is given (common practice, no source).
+PRESSURE_RANGE = (30.0, 350.0)
+PRESSURE_USUAL = (47.0, 107.0)
+
+SOURCE = ("Mapleson WW. Br J Anaesth 1996;76:179 (age correction); Nickalls RWD, Mapleson WW. "
+          "Br J Anaesth 2003;91:170 (MAC fractions add, nitrous oxide included); MAC as a partial "
+          "pressure at other ambient pressures: common practice, no source")
+
+Warning = tuple[str, str]
+
+
+@dataclass(frozen=True)
+class AgeCorrectedMac:
+    """MAC of one agent at a given age and ambient pressure.
+
+    Attributes
+    ----------
+    agent : str
+    age : pint.Quantity [year]
+    mac : pint.Quantity [percent]
+        End-tidal volume fraction that is 1 MAC at ``age`` and ``ambient_pressure``.
+    factor : float or numpy.ndarray
+        Mapleson's age factor, 10^(-0.00269 (age - 40)).
+    ambient_pressure : pint.Quantity [kPa]
+    warnings : tuple of (code, message)
+    """
+
+    agent: str
+    age: pint.Quantity
+    mac: pint.Quantity
+    factor: float | np.ndarray
+    ambient_pressure: pint.Quantity
+    warnings: tuple[Warning, ...] = ()
+
+
+@dataclass(frozen=True)
+class TotalMac:
+    """Sum of the MAC fractions of a gas mixture.
+
+    Attributes
+    ----------
+    total : pint.Quantity [MAC]
+    contributions : dict of name -> pint.Quantity [MAC]
+    warnings : tuple of (code, message)
+    """
+
+    total: pint.Quantity
+    contributions: dict[str, pint.Quantity]
+    warnings: tuple[Warning, ...] = ()
+
+
+@dataclass(frozen=True)
+class EndTidalForTotal:
+    """End-tidal agent fraction that, with the nitrous oxide given, makes a requested total MAC.
+
+    Attributes
+    ----------
+    end_tidal : pint.Quantity [percent] or None
+        None when nitrous oxide alone already exceeds the requested total.
+    agent_mac : AgeCorrectedMac
+    nitrous_oxide_mac : pint.Quantity [MAC]
+        MAC fraction contributed by the nitrous oxide.
+    total : pint.Quantity [MAC]
+    warnings : tuple of (code, message)
+    """
+
+    end_tidal: pint.Quantity | None
+    agent_mac: AgeCorrectedMac
+    nitrous_oxide_mac: pint.Quantity
+    total: pint.Quantity
+    warnings: tuple[Warning, ...] = ()
+
+
+def _species(name: Any, field: str) -> Species:
+    if isinstance(name, Species):
+        return name
+    key = str(name).strip().lower().replace(" ", "_").replace("-", "_")
+    if key in ("nitrous_oxide", "n2o"):
+        return gas("nitrous_oxide", field)
+    return agent(name, field)
+
+
+def parse_age(age: Any, field: str = "patient.age") -> tuple[np.ndarray, list[Warning]]:
+    """Ages in years as a float array, checked against 0-120 years, with the below-1-year warning.
+
+    Parameters
+    ----------
+    age : str, float, numpy.ndarray or pint.Quantity
+        A bare number (or array) is years.
+    field : str
+        Field name for error messages.
+
+    Returns
+    -------
+    (numpy.ndarray [year], list of (code, message))
+
+    Raises
+    ------
+    InputError
+        Outside 0 to 120 years, or not an age.
+
+    Examples
+    --------
+    >>> parse_age("70 years")[0]
+    array(70.)
+    >>> parse_age(0.5)[1][0][0]
+    'AGE_BELOW_MAPLESON_RANGE'
+    """
+    if isinstance(age, np.ndarray | list | tuple) or (
+            isinstance(age, pint.Quantity) and np.ndim(age.magnitude) > 0):
+        q = age if isinstance(age, pint.Quantity) else Q_(np.asarray(age, dtype=float), "year")
+        if not q.check("[time]"):
+            raise InputError(field, age, "an age such as '55 years'")
+        years = np.asarray(q.to("year").magnitude, dtype=float)
+    else:
+        years = np.asarray(parse_quantity(age, field, "age", default_unit="year").to("year").magnitude,
+                           dtype=float)
+    bad = ~np.isfinite(years) | (years < AGE_RANGE[0]) | (years > AGE_RANGE[1])
+    if bad.any():
+        shown = age if years.ndim == 0 else f"{years[bad].flat[0]:g} year"
+        raise InputError(field, shown, f"{AGE_RANGE[0]:g} to {AGE_RANGE[1]:g} years")
+    notes: list[Warning] = []
+    if (years < MAPLESON_VALID_FROM).any():
+        notes.append(("AGE_BELOW_MAPLESON_RANGE",
+                      f"age below {MAPLESON_VALID_FROM:g} year: Mapleson's age correction was fitted to "
+                      "ages above 1 year; MAC in infants is not predicted by it"))
+    return years, notes
+
+
+def parse_ambient_pressure(pressure: Any, field: str = "site.ambient_pressure") -> tuple[float, list[Warning]]:
+    """Ambient (absolute) pressure in kPa, checked, with a warning outside inhabited elevations.
+
+    Examples
+    --------
+    >>> parse_ambient_pressure("101.325 kPa")
+    (101.325, [])
+    """
+    if pressure is None:
+        return STANDARD_ATMOSPHERE.to("kPa").magnitude, []
+    q = parse_quantity(pressure, field, "pressure", default_unit="kPa")
+    check_range(q, field, Q_(PRESSURE_RANGE[0], "kPa"), Q_(PRESSURE_RANGE[1], "kPa"), value=pressure)
+    kpa = float(q.to("kPa").magnitude)
+    notes: list[Warning] = []
+    if not PRESSURE_USUAL[0] <= kpa <= PRESSURE_USUAL[1]:
+        notes.append(("AMBIENT_PRESSURE_UNUSUAL",
+                      f"ambient pressure {kpa:g} kPa is outside {PRESSURE_USUAL[0]:g}-{PRESSURE_USUAL[1]:g} kPa; "
+                      "MAC is scaled as a partial pressure (common practice, no source), untested there"))
+    return kpa, notes
+
+
+def mapleson_factor(age_years: float | np.ndarray) -> float | np.ndarray:
+    """Mapleson's age factor 10^(-0.00269 (age - 40)), the ratio MAC(age) / MAC(40 years).
+
+    Parameters
+    ----------
+    age_years : float or numpy.ndarray [year]
+        Plain numbers, no checks (see :func:`parse_age` for checked input).
+
+    Returns
+    -------
+    float or numpy.ndarray
+
+    References
+    ----------
+    Mapleson WW. Br J Anaesth 1996;76:179-85.
+
+    Examples
+    --------
+    >>> round(mapleson_factor(50), 4)
+    0.94
+    >>> mapleson_factor(np.array([40.0, 80.0])).round(3)
+    array([1.   , 0.781])
+    """
+    out = 10.0 ** (-MAPLESON_SLOPE * (np.asarray(age_years, dtype=float) - MAPLESON_REFERENCE_AGE))
+    return out if np.ndim(out) else float(out)
+
+
+def mac_at_pressure(mac_one_atmosphere: Any, ambient_pressure: Any) -> pint.Quantity:
+    """MAC as a volume fraction at another ambient pressure: MAC_vol(p) = MAC_vol(1 atm) x 101.325 kPa / p.
+
+    MAC is a partial pressure, so at altitude the same MAC needs a larger volume percent
+    (common practice, no source). No limit is applied to the result: a value above 100 % means the
+    agent cannot reach 1 MAC at that pressure.
+
+    Parameters
+    ----------
+    mac_one_atmosphere : str or pint.Quantity [percent]
+        MAC volume fraction at 101.325 kPa.
+    ambient_pressure : str or pint.Quantity [kPa], absolute
+
+    Returns
+    -------
+    pint.Quantity [percent]
+
+    References
+    ----------
+    Common practice, no source (Dalton's law of partial pressures).
+
+    Examples
+    --------
+    >>> round(mac_at_pressure("1.8 %", "70 kPa").to("percent").magnitude, 3)
+    2.605
+    """
+    mac = parse_quantity(mac_one_atmosphere, "mac", "fraction")
+    kpa, _ = parse_ambient_pressure(ambient_pressure)
+    return (mac * STANDARD_ATMOSPHERE.to("kPa").magnitude / kpa).to("percent")
+
+
+def mac_at_age(name: Any, age: Any, ambient_pressure: Any = None, *, age_field: str = "patient.age",
+               agent_field: str = "agent.name", pressure_field: str = "site.ambient_pressure") -> AgeCorrectedMac:
+    """Age-corrected MAC of an agent (or nitrous oxide), as a volume percent at the ambient pressure.
+
+    Parameters
+    ----------
+    name : str or Species
+        Agent name (``"sevoflurane"``...) or ``"nitrous_oxide"``.
+    age : str, float, numpy.ndarray or pint.Quantity [year]
+        0 to 120 years; below 1 year a warning (outside Mapleson's fit).
+    ambient_pressure : str or pint.Quantity [kPa], optional
+        Absolute ambient pressure; default 101.325 kPa.
+
+    Returns
+    -------
+    AgeCorrectedMac
+
+    References
+    ----------
+    Mapleson WW. Br J Anaesth 1996;76:179-85 (formula and Table 2).
+
+    Examples
+    --------
+    >>> r = mac_at_age("isoflurane", np.array([20.0, 60.0]))
+    >>> r.mac.to("percent").magnitude.round(3)
+    array([1.324, 1.034])
+    """
+    sp = _species(name, agent_field)
+    if sp.mac40 is None:
+        raise InputError(agent_field, sp.name, "an agent with a tabulated MAC")
+    years, notes = parse_age(age, age_field)
+    kpa, pnotes = parse_ambient_pressure(ambient_pressure, pressure_field)
+    factor = mapleson_factor(years)
+    mac40 = sp.mac40.to("percent").magnitude
+    mac = Q_(mac40 * factor * STANDARD_ATMOSPHERE.to("kPa").magnitude / kpa, "percent")
+    return AgeCorrectedMac(sp.name, Q_(years if years.ndim else float(years), "year"), mac, factor,
+                           Q_(kpa, "kPa"), tuple(notes + pnotes))
+
+
+def parse_fraction(value: Any, field: str) -> float:
+    """A volume fraction 0 to 100 % as a float 0 to 1, or InputError naming ``field``.
+
+    >>> parse_fraction("67 %", "nitrous_oxide")
+    0.67
+    """
+    q = parse_quantity(value, field, "fraction")
+    check_range(q.to("percent"), field, Q_(0, "percent"), Q_(100, "percent"), value=value)
+    return float(q.to("dimensionless").magnitude)
+
+
+def total_mac(end_tidal: dict[str, Any], age: Any, ambient_pressure: Any = None) -> TotalMac:
+    """Total MAC of a mixture: the sum of F_ET,i / MAC_i(age), nitrous oxide included.
+
+    Parameters
+    ----------
+    end_tidal : dict of name -> fraction
+        End-tidal volume fractions, e.g. ``{"sevoflurane": "1.2 %", "nitrous_oxide": "50 %"}``.
+        Each 0 to 100 %, and together at most 100 %.
+    age : [year]
+    ambient_pressure : optional [kPa], absolute; default 101.325 kPa.
+
+    Returns
+    -------
+    TotalMac
+
+    References
+    ----------
+    Nickalls RWD, Mapleson WW. Br J Anaesth 2003;91:170-4; Mapleson WW. Br J Anaesth 1996;76:179.
+
+    Examples
+    --------
+    >>> round(total_mac({"isoflurane": "1.17 %"}, "40 years").total.magnitude, 6)
+    1.0
+    """
+    if not end_tidal:
+        raise InputError("end_tidal", end_tidal, "at least one agent with its end-tidal fraction")
+    parts: dict[str, pint.Quantity] = {}
+    notes: list[Warning] = []
+    sum_fraction = 0.0
+    for name, value in end_tidal.items():
+        field = f"end_tidal.{name}"
+        f = parse_fraction(value, field)
+        sum_fraction += f
+        m = mac_at_age(name, age, ambient_pressure, agent_field=field)
+        parts[m.agent] = Q_(f / m.mac.to("dimensionless").magnitude, "MAC")
+        notes.extend(w for w in m.warnings if w not in notes)
+    if sum_fraction > 1.0 + 1e-12:
+        raise InputError("end_tidal", end_tidal, "fractions that add up to at most 100 %")
+    total = sum(parts.values(), Q_(0.0, "MAC"))
+    return TotalMac(total, parts, tuple(notes))
+
+
+def end_tidal_for_total_mac(name: Any, total: Any, age: Any, nitrous_oxide: Any = 0.0,
+                            ambient_pressure: Any = None, *, total_field: str = "total_mac",
+                            nitrous_field: str = "nitrous_oxide", age_field: str = "patient.age",
+                            agent_field: str = "agent.name") -> EndTidalForTotal:
+    """End-tidal agent fraction that, together with the nitrous oxide, gives a requested total MAC.
+
+    F_agent = (total - F_N2O / MAC_N2O(age)) x MAC_agent(age), both MACs at the ambient pressure.
+
+    Parameters
+    ----------
+    name : str
+        Volatile agent.
+    total : str, float or pint.Quantity [MAC]
+        Requested total, 0 to 3 MAC; a bare number is MAC.
+    age : [year]
+    nitrous_oxide : fraction, optional
+        End-tidal nitrous oxide, 0 to 100 %; default none.
+    ambient_pressure : optional [kPa], absolute.
+
+    Returns
+    -------
+    EndTidalForTotal
+        ``end_tidal`` is None (with a warning) when nitrous oxide alone exceeds the total.
+
+    References
+    ----------
+    Nickalls RWD, Mapleson WW. Br J Anaesth 2003;91:170-4.
+
+    Examples
+    --------
+    >>> r = end_tidal_for_total_mac("sevoflurane", 1.0, "40 years", "52 %")
+    >>> round(r.end_tidal.to("percent").magnitude, 3)
+    0.9
+    """
+    m = parse_quantity(total, total_field, "mac", default_unit="MAC")
+    check_range(m, total_field, Q_(0, "MAC"), Q_(3, "MAC"), value=total)
+    want = float(m.to("MAC").magnitude)
+    f_n2o = parse_fraction(nitrous_oxide, nitrous_field)
+    am = mac_at_age(name, age, ambient_pressure, age_field=age_field, agent_field=agent_field)
+    if np.ndim(am.mac.magnitude):
+        raise InputError(age_field, age, "a single age")
+    nm = mac_at_age("nitrous_oxide", age, ambient_pressure, age_field=age_field)
+    n2o_mac = f_n2o / nm.mac.to("dimensionless").magnitude
+    notes = list(am.warnings)
+    rest = want - n2o_mac
+    if rest < -1e-12:
+        notes.append(("NITROUS_OXIDE_EXCEEDS_TOTAL",
+                      f"nitrous oxide alone gives {n2o_mac:.2f} MAC, more than the requested {want:g} MAC; "
+                      "no agent concentration can lower it"))
+        return EndTidalForTotal(None, am, Q_(n2o_mac, "MAC"), Q_(want, "MAC"), tuple(notes))
+    f_agent = max(rest, 0.0) * am.mac.to("dimensionless").magnitude
+    sp = _species(name, agent_field)
+    if sp.vaporizer_max is not None and f_agent > sp.vaporizer_max.to("dimensionless").magnitude:
+        notes.append(("END_TIDAL_ABOVE_VAPORIZER_MAX",
+                      f"{100 * f_agent:.2f} % end-tidal {sp.name} is above the vaporizer's maximum dial "
+                      f"{sp.vaporizer_max.to('percent').magnitude:g} %; it cannot be reached"))
+    if f_agent + f_n2o > 0.79:
+        notes.append(("OXYGEN_BELOW_AIR",
+                      f"{100 * f_agent:.1f} % agent and {100 * f_n2o:.1f} % nitrous oxide leave less than "
+                      "21 % for oxygen"))
+    return EndTidalForTotal(Q_(f_agent, "dimensionless").to("percent"), am, Q_(n2o_mac, "MAC"),
+                            Q_(want, "MAC"), tuple(notes))
