@@ -32,7 +32,7 @@ app = typer.Typer(
     rich_markup_mode=None,
 )
 
-_VERBS: tuple[str, ...] = ()
+_VERBS: tuple[str, ...] = ("mac",)
 
 
 def _version(value: bool) -> None:
