@@ -1,0 +1,63 @@
+"""``lowflow case FILE``: run one planned case through the circle-system model."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from . import CAUTION, app
+
+
+@app.command("case")
+def case(
+    file: Path = typer.Argument(..., help="Scenario TOML file (see the README)."),
+    json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
+    csv: Path | None = typer.Option(None, "--csv", help="Write the time series to this CSV file."),
+) -> None:
+    """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
+    from ..engine import simulate
+    from ..jsonout import dumps
+    from ..scenario import load_scenario
+
+    result = simulate(load_scenario(file))
+    if csv is not None:
+        result.series.to_csv(csv, index=False)
+    if json_out:
+        typer.echo(dumps(result.to_json()))
+        return
+    typer.echo(summary(result))
+
+
+def summary(result) -> str:
+    """Readable summary of a :class:`~estimator.results.CaseResult`."""
+    t = result.totals
+    sc = result.scenario
+    lines = [f"{sc.title or 'Case'}: {sc.agent.name}, {t['duration'].to('min').magnitude:.0f} min, "
+             f"mean fresh-gas flow {t['mean_fresh_gas_flow'].to('L/min').magnitude:.2f} L/min"]
+    rows = [
+        ("liquid agent", t["agent_liquid"].to("mL").magnitude, "mL"),
+        ("agent vapour delivered", t["agent_vapour"].to("L").magnitude, "L"),
+        ("  taken up by the patient", t["agent_uptake"].to("L").magnitude, "L"),
+        ("  vented", t["agent_vented"].to("L").magnitude, "L"),
+        ("oxygen", t["oxygen"].to("L").magnitude, "L"),
+        ("air", t["air"].to("L").magnitude, "L"),
+        ("nitrous oxide", t["nitrous_oxide"].to("L").magnitude, "L"),
+        ("CO2 absorbed", t["co2_absorbed"].to("L").magnitude, "L"),
+        ("absorbent used", t["absorbent"].to("g").magnitude, "g"),
+        ("MAC-hours", t["mac_hours"].to("MAC_hour").magnitude, ""),
+        ("CO2e (IPCC AR6 GWP100)", t["co2e"].to("kg").magnitude, "kg"),
+    ]
+    lines += [f"  {name:<28}{value:10.2f} {unit}" for name, value, unit in rows]
+    lines.append(f"  {'lowest inspired O2':<28}{100 * result.minimum_inspired_oxygen.magnitude:10.1f} %")
+    for ph in result.phases:
+        if ph.get("mode") == "end_tidal_hold":
+            reached = ph.get("target_reached")
+            when = f"reached at {reached.to('min').magnitude:.0f} min" if reached is not None else "not reached"
+            lines.append(f"  phase {ph['index']}: end-tidal hold target {when}")
+    lines.append("Gas litres: free gas at 15 degC and 101.325 kPa.")
+    if result.warnings:
+        lines.append("Warnings:")
+        lines += [f"  [{code}] {msg}" for code, msg in result.warnings]
+    lines.append(CAUTION)
+    return "\n".join(lines)

@@ -1,0 +1,254 @@
+"""The circuit model checked against published data, closed-form laws and derivations."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from engine_helpers import at_times, run, scenario
+
+from estimator import circuit as c
+from estimator.engine import R_GAS, simulate
+from estimator.properties import agent
+
+AGENTS = ("desflurane", "sevoflurane", "isoflurane", "halothane")
+
+
+def fa_fi(result, name: str, times) -> np.ndarray:
+    et = np.array(at_times(result, f"end_tidal_{name} [%]", times))
+    fi = np.array(at_times(result, f"inspired_{name} [%]", times))
+    return et / fi
+
+
+@pytest.fixture(scope="module")
+def wash_in():
+    """High fresh-gas flow (10 L/min O2, as in the Yasuda studies' open-circuit delivery)."""
+    out = {}
+    for name, dial in (("desflurane", "3 %"), ("sevoflurane", "1 %"), ("isoflurane", "0.6 %"),
+                       ("halothane", "0.4 %")):
+        r = run(name, [{"duration": "30 min", "oxygen": "10 L/min", "vaporizer": dial}])
+        out[name] = fa_fi(r, "agent", (5, 10, 30))
+    r = run("sevoflurane", [{"duration": "30 min", "oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min",
+                             "vaporizer": "0 %"}])
+    out["nitrous_oxide"] = fa_fi(r, "nitrous_oxide", (5, 10, 30))
+    return out
+
+
+def test_wash_in_ranking_yasuda_1991(wash_in):
+    # Yasuda N et al., Anesth Analg 1991;72:316 and Anesthesiology 1991;74:489: FA/FI rises in the
+    # order N2O >= desflurane > sevoflurane > isoflurane > halothane at every time. Ranking only; no
+    # tolerance needed.
+    for i in range(3):
+        seq = [wash_in[n][i] for n in ("nitrous_oxide", "desflurane", "sevoflurane", "isoflurane", "halothane")]
+        assert all(a >= b for a, b in zip(seq, seq[1:], strict=False)), seq
+
+
+def test_wash_in_values_near_yasuda_1991(wash_in):
+    # Yasuda 1991 (figures, read from memory): FA/FI at 30 min about 0.90 desflurane, 0.85
+    # sevoflurane, 0.73 isoflurane, 0.58 halothane. Tolerance 0.08 absolute: the tissue/blood values
+    # of our table are partly from memory and published solubilities spread 10-15 %.
+    published = {"desflurane": 0.90, "sevoflurane": 0.85, "isoflurane": 0.73, "halothane": 0.58}
+    for name, value in published.items():
+        assert wash_in[name][2] == pytest.approx(value, abs=0.08)
+
+
+def test_wash_in_slows_as_vessel_rich_group_fills():
+    # Yasuda 1991 figure caption: FA/FI rises steeply, then slows after 5-15 min as the vessel-rich
+    # group (time constant about 3 min for sevoflurane) fills. The rise per minute after 15 min is less
+    # than a fifth of that over the first 5 min (the early rise is the lung wash-in, the late one the
+    # slow muscle and fat groups).
+    r = run("sevoflurane", [{"duration": "30 min", "oxygen": "10 L/min", "vaporizer": "1 %"}])
+    f1, f5, f15, f30 = fa_fi(r, "agent", (1, 5, 15, 30))
+    assert (f30 - f15) / 15 < 0.2 * (f5 - f1) / 4
+
+
+@pytest.mark.parametrize("name", ["sevoflurane", "isoflurane", "desflurane"])
+def test_uptake_follows_lowe_square_root_of_time(name):
+    # Lowe HJ, Ernst EA 1981: uptake rate = f MAC lambda_bg Q t^-1/2 (mL/min; MAC in vol %, Q in dL/min,
+    # f about 1.3), so cumulative uptake between 10 and 90 min is 2 f MAC lambda Q (sqrt 90 - sqrt 10).
+    # Band +-35 %: f = 1.3 is an empirical fit to closed-circuit halothane data, blood/gas values
+    # spread 10-15 % between sources, and a compartment model departs from the law as tissues fill,
+    # most for desflurane, whose lower tissue/blood coefficients (muscle 2.0, fat 27; Yasuda 1989)
+    # fill the tissues sooner than halothane's (model/Lowe: sevoflurane 0.8, desflurane 0.7).
+    r = run(name, [{"duration": "90 min", "oxygen": "2 L/min", "air": "2 L/min", "end_tidal_target": "1 MAC"}])
+    t = r.series["time [min]"].to_numpy()
+    u = r.series["agent_uptake [mL/min]"].to_numpy()
+    sel = t >= 10
+    model = np.trapezoid(u[sel], t[sel])
+    a = agent(name)
+    q_dl = 2.0 * 70**0.75
+    lowe = 2 * 1.3 * a.mac40.to("percent").magnitude * a.blood_gas * q_dl * (math.sqrt(90) - math.sqrt(10))
+    assert model == pytest.approx(lowe, rel=0.35)
+    # and the shape: rate x sqrt(t) stays within +-30 % of its mean from 10 to 90 min
+    k = u[sel] * np.sqrt(t[sel])
+    assert k.max() / k.mean() < 1.3 and k.min() / k.mean() > 0.7
+
+
+def test_nitrous_oxide_uptake_severinghaus():
+    # Severinghaus JW, J Clin Invest 1954;33:1183: N2O uptake about 1000 t^-1/2 mL/min for a 70 kg
+    # adult at 65-75 % inspired (confirmed by Bengtson et al., Anaesthesia 1994). Band +-20 %: the
+    # published curve is an average fit over patients; ours is at 15 degC rather than STPD (+5 %).
+    r = run("sevoflurane", [{"duration": "60 min", "oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min",
+                             "vaporizer": "0 %"}])
+    for t, rate in zip((10, 20, 30, 60), at_times(r, "nitrous_oxide_uptake [mL/min]", (10, 20, 30, 60)), strict=True):
+        assert rate == pytest.approx(1000 / math.sqrt(t), rel=0.20), t
+
+
+@pytest.mark.parametrize("name,dial,flow", [("sevoflurane", 0.02, 2.0), ("isoflurane", 0.012, 1.0),
+                                            ("desflurane", 0.06, 3.0)])
+def test_fixed_dial_liquid_matches_dion(name, dial, flow):
+    # Dion P, Can J Anaesth 1992;39:633: liquid mL = C% x FGF x t x MW / (2412 x density), 2412 = 100 x
+    # 24.12 L/mol (about 21 degC). With the vaporizer output carrier x D/(1-D), C% x FGF becomes
+    # 100 D/(1-D) x carrier flow. Within 1 % (the molar volume at the model's 20 degC flowmeter
+    # conditions, 24.06 L/mol, differs from Dion's 24.12 by 0.3 %).
+    r = run(name, [{"duration": "60 min", "oxygen": f"{flow} L/min", "vaporizer": f"{100 * dial} %"}],
+            site={"temperature": "20 degC"})
+    a = agent(name)
+    dion = 100 * dial / (1 - dial) * flow * 60 * a.molar_mass.to("g/mol").magnitude / (
+        2412 * a.liquid_density.to("g/mL").magnitude)
+    assert r.totals["agent_liquid"].to("mL").magnitude == pytest.approx(dion, rel=0.01)
+
+
+def test_non_absorbing_test_lung_washes_in_with_volume_over_flow():
+    # A test lung that takes nothing up: the circuit plus lung washes in as 1 - exp(-t FGF / V), the
+    # well-mixed-tank law (common practice, no source; derivable from a mass balance). We switch off
+    # blood flow and metabolism in the parameter vector and compare the fitted time constant with
+    # V / FGF within 2 % (the lung mixes with the circuit at 6 L/min, not instantly).
+    from estimator import engine
+
+    sc = scenario("sevoflurane", [{"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
+                  circuit={"volume": "4 L", "sample_flow": "0 L/min"})
+    patient = engine.patient_from_scenario(sc)
+    site = engine.site_state(sc)
+    base = engine.base_parameters(sc, patient, site)
+    base[c.P_Q] = 0.0
+    base[c.P_VO2] = 0.0
+    base[c.P_VCO2] = 0.0
+    p = engine.phase_parameters(base, sc, sc.phases[0], site)
+    y0 = engine.initial_state(sc, base, site)
+    y0[c.Y_FA : c.Y_FA + c.NS] = y0[c.Y_FC : c.Y_FC + c.NS]
+    times = np.linspace(0, 20, 41)
+    ys, stats, _ = c.integrate_phase(y0, p, times, 1e-9, engine.absolute_tolerance(), 0.0, 10**6)
+    assert stats[0] > 0
+    amount = base[c.P_NC] * ys[:, c.Y_FC + c.AGENT] + base[c.P_NL] * ys[:, c.Y_FA + c.AGENT]
+    total = base[c.P_NC] + base[c.P_NL]
+    d = 0.02
+    fgf = p[c.P_CARRIER : c.P_CARRIER + c.NS].sum() / (1 - d)
+    frac = amount / total / d
+    sel = (times > 4) & (frac < 0.995)
+    slope = np.polyfit(times[sel], np.log(1 - frac[sel]), 1)[0]
+    assert -1 / slope == pytest.approx(total / fgf, rel=0.02)
+
+
+def test_steady_state_inspired_oxygen_matches_derived_balance():
+    # Derived here, not published. At steady state with no agent, no leak and the sample returned:
+    # N2 (with argon) in = N2 out in the exhaust and O2 in = VO2 + O2 out, so the exhaust, which is mixed
+    # expired gas, has FE_O2 / FE_N2 = r = (FGF F_O2 - VO2) / (FGF F_N2). The lung balance with no
+    # net N2 uptake gives VI FE_O2 = ... = VI FI_O2 - VO2 and VI FE_N2 = VI FI_N2 (per unit expired
+    # flow), and FI_CO2 = 0 behind a fresh absorber, so FI_O2 = (r VI + VO2) / (VI (1 + r)).
+    # After 24 h the body N2 stores are within 1 % of equilibrium (fat time constant about 4 h):
+    # tolerance 0.5 % of the fraction.
+    r = run("sevoflurane", [{"duration": "1440 min", "oxygen": "0.5 L/min", "air": "0.5 L/min",
+                             "vaporizer": "0 %"}], output={"interval": "10 min"})
+    amb = 101.325 / (R_GAS * 293.15) * 1000
+    vo2 = r.patient.oxygen_consumption.to("mL/min").magnitude / (R_GAS * 273.15 / 101.325)
+    o2_in = 0.5 * amb + 0.5 * amb * 0.20946
+    n2_in = 0.5 * amb * (1 - 0.20946)
+    ratio = (o2_in - vo2) / n2_in
+    from estimator.engine import P_H2O_BODY, T_BODY
+
+    ca = (101.325 - P_H2O_BODY) / (R_GAS * T_BODY) * 1000
+    vi = r.patient.minute_ventilation.to("L/min").magnitude * ca
+    fio2 = (ratio * vi + vo2) / (vi * (1 + ratio))
+    assert r.series["inspired_oxygen [%]"].iloc[-1] / 100 == pytest.approx(fio2, rel=0.005)
+
+
+def test_end_tidal_hold_reaches_and_holds_target():
+    # Fact of the trade (common practice, no source): a target-controlled end-tidal hold reaches 1 MAC
+    # within minutes at high flow and then holds it. The hold law is ours; we check the outcome:
+    # within 2 % of target from the reported time to the end, and MAC-hours close to 1 per hour.
+    r = run("sevoflurane", [
+        {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", "end_tidal_target": "1 MAC"},
+        {"duration": "110 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"},
+    ])
+    reached = r.phases[0]["target_reached"].to("min").magnitude
+    assert reached < 10
+    s = r.series
+    later = s[s["time [min]"] >= reached]
+    assert later["end_tidal_mac [MAC]"].between(0.98, 1.03).all()
+    assert r.totals["mac_hours"].to("MAC_hour").magnitude == pytest.approx(120 / 60, rel=0.06)
+    assert not [w for w in r.warnings if w[0].startswith("TARGET")]
+
+
+def test_mac_target_counts_nitrous_oxide():
+    # Nickalls and Mapleson 2003: MAC fractions add. With about 60 % end-tidal N2O (0.58 MAC at 40 years)
+    # a 1 MAC total target asks for only about 0.42 MAC of sevoflurane.
+    r = run("sevoflurane", [{"duration": "60 min", "oxygen": "2 L/min", "nitrous_oxide": "4 L/min",
+                             "end_tidal_target": "1 MAC"}])
+    last = r.series.iloc[-1]
+    n2o_mac = last["end_tidal_nitrous_oxide [%]"] / 104
+    agent_mac = last["end_tidal_agent [%]"] / 1.80
+    assert n2o_mac + agent_mac == pytest.approx(1.0, abs=0.02)
+    assert agent_mac < 0.5
+
+
+def test_unreachable_target_is_reported():
+    # 2 MAC isoflurane through a 5 % vaporizer at 0.3 L/min cannot be reached in 20 min.
+    r = run("isoflurane", [{"duration": "20 min", "oxygen": "0.3 L/min", "end_tidal_target": "2 MAC"}])
+    assert "TARGET_NOT_REACHED" in [w[0] for w in r.warnings]
+
+
+def test_volume_deficit_is_flagged_and_counted():
+    # Fresh gas (0.15 L/min) below O2 uptake plus leak: the bag empties. The model must flag it and count
+    # the make-up gas in the totals, never hide it.
+    r = run("sevoflurane", [{"duration": "30 min", "oxygen": "0.15 L/min", "vaporizer": "2 %"}],
+            circuit={"leak": "0.1 L/min"})
+    codes = [w[0] for w in r.warnings]
+    assert "VOLUME_DEFICIT" in codes
+    assert r.totals["volume_deficit"].to("L").magnitude > 1.0
+    assert max(r.mass_balance().values()) < 1e-6
+
+
+def test_reference_solve_agrees_to_1e6():
+    # Numerical check against scipy's DOP853 at rtol 1e-12 on the same right-hand side (scipy is the
+    # reference library; the series and totals must agree within 1e-6 relative).
+    from scipy.integrate import solve_ivp
+
+    from estimator import engine
+
+    sc = scenario("sevoflurane", [
+        {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "1 MAC"},
+        {"duration": "50 min", "oxygen": "0.5 L/min", "end_tidal_target": "1 MAC"},
+    ])
+    ours = simulate(sc)
+    patient = engine.patient_from_scenario(sc)
+    site = engine.site_state(sc)
+    base = engine.base_parameters(sc, patient, site)
+    y = engine.initial_state(sc, base, site)
+    w = np.empty(c.NW)
+    t0 = 0.0
+    ref_et, ref_y = [], None
+    for ph in sc.phases:
+        p = engine.phase_parameters(base, sc, ph, site)
+        dur = ph.duration.to("min").magnitude
+        times = engine.phase_times(t0, dur, 1.0)
+
+        def f(t, yy, p=p):
+            out = np.empty(c.NY)
+            c.rhs(yy, p, w, out)
+            return out
+
+        sol = solve_ivp(f, (t0, t0 + dur), y, method="DOP853", t_eval=times, rtol=1e-12,
+                        atol=1e-14 * np.maximum(1.0, np.abs(y)))
+        d = c.derived_series(sol.y.T.copy(), p)
+        ref_et.append(d[:, c.W_FET + c.AGENT])
+        y = sol.y[:, -1].copy()
+        t0 += dur
+        ref_y = y
+    ref_et = np.concatenate(ref_et) * 100
+    np.testing.assert_allclose(ours.series["end_tidal_agent [%]"].to_numpy(), ref_et, rtol=1e-6, atol=1e-9)
+    agent_ref = ref_y[c.Y_FGIN + c.AGENT]
+    from estimator.results import litres_per_mmol
+
+    assert ours.totals["agent_vapour"].to("L").magnitude == pytest.approx(agent_ref * litres_per_mmol(), rel=1e-6)
