@@ -34,6 +34,7 @@ import pint
 
 from .errors import InputError
 from .properties import Species, agent, gas
+from .site import site_from_inputs
 from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
 
 #: Slope of log10(MAC) against age [1/year] (Mapleson 1996).
@@ -45,11 +46,6 @@ MAPLESON_REFERENCE_AGE = 40.0
 MAPLESON_VALID_FROM = 1.0
 #: Ages [year] accepted at all.
 AGE_RANGE = (0.0, 120.0)
-#: Ambient pressures [kPa] accepted, and the range of inhabited elevations (about 6000 m to the
-#: Dead Sea shore) outside which a warning is given (common practice, no source).
-PRESSURE_RANGE = (30.0, 350.0)
-PRESSURE_USUAL = (47.0, 107.0)
-
 SOURCE = ("Mapleson WW. Br J Anaesth 1996;76:179 (age correction); Nickalls RWD, Mapleson WW. "
           "Br J Anaesth 2003;91:170 (MAC fractions add, nitrous oxide included); MAC as a partial "
           "pressure at other ambient pressures: common practice, no source")
@@ -176,24 +172,23 @@ def parse_age(age: Any, field: str = "patient.age") -> tuple[np.ndarray, list[Wa
 
 
 def parse_ambient_pressure(pressure: Any, field: str = "site.ambient_pressure") -> tuple[float, list[Warning]]:
-    """Ambient (absolute) pressure in kPa, checked, with a warning outside inhabited elevations.
+    """Absolute ambient pressure in kPa, checked as the site model checks it (None: 101.325 kPa).
+
+    The range and the warning above the limit of habitation are those of
+    :func:`estimator.site.site_from_inputs`; errors name ``field``.
 
     Examples
     --------
-    >>> parse_ambient_pressure("101.325 kPa")
-    (101.325, [])
+    >>> parse_ambient_pressure("70 kPa")
+    (70.0, [])
     """
     if pressure is None:
         return STANDARD_ATMOSPHERE.to("kPa").magnitude, []
-    q = parse_quantity(pressure, field, "pressure", default_unit="kPa")
-    check_range(q, field, Q_(PRESSURE_RANGE[0], "kPa"), Q_(PRESSURE_RANGE[1], "kPa"), value=pressure)
-    kpa = float(q.to("kPa").magnitude)
-    notes: list[Warning] = []
-    if not PRESSURE_USUAL[0] <= kpa <= PRESSURE_USUAL[1]:
-        notes.append(("AMBIENT_PRESSURE_UNUSUAL",
-                      f"ambient pressure {kpa:g} kPa is outside {PRESSURE_USUAL[0]:g}-{PRESSURE_USUAL[1]:g} kPa; "
-                      "MAC is scaled as a partial pressure (common practice, no source), untested there"))
-    return kpa, notes
+    try:
+        site = site_from_inputs(ambient_pressure=pressure)
+    except InputError as exc:
+        raise InputError(field, exc.value, exc.expected) from None
+    return float(site.ambient_pressure.to("kPa").magnitude), list(site.warnings)
 
 
 def mapleson_factor(age_years: float | np.ndarray) -> float | np.ndarray:
@@ -368,7 +363,9 @@ def end_tidal_for_total_mac(name: Any, total: Any, age: Any, nitrous_oxide: Any 
     Returns
     -------
     EndTidalForTotal
-        ``end_tidal`` is None (with a warning) when nitrous oxide alone exceeds the total.
+        ``end_tidal`` is None (with a warning) when nitrous oxide alone exceeds the total. A
+        warning also flags an end-tidal above the vaporizer's maximum dial (compared as volume
+        percent, as on a sea-level dial) and a mixture leaving less than 21 % for oxygen.
 
     References
     ----------

@@ -71,6 +71,7 @@ def test_human_output_ends_with_caution(capsys):
     (["--agent", "sevoflurane", "--age", "40", "--nitrous-oxide", "150 %"], "--nitrous-oxide"),
     (["--agent", "sevoflurane", "--age", "40", "--total-mac", "9"], "--total-mac"),
     (["--agent", "sevoflurane", "--age", "40", "--ambient-pressure", "2 kPa"], "--ambient-pressure"),
+    (["--agent", "sevoflurane", "--age", "40", "--elevation", "20000 m"], "--elevation"),
 ])
 def test_errors_are_one_line_naming_the_field(args, field, capsys):
     code, out, err = run(["mac", *args], capsys)
@@ -78,6 +79,17 @@ def test_errors_are_one_line_naming_the_field(args, field, capsys):
     lines = err.strip().splitlines()
     assert len(lines) == 1 and field in lines[0] and "expected" in lines[0]
     assert "Traceback" not in err
+
+
+def test_elevation_gives_mac_as_partial_pressure(capsys):
+    # ICAO standard atmosphere (ISO 2533): 70.12 kPa at 3000 m; 1 MAC sevoflurane at 40 years is
+    # then 1.80 x 101.325 / 70.12 = 2.601 % (MAC as a partial pressure, common practice, no source).
+    # rel 1e-3 covers the 4-digit table pressure.
+    code, out, _ = run(["mac", "--agent", "sevoflurane", "--age", "40", "--elevation", "3000 m", "--json"], capsys)
+    doc = json.loads(out)
+    assert code == 0 and doc["pressure_basis"] == "standard atmosphere"
+    assert doc["ambient_pressure"]["magnitude"] == pytest.approx(70.12, rel=1e-3)
+    assert doc["mac"]["magnitude"] == pytest.approx(1.80 * 101.325 / 70.12, rel=1e-3)
 
 
 def test_missing_option_exits_2(capsys):

@@ -17,16 +17,26 @@ from typing import Any
 
 import typer
 
+from ..errors import InputError
 from ..jsonout import dumps
 from ..mac import SOURCE, end_tidal_for_total_mac, mac_at_age, parse_fraction
+from ..site import site_from_inputs
 from ..units import Q_
 from . import CAUTION, app
 
 _FIELDS = {"age_field": "--age", "agent_field": "--agent", "pressure_field": "--ambient-pressure"}
 
 
+def _site(elevation: Any, ambient_pressure: Any) -> Any:
+    try:
+        return site_from_inputs(elevation=elevation, ambient_pressure=ambient_pressure)
+    except InputError as exc:  # name the CLI option, not the scenario-file field
+        option = "--elevation" if exc.field == "site.elevation" else "--ambient-pressure"
+        raise InputError(option, exc.value, exc.expected) from None
+
+
 def mac_report(agent: str, age: Any, nitrous_oxide: Any = None, total: Any = None,
-               ambient_pressure: Any = None) -> dict[str, Any]:
+               ambient_pressure: Any = None, elevation: Any = None) -> dict[str, Any]:
     """The ``lowflow mac`` result: a dict of quantities, the JSON document before encoding.
 
     Parameters
@@ -36,7 +46,8 @@ def mac_report(agent: str, age: Any, nitrous_oxide: Any = None, total: Any = Non
     age : [year]; a bare number is years.
     nitrous_oxide : optional end-tidal fraction of nitrous oxide.
     total : optional requested total MAC; a bare number is MAC.
-    ambient_pressure : optional absolute pressure [kPa].
+    ambient_pressure : optional absolute pressure [kPa]; or
+    elevation : optional site elevation [m] (ISO 2533 standard atmosphere). Default sea level.
 
     References
     ----------
@@ -48,22 +59,26 @@ def mac_report(agent: str, age: Any, nitrous_oxide: Any = None, total: Any = Non
     >>> r["mac"].to("percent").magnitude, r["end_tidal_for_total"] is None
     (1.17, True)
     """
-    m = mac_at_age(agent, age, ambient_pressure, **_FIELDS)
-    warnings = list(m.warnings)
+    site = _site(elevation, ambient_pressure)
+    pressure = site.ambient_pressure
+    m = mac_at_age(agent, age, pressure, **_FIELDS)
+    warnings = list(site.warnings)
+    warnings += [w for w in m.warnings if w[0] not in {c for c, _ in warnings}]
     f_n2o = 0.0 if nitrous_oxide is None else parse_fraction(nitrous_oxide, "--nitrous-oxide")
-    n2o = mac_at_age("nitrous_oxide", age, ambient_pressure, **_FIELDS)
+    n2o = mac_at_age("nitrous_oxide", age, pressure, **_FIELDS)
     n2o_mac = Q_(f_n2o / n2o.mac.to("dimensionless").magnitude, "MAC")
     end_tidal = requested = None
     if total is not None:
-        r = end_tidal_for_total_mac(m.agent, total, age, f_n2o, ambient_pressure, total_field="--total-mac",
+        r = end_tidal_for_total_mac(m.agent, total, age, f_n2o, pressure, total_field="--total-mac",
                                     nitrous_field="--nitrous-oxide", age_field="--age",
                                     agent_field="--agent")
         end_tidal, requested = r.end_tidal, r.total
-        warnings.extend(w for w in r.warnings if w not in warnings)
+        warnings += [w for w in r.warnings if w[0] not in {c for c, _ in warnings}]
     return {
         "agent": m.agent,
         "age": m.age,
         "ambient_pressure": m.ambient_pressure,
+        "pressure_basis": site.basis,
         "mac": m.mac,
         "age_factor": m.factor,
         "nitrous_oxide": Q_(f_n2o, "dimensionless").to("percent"),
@@ -101,8 +116,10 @@ def mac_command(
     total: str | None = typer.Option(None, "--total-mac", help="Requested total MAC, e.g. 1.2; gives the agent end-tidal."),
     ambient_pressure: str | None = typer.Option(None, "--ambient-pressure",
                                                 help="Absolute ambient pressure, e.g. '80 kPa' (default 101.325 kPa)."),
+    elevation: str | None = typer.Option(None, "--elevation",
+                                         help="Site elevation, e.g. '2400 m'; pressure from the standard atmosphere."),
     json_out: bool = typer.Option(False, "--json", help="Print JSON (quantities as magnitude and units)."),
 ) -> None:
     """Age-corrected MAC (Mapleson 1996) and the end-tidal agent for a total MAC with nitrous oxide."""
-    r = mac_report(agent, age, nitrous_oxide, total, ambient_pressure)
+    r = mac_report(agent, age, nitrous_oxide, total, ambient_pressure, elevation)
     typer.echo(dumps(r) if json_out else _human(r))
