@@ -197,13 +197,23 @@ def resolve_gas(spec: Any, purity: Any = None, field_name: str = "gas") -> dict[
     return {g: y / total for g, y in out.items()}
 
 
-def _chapman_enskog(name: str, t: float) -> float:
-    """Viscosity [Pa s] of a dilute gas from Lennard-Jones parameters (Chapman-Enskog)."""
-    sec = f"lennard_jones.{name}"
-    sigma = _si(sec, "sigma", "angstrom")
-    ts = t / _si(sec, "epsilon_over_k", "K")
+def chapman_enskog_viscosity(t: float, sigma: float, epsilon_over_k: float, molar_mass: float) -> float:
+    """Dilute-gas viscosity [Pa s] by Chapman-Enskog with a Lennard-Jones potential.
+
+    Parameters
+    ----------
+    t : [K]; sigma : [angstrom]; epsilon_over_k : [K]; molar_mass : [g/mol]
+
+    References
+    ----------
+    Poling, Prausnitz, O'Connell 2001, eq. 9-3.9; collision integral of Neufeld et al. 1972.
+
+    >>> round(chapman_enskog_viscosity(293.15, 3.467, 106.7, 31.999) * 1e6, 1)
+    20.2
+    """
+    ts = t / epsilon_over_k
     omega = 1.16145 * ts ** -0.14874 + 0.52487 * math.exp(-0.77320 * ts) + 2.16178 * math.exp(-2.43787 * ts)
-    return 26.69e-7 * math.sqrt(_si(sec, "molar_mass", "g/mol") * t) / (sigma ** 2 * omega)
+    return 26.69e-7 * math.sqrt(molar_mass * t) / (sigma ** 2 * omega)
 
 
 @cache
@@ -218,7 +228,12 @@ def pure_gas_properties(name: str, t: float, p: float) -> tuple[float, float, fl
 
     fluid = COOLPROP_NAMES[name]
     rho = CP.PropsSI("D", "T", t, "P", p, fluid)
-    mu = _chapman_enskog(name, t) if name == "nitrous_oxide" else CP.PropsSI("V", "T", t, "P", p, fluid)
+    if f"lennard_jones.{name}" in _data():  # CoolProp has no viscosity model for it
+        lj = f"lennard_jones.{name}"
+        mu = chapman_enskog_viscosity(t, _si(lj, "sigma", "angstrom"), _si(lj, "epsilon_over_k", "K"),
+                                      _si(lj, "molar_mass", "g/mol"))
+    else:
+        mu = CP.PropsSI("V", "T", t, "P", p, fluid)
     return rho, mu, CP.PropsSI("M", fluid)
 
 
