@@ -37,7 +37,7 @@ import numpy as np
 import pint
 
 from .errors import InputError
-from .mac import mac_at_age
+from .mac import mac_at_age, parse_fraction
 from .physiology import SANE_WEIGHT, patient_parameters
 from .properties import Species, agent
 from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity, ureg
@@ -234,10 +234,7 @@ def lowe_dose_times(count: int) -> pint.Quantity:
 def _severinghaus_scale(weight: Any, inspired: Any) -> tuple[float, list[Warning]]:
     w = parse_quantity(weight, "patient.weight", "mass", default_unit="kg")
     check_range(w, "patient.weight", Q_(SANE_WEIGHT[0], "kg"), Q_(SANE_WEIGHT[1], "kg"), value=weight)
-    f = parse_quantity(inspired, "inspired_nitrous_oxide", "fraction").to("dimensionless")
-    check_range(f, "inspired_nitrous_oxide", Q_(0, "dimensionless"), Q_(1, "dimensionless"),
-                value=inspired)
-    kg, frac = float(w.to("kg").magnitude), float(f.magnitude)
+    kg, frac = float(w.to("kg").magnitude), parse_fraction(inspired, "inspired_nitrous_oxide")
     notes: list[Warning] = []
     if not SEVERINGHAUS_WEIGHT_RANGE[0] <= kg <= SEVERINGHAUS_WEIGHT_RANGE[1]:
         notes.append(("SEVERINGHAUS_WEIGHT_SCALED",
@@ -292,14 +289,12 @@ def severinghaus_cumulative_uptake(t: Any, *, weight: Any = "70 kg", inspired: A
 
 
 def _dion_inputs(concentration: Any, fresh_gas_flow: Any, duration: Any) -> tuple[float, float, float]:
-    c = parse_quantity(concentration, "concentration", "fraction").to("dimensionless")
-    check_range(c, "concentration", Q_(0, "dimensionless"), Q_(1, "dimensionless"), value=concentration,
-                low_inclusive=True)
+    c = parse_fraction(concentration, "concentration")
     fgf = parse_quantity(fresh_gas_flow, "fresh_gas_flow", "flow", default_unit="L/min")
     check_range(fgf, "fresh_gas_flow", Q_(0, "L/min"), Q_(100, "L/min"), value=fresh_gas_flow)
     t = parse_quantity(duration, "duration", "time", default_unit="min")
     check_range(t, "duration", Q_(0, "min"), Q_(1e6, "min"), value=duration)
-    return float(c.magnitude), float(fgf.to("L/min").magnitude), float(t.to("min").magnitude)
+    return c, float(fgf.to("L/min").magnitude), float(t.to("min").magnitude)
 
 
 def dion_liquid_volume(concentration: Any, fresh_gas_flow: Any, duration: Any, name: Any) -> pint.Quantity:

@@ -381,7 +381,8 @@ def end_tidal_for_total_mac(name: Any, total: Any, age: Any, nitrous_oxide: Any 
     check_range(m, total_field, Q_(0, "MAC"), Q_(3, "MAC"), value=total)
     want = float(m.to("MAC").magnitude)
     f_n2o = parse_fraction(nitrous_oxide, nitrous_field)
-    am = mac_at_age(name, age, ambient_pressure, age_field=age_field, agent_field=agent_field)
+    sp = name if isinstance(name, Species) else agent(name, agent_field)  # volatile agents only
+    am = mac_at_age(sp, age, ambient_pressure, age_field=age_field, agent_field=agent_field)
     if np.ndim(am.mac.magnitude):
         raise InputError(age_field, age, "a single age")
     nm = mac_at_age("nitrous_oxide", age, ambient_pressure, age_field=age_field)
@@ -394,12 +395,15 @@ def end_tidal_for_total_mac(name: Any, total: Any, age: Any, nitrous_oxide: Any 
                       "no agent concentration can lower it"))
         return EndTidalForTotal(None, am, Q_(n2o_mac, "MAC"), Q_(want, "MAC"), tuple(notes))
     f_agent = max(rest, 0.0) * am.mac.to("dimensionless").magnitude
-    sp = _species(name, agent_field)
     if sp.vaporizer_max is not None and f_agent > sp.vaporizer_max.to("dimensionless").magnitude:
         notes.append(("END_TIDAL_ABOVE_VAPORIZER_MAX",
                       f"{100 * f_agent:.2f} % end-tidal {sp.name} is above the vaporizer's maximum dial "
                       f"{sp.vaporizer_max.to('percent').magnitude:g} %; it cannot be reached"))
-    if f_agent + f_n2o > 0.79:
+    if f_agent + f_n2o > 1.0:
+        notes.append(("MIXTURE_ABOVE_100_PERCENT",
+                      f"{100 * f_agent:.1f} % agent and {100 * f_n2o:.1f} % nitrous oxide add up to more "
+                      "than 100 %; this total MAC cannot be given with this nitrous oxide"))
+    elif f_agent + f_n2o > 0.79:
         notes.append(("OXYGEN_BELOW_AIR",
                       f"{100 * f_agent:.1f} % agent and {100 * f_n2o:.1f} % nitrous oxide leave less than "
                       "21 % for oxygen"))

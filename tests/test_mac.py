@@ -139,6 +139,12 @@ def test_inverse_flags_unreachable_and_hypoxic():
     # for oxygen, below the 21 % of air.
     r = end_tidal_for_total_mac("desflurane", 2.0, 40, "75 %")
     assert "OXYGEN_BELOW_AIR" in [c for c, _ in r.warnings]
+    # 3 MAC at 1 year with 80 % nitrous oxide: (3 - 80/(104 x 1.273)) x 6.6 x 1.273 = 20.1 % desflurane,
+    # 100.1 % in all.
+    r = end_tidal_for_total_mac("desflurane", 3.0, 1, "80 %")
+    assert "MIXTURE_ABOVE_100_PERCENT" in [c for c, _ in r.warnings]
+    with pytest.raises(InputError, match="agent.name"):
+        end_tidal_for_total_mac("nitrous_oxide", 1.0, 40)
 
 
 @settings(max_examples=60, deadline=None)
