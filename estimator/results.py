@@ -169,29 +169,30 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
                 n2o_l += vol
         u = ws[:, c.W_U]
         dial = u * site.ambient_pressure_kpa / 101.325 if kind_bypass else u
-        df = pd.DataFrame({"time [min]": times, "phase": index})
-        for s, name in _NAMES.items():
-            df[f"inspired_{name} [%]"] = 100 * ws[:, c.W_FI + s]
-            df[f"end_tidal_{name} [%]"] = 100 * ws[:, c.W_FET + s]
+        cols: dict[str, Any] = {"time [min]": times, "phase": np.full(times.shape, index)}
+        for sp, name in _NAMES.items():
+            cols[f"inspired_{name} [%]"] = 100 * ws[:, c.W_FI + sp]
+            cols[f"end_tidal_{name} [%]"] = 100 * ws[:, c.W_FET + sp]
         hold = p[c.P_MODE] == c.MODE_HOLD
-        df["end_tidal_target [%]"] = 100 * ws[:, c.W_TARGET] if hold else np.nan
-        df["end_tidal_mac [MAC]"] = ws[:, c.W_MAC]
-        df["vaporizer_setting [%]"] = 100 * dial
-        df["delivered_agent [%]"] = 100 * u
-        df["fresh_gas_flow [L/min]"] = ws[:, c.W_FGF] / amb
-        df["exhaust_flow [L/min]"] = ws[:, c.W_EX] / amb
-        df["volume_deficit_flow [L/min]"] = ws[:, c.W_MAKEUP] / amb
-        df["oxygen_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.O2]
-        df["agent_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.AGENT]
-        df["nitrous_oxide_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.N2O]
-        df["co2_to_absorbent [mL/min]"] = 1000 * lpm * ws[:, c.W_CO2ABS]
+        cols["end_tidal_target [%]"] = 100 * ws[:, c.W_TARGET] if hold else np.full(times.shape, np.nan)
+        cols["end_tidal_mac [MAC]"] = ws[:, c.W_MAC]
+        cols["vaporizer_setting [%]"] = 100 * dial
+        cols["delivered_agent [%]"] = 100 * u
+        cols["fresh_gas_flow [L/min]"] = ws[:, c.W_FGF] / amb
+        cols["exhaust_flow [L/min]"] = ws[:, c.W_EX] / amb
+        cols["volume_deficit_flow [L/min]"] = ws[:, c.W_MAKEUP] / amb
+        cols["oxygen_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.O2]
+        cols["agent_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.AGENT]
+        cols["nitrous_oxide_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.N2O]
+        cols["co2_to_absorbent [mL/min]"] = 1000 * lpm * ws[:, c.W_CO2ABS]
+        df = cols
         frames.append(df)
         info: dict[str, Any] = {"index": index, "start": Q_(times[0], "min"), "end": Q_(times[-1], "min"),
                                 "mode": "end_tidal_hold" if hold else "vaporizer"}
         if hold:
             info.update(_hold_report(index, times, ws, p, warns))
         phases.append(info)
-    series = pd.concat(frames, ignore_index=True)
+    series = pd.DataFrame({k: np.concatenate([f[k] for f in frames]) for k in frames[0]})
     y0, y1 = y_first, chunks[-1][2][-1]
     totals, balance = _totals(scenario, ag, base, y0, y1, amb, lpm, (o2_l, air_l, n2o_l))
     fio2 = series["inspired_oxygen [%]"].to_numpy() / 100
