@@ -215,6 +215,8 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
     cases["start"] = log.case_start
     cases["room"] = log.case_room
     cases["month"] = log.case_month
+    cases["patient_weight_kg"] = log.case_weight
+    cases["patient_age_year"] = log.case_age
     for name, arr in (("oxygen_l", o2), ("air_l", air), ("nitrous_oxide_l", n2o)):
         cases[name] = _case_sum(codes, arr * w, n_cases)
     cases["fresh_gas_l"] = cases["oxygen_l"] + cases["air_l"] + cases["nitrous_oxide_l"]

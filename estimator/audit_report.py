@@ -34,7 +34,7 @@ SUM_COLUMNS = ("duration_min", "oxygen_l", "air_l", "nitrous_oxide_l", "fresh_ga
                "agent_liquid_ml", "co2e_agent_kg", "co2e_nitrous_oxide_kg", "co2e_kg", "cost_agent",
                "cost_gases", "cost_total", "maintenance_time_min")
 UNIT_OF_SUFFIX = (("_l_min", "liter / minute"), ("_kg", "kilogram"), ("_ml", "milliliter"), ("_min", "minute"),
-                  ("_l", "liter"))
+                  ("_l", "liter"), ("_year", "year"))
 
 
 def _pooled(df: pd.DataFrame, column: str) -> float:
