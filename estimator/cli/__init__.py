@@ -32,7 +32,7 @@ app = typer.Typer(
     rich_markup_mode=None,
 )
 
-_VERBS: tuple[str, ...] = ("mac", "case", "flowmeter")
+_VERBS: tuple[str, ...] = ("mac", "case", "flowmeter", "audit")
 
 
 def _version(value: bool) -> None:
