@@ -1,0 +1,60 @@
+"""``lowflow supply FILE``: supply duration of an inventory, its bottleneck and the reorder date."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from ..jsonout import dumps
+from ..supply import SupplyReport, load_inventory, plan_supply
+from . import CAUTION, app
+
+
+def _amount(q) -> str:  # noqa: ANN001 - pint quantity or None
+    if q is None:
+        return "-"
+    return f"{q.magnitude:,.1f} {q.units:~P}"
+
+
+def _runtime(item) -> str:  # noqa: ANN001
+    if item.runtime is None:
+        return item.status
+    return f"{item.runtime.to('day').magnitude:.1f} d" + (" (empty)" if item.status == "empty" else "")
+
+
+def render(report: SupplyReport) -> str:
+    """Readable text of a :class:`~estimator.supply.SupplyReport`, ending with the caution."""
+    lines = [f"Supply duration{': ' + report.title if report.title else ''} (from {report.start.isoformat()})", ""]
+    header = f"{'item':<28} {'kind':<12} {'usable':>16} {'draw a day':>16} {'lasts':>12}"
+    lines += [header, "-" * len(header)]
+    for i in report.items:
+        lines.append(f"{i.name[:28]:<28} {i.kind:<12} {_amount(i.usable):>16} {_amount(i.draw_per_day):>16} "
+                     f"{_runtime(i):>12}")
+    lines.append("")
+    if report.bottleneck is None:
+        lines.append("Bottleneck: none - no supply runs out under this plan.")
+    else:
+        days = report.days_of_supply.to("day").magnitude
+        lines.append(f"Bottleneck: {report.bottleneck} ({report.bottleneck_supply}) - the supply fails after "
+                     f"{days:.1f} days.")
+        if report.cases_possible is not None:
+            lines.append(f"Cases possible before then: {report.cases_possible}")
+        lines.append(f"Reorder by: {report.reorder_by.isoformat()}")
+    lines.append(f"Gas volumes: {report.gas_volume_reference}.")
+    if report.warnings:
+        lines += ["", "Warnings:"] + [f"  [{c}] {m}" for c, m in report.warnings]
+    lines += ["", CAUTION]
+    return "\n".join(lines)
+
+
+@app.command("supply")
+def supply(
+    file: Annotated[Path, typer.Argument(help="Inventory file (TOML): stocks, sources and demand.")],
+    json_out: Annotated[bool, typer.Option("--json", help="Print JSON instead of text.")] = False,
+    start: Annotated[str | None, typer.Option("--start", help="First day (YYYY-MM-DD); default plan.start or today.")] = None,
+) -> None:
+    """How long the stocks last, which runs out first (the bottleneck) and when to reorder."""
+    report = plan_supply(load_inventory(file), start=start)
+    typer.echo(dumps(report) if json_out else render(report))

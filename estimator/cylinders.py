@@ -1,0 +1,417 @@
+"""Cylinder contents from real-gas properties: compressed oxygen and air, nitrous oxide by weight.
+
+Compressed gases (oxygen, medical air) are counted from the gauge reading: the amount of gas in
+the cylinder is the real-gas molar density at the cylinder's temperature and absolute pressure,
+taken from CoolProp's reference equations of state, times the water capacity. It is reported as
+free gas at the package reference (15 degC, 101.325 kPa): litres = moles x R T_ref / p_ref. The
+ideal-gas figure (water capacity x p / p_ref x T_ref / T) is returned beside it; oxygen holds more
+than ideal at 137-200 bar (Z < 1), air less at 200-300 bar (Z > 1).
+
+Nitrous oxide is stored as a liquid under its own vapour pressure, so the gauge says nothing about
+the contents until the liquid is gone: contents come from the net weight (gross - tare) only. Above
+the critical temperature (about 36.4 degC) no liquid can exist; the pressure then follows the gas
+law (CoolProp density) and a warning says so.
+
+References
+----------
+.. [1] Bell IH, Wronski J, Quoilin S, Lemort V. Pure and pseudo-pure fluid thermophysical property
+   evaluation and the open-source thermophysical property library CoolProp. Ind Eng Chem Res
+   2014;53:2498-508 (equations of state of Schmidt and Wagner 1985 for oxygen, Lemmon et al. 2000
+   for air, Span and Wagner 2003 for nitrous oxide).
+.. [2] ISO 13769, gas cylinders - stamp marking (water capacity and working pressure at 15 degC).
+
+Examples
+--------
+>>> c = compressed_cylinder("oxygen", "10 L", "200 bar", "15 degC", "0 bar")
+>>> round(c.contents.to("L").magnitude, -1)
+2130.0
+>>> c.compressibility < 1
+True
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import dataclass, field
+from functools import cache
+from importlib import resources
+from typing import Any
+
+import pint
+
+from .errors import InputError
+from .properties import CONFIDENCE_CODES, DataError
+from .units import (
+    Q_,
+    REFERENCE_PRESSURE,
+    REFERENCE_TEMPERATURE,
+    STANDARD_ATMOSPHERE,
+    check_range,
+    parse_pressure,
+    parse_quantity,
+)
+
+#: CoolProp fluid names of the gases a cylinder may hold.
+COOLPROP_FLUIDS = {"oxygen": "Oxygen", "air": "Air", "nitrous_oxide": "NitrousOxide"}
+COMPRESSED_GASES = ("oxygen", "air")
+#: Molar gas constant [J/(mol K)] (CODATA 2018, exact in the 2019 SI).
+GAS_CONSTANT = 8.314462618
+#: Cylinder temperatures accepted [degC]: the service range of medical gas cylinders, -40 to 65 degC
+#: (common practice, no source); outside it the reading is rejected, not extrapolated.
+TEMPERATURE_RANGE = (-40.0, 65.0)
+#: Largest gauge pressure accepted without a stated service pressure [bar]: 300 bar is the highest
+#: working pressure of medical cylinders in use (common practice, no source).
+MAX_PRESSURE_BAR = 300.0
+
+
+@cache
+def supply_data() -> dict[str, dict[str, Any]]:
+    """Values of ``estimator/data/supply.toml`` (section -> key -> value), each checked for a source.
+
+    Raises
+    ------
+    DataError
+        On a value without a known source or a valid confidence code.
+
+    Examples
+    --------
+    >>> supply_data()["ventilator"]["drive_multiplier"]
+    2.0
+    """
+    text = resources.files("estimator").joinpath("data/supply.toml").read_text(encoding="utf-8")
+    raw = tomllib.loads(text)
+    sources = raw.pop("sources")
+    out: dict[str, dict[str, Any]] = {}
+    for section, values in raw.items():
+        out[section] = {}
+        for key, rec in values.items():
+            if not isinstance(rec, dict) or rec.get("source") not in sources \
+                    or rec.get("confidence") not in CONFIDENCE_CODES or "value" not in rec:
+                raise DataError(f"supply.toml [{section}].{key}: needs value, a known source and a confidence code")
+            out[section][key] = rec["value"]
+    return out
+
+
+def _cp() -> Any:
+    """CoolProp's PropsSI, imported lazily so that the app starts fast."""
+    from CoolProp.CoolProp import PropsSI
+
+    return PropsSI
+
+
+def _fluid(gas: str, field_name: str = "gas") -> str:
+    key = str(gas).strip().lower()
+    if key not in COOLPROP_FLUIDS:
+        raise InputError(field_name, gas, "one of " + ", ".join(COOLPROP_FLUIDS))
+    return COOLPROP_FLUIDS[key]
+
+
+def reference_molar_volume() -> pint.Quantity:
+    """Ideal molar volume at the package reference, R T_ref / p_ref [L/mol].
+
+    >>> round(reference_molar_volume().to("L/mol").magnitude, 3)
+    23.645
+    """
+    t = REFERENCE_TEMPERATURE.to("K").magnitude
+    p = REFERENCE_PRESSURE.to("Pa").magnitude
+    return Q_(GAS_CONSTANT * t / p * 1000.0, "L/mol")
+
+
+def molar_density(gas: str, temperature: pint.Quantity, pressure: pint.Quantity) -> pint.Quantity:
+    """Real-gas molar density from CoolProp at a temperature and an *absolute* pressure [mol/L].
+
+    >>> round(molar_density("oxygen", Q_(15, "degC"), Q_(1, "atm")).to("mol/L").magnitude, 4)
+    0.0423
+    """
+    rho = _cp()("Dmolar", "T", temperature.to("K").magnitude, "P", pressure.to("Pa").magnitude, _fluid(gas))
+    return Q_(rho / 1000.0, "mol/L")
+
+
+def compressibility(gas: str, temperature: pint.Quantity, pressure: pint.Quantity) -> float:
+    """Compressibility factor Z = p / (rho R T) from CoolProp (absolute pressure).
+
+    >>> round(compressibility("air", Q_(15, "degC"), Q_(300, "bar")), 3)
+    1.101
+    """
+    rho = molar_density(gas, temperature, pressure).to("mol/m^3").magnitude
+    return pressure.to("Pa").magnitude / (rho * GAS_CONSTANT * temperature.to("K").magnitude)
+
+
+def vapour_pressure(gas: str, temperature: pint.Quantity) -> pint.Quantity | None:
+    """Saturation (vapour) pressure from CoolProp, or None above the critical temperature [kPa].
+
+    >>> round(vapour_pressure("nitrous_oxide", Q_(20, "degC")).to("bar").magnitude, 1)
+    50.5
+    >>> vapour_pressure("nitrous_oxide", Q_(40, "degC")) is None
+    True
+    """
+    t = temperature.to("K").magnitude
+    if t >= critical_temperature(gas).to("K").magnitude:
+        return None
+    return Q_(_cp()("P", "T", t, "Q", 0, _fluid(gas)) / 1000.0, "kPa")
+
+
+def critical_temperature(gas: str) -> pint.Quantity:
+    """Critical temperature from CoolProp [K] (nitrous oxide about 309.5 K, 36.4 degC)."""
+    return Q_(_cp()("Tcrit", "", 0, "", 0, _fluid(gas)), "K")
+
+
+def litres_per_kg(gas: str, temperature: pint.Quantity = REFERENCE_TEMPERATURE,
+                  pressure: pint.Quantity = REFERENCE_PRESSURE, real_gas: bool = False) -> pint.Quantity:
+    """Free-gas volume of one kilogram [L/kg].
+
+    With ``real_gas=False`` (the package convention, used for all contents) the volume is the ideal
+    molar volume at (``temperature``, ``pressure``) over the molar mass; with ``real_gas=True`` it is
+    1 kg over CoolProp's real-gas mass density at that state (nitrous oxide at 1 atm: Z about 0.994).
+
+    >>> round(litres_per_kg("nitrous_oxide").to("L/kg").magnitude)
+    537
+    >>> round(litres_per_kg("nitrous_oxide", real_gas=True).to("L/kg").magnitude)
+    534
+    """
+    molar_mass = _cp()("M", "", 0, "", 0, _fluid(gas))  # kg/mol
+    if real_gas:
+        rho = molar_density(gas, temperature, pressure).to("mol/L").magnitude
+        return Q_(1.0 / (molar_mass * rho), "L/kg")
+    vm = GAS_CONSTANT * temperature.to("K").magnitude / pressure.to("Pa").magnitude * 1000.0
+    return Q_(vm / molar_mass, "L/kg")
+
+
+def free_gas(moles: pint.Quantity) -> pint.Quantity:
+    """Moles as free gas at the package reference [L]."""
+    return (moles * reference_molar_volume()).to("L")
+
+
+@dataclass(frozen=True)
+class CylinderContents:
+    """Contents of one cylinder entry (``count`` identical cylinders).
+
+    Attributes
+    ----------
+    gas : str
+    count : int
+    contents : pint.Quantity [L] free gas in one cylinder now
+    usable : pint.Quantity [L] free gas of all ``count`` cylinders above the change-out reserve
+    compressibility : float or None
+        Z at the cylinder state (compressed gases, or nitrous oxide above its critical temperature).
+    ideal_contents : pint.Quantity or None [L], ideal-gas figure for one cylinder (compressed gases)
+    pressure : pint.Quantity or None [kPa] absolute: the reading (compressed) or the pressure the
+        contents imply (nitrous oxide)
+    vapour_pressure : pint.Quantity or None [kPa] (nitrous oxide below its critical temperature)
+    phase : str
+        ``"gas"``, ``"liquid and vapour"``, ``"vapour only"`` or ``"supercritical"``.
+    warnings : tuple of (code, message)
+    """
+
+    gas: str
+    count: int
+    contents: pint.Quantity
+    usable: pint.Quantity
+    compressibility: float | None = None
+    ideal_contents: pint.Quantity | None = None
+    pressure: pint.Quantity | None = None
+    vapour_pressure: pint.Quantity | None = None
+    net_weight: pint.Quantity | None = None
+    phase: str = "gas"
+    warnings: tuple[tuple[str, str], ...] = field(default=())
+
+
+def _temperature(value: Any, field_name: str) -> pint.Quantity:
+    t = parse_quantity(value, field_name, "temperature", default_unit="degC")
+    lo, hi = TEMPERATURE_RANGE
+    check_range(t.to("degC"), field_name, Q_(lo, "degC"), Q_(hi, "degC"), value=value)
+    return t.to("K")
+
+
+def _count(value: Any, field_name: str) -> int:
+    if isinstance(value, bool) or not isinstance(value, int) or value < 0:
+        raise InputError(field_name, value, "a whole number of cylinders, 0 or more")
+    return value
+
+
+def compressed_cylinder(gas: str, water_capacity: Any, pressure: Any, temperature: Any = "15 degC",
+                        reserve_pressure: Any = None, *, count: int = 1, service_pressure: Any = None,
+                        ambient_pressure: pint.Quantity = STANDARD_ATMOSPHERE,
+                        field_prefix: str = "cylinder") -> CylinderContents:
+    """Contents and usable amount of compressed oxygen or air cylinders, by real-gas density.
+
+    Parameters
+    ----------
+    gas : {"oxygen", "air"}
+    water_capacity : [L] internal volume (marked on the cylinder).
+    pressure : [bar] gauge as read (``"200 bar"``; ``"bar(a)"`` for absolute).
+    temperature : [degC] of the cylinder, -40 to 65 degC.
+    reserve_pressure : [bar] gauge at which the cylinder is changed out (local policy); None or 0
+        means run to ambient pressure, with a warning.
+    count : number of identical cylinders in this state.
+    service_pressure : [bar] optional rated (working) pressure, settled at 15 degC; a reading whose
+        gas would exceed it once settled to 15 degC is rejected.
+    ambient_pressure : [kPa] for gauge to absolute.
+    field_prefix : str, prefix of field names in error messages, e.g. ``"cylinders[0]"``.
+
+    Returns
+    -------
+    CylinderContents
+
+    References
+    ----------
+    CoolProp (Bell et al. 2014); free gas at 15 degC and 101.325 kPa as for cylinder contents.
+
+    Examples
+    --------
+    >>> c = compressed_cylinder("air", "10 L", "300 bar", "15 degC", "10 bar", count=2)
+    >>> c.contents < c.ideal_contents
+    True
+    """
+    f = field_prefix
+    if str(gas).strip().lower() not in COMPRESSED_GASES:
+        raise InputError(f"{f}.gas", gas, "oxygen or air for a cylinder counted by pressure "
+                                          "(nitrous_oxide is counted by weight)")
+    gas = str(gas).strip().lower()
+    n = _count(count, f"{f}.count")
+    wc = parse_quantity(water_capacity, f"{f}.water_capacity", "volume", default_unit="L")
+    check_range(wc.to("L"), f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False,
+                value=water_capacity)
+    t = _temperature(temperature, f"{f}.temperature")
+    hi_bar = MAX_PRESSURE_BAR
+    notes: list[tuple[str, str]] = []
+    if service_pressure is not None:
+        sp = parse_pressure(service_pressure, f"{f}.service_pressure").gauge(ambient_pressure)
+        check_range(sp.to("bar"), f"{f}.service_pressure", Q_(0, "bar"), Q_(MAX_PRESSURE_BAR, "bar"),
+                    low_inclusive=False, value=service_pressure)
+        hi_bar = sp.to("bar").magnitude
+    reading = parse_pressure(pressure, f"{f}.pressure")
+    p_gauge = reading.gauge(ambient_pressure).to("bar")
+    p_abs = reading.absolute(ambient_pressure).to("kPa")
+    check_range(p_gauge, f"{f}.pressure", Q_(0, "bar"), Q_(MAX_PRESSURE_BAR, "bar"), value=pressure)
+    rho = molar_density(gas, t, p_abs)
+    if service_pressure is not None:
+        settled = Q_(_cp()("P", "T", REFERENCE_TEMPERATURE.to("K").magnitude, "Dmolar",
+                           rho.to("mol/m^3").magnitude, COOLPROP_FLUIDS[gas]), "Pa")
+        settled_gauge = (settled - ambient_pressure).to("bar").magnitude
+        if settled_gauge > hi_bar * (1 + 1e-6):
+            raise InputError(f"{f}.pressure", pressure,
+                             f"0 to {hi_bar:g} bar, the service pressure at 15 degC (this reading "
+                             f"settles to {settled_gauge:.1f} bar at 15 degC)")
+    if reserve_pressure is None or parse_pressure(reserve_pressure, f"{f}.reserve_pressure").gauge(
+            ambient_pressure).magnitude == 0:
+        notes.append(("no_reserve", f"{f}: no change-out reserve pressure set; usable contents assume "
+                                    "the cylinder is run down to ambient pressure"))
+        r_abs = ambient_pressure.to("kPa")
+    else:
+        r = parse_pressure(reserve_pressure, f"{f}.reserve_pressure")
+        check_range(r.gauge(ambient_pressure).to("bar"), f"{f}.reserve_pressure", Q_(0, "bar"),
+                    Q_(hi_bar, "bar"), value=reserve_pressure)
+        r_abs = r.absolute(ambient_pressure).to("kPa")
+    contents = free_gas(rho * wc)
+    residual = free_gas(molar_density(gas, t, r_abs) * wc)
+    per = contents - residual
+    if per.magnitude <= 0:
+        notes.append(("below_reserve", f"{f}: the gauge reading is at or below the change-out reserve; "
+                                       "nothing usable is counted"))
+        per = Q_(0.0, "L")
+    ideal = (wc * p_abs / REFERENCE_PRESSURE * REFERENCE_TEMPERATURE.to("K") / t).to("L")
+    return CylinderContents(gas=gas, count=n, contents=contents.to("L"), usable=(per * n).to("L"),
+                            compressibility=compressibility(gas, t, p_abs), ideal_contents=ideal,
+                            pressure=p_abs, phase="gas", warnings=tuple(notes))
+
+
+def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any = "15 degC", *,
+                           count: int = 1, water_capacity: Any = None, pressure: Any = None,
+                           reserve_weight: Any = None,
+                           ambient_pressure: pint.Quantity = STANDARD_ATMOSPHERE,
+                           field_prefix: str = "cylinder") -> CylinderContents:
+    """Contents of nitrous oxide cylinders by weight; the gauge reading is never used for contents.
+
+    Parameters
+    ----------
+    gross_weight, tare_weight : [kg] weighed cylinder and its stamped empty weight.
+    temperature : [degC] of the cylinder.
+    count : number of identical cylinders.
+    water_capacity : [L] optional; gives the pressure above the critical temperature, the phase
+        when nearly empty, and a check on the filling ratio.
+    pressure : optional gauge reading, shown beside the vapour pressure, never used for contents.
+    reserve_weight : [kg] optional net weight kept as a reserve (local policy).
+    ambient_pressure : [kPa]
+    field_prefix : str
+
+    Returns
+    -------
+    CylinderContents
+        ``usable`` is free gas at 15 degC and 101.325 kPa: net mass / molar mass x R T_ref / p_ref.
+
+    References
+    ----------
+    CoolProp (Bell et al. 2014) with the equation of state of Span and Wagner (2003).
+
+    Examples
+    --------
+    >>> c = nitrous_oxide_cylinder("8.5 kg", "5.0 kg")
+    >>> round(c.usable.to("L").magnitude, -1)
+    1880.0
+    >>> c.phase, round(c.vapour_pressure.to("bar").magnitude)
+    ('liquid and vapour', 45)
+    """
+    f = field_prefix
+    n = _count(count, f"{f}.count")
+    gross = parse_quantity(gross_weight, f"{f}.gross_weight", "mass", default_unit="kg").to("kg")
+    check_range(gross, f"{f}.gross_weight", Q_(0, "kg"), Q_(200, "kg"), low_inclusive=False, value=gross_weight)
+    tare = parse_quantity(tare_weight, f"{f}.tare_weight", "mass", default_unit="kg").to("kg")
+    check_range(tare, f"{f}.tare_weight", Q_(0, "kg"), gross, low_inclusive=False, value=tare_weight)
+    t = _temperature(temperature, f"{f}.temperature")
+    net = gross - tare
+    notes: list[tuple[str, str]] = []
+    fluid = COOLPROP_FLUIDS["nitrous_oxide"]
+    molar_mass = Q_(_cp()("M", "", 0, "", 0, fluid), "kg/mol")
+    tc = critical_temperature("nitrous_oxide")
+    p_sat = vapour_pressure("nitrous_oxide", t)
+    phase = "liquid and vapour" if p_sat is not None else "supercritical"
+    p_state = p_sat
+    z = None
+    wc = None
+    if water_capacity is not None:
+        wc = parse_quantity(water_capacity, f"{f}.water_capacity", "volume", default_unit="L").to("L")
+        check_range(wc, f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False,
+                    value=water_capacity)
+        density = (net / wc).to("kg/m^3").magnitude
+        if p_sat is not None:
+            vapour_density = _cp()("D", "T", t.magnitude, "Q", 1, fluid)
+            if density < vapour_density:
+                phase = "vapour only"
+        if phase != "liquid and vapour":
+            p_state = Q_(_cp()("P", "T", t.magnitude, "D", max(density, 1e-6), fluid) / 1000.0, "kPa")
+            z = compressibility("nitrous_oxide", t, p_state)
+        ratio = Q_(supply_data()["nitrous_oxide"]["filling_ratio"]).to("kg/L").magnitude
+        if (net / wc).to("kg/L").magnitude > ratio:
+            notes.append(("nitrous_oxide_overfilled", f"{f}: {(net / wc).to('kg/L').magnitude:.2f} kg/L "
+                          f"is above the usual filling ratio of {ratio:g} kg/L (from memory); check the weights"))
+    if phase == "supercritical":
+        msg = (f"{f}: at {t.to('degC').magnitude:.1f} degC the nitrous oxide is above its critical "
+               f"temperature ({tc.to('degC').magnitude:.1f} degC): no liquid remains and the pressure "
+               "follows the gas law; contents still from weight")
+        notes.append(("nitrous_oxide_supercritical", msg))
+    elif phase == "vapour only":
+        notes.append(("nitrous_oxide_no_liquid", f"{f}: the weight implies no liquid is left; the gauge "
+                      "now falls with use"))
+    if pressure is not None and p_sat is not None and phase == "liquid and vapour":
+        g = parse_pressure(pressure, f"{f}.pressure").absolute(ambient_pressure)
+        if g.to("kPa").magnitude < 0.9 * p_sat.magnitude:
+            notes.append(("nitrous_oxide_gauge_low", f"{f}: gauge reads below the vapour pressure "
+                          f"({p_sat.to('bar').magnitude:.1f} bar absolute): the weights may be wrong or "
+                          "the cylinder colder than stated; contents are from weight"))
+    reserve = Q_(0.0, "kg")
+    if reserve_weight is not None:
+        reserve = parse_quantity(reserve_weight, f"{f}.reserve_weight", "mass", default_unit="kg").to("kg")
+        check_range(reserve, f"{f}.reserve_weight", Q_(0, "kg"), Q_(200, "kg"), value=reserve_weight)
+    residual = Q_(0.0, "kg")
+    if wc is not None:  # the gas left at ambient pressure cannot be delivered
+        residual = Q_(_cp()("D", "T", t.magnitude, "P", ambient_pressure.to("Pa").magnitude, fluid), "kg/m^3") * wc
+    keep = max(reserve, residual.to("kg"))
+    usable_mass = max(net - keep, Q_(0.0, "kg"))
+    if usable_mass.magnitude == 0:
+        notes.append(("below_reserve", f"{f}: net weight is at or below the reserve; nothing usable is counted"))
+    contents = free_gas(net / molar_mass)
+    return CylinderContents(gas="nitrous_oxide", count=n, contents=contents,
+                            usable=(free_gas(usable_mass / molar_mass) * n).to("L"), compressibility=z,
+                            pressure=p_state, vapour_pressure=p_sat, net_weight=net, phase=phase,
+                            warnings=tuple(notes))
