@@ -55,17 +55,14 @@ Examples
 from __future__ import annotations
 
 import math
-import tomllib
 from dataclasses import dataclass, field
-from functools import cache
-from importlib import resources
 from typing import Any
 
 import numpy as np
 import pint
 
 from .errors import InputError
-from .properties import DataError, Sourced, gas
+from .gas_mixtures import data_value, mixture_properties, resolve_gas
 from .site import Site, site_from_inputs  # noqa: F401 (doctests)
 from .units import (
     GAS_VOLUME_REFERENCE,
@@ -76,197 +73,23 @@ from .units import (
 )
 from .units import check_range as _check_range
 
-#: Gases the model knows, with their CoolProp fluid names.
-COOLPROP_NAMES = {"oxygen": "Oxygen", "nitrogen": "Nitrogen", "argon": "Argon", "helium": "Helium",
-                  "nitrous_oxide": "NitrousOxide", "carbon_dioxide": "CarbonDioxide", "air": "Air"}
 #: Regime names from the viscous share of the float's pressure drop.
 LAMINAR_SHARE, TURBULENT_SHARE = 0.8, 0.2
 #: Readings [L/min] accepted; below LOW_READING a warning (sticking float, common practice).
 READING_RANGE = (0.0, 100.0)
 LOW_READING = 0.1
 BACK_PRESSURE_RANGE = (0.0, 20.0)  # kPa gauge at the tube outlet
-_DIMS = {"temperature": "[temperature]", "pressure": "[pressure]", "accuracy": "[]",
-         "float_diameter": "[length]", "rim_length": "[length]", "discharge_coefficient": "[]",
-         "pressure_drop": "[pressure]", "float_density": "[mass] / [length] ** 3", "sigma": "[length]",
-         "epsilon_over_k": "[temperature]", "molar_mass": "[mass] / [substance]", "argon_to_oxygen": "[]",
-         "lowest_pharmacopoeial_purity": "[]"}
-
-
-@cache
-def _data() -> dict[str, dict[str, Sourced]]:
-    raw = tomllib.loads(resources.files("estimator").joinpath("data/flowmeter.toml").read_text("utf-8"))
-    return load_records(raw)
-
-
-def load_records(raw: dict[str, Any]) -> dict[str, dict[str, Sourced]]:
-    """Validate the flowmeter data table: every value with a known source, a code and its dimension.
-
-    Raises
-    ------
-    DataError
-        On a missing or unknown source, a bad confidence code or a value of the wrong dimension.
-    """
-    sources = raw.get("sources", {})
-    sections = {k: v for k, v in raw.items() if k not in ("sources", "lennard_jones")}
-    sections.update({f"lennard_jones.{k}": v for k, v in raw.get("lennard_jones", {}).items()})
-    out: dict[str, dict[str, Sourced]] = {}
-    for name, props in sections.items():
-        out[name] = {}
-        for prop, rec in props.items():
-            where = f"flowmeter.toml [{name}].{prop}"
-            if not isinstance(rec, dict) or rec.get("source") not in sources:
-                raise DataError(f"{where}: needs value and a source listed in [sources]")
-            if rec.get("confidence") not in ("V", "S", "M", "D", "C"):
-                raise DataError(f"{where}: confidence must be one of V S M D C")
-            value = rec["value"]
-            q = Q_(value.replace("%", "percent")) if isinstance(value, str) else Q_(float(value), "")
-            if prop not in _DIMS or not q.check(_DIMS[prop]):
-                raise DataError(f"{where}: unknown property or {value!r} has the wrong dimension")
-            out[name][prop] = Sourced(q, rec["source"], rec["confidence"], rec.get("note", ""))
-    return out
-
-
-def _si(section: str, prop: str, unit: str) -> float:
-    return float(_data()[section][prop].value.to(unit).magnitude)
 
 
 @dataclass(frozen=True)
 class FlowmeterGeometry:
     """Float and annulus of the tube [SI units]. Defaults from ``data/flowmeter.toml``."""
 
-    float_diameter: float = field(default_factory=lambda: _si("geometry", "float_diameter", "m"))
-    rim_length: float = field(default_factory=lambda: _si("geometry", "rim_length", "m"))
-    discharge_coefficient: float = field(default_factory=lambda: _si("geometry", "discharge_coefficient", ""))
-    pressure_drop: float = field(default_factory=lambda: _si("geometry", "pressure_drop", "Pa"))
-    float_density: float = field(default_factory=lambda: _si("geometry", "float_density", "kg/m^3"))
-
-
-# ---------------------------------------------------------------- gas composition and properties
-def concentrator_composition(purity: Any) -> dict[str, float]:
-    """Oxygen concentrator product: O2 at ``purity``, argon in its air ratio to O2, rest nitrogen.
-
-    >>> {k: round(v, 4) for k, v in concentrator_composition("93 %").items()}
-    {'oxygen': 0.93, 'argon': 0.0415, 'nitrogen': 0.0285}
-    """
-    x = float(parse_quantity(purity, "purity", "fraction").to("").magnitude)
-    ratio = _si("concentrator", "argon_to_oxygen", "")
-    top = 1.0 / (1.0 + ratio)
-    if not 0.21 <= x <= top:
-        raise InputError("purity", purity, f"21 to {100 * top:.1f} % oxygen (argon passes a concentrator with oxygen)")
-    return {"oxygen": x, "argon": ratio * x, "nitrogen": 1.0 - x - ratio * x}
-
-
-def resolve_gas(spec: Any, purity: Any = None, field_name: str = "gas") -> dict[str, float]:
-    """Mole fractions of a gas given by name, as ``"concentrator"`` or as a mixture.
-
-    ``spec`` is a name (oxygen, air, nitrous_oxide, nitrogen, argon, helium, carbon_dioxide,
-    concentrator), a dict name -> fraction, or text ``"oxygen=30 %, nitrous_oxide=70 %"``. Mixture
-    fractions must sum to 1 within 0.001 (they are then scaled to sum exactly); air in a mixture
-    counts as its N2, O2 and Ar.
-
-    >>> resolve_gas("oxygen=0.3, nitrous_oxide=70 %")
-    {'oxygen': 0.3, 'nitrous_oxide': 0.7}
-    """
-    if isinstance(spec, str) and "=" in spec:
-        pairs = [part.split("=", 1) for part in spec.split(",") if part.strip()]
-        spec = {k.strip(): v.strip() for k, v in pairs}
-    if isinstance(spec, str):
-        key = spec.strip().lower().replace(" ", "_").replace("-", "_")
-        if key in ("concentrator", "oxygen_93", "o2_93"):
-            return concentrator_composition("93 %" if purity is None else purity)
-        name = "helium" if key in ("helium", "he") else gas(key, field_name).name
-        if name not in COOLPROP_NAMES:
-            raise InputError(field_name, spec, "one of " + ", ".join(sorted({*COOLPROP_NAMES, "concentrator"})))
-        return {name: 1.0}
-    if not isinstance(spec, dict) or not spec:
-        raise InputError(field_name, spec, "a gas name or a mixture such as 'oxygen=30 %, nitrous_oxide=70 %'")
-    out: dict[str, float] = {}
-    for key, frac in spec.items():
-        x = float(parse_quantity(frac, f"{field_name}.{key}", "fraction").to("").magnitude)
-        _check_range(Q_(x, ""), f"{field_name}.{key}", 0.0, 1.0, value=frac)
-        parts = resolve_gas(key, purity, field_name)
-        if parts == {"air": 1.0} and len(spec) > 1:
-            air = gas("air").records
-            parts = {g: air[f"{g}_fraction"].value for g in ("oxygen", "nitrogen", "argon")}
-            parts["nitrogen"] += 1.0 - sum(parts.values())
-        for g, y in parts.items():
-            out[g] = out.get(g, 0.0) + x * y
-    total = sum(out.values())
-    if abs(total - 1.0) > 1e-3:
-        raise InputError(field_name, spec, f"fractions that sum to 1 (these sum to {total:.4g})")
-    return {g: y / total for g, y in out.items()}
-
-
-def chapman_enskog_viscosity(t: float, sigma: float, epsilon_over_k: float, molar_mass: float) -> float:
-    """Dilute-gas viscosity [Pa s] by Chapman-Enskog with a Lennard-Jones potential.
-
-    Parameters
-    ----------
-    t : [K]; sigma : [angstrom]; epsilon_over_k : [K]; molar_mass : [g/mol]
-
-    References
-    ----------
-    Poling, Prausnitz, O'Connell 2001, eq. 9-3.9; collision integral of Neufeld et al. 1972.
-
-    >>> round(chapman_enskog_viscosity(293.15, 3.467, 106.7, 31.999) * 1e6, 1)
-    20.2
-    """
-    ts = t / epsilon_over_k
-    omega = 1.16145 * ts ** -0.14874 + 0.52487 * math.exp(-0.77320 * ts) + 2.16178 * math.exp(-2.43787 * ts)
-    return 26.69e-7 * math.sqrt(molar_mass * t) / (sigma ** 2 * omega)
-
-
-@cache
-def pure_gas_properties(name: str, t: float, p: float) -> tuple[float, float, float]:
-    """Density [kg/m3], viscosity [Pa s] and molar mass [kg/mol] of a pure gas at t [K], p [Pa].
-
-    >>> rho, mu, m = pure_gas_properties("oxygen", 293.15, 101325.0)
-    >>> round(rho, 3), round(mu * 1e6, 2)
-    (1.331, 20.27)
-    """
-    import CoolProp.CoolProp as CP  # lazy: keeps the app start fast
-
-    fluid = COOLPROP_NAMES[name]
-    rho = CP.PropsSI("D", "T", t, "P", p, fluid)
-    if f"lennard_jones.{name}" in _data():  # CoolProp has no viscosity model for it
-        lj = f"lennard_jones.{name}"
-        mu = chapman_enskog_viscosity(t, _si(lj, "sigma", "angstrom"), _si(lj, "epsilon_over_k", "K"),
-                                      _si(lj, "molar_mass", "g/mol"))
-    else:
-        mu = CP.PropsSI("V", "T", t, "P", p, fluid)
-    return rho, mu, CP.PropsSI("M", fluid)
-
-
-def wilke_viscosity(x: Any, mu: Any, m: Any) -> float:
-    """Viscosity of a gas mixture by Wilke's rule (Wilke 1950).
-
-    Parameters
-    ----------
-    x, mu, m : sequences of mole fraction [-], viscosity [Pa s], molar mass [any one unit]
-
-    >>> round(wilke_viscosity([1.0], [2e-5], [32.0]) * 1e5, 6)
-    2.0
-    """
-    x, mu, m = (np.asarray(v, dtype=float) for v in (x, mu, m))
-    phi = (1 + np.sqrt(mu[:, None] / mu[None, :]) * (m[None, :] / m[:, None]) ** 0.25) ** 2 \
-        / np.sqrt(8 * (1 + m[:, None] / m[None, :]))
-    return float(np.sum(x * mu / (phi @ x)))
-
-
-def mixture_properties(composition: dict[str, float], t: float, p: float) -> tuple[float, float]:
-    """Density [kg/m3] and viscosity [Pa s] of a mixture at t [K], p [Pa].
-
-    Density: molar mass average with the mole-fraction average of the components' Z (real gas,
-    adequate at these pressures where Z - 1 is of order 1e-3); viscosity: Wilke (1950).
-    """
-    names = list(composition)
-    if len(names) == 1:
-        return pure_gas_properties(names[0], t, p)[:2]
-    x = np.array([composition[n] for n in names])
-    props = np.array([pure_gas_properties(n, t, p) for n in names])
-    rho, mu, m = props.T
-    z = p * m / (rho * 8.314462618 * t)
-    return float(p * np.dot(x, m) / (np.dot(x, z) * 8.314462618 * t)), wilke_viscosity(x, mu, m)
+    float_diameter: float = field(default_factory=lambda: data_value("geometry", "float_diameter", "m"))
+    rim_length: float = field(default_factory=lambda: data_value("geometry", "rim_length", "m"))
+    discharge_coefficient: float = field(default_factory=lambda: data_value("geometry", "discharge_coefficient", ""))
+    pressure_drop: float = field(default_factory=lambda: data_value("geometry", "pressure_drop", "Pa"))
+    float_density: float = field(default_factory=lambda: data_value("geometry", "float_density", "kg/m^3"))
 
 
 # ---------------------------------------------------------------- the float model (plain SI floats)
@@ -418,13 +241,13 @@ def true_flow(reading: Any, calibrated_for: Any, gas_in_use: Any, site: Site, *,
         raise InputError("purity", purity, "no purity unless a gas is 'concentrator'")
     cal_mix = resolve_gas(calibrated_for, purity, "calibrated_for")
     use_mix = resolve_gas(gas_in_use, purity, "gas")
-    acc = _si("calibration", "accuracy", "") if accuracy is None else float(
+    acc = data_value("calibration", "accuracy", "") if accuracy is None else float(
         parse_quantity(accuracy, "accuracy", "fraction").to("").magnitude)
     _check_range(Q_(acc, ""), "accuracy", 0.0, 0.5, value=accuracy)
     bp = Q_(0.0, "kPa") if back_pressure is None else parse_quantity(back_pressure, "back_pressure", "pressure", "kPa")
     _check_range(bp.to("kPa"), "back_pressure", *BACK_PRESSURE_RANGE, value=back_pressure)
 
-    t_cal, p_cal = _si("calibration", "temperature", "K"), _si("calibration", "pressure", "Pa")
+    t_cal, p_cal = data_value("calibration", "temperature", "K"), data_value("calibration", "pressure", "Pa")
     t = float(site.temperature.to("K").magnitude)
     p_amb = float(site.ambient_pressure.to("Pa").magnitude)
     p_tube = p_amb + float(bp.to("Pa").magnitude)

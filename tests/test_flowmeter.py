@@ -9,16 +9,14 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from estimator.errors import InputError
-from estimator.flowmeter import (
-    FlowmeterGeometry,
-    annulus_flow,
+from estimator.flowmeter import FlowmeterGeometry, annulus_flow, true_flow
+from estimator.gas_mixtures import (
     chapman_enskog_viscosity,
     concentrator_composition,
     load_records,
     mixture_properties,
     pure_gas_properties,
     resolve_gas,
-    true_flow,
     wilke_viscosity,
 )
 from estimator.properties import DataError
