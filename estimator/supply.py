@@ -50,20 +50,24 @@ import numpy as np
 import pandas as pd
 import pint
 
-from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, supply_data
+from .cylinders import supply_data
 from .errors import InputError
-from .properties import AGENTS
 from .supply_file import (
+    ARGON_PER_OXYGEN,
     GASES,
     SOURCE_KINDS,
+    WEEK,
     CasePlan,
-    ConcentratorEntry,
     Inventory,
+    Pool,
+    add_interval,
     clock_minutes,
     gas_name,
     load_inventory,
     minutes_per_day,
     parse_days,
+    read_concentrators,
+    read_stocks,
     site_ambient,
     start_date,
     whole_number,
@@ -77,10 +81,6 @@ from .units import (
 
 __all__ = ["Inventory", "SupplyItem", "SupplyReport", "load_inventory", "plan_supply"]
 
-WEEK = 7 * 1440  # minutes
-#: Argon to oxygen ratio of dry air (0.934 / 20.946 % by volume, CRC Handbook); a zeolite sieve
-#: does not separate argon from oxygen, so concentrator product keeps it (common practice, no source).
-ARGON_PER_OXYGEN = 0.00934 / 0.20946
 
 
 @dataclass(frozen=True)
@@ -145,45 +145,8 @@ class SupplyReport:
             "gas_volume_reference": self.gas_volume_reference})
 
 
-def _purity_curve(entry: ConcentratorEntry, rated: float, f: str) -> tuple[np.ndarray, np.ndarray]:
-    """Flow [L/min] and O2 fraction points of a concentrator's purity curve."""
-    top = 1.0 / (1.0 + ARGON_PER_OXYGEN)  # all nitrogen removed: O2 + argon only
-    if entry.purity is None:
-        pts = supply_data()["concentrator"]["purity_curve"]
-        flows, fr = np.array([p[0] * rated for p in pts]), np.array([p[1] for p in pts])
-    elif isinstance(entry.purity, list):
-        if len(entry.purity) < 2 or any(len(p) != 2 for p in entry.purity):
-            raise InputError(f"{f}.purity", entry.purity, "a list of [flow, purity] pairs, at least two")
-        flows = np.array([parse_quantity(p[0], f"{f}.purity[{i}][0]", "flow", "L/min").to("L/min").magnitude
-                          for i, p in enumerate(entry.purity)])
-        fr = np.array([parse_quantity(p[1], f"{f}.purity[{i}][1]", "fraction").to("").magnitude
-                       for i, p in enumerate(entry.purity)])
-        if flows[0] != 0 or flows[-1] < rated or np.any(np.diff(flows) <= 0):
-            raise InputError(f"{f}.purity", entry.purity,
-                             f"flows rising from 0 L/min to at least the rated flow, {rated:g} L/min")
-    else:
-        p = parse_quantity(entry.purity, f"{f}.purity", "fraction").to("").magnitude
-        flows, fr = np.array([0.0, rated]), np.array([p, p])
-    if np.any(fr <= 0.21) or np.any(fr > top + 1e-9):
-        raise InputError(f"{f}.purity", entry.purity, f"O2 fractions above 21 % and at most {100 * top:.1f} % "
-                                                       "(the argon of air stays in the product)")
-    return flows, fr
-
-
 # ---------------------------------------------------------------------------------------------
 # demand: one week, minute by minute
-
-
-def _add(arr: np.ndarray, t0: float, t1: float, rate: float) -> None:
-    """Add ``rate`` [units/min] over [t0, t1) minutes to a weekly per-minute array (wraps)."""
-    i0, i1 = int(np.floor(t0)), int(np.floor(t1))
-    if i0 == i1:
-        arr[i0 % WEEK] += rate * (t1 - t0)
-        return
-    arr[i0 % WEEK] += rate * (i0 + 1 - t0)
-    arr[np.arange(i0 + 1, i1) % WEEK] += rate
-    if t1 > i1:
-        arr[i1 % WEEK] += rate * (t1 - i1)
 
 
 def _minute_ventilation(result: Any, plan: CasePlan, f: str) -> float:
@@ -278,7 +241,7 @@ def _demand_week(inv: Inventory, start: date, runner: Callable[[str], Any],
                                      f"cases that fit in 24 h in {plan.rooms} room(s) after the other plans")
                 for key, amount in per_case.items():
                     if amount:
-                        _add(arr(key), d * 1440 + t0, d * 1440 + t0 + duration, amount / duration)
+                        add_interval(arr(key), d * 1440 + t0, d * 1440 + t0 + duration, amount / duration)
                 ends[label].append((d * 1440 + t0 + duration) % WEEK)
     for k, c in enumerate(dem.continuous):
         f = f"demand.continuous[{k}]"
@@ -296,121 +259,21 @@ def _demand_week(inv: Inventory, start: date, runner: Callable[[str], Any],
         t_on = clock_minutes(c.start, f"{f}.start")
         for d in range(7):
             if weekday[d] < whole_number(c.days_per_week, f"{f}.days_per_week", 0, 7) and hours > 0:
-                _add(arr(g), d * 1440 + (0 if hours >= 1440 else t_on), d * 1440 + (0 if hours >= 1440 else t_on) + hours, rate)
+                add_interval(arr(g), d * 1440 + (0 if hours >= 1440 else t_on), d * 1440 + (0 if hours >= 1440 else t_on) + hours, rate)
     return need, ends
-
-
-# ---------------------------------------------------------------------------------------------
-# stocks and sources
-
-
-@dataclass
-class _Pool:
-    """One supply: stock items drawn one after another, and the draw that falls on them."""
-
-    name: str
-    unit: str
-    items: list[tuple[str, str, float, dict[str, Any]]] = field(default_factory=list)
-    draw: np.ndarray = field(default_factory=lambda: np.zeros(WEEK))
-    unmet_after: np.ndarray = field(default_factory=lambda: np.zeros(WEEK))
-
-
-def _unique(name: str, taken: set[str], f: str) -> str:
-    if name in taken:
-        raise InputError(f"{f}.name", name, "a name not used by another item")
-    taken.add(name)
-    return name
-
-
-def _stocks(inv: Inventory, ambient: pint.Quantity, warns: list[tuple[str, str]],
-            names: set[str]) -> dict[str, _Pool]:
-    pools: dict[str, _Pool] = {}
-    for k, c in enumerate(inv.cylinders):
-        f = f"cylinders[{k}]"
-        g = gas_name(c.gas, f"{f}.gas")
-        if g == "nitrous_oxide":
-            for key in ("gross_weight", "tare_weight"):
-                if getattr(c, key) is None:
-                    raise InputError(f"{f}.{key}", "(missing)", "a mass such as '8.5 kg' (nitrous oxide is counted by weight)")
-            res = nitrous_oxide_cylinder(c.gross_weight, c.tare_weight, c.temperature, count=c.count,
-                                         water_capacity=c.water_capacity, pressure=c.pressure,
-                                         reserve_weight=c.reserve_weight, ambient_pressure=ambient, field_prefix=f)
-        else:
-            for key in ("water_capacity", "pressure"):
-                if getattr(c, key) is None:
-                    raise InputError(f"{f}.{key}", "(missing)", "a value: required for a compressed-gas cylinder")
-            if c.gross_weight is not None or c.tare_weight is not None:
-                raise InputError(f"{f}.gross_weight", c.gross_weight, "no weights for oxygen or air (counted by pressure)")
-            res = compressed_cylinder(g, c.water_capacity, c.pressure, c.temperature, c.reserve_pressure,
-                                      count=c.count, service_pressure=c.service_pressure,
-                                      ambient_pressure=ambient, field_prefix=f)
-        name = _unique(c.name or f"{g.replace('_', ' ')} cylinders {k + 1}", names, f)
-        warns.extend((code, msg.replace(f + ":", f"{name}:")) for code, msg in res.warnings)
-        details = {"count": res.count, "contents_per_cylinder": res.contents, "phase": res.phase}
-        for key in ("compressibility", "ideal_contents", "pressure", "vapour_pressure", "net_weight"):
-            if getattr(res, key) is not None:
-                details[key] = getattr(res, key)
-        pools.setdefault(g, _Pool(g, "L")).items.append((name, "cylinder", res.usable.to("L").magnitude, details))
-    for k, b in enumerate(inv.bottles):
-        f = f"bottles[{k}]"
-        a = b.agent.strip().lower()
-        if a not in AGENTS:
-            raise InputError(f"{f}.agent", b.agent, "one of " + ", ".join(sorted(AGENTS)))
-        whole_number(b.count, f"{f}.count", 0, 10000)
-        vol = check_range(parse_quantity(b.volume, f"{f}.volume", "volume", "mL").to("mL"), f"{f}.volume",
-                          Q_(0, "mL"), Q_(5000, "mL"), low_inclusive=False, value=b.volume)
-        opened = 0.0
-        if b.opened is not None:
-            q = parse_quantity(b.opened, f"{f}.opened", "volume", "mL").to("mL")
-            opened = check_range(q, f"{f}.opened", Q_(0, "mL"), vol, value=b.opened).magnitude
-        name = _unique(b.name or f"{a} bottles {k + 1}", names, f)
-        details = {"count": b.count, "volume": vol, "opened": Q_(opened, "mL")}
-        pools.setdefault(a, _Pool(a, "mL")).items.append((name, "bottle", b.count * vol.magnitude + opened, details))
-    if inv.absorbent is not None:
-        ab = inv.absorbent
-        stock = parse_quantity(ab.stock, "absorbent.stock", "mass", "kg").to("g")
-        check_range(stock, "absorbent.stock", Q_(0, "g"), Q_(10000, "kg"), value=ab.stock)
-        cap = parse_quantity(ab.co2_per_100g or supply_data()["absorbent"]["co2_per_100g"],
-                             "absorbent.co2_per_100g", "volume", "L").to("L")
-        check_range(cap, "absorbent.co2_per_100g", Q_(0, "L"), Q_(26, "L"), low_inclusive=False,
-                    value=ab.co2_per_100g)
-        name = _unique(ab.name, names, "absorbent")
-        pool = pools.setdefault("absorbent", _Pool("absorbent", "g"))
-        pool.items.append((name, "absorbent", stock.magnitude, {"co2_per_100g": cap}))
-    return pools
-
-
-def _concentrators(inv: Inventory, start: date, names: set[str]) -> list[tuple[str, ConcentratorEntry, np.ndarray,
-                                                                              tuple[np.ndarray, np.ndarray]]]:
-    out = []
-    for k, c in enumerate(inv.concentrators):
-        f = f"concentrators[{k}]"
-        q = parse_quantity(c.rated_flow, f"{f}.rated_flow", "flow", "L/min").to("L/min")
-        rated = check_range(q, f"{f}.rated_flow", Q_(0, "L/min"), Q_(100, "L/min"), low_inclusive=False,
-                            value=c.rated_flow).magnitude
-        whole_number(c.count, f"{f}.count", 0, 100)
-        hours = minutes_per_day(c.hours_per_day, f"{f}.hours_per_day")
-        t_on = 0.0 if hours >= 1440 else clock_minutes(c.start, f"{f}.start")
-        cap = np.zeros(WEEK)
-        for d in range(7):
-            if hours > 0:
-                _add(cap, d * 1440 + t_on, d * 1440 + t_on + hours, rated * c.count)
-        name = _unique(c.name or f"concentrator {k + 1}", names, f)
-        out.append((name, c, cap, _purity_curve(c, rated, f)))
-    return out
 
 
 # ---------------------------------------------------------------------------------------------
 # allocation and run-out times
 
 
-def _cum_at(pool: _Pool, t: np.ndarray) -> np.ndarray:
+def _cum_at(pool: Pool, t: np.ndarray) -> np.ndarray:
     """Cumulative draw at times ``t`` [min] from the start (the week repeats)."""
     cum = np.concatenate([[0.0], np.cumsum(pool.draw)])
     return np.floor(t / WEEK) * cum[-1] + np.interp(np.mod(t, WEEK), np.arange(WEEK + 1), cum)
 
 
-def _time_of(pool: _Pool, amount: float) -> float:
+def _time_of(pool: Pool, amount: float) -> float:
     """Minutes until the cumulative draw reaches ``amount`` (inf if nothing is drawn)."""
     cum = np.concatenate([[0.0], np.cumsum(pool.draw)])
     total = cum[-1]
@@ -425,7 +288,7 @@ def _time_of(pool: _Pool, amount: float) -> float:
     return float(n * WEEK + (i - 1) + ((rest - cum[i - 1]) / step if step > 0 else 0.0))
 
 
-def _failure(pool: _Pool, exhausted: float) -> float:
+def _failure(pool: Pool, exhausted: float) -> float:
     """First minute at or after ``exhausted`` whose demand the later sources cannot meet."""
     if not np.isfinite(exhausted):
         return float("inf")
@@ -438,7 +301,7 @@ def _failure(pool: _Pool, exhausted: float) -> float:
     return float(max(exhausted, base + later[0])) if later.size else float(base + WEEK + idx[0])
 
 
-def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, _Pool], concs: list,
+def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, Pool], concs: list,
               ignore: set[str], warns: list[tuple[str, str]]) -> list[SupplyItem]:
     """Meet each gas demand by priority; set each pool's draw; describe the renewable sources."""
     priority = [p.strip().lower() for p in inv.supply.priority]
@@ -490,7 +353,7 @@ def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, _Poo
         if g in ignore:
             continue
         if g in pools or demand.sum() > 0:
-            pool = pools.setdefault(g, _Pool(g, "L"))
+            pool = pools.setdefault(g, Pool(g, "L"))
             pool.draw, pool.unmet_after = draw, np.maximum(draw - after, 0.0)
     for key, pool in pools.items():
         if key in GASES:
@@ -503,7 +366,7 @@ def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, _Poo
         pool.unmet_after = pool.draw
     for key in need:
         if key not in pools and key not in ignore and key != "co2" and need[key].sum() > 0:
-            pools[key] = _Pool(key, "mL", draw=need[key], unmet_after=need[key])
+            pools[key] = Pool(key, "mL", draw=need[key], unmet_after=need[key])
     for key in sorted(ignore):
         warns.append(("not_tracked", f"{key}: left out of the analysis (supply.ignore)"))
     if "absorbent" not in pools and "absorbent" not in ignore and need.get("co2", np.zeros(1)).sum() > 0:
@@ -541,8 +404,8 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
     table_days = whole_number(inv.plan.table_days, "plan.table_days", 1, 3650)
     ambient = site_ambient(inv.site, warns)
     names: set[str] = set()
-    pools = _stocks(inv, ambient, warns, names)
-    concs = _concentrators(inv, day0, names)
+    pools = read_stocks(inv, ambient, warns, names)
+    concs = read_concentrators(inv, day0, names)
     need, ends = _demand_week(inv, day0, runner or _default_runner, warns)
     ignore = {i.strip().lower() for i in inv.supply.ignore}
     for key in ignore:
@@ -551,7 +414,7 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
 
     items: list[SupplyItem] = []
     supplies: list[dict[str, Any]] = []
-    columns: dict[str, tuple[_Pool, float, float, float]] = {}
+    columns: dict[str, tuple[Pool, float, float, float]] = {}
     fail_at: dict[str, float] = {}
     for key, pool in pools.items():
         unit, scale = ("kg", 1e-3) if pool.unit == "g" else (pool.unit, 1.0)

@@ -1,4 +1,5 @@
-r"""The inventory file of ``lowflow supply``: its schema (unknown keys are errors) and small parsers.
+r"""The inventory file of ``lowflow supply``: its schema (unknown keys are errors), small parsers,
+and the stock tables turned into supplies (cylinder contents from :mod:`estimator.cylinders`).
 
 Every table is a pydantic model with ``extra="forbid"``, so a misspelt key is caught and reported
 with its place in the file (``cylinders[1].tare_wieght``) and the keys that are valid there.
@@ -23,20 +24,28 @@ from __future__ import annotations
 
 import re
 import tomllib
+from dataclasses import dataclass, field
 from datetime import date
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pint
 from pydantic import BaseModel, ConfigDict, StrictBool, StrictInt, ValidationError
 
+from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, supply_data
 from .errors import InputError
+from .properties import AGENTS
 from .units import Q_, check_range, parse_quantity
 
 GASES = ("oxygen", "air", "nitrous_oxide")
 SOURCE_KINDS = ("pipelines", "concentrators", "cylinders")
 
 Value = str | int | float
+WEEK = 7 * 1440  # minutes
+#: Argon to oxygen ratio of dry air (0.934 / 20.946 % by volume, CRC Handbook); a zeolite sieve
+#: does not separate argon from oxygen, so concentrator product keeps it (common practice, no source).
+ARGON_PER_OXYGEN = 0.00934 / 0.20946
 
 
 class _Strict(BaseModel):
@@ -259,3 +268,140 @@ def site_ambient(site: Site, warns: list[tuple[str, str]]) -> pint.Quantity:
     s = site_from_inputs(elevation=site.elevation, ambient_pressure=site.ambient_pressure)
     warns.extend(s.warnings)
     return s.ambient_pressure.to("kPa")
+
+
+def add_interval(arr: np.ndarray, t0: float, t1: float, rate: float) -> None:
+    """Add ``rate`` [units/min] over [t0, t1) minutes to a weekly per-minute array (wraps)."""
+    i0, i1 = int(np.floor(t0)), int(np.floor(t1))
+    if i0 == i1:
+        arr[i0 % WEEK] += rate * (t1 - t0)
+        return
+    arr[i0 % WEEK] += rate * (i0 + 1 - t0)
+    arr[np.arange(i0 + 1, i1) % WEEK] += rate
+    if t1 > i1:
+        arr[i1 % WEEK] += rate * (t1 - i1)
+
+
+def _purity_curve(entry: ConcentratorEntry, rated: float, f: str) -> tuple[np.ndarray, np.ndarray]:
+    """Flow [L/min] and O2 fraction points of a concentrator's purity curve."""
+    top = 1.0 / (1.0 + ARGON_PER_OXYGEN)  # all nitrogen removed: O2 + argon only
+    if entry.purity is None:
+        pts = supply_data()["concentrator"]["purity_curve"]
+        flows, fr = np.array([p[0] * rated for p in pts]), np.array([p[1] for p in pts])
+    elif isinstance(entry.purity, list):
+        if len(entry.purity) < 2 or any(len(p) != 2 for p in entry.purity):
+            raise InputError(f"{f}.purity", entry.purity, "a list of [flow, purity] pairs, at least two")
+        flows = np.array([parse_quantity(p[0], f"{f}.purity[{i}][0]", "flow", "L/min").to("L/min").magnitude
+                          for i, p in enumerate(entry.purity)])
+        fr = np.array([parse_quantity(p[1], f"{f}.purity[{i}][1]", "fraction").to("").magnitude
+                       for i, p in enumerate(entry.purity)])
+        if flows[0] != 0 or flows[-1] < rated or np.any(np.diff(flows) <= 0):
+            raise InputError(f"{f}.purity", entry.purity,
+                             f"flows rising from 0 L/min to at least the rated flow, {rated:g} L/min")
+    else:
+        p = parse_quantity(entry.purity, f"{f}.purity", "fraction").to("").magnitude
+        flows, fr = np.array([0.0, rated]), np.array([p, p])
+    if np.any(fr <= 0.21) or np.any(fr > top + 1e-9):
+        raise InputError(f"{f}.purity", entry.purity, f"O2 fractions above 21 % and at most {100 * top:.1f} % "
+                                                       "(the argon of air stays in the product)")
+    return flows, fr
+
+
+# ---------------------------------------------------------------------------------------------
+# stocks and sources
+
+
+@dataclass
+class Pool:
+    """One supply: stock items drawn one after another, and the draw that falls on them."""
+
+    name: str
+    unit: str
+    items: list[tuple[str, str, float, dict[str, Any]]] = field(default_factory=list)
+    draw: np.ndarray = field(default_factory=lambda: np.zeros(WEEK))
+    unmet_after: np.ndarray = field(default_factory=lambda: np.zeros(WEEK))
+
+
+def _unique(name: str, taken: set[str], f: str) -> str:
+    if name in taken:
+        raise InputError(f"{f}.name", name, "a name not used by another item")
+    taken.add(name)
+    return name
+
+
+def read_stocks(inv: Inventory, ambient: pint.Quantity, warns: list[tuple[str, str]],
+            names: set[str]) -> dict[str, Pool]:
+    pools: dict[str, Pool] = {}
+    for k, c in enumerate(inv.cylinders):
+        f = f"cylinders[{k}]"
+        g = gas_name(c.gas, f"{f}.gas")
+        if g == "nitrous_oxide":
+            for key in ("gross_weight", "tare_weight"):
+                if getattr(c, key) is None:
+                    raise InputError(f"{f}.{key}", "(missing)", "a mass such as '8.5 kg' (nitrous oxide is counted by weight)")
+            res = nitrous_oxide_cylinder(c.gross_weight, c.tare_weight, c.temperature, count=c.count,
+                                         water_capacity=c.water_capacity, pressure=c.pressure,
+                                         reserve_weight=c.reserve_weight, ambient_pressure=ambient, field_prefix=f)
+        else:
+            for key in ("water_capacity", "pressure"):
+                if getattr(c, key) is None:
+                    raise InputError(f"{f}.{key}", "(missing)", "a value: required for a compressed-gas cylinder")
+            if c.gross_weight is not None or c.tare_weight is not None:
+                raise InputError(f"{f}.gross_weight", c.gross_weight, "no weights for oxygen or air (counted by pressure)")
+            res = compressed_cylinder(g, c.water_capacity, c.pressure, c.temperature, c.reserve_pressure,
+                                      count=c.count, service_pressure=c.service_pressure,
+                                      ambient_pressure=ambient, field_prefix=f)
+        name = _unique(c.name or f"{g.replace('_', ' ')} cylinders {k + 1}", names, f)
+        warns.extend((code, msg.replace(f + ":", f"{name}:")) for code, msg in res.warnings)
+        details = {"count": res.count, "contents_per_cylinder": res.contents, "phase": res.phase}
+        for key in ("compressibility", "ideal_contents", "pressure", "vapour_pressure", "net_weight"):
+            if getattr(res, key) is not None:
+                details[key] = getattr(res, key)
+        pools.setdefault(g, Pool(g, "L")).items.append((name, "cylinder", res.usable.to("L").magnitude, details))
+    for k, b in enumerate(inv.bottles):
+        f = f"bottles[{k}]"
+        a = b.agent.strip().lower()
+        if a not in AGENTS:
+            raise InputError(f"{f}.agent", b.agent, "one of " + ", ".join(sorted(AGENTS)))
+        whole_number(b.count, f"{f}.count", 0, 10000)
+        vol = check_range(parse_quantity(b.volume, f"{f}.volume", "volume", "mL").to("mL"), f"{f}.volume",
+                          Q_(0, "mL"), Q_(5000, "mL"), low_inclusive=False, value=b.volume)
+        opened = 0.0
+        if b.opened is not None:
+            q = parse_quantity(b.opened, f"{f}.opened", "volume", "mL").to("mL")
+            opened = check_range(q, f"{f}.opened", Q_(0, "mL"), vol, value=b.opened).magnitude
+        name = _unique(b.name or f"{a} bottles {k + 1}", names, f)
+        details = {"count": b.count, "volume": vol, "opened": Q_(opened, "mL")}
+        pools.setdefault(a, Pool(a, "mL")).items.append((name, "bottle", b.count * vol.magnitude + opened, details))
+    if inv.absorbent is not None:
+        ab = inv.absorbent
+        stock = parse_quantity(ab.stock, "absorbent.stock", "mass", "kg").to("g")
+        check_range(stock, "absorbent.stock", Q_(0, "g"), Q_(10000, "kg"), value=ab.stock)
+        cap = parse_quantity(ab.co2_per_100g or supply_data()["absorbent"]["co2_per_100g"],
+                             "absorbent.co2_per_100g", "volume", "L").to("L")
+        check_range(cap, "absorbent.co2_per_100g", Q_(0, "L"), Q_(26, "L"), low_inclusive=False,
+                    value=ab.co2_per_100g)
+        name = _unique(ab.name, names, "absorbent")
+        pool = pools.setdefault("absorbent", Pool("absorbent", "g"))
+        pool.items.append((name, "absorbent", stock.magnitude, {"co2_per_100g": cap}))
+    return pools
+
+
+def read_concentrators(inv: Inventory, start: date, names: set[str]) -> list[tuple[str, ConcentratorEntry, np.ndarray,
+                                                                              tuple[np.ndarray, np.ndarray]]]:
+    out = []
+    for k, c in enumerate(inv.concentrators):
+        f = f"concentrators[{k}]"
+        q = parse_quantity(c.rated_flow, f"{f}.rated_flow", "flow", "L/min").to("L/min")
+        rated = check_range(q, f"{f}.rated_flow", Q_(0, "L/min"), Q_(100, "L/min"), low_inclusive=False,
+                            value=c.rated_flow).magnitude
+        whole_number(c.count, f"{f}.count", 0, 100)
+        hours = minutes_per_day(c.hours_per_day, f"{f}.hours_per_day")
+        t_on = 0.0 if hours >= 1440 else clock_minutes(c.start, f"{f}.start")
+        cap = np.zeros(WEEK)
+        for d in range(7):
+            if hours > 0:
+                add_interval(cap, d * 1440 + t_on, d * 1440 + t_on + hours, rated * c.count)
+        name = _unique(c.name or f"concentrator {k + 1}", names, f)
+        out.append((name, c, cap, _purity_curve(c, rated, f)))
+    return out

@@ -242,9 +242,15 @@ def test_bad_input_names_the_field(text, field):
 def test_site_elevation_lowers_the_ambient_pressure():
     text = O2.format(name="A", bar=137)
     low = plan_supply(load_inventory(text), start=START).items[0].usable
-    high = plan_supply(load_inventory('[site]\nelevation = "3000 m"\n' + text), start=START).items[0].usable
-    # Same gauge reading at 70 kPa ambient (ISO 2533) is less absolute pressure; the reserve too.
-    assert high != low
+    high = plan_supply(load_inventory('[site]\nambient_pressure = "70 kPa"\n' + text), start=START).items[0].usable
+    # The same gauge readings at 70 kPa ambient are 31.3 kPa less absolute pressure, both at the
+    # reading and at the reserve (gauge + ambient), computed here from CoolProp directly.
+    def litres(p_pa):
+        return PropsSI("Dmolar", "T", 288.15, "P", p_pa, "Oxygen") * 0.010 * 8.314462618 * 288.15 / 101325 * 1000
+    assert low.magnitude == pytest.approx(usable_o2(137), rel=1e-9)
+    assert high.magnitude == pytest.approx(litres(137e5 + 70e3) - litres(10e5 + 70e3), rel=1e-9)
+    by_elevation = plan_supply(load_inventory('[site]\nelevation = "3000 m"\n' + text), start=START).items[0].usable
+    assert by_elevation.magnitude != pytest.approx(low.magnitude, rel=1e-12)
 
 
 def test_json_keys():

@@ -15,7 +15,8 @@ from . import CAUTION, app
 def _amount(q) -> str:  # noqa: ANN001 - pint quantity or None
     if q is None:
         return "-"
-    return f"{q.magnitude:,.1f} {q.units:~P}"
+    unit = f"{q.units:~P}".replace("ml", "mL").replace("l", "L").replace("/d", "/day")
+    return f"{q.magnitude:,.1f} {unit}"
 
 
 def _runtime(item) -> str:  # noqa: ANN001
