@@ -53,6 +53,7 @@ EXAMPLE = {"flow": "'L/min' or 'mL/min'", "time": "'min', 's', 'h' or 'ISO 8601'
            "age": "'year'", "fraction": "'%' or '1' (a 0-1 fraction)"}
 NO_AGENT = ("", "none", "off")
 NO_DATE = "no date (elapsed-time log)"
+_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 
 
 @dataclass(frozen=True)
@@ -114,43 +115,53 @@ def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
     return names, factors
 
 
-def _load(source: Any) -> tuple[list[str], pd.DataFrame, list[tuple[int, str]]]:
-    """Header cells and a string DataFrame with a ``line`` column; rows of the wrong width rejected."""
+def _open(source: Any) -> Any:
     if isinstance(source, str) and ("\n" in source or "," in source) and not Path(source).exists():
-        handle: Any = io.StringIO(source.lstrip("\ufeff"))
-    elif isinstance(source, str | Path):
-        handle = open(source, encoding="utf-8-sig", newline="")  # noqa: SIM115 - closed below
-    else:
-        handle = io.StringIO(source.read().lstrip("\ufeff"))
-    with handle:
-        header_line = handle.readline()
-        raw = next(csv.reader([header_line]), [])
-        if not raw:
-            raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
-        start = handle.tell()
-        try:
-            df = pd.read_csv(handle, header=None, names=list(range(len(raw))), dtype=str, keep_default_na=False,
-                             skip_blank_lines=False, skipinitialspace=True, engine="c")
-            df["line"] = np.arange(2, len(df) + 2)
-            return raw, df, []
-        except pd.errors.ParserError:
-            handle.seek(start)
-        good, lines, bad = [], [], []
-        reader = csv.reader(handle, skipinitialspace=True)
-        prev = 1
-        for row in reader:
-            line = prev + 1
-            prev = reader.line_num
-            if len(row) == 0:
-                row = [""] * len(raw)
-            if len(row) != len(raw):
-                bad.append((line, f"{len(row)} fields where the header has {len(raw)}"))
-                continue
-            good.append(row)
-            lines.append(line)
+        return io.StringIO(source.lstrip("\ufeff"))
+    if isinstance(source, str | Path):
+        return open(source, encoding="utf-8-sig", newline="")  # noqa: SIM115 - closed by the caller
+    return io.StringIO(source.read().lstrip("\ufeff"))
+
+
+def _rows(handle: Any, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, list[tuple[int, str]]]:
+    """Data rows with a ``line`` column; numeric columns parsed by the C reader, rows of the wrong width
+    rejected (by a slower csv pass, only when the fast reader finds one)."""
+    text_cols = {i: str for i, n in enumerate(names) if n not in SPEC or SPEC[n][0] in ("text", "time")}
+    start = handle.tell()
+    try:
+        df = pd.read_csv(handle, header=None, names=list(range(len(raw))), dtype=text_cols, na_values=[""],
+                         keep_default_na=False, skip_blank_lines=False, skipinitialspace=True, engine="c",
+                         low_memory=False)
+        df["line"] = np.arange(2, len(df) + 2)
+        return df, []
+    except pd.errors.ParserError:
+        handle.seek(start)
+    good, lines, bad = [], [], []
+    reader = csv.reader(handle, skipinitialspace=True)
+    prev = 1
+    for row in reader:
+        line = prev + 1
+        prev = reader.line_num
+        if len(row) == 0:
+            row = [""] * len(raw)
+        if len(row) != len(raw):
+            bad.append((line, f"{len(row)} fields where the header has {len(raw)}"))
+            continue
+        good.append(row)
+        lines.append(line)
     df = pd.DataFrame(good, columns=list(range(len(raw))), dtype=str)
     df["line"] = np.array(lines, dtype=int)
-    return raw, df, bad
+    return df, bad
+
+
+def _show(v: Any) -> str:
+    return f"{v:g}" if isinstance(v, float | np.floating) else str(v).strip()
+
+
+def _empty(col: pd.Series) -> np.ndarray:
+    if pd.api.types.is_numeric_dtype(col):
+        return col.isna().to_numpy()
+    return (col.isna() | (col.fillna("").str.strip() == "")).to_numpy()
 
 
 class _Reasons:
@@ -161,24 +172,25 @@ class _Reasons:
         self.skip = np.zeros(n, dtype=bool)
         self.text: dict[int, list[str]] = {}
 
-    def add(self, mask: np.ndarray, message: Any, raw: np.ndarray | None = None) -> None:
+    def add(self, mask: np.ndarray, message: Any, raw: pd.Series | None = None) -> None:
         idx = np.flatnonzero(mask & ~self.skip)
         self.bad[idx] = True
         for i in idx:
-            msg = message(raw[i]) if callable(message) else message
+            msg = message(_show(raw.iat[i])) if callable(message) else message
             self.text.setdefault(int(i), []).append(msg)
 
 
 def _numeric(col: pd.Series, name: str, reasons: _Reasons, factor: float, unit_label: str,
              required: bool) -> np.ndarray:
-    text = col.to_numpy(dtype=object)
-    stripped = col.str.strip()
-    empty = (stripped == "").to_numpy()
-    values = pd.to_numeric(stripped.where(~(stripped == ""), None), errors="coerce").to_numpy(dtype=float, copy=True)
+    empty = _empty(col)
+    if pd.api.types.is_numeric_dtype(col):
+        values = col.to_numpy(dtype=float, copy=True)
+    else:
+        values = pd.to_numeric(col.where(~empty, None), errors="coerce").to_numpy(dtype=float, copy=True)
     bad_number = ~empty & ~np.isfinite(values)
     if required:
         reasons.add(empty, f"{name}: empty")
-    reasons.add(bad_number, lambda v: f"{name}: got {v.strip()!r}; expected a number ({unit_label})", text)
+    reasons.add(bad_number, lambda v: f"{name}: got {v!r}; expected a number ({unit_label})", col)
     rng = SPEC[name][3]
     out = values * factor
     if rng is not None:
@@ -186,7 +198,7 @@ def _numeric(col: pd.Series, name: str, reasons: _Reasons, factor: float, unit_l
         outside = np.isfinite(out) & ((out < lo) | (out > hi))
         canonical = SPEC[name][2] or "fraction"
         shown = f"{lo * 100:g} to {hi * 100:g} %" if canonical == "fraction" else f"{lo:g} to {hi:g} {canonical}"
-        reasons.add(outside, lambda v: f"{name}: got {v.strip()!r} {unit_label}; expected {shown}", text)
+        reasons.add(outside, lambda v: f"{name}: got {v!r} {unit_label}; expected {shown}", col)
     out[empty | bad_number] = np.nan
     return out
 
@@ -207,8 +219,12 @@ def read_log(source: Any) -> LogData:
     InputError
         For a file-level problem, naming the column.
     """
-    raw, df, bad_width = _load(source)
-    names, factors = _header(raw)
+    with _open(source) as handle:
+        raw = next(csv.reader([handle.readline()]), [])
+        if not raw:
+            raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
+        names, factors = _header(raw)
+        df, bad_width = _rows(handle, raw, names)
     df.columns = [*names, "line"]
     unknown = [n for n in names if n not in SPEC]
     warnings: list[tuple[str, str]] = []
@@ -216,28 +232,34 @@ def read_log(source: Any) -> LogData:
         warnings.append(("UNUSED_COLUMNS", "columns not used by the audit: " + ", ".join(unknown)))
     n = len(df)
     r = _Reasons(n)
-    blank = np.all(np.stack([(df[c].str.strip() == "").to_numpy() for c in names]), axis=0) if n else np.zeros(0, bool)
+    blank = np.all(np.stack([_empty(df[c]) for c in names]), axis=0) if n else np.zeros(0, bool)
     r.add(blank, "empty line")
     r.skip = blank
-    case = df["case_id"].str.strip()
-    r.add((case == "").to_numpy() & ~blank, "case_id: empty")
+    text = {c: df[c].fillna("").astype(str).str.strip() for c in ("case_id", "agent", "room", "time") if c in names}
+    case = text["case_id"]
+    r.add((case == "").to_numpy(), "case_id: empty")
     units: dict[str, str] = {}
     for c, cell in zip(names, raw, strict=True):
         if c in SPEC and SPEC[c][0] != "text":
             units[c] = cell.partition("[")[2].rstrip().removesuffix("]").strip() or str(SPEC[c][1])
 
     # Time: elapsed number in the header unit, or an ISO 8601 timestamp.
-    ttext = df["time"].str.strip()
+    ttext = text["time"]
     t_empty = (ttext == "").to_numpy()
-    r.add(t_empty & ~blank, "time: empty")
+    r.add(t_empty, "time: empty")
     iso_only = factors.get("time") == "iso"
-    t_num = np.full(n, np.nan) if iso_only else pd.to_numeric(ttext.where(~(ttext == ""), None), errors="coerce").to_numpy(dtype=float, copy=True)
-    t_num[~np.isfinite(t_num)] = np.nan
+    t_num = np.full(n, np.nan)
+    if not iso_only:
+        number = ttext.str.fullmatch(_NUMBER).fillna(False).to_numpy(dtype=bool)
+        if number.any():
+            t_num[number] = pd.to_numeric(ttext[number], errors="coerce").to_numpy(dtype=float)
+        t_num[~np.isfinite(t_num)] = np.nan
+    # A plain number is always elapsed time (never read as a year); the rest may be timestamps.
     need_ts = np.isnan(t_num) & ~t_empty
     ts = pd.to_datetime(ttext.where(need_ts, None), format="ISO8601", utc=True, errors="coerce")
     ts_ok = ts.notna().to_numpy()
-    r.add(need_ts & ~ts_ok, lambda v: f"time: got {v.strip()!r}; expected elapsed time (a number) or an ISO 8601 timestamp",
-          df["time"].to_numpy(dtype=object))
+    r.add(~t_empty & ~ts_ok & np.isnan(t_num),
+          lambda v: f"time: got {v!r}; expected elapsed time (a number) or an ISO 8601 timestamp", ttext)
     t_factor = 1.0 if iso_only else float(factors["time"])
     epoch_min = ((ts - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(minutes=1)).to_numpy(dtype=float)
     is_ts = ts_ok
@@ -247,16 +269,20 @@ def read_log(source: Any) -> LogData:
              for c in ("oxygen_flow", "air_flow", "nitrous_oxide_flow")}
     setting = _numeric(df["vaporizer_setting"], "vaporizer_setting", r, float(factors["vaporizer_setting"]),
                        units["vaporizer_setting"], True)
-    agent = df["agent"].str.strip().str.lower().to_numpy(dtype=object)
-    known = np.isin(agent, list(AGENTS))
-    none = np.isin(agent, NO_AGENT)
-    r.add(~known & ~none & ~blank, lambda v: f"agent: got {v.strip()!r}; expected one of " + ", ".join(sorted(AGENTS))
-          + " (empty for none)", df["agent"].to_numpy(dtype=object))
+    agent_s = text["agent"].str.lower()
+    agent_codes, agent_uniques = pd.factorize(agent_s)
+    agent_uniques = [str(a) for a in agent_uniques]
+    known = np.isin(agent_codes, [i for i, a in enumerate(agent_uniques) if a in AGENTS])
+    none = np.isin(agent_codes, [i for i, a in enumerate(agent_uniques) if a in NO_AGENT])
+    r.add(~known & ~none, lambda v: f"agent: got {v!r}; expected one of " + ", ".join(sorted(AGENTS))
+          + " (empty for none)", text["agent"])
     r.add(none & (setting > 0), "agent: empty while vaporizer_setting is above 0")
-    for name, sp in AGENTS.items():
-        top = sp.vaporizer_max.to("dimensionless").magnitude
-        r.add((agent == name) & (setting > top) & (setting <= 1.0),
-              f"vaporizer_setting: above the {name} vaporizer's maximum dial {top * 100:g} %")
+    top = np.array([AGENTS[a].vaporizer_max.to("dimensionless").magnitude if a in AGENTS else 1.0
+                    for a in agent_uniques])[agent_codes] if n else np.zeros(0)
+    for name in sorted({a for a in agent_uniques if a in AGENTS}):
+        mx = AGENTS[name].vaporizer_max.to("dimensionless").magnitude
+        r.add((agent_s == name).to_numpy() & (setting > top) & (setting < 1.0),
+              f"vaporizer_setting: above the {name} vaporizer's maximum dial {mx * 100:g} %")
     r.add(setting >= 1.0, "vaporizer_setting: must be below 100 %")
     opt = {c: _numeric(df[c], c, r, float(factors[c]), units[c], False)
            for c in ("end_tidal_agent", "inspired_oxygen", "patient_weight", "patient_age") if c in names}
@@ -266,15 +292,14 @@ def read_log(source: Any) -> LogData:
     valid_t = ~r.bad & np.isfinite(t_abs)
     first_kind = pd.Series(np.where(valid_t, is_ts, np.nan)).groupby(codes_all).transform("first").to_numpy()
     mixed = valid_t & (is_ts != (first_kind == 1))
-    r.add(mixed, lambda v: f"time: got {v.strip()!r}; this case mixes elapsed times and timestamps (first kind kept)",
-          df["time"].to_numpy(dtype=object))
+    r.add(mixed, lambda v: f"time: got {v!r}; this case mixes elapsed times and timestamps (first kind kept)",
+          ttext)
 
     ok = ~r.bad
     rejections = sorted([(int(df["line"].iat[i]), "; ".join(m)) for i, m in r.text.items()] + bad_width)
     rows = {"read": n + len(bad_width), "used": int(ok.sum()), "rejected": len(rejections)}
     idx = np.flatnonzero(ok)
-    used_case = case.to_numpy(dtype=object)[idx]
-    codes, case_ids = pd.factorize(pd.Series(used_case, dtype=object))
+    codes, case_ids = pd.factorize(case.iloc[idx])
     t_used = t_abs[idx]
     lines = df["line"].to_numpy()[idx]
     file_order_t = pd.Series(t_used).groupby(codes).diff().to_numpy()
@@ -289,12 +314,13 @@ def read_log(source: Any) -> LogData:
     n_cases = len(case_ids)
     start = np.full(n_cases, np.inf)
     np.minimum.at(start, codes, t_used)
-    agent_names = ["", *sorted({a for a in agent[idx] if a not in NO_AGENT})]
-    agent_index = {a: i for i, a in enumerate(agent_names)}
+    used_agents = np.unique(agent_codes[idx])
+    agent_names = ["", *sorted({agent_uniques[i] for i in used_agents if agent_uniques[i] not in NO_AGENT})]
+    remap = np.array([agent_names.index(a) if a in agent_names else 0 for a in agent_uniques] or [0])
     s = pd.DataFrame({"case": codes, "line": df["line"].to_numpy()[idx], "t_min": t_used - start[codes],
                       "oxygen": flows["oxygen_flow"][idx], "air": flows["air_flow"][idx],
                       "nitrous_oxide": flows["nitrous_oxide_flow"][idx], "setting": setting[idx],
-                      "agent_code": pd.Series(agent[idx], dtype=object).map(agent_index).fillna(0).astype(int).to_numpy()})
+                      "agent_code": remap[agent_codes[idx]]})
     per_case = {}
     for c, key in (("end_tidal_agent", "end_tidal"), ("inspired_oxygen", "min_inspired_oxygen"),
                    ("patient_weight", "weight"), ("patient_age", "age")):
@@ -306,8 +332,8 @@ def read_log(source: Any) -> LogData:
     case_is_ts = np.zeros(n_cases, dtype=bool)
     case_is_ts[codes] = is_ts[idx]
     start_ts = pd.to_datetime(np.where(case_is_ts, start, 0.0) * 6e7, unit="us", utc=True)
-    room = pd.Series(df["room"].str.strip().to_numpy(dtype=object)[idx] if "room" in names
-                     else np.full(len(idx), "", dtype=object), dtype=object)
+    room = (text["room"].iloc[idx].reset_index(drop=True) if "room" in names
+            else pd.Series(np.full(len(idx), "", dtype=object)))
     room_case = room.where(room != "").groupby(codes).first().reindex(range(n_cases)).fillna("unassigned")
     return LogData(
         samples=s, case_ids=[str(c) for c in case_ids],
