@@ -156,6 +156,17 @@ def standard_atmosphere(elevation: pint.Quantity, geopotential: bool = False) ->
     return Q_(_out(pressure / 1000.0), "kPa"), Q_(_out(temperature), "K")
 
 
+def ambient_pressure_at(elevation_m: Any) -> Any:
+    """Standard-atmosphere pressure [kPa, plain float or array] at a geometric elevation [m].
+
+    The plain-number form of :func:`standard_atmosphere` for the engine's inner code.
+
+    >>> round(ambient_pressure_at(3000.0), 3)
+    70.121
+    """
+    return standard_atmosphere(Q_(elevation_m, "m"))[0].to("kPa").magnitude
+
+
 def pressure_altitude(pressure: pint.Quantity) -> pint.Quantity:
     """Geometric elevation [m] at which the standard troposphere has ``pressure``.
 

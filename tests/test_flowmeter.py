@@ -210,6 +210,15 @@ def test_nitrous_oxide_through_an_oxygen_tube_crosses_over():
     assert r.correction[1] < 0.87 and r.correction[0] > 1.3
 
 
+def test_heliox_on_an_oxygen_tube():
+    # Heliox 79/21 read on an O2 flowmeter: multiply the reading by about 1.8 at usual flows
+    # (common practice, from memory; it is sqrt(rho_O2/rho_heliox) = sqrt(32.0/9.88)). 2 %: the
+    # viscous remainder of the pressure drop at 15 L/min.
+    r = true_flow("15 L/min", "oxygen", "oxygen=21 %, helium=79 %", SEA)
+    assert r.correction == pytest.approx(1.8, rel=0.02)
+    assert r.regime == "turbulent"
+
+
 def test_standard_litres_and_back_pressure():
     # Same gas at 20 degC: free gas at 15 degC is 288.15/293.15 of the volume (Charles's law;
     # real-gas Z differs by < 1e-4 between the two temperatures).
