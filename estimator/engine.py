@@ -17,7 +17,7 @@ Examples
 ... end_tidal_target = "1 MAC"
 ... ''')
 >>> r = simulate(s)
->>> 0.9 < r.series["end_tidal_mac [MAC]"].iloc[-1] < 1.1
+>>> bool(0.9 < r.series["end_tidal_mac [MAC]"].iloc[-1] < 1.1)
 True
 """
 
@@ -29,6 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import circuit as c
+from .errors import InputError
 from .physiology import Patient, patient_parameters
 from .properties import Species, gas
 from .properties import agent as agent_properties
@@ -44,8 +45,6 @@ T_BODY = 310.15
 P_H2O_BODY = 6.266
 #: Molar volume at STPD [L/mol] (0 degC, 101.325 kPa, ideal gas) for metabolic rates given STPD.
 MOLAR_VOLUME_STPD = R_GAS * 273.15 / 101.325
-#: Mapleson 1996: log10 MAC falls by 0.00269 per year of age.
-MAPLESON_SLOPE = 0.00269
 #: Time constants of the end-tidal hold law [min]: alveolar and circuit tracking.
 HOLD_TAU_LUNG = 1.0
 HOLD_TAU_CIRCUIT = 0.5
@@ -77,50 +76,38 @@ def air_fractions() -> np.ndarray:
 
 
 def site_state(scenario: Scenario) -> SiteState:
-    """Ambient pressure (standard atmosphere from elevation), temperature and O2 supply make-up."""
-    st = scenario.site
-    warns: list[tuple[str, str]] = []
-    elevation = None
-    if st.ambient_pressure is not None:
-        p = st.ambient_pressure.to("kPa").magnitude
-    elif st.elevation is not None:
-        elevation = st.elevation.to("m").magnitude
-        p = standard_atmosphere_pressure(elevation)
-    else:
-        p = 101.325
-    purity = 1.0
-    if st.oxygen_source == "concentrator":
-        purity = st.oxygen_purity.to("").magnitude if st.oxygen_purity is not None else 0.93
-    elif st.oxygen_purity is not None:
-        purity = st.oxygen_purity.to("").magnitude
-    argon = st.argon_fraction.to("").magnitude if st.argon_fraction is not None else 1.0 - purity
-    if purity + argon > 1.0 + 1e-12:
-        from .errors import InputError
+    """Ambient pressure (ISO 2533 standard atmosphere from elevation), temperature, O2 supply make-up.
 
-        raise InputError("site.argon_fraction", f"{argon:g}", f"at most 1 - oxygen_purity = {1 - purity:g}")
-    return SiteState(p, st.temperature.to("K").magnitude, elevation,
-                     (purity, max(0.0, 1.0 - purity - argon), argon), tuple(warns))
-
-
-def standard_atmosphere_pressure(elevation_m: float) -> float:
-    """Ambient pressure [kPa] of the ISO 2533 standard atmosphere (troposphere).
-
-    p = 101.325 (1 - 0.0065 h / 288.15)^5.25588 (ISO 2533:1975; ICAO Doc 7488).
-
-    >>> round(standard_atmosphere_pressure(3000), 2)
-    70.11
+    Concentrator product defaults to 93 % O2 with argon in its air ratio to O2 and nitrogen the rest
+    (estimator.gas_mixtures); cylinder and pipeline oxygen are pure unless a purity is given.
     """
-    try:
-        from .site import ambient_pressure_at  # the site module, where present
+    from .gas_mixtures import concentrator_composition
+    from .site import site_from_inputs
 
-        return float(ambient_pressure_at(elevation_m))
-    except ImportError:
-        return 101.325 * (1.0 - 0.0065 * elevation_m / 288.15) ** 5.25588
+    st = scenario.site
+    site = site_from_inputs(st.elevation, st.ambient_pressure, st.temperature)
+    p = float(site.ambient_pressure.to("kPa").magnitude)
+    if st.oxygen_purity is None and st.oxygen_source != "concentrator":
+        comp = (1.0, 0.0, 0.0)
+    else:
+        purity = st.oxygen_purity if st.oxygen_purity is not None else Q_(93.0, "percent")
+        mix = concentrator_composition(purity)
+        comp = (mix["oxygen"], mix["nitrogen"], mix["argon"])
+        if st.argon_fraction is not None:
+            argon = st.argon_fraction.to("").magnitude
+            if comp[0] + argon > 1.0 + 1e-12:
+                raise InputError("site.argon_fraction", f"{100 * argon:g} %",
+                                 f"at most 100 % - oxygen_purity = {100 * (1 - comp[0]):g} %")
+            comp = (comp[0], 1.0 - comp[0] - argon, argon)
+    elevation = None if site.elevation is None else float(site.elevation.to("m").magnitude)
+    return SiteState(p, float(site.temperature.to("K").magnitude), elevation, comp, tuple(site.warnings))
 
 
 def mac_at_age(species: Species, age_years: float) -> float:
-    """MAC as a volume fraction at 1 atm, age-corrected (Mapleson 1996)."""
-    return species.mac40.to("").magnitude * 10.0 ** (-MAPLESON_SLOPE * (age_years - 40.0))
+    """MAC as a volume fraction at 1 atm, age-corrected (Mapleson 1996; estimator.mac)."""
+    from .mac import mapleson_factor
+
+    return species.mac40.to("").magnitude * mapleson_factor(age_years)
 
 
 def vaporizer_type(scenario: Scenario) -> str:
@@ -131,12 +118,14 @@ def vaporizer_type(scenario: Scenario) -> str:
 
 
 def delivered_fraction(dial: float, kind: str, ambient_kpa: float) -> float:
-    """Volume fraction delivered by a vaporizer dial at the site.
+    """Volume fraction a vaporizer dial delivers at the site (estimator.vaporizer).
 
     A variable-bypass vaporizer delivers a partial pressure (dial x 101.325 kPa), a heated
-    pressurised one a volume fraction (common practice, no source).
+    pressurised one a volume fraction.
     """
-    return dial * 101.325 / ambient_kpa if kind == "variable_bypass" else dial
+    from .vaporizer import delivered_fraction as at_site
+
+    return float(at_site(dial, kind, Q_(ambient_kpa, "kPa")))
 
 
 def base_parameters(scenario: Scenario, patient: Patient, site: SiteState) -> np.ndarray:
@@ -204,8 +193,6 @@ def phase_parameters(base: np.ndarray, scenario: Scenario, phase: PhaseInput, si
         p[c.P_MODE] = c.MODE_DIAL
         dial = phase.vaporizer.to("").magnitude
         if dial > dmax + 1e-12:
-            from .errors import InputError
-
             raise InputError("phases.vaporizer", f"{dial * 100:g} %", f"0 to {dmax * 100:g} % (the vaporizer maximum)")
         p[c.P_UFIXED] = delivered_fraction(dial, kind, site.ambient_pressure_kpa)
     else:

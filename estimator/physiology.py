@@ -130,7 +130,7 @@ def brody_cardiac_output(weight_kg: float) -> float:
     """Cardiac output [L/min] = 2 kg^0.75 dL/min (Lowe and Ernst 1981).
 
     >>> round(brody_cardiac_output(70), 2)
-    4.83
+    4.84
     """
     return BRODY_CARDIAC_OUTPUT * weight_kg**0.75 / 10.0
 

@@ -120,17 +120,11 @@ class SiteInput(_Model):
     """``[site]``: elevation or ambient pressure, temperature, oxygen source."""
 
     elevation: _quantity("length", -500.0, 11000.0, "m") | None = None
-    ambient_pressure: _quantity("pressure", 20.0, 110.0, "kPa") | None = None
+    ambient_pressure: _quantity("pressure", 22.6, 108.5, "kPa") | None = None
     temperature: _quantity("temperature", -20.0, 50.0, "degC") = Q_(20.0, "degC")
     oxygen_source: Literal["cylinder", "pipeline", "concentrator"] = "cylinder"
     oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless") | None = None
     argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless") | None = None
-
-    @model_validator(mode="after")
-    def _one_pressure(self) -> SiteInput:
-        if self.elevation is not None and self.ambient_pressure is not None:
-            raise ValueError("elevation: give elevation or ambient_pressure, not both")
-        return self
 
 
 class PhaseInput(_Model):

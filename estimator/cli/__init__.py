@@ -62,9 +62,26 @@ def fail(message: str) -> None:
 def main(argv: list[str] | None = None) -> None:
     """Console-script entry point; maps every user error to one line and exit status 2."""
     try:
-        app(args=argv, standalone_mode=True)
+        from typer._click import exceptions as click_exc  # typer >= 0.20 vendors click
+    except ImportError:  # pragma: no cover - older typer uses click itself
+        from click import exceptions as click_exc
+
+    try:
+        rv = app(args=argv, standalone_mode=False)
     except InputError as exc:
         fail(str(exc))
+    except click_exc.NoArgsIsHelpError as exc:
+        typer.echo(exc.ctx.get_help() if exc.ctx is not None else "lowflow --help")
+        raise SystemExit(0) from None
+    except click_exc.UsageError as exc:
+        hint = f" (see 'lowflow {exc.ctx.info_name} --help')" if exc.ctx is not None and exc.ctx.parent else ""
+        fail(exc.format_message().replace("\n", " ") + hint)
+    except typer.Exit as exc:
+        raise SystemExit(exc.exit_code) from None
+    except click_exc.ClickException as exc:
+        fail(exc.format_message().replace("\n", " "))
+    except typer.Abort:
+        raise SystemExit(130) from None
     except (FileNotFoundError, IsADirectoryError, PermissionError) as exc:
         fail(f"{exc.filename}: {exc.strerror}")
     except KeyboardInterrupt:
@@ -74,6 +91,7 @@ def main(argv: list[str] | None = None) -> None:
     except Exception as exc:  # noqa: BLE001 - last line of defence: never show a traceback
         typer.echo(f"lowflow: internal error: {type(exc).__name__}: {exc} (please report it)", err=True)
         raise SystemExit(1) from None
+    raise SystemExit(rv if isinstance(rv, int) else 0)
 
 
 if __name__ == "__main__":  # pragma: no cover
