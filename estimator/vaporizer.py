@@ -5,7 +5,7 @@ Two kinds, with different behaviour away from sea level:
 ``variable_bypass``
     Fresh gas splits between a bypass and a chamber where it leaves saturated with vapour at the
     saturated vapour pressure (SVP), which does not depend on ambient pressure (Dalton's law). With
-    the dial's resistance at the chamber **outlet** (``control="outlet"``, the usual design) the
+    the dial's resistance at the chamber **outlet** (``control="outlet"``, the usual design; from memory) the
     split ratio k of outlet flows is fixed by the dial, so the output partial pressure is
     ``k/(1+k) x SVP`` whatever the ambient pressure: the dial sets a partial pressure. Calibrated at
     101.325 kPa, a dial D delivers a volume fraction
