@@ -1,9 +1,8 @@
-"""Streamlit face of the estimator: thin, all computation lives in ``estimator``."""
+"""Streamlit face of the estimator: thin, all computation lives in ``estimator``.
 
-import streamlit as st
+Run from the repository root: ``uv run streamlit run app.py``.
+"""
 
-from estimator.cli import CAUTION
+from estimator_app.shell import main
 
-st.set_page_config(page_title="lowflow estimator", layout="wide")
-st.warning(CAUTION)
-st.title("Low-flow gas estimator")
+main()

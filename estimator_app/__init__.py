@@ -1,0 +1,1 @@
+"""Streamlit pages of the lowflow estimator. Thin: every number comes from the ``estimator`` package."""

@@ -1,0 +1,152 @@
+"""Shared pieces of every page: the caution, display units, uploads with a size cap, downloads.
+
+Nothing here computes a model result; it formats what ``estimator`` returns.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+from typing import Any
+
+import pandas as pd
+import streamlit as st
+
+from estimator.cli import CAUTION
+from estimator.errors import InputError
+
+#: Largest upload accepted, checked on the bytes received [bytes].
+MAX_UPLOAD_BYTES = 20 * 1024 * 1024
+
+FLOW_UNITS = ("L/min", "mL/min")
+PRESSURE_UNITS = ("bar", "kPa", "psi")
+MASS_UNITS = ("kg", "lb")
+_FLOW_SCALE = {"L/min": 1.0, "mL/min": 1000.0}
+
+
+def caution() -> None:
+    """The safety caution, shown at the top of every page."""
+    st.warning(CAUTION, icon=":material/health_and_safety:")
+
+
+def unit(kind: str) -> str:
+    """The display unit the user chose for ``kind`` (flow, pressure, mass) or the currency label."""
+    defaults = {"flow": FLOW_UNITS[0], "pressure": PRESSURE_UNITS[0], "mass": MASS_UNITS[0], "currency": ""}
+    return st.session_state.get(f"unit.{kind}", defaults[kind])
+
+
+def unit_selectors() -> None:
+    """Sidebar selectors of the display units (kept in session state under ``unit.*``)."""
+    st.sidebar.subheader("Display units")
+    c1, c2 = st.sidebar.columns(2)
+    c1.selectbox("Flow", FLOW_UNITS, key="unit.flow")
+    c2.selectbox("Pressure", PRESSURE_UNITS, key="unit.pressure")
+    c1.selectbox("Mass", MASS_UNITS, key="unit.mass")
+    c2.text_input("Currency label", key="unit.currency", max_chars=40,
+                  help="Shown beside costs. A label only: no exchange rate is applied.")
+
+
+def flow_factor() -> float:
+    """Display flow per L/min."""
+    return _FLOW_SCALE[unit("flow")]
+
+
+def to_display(q: Any, kind: str) -> float:
+    """Magnitude of a pint quantity in the chosen display unit of ``kind``."""
+    return float(q.to(unit(kind)).magnitude)
+
+
+def read_upload(upload: Any, field: str, limit: int = MAX_UPLOAD_BYTES) -> str:
+    """Text of an uploaded file, refusing more than ``limit`` bytes or text that is not UTF-8.
+
+    The bytes are only decoded here; callers parse them (TOML or CSV) and never execute them.
+    """
+    data = upload.getvalue()
+    if len(data) > limit:
+        raise InputError(field, f"{len(data) / 1e6:.1f} MB", f"a file of at most {limit / 1e6:.0f} MB")
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(field, upload.name, "a UTF-8 text file") from None
+
+
+def show_error(exc: InputError) -> None:
+    """One readable line for a user error: field, value and what is accepted."""
+    st.error(f"Input not accepted: {exc}", icon=":material/error:")
+
+
+def show_warnings(warnings: Any, empty: str | None = None) -> None:
+    """Model warnings as (code, message) pairs, or dicts with code and message."""
+    items = [(w["code"], w["message"]) if isinstance(w, dict) else tuple(w) for w in warnings or ()]
+    for code, message in items:
+        st.warning(f"**{code}** - {message}", icon=":material/report:")
+    if not items and empty:
+        st.success(empty, icon=":material/check_circle:")
+
+
+def xlsx_bytes(sheets: dict[str, pd.DataFrame]) -> bytes:
+    """An XLSX workbook with one sheet per frame; text cells are stored as text, never formulas."""
+    from openpyxl import Workbook
+
+    from estimator.exports import neutralise
+
+    wb = Workbook()
+    wb.remove(wb.active)
+    for name, frame in sheets.items():
+        ws = wb.create_sheet(name[:31])
+        ws.append([str(neutralise(str(c))) for c in frame.columns])
+        for rec in frame.itertuples(index=False):
+            ws.append([_cell(v) for v in rec])
+        for row in ws.iter_rows():
+            for cell in row:
+                if isinstance(cell.value, str):
+                    cell.data_type = "s"
+    buf = io.BytesIO()
+    wb.save(buf)
+    return buf.getvalue()
+
+
+def _cell(v: Any) -> Any:
+    from estimator.exports import neutralise
+
+    if v is None or (isinstance(v, float) and v != v):
+        return None
+    if hasattr(v, "item"):
+        v = v.item()
+    if isinstance(v, int | float | bool):
+        return v
+    return neutralise(str(v))
+
+
+def csv_bytes(frame: pd.DataFrame) -> bytes:
+    """CSV (UTF-8) of a frame with text cells neutralised against spreadsheet formulas."""
+    from estimator.exports import neutralise
+
+    safe = frame.copy()
+    for col in safe.columns:
+        if safe[col].dtype == object:
+            safe[col] = safe[col].map(lambda v: neutralise(v) if isinstance(v, str) else v)
+    return safe.to_csv(index=False).encode("utf-8")
+
+
+def downloads(stem: str, sheets: dict[str, pd.DataFrame], document: Any, key: str) -> None:
+    """Download buttons: the first sheet as CSV, all sheets as XLSX, the document as JSON."""
+    from estimator.jsonout import dumps
+
+    first = next(iter(sheets.values()))
+    c1, c2, c3 = st.columns(3)
+    c1.download_button("Download CSV", csv_bytes(first), f"{stem}.csv", "text/csv", key=f"{key}.csv",
+                       icon=":material/table_view:", width="stretch")
+    c2.download_button("Download XLSX", xlsx_bytes(sheets), f"{stem}.xlsx",
+                       "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key=f"{key}.xlsx",
+                       icon=":material/grid_on:", width="stretch")
+    text = dumps(document) if not isinstance(document, str) else document
+    json.loads(text)  # a malformed document is a bug: fail here, not in the user's tools
+    c3.download_button("Download JSON", text.encode("utf-8"), f"{stem}.json", "application/json",
+                       key=f"{key}.json", icon=":material/data_object:", width="stretch")
+
+
+def placeholder(what: str, module: str, detail: str) -> None:
+    """A page whose model is still being written: say so plainly."""
+    st.info(f"**{what} is coming.** This page will run `{module}` once that module is part of the "
+            f"package. {detail}", icon=":material/construction:")

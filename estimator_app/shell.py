@@ -1,0 +1,56 @@
+"""The frame of every page: page setup, the caution, the sidebar (units, scenario load and save), navigation."""
+
+from __future__ import annotations
+
+import importlib
+from collections.abc import Callable
+
+import streamlit as st
+
+from . import state
+from .common import caution, unit_selectors
+
+#: (module, title, url path, icon); titles follow the naming table of the design notes.
+PAGES = (
+    ("case_planner", "Case planner", "case-planner", ":material/monitor_heart:"),
+    ("flow_floor", "Flow floor", "flow-floor", ":material/vertical_align_bottom:"),
+    ("supply_duration", "Supply duration", "supply-duration", ":material/inventory_2:"),
+    ("demand_forecast", "Demand forecast", "demand-forecast", ":material/query_stats:"),
+    ("fresh_gas_audit", "Fresh-gas audit", "fresh-gas-audit", ":material/fact_check:"),
+    ("site_flowmeter", "Site and flowmeter", "site-and-flowmeter", ":material/landscape:"),
+    ("methods", "Methods and sources", "methods-and-sources", ":material/menu_book:"),
+)
+
+
+def _renderer(module: str) -> Callable[[], None]:
+    def run() -> None:
+        importlib.import_module(f"estimator_app.pages.{module}").render()
+
+    run.__name__ = module
+    return run
+
+
+def frame() -> None:
+    """Caution and sidebar, shared by every page."""
+    caution()
+    st.sidebar.markdown("### lowflow estimator")
+    st.sidebar.caption("Low-flow anaesthesia gas use, supply and cost")
+    unit_selectors()
+    state.scenario_sidebar()
+
+
+def main() -> None:
+    """Entry point of ``app.py``: every page through ``st.navigation``."""
+    st.set_page_config(page_title="lowflow estimator", page_icon=":material/air:", layout="wide")
+    pages = [st.Page(_renderer(m), title=t, url_path=u, icon=i, default=(k == 0))
+             for k, (m, t, u, i) in enumerate(PAGES)]
+    nav = st.navigation(pages)
+    frame()
+    nav.run()
+
+
+def page_main(module: str) -> None:
+    """One page with the shared frame, without navigation (used by the page tests)."""
+    st.set_page_config(page_title="lowflow estimator", layout="wide")
+    frame()
+    _renderer(module)()
