@@ -138,10 +138,10 @@ def _rows(handle: Any, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, 
         handle.seek(start)
     good, lines, bad = [], [], []
     reader = csv.reader(handle, skipinitialspace=True)
-    prev = 1
+    last = 0   # physical lines read by the csv reader so far; the header is line 1
     for row in reader:
-        line = prev + 1
-        prev = reader.line_num
+        line = 2 + last
+        last = reader.line_num
         if len(row) == 0:
             row = [""] * len(raw)
         if len(row) != len(raw):

@@ -1,0 +1,83 @@
+"""Exports: the spreadsheet formula-injection guard (OWASP "CSV Injection"), HTML escaping and a
+self-contained report."""
+
+import csv
+import re
+from pathlib import Path
+
+import pytest
+
+from estimator.audit import audit
+from estimator.costs import DEMO_PRICES
+from estimator.exports import neutralise, report_html, svg_bars, write_csv, write_html, write_xlsx
+
+DATA = Path(__file__).parent / "data"
+
+
+@pytest.mark.parametrize("text", ["=1+1", "+1", "-1", "@SUM(A1)", "\tx", "\rx"])
+def test_formula_triggers_are_neutralised(text):
+    # OWASP CSV Injection: cells starting with = + - @ tab or CR are prefixed with a single quote.
+    assert neutralise(text) == "'" + text
+
+
+def test_plain_text_and_numbers_are_kept():
+    assert neutralise("Theatre 1") == "Theatre 1"
+    assert neutralise(-3.5) == -3.5
+
+
+@pytest.fixture(scope="module")
+def injected():
+    return audit(DATA / "audit_injection.csv", prices=DEMO_PRICES)
+
+
+def test_csv_export_guards_user_cells(injected, tmp_path):
+    path = write_csv(injected, tmp_path / "cases.csv")
+    with path.open(encoding="utf-8", newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    ids = {r["case id"] for r in rows}
+    assert ids == {"'=HYPERLINK(\"http://example.invalid\")", "'+cmd"}
+    assert all(not v.startswith(("=", "+", "@")) for r in rows for v in r.values() if v and not v[0].isdigit()
+               and not v.startswith("-"))
+    assert {r["room"] for r in rows} == {"'@SUM(A1:A2)", "<script>alert(1)</script>"}
+    assert any("[kg CO2e, IPCC AR6 GWP100]" in k for k in rows[0])
+
+
+def test_xlsx_export_has_no_formulas(injected, tmp_path):
+    from openpyxl import load_workbook
+
+    path = write_xlsx(injected, tmp_path / "audit.xlsx")
+    wb = load_workbook(path)
+    assert {"cases", "rooms", "months", "kpis", "rejections", "about"} <= set(wb.sheetnames)
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                assert cell.data_type != "f", (ws.title, cell.coordinate, cell.value)
+    values = [c.value for c in wb["cases"]["A"]]
+    assert "'=HYPERLINK(\"http://example.invalid\")" in values
+
+
+def test_html_report_escapes_and_is_self_contained(injected, tmp_path):
+    text = write_html(injected, tmp_path / "r.html").read_text(encoding="utf-8")
+    assert "<script" not in text.lower()
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in text
+    assert "<svg" in text
+    # No external resources: no src/href attributes, no stylesheet links, no @import; the only URL is the
+    # SVG namespace identifier and the escaped user text.
+    assert not re.search(r"\s(src|href)\s*=", text)
+    assert "<link" not in text and "@import" not in text
+    assert "Planning and audit aid only" in text
+
+
+def test_svg_bars_escape_labels():
+    svg = svg_bars(["<b>&"], [2.0], "mL", "a < b")
+    assert "&lt;b&gt;&amp;" in svg and "a &lt; b" in svg
+
+
+def test_report_shows_counterfactual_when_present(injected):
+    import dataclasses
+
+    cf = {"policy": {"name": "<i>policy</i>"}, "method": "m", "baseline": "recorded", "skipped": [],
+          "totals": {"cases": 1, "baseline": {k: {"magnitude": 2.0} for k in ("agent_liquid", "fresh_gas", "co2e")},
+                     "policy": {k: {"magnitude": 1.0} for k in ("agent_liquid", "fresh_gas", "co2e")}}}
+    text = report_html(dataclasses.replace(injected, counterfactual=cf))
+    assert "Counterfactual: &lt;i&gt;policy&lt;/i&gt;" in text
