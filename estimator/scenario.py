@@ -189,6 +189,26 @@ def _target(value: Any) -> pint.Quantity:
     return q
 
 
+class ScaleStep(_Model):
+    """One band of a flowmeter scale: settable in ``step`` increments up to ``up_to``."""
+
+    up_to: Flow
+    step: _quantity("flow", 0.001, 5.0, "L/min", low_open=True)
+
+
+class FlowFloorInput(_Model):
+    """``[flow_floor]``: settings of the flow floor (``lowflow safe-flow``); every key optional."""
+
+    threshold_inspired_oxygen: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(0.30, "dimensionless")
+    reach_within: _quantity("time", 0.5, 120.0, "min") = Q_(15.0, "min")
+    basal_oxygen_flow: _quantity("flow", 0.0, 1.0, "L/min") = Q_(0.0, "L/min")
+    minimum_oxygen_share: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(0.25, "dimensionless")
+    maximum_flow: Flow = Q_(15.0, "L/min")
+    grid_interval: _quantity("time", 1.0, 60.0, "min") = Q_(5.0, "min")
+    scale: list[ScaleStep] | None = None
+    policies: list[Literal["sevoflurane_us_label"]] = []
+
+
 class OutputInput(_Model):
     """``[output]``: time step of the reported series."""
 
@@ -206,6 +226,7 @@ class Scenario(_Model):
     phases: list[PhaseInput]
     prices: dict[str, Any] | None = None
     output: OutputInput = OutputInput()
+    flow_floor: FlowFloorInput = FlowFloorInput()
     notes: str = ""
 
     @model_validator(mode="after")
