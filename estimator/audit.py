@@ -63,10 +63,12 @@ import pandas as pd
 
 from . import carbon
 from .audit_log import LogData, read_log
+from .closed_form import vapour_per_liquid
 from .costs import Prices, cost_table
 from .errors import InputError
+from .mac import mapleson_factor
 from .properties import AGENTS, CO2E_BASES, GASES
-from .units import GAS_VOLUME_REFERENCE, parse_quantity
+from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE, parse_quantity
 
 QUADRATURES = ("hold", "trapezoid")
 #: Flow classes by fresh-gas flow [L/min], upper bounds inclusive (Brattwall et al. 2012, Table 1;
@@ -74,8 +76,6 @@ QUADRATURES = ("hold", "trapezoid")
 FLOW_CLASSES = (("metabolic", 0.25), ("minimal", 0.5), ("low", 1.0), ("medium", 2.0),
                 ("high", 4.0), ("very high", float("inf")))
 FLOW_CLASS_SOURCE = "Baum and Aitkenhead 1995; Brattwall et al. 2012"
-#: Mapleson 1996: MAC falls by a factor 10^(-0.00269 per year) of age from the value at 40.
-MAPLESON_SLOPE = 0.00269
 #: Minimum inspired O2 at low flow (Baum and Aitkenhead 1995, from memory).
 MIN_INSPIRED_OXYGEN = 0.30
 UNITS = {"l": "liter", "ml": "milliliter", "min": "minute", "l_min": "liter / minute", "kg": "kilogram",
@@ -102,7 +102,7 @@ def age_mac(agent_name: str, age_years: Any) -> np.ndarray:
     1.495
     """
     mac40 = AGENTS[agent_name].mac40.to("dimensionless").magnitude
-    return mac40 * 10.0 ** (-MAPLESON_SLOPE * (np.asarray(age_years, dtype=float) - 40.0))
+    return mac40 * np.asarray(mapleson_factor(np.asarray(age_years, dtype=float)))
 
 
 @dataclasses.dataclass(frozen=True)
@@ -230,14 +230,15 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
     pair = _case_sum(codes * n_ag + agent_codes, vapour * w, n_cases * n_ag).reshape(n_cases, n_ag)
     vm = carbon.molar_volume().to("L/mol").magnitude
     liquid = np.zeros_like(pair)
+    ref = (REFERENCE_TEMPERATURE, REFERENCE_PRESSURE)
     released_g = np.zeros_like(pair)
     co2e_agent = np.zeros(n_cases)
     for j, name in enumerate(agent_names):
         if not name:
             continue
         sp = AGENTS[name]
-        grams = pair[:, j] / vm * sp.molar_mass.to("g/mol").magnitude
-        liquid[:, j] = grams / sp.liquid_density.to("g/mL").magnitude
+        liquid[:, j] = pair[:, j] * 1000.0 / vapour_per_liquid(name, *ref).to("mL/mL").magnitude
+        grams = liquid[:, j] * sp.liquid_density.to("g/mL").magnitude
         released_g[:, j] = carbon.released_agent_mass(grams, name)
         co2e_agent += released_g[:, j] / 1000.0 * carbon.gwp(name, basis)
     cases["agent_vapour_l"] = pair.sum(axis=1)

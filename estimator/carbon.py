@@ -56,9 +56,6 @@ from .errors import InputError
 from .properties import AGENTS, CO2E_BASES, GASES, Sourced, validate_records
 from .units import GAS_VOLUME_REFERENCE, Q_, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
 
-#: Molar gas constant [J/(mol K)] (CODATA 2018, exact).
-GAS_CONSTANT = 8.314462618
-
 RELEASE_NOTE = ("released agent = agent delivered less the share metabolised; the agent taken up "
                 "by the patient is breathed out after the case and is counted as released")
 NITROUS_NOTE = "released nitrous oxide = all nitrous oxide delivered, plus manifold losses when piped"
@@ -106,14 +103,14 @@ def gwp(species: str, basis: str = "ar6_gwp100") -> float:
 
 def molar_volume(temperature: pint.Quantity = REFERENCE_TEMPERATURE,
                  pressure: pint.Quantity = REFERENCE_PRESSURE) -> pint.Quantity:
-    """Ideal-gas molar volume RT/p [L/mol].
+    """Ideal-gas molar volume RT/p [L/mol], by default at the package reference (15 degC, 101.325 kPa).
 
     >>> round(molar_volume().to("L/mol").magnitude, 3)
     23.645
     """
-    t = temperature.to("K").magnitude
-    p = pressure.to("Pa").magnitude
-    return Q_(GAS_CONSTANT * t / p * 1000.0, "L/mol")
+    from .closed_form import molar_volume as ideal_molar_volume
+
+    return ideal_molar_volume(temperature, pressure)
 
 
 def vapour_to_mass(volume: pint.Quantity, species: str,
