@@ -46,7 +46,7 @@ DEMO_INVENTORY: dict[str, Any] = {
     ],
     "bottles": [{"agent": "sevoflurane", "count": 4, "volume": "250 mL"}],
     "concentrators": [],
-    "absorbent": {"stock": "6 kg"},
+    "absorbent": {"stock": "10 kg"},
 }
 
 

@@ -5,13 +5,15 @@ from __future__ import annotations
 import importlib
 from typing import Any
 
+import altair as alt
 import pandas as pd
 import streamlit as st
 
 from estimator.errors import InputError
+from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
 
 from .. import state
-from ..charts import time_course
+from ..charts import PALETTE
 from ..common import downloads, flow_factor, placeholder, show_error, show_warnings, unit
 
 
@@ -23,51 +25,120 @@ def model() -> Any:
         return None
 
 
-@st.cache_data(max_entries=32, show_spinner="Searching the lowest safe flow...")
-def run_floor(text: str) -> dict[str, Any]:
-    """JSON document of the flow floor of a scenario's TOML text (cached on the text)."""
+@st.cache_data(max_entries=32, show_spinner="Searching the lowest safe flow, phase by phase...")
+def run_floor(text: str) -> Any:
+    """Flow floor of a scenario's TOML text (cached on the text)."""
     from estimator.scenario import load_scenario
 
-    result = model()(load_scenario(text))
-    return result.to_json() if hasattr(result, "to_json") else dict(result)
+    return model()(load_scenario(text))
 
 
-def _mag(v: Any) -> Any:
-    return v.get("magnitude") if isinstance(v, dict) else v
+def settings(doc: dict[str, Any]) -> dict[str, Any]:
+    """The ``[flow_floor]`` table from the page's inputs (saved with the scenario)."""
+    ff_doc = dict(doc.get("flow_floor", {}))
+    v, fu, f = state.version(), unit("flow"), flow_factor()
+
+    def cur(key: str, dim: str, u: str, default: float) -> float:
+        try:
+            return float(parse_quantity(ff_doc[key], key, dim).to(u).magnitude) if key in ff_doc else default
+        except InputError:
+            return default
+
+    c1, c2, c3, c4 = st.columns(4)
+    thr = c1.number_input("Inspired O2 threshold [%]", 21.0, 100.0,
+                          cur("threshold_inspired_oxygen", "fraction", "percent", 30.0), 1.0, key=f"floor.thr.{v}")
+    basal = c2.number_input(f"Machine basal O2 flow [{fu}]", 0.0, 1.0 * f,
+                            cur("basal_oxygen_flow", "flow", "L/min", 0.0) * f, 0.05 * f, key=f"floor.basal.{v}.{fu}")
+    reach = c3.number_input("Reach the end-tidal target within [min]", 0.5, 120.0,
+                            cur("reach_within", "time", "min", 15.0), 1.0, key=f"floor.reach.{v}")
+    label = c4.checkbox("Apply the sevoflurane US label rule", "sevoflurane_us_label" in ff_doc.get("policies", []),
+                        key=f"floor.label.{v}", help=">= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min")
+    ff_doc.update({"threshold_inspired_oxygen": f"{thr:g} %", "basal_oxygen_flow": f"{basal / f:g} L/min",
+                   "reach_within": f"{reach:g} min", "policies": ["sevoflurane_us_label"] if label else []})
+    return ff_doc
+
+
+def phase_table(result: Any) -> pd.DataFrame:
+    fu, f = unit("flow"), flow_factor()
+
+    def flow(q: Any) -> float | None:
+        return None if q is None else float(q.to("L/min").magnitude) * f
+
+    rows = []
+    for p in result.phases:
+        fl = p.get("flows") or {}
+        rows.append({"phase": p["label"], "start [min]": p["start"].to("min").magnitude,
+                     "end [min]": p["end"].to("min").magnitude, f"planned [{fu}]": flow(p["planned_total"]),
+                     f"flow floor [{fu}]": flow(p["floor"]), f"O2 [{fu}]": flow(fl.get("oxygen")),
+                     f"air [{fu}]": flow(fl.get("air")), f"N2O [{fu}]": flow(fl.get("nitrous_oxide")),
+                     "binding limit": p["binding"] or "-", "why": p["binding_text"], "flow class": p["flow_class"]})
+    return pd.DataFrame(rows)
+
+
+def chart(result: Any, plan: Any) -> alt.Chart:
+    fu, f = unit("flow"), flow_factor()
+    planned = pd.DataFrame({"time": plan.series["time [min]"], "value": plan.series["fresh_gas_flow [L/min]"] * f,
+                            "series": "planned fresh-gas flow"})
+    grid = pd.DataFrame([{"time": g["time"].to("min").magnitude,
+                          "value": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
+                          "series": "flow floor from this time", "binding": g["binding"] or "-"}
+                         for g in result.grid])
+    sched = []
+    for s in result.schedule:
+        t0 = s["start"].to("min").magnitude
+        for t in (t0, t0 + s["duration"].to("min").magnitude):
+            sched.append({"time": t, "value": s["total"].to("L/min").magnitude * f, "series": "recommended schedule"})
+    data = pd.concat([planned, grid, pd.DataFrame(sched)], ignore_index=True)
+    return alt.Chart(data).mark_line(strokeWidth=2.2, interpolate="step-after").encode(
+        x=alt.X("time:Q", title="time [min]"), y=alt.Y("value:Q", title=f"fresh-gas flow [{fu}]"),
+        color=alt.Color("series:N", title=None, scale=alt.Scale(range=list(PALETTE)), legend=alt.Legend(orient="top")),
+        tooltip=[alt.Tooltip("time:Q", title="time [min]"), "series:N",
+                 alt.Tooltip("value:Q", title=f"flow [{fu}]", format=".2f"), "binding:N"],
+    ).properties(height=300)
 
 
 def render() -> None:
     st.title("Flow floor")
-    st.caption("How low may the fresh-gas flow go, phase by phase, and which limit binds: inspired O2, "
-               "a full bag (fresh gas covers uptake, leak and unreturned sample gas) or the vaporizer's reach.")
+    st.caption("How low may the fresh-gas flow go, phase by phase, for the case on the planner page, and which "
+               "limit binds: inspired O2, a full bag, reaching and holding the end-tidal target, machine limits.")
     if model() is None:
         placeholder("The flow floor", "estimator.safety",
-                    "It will search, for the case on the planner page, the lowest fresh-gas flow at each moment "
-                    "that keeps inspired O2 above the threshold, keeps the bag full and lets the vaporizer "
-                    "hold the end-tidal target, and name the limit that binds.")
+                    "It will search the lowest fresh-gas flow at each moment that keeps inspired O2 above the "
+                    "threshold, keeps the bag full and lets the vaporizer hold the end-tidal target.")
         return
+    doc = dict(state.document())
+    doc["flow_floor"] = settings(doc)
+    state.set_document(doc)
     try:
-        doc = run_floor(state.toml_text())
+        result = run_floor(state.toml_text())
+        plan = state.run_case(state.toml_text())
     except InputError as exc:
         show_error(exc)
         return
-    fu, ff = unit("flow"), flow_factor()
-    thr = _mag(doc.get("threshold_inspired_oxygen"))
-    if thr is not None:
-        st.metric("Inspired O2 threshold", f"{100 * float(thr):.0f} %")
-    phases = pd.DataFrame([{
-        "phase": int(p.get("index", i)) + 1, "start [min]": _mag(p.get("start")), "end [min]": _mag(p.get("end")),
-        f"flow floor [{fu}]": float(_mag(p.get("floor"))) * ff if _mag(p.get("floor")) is not None else None,
-        "binding limit": p.get("binding")} for i, p in enumerate(doc.get("phases", []))])
+    st.success(f"Recommended schedule: {result.schedule_text}", icon=":material/trending_down:")
+    cmp_ = result.comparison
+    m = st.columns(4)
+    fu, f = unit("flow"), flow_factor()
+    mean_rec = cmp_["recommended"]["mean_fresh_gas_flow"].to("L/min").magnitude * f
+    mean_plan = cmp_["plan"]["mean_fresh_gas_flow"].to("L/min").magnitude * f
+    m[0].metric("Mean flow at the floor", f"{mean_rec:.{2 if fu == 'L/min' else 0}f} {fu}",
+                f"{mean_rec - mean_plan:+.{2 if fu == 'L/min' else 0}f} {fu} vs plan", delta_color="off")
+    m[1].metric("Liquid agent saved", f"{cmp_['saving']['agent_liquid'].to('mL').magnitude:.1f} mL")
+    m[2].metric("Oxygen saved", f"{cmp_['saving']['oxygen'].to('L').magnitude:.0f} L", help=GAS_VOLUME_REFERENCE)
+    m[3].metric("CO2e saved", f"{cmp_['saving']['co2e'].to('kg').magnitude:.2f} kg", help="IPCC AR6 GWP100")
     st.subheader("Lowest safe flow per phase")
-    st.dataframe(phases, hide_index=True, width="stretch")
-    grid = doc.get("grid") or {}
-    if grid.get("time") and grid.get("floor"):
-        g = pd.DataFrame({"time [min]": grid["time"], "floor": [_mag(x) * ff if _mag(x) is not None else None
-                                                               for x in grid["floor"]]})
-        st.subheader("Flow floor over time")
-        st.altair_chart(time_course(g, {"floor": "flow floor"}, f"fresh-gas flow [{fu}]", step=True),
-                        width="stretch")
-    st.subheader("Warnings")
-    show_warnings(doc.get("warnings", []), empty="No flow-floor warnings.")
-    downloads("flow_floor", {"phases": phases}, doc, "floor")
+    table = phase_table(result)
+    st.dataframe(table, hide_index=True, width="stretch")
+    st.subheader("Flow floor over time")
+    st.altair_chart(chart(result, plan), width="stretch")
+    st.caption("The floor at a time answers: from here to the end of this phase, how low may the flow go on the "
+               "planned course so far. Flows are settable values on the flowmeter scale.")
+    st.subheader("Advisories")
+    show_warnings(result.warnings, empty="No flow-floor advisories.")
+    if cmp_.get("recommended_warnings"):
+        st.markdown("**At the recommended schedule the case model warns:**")
+        show_warnings(cmp_["recommended_warnings"])
+    grid = pd.DataFrame([{"time [min]": g["time"].to("min").magnitude,
+                          f"floor [{fu}]": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
+                          "binding": g["binding"]} for g in result.grid])
+    downloads("flow_floor", {"phases": table, "grid": grid}, result.to_json(), "floor")

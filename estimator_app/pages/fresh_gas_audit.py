@@ -1,0 +1,158 @@
+"""Fresh-gas audit: recorded cases in, agent, gas, CO2e and cost per case, room and month out, with KPIs."""
+
+from __future__ import annotations
+
+import io
+import tempfile
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+import streamlit as st
+
+from estimator.errors import InputError
+from estimator.properties import CO2E_BASES
+from estimator.units import GAS_VOLUME_REFERENCE
+
+from .. import demo, state
+from ..charts import bars
+from ..common import MAX_UPLOAD_BYTES, read_upload, show_error, show_warnings, unit
+
+
+def _prices() -> Any:
+    from estimator.costs import parse_prices
+
+    p = state.document().get("prices")
+    return parse_prices(p) if p else None
+
+
+@st.cache_data(max_entries=16, show_spinner="Auditing the log...")
+def run_audit(text: str, prices_key: str, basis: str, quadrature: str, after: float) -> Any:
+    from estimator.audit import audit
+
+    return audit(io.StringIO(text), prices=_prices() if prices_key else None, basis=basis, quadrature=quadrature,
+                 maintenance_after=f"{after:g} min")
+
+
+@st.cache_data(max_entries=8, show_spinner="Re-running each case at the policy flow (engine)...")
+def run_counterfactual(text: str, prices_key: str, basis: str, quadrature: str, after: float,
+                       policy_flow: float) -> dict[str, Any]:
+    from estimator.audit_policy import counterfactual, parse_policy
+
+    result = run_audit(text, prices_key, basis, quadrature, after)
+    return counterfactual(result, parse_policy({"fresh_gas_flow": f"{policy_flow:g} L/min"}),
+                          prices=_prices() if prices_key else None)
+
+
+def _log_text() -> tuple[str, str]:
+    up = st.file_uploader("Fresh-gas log (CSV)", type=["csv"], key="audit.upload",
+                          help=f"Header and units as in the README; at most {MAX_UPLOAD_BYTES // 2**20} MB.")
+    if up is None:
+        st.caption("No log loaded: showing an invented demo log of 8 cases in two theatres.")
+        return demo.audit_log_csv(), "demo log"
+    return read_upload(up, "audit log"), up.name
+
+
+def _files(result: Any) -> dict[str, bytes]:
+    from estimator.exports import report_html, write_csv, write_xlsx
+
+    with tempfile.TemporaryDirectory() as tmp:
+        out = {"csv": write_csv(result, Path(tmp) / "a.csv").read_bytes(),
+               "xlsx": write_xlsx(result, Path(tmp) / "a.xlsx").read_bytes()}
+    out["html"] = report_html(result, "Fresh-gas audit").encode("utf-8")
+    return out
+
+
+def render() -> None:
+    st.title("Fresh-gas audit")
+    st.caption("From recorded cases: how much agent, CO2e and money the fresh gas cost, and what a low-flow "
+               "policy would save.")
+    bases = list(CO2E_BASES)
+    c1, c2, c3, c4 = st.columns(4)
+    basis = c1.selectbox("CO2e basis", bases, format_func=lambda b: CO2E_BASES[b][1], key="audit.basis")
+    quad = c2.selectbox("Integration", ("hold", "trapezoid"), key="audit.quadrature",
+                        format_func=lambda q: {"hold": "sample and hold (dials)", "trapezoid": "trapezoid (measured)"}[q])
+    after = c3.number_input("Maintenance starts after [min]", 0.0, 600.0, 10.0, 1.0, key="audit.after")
+    ff = 1000.0 if unit("flow") == "mL/min" else 1.0
+    policy = c4.number_input(f"Policy fresh-gas flow [{unit('flow')}]", 0.1 * ff, 15.0 * ff, 0.5 * ff, 0.1 * ff,
+                             key=f"audit.policy.{unit('flow')}") / ff
+    try:
+        text, name = _log_text()
+        prices_key = state.toml_text({"p": state.document().get("prices") or {}})
+        result = run_audit(text, prices_key if state.document().get("prices") else "", basis, quad, after)
+    except InputError as exc:
+        show_error(exc)
+        return
+    r = result.rows
+    currency = unit("currency") or result.currency or ""
+    st.subheader(f"{name}: {r['read']} rows read, {r['used']} used, {r['rejected']} rejected")
+    if result.rejections:
+        with st.expander(f"Rejected rows ({len(result.rejections)})", expanded=True):
+            st.dataframe(pd.DataFrame(result.rejections, columns=["line", "reason"]), hide_index=True,
+                         width="stretch")
+    k, t = result.kpis, result.totals
+    m = st.columns(5)
+    m[0].metric("Cases", f"{t.get('cases', 0)}")
+    m[1].metric("Liquid agent", f"{t.get('agent_liquid_ml', 0):.0f} mL")
+    m[2].metric("CO2e", f"{t.get('co2e_kg', 0):.1f} kg", help=CO2E_BASES[basis][1])
+    m[3].metric("Cost", f"{t['cost_total']:.2f} {currency}" if "cost_total" in t else "no prices")
+    m[4].metric("Mean maintenance flow", f"{k['mean_maintenance_flow_l_min'] * ff:.{2 if ff == 1 else 0}f} "
+                f"{unit('flow')}", help=f"class: {k.get('mean_maintenance_flow_class')}")
+    m = st.columns(4)
+    m[0].metric("Maintenance time at <= 1 L/min", f"{100 * k['maintenance_share_le_1']:.0f} %")
+    m[1].metric("Maintenance time at <= 0.5 L/min", f"{100 * k['maintenance_share_le_0_5']:.0f} %")
+    m[2].metric("MAC-hours", f"{k.get('mac_hours', 0):.1f}")
+    m[3].metric("CO2e per MAC-hour", f"{k.get('co2e_per_mac_hour_kg', float('nan')):.2f} kg")
+    shares = pd.DataFrame({"flow class": list(k["flow_class_shares"]),
+                           "share": [100 * v for v in k["flow_class_shares"].values()]})
+    c1, c2 = st.columns(2)
+    c1.altair_chart(bars(shares, "flow class", "share", "flow class (Brattwall et al. 2012)",
+                         "maintenance time [%]"), width="stretch")
+    per_case = result.cases[["case_id", "agent_liquid_ml"]].rename(columns={"agent_liquid_ml": "liquid"})
+    c2.altair_chart(bars(per_case, "case_id", "liquid", "case", "liquid agent [mL]"), width="stretch")
+    tabs = st.tabs(["Cases", "Rooms", "Months"])
+    for tab, frame in zip(tabs, (result.cases, result.rooms, result.months), strict=True):
+        tab.dataframe(frame, hide_index=True, width="stretch")
+    st.caption(f"Gas: {GAS_VOLUME_REFERENCE}. CO2e basis: {CO2E_BASES[basis][1]}.")
+    show_warnings(result.warnings)
+
+    st.subheader("Counterfactual: the same cases at the policy flow")
+    st.caption("Each case re-run by the engine: wash-in as recorded, maintenance as an end-tidal hold at the "
+               "recorded end-tidal agent with the policy's fresh-gas flow.")
+    cf = None
+    if st.toggle("Run the counterfactual", key="audit.cf"):
+        try:
+            cf = run_counterfactual(text, prices_key if state.document().get("prices") else "", basis, quad, after,
+                                    policy)
+        except InputError as exc:
+            show_error(exc)
+    if cf is not None:
+        s, share = cf["totals"]["savings"], cf["totals"]["savings_share"]
+        m = st.columns(4)
+        m[0].metric("Liquid agent saved", f"{s['agent_liquid']['magnitude']:.0f} mL",
+                    f"{100 * (share.get('agent_liquid') or 0):.0f} %")
+        m[1].metric("Fresh gas saved", f"{s['fresh_gas']['magnitude']:.0f} L",
+                    f"{100 * (share.get('fresh_gas') or 0):.0f} %")
+        m[2].metric("CO2e saved", f"{s['co2e']['magnitude']:.1f} kg", f"{100 * (share.get('co2e') or 0):.0f} %")
+        if s.get("cost"):
+            m[3].metric("Cost saved", f"{s['cost']['total']:.2f} {currency}")
+        if cf["skipped"]:
+            st.dataframe(pd.DataFrame(cf["skipped"]), hide_index=True, width="stretch")
+        show_warnings(cf["warnings"])
+    st.subheader("Download the audit")
+    files = _files(result)
+    from estimator.jsonout import dumps
+
+    doc = result.to_json()
+    if cf is not None:
+        doc["counterfactual"] = cf
+    c = st.columns(4)
+    c[0].download_button("Cases (CSV)", files["csv"], "audit_cases.csv", "text/csv", key="audit.csv",
+                         width="stretch")
+    c[1].download_button("Workbook (XLSX)", files["xlsx"], "audit.xlsx",
+                         "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key="audit.xlsx",
+                         width="stretch")
+    c[2].download_button("Report (HTML)", files["html"], "audit_report.html", "text/html", key="audit.html",
+                         width="stretch")
+    c[3].download_button("JSON", dumps(doc).encode("utf-8"), "audit.json", "application/json", key="audit.json",
+                         width="stretch")
