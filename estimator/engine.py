@@ -25,6 +25,8 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
+from typing import Any
 
 import numpy as np
 
@@ -63,6 +65,7 @@ class SiteState:
     elevation_m: float | None
     oxygen_composition: tuple[float, float, float]  # O2, N2, Ar of the oxygen supply
     warnings: tuple[tuple[str, str], ...] = ()
+    site: Any = None  # the estimator.site.Site it came from
 
 
 def air_fractions() -> np.ndarray:
@@ -100,7 +103,36 @@ def site_state(scenario: Scenario) -> SiteState:
                                  f"at most 100 % - oxygen_purity = {100 * (1 - comp[0]):g} %")
             comp = (comp[0], 1.0 - comp[0] - argon, argon)
     elevation = None if site.elevation is None else float(site.elevation.to("m").magnitude)
-    return SiteState(p, float(site.temperature.to("K").magnitude), elevation, comp, tuple(site.warnings))
+    return SiteState(p, float(site.temperature.to("K").magnitude), elevation, comp, tuple(site.warnings), site)
+
+
+@lru_cache(maxsize=4096)
+def flowmeter_correction(gas: str, reading: float, ambient_kpa: float, temperature_k: float,
+                         purity: float | None) -> float:
+    """True ambient flow per unit reading of a tube calibrated for its own gas (estimator.flowmeter)."""
+    from .flowmeter import true_flow
+    from .site import site_from_inputs
+
+    site = site_from_inputs(ambient_pressure=Q_(ambient_kpa, "kPa"), temperature=Q_(temperature_k, "K"))
+    use = "concentrator" if purity is not None else gas
+    return float(true_flow(Q_(reading, "L/min"), gas, use, site, purity=purity).correction)
+
+
+def true_flows(scenario: Scenario, phase: PhaseInput, site: SiteState) -> tuple[float, float, float]:
+    """(O2, air, N2O) true flows at the site [ambient L/min] of a phase.
+
+    Without ``site.flowmeter_readings`` the phase flows are taken as true flows already.
+    """
+    flows = tuple(q.to("L/min").magnitude for q in phase.flows())
+    if not scenario.site.flowmeter_readings:
+        return flows
+    purity = site.oxygen_composition[0] if scenario.site.oxygen_source == "concentrator" else None
+    out = []
+    for gas_name, reading in zip(("oxygen", "air", "nitrous_oxide"), flows, strict=True):
+        pur = purity if gas_name == "oxygen" else None
+        out.append(reading * flowmeter_correction(gas_name, round(reading, 9), site.ambient_pressure_kpa,
+                                                  site.temperature_k, pur) if reading > 0 else 0.0)
+    return tuple(out)
 
 
 def mac_at_age(species: Species, age_years: float) -> float:
@@ -176,7 +208,7 @@ def phase_parameters(base: np.ndarray, scenario: Scenario, phase: PhaseInput, si
     """Copy of ``base`` with the phase's fresh-gas flows and vaporizer or hold settings."""
     p = base.copy()
     amb = site.ambient_pressure_kpa / (R_GAS * site.temperature_k) * 1000.0
-    o2, air, n2o = (q.to("L/min").magnitude * amb for q in phase.flows())
+    o2, air, n2o = (f * amb for f in true_flows(scenario, phase, site))
     fo2, fn2, far = site.oxygen_composition
     airf = air_fractions()
     carrier = np.zeros(c.NS)

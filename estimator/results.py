@@ -27,6 +27,12 @@ if TYPE_CHECKING:
 #: End-tidal within this share of the hold target counts as reached (common practice, no source:
 #: agent analysers read to about +-0.1 vol% or 5 % of reading, ISO 80601-2-55).
 TARGET_BAND = 0.02
+#: Water-vapour pressure of inspired gas warmed to 37 degC, for PiO2 (West; as in estimator.site).
+P_H2O = 6.3
+#: Inspired O2 is judged from this case time on [min]: over the first minute a circuit of room air is
+#: still filling with fresh gas at any flow (a modelling choice; the minimum over the whole series is
+#: still reported as ``minimum_inspired_oxygen``).
+SETTLE = 1.0
 #: Default inspired O2 advisory threshold at low flow (Baum and Aitkenhead 1995, from memory).
 FIO2_ADVISORY = 0.30
 
@@ -35,7 +41,7 @@ SERIES_UNITS = {
     "inspired_carbon_dioxide": "%", "end_tidal_carbon_dioxide": "%",
     "inspired_nitrous_oxide": "%", "end_tidal_nitrous_oxide": "%",
     "inspired_nitrogen": "%", "end_tidal_nitrogen": "%", "inspired_argon": "%", "end_tidal_argon": "%",
-    "inspired_agent": "%", "end_tidal_agent": "%", "end_tidal_target": "%", "end_tidal_mac": "MAC",
+    "inspired_agent": "%", "end_tidal_agent": "%", "inspired_oxygen_partial_pressure": "kPa", "end_tidal_target": "%", "end_tidal_mac": "MAC",
     "vaporizer_setting": "%", "delivered_agent": "%", "fresh_gas_flow": "L/min",
     "exhaust_flow": "L/min", "volume_deficit_flow": "L/min", "oxygen_uptake": "mL/min",
     "agent_uptake": "mL/min", "nitrous_oxide_uptake": "mL/min", "co2_to_absorbent": "mL/min",
@@ -82,6 +88,7 @@ class CaseResult:
     balance: dict[str, dict[str, float]] = field(repr=False, default_factory=dict)
     solver: dict[str, int] = field(default_factory=dict)
     cost: dict[str, Any] | None = None
+    flow_reference: str = "ambient litres at 101.325 kPa and 20 degC"
 
     def mass_balance(self) -> dict[str, float]:
         """Relative mass-balance error per species.
@@ -119,6 +126,7 @@ class CaseResult:
             "phases": self.phases,
             "series": series,
             "gas_volume_reference": GAS_VOLUME_REFERENCE,
+            "flow_reference": self.flow_reference,
             "co2e_basis": CO2E_BASES["ar6_gwp100"][1],
         })
 
@@ -154,7 +162,9 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
         steps["rejected"] += int(stats[1])
         steps["evaluations"] += int(stats[2])
         phase = scenario.phases[index]
-        o2, air, n2o = (q.to("L/min").magnitude for q in phase.flows())
+        from .engine import true_flows
+
+        o2, air, n2o = true_flows(scenario, phase, site)
         dur = times[-1] - times[0]
         carrier = o2 + air + n2o
         mk = sum(ys[-1, c.Y_MAKEUP + s] - ys[0, c.Y_MAKEUP + s] for s in range(c.NS) if s != c.AGENT)
@@ -175,6 +185,7 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
             cols[f"end_tidal_{name} [%]"] = 100 * ws[:, c.W_FET + sp]
         hold = p[c.P_MODE] == c.MODE_HOLD
         cols["end_tidal_target [%]"] = 100 * ws[:, c.W_TARGET] if hold else np.full(times.shape, np.nan)
+        cols["inspired_oxygen_partial_pressure [kPa]"] = ws[:, c.W_FI + c.O2] * (site.ambient_pressure_kpa - P_H2O)
         cols["end_tidal_mac [MAC]"] = ws[:, c.W_MAC]
         cols["vaporizer_setting [%]"] = 100 * dial
         cols["delivered_agent [%]"] = 100 * u
@@ -196,9 +207,23 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
     y0, y1 = y_first, chunks[-1][2][-1]
     totals, balance = _totals(scenario, ag, base, y0, y1, amb, lpm, (o2_l, air_l, n2o_l))
     fio2 = series["inspired_oxygen [%]"].to_numpy() / 100
-    _gas_warnings(series, fio2, totals, warns)
+    judged = series["time [min]"].to_numpy() >= SETTLE
+    _gas_warnings(series, fio2, judged, totals, warns)
+    if site.ambient_pressure_kpa < 101.325 - 1e-6:
+        from .site import check_inspired_oxygen
+
+        warns += [(code.upper(), msg) for code, msg in check_inspired_oxygen(fio2[judged], FIO2_ADVISORY,
+                                                                               Q_(site.ambient_pressure_kpa, "kPa"))]
+    if scenario.site.flowmeter_readings:
+        warns.append(("FLOWMETER_ACCURACY", "phase flows are flowmeter readings converted to true flows; a "
+                      "calibrated tube reads to about +-2.5 % (common practice, no source), so gas totals carry "
+                      "that band"))
+        for key in ("oxygen", "air", "nitrous_oxide"):
+            totals[f"{key}_band"] = {"low": totals[key] * 0.975, "high": totals[key] * 1.025}
+    flow_ref = (f"series flows in ambient litres at the site ({site.ambient_pressure_kpa:.1f} kPa, "
+                f"{site.temperature_k - 273.15:.0f} degC); totals in {GAS_VOLUME_REFERENCE}")
     return CaseResult(scenario, patient, totals, series, warns, Q_(float(fio2.min()), "dimensionless"),
-                      phases, balance, steps)
+                      phases, balance, steps, flow_reference=flow_ref)
 
 
 def _hold_report(index: int, times: np.ndarray, ws: np.ndarray, p: np.ndarray, warns: list) -> dict:
@@ -284,8 +309,10 @@ def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
     return totals, balance
 
 
-def _gas_warnings(series: pd.DataFrame, fio2: np.ndarray, totals: dict, warns: list) -> None:
-    t = series["time [min]"].to_numpy()
+def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray, totals: dict,
+                  warns: list) -> None:
+    t = series["time [min]"].to_numpy()[judged]
+    fio2 = fio2_all[judged]
     deficit = series["volume_deficit_flow [L/min]"].to_numpy()
     if totals["volume_deficit"].magnitude > 1e-9:
         first = t[np.argmax(deficit > 0)] if np.any(deficit > 0) else t[0]

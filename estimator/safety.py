@@ -62,9 +62,7 @@ DEFAULT_SCALE = ((1.0, 0.1), (15.0, 0.5))
 #: End-tidal within this share of target counts as reached (as in estimator.results).
 TARGET_BAND = 0.02
 CHECK_INTERVAL = 1.0  # [min] resolution of the limit checks
-#: The inspired-O2 limit is judged from this case time on [min]: over the first minute a circuit of
-#: room air is still filling with fresh gas, at any flow (a modelling choice, stated in the README).
-SETTLE = 1.0
+from .results import SETTLE  # noqa: E402  inspired O2 is judged from this case time on [min]
 
 
 @dataclass(frozen=True)
@@ -124,6 +122,15 @@ def settings_from(scenario: Scenario, threshold: float | None = None) -> Setting
     thr = ff.threshold_inspired_oxygen.to("").magnitude if threshold is None else float(threshold)
     if not 0.21 <= thr <= 1.0:
         raise InputError("flow_floor.threshold_inspired_oxygen", thr, "0.21 to 1 (never below room air)")
+    if ff.threshold_basis == "partial_pressure":
+        from .site import fraction_for_sea_level_threshold
+
+        ambient = engine.site_state(scenario).ambient_pressure_kpa
+        at_site = float(fraction_for_sea_level_threshold(thr, Q_(ambient, "kPa")))
+        if at_site > 1.0:
+            raise InputError("flow_floor.threshold_inspired_oxygen", thr,
+                             f"a PiO2 reachable at {ambient:.1f} kPa (even 100 % O2 gives less)")
+        thr = at_site
     bands = [(b.up_to.to("L/min").magnitude, b.step.to("L/min").magnitude) for b in ff.scale] \
         if ff.scale else list(DEFAULT_SCALE)
     return Settings(thr, ff.reach_within.to("min").magnitude, ff.basal_oxygen_flow.to("L/min").magnitude,

@@ -125,6 +125,9 @@ class SiteInput(_Model):
     oxygen_source: Literal["cylinder", "pipeline", "concentrator"] = "cylinder"
     oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless") | None = None
     argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless") | None = None
+    flowmeter_readings: bool = False
+    """Phase flows are readings of float flowmeters, each calibrated for its own gas at 20 degC and
+    101.325 kPa; the engine converts them to true flows at the site (estimator.flowmeter)."""
 
 
 class PhaseInput(_Model):
@@ -200,6 +203,8 @@ class FlowFloorInput(_Model):
     """``[flow_floor]``: settings of the flow floor (``lowflow safe-flow``); every key optional."""
 
     threshold_inspired_oxygen: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(0.30, "dimensionless")
+    threshold_basis: Literal["fraction", "partial_pressure"] = "fraction"
+    """``partial_pressure``: the threshold is read as the sea-level PiO2 it gives (for high sites)."""
     reach_within: _quantity("time", 0.5, 120.0, "min") = Q_(15.0, "min")
     basal_oxygen_flow: _quantity("flow", 0.0, 1.0, "L/min") = Q_(0.0, "L/min")
     minimum_oxygen_share: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(0.25, "dimensionless")
