@@ -124,7 +124,7 @@ def csv_bytes(frame: pd.DataFrame) -> bytes:
 
     safe = frame.copy()
     for col in safe.columns:
-        if safe[col].dtype == object:
+        if not pd.api.types.is_numeric_dtype(safe[col]):
             safe[col] = safe[col].map(lambda v: neutralise(v) if isinstance(v, str) else v)
     return safe.to_csv(index=False).encode("utf-8")
 

@@ -22,12 +22,17 @@ DOC = "scenario"
 VERSION = "scenario.version"
 
 
+def stored(key: str, version_key: str, factory: Any) -> dict[str, Any]:
+    """A document kept in session state under ``key``, made by ``factory()`` on first use."""
+    if key not in st.session_state:
+        st.session_state[key] = factory()
+        st.session_state[version_key] = 0
+    return st.session_state[key]
+
+
 def document() -> dict[str, Any]:
     """The current scenario document (the demo case until the user changes it)."""
-    if DOC not in st.session_state:
-        st.session_state[DOC] = demo.scenario()
-        st.session_state[VERSION] = 0
-    return st.session_state[DOC]
+    return stored(DOC, VERSION, demo.scenario)
 
 
 def version() -> int:

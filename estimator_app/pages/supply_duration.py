@@ -25,10 +25,7 @@ PLANNER = "case planner"
 
 
 def document() -> dict[str, Any]:
-    if DOC not in st.session_state:
-        st.session_state[DOC] = demo.inventory()
-        st.session_state[VERSION] = 0
-    return st.session_state[DOC]
+    return state.stored(DOC, VERSION, demo.inventory)
 
 
 def _num(value: Any, dim: str, unit_: str, default: float | None = None) -> float | None:

@@ -1,0 +1,269 @@
+"""The Streamlit pages, driven by streamlit's AppTest: inputs set, outputs checked against the world.
+
+Each test runs one page (the shared frame plus the page) in a headless script runner with the real
+engine. Checks use facts outside the app: unit definitions, published laws the outputs must follow
+in direction (more flow, more agent), the ISO standard atmosphere, and the package's own CLI text.
+"""
+
+from __future__ import annotations
+
+import copy
+import io
+import json
+import sys
+import tomllib
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+if str(ROOT) not in sys.path:  # app.py runs from the repository root; estimator_app is not installed
+    sys.path.insert(0, str(ROOT))
+
+import tomli_w  # noqa: E402
+from streamlit.testing.v1 import AppTest  # noqa: E402
+
+from estimator.cli import CAUTION  # noqa: E402
+from estimator_app import demo  # noqa: E402
+from estimator_app.common import MAX_UPLOAD_BYTES, csv_bytes, read_upload, xlsx_bytes  # noqa: E402
+
+#: First run of a page imports the engine and loads numba's compiled cache; allow for a slow runner.
+TIMEOUT = 60
+
+#: 1 lb = 0.45359237 kg exactly (International Yard and Pound Agreement, 1959).
+KG_PER_LB = 0.45359237
+
+
+def page(name: str, scenario: dict | None = None) -> AppTest:
+    """One page with the shared frame, run once."""
+    at = AppTest.from_string(f"from estimator_app.shell import page_main\npage_main({name!r})",
+                             default_timeout=TIMEOUT)
+    if scenario is not None:
+        at.session_state["scenario"] = scenario
+        at.session_state["scenario.version"] = 0
+    return at.run()
+
+
+def metric(at: AppTest, label: str) -> str:
+    return next(m.value for m in at.metric if m.label == label)
+
+
+def number(text: str) -> float:
+    return float(text.split()[0].replace(",", ""))
+
+
+def assert_clean(at: AppTest) -> None:
+    assert not at.exception, [e.value for e in at.exception]
+    assert not at.error, [e.value for e in at.error]
+
+
+def test_app_opens_on_the_demo_case_with_the_caution():
+    # The app must open on a useful demo with no input, the caution first (CLI text is the reference).
+    at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=TIMEOUT).run()
+    assert_clean(at)
+    assert at.title[0].value == "Case planner"
+    assert at.warning[0].value == CAUTION
+    assert "Harbourside" in at.text_input[0].value
+    assert number(metric(at, "Liquid agent")) > 0
+
+
+@pytest.fixture(scope="module")
+def planner() -> AppTest:
+    return page("case_planner")
+
+
+def test_case_planner_shows_engine_totals_and_downloads(planner):
+    assert_clean(planner)
+    assert planner.warning[0].value == CAUTION
+    # The demo holds 1 MAC end-tidal for most of 78 min: MAC-hours a little below 78/60 = 1.3
+    # (wash-in takes minutes, emergence none; Mapleson's age MAC is the unit).
+    assert 0.9 < number(metric(planner, "MAC-hours")) < 1.3
+    labels = {b.label for b in planner.get("download_button")}
+    assert {"Download CSV", "Download XLSX", "Download JSON", "Save scenario (TOML)"} <= labels
+    phases = planner.dataframe[0].value
+    assert list(phases["label"]) == ["wash-in", "maintenance", "emergence"]
+
+
+def test_heavier_patient_takes_up_more_agent(planner):
+    # Brody scaling (Lowe and Ernst 1981): cardiac output, hence agent uptake at a given end-tidal
+    # target, rises as weight^0.75; a 60 % heavier patient must use more liquid agent.
+    before = number(metric(planner, "Liquid agent"))
+    planner.number_input(key="case.weight.0.kg").set_value(130.0).run()
+    assert_clean(planner)
+    assert number(metric(planner, "Liquid agent")) > before
+
+
+def test_higher_maintenance_flow_uses_more_agent_and_oxygen():
+    # Dion 1992 and Baum and Aitkenhead 1995: at the same end-tidal target, vapour delivered grows with
+    # fresh-gas flow (more is vented through the APL valve); oxygen used grows with the O2 flow.
+    base = page("case_planner")
+    doc = demo.scenario()
+    doc["phases"][1].update(oxygen="1.5 L/min", air="1.5 L/min")
+    high = page("case_planner", doc)
+    assert_clean(high)
+    assert number(metric(high, "Liquid agent")) > 1.2 * number(metric(base, "Liquid agent"))
+    assert number(metric(high, "Oxygen")) > number(metric(base, "Oxygen"))
+    assert number(metric(high, "Mean fresh-gas flow")) > number(metric(base, "Mean fresh-gas flow"))
+
+
+def test_display_units_follow_their_definitions(planner):
+    # 1 L = 1000 mL (SI); 1 lb = 0.45359237 kg (1959 agreement). Changing the display unit changes the
+    # number shown, never the model result.
+    at = page("case_planner")
+    lpm = number(metric(at, "Mean fresh-gas flow"))
+    at.selectbox(key="unit.flow").set_value("mL/min").run()
+    at.selectbox(key="unit.mass").set_value("lb").run()
+    assert_clean(at)
+    # L/min is shown to 0.01 L/min, so the mL/min figure agrees within half that step, 5 mL/min.
+    assert number(metric(at, "Mean fresh-gas flow")) == pytest.approx(1000 * lpm, abs=5.0)
+    assert at.number_input(key="case.weight.0.lb").value == pytest.approx(82 / KG_PER_LB, rel=1e-9)
+    assert metric(at, "Mean fresh-gas flow").endswith("mL/min")
+
+
+def test_scenario_upload_replaces_the_case_and_bad_files_are_refused():
+    at = page("case_planner")
+    doc = demo.scenario()
+    doc["title"] = "Riverbend Cottage Hospital - knee arthroscopy"
+    doc["patient"]["weight"] = "61 kg"
+    at.sidebar.get("file_uploader")[0].set_value(("case.toml", tomli_w.dumps(doc).encode(), "application/toml"))
+    at.run()
+    assert_clean(at)
+    assert at.text_input[0].value.startswith("Riverbend")
+    assert at.number_input(key="case.weight.1.kg").value == pytest.approx(61.0)
+    # A weight outside the scenario range is refused with the field named, never clamped.
+    doc["patient"]["weight"] = "900 kg"
+    at.sidebar.get("file_uploader")[0].set_value(("bad.toml", tomli_w.dumps(doc).encode(), "application/toml"))
+    at.run()
+    assert any("patient.weight" in e.value for e in at.error)
+    assert at.text_input[0].value.startswith("Riverbend")  # the loaded case stays
+
+
+def test_upload_size_is_checked_on_the_bytes():
+    class Big:
+        name = "big.csv"
+
+        def getvalue(self) -> bytes:
+            return b"x" * (MAX_UPLOAD_BYTES + 1)
+
+    from estimator.errors import InputError
+
+    with pytest.raises(InputError, match="at most 21 MB|at most 20 MB"):
+        read_upload(Big(), "audit log")
+
+
+def test_exports_are_safe_and_readable():
+    # OWASP "CSV Injection": text starting with = + - @ must not reach a spreadsheet as a formula.
+    import pandas as pd
+    from openpyxl import load_workbook
+
+    frame = pd.DataFrame({"case": ["=HYPERLINK(\"x\")", "plain"], "value": [1.5, 2.0]})
+    assert b"'=HYPERLINK" in csv_bytes(frame)
+    ws = load_workbook(io.BytesIO(xlsx_bytes({"cases": frame})))["cases"]
+    assert ws["A2"].value.startswith("'=") and ws["A2"].data_type == "s"
+    assert ws["B3"].value == 2.0
+
+
+def test_saved_scenario_is_toml_the_engine_accepts(planner):
+    from estimator.scenario import load_scenario
+
+    doc = planner.session_state["scenario"]
+    scen = load_scenario(tomli_w.dumps(doc))
+    assert scen.patient.weight.to("kg").magnitude > 0
+    assert tomllib.loads(tomli_w.dumps(doc))["agent"]["name"] == "sevoflurane"
+
+
+def test_flow_floor_page_and_a_stricter_threshold():
+    at = page("flow_floor")
+    assert_clean(at)
+    assert at.warning[0].value == CAUTION
+    table = at.dataframe[0].value
+    floor = table["flow floor [L/min]"].to_numpy()
+    planned = table["planned [L/min]"].to_numpy()
+    assert (floor <= planned + 1e-9).all()  # the demo plan is safe, so its floor is at or below it
+    # A stricter inspired-O2 limit can only keep or raise each floor (the limit is monotone in flow).
+    at.number_input(key="floor.thr.0").set_value(50.0).run()
+    assert_clean(at)
+    strict = at.dataframe[0].value["flow floor [L/min]"].to_numpy()
+    assert (strict >= floor - 1e-9).all() and (strict > floor + 1e-9).any()
+
+
+def test_supply_page_more_cases_fewer_days():
+    at = page("supply_duration")
+    assert_clean(at)
+    days = number(metric(at, "Days of supply"))
+    assert metric(at, "Bottleneck") != "none"
+    # Twice the cases a day draw the stocks down faster: fewer days (common practice, no source).
+    at.number_input(key="supply.per_day.0").set_value(10).run()
+    assert_clean(at)
+    assert number(metric(at, "Days of supply")) < days
+
+
+def test_audit_page_reports_rejections_kpis_and_counterfactual():
+    at = page("fresh_gas_audit")
+    assert_clean(at)
+    # The demo log has one malformed row (its last line, line 135 counting the header as line 1).
+    rejected = at.dataframe[0].value
+    assert list(rejected["line"]) == [135]
+    assert metric(at, "Cases") == "8"
+    # Half the demo cases keep 0.6 L/min, half 2 L/min: half the maintenance time is at <= 1 L/min.
+    assert number(metric(at, "Maintenance time at <= 1 L/min")) == pytest.approx(50, abs=1)
+    labels = {b.label for b in at.get("download_button")}
+    assert {"Cases (CSV)", "Workbook (XLSX)", "Report (HTML)", "JSON"} <= labels
+    at.toggle(key="audit.cf").set_value(True).run(timeout=120)
+    assert_clean(at)
+    assert number(metric(at, "Liquid agent saved")) > 0  # a 0.5 L/min policy below recorded 0.6-2 L/min
+
+
+def test_audit_upload_of_a_small_log():
+    at = page("fresh_gas_audit")
+    log = ("case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting\n"
+           "A,0,1,1,0,sevoflurane,2\nA,60,1,1,0,sevoflurane,2\n")
+    at.get("file_uploader")[0].set_value(("log.csv", log.encode(), "text/csv"))
+    at.run()
+    assert_clean(at)
+    assert metric(at, "Cases") == "1"
+    # Dion 1992: 2 % of 2 L/min for 60 min, vapour = 2 x 60 x 0.02/0.98 = 2.449 L; liquid = vapour
+    # / (molar volume at 15 degC, 23.64 L/mol) x 200.05 g/mol / 1.52 g/mL = 13.6 mL.
+    assert number(metric(at, "Liquid agent")) == pytest.approx(13.6, abs=0.6)
+
+
+def test_site_page_standard_atmosphere_and_calibration_point():
+    at = page("site_flowmeter")
+    assert_clean(at)
+    at.number_input(key="site.elevation").set_value(0.0).run()
+    # ISO 2533: 101.325 kPa at sea level; an O2 tube read with O2 at its calibration state (sea level,
+    # 20 degC) shows the true flow.
+    assert number(metric(at, "Ambient pressure")) == pytest.approx(1.01, abs=0.006)  # bar, 3 figures
+    assert number(metric(at, "True flow at the site")) == pytest.approx(1.0, abs=0.005)
+    at.number_input(key="site.elevation").set_value(3000.0).run()
+    at.selectbox(key="unit.pressure").set_value("kPa").run()
+    assert number(metric(at, "Ambient pressure")) == pytest.approx(70.1, abs=0.1)  # ISO 2533 table, 3000 m
+    # Lower gas density at altitude: a float reads low, so the true flow exceeds the reading.
+    assert number(metric(at, "True flow at the site")) > 1.0
+
+
+def test_methods_page_lists_sourced_values():
+    at = page("methods")
+    assert_clean(at)
+    values = at.dataframe[0].value
+    assert {"species", "property", "value", "confidence", "source"} <= set(values.columns)
+    assert "sevoflurane" in set(values["species"])
+    assert any("Mapleson" in m.value for m in at.markdown)
+
+
+def test_demand_forecast_page_says_what_it_will_do():
+    at = page("demand_forecast")
+    assert_clean(at)
+    assert at.warning[0].value == CAUTION
+    assert at.info or at.metric
+
+
+def test_demo_documents_are_valid_inputs():
+    from estimator.scenario import scenario_from_dict
+    from estimator.supply import load_inventory
+
+    scenario_from_dict(copy.deepcopy(demo.DEMO_SCENARIO))
+    load_inventory(tomli_w.dumps(demo.inventory()))
+    header = demo.audit_log_csv().splitlines()[0]
+    assert header.startswith("case_id,time,oxygen_flow")
+    assert json.dumps(demo.scenario())
