@@ -311,7 +311,12 @@ def simulate(scenario: Scenario, *, rtol: float = RTOL, patient: Patient | None 
         chunks.append((index, times, ys, c.derived_series(ys, p), p, stats))
         y = ys[-1].copy()
         t0 += dur
-    return build_result(scenario, patient, site, base, chunks)
+    result = build_result(scenario, patient, site, base, chunks)
+    if scenario.prices:
+        from .costs import case_cost, parse_prices
+
+        result.cost = case_cost(result.totals, parse_prices(scenario.prices), scenario.agent.name)
+    return result
 
 
 def patient_from_scenario(scenario: Scenario) -> Patient:

@@ -296,9 +296,14 @@ def scenario_from_dict(data: dict[str, Any]) -> Scenario:
     InputError
     """
     try:
-        return Scenario.model_validate(data)
+        scenario = Scenario.model_validate(data)
     except ValidationError as exc:
         raise input_error_from_validation(exc) from None
+    if scenario.prices:
+        from .costs import parse_prices
+
+        parse_prices(scenario.prices)  # raises InputError naming prices.<key>
+    return scenario
 
 
 def load_scenario(source: str | Path) -> Scenario:

@@ -50,6 +50,10 @@ def summary(result) -> str:
     ]
     lines += [f"  {name:<28}{value:10.2f} {unit}" for name, value, unit in rows]
     lines.append(f"  {'lowest inspired O2':<28}{100 * result.minimum_inspired_oxygen.magnitude:10.1f} %")
+    if result.cost:
+        cost = result.cost
+        lines.append(f"  {'cost':<28}{cost['total']:10.2f} {cost['currency']} (agent {cost['agent']:.2f}, "
+                     f"gases {cost['gases']:.2f}, absorbent {cost['absorbent']:.2f})")
     for ph in result.phases:
         if ph.get("mode") == "end_tidal_hold":
             reached = ph.get("target_reached")
