@@ -299,6 +299,9 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
         warnings.append(("LONG_SAMPLE_GAP", f"{int(long_gap.sum())} gap(s) longer than {gap:g} min between "
                          f"samples, bridged by the {quadrature} rule, in case(s) " + ", ".join(map(str, bad[:10]))
                          + (" ..." if len(bad) > 10 else "")))
+    if log.rows["used"] == 0:
+        warnings.append(("NO_ROWS_USED", f"no row of the log could be used ({log.rows['rejected']} rejected): "
+                         "see the rejections"))
     single = cases["samples"] == 1
     if single.any():
         warnings.append(("SINGLE_SAMPLE_CASE", f"{int(single.sum())} case(s) have one sample and no duration: "

@@ -49,14 +49,29 @@ def neutralise(value: Any) -> Any:
     return value
 
 
+#: Readable names of columns and KPIs whose key alone reads badly.
+LABELS = {
+    "maintenance_share_le_1": "share of maintenance time at or below 1 L/min",
+    "maintenance_share_le_0_5": "share of maintenance time at or below 0.5 L/min",
+    "mac_hours": "MAC-hours", "cases_with_mac_hours": "cases with MAC-hours",
+    "cases_without_mac_hours": "cases without MAC-hours", "mac_hours_note": "MAC-hours note",
+    "min_inspired_oxygen": "lowest inspired O2 (fraction)", "flow_class_shares": "share of maintenance time",
+    "flow_class_bounds_l_min": "flow class upper bound [L/min]",
+}
+
+
 def _header(column: str, basis_label: str, currency: str | None) -> str:
+    if column in LABELS:
+        return LABELS[column]
+    if column == "co2e_per_mac_hour_kg":
+        return f"CO2e per MAC-hour [kg CO2e, {basis_label}]"
     if column.startswith("cost_"):
         return f"{column.replace('_', ' ')} [{currency}]"
     for suffix, unit in SUFFIX_UNITS:
         if column.endswith(suffix):
             name = column[: -len(suffix)].replace("_", " ")
             if unit == "kg CO2e" and name.startswith("co2e"):
-                return f"{name} [{unit}, {basis_label}]"
+                return f"{name.replace('co2e', 'CO2e')} [{unit}, {basis_label}]"
             if unit == "kg CO2e":
                 unit = "kg"
             return f"{name} [{unit}]"
@@ -79,7 +94,7 @@ def _kpi_rows(result: AuditResult) -> list[tuple[str, Any]]:
     rows: list[tuple[str, Any]] = []
     for k, v in result.kpis.items():
         if isinstance(v, dict):
-            rows += [(f"{k.replace('_', ' ')}: {n}", x) for n, x in v.items()]
+            rows += [(f"{LABELS.get(k, k.replace('_', ' '))}: {n}", x) for n, x in v.items()]
         else:
             rows.append((_header(k, CO2E_BASES[result.basis][1], result.currency), v))
     return rows

@@ -241,3 +241,19 @@ def test_counterfactual_through_the_engine():
     assert cf["totals"]["cases"] == 1
     saving = cf["totals"]["savings"]["agent_liquid"]["magnitude"]
     assert 0 < saving < r.cases["agent_liquid_ml"].iloc[0]
+
+
+def test_all_rows_rejected_is_a_report_not_a_crash():
+    r = audit(f"{HEADER}\nA,x,1,1,0,sevoflurane,2\nB,0,-1,1,0,sevoflurane,2\n")
+    assert r.rows == {"read": 2, "used": 0, "rejected": 2}
+    assert len(r.cases) == 0 and r.totals["cases"] == 0
+    assert any(code == "NO_ROWS_USED" for code, _ in r.warnings)
+    assert r.to_json()["rejections"][0]["line"] == 2
+
+
+def test_nitrous_oxide_only_case():
+    # No volatile: agent empty with dial 0 is valid; N2O CO2e = ideal-gas mass x AR6 GWP100 273.
+    r = audit(f"{HEADER}\nA,0,1,0,3,,0\nA,60,1,0,3,,0\n")
+    expected = 180.0 / VM * 44.013 / 1000 * 273
+    assert r.cases["co2e_kg"].iloc[0] == pytest.approx(expected, rel=1e-4)
+    assert r.cases["agent_liquid_ml"].iloc[0] == 0.0
