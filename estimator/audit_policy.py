@@ -14,7 +14,9 @@ Savings = baseline - policy in liquid agent, fresh gas, CO2e and cost. The basel
 itself (``baseline = "recorded"``) or the engine run on the recorded flows (``"engine"``), which
 cancels model bias. CO2e of both sides uses the audit's rule (metabolised share of delivered
 agent), so the difference is the agent not delivered. Cases without an end-tidal agent, with more
-than one agent, or with flows beyond the engine's range are skipped and listed with the reason.
+than one agent, or with flows beyond the engine's range are skipped and listed with the reason. The
+engine takes about a second per case; ``max_cases`` re-runs only the first N cases (the rest are
+listed as skipped, and the savings are those of the cases re-run, never scaled up).
 
 The engine is called through ``runner`` (a callable taking the scenario as a dict and returning an
 object with ``.totals`` and ``.warnings``), so a stand-in can take its place in tests.
@@ -62,6 +64,7 @@ class PolicyInput(BaseModel):
     baseline: str = "recorded"
     default_weight: str = "70 kg"
     default_age: str = "40 years"
+    max_cases: int | None = None
 
 
 @dataclass(frozen=True)
@@ -76,6 +79,7 @@ class Policy:
     default_weight: float
     default_age: float
     maintenance_after: float | None = None
+    max_cases: int | None = None
 
 
 def parse_policy(data: dict[str, Any]) -> Policy:
@@ -95,6 +99,8 @@ def parse_policy(data: dict[str, Any]) -> Policy:
         check_range(v.to(unit), f"policy.{field}", lo, hi, value=value)
         return float(v.to(unit).magnitude)
 
+    if raw.max_cases is not None and raw.max_cases < 1:
+        raise InputError("policy.max_cases", raw.max_cases, "a whole number of cases, 1 or more")
     if raw.baseline not in ("recorded", "engine"):
         raise InputError("policy.baseline", raw.baseline, "recorded or engine")
     return Policy(
@@ -106,7 +112,7 @@ def parse_policy(data: dict[str, Any]) -> Policy:
         default_weight=q(raw.default_weight, "default_weight", "mass", "kg", 0.5, 300.0),
         default_age=q(raw.default_age, "default_age", "age", "year", 0.0, 120.0),
         maintenance_after=None if raw.maintenance_after is None else
-        q(raw.maintenance_after, "maintenance_after", "time", "min", 0.0, 600.0))
+        q(raw.maintenance_after, "maintenance_after", "time", "min", 0.0, 600.0), max_cases=raw.max_cases)
 
 
 def policy_flows(o2: float, air: float, n2o: float, policy: Policy) -> tuple[float, float, float]:
@@ -244,6 +250,10 @@ def counterfactual(result: AuditResult, policy: Policy, *, prices: Prices | None
     keys = ["agent_liquid_ml", "fresh_gas_l", "co2e_kg"] + (["cost_total"] if prices is not None else [])
     cases, warnings = [], []
     sums = {side: dict.fromkeys(keys, 0.0) for side in ("baseline", "policy")}
+    if policy.max_cases is not None and len(built) > policy.max_cases:
+        skipped += [{"case_id": b["case_id"], "reason": f"beyond policy.max_cases = {policy.max_cases}"}
+                    for b in built[policy.max_cases:]]
+        built = built[:policy.max_cases]
     for item in built:
         try:
             res_p = run(item["policy"])

@@ -219,6 +219,8 @@ def test_counterfactual_savings_arithmetic_with_stand_in():
                                                            - case["policy"]["cost"]["total"])
     assert cf["totals"]["savings"]["co2e"]["basis"] == "ar6_gwp100"
     assert any(w["code"] == "STAND_IN" for w in case["warnings"])
+    few = counterfactual(audit(DATA / "audit_two_rooms.csv"), parse_policy({"max_cases": 1}), runner=_stand_in)
+    assert few["totals"]["cases"] == 1 and "max_cases" in few["skipped"][0]["reason"]
 
 
 def test_policy_flows_keep_oxygen_share():
