@@ -295,7 +295,7 @@ def compressed_cylinder(gas: str, water_capacity: Any, pressure: Any, temperatur
                              f"settles to {settled_gauge:.1f} bar at 15 degC)")
     if reserve_pressure is None or parse_pressure(reserve_pressure, f"{f}.reserve_pressure").gauge(
             ambient_pressure).magnitude == 0:
-        notes.append(("no_reserve", f"{f}: no change-out reserve pressure set; usable contents assume "
+        notes.append(("NO_RESERVE", f"{f}: no change-out reserve pressure set; usable contents assume "
                                     "the cylinder is run down to ambient pressure"))
         r_abs = ambient_pressure.to("kPa")
     else:
@@ -307,7 +307,7 @@ def compressed_cylinder(gas: str, water_capacity: Any, pressure: Any, temperatur
     residual = free_gas(molar_density(gas, t, r_abs) * wc)
     per = contents - residual
     if per.magnitude <= 0:
-        notes.append(("below_reserve", f"{f}: the gauge reading is at or below the change-out reserve; "
+        notes.append(("BELOW_RESERVE", f"{f}: the gauge reading is at or below the change-out reserve; "
                                        "nothing usable is counted"))
         per = Q_(0.0, "L")
     ideal = (wc * p_abs / REFERENCE_PRESSURE * REFERENCE_TEMPERATURE.to("K") / t).to("L")
@@ -383,7 +383,7 @@ def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any
             z = compressibility("nitrous_oxide", t, p_state)
         ratio = Q_(supply_data()["nitrous_oxide"]["filling_ratio"]).to("kg/L").magnitude
         if (net / wc).to("kg/L").magnitude > ratio:
-            notes.append(("nitrous_oxide_overfilled", f"{f}: {(net / wc).to('kg/L').magnitude:.2f} kg/L "
+            notes.append(("NITROUS_OXIDE_OVERFILLED", f"{f}: {(net / wc).to('kg/L').magnitude:.2f} kg/L "
                           f"is above the usual filling ratio of {ratio:g} kg/L (from memory); check the weights"))
     if phase == "supercritical":
         msg = (f"{f}: at {t.to('degC').magnitude:.1f} degC the nitrous oxide is above its critical "
@@ -391,12 +391,12 @@ def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any
                "follows the gas law; contents still from weight")
         notes.append(("nitrous_oxide_supercritical", msg))
     elif phase == "vapour only":
-        notes.append(("nitrous_oxide_no_liquid", f"{f}: the weight implies no liquid is left; the gauge "
+        notes.append(("NITROUS_OXIDE_NO_LIQUID", f"{f}: the weight implies no liquid is left; the gauge "
                       "now falls with use"))
     if pressure is not None and p_sat is not None and phase == "liquid and vapour":
         g = parse_pressure(pressure, f"{f}.pressure").absolute(ambient_pressure)
         if g.to("kPa").magnitude < 0.9 * p_sat.magnitude:
-            notes.append(("nitrous_oxide_gauge_low", f"{f}: gauge reads below the vapour pressure "
+            notes.append(("NITROUS_OXIDE_GAUGE_LOW", f"{f}: gauge reads below the vapour pressure "
                           f"({p_sat.to('bar').magnitude:.1f} bar absolute): the weights may be wrong or "
                           "the cylinder colder than stated; contents are from weight"))
     reserve = Q_(0.0, "kg")
@@ -409,7 +409,7 @@ def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any
     keep = max(reserve, residual.to("kg"))
     usable_mass = max(net - keep, Q_(0.0, "kg"))
     if usable_mass.magnitude == 0:
-        notes.append(("below_reserve", f"{f}: net weight is at or below the reserve; nothing usable is counted"))
+        notes.append(("BELOW_RESERVE", f"{f}: net weight is at or below the reserve; nothing usable is counted"))
     contents = free_gas(net / molar_mass)
     return CylinderContents(gas="nitrous_oxide", count=n, contents=contents,
                             usable=(free_gas(usable_mass / molar_mass) * n).to("L"), compressibility=z,

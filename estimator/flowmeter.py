@@ -264,10 +264,10 @@ def true_flow(reading: Any, calibrated_for: Any, gas_in_use: Any, site: Site, *,
 
     notes = list(site.warnings)
     if np.any((r_lpm > 0) & (r_lpm < LOW_READING)):
-        notes.append(("flowmeter_low_reading", f"reading below {LOW_READING:g} L/min: a float can stick and "
+        notes.append(("FLOWMETER_LOW_READING", f"reading below {LOW_READING:g} L/min: a float can stick and "
                       "read wrong by tens of per cent at the bottom of the tube"))
     if cal_mix != use_mix:
-        notes.append(("flowmeter_other_gas", f"tube calibrated for {_label(cal_mix)} used with {_label(use_mix)}: "
+        notes.append(("FLOWMETER_OTHER_GAS", f"tube calibrated for {_label(cal_mix)} used with {_label(use_mix)}: "
                       "the true flow is a model correction, check it against a reference flowmeter"))
     with np.errstate(invalid="ignore", divide="ignore"):
         corr = np.where(r_lpm > 0, q_amb[0] / np.where(r_lpm > 0, r_lpm, 1.0), np.nan)

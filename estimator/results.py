@@ -212,7 +212,7 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
     if site.ambient_pressure_kpa < 101.325 - 1e-6:
         from .site import check_inspired_oxygen
 
-        warns += [(code.upper(), msg) for code, msg in check_inspired_oxygen(fio2[judged], FIO2_ADVISORY,
+        warns += [(code, msg) for code, msg in check_inspired_oxygen(fio2[judged], FIO2_ADVISORY,
                                                                                Q_(site.ambient_pressure_kpa, "kPa"))]
     if scenario.site.flowmeter_readings:
         warns.append(("FLOWMETER_ACCURACY", "phase flows are flowmeter readings converted to true flows; a "

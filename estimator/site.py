@@ -180,7 +180,7 @@ def pressure_altitude(pressure: pint.Quantity) -> pint.Quantity:
 
 def _height_warning(elevation_m: float) -> list[tuple[str, str]]:
     if elevation_m > HABITATION_LIMIT:
-        return [("site_above_habitation", f"elevation {elevation_m:.0f} m is above {HABITATION_LIMIT:.0f} m: "
+        return [("SITE_ABOVE_HABITATION", f"elevation {elevation_m:.0f} m is above {HABITATION_LIMIT:.0f} m: "
                  "no permanent habitation; the site models are not validated there")]
     return []
 
@@ -222,7 +222,7 @@ def site_from_inputs(elevation: Any = None, ambient_pressure: Any = None, temper
                 Q_(TEMPERATURE_RANGE[1], "degC"), value=temperature)
     t_c = float(temp.to("degC").magnitude)
     if not TEMPERATURE_USUAL[0] <= t_c <= TEMPERATURE_USUAL[1]:
-        notes.append(("site_temperature_unusual", f"room temperature {t_c:g} degC is outside "
+        notes.append(("SITE_TEMPERATURE_UNUSUAL", f"room temperature {t_c:g} degC is outside "
                       f"{TEMPERATURE_USUAL[0]:g} to {TEMPERATURE_USUAL[1]:g} degC, the usual operating range of "
                       "anaesthetic equipment"))
     elev = None
@@ -301,8 +301,8 @@ def check_inspired_oxygen(fio2: Any, threshold: Any, ambient: pint.Quantity) -> 
 
     The threshold (for example FiO2 0.30 at low flow) is read as a sea-level PiO2. A fraction at or
     above the threshold whose PiO2 here is below that sea-level PiO2 gets code
-    ``pio2_below_sea_level_threshold``; a site where even pure oxygen cannot reach it gets
-    ``pio2_threshold_unreachable``. Fractions already below the threshold are the caller's
+    ``PIO2_BELOW_SEA_LEVEL_THRESHOLD``; a site where even pure oxygen cannot reach it gets
+    ``PIO2_THRESHOLD_UNREACHABLE``. Fractions already below the threshold are the caller's
     ordinary low-oxygen finding and are not repeated here.
 
     Parameters
@@ -317,7 +317,7 @@ def check_inspired_oxygen(fio2: Any, threshold: Any, ambient: pint.Quantity) -> 
     Examples
     --------
     >>> [c for c, _ in check_inspired_oxygen(0.35, 0.30, Q_(70.109, "kPa"))]
-    ['pio2_below_sea_level_threshold']
+    ['PIO2_BELOW_SEA_LEVEL_THRESHOLD']
     >>> check_inspired_oxygen(0.35, 0.30, Q_(101.325, "kPa"))
     []
     """
@@ -327,11 +327,11 @@ def check_inspired_oxygen(fio2: Any, threshold: Any, ambient: pint.Quantity) -> 
     sea_pio2 = float(inspired_oxygen_partial_pressure(thr, STANDARD_ATMOSPHERE).magnitude)
     out: list[tuple[str, str]] = []
     if need > 1.0:
-        out.append(("pio2_threshold_unreachable", f"at {ambient.to('kPa').magnitude:.1f} kPa even 100 % oxygen "
+        out.append(("PIO2_THRESHOLD_UNREACHABLE", f"at {ambient.to('kPa').magnitude:.1f} kPa even 100 % oxygen "
                     f"gives a PiO2 below {sea_pio2:.1f} kPa, the sea-level PiO2 of FiO2 {thr:.2f}"))
     short = (f >= thr) & (f < need)
     if np.any(short):
-        out.append(("pio2_below_sea_level_threshold",
+        out.append(("PIO2_BELOW_SEA_LEVEL_THRESHOLD",
                     f"FiO2 {float(np.min(f[short])):.2f} meets the {thr:.2f} threshold but at "
                     f"{ambient.to('kPa').magnitude:.1f} kPa gives PiO2 below {sea_pio2:.1f} kPa (its sea-level value); "
                     f"FiO2 {min(need, 1.0):.2f} is needed for the same PiO2"))

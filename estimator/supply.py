@@ -341,7 +341,7 @@ def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, Pool
                            "oxygen_per_day": Q_(o2, "L/day"), "argon_per_day": Q_(o2 * ARGON_PER_OXYGEN, "L/day"),
                            "lowest_purity": float(purity[on].min()) if on.any() else None}
                 if on.any() and purity[on].min() < limit:
-                    warns.append(("concentrator_purity_low", f"{name}: product falls to "
+                    warns.append(("CONCENTRATOR_PURITY_LOW", f"{name}: product falls to "
                                   f"{100 * purity[on].min():.1f} % O2 at its operating flow, below "
                                   f"{100 * limit:.0f} % (Oxygen 93 per cent)"))
                 renewables.append(SupplyItem(name, "concentrator", "oxygen", Q_(float(cap.sum()) / 7, "L/day"),
@@ -368,9 +368,9 @@ def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, Pool
         if key not in pools and key not in ignore and key != "co2" and need[key].sum() > 0:
             pools[key] = Pool(key, "mL", draw=need[key], unmet_after=need[key])
     for key in sorted(ignore):
-        warns.append(("not_tracked", f"{key}: left out of the analysis (supply.ignore)"))
+        warns.append(("NOT_TRACKED", f"{key}: left out of the analysis (supply.ignore)"))
     if "absorbent" not in pools and "absorbent" not in ignore and need.get("co2", np.zeros(1)).sum() > 0:
-        warns.append(("absorbent_not_tracked", "the cases load CO2 absorbent but the inventory lists none "
+        warns.append(("ABSORBENT_NOT_TRACKED", "the cases load CO2 absorbent but the inventory lists none "
                       "(add [absorbent] stock, or 'absorbent' to supply.ignore)"))
     return renewables
 
@@ -438,7 +438,7 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
             columns[f"{name} [{unit}]"] = (pool, lower, upper, scale)
             lower = upper
         if not pool.items:
-            warns.append(("no_stock", f"{key}: the plan uses it but the inventory lists none"))
+            warns.append(("NO_STOCK", f"{key}: the plan uses it but the inventory lists none"))
         fail = fail_at[key]
         row = {"name": key, "usable": Q_(total * scale, unit), "draw_per_day": Q_(per_day * scale, f"{unit}/day"),
                "stock_runs_out": Q_(exhausted / 1440, "day") if np.isfinite(exhausted) else None,
@@ -447,10 +447,10 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
         if np.isfinite(fail):
             row["reorder_by"] = day0 + timedelta(days=int(np.floor(fail / 1440 - lead - safety)))
             if fail < 1440:
-                warns.append(("supply_under_one_day", f"{key}: the demand cannot be met for one day: the "
+                warns.append(("SUPPLY_UNDER_ONE_DAY", f"{key}: the demand cannot be met for one day: the "
                               f"supply fails after {fail / 60:.1f} h"))
         elif np.isfinite(exhausted):
-            warns.append(("stock_backed_up", f"{key}: the stock runs out on day {exhausted / 1440:.1f}; "
+            warns.append(("STOCK_BACKED_UP", f"{key}: the stock runs out on day {exhausted / 1440:.1f}; "
                           "the sources after it in the priority then meet the demand"))
         supplies.append(row)
     items.extend(renewables)
@@ -459,7 +459,7 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
     t_b = fail_at[first] if first is not None else float("inf")
     if not np.isfinite(t_b):
         first = None
-        warns.append(("no_bottleneck", "no supply runs out under this plan"))
+        warns.append(("NO_BOTTLENECK", "no supply runs out under this plan"))
     bottleneck = None
     if first is not None:
         stocked = [i[0] for i in pools[first].items if i[2] > 0] or [i[0] for i in pools[first].items]
@@ -478,7 +478,7 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
         slack = t_b / 1440 - lead - safety
         reorder = day0 + timedelta(days=int(np.floor(slack)))
         if slack < 0:
-            warns.append(("reorder_overdue", f"order now: the bottleneck ({bottleneck}) runs out in "
+            warns.append(("REORDER_OVERDUE", f"order now: the bottleneck ({bottleneck}) runs out in "
                           f"{t_b / 1440:.1f} days, less than lead time plus safety stock ({lead + safety:g} days)"))
     finite = [i.runtime.magnitude for i in items if i.runtime is not None]
     n_days = min(table_days, int(np.ceil(max(finite))) + 1) if finite else min(table_days, 28)

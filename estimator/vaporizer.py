@@ -233,8 +233,8 @@ def dial_for_target(target: Any, mac_one_atmosphere: Any, kind: str, ambient_pre
     Returns
     -------
     DialSetting
-        Warning ``dial_above_vaporizer_max`` where the needed dial exceeds the agent's maximum,
-        ``dial_unreachable`` where no dial below 100 % delivers the target.
+        Warning ``DIAL_ABOVE_VAPORIZER_MAX`` where the needed dial exceeds the agent's maximum,
+        ``DIAL_UNREACHABLE`` where no dial below 100 % delivers the target.
 
     Examples
     --------
@@ -261,13 +261,13 @@ def dial_for_target(target: Any, mac_one_atmosphere: Any, kind: str, ambient_pre
     limit = 1.0 if svp is None else svp / p
     bad = f >= limit
     if np.any(bad):
-        notes.append(("dial_unreachable", f"{float(np.max(t)):g} MAC needs {100 * float(np.max(f)):.1f} % at "
+        notes.append(("DIAL_UNREACHABLE", f"{float(np.max(t)):g} MAC needs {100 * float(np.max(f)):.1f} % at "
                       f"{p:.1f} kPa, more than this vaporizer can deliver ({100 * limit:.1f} %)"))
     with np.errstate(divide="ignore", invalid="ignore"):
         dial = np.where(bad, np.nan, _dial_for_fraction(np.where(bad, 0.0, f), kind, p, svp, control))
     vmax = float(sp.vaporizer_max.to("").magnitude)
     if np.any(dial > vmax):
-        notes.append(("dial_above_vaporizer_max", f"{float(np.max(t)):g} MAC of {sp.name} needs a dial of "
+        notes.append(("DIAL_ABOVE_VAPORIZER_MAX", f"{float(np.max(t)):g} MAC of {sp.name} needs a dial of "
                       f"{100 * float(np.nanmax(dial)):.2f} % at {p:.1f} kPa, above the vaporizer maximum "
                       f"of {100 * vmax:g} %"))
     return DialSetting(dial=Q_(_out(dial * 100.0), "percent"), delivered_fraction=Q_(_out(f * 100.0), "percent"),

@@ -40,7 +40,7 @@ def test_concentrator_with_purity_and_pressure(capsys):
     d = json.loads(out)
     assert d["composition"]["oxygen"] == pytest.approx(0.93)
     assert d["site"]["temperature"]["magnitude"] == pytest.approx(30.0)
-    assert "flowmeter_other_gas" in [w["code"] for w in d["warnings"]]
+    assert "FLOWMETER_OTHER_GAS" in [w["code"] for w in d["warnings"]]
 
 
 def test_human_output_ends_with_caution(capsys):

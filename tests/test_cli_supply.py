@@ -27,7 +27,7 @@ def test_backup_cylinders_text_and_json(capsys):
     # 24 L/min plus 4 L/min is 52 L/min: about 0.5 day (Klemenzson and Perouansky 2004 multiplier).
     assert j["days_of_supply"]["magnitude"] == pytest.approx(37040 / (52 * 1440), rel=2e-3)
     assert j["days_of_supply"]["units"] == "day"
-    assert "supply_under_one_day" in {w["code"] for w in j["warnings"]}
+    assert "SUPPLY_UNDER_ONE_DAY" in {w["code"] for w in j["warnings"]}
     assert j["gas_volume_reference"].startswith("free gas at 15 degC")
 
 

@@ -91,7 +91,7 @@ def test_nitrous_oxide_contents_by_weight_not_gauge():
     b = nitrous_oxide_cylinder("8.5 kg", "5.0 kg", "15 degC", pressure="10 bar")
     assert a.usable == b.usable  # the gauge never enters the contents
     assert a.usable.to("L").magnitude == pytest.approx(3.5 / m * R * T_REF / P_REF * 1000, rel=1e-9)
-    assert any(code == "nitrous_oxide_gauge_low" for code, _ in b.warnings)
+    assert any(code == "NITROUS_OXIDE_GAUGE_LOW" for code, _ in b.warnings)
     # Vapour pressure about 44 bar gauge at 15 C (REFERENCES sec. 9, CoolProp; 1 bar rounding).
     assert (a.vapour_pressure - Q_(101.325, "kPa")).to("bar").magnitude == pytest.approx(44, abs=0.5)
     assert vapour_pressure("nitrous_oxide", Q_(20, "degC")).to("bar").magnitude == pytest.approx(

@@ -200,7 +200,7 @@ def test_air_through_an_oxygen_tube():
     r = true_flow(Q_(np.array([0.05, 15.0]), "L/min"), "oxygen", "air", SEA)
     assert r.correction[1] == pytest.approx(1.051, rel=0.01)
     assert r.correction[0] == pytest.approx(1.113, rel=0.01)
-    assert [c for c, _ in r.warnings] == ["flowmeter_low_reading", "flowmeter_other_gas"]
+    assert [c for c, _ in r.warnings] == ["FLOWMETER_LOW_READING", "FLOWMETER_OTHER_GAS"]
 
 
 def test_nitrous_oxide_through_an_oxygen_tube_crosses_over():

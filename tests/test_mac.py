@@ -185,7 +185,7 @@ def test_mac_at_pressure_is_a_partial_pressure():
     assert r.warnings == ()
     # Above the limit of habitation (40 kPa is about 7000 m in the ISO 2533 atmosphere): a warning
     # from the site model; beyond what it covers: an error naming the field.
-    assert [c for c, _ in mac_at_age("sevoflurane", 40, "40 kPa").warnings] == ["site_above_habitation"]
+    assert [c for c, _ in mac_at_age("sevoflurane", 40, "40 kPa").warnings] == ["SITE_ABOVE_HABITATION"]
     with pytest.raises(InputError, match="site.ambient_pressure"):
         mac_at_age("sevoflurane", 40, "5 kPa")
 

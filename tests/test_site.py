@@ -66,9 +66,9 @@ def test_outside_troposphere_is_an_error_naming_the_range(elevation):
 def test_above_habitation_warns():
     # Highest permanent settlements are near 5100 m (common practice, no source): 6000 m warns.
     codes = [c for c, _ in site_from_inputs(elevation="6500 m").warnings]
-    assert codes == ["site_above_habitation"]
+    assert codes == ["SITE_ABOVE_HABITATION"]
     assert site_from_inputs(elevation="5000 m").warnings == ()
-    assert [c for c, _ in site_from_inputs(ambient_pressure="40 kPa").warnings] == ["site_above_habitation"]
+    assert [c for c, _ in site_from_inputs(ambient_pressure="40 kPa").warnings] == ["SITE_ABOVE_HABITATION"]
 
 
 def test_defaults_and_measured_pressure():
@@ -98,7 +98,7 @@ def test_bad_values_are_errors(kw):
 
 
 def test_unusual_room_temperature_warns():
-    assert [c for c, _ in site_from_inputs(temperature="45 degC").warnings] == ["site_temperature_unusual"]
+    assert [c for c, _ in site_from_inputs(temperature="45 degC").warnings] == ["SITE_TEMPERATURE_UNUSUAL"]
 
 
 def test_water_vapour_at_37c_against_coolprop():
@@ -126,7 +126,7 @@ def test_threshold_at_altitude():
     assert sea_level_equivalent_fraction(0.30, p) == pytest.approx(0.30 * 63.82 / 95.025, rel=1e-3)
     need = fraction_for_sea_level_threshold(0.30, p)
     assert need == pytest.approx(0.30 * 95.025 / 63.82, rel=1e-3)
-    assert [c for c, _ in check_inspired_oxygen(0.35, 0.30, p)] == ["pio2_below_sea_level_threshold"]
+    assert [c for c, _ in check_inspired_oxygen(0.35, 0.30, p)] == ["PIO2_BELOW_SEA_LEVEL_THRESHOLD"]
     assert check_inspired_oxygen(need + 1e-6, 0.30, p) == []
     assert check_inspired_oxygen(np.array([0.5, 0.6]), 0.30, p) == []
     assert check_inspired_oxygen(0.35, 0.30, Q_(101.325, "kPa")) == []
@@ -136,4 +136,4 @@ def test_threshold_unreachable_high_up():
     # At 9000 m (30.7 kPa) even pure O2 gives PiO2 24.4 kPa < 28.5 kPa (0.30 at sea level).
     p = standard_atmosphere(Q_(9000, "m"))[0]
     codes = [c for c, _ in check_inspired_oxygen(1.0, 0.30, p)]
-    assert "pio2_threshold_unreachable" in codes
+    assert "PIO2_THRESHOLD_UNREACHABLE" in codes

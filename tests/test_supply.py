@@ -56,7 +56,7 @@ def test_runtime_is_usable_over_draw():
     assert item.usable.to("L").magnitude == pytest.approx(usable_o2(137), rel=1e-9)
     assert item.runtime.to("day").magnitude == pytest.approx(usable_o2(137) / 2880, rel=1e-9)
     assert r.bottleneck == "A" and r.days_of_supply == item.runtime
-    assert any(c == "supply_under_one_day" for c, _ in r.warnings)  # 0.47 days: said, not silent
+    assert any(c == "SUPPLY_UNDER_ONE_DAY" for c, _ in r.warnings)  # 0.47 days: said, not silent
 
 
 def test_cylinders_of_one_gas_are_used_one_after_another():
@@ -125,7 +125,7 @@ ignore = ["oxygen", "air", "absorbent"]
     assert r.cases_possible == 83
     days = r.days_of_supply.to("day").magnitude
     assert r.reorder_by == date(2026, 3, 2) + (date(2026, 3, 3) - date(2026, 3, 2)) * int(np.floor(days - 4))
-    assert any(c == "not_tracked" for c, _ in r.warnings)
+    assert any(c == "NOT_TRACKED" for c, _ in r.warnings)
 
 
 def test_no_stock_for_a_used_agent_fails_on_the_first_case():
@@ -135,7 +135,7 @@ def test_no_stock_for_a_used_agent_fails_on_the_first_case():
     assert r.bottleneck_supply == "sevoflurane"
     assert r.days_of_supply.to("h").magnitude == pytest.approx(8.0)  # the case starts at 08:00
     codes = {c for c, _ in r.warnings}
-    assert {"no_stock", "supply_under_one_day"} <= codes
+    assert {"NO_STOCK", "SUPPLY_UNDER_ONE_DAY"} <= codes
 
 
 def test_drive_gas_is_a_multiple_of_minute_ventilation():
@@ -193,7 +193,7 @@ flow = "2 L/min"
     r = plan_supply(load_inventory(text), start=START)
     assert r.items[0].runtime.magnitude == pytest.approx(usable_o2(137) / 2880)
     assert r.bottleneck is None and r.days_of_supply is None
-    assert {"stock_backed_up", "no_bottleneck"} <= {c for c, _ in r.warnings}
+    assert {"STOCK_BACKED_UP", "NO_BOTTLENECK"} <= {c for c, _ in r.warnings}
 
 
 def test_low_purity_curve_warns():
@@ -207,7 +207,7 @@ flow = "5 L/min"
 """
     r = plan_supply(load_inventory(text), start=START)
     # Ph. Eur. Oxygen (93 per cent): at least 90 % O2.
-    assert any(c == "concentrator_purity_low" for c, _ in r.warnings)
+    assert any(c == "CONCENTRATOR_PURITY_LOW" for c, _ in r.warnings)
     with pytest.raises(InputError) as err:
         plan_supply(load_inventory(text.replace('"5 L/min", "85 %"', '"4 L/min", "85 %"')), start=START)
     assert err.value.field == "concentrators[0].purity"

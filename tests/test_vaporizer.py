@@ -91,7 +91,7 @@ def test_dial_above_vaporizer_maximum_warns_and_is_not_capped():
     # above the 18 % maximum of the dial (common practice): warned, reported as needed.
     s = dial_for_target("2 MAC", "6.6 %", "heated_pressurised", P3000, "desflurane")
     assert s.dial.to("percent").magnitude == pytest.approx(13.2 * 101.325 / 70.121, rel=1e-12)
-    assert [c for c, _ in s.warnings] == ["dial_above_vaporizer_max"]
+    assert [c for c, _ in s.warnings] == ["DIAL_ABOVE_VAPORIZER_MAX"]
 
 
 def test_vectorised_dial():
