@@ -2,33 +2,47 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import altair as alt
 import pandas as pd
+import streamlit as st
 
 #: Our palette (also in .streamlit/config.toml): deep teal, amber, slate, coral.
 PALETTE = ("#0f6e6e", "#d08c1b", "#51607a", "#c8553d", "#6a994e")
 
 
 def time_course(frame: pd.DataFrame, columns: dict[str, str], y_title: str, *, height: int = 210,
-                rule: float | None = None, rule_label: str = "", step: bool = False) -> alt.Chart:
-    """Lines of ``columns`` (frame column -> legend name) against ``time [min]``."""
-    data = frame[["time [min]", *columns]].rename(columns={"time [min]": "time", **columns})
+                rule: float | None = None, rule_label: str = "", step: bool = False,
+                x: str = "time [min]") -> dict[str, Any]:
+    """Vega-Lite spec: lines of ``columns`` (frame column -> legend name) against column ``x``.
+
+    Written as a plain spec rather than through altair's objects: building and validating those
+    costs about 30 ms a chart on every rerun; the tests validate these specs against the schema.
+    """
+    data = frame[[x, *columns]].rename(columns={x: "time", **columns})
     long = data.melt("time", var_name="series", value_name="value").dropna()
-    line = alt.Chart(long).mark_line(strokeWidth=2.2, interpolate="step-after" if step else "linear").encode(
-        x=alt.X("time:Q", title="time [min]"),
-        y=alt.Y("value:Q", title=y_title, scale=alt.Scale(zero=True)),
-        color=alt.Color("series:N", title=None, scale=alt.Scale(range=list(PALETTE)),
-                        legend=alt.Legend(orient="top", labelLimit=260)),
-        tooltip=[alt.Tooltip("time:Q", title="time [min]", format=".1f"), "series:N",
-                 alt.Tooltip("value:Q", title=y_title, format=".3g")],
-    )
-    layers = [line]
+    line = {
+        "mark": {"type": "line", "strokeWidth": 2.2, "interpolate": "step-after" if step else "linear"},
+        "encoding": {
+            "x": {"field": "time", "type": "quantitative", "title": x},
+            "y": {"field": "value", "type": "quantitative", "title": y_title, "scale": {"zero": True}},
+            "color": {"field": "series", "type": "nominal", "title": None, "scale": {"range": list(PALETTE)},
+                      "legend": {"orient": "top", "labelLimit": 260}},
+            "tooltip": [{"field": "time", "type": "quantitative", "title": x, "format": ".3g"},
+                        {"field": "series", "type": "nominal"},
+                        {"field": "value", "type": "quantitative", "title": y_title, "format": ".3g"}]}}
+    layers: list[dict[str, Any]] = [line]
     if rule is not None:
-        ref = pd.DataFrame({"value": [rule], "label": [rule_label]})
-        layers.append(alt.Chart(ref).mark_rule(strokeDash=[5, 4], color="#8a8f98").encode(y="value:Q"))
-        layers.append(alt.Chart(ref).mark_text(align="left", dx=4, dy=-6, color="#5b6170", fontSize=11)
-                      .encode(y="value:Q", x=alt.value(4), text="label:N"))
-    return alt.layer(*layers).properties(height=height)
+        ref = {"values": [{"value": rule, "label": rule_label}]}
+        layers.append({"data": ref, "mark": {"type": "rule", "strokeDash": [5, 4], "color": "#8a8f98"},
+                       "encoding": {"y": {"field": "value", "type": "quantitative"}}})
+        layers.append({"data": ref, "mark": {"type": "text", "align": "left", "dx": 4, "dy": -6, "color": "#5b6170",
+                                             "fontSize": 11},
+                       "encoding": {"y": {"field": "value", "type": "quantitative"}, "x": {"value": 4},
+                                    "text": {"field": "label", "type": "nominal"}}})
+    return {"$schema": "https://vega.github.io/schema/vega-lite/v6.json", "height": height,
+            "data": {"values": long.to_dict("records")}, "layer": layers}
 
 
 def bars(frame: pd.DataFrame, x: str, y: str, x_title: str, y_title: str, color: str = PALETTE[0]) -> alt.Chart:
@@ -36,3 +50,10 @@ def bars(frame: pd.DataFrame, x: str, y: str, x_title: str, y_title: str, color:
     return alt.Chart(frame).mark_bar(color=color).encode(
         x=alt.X(f"{x}:N", title=x_title, sort=None), y=alt.Y(f"{y}:Q", title=y_title),
         tooltip=[x, alt.Tooltip(f"{y}:Q", format=".3g")]).properties(height=240)
+
+
+def show(chart: alt.Chart | dict[str, Any], where: Any = None) -> None:
+    """Draw an altair chart or a Vega-Lite spec. Specs are checked against the Vega-Lite schema in
+    the tests, not on every rerun (validation costs about 20 ms a chart)."""
+    spec = chart if isinstance(chart, dict) else chart.to_dict(validate=False)
+    (where or st).vega_lite_chart(spec, width="stretch")

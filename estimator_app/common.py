@@ -130,20 +130,29 @@ def csv_bytes(frame: pd.DataFrame) -> bytes:
 
 
 def downloads(stem: str, sheets: dict[str, pd.DataFrame], document: Any, key: str) -> None:
-    """Download buttons: the first sheet as CSV, all sheets as XLSX, the document as JSON."""
-    from estimator.jsonout import dumps
+    """Download buttons: the first sheet as CSV, all sheets as XLSX, the document as JSON.
 
+    The files are built only when a button is pressed (deferred data), so reruns stay fast;
+    ``document`` may be a callable returning the JSON document.
+    """
     first = next(iter(sheets.values()))
+
+    def as_json() -> bytes:
+        from estimator.jsonout import dumps
+
+        doc = document() if callable(document) else document
+        text = doc if isinstance(doc, str) else dumps(doc)
+        json.loads(text)  # a malformed document is a bug: fail here, not in the user's tools
+        return text.encode("utf-8")
+
     c1, c2, c3 = st.columns(3)
-    c1.download_button("Download CSV", csv_bytes(first), f"{stem}.csv", "text/csv", key=f"{key}.csv",
-                       icon=":material/table_view:", width="stretch")
-    c2.download_button("Download XLSX", xlsx_bytes(sheets), f"{stem}.xlsx",
+    c1.download_button("Download CSV", lambda: csv_bytes(first), f"{stem}.csv", "text/csv", key=f"{key}.csv",
+                       icon=":material/table_view:", width="stretch", on_click="ignore")
+    c2.download_button("Download XLSX", lambda: xlsx_bytes(sheets), f"{stem}.xlsx",
                        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key=f"{key}.xlsx",
-                       icon=":material/grid_on:", width="stretch")
-    text = dumps(document) if not isinstance(document, str) else document
-    json.loads(text)  # a malformed document is a bug: fail here, not in the user's tools
-    c3.download_button("Download JSON", text.encode("utf-8"), f"{stem}.json", "application/json",
-                       key=f"{key}.json", icon=":material/data_object:", width="stretch")
+                       icon=":material/grid_on:", width="stretch", on_click="ignore")
+    c3.download_button("Download JSON", as_json, f"{stem}.json", "application/json",
+                       key=f"{key}.json", icon=":material/data_object:", width="stretch", on_click="ignore")
 
 
 def placeholder(what: str, module: str, detail: str) -> None:

@@ -267,3 +267,21 @@ def test_demo_documents_are_valid_inputs():
     header = demo.audit_log_csv().splitlines()[0]
     assert header.startswith("case_id,time,oxygen_flow")
     assert json.dumps(demo.scenario())
+
+
+def test_chart_specs_follow_the_vega_lite_schema():
+    # The pages draw hand-written specs without validating them on each rerun; check them here
+    # against the Vega-Lite v6 JSON schema (an open standard, shipped with altair).
+    import numpy as np
+    import pandas as pd
+    from altair.utils.schemapi import validate_jsonschema
+    from altair.vegalite.v6.schema.core import load_schema
+
+    from estimator_app.charts import bars, time_course
+
+    frame = pd.DataFrame({"time [min]": np.arange(6.0), "a [%]": np.linspace(21, 60, 6), "b": np.nan})
+    for spec in (time_course(frame, {"a [%]": "A", "b": "B"}, "y [%]", rule=30.0, rule_label="limit"),
+                 time_course(frame, {"a [%]": "A"}, "y", step=True, x="time [min]")):
+        validate_jsonschema(spec, load_schema())
+        assert spec["layer"][0]["encoding"]["x"]["title"] == "time [min]"
+    bars(pd.DataFrame({"k": ["x"], "v": [1.0]}), "k", "v", "kind", "value [mL]").to_dict()  # altair validates

@@ -13,7 +13,7 @@ from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
 
 from .. import state
-from ..charts import time_course
+from ..charts import show, time_course
 from ..common import downloads, flow_factor, show_error, show_warnings, unit
 
 CONTROLS = ("dial %", "end-tidal hold MAC", "end-tidal hold %")
@@ -226,17 +226,14 @@ def outputs(result: Any, doc: dict[str, Any]) -> None:
     s = result.series.copy()
     s["fresh_gas_flow [display]"] = s["fresh_gas_flow [L/min]"] * flow_factor()
     c1, c2 = st.columns(2)
-    c1.altair_chart(time_course(s, {"inspired_oxygen [%]": "inspired O2"}, "inspired O2 [%]", rule=30.0,
-                                rule_label="30 % usually kept at low flow"), width="stretch")
-    c2.altair_chart(time_course(s, {"end_tidal_agent [%]": "end-tidal agent", "inspired_agent [%]": "inspired agent",
-                                    "end_tidal_target [%]": "end-tidal hold target"}, "agent [%]"),
-                    width="stretch")
-    c1.altair_chart(time_course(s, {"end_tidal_mac [MAC]": "end-tidal MAC"}, "end-tidal [MAC]"),
-                    width="stretch")
-    c2.altair_chart(time_course(s, {"vaporizer_setting [%]": "vaporizer dial"}, "dial [%]", step=True),
-                    width="stretch")
-    st.altair_chart(time_course(s, {"fresh_gas_flow [display]": "fresh-gas flow"}, f"fresh-gas flow [{fu}]",
-                                height=170, step=True), width="stretch")
+    show(time_course(s, {"inspired_oxygen [%]": "inspired O2"}, "inspired O2 [%]", rule=30.0,
+                                rule_label="30 % usually kept at low flow"), c1)
+    show(time_course(s, {"end_tidal_agent [%]": "end-tidal agent", "inspired_agent [%]": "inspired agent",
+                                    "end_tidal_target [%]": "end-tidal hold target"}, "agent [%]"), c2)
+    show(time_course(s, {"end_tidal_mac [MAC]": "end-tidal MAC"}, "end-tidal [MAC]"), c1)
+    show(time_course(s, {"vaporizer_setting [%]": "vaporizer dial"}, "dial [%]", step=True), c2)
+    show(time_course(s, {"fresh_gas_flow [display]": "fresh-gas flow"}, f"fresh-gas flow [{fu}]",
+                                height=170, step=True))
 
     st.subheader("Phases")
     phases = pd.DataFrame([{
@@ -249,8 +246,9 @@ def outputs(result: Any, doc: dict[str, Any]) -> None:
     totals = totals_frame(result)
     with st.expander("All totals"):
         st.dataframe(totals, hide_index=True, width="stretch")
-    document = result.to_json()
-    document["cost"] = cost
+    def document() -> dict[str, Any]:
+        return {**result.to_json(), "cost": cost}
+
     st.subheader("Download the results")
     downloads("case_result", {"series": result.series, "totals": totals, "phases": phases}, document, "case")
 

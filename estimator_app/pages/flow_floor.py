@@ -13,7 +13,7 @@ from estimator.errors import InputError
 from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
 
 from .. import state
-from ..charts import PALETTE
+from ..charts import PALETTE, show
 from ..common import downloads, flow_factor, placeholder, show_error, show_warnings, unit
 
 
@@ -130,7 +130,7 @@ def render() -> None:
     table = phase_table(result)
     st.dataframe(table, hide_index=True, width="stretch")
     st.subheader("Flow floor over time")
-    st.altair_chart(chart(result, plan), width="stretch")
+    show(chart(result, plan))
     st.caption("The floor at a time answers: from here to the end of this phase, how low may the flow go on the "
                "planned course so far. Flows are settable values on the flowmeter scale.")
     st.subheader("Advisories")
@@ -141,4 +141,4 @@ def render() -> None:
     grid = pd.DataFrame([{"time [min]": g["time"].to("min").magnitude,
                           f"floor [{fu}]": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
                           "binding": g["binding"]} for g in result.grid])
-    downloads("flow_floor", {"phases": table, "grid": grid}, result.to_json(), "floor")
+    downloads("flow_floor", {"phases": table, "grid": grid}, result.to_json, "floor")

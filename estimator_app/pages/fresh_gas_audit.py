@@ -15,7 +15,7 @@ from estimator.properties import CO2E_BASES
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import demo, state
-from ..charts import bars
+from ..charts import bars, show
 from ..common import MAX_UPLOAD_BYTES, read_upload, show_error, show_warnings, unit
 
 
@@ -53,14 +53,15 @@ def _log_text() -> tuple[str, str]:
     return read_upload(up, "audit log"), up.name
 
 
-def _files(result: Any) -> dict[str, bytes]:
+def _file(result: Any, kind: str) -> bytes:
+    """One export of the audit, built when its button is pressed."""
     from estimator.exports import report_html, write_csv, write_xlsx
 
+    if kind == "html":
+        return report_html(result, "Fresh-gas audit").encode("utf-8")
     with tempfile.TemporaryDirectory() as tmp:
-        out = {"csv": write_csv(result, Path(tmp) / "a.csv").read_bytes(),
-               "xlsx": write_xlsx(result, Path(tmp) / "a.xlsx").read_bytes()}
-    out["html"] = report_html(result, "Fresh-gas audit").encode("utf-8")
-    return out
+        writer = write_csv if kind == "csv" else write_xlsx
+        return writer(result, Path(tmp) / f"audit.{kind}").read_bytes()
 
 
 def render() -> None:
@@ -106,10 +107,10 @@ def render() -> None:
     shares = pd.DataFrame({"flow class": list(k["flow_class_shares"]),
                            "share": [100 * v for v in k["flow_class_shares"].values()]})
     c1, c2 = st.columns(2)
-    c1.altair_chart(bars(shares, "flow class", "share", "flow class (Brattwall et al. 2012)",
-                         "maintenance time [%]"), width="stretch")
+    show(bars(shares, "flow class", "share", "flow class (Brattwall et al. 2012)",
+                         "maintenance time [%]"), c1)
     per_case = result.cases[["case_id", "agent_liquid_ml"]].rename(columns={"agent_liquid_ml": "liquid"})
-    c2.altair_chart(bars(per_case, "case_id", "liquid", "case", "liquid agent [mL]"), width="stretch")
+    show(bars(per_case, "case_id", "liquid", "case", "liquid agent [mL]"), c2)
     tabs = st.tabs(["Cases", "Rooms", "Months"])
     for tab, frame in zip(tabs, (result.cases, result.rooms, result.months), strict=True):
         tab.dataframe(frame, hide_index=True, width="stretch")
@@ -140,19 +141,21 @@ def render() -> None:
             st.dataframe(pd.DataFrame(cf["skipped"]), hide_index=True, width="stretch")
         show_warnings(cf["warnings"])
     st.subheader("Download the audit")
-    files = _files(result)
     from estimator.jsonout import dumps
 
-    doc = result.to_json()
-    if cf is not None:
-        doc["counterfactual"] = cf
+    def as_json() -> bytes:
+        doc = result.to_json()
+        if cf is not None:
+            doc["counterfactual"] = cf
+        return dumps(doc).encode("utf-8")
+
     c = st.columns(4)
-    c[0].download_button("Cases (CSV)", files["csv"], "audit_cases.csv", "text/csv", key="audit.csv",
-                         width="stretch")
-    c[1].download_button("Workbook (XLSX)", files["xlsx"], "audit.xlsx",
+    opts = {"width": "stretch", "on_click": "ignore"}
+    c[0].download_button("Cases (CSV)", lambda: _file(result, "csv"), "audit_cases.csv", "text/csv",
+                         key="audit.csv", **opts)
+    c[1].download_button("Workbook (XLSX)", lambda: _file(result, "xlsx"), "audit.xlsx",
                          "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key="audit.xlsx",
-                         width="stretch")
-    c[2].download_button("Report (HTML)", files["html"], "audit_report.html", "text/html", key="audit.html",
-                         width="stretch")
-    c[3].download_button("JSON", dumps(doc).encode("utf-8"), "audit.json", "application/json", key="audit.json",
-                         width="stretch")
+                         **opts)
+    c[2].download_button("Report (HTML)", lambda: _file(result, "html"), "audit_report.html", "text/html",
+                         key="audit.html", **opts)
+    c[3].download_button("JSON", as_json, "audit.json", "application/json", key="audit.json", **opts)

@@ -13,7 +13,7 @@ from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE, Q_
 
 from .. import state
-from ..charts import time_course
+from ..charts import show, time_course
 from ..common import downloads, flow_factor, show_error, show_warnings, unit
 
 GAS_CHOICES = ("oxygen", "air", "nitrous_oxide", "concentrator")
@@ -72,18 +72,19 @@ def flowmeter_section(site: Any) -> dict[str, Any]:
     show_warnings(r.warnings)
     grid = np.linspace(0.1, 10.0, 60)
     sweep = true_flow(Q_(grid, "L/min"), cal, use, site, purity=purity)
-    curve = pd.DataFrame({"time [min]": grid * ff, "correction": np.asarray(sweep.correction, dtype=float),
+    x = f"reading [{fu}]"
+    curve = pd.DataFrame({x: grid * ff, "correction": np.asarray(sweep.correction, dtype=float),
                           "regime": np.asarray(sweep.regime)})
-    chart = time_course(curve, {"correction": "true flow / reading"}, "true flow / reading [-]", height=220)
-    st.altair_chart(chart.properties(title=f"Correction over the scale (x axis: reading [{fu}])"),
-                    width="stretch")
-    st.caption(f"x axis: reading [{fu}]. Low on the scale the float reads by viscosity (laminar), high on it by "
-               "density (turbulent); a tube used at altitude or with another gas reads wrong by that ratio.")
+    chart = time_course(curve, {"correction": "true flow / reading"}, "true flow / reading [-]", height=220, x=x)
+    chart["title"] = "Correction over the flowmeter scale"
+    show(chart)
+    st.caption("Low on the scale the float reads by viscosity (laminar), high on it by density (turbulent); a "
+               "tube used at altitude or with another gas reads wrong by that ratio.")
     return {"reading": Q_(reading / ff, "L/min"), "calibrated_for": cal, "gas": use,
             "true_flow_ambient": r.true_flow_ambient, "true_flow_standard": r.true_flow_standard,
             "regime": r.regime, "uncertainty": r.uncertainty,
             "warnings": [{"code": c, "message": m} for c, m in r.warnings],
-            "sweep": curve.rename(columns={"time [min]": f"reading [{fu}]"})}
+            "sweep": curve}
 
 
 def vaporizer_section(site: Any) -> dict[str, Any]:

@@ -17,7 +17,7 @@ from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
 
 from .. import demo, state
-from ..charts import PALETTE
+from ..charts import PALETTE, show
 from ..common import downloads, read_upload, show_error, show_warnings, unit
 
 DOC, VERSION = "supply.doc", "supply.version"
@@ -237,10 +237,10 @@ def outputs(report: Any) -> None:
             color=alt.Color("item:N", title=None, scale=alt.Scale(range=list(PALETTE)), legend=alt.Legend(orient="top")),
             tooltip=["item:N", alt.Tooltip("date:T"), alt.Tooltip("remaining:Q", format=".0f")]).properties(height=280)
         st.subheader("Depletion")
-        st.altair_chart(chart, width="stretch")
+        show(chart)
     st.subheader("Warnings")
     show_warnings(report.warnings, empty="No supply warnings.")
-    downloads("supply_duration", {"items": items, "depletion": dep.reset_index()}, report.to_json(), "supply")
+    downloads("supply_duration", {"items": items, "depletion": dep.reset_index()}, report.to_json, "supply")
 
 
 def render() -> None:
