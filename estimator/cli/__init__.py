@@ -32,7 +32,7 @@ app = typer.Typer(
     rich_markup_mode=None,
 )
 
-_VERBS: tuple[str, ...] = ("mac", "case", "safe_flow", "flowmeter", "supply", "audit")
+_VERBS: tuple[str, ...] = ("mac", "case", "safe_flow", "flowmeter", "supply", "audit", "forecast")
 
 
 def _version(value: bool) -> None:
