@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-import altair as alt
-import pandas as pd
 import streamlit as st
+
+if TYPE_CHECKING:  # altair is imported only where a page builds an altair chart
+    import altair as alt
+    import pandas as pd
 
 #: Our palette (also in .streamlit/config.toml): deep teal, amber, slate, coral.
 PALETTE = ("#0f6e6e", "#d08c1b", "#51607a", "#c8553d", "#6a994e")
@@ -47,6 +49,8 @@ def time_course(frame: pd.DataFrame, columns: dict[str, str], y_title: str, *, h
 
 def bars(frame: pd.DataFrame, x: str, y: str, x_title: str, y_title: str, color: str = PALETTE[0]) -> alt.Chart:
     """A simple bar chart with labelled axes."""
+    import altair as alt
+
     return alt.Chart(frame).mark_bar(color=color).encode(
         x=alt.X(f"{x}:N", title=x_title, sort=None), y=alt.Y(f"{y}:Q", title=y_title),
         tooltip=[x, alt.Tooltip(f"{y}:Q", format=".3g")]).properties(height=240)

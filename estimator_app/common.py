@@ -7,13 +7,15 @@ from __future__ import annotations
 
 import io
 import json
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-import pandas as pd
 import streamlit as st
 
 from estimator.cli import CAUTION
 from estimator.errors import InputError
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 #: Largest upload accepted, checked on the bytes received [bytes].
 MAX_UPLOAD_BYTES = 20 * 1024 * 1024
@@ -120,6 +122,8 @@ def _cell(v: Any) -> Any:
 
 def csv_bytes(frame: pd.DataFrame) -> bytes:
     """CSV (UTF-8) of a frame with text cells neutralised against spreadsheet formulas."""
+    import pandas as pd
+
     from estimator.exports import neutralise
 
     safe = frame.copy()

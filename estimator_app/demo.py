@@ -5,8 +5,6 @@ from __future__ import annotations
 import copy
 from typing import Any
 
-import numpy as np
-
 #: The case the app opens on: an invented district hospital and an invented laparoscopic case.
 DEMO_SCENARIO: dict[str, Any] = {
     "title": "Harbourside District Hospital - laparoscopic cholecystectomy",
@@ -50,6 +48,36 @@ DEMO_INVENTORY: dict[str, Any] = {
 }
 
 
+#: Invented case mix of the same invented hospital; "case_planner.toml" is the planner's case.
+DEMO_CASEMIX: dict[str, Any] = {
+    "title": "Harbourside District Hospital - main theatres",
+    "weeks": 104, "seed": 2026, "cover": "95 %",
+    "case_types": [
+        {"name": "laparoscopic (the planned case)", "per_week": 12, "scenario": "case_planner.toml",
+         "duration_median": "80 min", "duration_p90": "130 min", "weight_mean": "82 kg", "weight_sd": "16 kg"},
+        {"name": "day-case arthroscopy", "per_week": 15, "agent": "sevoflurane", "wash_in_flow": "6 L/min",
+         "wash_in_time": "6 min", "maintenance_flow": "0.8 L/min", "oxygen_fraction": "50 %",
+         "end_tidal_target": "1 MAC", "duration_median": "40 min", "duration_p90": "65 min",
+         "weight_mean": "78 kg", "weight_sd": "14 kg"},
+        {"name": "emergency list", "per_week": 6, "agent": "isoflurane", "wash_in_flow": "6 L/min",
+         "wash_in_time": "10 min", "maintenance_flow": "1.5 L/min", "oxygen_fraction": "50 %",
+         "end_tidal_target": "1 MAC", "duration_median": "95 min", "duration_p90": "160 min",
+         "weight_mean": "75 kg", "weight_sd": "18 kg"},
+    ],
+    "orders": {"bottle_volume": "250 mL", "absorbent_pack": "5 kg",
+               "oxygen_cylinder": {"water_capacity": "50 L", "pressure": "137 bar", "reserve_pressure": "10 bar"},
+               "air_cylinder": {"water_capacity": "50 L", "pressure": "200 bar", "reserve_pressure": "10 bar"}},
+    "prices": {"currency": "demo credits", "oxygen_per_m3": 3.1, "air_per_m3": 1.4, "absorbent_per_kg": 7.5,
+               "agents": {"sevoflurane": {"agent_bottle": 96.0, "bottle_volume": "250 mL"},
+                          "isoflurane": {"agent_per_ml": 0.11}}},
+}
+
+
+def casemix() -> dict[str, Any]:
+    """A fresh copy of the demo case mix."""
+    return copy.deepcopy(DEMO_CASEMIX)
+
+
 def scenario() -> dict[str, Any]:
     """A fresh copy of the demo scenario document."""
     return copy.deepcopy(DEMO_SCENARIO)
@@ -66,6 +94,8 @@ def audit_log_csv(seed: int = 7) -> str:
     Half the cases keep a high maintenance flow, half a low one, so the audit has something to find.
     One row is deliberately malformed to show the rejection report.
     """
+    import numpy as np
+
     rng = np.random.default_rng(seed)
     lines = ["case_id,time,oxygen_flow [L/min],air_flow [L/min],nitrous_oxide_flow [L/min],agent,"
              "vaporizer_setting [%],end_tidal_agent [%],inspired_oxygen [%],room,patient_weight,patient_age"]

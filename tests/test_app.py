@@ -251,18 +251,40 @@ def test_methods_page_lists_sourced_values():
     assert any("Mapleson" in m.value for m in at.markdown)
 
 
-def test_demand_forecast_page_says_what_it_will_do():
+def test_demand_forecast_mean_cases_follow_poisson_and_more_cases_raise_demand():
     at = page("demand_forecast")
     assert_clean(at)
     assert at.warning[0].value == CAUTION
-    assert at.info or at.metric
+    # The demo's case types draw Poisson counts with means 12 + 15 + 6 = 33 a week; over 104 weeks the
+    # sample mean has standard error sqrt(33 / 104) = 0.56 (Poisson variance = mean): allow 3 SE.
+    assert number(metric(at, "Cases a week (mean)")) == pytest.approx(33.0, abs=3 * (33 / 104) ** 0.5)
+    p95 = number(metric(at, "Cases in a P95 week"))
+    # Poisson(33): P95 is 43 by the exact distribution (scipy.stats.poisson.ppf(0.95, 33)); the
+    # empirical P95 of 104 weeks scatters by about 2 cases around it.
+    from scipy.stats import poisson
+
+    assert p95 == pytest.approx(poisson.ppf(0.95, 33), abs=3)
+    busier = demo.casemix()
+    for row in busier["case_types"]:
+        row["per_week"] *= 2
+    at2 = AppTest.from_string("from estimator_app.shell import page_main\npage_main('demand_forecast')",
+                              default_timeout=TIMEOUT)
+    at2.session_state["forecast.doc"] = busier
+    at2.session_state["forecast.version"] = 0
+    at2.run()
+    assert_clean(at2)
+    assert number(metric(at2, "CO2e a week (P95)")) > 1.5 * number(metric(at, "CO2e a week (P95)"))
 
 
 def test_demo_documents_are_valid_inputs():
+    from estimator.casemix import casemix_from_dict
     from estimator.scenario import scenario_from_dict
     from estimator.supply import load_inventory
 
     scenario_from_dict(copy.deepcopy(demo.DEMO_SCENARIO))
+    inline = demo.casemix()
+    inline["case_types"] = [c for c in inline["case_types"] if "scenario" not in c]
+    casemix_from_dict(inline)
     load_inventory(tomli_w.dumps(demo.inventory()))
     header = demo.audit_log_csv().splitlines()[0]
     assert header.startswith("case_id,time,oxygen_flow")
