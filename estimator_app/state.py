@@ -109,3 +109,27 @@ def load(text: str) -> None:
     except tomllib.TOMLDecodeError as exc:  # pragma: no cover - load_scenario has refused it already
         raise InputError("scenario file", "(file)", f"valid TOML ({exc})") from None
     set_document(doc, reset_widgets=True)
+
+
+def upload_toml(label: str, key: str, help_text: str, doc_key: str, version_key: str,
+                validate: Any = None) -> None:
+    """A TOML upload that replaces the document under ``doc_key`` (parsed, validated, never run).
+
+    ``validate(text)`` raises InputError for a file that is TOML but not the expected document.
+    """
+    up = st.file_uploader(label, type=["toml"], key=key, help=help_text)
+    if up is None or st.session_state.get(f"{key}.loaded_id") == up.file_id:
+        return
+    st.session_state[f"{key}.loaded_id"] = up.file_id
+    try:
+        text = read_upload(up, label)
+        try:
+            doc = tomllib.loads(text)
+        except tomllib.TOMLDecodeError as exc:
+            raise InputError(label, up.name, f"valid TOML ({exc})") from None
+        if validate is not None:
+            validate(text)
+        st.session_state[doc_key] = doc
+        st.session_state[version_key] = st.session_state.get(version_key, 0) + 1
+    except InputError as exc:
+        show_error(exc)

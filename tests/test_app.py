@@ -198,6 +198,20 @@ def test_supply_page_more_cases_fewer_days():
     assert number(metric(at, "Days of supply")) < days
 
 
+def test_supply_inventory_upload_and_a_misspelt_key():
+    at = page("supply_duration")
+    inv = demo.inventory()
+    inv["bottles"][0]["count"] = 40  # plenty of agent: the bottleneck must be another item
+    at.get("file_uploader")[0].set_value(("inv.toml", tomli_w.dumps(inv).encode(), "application/toml"))
+    at.run()
+    assert_clean(at)
+    assert "sevoflurane" not in metric(at, "Bottleneck").lower()
+    inv["cylinders"][0]["water_capacty"] = "50 L"
+    at.get("file_uploader")[0].set_value(("bad.toml", tomli_w.dumps(inv).encode(), "application/toml"))
+    at.run()
+    assert any("water_capacty" in e.value for e in at.error)
+
+
 def test_audit_page_reports_rejections_kpis_and_counterfactual():
     at = page("fresh_gas_audit")
     assert_clean(at)

@@ -23,7 +23,6 @@ from ..common import (
     downloads,
     flow_factor,
     placeholder,
-    read_upload,
     show_error,
     show_warnings,
     unit,
@@ -112,20 +111,9 @@ def run_forecast(mix_text: str, scenario_text: str) -> Any:
 
 
 def _upload() -> None:
-    up = st.file_uploader("Load a case mix (TOML)", type=["toml"], key="forecast.upload",
-                          help="Case types as in the README; at most 20 MB. Scenario files it names run the case "
-                               "on the case planner page.")
-    if up is not None and st.session_state.get("forecast.loaded_id") != up.file_id:
-        st.session_state["forecast.loaded_id"] = up.file_id
-        try:
-            text = read_upload(up, "case-mix file")
-            try:
-                st.session_state[DOC] = tomllib.loads(text)
-            except tomllib.TOMLDecodeError as exc:
-                raise InputError("case-mix file", up.name, f"valid TOML ({exc})") from None
-            st.session_state[VERSION] = st.session_state.get(VERSION, 0) + 1
-        except InputError as exc:
-            show_error(exc)
+    state.upload_toml("Load a case mix (TOML)", "forecast.upload",
+                      "Case types as in the README; at most 20 MB. Scenario files it names run the case on the "
+                      "case planner page.", DOC, VERSION)
 
 
 def inputs() -> dict[str, Any]:

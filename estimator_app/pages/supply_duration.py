@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import datetime as dt
-import tomllib
 from pathlib import Path
 from typing import Any
 
@@ -18,7 +17,7 @@ from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
 
 from .. import demo, state
 from ..charts import PALETTE, show
-from ..common import downloads, read_upload, show_error, show_warnings, unit
+from ..common import downloads, show_error, show_warnings, unit
 
 DOC, VERSION = "supply.doc", "supply.version"
 PLANNER = "case planner"
@@ -140,20 +139,11 @@ def run_supply(inventory_text: str, scenario_text: str) -> Any:
 
 
 def _upload() -> None:
-    up = st.file_uploader("Load an inventory (TOML)", type=["toml"], key="supply.upload",
-                          help="Stocks, sources and demand as in the README; at most 20 MB. Case plans in it "
-                               "run the case on the case planner page.")
-    if up is not None and st.session_state.get("supply.loaded_id") != up.file_id:
-        st.session_state["supply.loaded_id"] = up.file_id
-        try:
-            text = read_upload(up, "inventory file")
-            from estimator.supply import load_inventory
+    from estimator.supply import load_inventory
 
-            load_inventory(text)
-            st.session_state[DOC] = tomllib.loads(text)
-            st.session_state[VERSION] = st.session_state.get(VERSION, 0) + 1
-        except InputError as exc:
-            show_error(exc)
+    state.upload_toml("Load an inventory (TOML)", "supply.upload",
+                      "Stocks, sources and demand as in the README; at most 20 MB. Case plans in it run the case "
+                      "on the case planner page.", DOC, VERSION, load_inventory)
 
 
 def inputs() -> dict[str, Any]:
