@@ -213,7 +213,7 @@ def outputs(result: Any, doc: dict[str, Any]) -> None:
     m = st.columns(5)
     m[0].metric("MAC-hours", f"{t['mac_hours'].to('MAC_hour').magnitude:.2f}")
     m[1].metric("CO2e", f"{t['co2e'].to('kg').magnitude:.2f} kg", help="IPCC AR6 GWP100, agent and N2O released")
-    m[2].metric("Cost", f"{cost['total']:.2f} {currency}" if cost else "no prices",
+    m[2].metric(f"Cost [{currency}]" if cost else "Cost", f"{cost['total']:.2f}" if cost else "no prices",
                 help="At the scenario's [prices] (the demo's prices are invented)")
     m[3].metric("Lowest inspired O2", f"{100 * result.minimum_inspired_oxygen.magnitude:.1f} %")
     m[4].metric("Absorbent used", f"{t['absorbent'].to('g').magnitude:.0f} g")

@@ -166,7 +166,8 @@ def outputs(result: Any) -> None:
     cases = result.items["cases"]
     m[0].metric("Cases a week (mean)", f"{cases['mean'].magnitude:.1f}")
     m[1].metric("Cases in a P95 week", f"{cases['p95'].magnitude:.0f}")
-    m[2].metric("Cost a week (P95)", f"{result.cost['p95']:.0f} {currency}" if result.cost else "no prices")
+    m[2].metric(f"Cost a week, P95 [{currency}]" if result.cost else "Cost a week, P95",
+                f"{result.cost['p95']:.0f}" if result.cost else "no prices")
     m[3].metric("CO2e a week (P95)", f"{result.items['co2e']['p95'].to('kg').magnitude:.0f} kg")
     st.subheader("Weekly demand")
     st.dataframe(items, hide_index=True, width="stretch")

@@ -51,7 +51,7 @@ def settings(doc: dict[str, Any]) -> dict[str, Any]:
                             cur("basal_oxygen_flow", "flow", "L/min", 0.0) * f, 0.05 * f, key=f"floor.basal.{v}.{fu}")
     reach = c3.number_input("Reach the end-tidal target within [min]", 0.5, 120.0,
                             cur("reach_within", "time", "min", 15.0), 1.0, key=f"floor.reach.{v}")
-    label = c4.checkbox("Apply the sevoflurane US label rule", "sevoflurane_us_label" in ff_doc.get("policies", []),
+    label = c4.checkbox("Sevoflurane US label rule", "sevoflurane_us_label" in ff_doc.get("policies", []),
                         key=f"floor.label.{v}", help=">= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min")
     ff_doc.update({"threshold_inspired_oxygen": f"{thr:g} %", "basal_oxygen_flow": f"{basal / f:g} L/min",
                    "reach_within": f"{reach:g} min", "policies": ["sevoflurane_us_label"] if label else []})

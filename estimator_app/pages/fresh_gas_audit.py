@@ -96,7 +96,8 @@ def render() -> None:
     m[0].metric("Cases", f"{t.get('cases', 0)}")
     m[1].metric("Liquid agent", f"{t.get('agent_liquid_ml', 0):.0f} mL")
     m[2].metric("CO2e", f"{t.get('co2e_kg', 0):.1f} kg", help=CO2E_BASES[basis][1])
-    m[3].metric("Cost", f"{t['cost_total']:.2f} {currency}" if "cost_total" in t else "no prices")
+    m[3].metric(f"Cost [{currency}]" if "cost_total" in t else "Cost",
+                f"{t['cost_total']:.2f}" if "cost_total" in t else "no prices")
     m[4].metric("Mean maintenance flow", f"{k['mean_maintenance_flow_l_min'] * ff:.{2 if ff == 1 else 0}f} "
                 f"{unit('flow')}", help=f"class: {k.get('mean_maintenance_flow_class')}")
     m = st.columns(4)
@@ -136,7 +137,7 @@ def render() -> None:
                     f"{100 * (share.get('fresh_gas') or 0):.0f} %")
         m[2].metric("CO2e saved", f"{s['co2e']['magnitude']:.1f} kg", f"{100 * (share.get('co2e') or 0):.0f} %")
         if s.get("cost"):
-            m[3].metric("Cost saved", f"{s['cost']['total']:.2f} {currency}")
+            m[3].metric(f"Cost saved [{currency}]", f"{s['cost']['total']:.2f}")
         if cf["skipped"]:
             st.dataframe(pd.DataFrame(cf["skipped"]), hide_index=True, width="stretch")
         show_warnings(cf["warnings"])
