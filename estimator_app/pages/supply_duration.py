@@ -200,8 +200,8 @@ def _date(value: Any) -> dt.date:
 
 
 def outputs(report: Any) -> None:
-    m = st.columns(4)
-    m[0].metric("Bottleneck", report.bottleneck or "none")
+    m = st.columns([2, 1, 1, 1])
+    m[0].metric("Bottleneck", report.bottleneck or "none", help=report.bottleneck_supply)
     m[1].metric("Days of supply", f"{report.days_of_supply.to('day').magnitude:.1f}" if report.days_of_supply else "no run-out")
     m[2].metric("Cases possible", "-" if report.cases_possible is None else f"{report.cases_possible}")
     m[3].metric("Reorder by", report.reorder_by.isoformat() if report.reorder_by else "-")
