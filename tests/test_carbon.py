@@ -5,6 +5,7 @@ import math
 
 import pytest
 import scipy.constants
+from validation import record
 
 from estimator import carbon
 from estimator.errors import InputError
@@ -21,6 +22,9 @@ AR5_GWP100 = {"nitrous_oxide": 265, "desflurane": 1790, "isoflurane": 491, "sevo
                                          ("ar5_gwp100", AR5_GWP100)])
 def test_gwp_values_match_ipcc_tables(basis, table):
     for species, value in table.items():
+        record(f"{species} GWP ({basis})", carbon.gwp(species, basis), value,
+               "IPCC AR6 WG1 Table 7.SM.7" if basis.startswith("ar6") else "IPCC AR5 WG1 Table 8.A.1", "exact",
+               carbon.gwp(species, basis) == value)
         assert carbon.gwp(species, basis) == value
 
 
@@ -55,6 +59,8 @@ def test_ryan_nielsen_2010_co2e_per_mac_hour_at_2_l_min(agent, mac, published_g,
     vapour = Q_(mac * 2.0 * 60.0, "L")
     mass = carbon.vapour_to_mass(vapour, agent, temperature=Q_(20, "degC"))
     co2e_g = mass.to("g").magnitude * gwp20
+    record(f"{agent} CO2e (GWP20) of 1 MAC-hour at 2 L/min", co2e_g, published_g,
+           "Ryan & Nielsen, Anesth Analg 2010;111:92", "rel 1 %", co2e_g == pytest.approx(published_g, rel=0.01), "g")
     assert co2e_g == pytest.approx(published_g, rel=0.01)
 
 
@@ -66,6 +72,8 @@ def test_vapour_per_ml_matches_biro_2014():
     for agent, ml in (("sevoflurane", 184.0), ("isoflurane", 195.0), ("desflurane", 210.0)):
         gas_g = carbon.vapour_to_mass(Q_(ml, "mL"), agent, temperature=Q_(20, "degC")).to("g").magnitude
         liquid_g = carbon.liquid_to_mass(Q_(1, "mL"), agent).to("g").magnitude
+        record(f"{agent}: mass of {ml:g} mL vapour vs 1 mL liquid", gas_g, liquid_g,
+               "Biro, Acta Anaesthesiol Scand 2014", "rel 2 %", gas_g == pytest.approx(liquid_g, rel=0.02), "g")
         assert gas_g == pytest.approx(liquid_g, rel=0.02)
 
 
@@ -82,6 +90,8 @@ def test_ideal_gas_nitrous_oxide_within_one_percent_of_coolprop():
 
     rho = PropsSI("D", "T", 288.15, "P", 101325.0, "NitrousOxide")  # kg/m3 = g/L
     ideal = carbon.vapour_to_mass(Q_(1.0, "L"), "nitrous_oxide").to("g").magnitude
+    record("mass of 1 L nitrous oxide at 15 degC", ideal, rho, "CoolProp density", "rel 1 %",
+           ideal == pytest.approx(rho, rel=0.01), "g")
     assert ideal == pytest.approx(rho, rel=0.01)
 
 
@@ -125,6 +135,9 @@ def test_oxygen_supply_carbon_tariq_2024():
     # Supply carbon of bulk O2 about 0.17 kg CO2e per m3 (derived from Tariq et al., J Clean Prod
     # 2024, as quoted in REFERENCES sec. 8): 2000 L -> 0.34 kg.
     r = carbon.case_carbon({"oxygen": Q_(2000, "L"), "absorbent": Q_(100, "g")}, None, supply=True)
+    o2e = r.supply_co2e["oxygen"].to("kg").magnitude
+    record("supply CO2e of 2000 L oxygen", o2e, 0.34, "Tariq et al., J Clean Prod 2024 (0.17 kg/m3, secondary)",
+           "rel 1e-9", o2e == pytest.approx(0.34, rel=1e-9), "kg")
     assert r.supply_co2e["oxygen"].to("kg").magnitude == pytest.approx(0.34, rel=1e-9)
     assert any(code == "ABSORBENT_SUPPLY_NOT_COUNTED" for code, _ in r.warnings)
 

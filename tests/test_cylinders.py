@@ -2,6 +2,7 @@
 
 import pytest
 from CoolProp.CoolProp import PropsSI
+from validation import record
 
 from estimator.cylinders import (
     compressed_cylinder,
@@ -29,6 +30,9 @@ def coolprop_litres(gas, water_l, p_abs_pa, t_k):
 def test_contents_match_coolprop(gas, bar, temp):
     c = compressed_cylinder(gas, "10 L", f"{bar} bar", f"{temp} degC", "0 bar")
     expected = coolprop_litres(gas, 10.0, bar * 1e5 + 101325.0, temp + 273.15)
+    got = c.contents.to("L").magnitude
+    record(f"{gas} in a 10 L cylinder at {bar} bar, {temp} degC (free gas at 15 degC)", got, expected,
+           "CoolProp (Bell et al. 2014), computed in the test", "rel 1e-9", got == pytest.approx(expected, rel=1e-9), "L")
     # Same equation of state, same state: agreement to round-off.
     assert c.contents.to("L").magnitude == pytest.approx(expected, rel=1e-9)
 
@@ -54,6 +58,9 @@ def test_air_holds_less_than_ideal(bar, z):
                                        ("air", 137, 0.992)])
 def test_compressibility_table(gas, bar, z):
     # REFERENCES sec. 9 Z values at 15 degC (3 digits, so +-0.002 covers rounding and gauge/absolute).
+    zc = compressibility(gas, Q_(15, "degC"), Q_(bar, "bar"))
+    record(f"compressibility Z of {gas} at {bar} bar, 15 degC", zc, z, "CoolProp values in REFERENCES sec. 9",
+           "abs 0.002", zc == pytest.approx(z, abs=2e-3))
     assert compressibility(gas, Q_(15, "degC"), Q_(bar, "bar")) == pytest.approx(z, abs=2e-3)
 
 
@@ -78,6 +85,8 @@ def test_nitrous_oxide_litres_per_kg(temp, ref):
     real = litres_per_kg("nitrous_oxide", Q_(temp, "degC"), real_gas=True).to("L/kg").magnitude
     assert real == pytest.approx(1000.0 / rho, rel=1e-9)
     # REFERENCES sec. 9: 534 L/kg at 15 C, 543 at 20 C (CoolProp, rounded to 1 L/kg).
+    record(f"nitrous oxide free gas per kg at {temp} degC", real, ref, "CoolProp (rounded to 1 L/kg)", "abs 1 L/kg",
+           real == pytest.approx(ref, abs=1.0), "L/kg")
     assert real == pytest.approx(ref, abs=1.0)
     # The package convention (ideal molar volume) differs by the 1-atm Z of N2O, about 0.6 %.
     ideal = litres_per_kg("nitrous_oxide", Q_(temp, "degC")).to("L/kg").magnitude
@@ -93,6 +102,9 @@ def test_nitrous_oxide_contents_by_weight_not_gauge():
     assert a.usable.to("L").magnitude == pytest.approx(3.5 / m * R * T_REF / P_REF * 1000, rel=1e-9)
     assert any(code == "NITROUS_OXIDE_GAUGE_LOW" for code, _ in b.warnings)
     # Vapour pressure about 44 bar gauge at 15 C (REFERENCES sec. 9, CoolProp; 1 bar rounding).
+    vp = (a.vapour_pressure - Q_(101.325, "kPa")).to("bar").magnitude
+    record("nitrous oxide cylinder gauge pressure at 15 degC", vp, 44.0, "CoolProp saturation pressure",
+           "abs 0.5 bar", vp == pytest.approx(44, abs=0.5), "bar")
     assert (a.vapour_pressure - Q_(101.325, "kPa")).to("bar").magnitude == pytest.approx(44, abs=0.5)
     assert vapour_pressure("nitrous_oxide", Q_(20, "degC")).to("bar").magnitude == pytest.approx(
         PropsSI("P", "T", 293.15, "Q", 0, "NitrousOxide") / 1e5, rel=1e-9)

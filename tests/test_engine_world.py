@@ -7,6 +7,7 @@ import math
 import numpy as np
 import pytest
 from engine_helpers import at_times, run, scenario
+from validation import record
 
 from estimator import circuit as c
 from estimator.engine import R_GAS, simulate
@@ -39,6 +40,11 @@ def test_wash_in_ranking_yasuda_1991(wash_in):
     # Yasuda N et al., Anesth Analg 1991;72:316 and Anesthesiology 1991;74:489: FA/FI rises in the
     # order N2O >= desflurane > sevoflurane > isoflurane > halothane at every time. Ranking only; no
     # tolerance needed.
+    names = ("nitrous_oxide", "desflurane", "sevoflurane", "isoflurane", "halothane")
+    ranked = all(all(a >= b for a, b in zip(s, s[1:], strict=False))
+                 for s in ([wash_in[n][i] for n in names] for i in range(3)))
+    record("wash-in FA/FI ranking at 5, 10, 30 min", "N2O >= des > sevo > iso > halo" if ranked else "other order",
+           "N2O >= des > sevo > iso > halo", "Yasuda et al., Anesth Analg 1991;72:316", "ranking only", ranked)
     for i in range(3):
         seq = [wash_in[n][i] for n in ("nitrous_oxide", "desflurane", "sevoflurane", "isoflurane", "halothane")]
         assert all(a >= b for a, b in zip(seq, seq[1:], strict=False)), seq
@@ -50,6 +56,8 @@ def test_wash_in_values_near_yasuda_1991(wash_in):
     # of our table are partly from memory and published solubilities spread 10-15 %.
     published = {"desflurane": 0.90, "sevoflurane": 0.85, "isoflurane": 0.73, "halothane": 0.58}
     for name, value in published.items():
+        record(f"{name} FA/FI at 30 min, 10 L/min O2", wash_in[name][2], value,
+               "Yasuda et al. 1991, figures (from memory)", "abs 0.08", wash_in[name][2] == pytest.approx(value, abs=0.08))
         assert wash_in[name][2] == pytest.approx(value, abs=0.08)
 
 
@@ -79,6 +87,8 @@ def test_uptake_follows_lowe_square_root_of_time(name):
     a = agent(name)
     q_dl = 2.0 * 70**0.75
     lowe = 2 * 1.3 * a.mac40.to("percent").magnitude * a.blood_gas * q_dl * (math.sqrt(90) - math.sqrt(10))
+    record(f"{name} uptake 10-90 min at 1 MAC (engine vs Lowe)", model, lowe, "Lowe & Ernst 1981 (square-root law)",
+           "rel 35 %", model == pytest.approx(lowe, rel=0.35), "mL vapour")
     assert model == pytest.approx(lowe, rel=0.35)
     # and the shape: rate x sqrt(t) stays within +-30 % of its mean from 10 to 90 min
     k = u[sel] * np.sqrt(t[sel])
@@ -92,6 +102,9 @@ def test_nitrous_oxide_uptake_severinghaus():
     r = run("sevoflurane", [{"duration": "60 min", "oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min",
                              "vaporizer": "0 %"}])
     for t, rate in zip((10, 20, 30, 60), at_times(r, "nitrous_oxide_uptake [mL/min]", (10, 20, 30, 60)), strict=True):
+        record(f"N2O uptake rate at {t} min, 65 % inspired (engine)", rate, 1000 / math.sqrt(t),
+               "Severinghaus 1954; Bengtson et al. 1994", "rel 20 %", rate == pytest.approx(1000 / math.sqrt(t), rel=0.20),
+               "mL/min")
         assert rate == pytest.approx(1000 / math.sqrt(t), rel=0.20), t
 
 
@@ -107,6 +120,9 @@ def test_fixed_dial_liquid_matches_dion(name, dial, flow):
     a = agent(name)
     dion = 100 * dial / (1 - dial) * flow * 60 * a.molar_mass.to("g/mol").magnitude / (
         2412 * a.liquid_density.to("g/mL").magnitude)
+    liquid = r.totals["agent_liquid"].to("mL").magnitude
+    record(f"{name} liquid at {100 * dial:g} % dial, {flow:g} L/min for 60 min (engine)", liquid, dion,
+           "Dion, Can J Anaesth 1992;39:633", "rel 1 %", liquid == pytest.approx(dion, rel=0.01), "mL")
     assert r.totals["agent_liquid"].to("mL").magnitude == pytest.approx(dion, rel=0.01)
 
 
@@ -138,6 +154,9 @@ def test_non_absorbing_test_lung_washes_in_with_volume_over_flow():
     frac = amount / total / d
     sel = (times > 4) & (frac < 0.995)
     slope = np.polyfit(times[sel], np.log(1 - frac[sel]), 1)[0]
+    record("wash-in time constant of a non-absorbing test lung", -1 / slope, total / fgf,
+           "well-mixed tank law V/FGF (common practice, no source)", "rel 2 %",
+           -1 / slope == pytest.approx(total / fgf, rel=0.02), "min")
     assert -1 / slope == pytest.approx(total / fgf, rel=0.02)
 
 
@@ -161,6 +180,9 @@ def test_steady_state_inspired_oxygen_matches_derived_balance():
     ca = (101.325 - P_H2O_BODY) / (R_GAS * T_BODY) * 1000
     vi = r.patient.minute_ventilation.to("L/min").magnitude * ca
     fio2 = (ratio * vi + vo2) / (vi * (1 + ratio))
+    got = r.series["inspired_oxygen [%]"].iloc[-1] / 100
+    record("steady-state FiO2 at 0.5 L/min O2 + 0.5 L/min air, 24 h", got, fio2,
+           "derived O2/N2 balance (derived here)", "rel 0.5 %", got == pytest.approx(fio2, rel=0.005))
     assert r.series["inspired_oxygen [%]"].iloc[-1] / 100 == pytest.approx(fio2, rel=0.005)
 
 
@@ -189,6 +211,8 @@ def test_mac_target_counts_nitrous_oxide():
     last = r.series.iloc[-1]
     n2o_mac = last["end_tidal_nitrous_oxide [%]"] / 104
     agent_mac = last["end_tidal_agent [%]"] / 1.80
+    record("end-tidal hold of 1 MAC with N2O: sum of MAC fractions", n2o_mac + agent_mac, 1.0,
+           "Nickalls & Mapleson 2003 (additivity)", "abs 0.02", n2o_mac + agent_mac == pytest.approx(1.0, abs=0.02), "MAC")
     assert n2o_mac + agent_mac == pytest.approx(1.0, abs=0.02)
     assert agent_mac < 0.5
 
@@ -251,4 +275,8 @@ def test_reference_solve_agrees_to_1e6():
     agent_ref = ref_y[c.Y_FGIN + c.AGENT]
     from estimator.results import litres_per_mmol
 
+    vap = ours.totals["agent_vapour"].to("L").magnitude
+    record("agent vapour of a 60 min case, engine vs scipy DOP853 (rtol 1e-12)", vap, agent_ref * litres_per_mmol(),
+           "scipy.integrate.solve_ivp DOP853", "rel 1e-6", vap == pytest.approx(agent_ref * litres_per_mmol(), rel=1e-6),
+           "L")
     assert ours.totals["agent_vapour"].to("L").magnitude == pytest.approx(agent_ref * litres_per_mmol(), rel=1e-6)

@@ -9,6 +9,7 @@ import pytest
 from engine_helpers import scenario
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from validation import record
 
 from estimator.cli import main
 from estimator.engine import P_H2O_BODY, R_GAS, T_BODY
@@ -50,6 +51,9 @@ def test_floor_matches_derived_steady_state_oxygen_balance():
     f = 0.60
     r_star = (vi * thr - vo2) / (vi * (1 - thr))
     fgf = vo2 / (f - r_star * (1 - f))
+    record("flow floor for FiO2 0.40 with 60 % O2 in air, 24 h (engine)", floor_of(res), fgf,
+           "steady-state O2 balance (derived here)", "rel 2 % + 0.011 L/min",
+           floor_of(res) == pytest.approx(fgf, rel=0.02, abs=0.011), "L/min")
     assert res.phases[0]["binding"] == "INSPIRED_O2"
     assert floor_of(res) == pytest.approx(fgf, rel=0.02, abs=0.011)
 
@@ -66,6 +70,9 @@ def test_floor_never_below_metabolic_flow():
     plan = simulate(sc)
     s = plan.series
     metabolic = (s["oxygen_uptake [mL/min]"] + s["agent_uptake [mL/min]"] + s["nitrous_oxide_uptake [mL/min]"]).max()
+    record("flow floor vs peak metabolic flow (O2 + agent + N2O uptake)", floor_of(res) * 1000, metabolic,
+           "gas balance; Baum & Aitkenhead 1995 (metabolic flow)", "floor >= 0.9 x metabolic",
+           floor_of(res) * 1000 >= 0.9 * metabolic, "mL/min")
     assert floor_of(res) * 1000 >= 0.9 * metabolic  # uptake falls as the phase goes on; 10 % for that
 
 
@@ -119,6 +126,9 @@ def test_flow_classes_and_settable_rounding(planned):
         total = ph["floor"].to("L/min").magnitude
         expected = ("metabolic" if total <= 0.25 else "minimal" if total <= 0.5 else "low" if total <= 1
                     else "medium" if total <= 2 else "high" if total <= 4 else "very high")
+        record(f"flow class of a {total:g} L/min floor", ph["flow_class"].split(" (")[0], expected + " flow",
+               "Brattwall et al., Can J Anesth 2012;59:785, Table 1", "class name",
+               ph["flow_class"].startswith(expected + " flow"))
         assert ph["flow_class"].startswith(expected + " flow") and "Brattwall" in ph["flow_class"]
     for s in planned.schedule:
         for gas in ("oxygen", "air", "nitrous_oxide"):
@@ -152,6 +162,8 @@ def test_label_policy_raises_sevoflurane_floor_to_one_litre():
     # Sevoflurane US label: fresh gas below 1 L/min not recommended (REFERENCES sec. 11).
     ph = [{"duration": "60 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"}]
     res = flow_floor(scenario("sevoflurane", ph, flow_floor={"policies": ["sevoflurane_us_label"]}), grid=False)
+    record("sevoflurane flow floor under the US-label policy", floor_of(res), ">= 1.0",
+           "sevoflurane US label (REFERENCES sec. 11)", "at least 1 L/min", floor_of(res) >= 1.0, "L/min")
     assert floor_of(res) >= 1.0
     assert "LABEL_RULE_BREACHED" in [c for c, _ in res.warnings]
 

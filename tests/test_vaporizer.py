@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from validation import record
 
 from estimator.errors import InputError
 from estimator.properties import agent
@@ -41,6 +42,9 @@ def test_heated_pressurised_needs_dial_raised_by_p0_over_p():
     f = delivered_fraction(0.06, "heated_pressurised", P3000)
     assert f == pytest.approx(0.06, rel=1e-15)
     s = dial_for_target("1 MAC", "6.0 %", "heated_pressurised", P3000, "desflurane")
+    record("heated pressurised dial for 1 MAC desflurane at 3000 m", s.dial.to("").magnitude, 0.06 * 101.325 / 70.121,
+           "Dalton's law, p0/p (common practice, no source)", "rel 1e-12",
+           s.dial.to("").magnitude == pytest.approx(0.06 * 101.325 / 70.121, rel=1e-12))
     assert s.dial.to("").magnitude == pytest.approx(0.06 * 101.325 / 70.121, rel=1e-12)
     assert s.partial_pressure.to("kPa").magnitude == pytest.approx(0.06 * 101.325, rel=1e-12)
     assert s.warnings == ()
@@ -63,6 +67,9 @@ def test_inlet_control_against_chamber_mass_balance():
         lo, hi = (mid, hi) if output(mid, 101.325) < 0.02 else (lo, mid)
     expected = output(lo, 70.121)
     got = delivered_fraction(0.02, "variable_bypass", P3000, "sevoflurane", control="inlet")
+    record("inlet-controlled vaporizer at 3000 m, dial 2 % sevoflurane", got, expected,
+           "chamber mass balance, SVP 20.9 kPa (Biro 2014), derived here", "rel 1e-9",
+           got == pytest.approx(expected, rel=1e-9))
     assert got == pytest.approx(expected, rel=1e-9)
     assert got * 70.121 > 0.02 * 101.325  # delivers more partial pressure than the outlet design
 
