@@ -337,7 +337,8 @@ def case_type(row: CaseTypeInput, where: str, base_dir: Path) -> tuple[CaseType,
         w0 = _q(row.weight_mean, f"{where}.weight_mean", "mass", "kg", *SANE_WEIGHT)
         if w0 is None:
             raise InputError(f"{where}.weight_mean", "(missing)", "a weight (an inline template has no patient)")
-        a0 = _q(row.age_mean, f"{where}.age_mean", "age", "year", *AGE_LIMITS) or 40.0
+        a0 = _q(row.age_mean, f"{where}.age_mean", "age", "year", *AGE_LIMITS)
+        a0 = 40.0 if a0 is None else a0  # the scenario default age
         try:
             sc = scenario_from_dict(_inline(row, where, w0, a0))
         except InputError as exc:
@@ -347,8 +348,9 @@ def case_type(row: CaseTypeInput, where: str, base_dir: Path) -> tuple[CaseType,
     fallback = sc.duration.to("min").magnitude if row.scenario is not None else None
     duration = _duration(row, where, fallback)
     if weight.low < VALIDATED_WEIGHT[0] or weight.high > VALIDATED_WEIGHT[1]:
-        notes.append(("PATIENT_WEIGHT_OUTSIDE_VALIDATED", f"{row.name}: weights {weight.low:g}-{weight.high:g} kg "
-                      f"reach outside {VALIDATED_WEIGHT[0]:g}-{VALIDATED_WEIGHT[1]:g} kg, where the weight power "
+        span = f"weight {weight.low:g} kg is" if weight.kind == "point" else \
+            f"weights {weight.low:g}-{weight.high:g} kg reach"
+        notes.append(("PATIENT_WEIGHT_OUTSIDE_VALIDATED", f"{row.name}: {span} outside {VALIDATED_WEIGHT[0]:g}-{VALIDATED_WEIGHT[1]:g} kg, where the weight power "
                       "laws are taken as validated; treat those cases as rough"))
     if age.low < MAPLESON_MIN_AGE:
         notes.append(("AGE_BELOW_MAPLESON_RANGE", f"{row.name}: ages from {age.low:g} years; Mapleson's age "

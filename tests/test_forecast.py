@@ -245,3 +245,28 @@ def test_summary_statistics_numpy_definition():
     v = np.array([1.0, 2.0, 3.0, 4.0, 10.0])
     s = summary_statistics(v)
     assert s == {"mean": 4.0, "p50": 3.0, "p95": pytest.approx(8.8), "p99": pytest.approx(9.76)}
+
+
+def test_neonatal_point_patient_keeps_age_zero_and_warns():
+    mix = load_casemix(_row(weight_mean='"3.5 kg"', age_mean='"0 years"'))
+    ct = mix.case_types[0]
+    assert ct.age.kind == "point" and ct.age.loc == 0.0 and ct.weight.loc == 3.5
+    codes = {c for c, _ in mix.warnings}
+    assert {"PATIENT_WEIGHT_OUTSIDE_VALIDATED", "AGE_BELOW_MAPLESON_RANGE"} <= codes
+
+
+def test_empty_case_type_runs():
+    text = _row(per_week="0") + "\n" + _row(name='"y"', per_week="1", duration='"20 min"',
+                                              duration_median=None, duration_p90=None)
+    r = forecast(load_casemix(text), weeks=2, seed=0)
+    assert r.cases[0]["simulated"] == 0 and r.cases[1]["simulated"] == int(r.weekly["cases"].sum())
+
+
+def test_case_types_file_rows_follow_the_toml_rows(tmp_path):
+    (tmp_path / "rows.csv").write_text("name,per_week,agent,duration [min],weight_mean [kg],weight_sd [kg]\n"
+                                       "ok,2,sevoflurane,30,70,\nbad,-1,sevoflurane,30,70,5\n")
+    text = 'case_types_file = "rows.csv"\n' + _row()
+    (tmp_path / "mix.toml").write_text(text)
+    with pytest.raises(InputError) as err:
+        load_casemix(tmp_path / "mix.toml")
+    assert err.value.field == "case_types[2].per_week"
