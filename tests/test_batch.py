@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 
-from estimator import batch, engine
+from estimator import batch, engine, rkc
 from estimator import circuit as c
 from estimator.results import _content
 from estimator.scenario import scenario_from_dict
@@ -131,7 +131,7 @@ def test_mass_balance_closes():
     d = batch.phase_durations(tpl, np.array([200.0]))
     y0 = tpl.initial[None].copy()
     y1, mk, ex, stt = np.empty_like(y0), np.zeros((1, 2)), np.empty((1, 2)), np.zeros((1, 5), np.int64)
-    batch.integrate_cases(y0, p, d, batch.RTOL, batch.absolute_tolerance(), y1, mk, ex, stt)
+    rkc.integrate_cases(y0, p, d, batch.RTOL, batch.absolute_tolerance(), y1, mk, ex, stt)
     base = p[0, 0]
     c0, l0, _ = _content(y0[0], base)
     c1, l1, _ = _content(y1[0], base)
@@ -154,17 +154,17 @@ def test_spectral_radius_bounds_the_jacobian():
     w = np.empty(c.NW)
     f0 = np.empty(c.NY)
     c.rhs(y, p, w, f0)
-    jac = np.empty((batch.NCORE, batch.NCORE))
-    for j in range(batch.NCORE):
+    jac = np.empty((rkc.NCORE, rkc.NCORE))
+    for j in range(rkc.NCORE):
         yy = y.copy()
         dy = 1e-7 * max(abs(y[j]), 1e-3)
         yy[j] += dy
         fj = np.empty(c.NY)
         c.rhs(yy, p, w, fj)
-        jac[:, j] = (fj[: batch.NCORE] - f0[: batch.NCORE]) / dy
+        jac[:, j] = (fj[: rkc.NCORE] - f0[: rkc.NCORE]) / dy
     true = np.max(np.abs(np.linalg.eigvals(jac)))
     z = np.zeros(c.NY)
-    rho, _ = batch.spectral_radius(y, p, f0, w, np.empty(c.NY), z, np.empty(c.NY))
+    rho, _ = rkc.spectral_radius(y, p, f0, w, np.empty(c.NY), z, np.empty(c.NY))
     assert true <= rho <= 1.5 * true
 
 
