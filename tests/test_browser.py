@@ -91,19 +91,31 @@ def number(text: str) -> float:
     return float(re.search(r"[-+]?\d[\d,]*\.?\d*", text).group(0).replace(",", ""))
 
 
-def edit_cell(page, row: int, col: int, text: str) -> None:
-    """Type into a cell of the first data editor: select its first cell, move with the arrow keys."""
+def edit_cell(page, row: int, col: int, text: str, attempts: int = 4) -> None:
+    """Type into a cell of the first data editor: select its first cell, move with the arrow keys,
+    open the cell editor with Enter. Retried: on a busy machine the grid may still be re-rendering
+    (and drop the selection) when it is first clicked."""
+    from playwright.sync_api import TimeoutError as PlaywrightTimeout
+
     grid = page.locator('[data-testid="stDataFrame"]').first
-    grid.scroll_into_view_if_needed()
-    box = grid.bounding_box()
-    page.mouse.click(box["x"] + 90, box["y"] + 35 + 17)  # past the row-selector column; header 35 px
-    for _ in range(row):
-        page.keyboard.press("ArrowDown")
-    for _ in range(col):
-        page.keyboard.press("ArrowRight")
-    page.keyboard.press("Enter")  # open the cell's editor on its current value
     editor = page.locator("#portal textarea, #portal input").first
-    editor.wait_for(timeout=10_000)
+    for attempt in range(attempts):
+        grid.scroll_into_view_if_needed()
+        box = grid.bounding_box()
+        page.mouse.click(box["x"] + 90, box["y"] + 35 + 17)  # past the row-selector column; header 35 px
+        for _ in range(row):
+            page.keyboard.press("ArrowDown")
+        for _ in range(col):
+            page.keyboard.press("ArrowRight")
+        page.keyboard.press("Enter")  # open the cell's editor on its current value
+        try:
+            editor.wait_for(timeout=5_000)
+            break
+        except PlaywrightTimeout:
+            if attempt == attempts - 1:
+                raise
+            page.keyboard.press("Escape")
+            page.wait_for_timeout(1_000)
     editor.fill(text)
     page.keyboard.press("Enter")
 
@@ -117,6 +129,7 @@ def test_change_a_fresh_gas_flow_and_see_the_totals_change(server, browser, tmp_
     page.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.wait_for(
         timeout=RENDER_TIMEOUT_MS)
     first_totals = time.monotonic() - t0
+    page.wait_for_function("document.querySelectorAll('.vega-embed').length >= 5", timeout=RENDER_TIMEOUT_MS)
     before_agent = number(metric_value(page, "Liquid agent"))
     before_o2 = number(metric_value(page, "Oxygen"))
     # Maintenance (row 1), O2 column (col 2): 0.4 -> 1.6 L/min. Dion 1992, Baum and Aitkenhead 1995:
