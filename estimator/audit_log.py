@@ -115,8 +115,16 @@ def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
     return names, factors
 
 
+def _is_file(text: str) -> bool:
+    """True for a path to an existing file; CSV text (however long) is not a path."""
+    try:
+        return Path(text).is_file()
+    except (OSError, ValueError):
+        return False
+
+
 def _open(source: Any) -> Any:
-    if isinstance(source, str) and ("\n" in source or "," in source) and not Path(source).exists():
+    if isinstance(source, str) and ("\n" in source or "," in source) and not _is_file(source):
         return io.StringIO(source.lstrip("\ufeff"))
     if isinstance(source, str | Path):
         return open(source, encoding="utf-8-sig", newline="")  # noqa: SIM115 - closed by the caller

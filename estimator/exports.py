@@ -142,7 +142,7 @@ def write_xlsx(result: AuditResult, path: str | Path) -> Path:
 
 
 def _caution() -> str:
-    from .cli import CAUTION
+    from .caution import CAUTION
 
     return CAUTION
 

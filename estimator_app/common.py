@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING, Any
 
 import streamlit as st
 
-from estimator.cli import CAUTION
+from estimator.caution import CAUTION
 from estimator.errors import InputError
 
 if TYPE_CHECKING:

@@ -15,13 +15,8 @@ import sys
 import typer
 
 from .. import __version__
+from ..caution import CAUTION  # re-exported for the verbs
 from ..errors import InputError
-
-CAUTION = (
-    "Planning and audit aid only: not a monitor and not a prescription. Continuous inspired-O2 and "
-    "agent monitoring is mandatory at low flow. Follow the agent's local labelling, local codes and "
-    "licensed clinical practice."
-)
 
 app = typer.Typer(
     name="lowflow",
