@@ -208,6 +208,8 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
     totals, balance = _totals(scenario, ag, base, y0, y1, amb, lpm, (o2_l, air_l, n2o_l))
     fio2 = series["inspired_oxygen [%]"].to_numpy() / 100
     judged = series["time [min]"].to_numpy() >= SETTLE
+    if not judged.any():  # a case shorter than the settling minute: judge its last sample
+        judged[-1] = True
     _gas_warnings(series, fio2, judged, totals, warns)
     if site.ambient_pressure_kpa < 101.325 - 1e-6:
         from .site import check_inspired_oxygen

@@ -79,6 +79,8 @@ def main(argv: list[str] | None = None) -> None:
         raise SystemExit(130) from None
     except (FileNotFoundError, IsADirectoryError, PermissionError) as exc:
         fail(f"{exc.filename}: {exc.strerror}")
+    except UnicodeDecodeError:
+        fail("input file: not UTF-8 text; expected a UTF-8 TOML or CSV file")
     except KeyboardInterrupt:
         raise SystemExit(130) from None
     except SystemExit:
