@@ -127,6 +127,8 @@ def _open(source: Any) -> Any:
     if isinstance(source, str) and ("\n" in source or "," in source) and not _is_file(source):
         return io.StringIO(source.lstrip("\ufeff"))
     if isinstance(source, str | Path):
+        if not _is_file(str(source)):
+            raise InputError("log", str(source), "an existing CSV file")
         return open(source, encoding="utf-8-sig", newline="")  # noqa: SIM115 - closed by the caller
     return io.StringIO(source.read().lstrip("\ufeff"))
 
@@ -228,11 +230,15 @@ def read_log(source: Any) -> LogData:
         For a file-level problem, naming the column.
     """
     with _open(source) as handle:
-        raw = next(csv.reader([handle.readline()]), [])
-        if not raw:
-            raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
-        names, factors = _header(raw)
-        df, bad_width = _rows(handle, raw, names)
+        try:
+            raw = next(csv.reader([handle.readline()]), [])
+            if not raw:
+                raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
+            names, factors = _header(raw)
+            df, bad_width = _rows(handle, raw, names)
+        except UnicodeDecodeError:
+            shown = str(source) if isinstance(source, str | Path) else "(upload)"
+            raise InputError("log", shown, "a CSV file in UTF-8 text") from None
     df.columns = [*names, "line"]
     unknown = [n for n in names if n not in SPEC]
     warnings: list[tuple[str, str]] = []

@@ -56,7 +56,7 @@ from scipy.special import ndtr, ndtri
 
 from .batch import CaseTemplate, case_template
 from .costs import Prices, parse_prices
-from .errors import InputError
+from .errors import InputError, read_text_file
 from .physiology import SANE_WEIGHT, VALIDATED_WEIGHT
 from .properties import AGENTS, CO2E_BASES
 from .scenario import input_error_from_validation, load_scenario, scenario_from_dict
@@ -411,7 +411,7 @@ def read_case_types_csv(source: Path | str, start: int = 0) -> list[CaseTypeInpu
     >>> rows[0].weight_mean
     '82 kg'
     """
-    text = Path(source).read_text(encoding="utf-8") if isinstance(source, Path) else str(source)
+    text = read_text_file(source, "case_types_file", "an existing CSV file") if isinstance(source, Path) else str(source)
     reader = csv.reader(io.StringIO(text))
     try:
         header = next(reader)
@@ -466,11 +466,12 @@ def load_casemix(source: str | Path) -> CaseMix:
     if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source
                                     and source.endswith((".toml", ".csv"))):
         path = Path(source)
-        if not path.is_file():
-            raise InputError("casemix", str(source), "an existing case-mix file (.toml or .csv)")
+        expected = "an existing case-mix file (.toml or .csv)"
         if path.suffix.lower() == ".csv":
+            if not path.is_file():
+                raise InputError("casemix", str(source), expected)
             return casemix_from_dict({"case_types_file": path.name}, path.parent)
-        text, base = path.read_text(encoding="utf-8"), path.parent
+        text, base = read_text_file(path, "casemix", expected), path.parent
     else:
         text, base = str(source), Path(".")
     try:

@@ -212,7 +212,13 @@ def _hold_dial(y, p, w):
             rest = w[W_ABS] * w[W_FE + AGENT] - w[W_OUTC] * fc
             nc_t = p[P_NC] / p[P_TAU_C]
             gain = (w[W_FGF] - w[W_DIRECT]) + w[W_MAKEUP] * (1.0 - p[P_MAKEUP_AIR]) + nc_t * alpha / (1.0 - alpha)
-            unew = (nc_t * (fi_star / (1.0 - alpha) - fc) - rest) / gain
+            demand = nc_t * (fi_star / (1.0 - alpha) - fc) - rest
+            if gain > 1e-12:
+                unew = demand / gain
+            else:
+                # no fresh gas reaches the circuit, so the dial cannot act: it saturates in the
+                # direction the target asks for (and the unreached target is reported)
+                unew = umax if demand > 0.0 else 0.0
         u = min(max(unew, 0.0), umax)
     return u
 

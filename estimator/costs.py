@@ -36,7 +36,7 @@ import pandas as pd
 import pint
 from pydantic import BaseModel, ConfigDict, ValidationError
 
-from .errors import InputError
+from .errors import InputError, read_text_file
 from .properties import AGENTS
 from .units import Q_, check_range, parse_quantity
 
@@ -196,7 +196,7 @@ def load_prices(source: str | Path) -> Prices:
     """
     path = Path(source) if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source
                                                         and "=" not in source) else None
-    text = path.read_text(encoding="utf-8") if path is not None else str(source)
+    text = read_text_file(path, "prices", "an existing prices TOML file") if path is not None else str(source)
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

@@ -6,6 +6,9 @@ would have been valid. The CLI prints ``str(error)`` as a single line and exits 
 
 from __future__ import annotations
 
+import os
+from pathlib import Path
+
 
 class InputError(ValueError):
     """Bad input: names the field, the value and the valid range or dimension.
@@ -37,3 +40,38 @@ def _show(value: object) -> str:
     if len(text) > 80:
         text = text[:77] + "..."
     return text.replace("\n", " ")
+
+
+def read_text_file(path: str | os.PathLike[str], field: str, expected: str) -> str:
+    """The UTF-8 text of a user's file, or an :class:`InputError` naming ``field`` and the path.
+
+    A missing path, a folder, a file that cannot be read or one that is not UTF-8 text all become
+    one-line input errors, the same from every loader.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file to read.
+    field : str
+        What the file is, as the error should name it (``"inventory"``, ``"scenario"``).
+    expected : str
+        What would have been accepted, e.g. ``"an existing TOML file"``.
+
+    Examples
+    --------
+    >>> read_text_file("no/such/file.toml", "inventory", "an existing TOML file")
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: inventory: got 'no/such/file.toml'; expected an existing TOML file
+    """
+    shown = str(path)
+    try:
+        raw = Path(path).read_bytes()
+    except (FileNotFoundError, IsADirectoryError, NotADirectoryError):
+        raise InputError(field, shown, expected) from None
+    except OSError as exc:
+        raise InputError(field, shown, f"{expected} that can be read ({exc.strerror})") from None
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(field, shown, f"{expected} in UTF-8 text") from None

@@ -153,7 +153,9 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
     ag = agent_properties(scenario.agent.name)
     kind_bypass = (scenario.agent.vaporizer_type or
                    ("heated_pressurised" if ag.name == "desflurane" else "variable_bypass")) == "variable_bypass"
-    frames, phases, warns = [], [], list(patient.warnings) + list(site.warnings)
+    from .mac import parse_age
+
+    frames, phases, warns = [], [], list(patient.warnings) + parse_age(patient.age)[1] + list(site.warnings)
     o2_l = air_l = n2o_l = 0.0
     y_first = chunks[0][2][0]
     steps = {"accepted": 0, "rejected": 0, "evaluations": 0}

@@ -34,7 +34,7 @@ from typing import Annotated, Any, Literal
 import pint
 from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, model_validator
 
-from .errors import InputError
+from .errors import InputError, read_text_file
 from .properties import AGENTS, gas
 from .units import DIMENSIONS, Q_, parse_quantity
 
@@ -330,7 +330,5 @@ def load_scenario(source: str | Path) -> Scenario:
 def _read(source: str | Path) -> tuple[str, str]:
     if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source and source.endswith(".toml")):
         path = Path(source)
-        if not path.is_file():
-            raise InputError("scenario", str(source), "an existing TOML file")
-        return path.read_text(encoding="utf-8"), path.name
+        return read_text_file(path, "scenario", "an existing TOML file"), path.name
     return str(source), "scenario"

@@ -34,7 +34,7 @@ import pint
 from pydantic import BaseModel, ConfigDict, StrictBool, StrictInt, ValidationError
 
 from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, supply_data
-from .errors import InputError
+from .errors import InputError, read_text_file
 from .properties import AGENTS
 from .units import Q_, check_range, parse_quantity
 
@@ -192,7 +192,7 @@ def load_inventory(source: str | Path) -> Inventory:
     text, base = str(source), "."
     if isinstance(source, Path) or ("\n" not in text and "=" not in text):
         path = Path(source)
-        text, base = path.read_text(encoding="utf-8"), str(path.parent)
+        text, base = read_text_file(path, "inventory", "an existing inventory TOML file"), str(path.parent)
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

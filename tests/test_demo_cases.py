@@ -129,7 +129,8 @@ HEADLINES = {
                                     3.09, 0.253, ["INSPIRED_OXYGEN_LOW"]),
     "highland_mobile_team.toml": ({"agent_liquid": 11.67, "oxygen": 103.6}, None, 0.428, ["FLOWMETER_ACCURACY"]),
     "paediatric_4y_16kg.toml": ({"agent_liquid": 14.49, "oxygen": 60.45, "mac_hours": 0.949}, None, 0.556, []),
-    "paediatric_infant_warning.toml": ({"agent_liquid": 8.83}, None, 0.586, ["PATIENT_WEIGHT_OUTSIDE_VALIDATED"]),
+    "paediatric_infant_warning.toml": ({"agent_liquid": 8.83}, None, 0.586, ["PATIENT_WEIGHT_OUTSIDE_VALIDATED",
+                                                                          "AGE_BELOW_MAPLESON_RANGE"]),
 }
 
 
@@ -366,8 +367,6 @@ def test_paediatric_4_year_old(cli):
     assert mag(t, "agent_liquid") >= induction * 0.97
 
 
-@pytest.mark.xfail(strict=True, reason="the engine applies Mapleson's age factor below 1 year without the "
-                   "AGE_BELOW_MAPLESON_RANGE warning that estimator.mac gives")
 def test_infant_warning_case_names_the_age_limit(cli):
     # Mapleson 1996 fits MAC from 1 year up. At 5 months the formula gives 2.46 % sevoflurane, while
     # measured infant MAC is about 3.2 % (Lerman J et al., Anesthesiology 1994;80:814, from memory):

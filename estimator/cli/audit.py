@@ -26,7 +26,7 @@ from pathlib import Path
 
 import typer
 
-from ..errors import InputError
+from ..errors import InputError, read_text_file
 from ..jsonout import dumps
 from . import CAUTION, app
 
@@ -35,7 +35,7 @@ def _policy(path: Path):
     from ..audit_policy import parse_policy
 
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
+        data = tomllib.loads(read_text_file(path, "--policy", "an existing TOML policy file"))
     except tomllib.TOMLDecodeError as exc:
         raise InputError("--policy", str(path), f"a TOML policy file ({exc})") from None
     return parse_policy(data)
