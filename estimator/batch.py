@@ -258,7 +258,7 @@ def run_batch(template: CaseTemplate, weights: Sequence[float], ages: Sequence[f
 
 
 def _totals(template, p0, y0, y1, d, mk, total) -> dict[str, np.ndarray]:
-    """Totals as :func:`estimator.results.build_result` forms them, for many cases at once."""
+    """Totals as :func:`estimator.assemble.build_result` forms them, for many cases at once."""
     site = template.site
     amb = site.ambient_pressure_kpa / (engine.R_GAS * site.temperature_k) * 1000.0  # mmol per ambient L
     lpm = litres_per_mmol()

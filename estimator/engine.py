@@ -31,11 +31,12 @@ from typing import Any
 import numpy as np
 
 from . import circuit as c
+from .assemble import build_result
 from .errors import InputError
 from .physiology import Patient, patient_parameters
 from .properties import Species, gas
 from .properties import agent as agent_properties
-from .results import CaseResult, build_result
+from .results import CaseResult
 from .scenario import PhaseInput, Scenario
 from .units import Q_
 

@@ -1,6 +1,8 @@
 """Results of one case: totals as pint quantities, the series as a DataFrame, warnings, JSON.
 
-:func:`build_result` turns the raw states of :mod:`estimator.circuit` into what users read. Gas
+The result type and the thresholds it is judged by. :func:`estimator.assemble.build_result` turns
+the raw states of :mod:`estimator.circuit` into a :class:`CaseResult`; this module does not load the
+compiled model, so a stored result can be read back without it. Gas
 litres are free gas at 15 degC and 101.325 kPa (``GAS_VOLUME_REFERENCE``); flows in the series are
 ambient litres per minute at the site, as a flowmeter shows them.
 """
@@ -10,17 +12,13 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-import numpy as np
 import pandas as pd
 import pint
 
-from . import circuit as c
-from .properties import CO2E_BASES, gas
-from .properties import agent as agent_properties
-from .units import GAS_VOLUME_REFERENCE, Q_, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
+from .properties import CO2E_BASES
+from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
 
 if TYPE_CHECKING:
-    from .engine import SiteState
     from .physiology import Patient
     from .scenario import Scenario
 
@@ -46,8 +44,6 @@ SERIES_UNITS = {
     "exhaust_flow": "L/min", "volume_deficit_flow": "L/min", "oxygen_uptake": "mL/min",
     "agent_uptake": "mL/min", "nitrous_oxide_uptake": "mL/min", "co2_to_absorbent": "mL/min",
 }
-_NAMES = {c.O2: "oxygen", c.CO2: "carbon_dioxide", c.N2: "nitrogen", c.N2O: "nitrous_oxide",
-          c.AGENT: "agent", c.AR: "argon"}
 
 
 def litres_per_mmol() -> float:
@@ -129,206 +125,3 @@ class CaseResult:
             "flow_reference": self.flow_reference,
             "co2e_basis": CO2E_BASES["ar6_gwp100"][1],
         })
-
-
-def _content(y: np.ndarray, base: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Amounts [mmol] per species held in circuit, lungs and body for state ``y``."""
-    circ = base[c.P_NC] * y[c.Y_FC : c.Y_FC + c.NS]
-    lung = base[c.P_NL] * y[c.Y_FA : c.Y_FA + c.NS]
-    body = np.zeros(c.NS)
-    for b, s in enumerate(c.BODY):
-        o = c.Y_BODY + c.NBODYSTATE * b
-        amt = base[c.P_VART] * y[o] + base[c.P_VVEN] * y[o + 1]
-        for k in range(c.NT):
-            amt += base[c.P_VT + k] * base[c.P_LAMBDA_T + c.NT * b + k] * y[o + 2 + k]
-        body[s] = amt * base[c.P_LAMBDA + b] * base[c.P_CA]
-    return circ, lung, body
-
-
-def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np.ndarray,
-                 chunks: list) -> CaseResult:
-    """Assemble totals, series and warnings from the integrated phases."""
-    amb = site.ambient_pressure_kpa / (8.314462618 * site.temperature_k) * 1000.0  # mmol / ambient L
-    lpm = litres_per_mmol()
-    ag = agent_properties(scenario.agent.name)
-    kind_bypass = (scenario.agent.vaporizer_type or
-                   ("heated_pressurised" if ag.name == "desflurane" else "variable_bypass")) == "variable_bypass"
-    from .mac import parse_age
-
-    frames, phases, warns = [], [], list(patient.warnings) + parse_age(patient.age)[1] + list(site.warnings)
-    o2_l = air_l = n2o_l = 0.0
-    y_first = chunks[0][2][0]
-    steps = {"accepted": 0, "rejected": 0, "evaluations": 0}
-    for index, times, ys, ws, p, stats in chunks:
-        steps["accepted"] += int(stats[0])
-        steps["rejected"] += int(stats[1])
-        steps["evaluations"] += int(stats[2])
-        phase = scenario.phases[index]
-        from .engine import true_flows
-
-        o2, air, n2o = true_flows(scenario, phase, site)
-        dur = times[-1] - times[0]
-        carrier = o2 + air + n2o
-        mk = sum(ys[-1, c.Y_MAKEUP + s] - ys[0, c.Y_MAKEUP + s] for s in range(c.NS) if s != c.AGENT)
-        extra = (mk / amb) if p[c.P_MAKEUP_AIR] == 0.0 and carrier > 0 else 0.0
-        for flow, acc in ((o2, "o2"), (air, "air"), (n2o, "n2o")):
-            vol = flow * dur + (extra * flow / carrier if carrier > 0 else 0.0)
-            if acc == "o2":
-                o2_l += vol
-            elif acc == "air":
-                air_l += vol
-            else:
-                n2o_l += vol
-        u = ws[:, c.W_U]
-        dial = u * site.ambient_pressure_kpa / 101.325 if kind_bypass else u
-        cols: dict[str, Any] = {"time [min]": times, "phase": np.full(times.shape, index)}
-        for sp, name in _NAMES.items():
-            cols[f"inspired_{name} [%]"] = 100 * ws[:, c.W_FI + sp]
-            cols[f"end_tidal_{name} [%]"] = 100 * ws[:, c.W_FET + sp]
-        hold = p[c.P_MODE] == c.MODE_HOLD
-        cols["end_tidal_target [%]"] = 100 * ws[:, c.W_TARGET] if hold else np.full(times.shape, np.nan)
-        cols["inspired_oxygen_partial_pressure [kPa]"] = ws[:, c.W_FI + c.O2] * (site.ambient_pressure_kpa - P_H2O)
-        cols["end_tidal_mac [MAC]"] = ws[:, c.W_MAC]
-        cols["vaporizer_setting [%]"] = 100 * dial
-        cols["delivered_agent [%]"] = 100 * u
-        cols["fresh_gas_flow [L/min]"] = ws[:, c.W_FGF] / amb
-        cols["exhaust_flow [L/min]"] = ws[:, c.W_EX] / amb
-        cols["volume_deficit_flow [L/min]"] = ws[:, c.W_MAKEUP] / amb
-        cols["oxygen_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.O2]
-        cols["agent_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.AGENT]
-        cols["nitrous_oxide_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.N2O]
-        cols["co2_to_absorbent [mL/min]"] = 1000 * lpm * ws[:, c.W_CO2ABS]
-        df = cols
-        frames.append(df)
-        info: dict[str, Any] = {"index": index, "start": Q_(times[0], "min"), "end": Q_(times[-1], "min"),
-                                "mode": "end_tidal_hold" if hold else "vaporizer"}
-        if hold:
-            info.update(_hold_report(index, times, ws, p, warns))
-        phases.append(info)
-    series = pd.DataFrame({k: np.concatenate([f[k] for f in frames]) for k in frames[0]})
-    y0, y1 = y_first, chunks[-1][2][-1]
-    totals, balance = _totals(scenario, ag, base, y0, y1, amb, lpm, (o2_l, air_l, n2o_l))
-    fio2 = series["inspired_oxygen [%]"].to_numpy() / 100
-    judged = series["time [min]"].to_numpy() >= SETTLE
-    if not judged.any():  # a case shorter than the settling minute: judge its last sample
-        judged[-1] = True
-    _gas_warnings(series, fio2, judged, totals, warns)
-    if site.ambient_pressure_kpa < 101.325 - 1e-6:
-        from .site import check_inspired_oxygen
-
-        warns += [(code, msg) for code, msg in check_inspired_oxygen(fio2[judged], FIO2_ADVISORY,
-                                                                               Q_(site.ambient_pressure_kpa, "kPa"))]
-    if scenario.site.flowmeter_readings:
-        warns.append(("FLOWMETER_ACCURACY", "phase flows are flowmeter readings converted to true flows; a "
-                      "calibrated tube reads to about +-2.5 % (common practice, no source), so gas totals carry "
-                      "that band"))
-        for key in ("oxygen", "air", "nitrous_oxide"):
-            totals[f"{key}_band"] = {"low": totals[key] * 0.975, "high": totals[key] * 1.025}
-    flow_ref = (f"series flows in ambient litres at the site ({site.ambient_pressure_kpa:.1f} kPa, "
-                f"{site.temperature_k - 273.15:.0f} degC); totals in {GAS_VOLUME_REFERENCE}")
-    return CaseResult(scenario, patient, totals, series, warns, Q_(float(fio2.min()), "dimensionless"),
-                      phases, balance, steps, flow_reference=flow_ref)
-
-
-def _hold_report(index: int, times: np.ndarray, ws: np.ndarray, p: np.ndarray, warns: list) -> dict:
-    et = ws[:, c.W_FET + c.AGENT]
-    target = ws[:, c.W_TARGET]
-    reached = np.nonzero(et >= (1 - TARGET_BAND) * target)[0]
-    out: dict[str, Any] = {"target_reached": None}
-    if reached.size == 0:
-        warns.append(("TARGET_NOT_REACHED",
-                      f"phase {index}: the end-tidal target ({100 * target[-1]:.2f} %) was not reached by "
-                      f"{times[-1]:.0f} min (end-tidal {100 * et[-1]:.2f} %); the vaporizer maximum or the "
-                      "fresh-gas flow limits the wash-in"))
-        return out
-    i = reached[0]
-    out["target_reached"] = Q_(float(times[i]), "min")
-    after = slice(i, None)
-    at_max = ws[after, c.W_U] >= p[c.P_UMAX] * (1 - 1e-9)
-    low = et[after] < (1 - TARGET_BAND) * target[after]
-    if np.any(at_max & low):
-        t_fail = times[after][np.argmax(at_max & low)]
-        warns.append(("TARGET_NOT_HELD",
-                      f"phase {index}: from {t_fail:.0f} min the end-tidal target cannot be held with the dial at "
-                      "its maximum; raise the fresh-gas flow"))
-    elif np.any(at_max):
-        warns.append(("DIAL_AT_MAXIMUM",
-                      f"phase {index}: the dial sits at the vaporizer maximum for part of the hold"))
-    return out
-
-
-def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
-    d = y1 - y0
-    circ0, lung0, body0 = _content(y0, base)
-    circ1, lung1, body1 = _content(y1, base)
-    balance = {}
-    for s, name in _NAMES.items():
-        balance[name] = {
-            "delivered": d[c.Y_FGIN + s] + d[c.Y_MAKEUP + s],
-            "uptake": d[c.Y_UPTAKE + s],
-            "vented": d[c.Y_VENT + s],
-            "leaked": d[c.Y_LEAK + s],
-            "sampled": d[c.Y_SAMPLE + s],
-            "absorbed": d[c.Y_CO2ABS] if s == c.CO2 else 0.0,
-            "stored_gas": (circ1[s] - circ0[s]) + (lung1[s] - lung0[s]),
-            "stored_body": body1[s] - body0[s],
-            "metabolised": d[c.Y_METAB] if s == c.AGENT else 0.0,
-            "consumed": d[c.Y_O2CONS] if s == c.O2 else 0.0,
-            "body_tracked": s in c.BODY or s == c.O2,
-        }
-    agent_mmol = d[c.Y_FGIN + c.AGENT] + d[c.Y_MAKEUP + c.AGENT]
-    mw = ag.molar_mass.to("g/mol").magnitude
-    liquid_ml = agent_mmol / 1000 * mw / ag.liquid_density.to("g/mL").magnitude
-    duration = scenario.duration.to("min").magnitude
-    fg_mmol = sum(d[c.Y_FGIN + s] for s in range(c.NS))
-    n2o_mmol = d[c.Y_FGIN + c.N2O] + d[c.Y_MAKEUP + c.N2O]
-    released_agent_g = (agent_mmol - d[c.Y_METAB]) / 1000 * mw
-    n2o_g = n2o_mmol / 1000 * gas("nitrous_oxide").molar_mass.to("g/mol").magnitude
-    co2e = (released_agent_g * ag.gwp.get("ar6_gwp100", 0.0) + n2o_g * gas("nitrous_oxide").gwp["ar6_gwp100"]) / 1000
-    co2_l = d[c.Y_CO2ABS] * lpm
-    cap = scenario.circuit.absorbent_capacity.to("L").magnitude  # L CO2 per 100 g
-    totals = {
-        "duration": Q_(duration, "min"),
-        "agent_liquid": Q_(liquid_ml, "mL"),
-        "agent_vapour": Q_(agent_mmol * lpm, "L"),
-        "agent_uptake": Q_(d[c.Y_UPTAKE + c.AGENT] * lpm, "L"),
-        "agent_vented": Q_(d[c.Y_VENT + c.AGENT] * lpm, "L"),
-        "agent_leaked": Q_((d[c.Y_LEAK + c.AGENT] + d[c.Y_SAMPLE + c.AGENT]) * lpm, "L"),
-        "agent_metabolised": Q_(d[c.Y_METAB] * lpm, "L"),
-        "agent_in_circuit": Q_(base[c.P_NC] * y1[c.Y_FC + c.AGENT] * lpm, "L"),
-        "agent_in_lungs": Q_(base[c.P_NL] * y1[c.Y_FA + c.AGENT] * lpm, "L"),
-        "agent_in_body": Q_(body1[c.AGENT] * lpm, "L"),
-        "oxygen": Q_(gas_l[0] * amb * lpm, "L"),
-        "air": Q_(gas_l[1] * amb * lpm, "L"),
-        "nitrous_oxide": Q_(gas_l[2] * amb * lpm, "L"),
-        "nitrous_oxide_mass": Q_(n2o_g, "g"),
-        "oxygen_consumed": Q_(d[c.Y_O2CONS] * lpm, "L"),
-        "co2_absorbed": Q_(co2_l, "L"),
-        "absorbent": Q_(co2_l / cap * 100.0, "g"),
-        "co2e": Q_(co2e, "kg"),
-        "mac_hours": Q_(d[c.Y_MACMIN] / 60.0, "MAC_hour"),
-        "mean_fresh_gas_flow": Q_(fg_mmol / amb / duration, "L/min"),
-        "volume_deficit": Q_(sum(d[c.Y_MAKEUP + s] for s in range(c.NS)) / amb, "L"),
-    }
-    return totals, balance
-
-
-def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray, totals: dict,
-                  warns: list) -> None:
-    t = series["time [min]"].to_numpy()[judged]
-    fio2 = fio2_all[judged]
-    deficit = series["volume_deficit_flow [L/min]"].to_numpy()
-    if totals["volume_deficit"].magnitude > 1e-9:
-        first = t[np.argmax(deficit > 0)] if np.any(deficit > 0) else t[0]
-        warns.append(("VOLUME_DEFICIT",
-                      f"from {first:.0f} min the fresh gas does not cover uptake, leak and unreturned sample gas: "
-                      f"the bag empties ({totals['volume_deficit'].to('L').magnitude:.2f} L short in all); the model "
-                      "made the shortfall good with make-up gas, counted in the totals; raise the fresh-gas flow"))
-    if fio2.min() < 0.21:
-        warns.append(("HYPOXIC_INSPIRED_MIXTURE",
-                      f"inspired O2 falls to {100 * fio2.min():.1f} % at {t[np.argmin(fio2)]:.0f} min: a hypoxic "
-                      "mixture; raise the O2 flow; monitor inspired O2 continuously"))
-    elif fio2.min() < FIO2_ADVISORY:
-        warns.append(("INSPIRED_OXYGEN_LOW",
-                      f"inspired O2 falls to {100 * fio2.min():.1f} % at {t[np.argmin(fio2)]:.0f} min, below the "
-                      f"{100 * FIO2_ADVISORY:.0f} % usually kept at low flow"))

@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 import importlib
+import time
 from collections.abc import Callable
 
 import streamlit as st
 
-from . import state
+from . import state, warmup
 from .common import caution, unit_selectors
 
 #: (module, title, url path, icon); titles follow the naming table of the design notes.
@@ -39,14 +40,23 @@ def frame() -> None:
     state.scenario_sidebar()
 
 
+def stamp(started: float) -> None:
+    """A quiet line at the foot of the sidebar: how long this page took on the server."""
+    ms = 1e3 * (time.perf_counter() - started)
+    st.sidebar.caption(f"Page computed in {ms:.0f} ms on the server (results are cached per input).")
+
+
 def main() -> None:
     """Entry point of ``app.py``: every page through ``st.navigation``."""
+    started = time.perf_counter()
     st.set_page_config(page_title="lowflow estimator", page_icon=":material/air:", layout="wide")
     pages = [st.Page(_renderer(m), title=t, url_path=u, icon=i, default=(k == 0))
              for k, (m, t, u, i) in enumerate(PAGES)]
     nav = st.navigation(pages)
     frame()
     nav.run()
+    stamp(started)
+    warmup.start()  # after the first page is drawn, so it does not compete with it
 
 
 def page_main(module: str) -> None:

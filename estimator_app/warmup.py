@@ -1,6 +1,8 @@
-"""Start loading the engine (numba's compiled kernels) in the background the first time the app runs.
+"""Load the engine (numba's compiled kernels) in the background once the first page is drawn.
 
-The page frame and the planner's inputs are drawn meanwhile, so the first totals come sooner.
+The first change of an input on any page is then answered as fast as later ones. Started after the
+first page, not before it: both would share one interpreter lock, and the first page would come
+later (measured in benchmarks/bench_app.py).
 """
 
 from __future__ import annotations

@@ -265,6 +265,22 @@ def test_methods_page_lists_sourced_values():
     assert any("Mapleson" in m.value for m in at.markdown)
 
 
+def test_methods_page_shows_the_validation_report():
+    # The table is the generated docs/VALIDATION.md, row for row (its own count of checks).
+    import re
+
+    from estimator_app.pages.methods import VALIDATION_REPORT
+
+    at = page("methods")
+    assert_clean(at)
+    text = VALIDATION_REPORT.read_text(encoding="utf-8")
+    count = int(re.search(r"\((\d+) checks", text).group(1))
+    table = next(d.value for d in at.dataframe if "published value" in d.value.columns)
+    assert len(table) == count
+    assert {"quantity", "value computed", "published value", "source", "tolerance", "pass"} <= set(table.columns)
+    assert set(table["pass"]) == {"yes"}
+
+
 def test_demand_forecast_mean_cases_follow_poisson_and_more_cases_raise_demand():
     at = page("demand_forecast")
     assert_clean(at)

@@ -17,7 +17,7 @@ from scipy.integrate import solve_ivp
 
 from estimator import batch, engine, rkc
 from estimator import circuit as c
-from estimator.results import _content
+from estimator.assemble import _content
 from estimator.scenario import scenario_from_dict
 
 #: Agreement target of the batch engine with the single-case engine (see the module docstring).

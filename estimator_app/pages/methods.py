@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pandas as pd
 import streamlit as st
 
@@ -57,6 +59,45 @@ LIMITS = (
 )
 
 
+#: The validation report, generated from the test suite by ``uv run python docs/make_validation.py``.
+VALIDATION_REPORT = Path(__file__).resolve().parents[2] / "docs" / "VALIDATION.md"
+
+
+def validation_table(path: Path = VALIDATION_REPORT) -> tuple[pd.DataFrame, str] | None:
+    """The rows of the generated validation report and its summary line, or None if it is absent.
+
+    Reads the one Markdown table of ``docs/VALIDATION.md`` (written by docs/make_validation.py):
+    quantity, value computed, published value, unit, source, tolerance, pass, test.
+    """
+    try:
+        lines = path.read_text(encoding="utf-8").splitlines()
+    except OSError:
+        return None
+    summary = next((line for line in lines if line.startswith("Generated ")), "")
+    rows = [line for line in lines if line.startswith("| ")]
+    if len(rows) < 2:
+        return None
+
+    def cells(line: str) -> list[str]:
+        parts, cell, escaped = [], "", False
+        for ch in line.strip()[1:-1]:
+            if escaped:
+                cell, escaped = cell + ch, False
+            elif ch == "\\":
+                escaped = True
+            elif ch == "|":
+                parts.append(cell.strip())
+                cell = ""
+            else:
+                cell += ch
+        parts.append(cell.strip())
+        return [p.strip("`") for p in parts]
+
+    header = cells(rows[0])
+    body = [cells(r) for r in rows[1:] if not set(r.replace("|", "").strip()) <= {"-", " "}]
+    return pd.DataFrame([b for b in body if len(b) == len(header)], columns=header), summary
+
+
 def render() -> None:
     st.title("Methods and sources")
     st.caption("What the model computes, where each number comes from, and where the model stops.")
@@ -75,6 +116,19 @@ def render() -> None:
                           placeholder="all species")
     shown = table[table["species"].isin(pick)] if pick else table
     st.dataframe(shown, hide_index=True, width="stretch")
+    st.subheader("Validation")
+    st.caption("Each row is a check in the test suite of a model value against a published table or "
+               "worked example, a standard, a reference library or a fact of the trade "
+               "(docs/VALIDATION.md in the repository).")
+    report = validation_table()
+    if report is None:
+        st.info("The validation report docs/VALIDATION.md is not in this installation; generate it with "
+                "`uv run python docs/make_validation.py`.")
+    else:
+        table, summary = report
+        st.markdown(summary.replace("`", ""))
+        st.dataframe(table.drop(columns=["#"], errors="ignore"), hide_index=True, width="stretch",
+                     key="methods.validation")
     st.subheader("References")
     for ref in REFERENCES:
         st.markdown(f"- {ref}")
