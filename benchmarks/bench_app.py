@@ -20,52 +20,24 @@ import argparse
 import os
 import re
 import shutil
-import socket
 import statistics
-import subprocess
 import sys
 import time
-import urllib.request
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-FLAGS = ["--no-sandbox", "--headless", "--disable-gpu", "--disable-background-networking",
-         "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-quic"]
+sys.path.insert(0, str(ROOT / "tests"))
+import app_server  # noqa: E402  the browser test's server start
+
 FIRST_RENDER_TARGET = 5.0  # s
 RERUN_TARGET = 0.300  # s
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def _start_server() -> tuple[subprocess.Popen, str]:
-    port = _free_port()
-    env = {**os.environ, "STREAMLIT_BROWSER_GATHER_USAGE_STATS": "false"}
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true", "--server.port",
-         str(port), "--server.address", "127.0.0.1", "--server.fileWatcherType", "none"],
-        cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-    url = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 90
-    while time.monotonic() < deadline:
-        try:
-            with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
-                if r.status == 200:
-                    return proc, url
-        except OSError:
-            time.sleep(0.1)
-    proc.kill()
-    raise SystemExit(f"streamlit did not start on {url}")
 
 
 def _one_run(browser) -> tuple[float, float, float, float]:
     """Seconds to the caution and to the totals from the page request, the rerun, and seconds from
     the command (``streamlit run``) to the totals, as a user who starts the app meets them."""
     started = time.monotonic()
-    proc, url = _start_server()
+    proc, url = app_server.start()
     try:
         page = browser.new_page(viewport={"width": 1400, "height": 1800})
         t0 = time.monotonic()
@@ -79,13 +51,11 @@ def _one_run(browser) -> tuple[float, float, float, float]:
         page.close()
         return caution, totals, rerun, command
     finally:
-        proc.terminate()
-        proc.wait(timeout=10)
+        app_server.stop(proc)
 
 
 def _rerun_seconds(page) -> float:
     """Server-side seconds of the rerun after the maintenance O2 flow changes (the app's timing line)."""
-    sys.path.insert(0, str(ROOT / "tests"))
     from test_browser import edit_cell, metric_value  # the browser test's own cell editing
 
     stamp = page.get_by_text(re.compile(r"Page computed in \d+ ms")).first
@@ -113,7 +83,7 @@ def main() -> None:
     # One start first, not counted: it writes numba's on-disk cache if this machine never compiled
     # the kernels (10-20 s once, not what a user meets again).
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=chromium, args=FLAGS, headless=True)
+        browser = p.chromium.launch(executable_path=chromium, args=app_server.FLAGS, headless=True)
         first = _one_run(browser)
         runs = [_one_run(browser) for _ in range(args.runs)]
         browser.close()

@@ -11,19 +11,15 @@ from __future__ import annotations
 import os
 import re
 import shutil
-import socket
-import subprocess
-import sys
 import time
-import urllib.request
 from pathlib import Path
 
+import app_server
 import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 CHROMIUM = shutil.which("chromium")
-FLAGS = ["--no-sandbox", "--headless", "--disable-gpu", "--disable-background-networking",
-         "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-quic"]
+FLAGS = app_server.FLAGS
 #: Generous waits: a cold server imports the engine and loads numba's compiled cache.
 START_TIMEOUT = 90.0
 RENDER_TIMEOUT_MS = 90_000
@@ -36,40 +32,14 @@ if CHROMIUM is None:
     pytest.skip("chromium not installed", allow_module_level=True)
 
 
-def free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
 def server():
-    port = free_port()
-    env = {**os.environ, "STREAMLIT_BROWSER_GATHER_USAGE_STATS": "false"}
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true", "--server.port",
-         str(port), "--server.address", "127.0.0.1", "--server.fileWatcherType", "none"],
-        cwd=ROOT, env=env, stdout=subprocess.PIPE, stderr=subprocess.STDOUT)
-    url = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + START_TIMEOUT
-    while True:
-        try:
-            with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
-                if r.status == 200:
-                    break
-        except OSError:
-            pass
-        if proc.poll() is not None or time.monotonic() > deadline:
-            proc.kill()
-            out = proc.stdout.read().decode(errors="replace") if proc.stdout else ""
-            pytest.fail(f"streamlit did not start on {url}:\n{out[-2000:]}")
-        time.sleep(0.3)
-    yield url
-    proc.terminate()
     try:
-        proc.wait(timeout=10)
-    except subprocess.TimeoutExpired:
-        proc.kill()
+        proc, url = app_server.start(START_TIMEOUT, poll=0.3)
+    except RuntimeError as exc:
+        pytest.fail(str(exc))
+    yield url
+    app_server.stop(proc)
 
 
 @pytest.fixture(scope="module")
