@@ -259,3 +259,39 @@ def write_html(result: AuditResult, path: str | Path, title: str = "Fresh-gas au
     path = Path(path)
     path.write_text(report_html(result, title), encoding="utf-8")
     return path
+
+
+def tables_report_html(title: str, tables: dict[str, pd.DataFrame], *, notes: list[str] | None = None,
+                       warnings: list[tuple[str, str]] | None = None, limit: int = 500) -> str:
+    """A self-contained HTML report of named tables, with the caution and the warnings.
+
+    Every text (title, headings, cells, notes, warnings) is escaped; nothing of the input becomes markup.
+    Tables longer than ``limit`` rows are cut, with a line saying how many rows the CSV/XLSX hold.
+
+    Parameters
+    ----------
+    title : str
+        Heading and document title.
+    tables : dict of str to pandas.DataFrame
+        Section heading to table, in order.
+    notes : list of str, optional
+        Lines shown under the heading (units, references, the scenario's title).
+    warnings : list of (code, message), optional
+        Model warnings, listed in their own section.
+
+    Examples
+    --------
+    >>> page = tables_report_html("Case <1>", {"totals": pd.DataFrame({"q": ["<b>"], "v": [1.0]})})
+    >>> "Case &lt;1&gt;" in page and "&lt;b&gt;" in page and "<b>" not in page
+    True
+    """
+    esc = html.escape
+    sections = "".join(f"<h2>{esc(str(name))}</h2>{_table(frame, limit)}" for name, frame in tables.items())
+    lines = "".join(f"<p>{esc(n)}</p>" for n in notes or ())
+    warn = "".join(f"<li><b>{esc(c)}</b>: {esc(m)}</li>" for c, m in warnings or ())
+    return f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>{esc(title)}</title>
+<style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>{lines}
+<p class="caution">{esc(_caution())}</p>{sections}
+<h2>Warnings</h2><ul>{warn or '<li>None.</li>'}</ul>
+</body></html>"""
+

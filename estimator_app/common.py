@@ -133,8 +133,10 @@ def csv_bytes(frame: pd.DataFrame) -> bytes:
     return safe.to_csv(index=False).encode("utf-8")
 
 
-def downloads(stem: str, sheets: dict[str, pd.DataFrame], document: Any, key: str) -> None:
-    """Download buttons: the first sheet as CSV, all sheets as XLSX, the document as JSON.
+def downloads(stem: str, sheets: dict[str, pd.DataFrame], document: Any, key: str, *, title: str = "",
+              notes: list[str] | None = None, warnings: Any = None) -> None:
+    """Download buttons: the first sheet as CSV, all sheets as XLSX, an HTML report of all sheets
+    (with the caution and the warnings), and the document as JSON.
 
     The files are built only when a button is pressed (deferred data), so reruns stay fast;
     ``document`` may be a callable returning the JSON document.
@@ -149,13 +151,22 @@ def downloads(stem: str, sheets: dict[str, pd.DataFrame], document: Any, key: st
         json.loads(text)  # a malformed document is a bug: fail here, not in the user's tools
         return text.encode("utf-8")
 
-    c1, c2, c3 = st.columns(3)
+    def as_html() -> bytes:
+        from estimator.exports import tables_report_html
+
+        items = [(w["code"], w["message"]) if isinstance(w, dict) else tuple(w) for w in warnings or ()]
+        return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes,
+                                  warnings=items).encode("utf-8")
+
+    c1, c2, c3, c4 = st.columns(4)
     c1.download_button("Download CSV", lambda: csv_bytes(first), f"{stem}.csv", "text/csv", key=f"{key}.csv",
                        icon=":material/table_view:", width="stretch", on_click="ignore")
     c2.download_button("Download XLSX", lambda: xlsx_bytes(sheets), f"{stem}.xlsx",
                        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key=f"{key}.xlsx",
                        icon=":material/grid_on:", width="stretch", on_click="ignore")
-    c3.download_button("Download JSON", as_json, f"{stem}.json", "application/json",
+    c3.download_button("Report (HTML)", as_html, f"{stem}.html", "text/html", key=f"{key}.html",
+                       icon=":material/description:", width="stretch", on_click="ignore")
+    c4.download_button("Download JSON", as_json, f"{stem}.json", "application/json",
                        key=f"{key}.json", icon=":material/data_object:", width="stretch", on_click="ignore")
 
 

@@ -337,3 +337,14 @@ def test_chart_specs_follow_the_vega_lite_schema():
         validate_jsonschema(spec, load_schema())
         assert spec["layer"][0]["encoding"]["x"]["title"] == "time [min]"
     bars(pd.DataFrame({"k": ["x"], "v": [1.0]}), "k", "v", "kind", "value [mL]").to_dict()  # altair validates
+
+
+@pytest.mark.parametrize("name", ["case_planner", "flow_floor", "supply_duration", "demand_forecast",
+                                  "site_flowmeter", "methods"])
+def test_every_page_offers_csv_xlsx_html_and_json(name):
+    # Issue contract: results download as CSV, XLSX, JSON and an HTML report on every page (the
+    # audit page has its own four, tested above).
+    at = page(name)
+    assert_clean(at)
+    labels = {b.label for b in at.get("download_button")}
+    assert {"Download CSV", "Download XLSX", "Report (HTML)", "Download JSON"} <= labels, labels

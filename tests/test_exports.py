@@ -81,3 +81,25 @@ def test_report_shows_counterfactual_when_present(injected):
                      "policy": {k: {"magnitude": 1.0} for k in ("agent_liquid", "fresh_gas", "co2e")}}}
     text = report_html(dataclasses.replace(injected, counterfactual=cf))
     assert "Counterfactual: &lt;i&gt;policy&lt;/i&gt;" in text
+
+
+def test_tables_report_escapes_everything_and_carries_the_caution():
+    # OWASP XSS prevention (output encoding): no text of the input may become markup.
+    import pandas as pd
+
+    from estimator.caution import CAUTION
+    from estimator.exports import tables_report_html
+
+    evil = '<script>alert(1)</script>'
+    page = tables_report_html(evil, {evil: pd.DataFrame({evil: [evil], "v": [1.5]})}, notes=[evil],
+                              warnings=[(evil, evil)])
+    assert "<script>" not in page
+    # <title> and <h1>, the note, the section heading, the column, the cell, the warning code and text
+    assert page.count("&lt;script&gt;") == 8
+    assert html_text(CAUTION) in page
+
+
+def html_text(text: str) -> str:
+    import html
+
+    return html.escape(text)

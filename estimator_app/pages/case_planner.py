@@ -250,7 +250,11 @@ def outputs(result: Any, doc: dict[str, Any]) -> None:
         return {**result.to_json(), "cost": cost}
 
     st.subheader("Download the results")
-    downloads("case_result", {"series": result.series, "totals": totals, "phases": phases}, document, "case")
+    downloads("case_result", {"series": result.series, "totals": totals, "phases": phases}, document, "case",
+              title=f"Case plan: {result.scenario.title or result.scenario.agent.name}",
+              notes=[f"Agent: {result.scenario.agent.name}. Gas volumes: {GAS_VOLUME_REFERENCE}.",
+                     "Series flows are ambient litres at the site, as a flowmeter shows them."],
+              warnings=result.warnings)
 
 
 def render() -> None:

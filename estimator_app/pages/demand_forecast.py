@@ -187,7 +187,9 @@ def outputs(result: Any) -> None:
     st.subheader("Warnings")
     show_warnings(result.warnings, empty="No forecast warnings.")
     weekly = pd.DataFrame({"week": range(1, result.weeks + 1), **{k: v for k, v in result.weekly.items()}})
-    downloads("demand_forecast", {"items": items, "orders": orders, "weekly": weekly}, result.to_json, "forecast")
+    downloads("demand_forecast", {"items": items, "orders": orders, "weekly": weekly}, result.to_json, "forecast",
+              title="Demand forecast", notes=[f"{result.weeks} simulated weeks. Gas volumes: {GAS_VOLUME_REFERENCE}."],
+              warnings=result.warnings)
 
 
 def render() -> None:

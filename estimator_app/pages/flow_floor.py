@@ -141,4 +141,6 @@ def render() -> None:
     grid = pd.DataFrame([{"time [min]": g["time"].to("min").magnitude,
                           f"floor [{fu}]": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
                           "binding": g["binding"]} for g in result.grid])
-    downloads("flow_floor", {"phases": table, "grid": grid}, result.to_json, "floor")
+    downloads("flow_floor", {"phases": table, "grid": grid}, result.to_json, "floor", title="Flow floor",
+              notes=[f"Flows in {fu}: the lowest total fresh-gas flow that keeps every limit, per phase and "
+                     "over time.", f"Gas volumes: {GAS_VOLUME_REFERENCE}."], warnings=result.warnings)

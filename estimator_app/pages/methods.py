@@ -132,4 +132,6 @@ def render() -> None:
     st.subheader("References")
     for ref in REFERENCES:
         st.markdown(f"- {ref}")
-    downloads("sourced_values", {"values": table}, {"values": table.to_dict("records")}, "methods")
+    downloads("sourced_values", {"values": table}, {"values": table.to_dict("records")}, "methods",
+              title="Sourced values", notes=["Confidence: " + "; ".join(f"{k} {v}" for k, v in
+                                                                         CONFIDENCE_CODES.items())])

@@ -139,4 +139,5 @@ def render() -> None:
     doc = {"site": {"ambient_pressure": site.ambient_pressure, "temperature": site.temperature,
                     "elevation": site.elevation, "basis": site.basis},
            "flowmeter": fm, "vaporizer": vap, "gas_volume_reference": GAS_VOLUME_REFERENCE}
-    downloads("site_and_flowmeter", {"flowmeter_sweep": sweep}, doc, "site")
+    downloads("site_and_flowmeter", {"flowmeter_sweep": sweep}, doc, "site", title="Site and flowmeter",
+              notes=[f"Gas volumes: {GAS_VOLUME_REFERENCE}."], warnings=site.warnings)

@@ -230,7 +230,8 @@ def outputs(report: Any) -> None:
         show(chart)
     st.subheader("Warnings")
     show_warnings(report.warnings, empty="No supply warnings.")
-    downloads("supply_duration", {"items": items, "depletion": dep.reset_index()}, report.to_json, "supply")
+    downloads("supply_duration", {"items": items, "depletion": dep.reset_index()}, report.to_json, "supply",
+              title="Supply duration", notes=[f"Gas volumes: {GAS_VOLUME_REFERENCE}."], warnings=report.warnings)
 
 
 def render() -> None:
