@@ -348,3 +348,26 @@ def test_every_page_offers_csv_xlsx_html_and_json(name):
     assert_clean(at)
     labels = {b.label for b in at.get("download_button")}
     assert {"Download CSV", "Download XLSX", "Report (HTML)", "Download JSON"} <= labels, labels
+
+
+def test_demand_forecast_draws_a_progress_bar_while_it_runs(monkeypatch):
+    # Issue contract: the Monte Carlo shows a progress bar. The batch engine's progress callback
+    # (estimator.forecast.forecast(progress=...)) drives it; it ends at 100 % and is then cleared.
+    import estimator_app.pages.demand_forecast as page_module
+
+    seen = []
+    real = page_module.run_forecast
+
+    def spy(mix_text, scenario_text, progress=None):
+        def wrapped(fraction):
+            seen.append(fraction)
+            progress(fraction)
+
+        return real(mix_text + "\n# progress test\n", scenario_text, progress=wrapped)
+
+    monkeypatch.setattr(page_module, "run_forecast", spy)
+    page_module._kept().clear()
+    at = page("demand_forecast")
+    assert_clean(at)
+    assert seen and seen[-1] == 1.0 and all(b >= a for a, b in zip(seen, seen[1:], strict=False))
+    assert metric(at, "Cases a week (mean)")

@@ -5,7 +5,10 @@ from __future__ import annotations
 import importlib.util
 import math
 import tempfile
+import threading
 import tomllib
+from collections import OrderedDict
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -94,8 +97,17 @@ def case_types(frame: pd.DataFrame, ff: float, mu: str) -> list[dict[str, Any]]:
     return out
 
 
-@st.cache_data(max_entries=16, show_spinner="Simulating the weeks (every case through the batch engine)...")
-def run_forecast(mix_text: str, scenario_text: str) -> Any:
+#: Forecasts kept per server (the case mix and the planner's scenario as TOML text are the key).
+MAX_KEPT = 16
+_LOCK = threading.Lock()
+
+
+@st.cache_resource
+def _kept() -> OrderedDict[tuple[str, str], Any]:
+    return OrderedDict()
+
+
+def run_forecast(mix_text: str, scenario_text: str, progress: Callable[[float], None] | None = None) -> Any:
     """Forecast of a case mix; every scenario file it names is the planner's case."""
     from estimator.casemix import casemix_from_dict
     from estimator.forecast import forecast
@@ -107,7 +119,37 @@ def run_forecast(mix_text: str, scenario_text: str) -> Any:
                 target = Path(tmp) / Path(str(c["scenario"])).name
                 target.write_text(scenario_text, encoding="utf-8")
                 c["scenario"] = target.name
-        return forecast(casemix_from_dict(data, base_dir=tmp))
+        return forecast(casemix_from_dict(data, base_dir=tmp), progress=progress)
+
+
+def cached_forecast(mix_text: str, scenario_text: str) -> Any:
+    """The forecast from the server's store, or computed with a progress bar and kept.
+
+    Not ``st.cache_data``: a cached function cannot draw the progress bar of its own run.
+    """
+    store, key = _kept(), (mix_text, scenario_text)
+    with _LOCK:
+        if key in store:
+            store.move_to_end(key)
+            return store[key]
+    bar = st.progress(0.0, text="Simulating the weeks: every case through the batch engine")
+    shown = [-1]
+
+    def report(fraction: float) -> None:
+        percent = int(100 * min(max(fraction, 0.0), 1.0))
+        if percent != shown[0]:  # one message per percent, not per batch step
+            shown[0] = percent
+            bar.progress(percent / 100, text=f"Simulating the weeks: {percent} % of the cases")
+
+    try:
+        result = run_forecast(mix_text, scenario_text, progress=report)
+    finally:
+        bar.empty()
+    with _LOCK:
+        store[key] = result
+        while len(store) > MAX_KEPT:
+            store.popitem(last=False)
+    return result
 
 
 def _upload() -> None:
@@ -204,7 +246,7 @@ def render() -> None:
     try:
         doc = inputs()
         text = tomli_w.dumps(doc)
-        result = run_forecast(text, state.toml_text())
+        result = cached_forecast(text, state.toml_text())
     except InputError as exc:
         show_error(exc)
         return
