@@ -21,7 +21,6 @@ import types
 from pathlib import Path
 
 import numpy as np
-from scipy.integrate import solve_ivp
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
@@ -55,33 +54,6 @@ def plain_python_model() -> types.ModuleType:
     return module
 
 
-def solve_with(model, sc, method: str, rtol: float, atol: float):
-    """Integrate every phase with scipy; returns end-tidal agent series and final state."""
-    patient = engine.patient_from_scenario(sc)
-    site = engine.site_state(sc)
-    base = engine.base_parameters(sc, patient, site)
-    y = engine.initial_state(sc, base, site)
-    w = np.empty(c.NW)
-    t0 = 0.0
-    series = []
-    for ph in sc.phases:
-        p = engine.phase_parameters(base, sc, ph, site)
-        dur = ph.duration.to("min").magnitude
-        times = engine.phase_times(t0, dur, sc.output.interval.to("min").magnitude)
-
-        def f(t, yy, p=p):
-            out = np.empty(c.NY)
-            model.rhs(yy, p, w, out)
-            return out
-
-        sol = solve_ivp(f, (t0, t0 + dur), y, method=method, t_eval=times, rtol=rtol,
-                        atol=atol * np.maximum(1.0, np.abs(y)))
-        series.append(c.derived_series(np.ascontiguousarray(sol.y.T), p))
-        y = sol.y[:, -1].copy()
-        t0 += dur
-    return np.concatenate(series), y
-
-
 def main() -> None:
     sc = scenario_from_dict(CASE)
     engine.simulate(sc)  # load the compiled kernel
@@ -92,7 +64,7 @@ def main() -> None:
         times.append(time.perf_counter() - t)
     median = statistics.median(times)
 
-    ref_series, ref_y = solve_with(c, sc, "DOP853", 1e-12, 1e-14)
+    ref_series, ref_y = engine.reference_solve(sc, method="DOP853", rtol=1e-12, atol=1e-14)
     ours_et = result.series["end_tidal_agent [%]"].to_numpy() / 100
     ours_fio2 = result.series["inspired_oxygen [%]"].to_numpy() / 100
     dev_series = max(
@@ -108,7 +80,7 @@ def main() -> None:
 
     plain = plain_python_model()
     t = time.perf_counter()
-    solve_with(plain, sc, "RK45", 1e-6, 1e-9)
+    engine.reference_solve(sc, method="RK45", rtol=1e-6, atol=1e-9, model=plain)
     t_plain = time.perf_counter() - t
 
     print(f"case: {CASE['title']}")

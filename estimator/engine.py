@@ -320,6 +320,66 @@ def simulate(scenario: Scenario, *, rtol: float = RTOL, patient: Patient | None 
     return result
 
 
+def reference_solve(scenario: Scenario, *, method: str = "DOP853", rtol: float = 1e-12, atol: float = 1e-14,
+                    model: Any = None) -> tuple[np.ndarray, np.ndarray]:
+    """The same model integrated phase by phase with :func:`scipy.integrate.solve_ivp`, for checks.
+
+    The engine's own integrator is checked against this (tests and benchmarks/bench_case.py), and a
+    plain-Python copy of the kernel passed as ``model`` gives the speed reference.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    method : str
+        A ``solve_ivp`` method (default ``"DOP853"``, Hairer's 8th-order Dormand-Prince).
+    rtol, atol : float
+        Tolerances; ``atol`` is scaled by ``max(1, |y0|)`` per state entry.
+    model : module, optional
+        Provides ``rhs(y, p, w, dy)`` (default :mod:`estimator.circuit`).
+
+    Returns
+    -------
+    derived : numpy.ndarray
+        Derived flows and fractions at the output times (rows as in ``CaseResult.series``; the ``W_*``
+        layout of :mod:`estimator.circuit`).
+    y_end : numpy.ndarray
+        The final state.
+
+    References
+    ----------
+    Virtanen P et al. SciPy 1.0. Nat Methods 2020;17:261-72. Hairer E, Norsett SP, Wanner G. Solving
+    Ordinary Differential Equations I, 2nd ed. Springer 1993 (DOP853).
+    """
+    from scipy.integrate import solve_ivp
+
+    model = c if model is None else model
+    patient = patient_from_scenario(scenario)
+    site = site_state(scenario)
+    base = base_parameters(scenario, patient, site)
+    y = initial_state(scenario, base, site)
+    w = np.empty(c.NW)
+    interval = scenario.output.interval.to("min").magnitude
+    t0, derived = 0.0, []
+    for phase in scenario.phases:
+        dur = phase.duration.to("min").magnitude
+        if dur <= 0.0:
+            continue
+        p = phase_parameters(base, scenario, phase, site)
+        times = phase_times(t0, dur, interval)
+
+        def f(t: float, yy: np.ndarray, p: np.ndarray = p) -> np.ndarray:
+            out = np.empty(c.NY)
+            model.rhs(yy, p, w, out)
+            return out
+
+        sol = solve_ivp(f, (t0, t0 + dur), y, method=method, t_eval=times, rtol=rtol,
+                        atol=atol * np.maximum(1.0, np.abs(y)))
+        derived.append(c.derived_series(np.ascontiguousarray(sol.y.T), p))
+        y = sol.y[:, -1].copy()
+        t0 += dur
+    return np.concatenate(derived), y
+
+
 def patient_from_scenario(scenario: Scenario) -> Patient:
     """Brody-scaled patient with the scenario's overrides."""
     pt = scenario.patient

@@ -237,8 +237,6 @@ def test_volume_deficit_is_flagged_and_counted():
 def test_reference_solve_agrees_to_1e6():
     # Numerical check against scipy's DOP853 at rtol 1e-12 on the same right-hand side (scipy is the
     # reference library; the series and totals must agree within 1e-6 relative).
-    from scipy.integrate import solve_ivp
-
     from estimator import engine
 
     sc = scenario("sevoflurane", [
@@ -246,31 +244,8 @@ def test_reference_solve_agrees_to_1e6():
         {"duration": "50 min", "oxygen": "0.5 L/min", "end_tidal_target": "1 MAC"},
     ])
     ours = simulate(sc)
-    patient = engine.patient_from_scenario(sc)
-    site = engine.site_state(sc)
-    base = engine.base_parameters(sc, patient, site)
-    y = engine.initial_state(sc, base, site)
-    w = np.empty(c.NW)
-    t0 = 0.0
-    ref_et, ref_y = [], None
-    for ph in sc.phases:
-        p = engine.phase_parameters(base, sc, ph, site)
-        dur = ph.duration.to("min").magnitude
-        times = engine.phase_times(t0, dur, 1.0)
-
-        def f(t, yy, p=p):
-            out = np.empty(c.NY)
-            c.rhs(yy, p, w, out)
-            return out
-
-        sol = solve_ivp(f, (t0, t0 + dur), y, method="DOP853", t_eval=times, rtol=1e-12,
-                        atol=1e-14 * np.maximum(1.0, np.abs(y)))
-        d = c.derived_series(sol.y.T.copy(), p)
-        ref_et.append(d[:, c.W_FET + c.AGENT])
-        y = sol.y[:, -1].copy()
-        t0 += dur
-        ref_y = y
-    ref_et = np.concatenate(ref_et) * 100
+    derived, ref_y = engine.reference_solve(sc, method="DOP853", rtol=1e-12, atol=1e-14)
+    ref_et = derived[:, c.W_FET + c.AGENT] * 100
     np.testing.assert_allclose(ours.series["end_tidal_agent [%]"].to_numpy(), ref_et, rtol=1e-6, atol=1e-9)
     agent_ref = ref_y[c.Y_FGIN + c.AGENT]
     from estimator.results import litres_per_mmol
