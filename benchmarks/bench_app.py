@@ -91,15 +91,22 @@ def main() -> None:
     print(f"first start (not counted): caution {first[0]:5.2f} s, totals {first[1]:5.2f} s")
     print(f"cold servers: {args.runs}, {os.cpu_count()} cores")
     for k, (a, b, c, d) in enumerate(runs, 1):
-        print(f"  run {k}: caution {a:5.2f} s, totals {b:5.2f} s (from the command {d:5.2f} s), "
-              f"rerun {1e3 * c:5.0f} ms")
-    print(f"first render to caution  median {caution:5.2f} s  target <= {FIRST_RENDER_TARGET:g} s  "
-          f"ratio to target {caution / FIRST_RENDER_TARGET:5.2f}")
-    print(f"first render to totals   median {totals:5.2f} s  target <= {FIRST_RENDER_TARGET:g} s  "
-          f"ratio to target {totals / FIRST_RENDER_TARGET:5.2f}")
+        print(
+            f"  run {k}: caution {a:5.2f} s, totals {b:5.2f} s (from the command {d:5.2f} s), rerun {1e3 * c:5.0f} ms"
+        )
+    print(
+        f"first render to caution  median {caution:5.2f} s  target <= {FIRST_RENDER_TARGET:g} s  "
+        f"ratio to target {caution / FIRST_RENDER_TARGET:5.2f}"
+    )
+    print(
+        f"first render to totals   median {totals:5.2f} s  target <= {FIRST_RENDER_TARGET:g} s  "
+        f"ratio to target {totals / FIRST_RENDER_TARGET:5.2f}"
+    )
     print(f"command to totals        median {command:5.2f} s  (server start included; for information)")
-    print(f"rerun after one input    median {1e3 * rerun:5.0f} ms target <= {1e3 * RERUN_TARGET:g} ms "
-          f"ratio to target {rerun / RERUN_TARGET:5.2f}")
+    print(
+        f"rerun after one input    median {1e3 * rerun:5.0f} ms target <= {1e3 * RERUN_TARGET:g} ms "
+        f"ratio to target {rerun / RERUN_TARGET:5.2f}"
+    )
 
 
 if __name__ == "__main__":

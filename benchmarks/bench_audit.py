@@ -34,19 +34,21 @@ def synthetic_log(rows: int = 1_000_000, per_case: int = 200, seed: int = 7) -> 
     wash = k < 20
     fgf = np.where(wash, 6.0, rng.choice([0.5, 1.0, 2.0], n_cases)[case])
     base = pd.Series(agents).map(dial).to_numpy()
-    return pd.DataFrame({
-        "case_id": np.char.add("S", case.astype(str)),
-        "time": stamp.astype(str),
-        "oxygen_flow": np.round(fgf * 0.5, 3),
-        "air_flow": np.round(fgf * 0.5, 3),
-        "nitrous_oxide_flow": 0.0,
-        "agent": agents,
-        "vaporizer_setting": np.round(100 * base * np.where(wash, 1.5, 1.1), 3),
-        "end_tidal_agent": np.round(100 * base * np.where(wash, 0.5, 0.85), 3),
-        "room": np.array(["North 1", "North 2", "South 1", "South 2"])[case % 4],
-        "patient_age": (30 + case % 50).astype(float),
-        "patient_weight": 70.0,
-    })
+    return pd.DataFrame(
+        {
+            "case_id": np.char.add("S", case.astype(str)),
+            "time": stamp.astype(str),
+            "oxygen_flow": np.round(fgf * 0.5, 3),
+            "air_flow": np.round(fgf * 0.5, 3),
+            "nitrous_oxide_flow": 0.0,
+            "agent": agents,
+            "vaporizer_setting": np.round(100 * base * np.where(wash, 1.5, 1.1), 3),
+            "end_tidal_agent": np.round(100 * base * np.where(wash, 0.5, 0.85), 3),
+            "room": np.array(["North 1", "North 2", "South 1", "South 2"])[case % 4],
+            "patient_age": (30 + case % 50).astype(float),
+            "patient_weight": 70.0,
+        }
+    )
 
 
 def main(rows: int = 1_000_000) -> float:

@@ -59,10 +59,8 @@ def cold_first_call() -> float:
     """First-call time in a fresh process with an empty numba cache: a full compile [s]."""
     here = Path(__file__).resolve().parent
     with tempfile.TemporaryDirectory() as cache:
-        env = {**os.environ, "NUMBA_CACHE_DIR": cache,
-               "PYTHONPATH": os.pathsep.join([str(here.parent), str(here)])}
-        run = subprocess.run([sys.executable, "-c", FIRST_CALL], env=env, capture_output=True, text=True,
-                             check=True)
+        env = {**os.environ, "NUMBA_CACHE_DIR": cache, "PYTHONPATH": os.pathsep.join([str(here.parent), str(here)])}
+        run = subprocess.run([sys.executable, "-c", FIRST_CALL], env=env, capture_output=True, text=True, check=True)
     return float(run.stdout.strip().splitlines()[-1])
 
 
@@ -112,18 +110,27 @@ def main() -> None:
     tracemalloc.stop()
     growth = peak_rss_mb() - rss0
 
-    print("case: 4 h, 10 min at 6 L/min then 0.5 L/min O2/air, end-tidal hold 1 MAC sevoflurane, "
-          "weights N(75, 15) kg in 40-140 kg")
+    print(
+        "case: 4 h, 10 min at 6 L/min then 0.5 L/min O2/air, end-tidal hold 1 MAC sevoflurane, "
+        "weights N(75, 15) kg in 40-140 kg"
+    )
     print(f"first call, fresh numba cache       {cold_first_call():8.2f} s   (compiles the model and the kernel)")
     print(f"first call, warm numba cache        {t_first:8.2f} s   (loads them from the cache)")
-    print(f"10,000 cases                        {t_batch:8.3f} s   target <= 2 s    ratio to target "
-          f"{t_batch / 2.0:6.3f}")
-    print(f"per case                            {1e3 * per_case:8.3f} ms  "
-          f"({np.mean(out['evaluations']):.0f} right-hand-side evaluations, {np.mean(out['steps']):.0f} steps)")
-    print(f"solve_ivp LSODA plain Python        {1e3 * t_lsoda:8.1f} ms per case   speed-up "
-          f"{t_lsoda / per_case:8.0f}x   target >= 250x")
-    print(f"100,000 cases                       {t_big:8.2f} s   peak RSS growth {growth:7.1f} MB, traced "
-          f"peak {traced / 2**20:6.1f} MB   target <= 1024 MB")
+    print(
+        f"10,000 cases                        {t_batch:8.3f} s   target <= 2 s    ratio to target {t_batch / 2.0:6.3f}"
+    )
+    print(
+        f"per case                            {1e3 * per_case:8.3f} ms  "
+        f"({np.mean(out['evaluations']):.0f} right-hand-side evaluations, {np.mean(out['steps']):.0f} steps)"
+    )
+    print(
+        f"solve_ivp LSODA plain Python        {1e3 * t_lsoda:8.1f} ms per case   speed-up "
+        f"{t_lsoda / per_case:8.0f}x   target >= 250x"
+    )
+    print(
+        f"100,000 cases                       {t_big:8.2f} s   peak RSS growth {growth:7.1f} MB, traced "
+        f"peak {traced / 2**20:6.1f} MB   target <= 1024 MB"
+    )
     print(f"max rel. deviation of totals from the single-case engine {dev:9.2e}   target <= 1e-3")
 
 

@@ -46,7 +46,7 @@ def plain_python_model() -> types.ModuleType:
     spec = importlib.util.spec_from_file_location("circuit_plain", c.__file__)
     module = importlib.util.module_from_spec(spec)
     real = numba.njit
-    numba.njit = lambda *a, **k: (lambda f: f)  # noqa: E731
+    numba.njit = lambda *a, **k: lambda f: f  # noqa: E731
     try:
         spec.loader.exec_module(module)
     finally:
@@ -68,15 +68,19 @@ def main() -> None:
     ours_et = result.series["end_tidal_agent [%]"].to_numpy() / 100
     ours_fio2 = result.series["inspired_oxygen [%]"].to_numpy() / 100
     dev_series = max(
-        np.max(np.abs(ours_et - ref_series[:, c.W_FET + c.AGENT]) / np.abs(ref_series[:, c.W_FET + c.AGENT]).clip(1e-6)),
+        np.max(
+            np.abs(ours_et - ref_series[:, c.W_FET + c.AGENT]) / np.abs(ref_series[:, c.W_FET + c.AGENT]).clip(1e-6)
+        ),
         np.max(np.abs(ours_fio2 - ref_series[:, c.W_FI + c.O2]) / ref_series[:, c.W_FI + c.O2]),
     )
     from estimator.results import litres_per_mmol
 
     ref_vapour = ref_y[c.Y_FGIN + c.AGENT] * litres_per_mmol()
     ref_co2 = ref_y[c.Y_CO2ABS] * litres_per_mmol()
-    dev_totals = max(abs(result.totals["agent_vapour"].to("L").magnitude / ref_vapour - 1),
-                     abs(result.totals["co2_absorbed"].to("L").magnitude / ref_co2 - 1))
+    dev_totals = max(
+        abs(result.totals["agent_vapour"].to("L").magnitude / ref_vapour - 1),
+        abs(result.totals["co2_absorbed"].to("L").magnitude / ref_co2 - 1),
+    )
 
     plain = plain_python_model()
     t = time.perf_counter()
@@ -84,7 +88,9 @@ def main() -> None:
     t_plain = time.perf_counter() - t
 
     print(f"case: {CASE['title']}")
-    print(f"engine median time          {1e3 * median:8.2f} ms   target <= 20 ms   ratio to target {median / 0.020:6.3f}")
+    print(
+        f"engine median time          {1e3 * median:8.2f} ms   target <= 20 ms   ratio to target {median / 0.020:6.3f}"
+    )
     print(f"max rel. deviation, series  {dev_series:10.2e}   target <= 1e-6   ratio to target {dev_series / 1e-6:6.3f}")
     print(f"max rel. deviation, totals  {dev_totals:10.2e}   target <= 1e-6   ratio to target {dev_totals / 1e-6:6.3f}")
     print(f"solve_ivp RK45 plain Python {1e3 * t_plain:8.1f} ms   speed-up {t_plain / median:7.1f}x   target >= 8x")

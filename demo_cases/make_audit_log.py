@@ -25,9 +25,21 @@ import numpy as np
 OUT = Path(__file__).resolve().parent / "kestrel_audit_log.csv"
 SEED = 2026
 ZONE = timezone(timedelta(hours=10))  # the invented island's time zone
-HEADER = ["case_id", "time", "oxygen_flow [L/min]", "air_flow [L/min]", "nitrous_oxide_flow [L/min]", "agent",
-          "vaporizer_setting [%]", "end_tidal_agent [%]", "inspired_oxygen [%]", "room", "patient_weight [kg]",
-          "patient_age [year]", "note"]
+HEADER = [
+    "case_id",
+    "time",
+    "oxygen_flow [L/min]",
+    "air_flow [L/min]",
+    "nitrous_oxide_flow [L/min]",
+    "agent",
+    "vaporizer_setting [%]",
+    "end_tidal_agent [%]",
+    "inspired_oxygen [%]",
+    "room",
+    "patient_weight [kg]",
+    "patient_age [year]",
+    "note",
+]
 #: The file says what it is in its own column (the audit ignores columns it does not know).
 NOTE = "invented demo log: Kestrel Island District Hospital is not a real hospital and no case is real"
 ROOMS = ("Theatre Osprey", "Theatre Tern")
@@ -70,8 +82,23 @@ def _case_rows(rng: np.random.Generator, case_id: str, start: datetime, room: st
         fio2 = 100 * (0.5 + 0.5 * (o2 / total - 0.5)) if total >= 3 else 100 * (o2 / total - 0.12 / total)
         fio2 = max(30.0 if nitrous else 25.0, fio2)
         when = (start + timedelta(minutes=float(t))).isoformat(timespec="seconds")
-        rows.append([case_id, when, f"{o2:.2f}", f"{air:.2f}", f"{n2o:.2f}", agent, f"{dial:.1f}", f"{et:.2f}",
-                     f"{fio2:.0f}", room, f"{weight:.0f}", f"{age:.0f}", ""])
+        rows.append(
+            [
+                case_id,
+                when,
+                f"{o2:.2f}",
+                f"{air:.2f}",
+                f"{n2o:.2f}",
+                agent,
+                f"{dial:.1f}",
+                f"{et:.2f}",
+                f"{fio2:.0f}",
+                room,
+                f"{weight:.0f}",
+                f"{age:.0f}",
+                "",
+            ]
+        )
     return rows, length
 
 
@@ -92,9 +119,9 @@ def make_log(seed: int = SEED, weeks: int = 13) -> list[list[str]]:
                     rows += case_rows
                     clock += timedelta(minutes=length + float(rng.uniform(20, 40)))
     # Faults on purpose, each in a different case: the audit must reject the row and say why.
-    rows[40][2] = "-0.40"          # a negative oxygen flow
-    rows[400][5] = "sevoflurene"   # a misspelt agent
-    rows[800][1] = "later"         # a time that is not a time
+    rows[40][2] = "-0.40"  # a negative oxygen flow
+    rows[400][5] = "sevoflurene"  # a misspelt agent
+    rows[800][1] = "later"  # a time that is not a time
     rows[0][-1] = NOTE
     return rows
 

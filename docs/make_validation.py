@@ -89,10 +89,23 @@ def render(rows: list[dict], when: str, command: str = COMMAND) -> str:
     ]
     for i, r in enumerate(rows, start=1):
         test = r.get("test", "")
-        lines.append("| " + " | ".join([
-            str(i), _cell(r["quantity"]), _cell(r["computed"]), _cell(r["published"]), _cell(r.get("unit") or ""),
-            _cell(r["source"]), _cell(r["tolerance"]), _cell(bool(r["passed"])), f"`{_cell(test)}`" if test else "",
-        ]) + " |")
+        lines.append(
+            "| "
+            + " | ".join(
+                [
+                    str(i),
+                    _cell(r["quantity"]),
+                    _cell(r["computed"]),
+                    _cell(r["published"]),
+                    _cell(r.get("unit") or ""),
+                    _cell(r["source"]),
+                    _cell(r["tolerance"]),
+                    _cell(bool(r["passed"])),
+                    f"`{_cell(test)}`" if test else "",
+                ]
+            )
+            + " |"
+        )
     return "\n".join(lines) + "\n"
 
 

@@ -24,8 +24,14 @@ if TYPE_CHECKING:
     from .physiology import Patient
     from .scenario import Scenario
 
-_NAMES = {c.O2: "oxygen", c.CO2: "carbon_dioxide", c.N2: "nitrogen", c.N2O: "nitrous_oxide",
-          c.AGENT: "agent", c.AR: "argon"}
+_NAMES = {
+    c.O2: "oxygen",
+    c.CO2: "carbon_dioxide",
+    c.N2: "nitrogen",
+    c.N2O: "nitrous_oxide",
+    c.AGENT: "agent",
+    c.AR: "argon",
+}
 
 
 def _content(y: np.ndarray, base: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -42,14 +48,14 @@ def _content(y: np.ndarray, base: np.ndarray) -> tuple[np.ndarray, np.ndarray, n
     return circ, lung, body
 
 
-def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np.ndarray,
-                 chunks: list) -> CaseResult:
+def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np.ndarray, chunks: list) -> CaseResult:
     """Assemble totals, series and warnings from the integrated phases."""
     amb = site.ambient_pressure_kpa / (8.314462618 * site.temperature_k) * 1000.0  # mmol / ambient L
     lpm = litres_per_mmol()
     ag = agent_properties(scenario.agent.name)
-    kind_bypass = (scenario.agent.vaporizer_type or
-                   ("heated_pressurised" if ag.name == "desflurane" else "variable_bypass")) == "variable_bypass"
+    kind_bypass = (
+        scenario.agent.vaporizer_type or ("heated_pressurised" if ag.name == "desflurane" else "variable_bypass")
+    ) == "variable_bypass"
     from .mac import parse_age
 
     frames, phases, warns = [], [], list(patient.warnings) + parse_age(patient.age)[1] + list(site.warnings)
@@ -97,8 +103,12 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
         cols["co2_to_absorbent [mL/min]"] = 1000 * lpm * ws[:, c.W_CO2ABS]
         df = cols
         frames.append(df)
-        info: dict[str, Any] = {"index": index, "start": Q_(times[0], "min"), "end": Q_(times[-1], "min"),
-                                "mode": "end_tidal_hold" if hold else "vaporizer"}
+        info: dict[str, Any] = {
+            "index": index,
+            "start": Q_(times[0], "min"),
+            "end": Q_(times[-1], "min"),
+            "mode": "end_tidal_hold" if hold else "vaporizer",
+        }
         if hold:
             info.update(_hold_report(index, times, ws, p, warns))
         phases.append(info)
@@ -113,18 +123,37 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
     if site.ambient_pressure_kpa < 101.325 - 1e-6:
         from .site import check_inspired_oxygen
 
-        warns += [(code, msg) for code, msg in check_inspired_oxygen(fio2[judged], FIO2_ADVISORY,
-                                                                               Q_(site.ambient_pressure_kpa, "kPa"))]
+        warns += [
+            (code, msg)
+            for code, msg in check_inspired_oxygen(fio2[judged], FIO2_ADVISORY, Q_(site.ambient_pressure_kpa, "kPa"))
+        ]
     if scenario.site.flowmeter_readings:
-        warns.append(("FLOWMETER_ACCURACY", "phase flows are flowmeter readings converted to true flows; a "
-                      "calibrated tube reads to about +-2.5 % (common practice, no source), so gas totals carry "
-                      "that band"))
+        warns.append(
+            (
+                "FLOWMETER_ACCURACY",
+                "phase flows are flowmeter readings converted to true flows; a "
+                "calibrated tube reads to about +-2.5 % (common practice, no source), so gas totals carry "
+                "that band",
+            )
+        )
         for key in ("oxygen", "air", "nitrous_oxide"):
             totals[f"{key}_band"] = {"low": totals[key] * 0.975, "high": totals[key] * 1.025}
-    flow_ref = (f"series flows in ambient litres at the site ({site.ambient_pressure_kpa:.1f} kPa, "
-                f"{site.temperature_k - 273.15:.0f} degC); totals in {GAS_VOLUME_REFERENCE}")
-    return CaseResult(scenario, patient, totals, series, warns, Q_(float(fio2.min()), "dimensionless"),
-                      phases, balance, steps, flow_reference=flow_ref)
+    flow_ref = (
+        f"series flows in ambient litres at the site ({site.ambient_pressure_kpa:.1f} kPa, "
+        f"{site.temperature_k - 273.15:.0f} degC); totals in {GAS_VOLUME_REFERENCE}"
+    )
+    return CaseResult(
+        scenario,
+        patient,
+        totals,
+        series,
+        warns,
+        Q_(float(fio2.min()), "dimensionless"),
+        phases,
+        balance,
+        steps,
+        flow_reference=flow_ref,
+    )
 
 
 def _hold_report(index: int, times: np.ndarray, ws: np.ndarray, p: np.ndarray, warns: list) -> dict:
@@ -133,10 +162,14 @@ def _hold_report(index: int, times: np.ndarray, ws: np.ndarray, p: np.ndarray, w
     reached = np.nonzero(et >= (1 - TARGET_BAND) * target)[0]
     out: dict[str, Any] = {"target_reached": None}
     if reached.size == 0:
-        warns.append(("TARGET_NOT_REACHED",
-                      f"phase {index}: the end-tidal target ({100 * target[-1]:.2f} %) was not reached by "
-                      f"{times[-1]:.0f} min (end-tidal {100 * et[-1]:.2f} %); the vaporizer maximum or the "
-                      "fresh-gas flow limits the wash-in"))
+        warns.append(
+            (
+                "TARGET_NOT_REACHED",
+                f"phase {index}: the end-tidal target ({100 * target[-1]:.2f} %) was not reached by "
+                f"{times[-1]:.0f} min (end-tidal {100 * et[-1]:.2f} %); the vaporizer maximum or the "
+                "fresh-gas flow limits the wash-in",
+            )
+        )
         return out
     i = reached[0]
     out["target_reached"] = Q_(float(times[i]), "min")
@@ -145,12 +178,15 @@ def _hold_report(index: int, times: np.ndarray, ws: np.ndarray, p: np.ndarray, w
     low = et[after] < (1 - TARGET_BAND) * target[after]
     if np.any(at_max & low):
         t_fail = times[after][np.argmax(at_max & low)]
-        warns.append(("TARGET_NOT_HELD",
-                      f"phase {index}: from {t_fail:.0f} min the end-tidal target cannot be held with the dial at "
-                      "its maximum; raise the fresh-gas flow"))
+        warns.append(
+            (
+                "TARGET_NOT_HELD",
+                f"phase {index}: from {t_fail:.0f} min the end-tidal target cannot be held with the dial at "
+                "its maximum; raise the fresh-gas flow",
+            )
+        )
     elif np.any(at_max):
-        warns.append(("DIAL_AT_MAXIMUM",
-                      f"phase {index}: the dial sits at the vaporizer maximum for part of the hold"))
+        warns.append(("DIAL_AT_MAXIMUM", f"phase {index}: the dial sits at the vaporizer maximum for part of the hold"))
     return out
 
 
@@ -210,22 +246,33 @@ def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
     return totals, balance
 
 
-def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray, totals: dict,
-                  warns: list) -> None:
+def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray, totals: dict, warns: list) -> None:
     t = series["time [min]"].to_numpy()[judged]
     fio2 = fio2_all[judged]
     deficit = series["volume_deficit_flow [L/min]"].to_numpy()
     if totals["volume_deficit"].magnitude > 1e-9:
         first = t[np.argmax(deficit > 0)] if np.any(deficit > 0) else t[0]
-        warns.append(("VOLUME_DEFICIT",
-                      f"from {first:.0f} min the fresh gas does not cover uptake, leak and unreturned sample gas: "
-                      f"the bag empties ({totals['volume_deficit'].to('L').magnitude:.2f} L short in all); the model "
-                      "made the shortfall good with make-up gas, counted in the totals; raise the fresh-gas flow"))
+        warns.append(
+            (
+                "VOLUME_DEFICIT",
+                f"from {first:.0f} min the fresh gas does not cover uptake, leak and unreturned sample gas: "
+                f"the bag empties ({totals['volume_deficit'].to('L').magnitude:.2f} L short in all); the model "
+                "made the shortfall good with make-up gas, counted in the totals; raise the fresh-gas flow",
+            )
+        )
     if fio2.min() < 0.21:
-        warns.append(("HYPOXIC_INSPIRED_MIXTURE",
-                      f"inspired O2 falls to {100 * fio2.min():.1f} % at {t[np.argmin(fio2)]:.0f} min: a hypoxic "
-                      "mixture; raise the O2 flow; monitor inspired O2 continuously"))
+        warns.append(
+            (
+                "HYPOXIC_INSPIRED_MIXTURE",
+                f"inspired O2 falls to {100 * fio2.min():.1f} % at {t[np.argmin(fio2)]:.0f} min: a hypoxic "
+                "mixture; raise the O2 flow; monitor inspired O2 continuously",
+            )
+        )
     elif fio2.min() < FIO2_ADVISORY:
-        warns.append(("INSPIRED_OXYGEN_LOW",
-                      f"inspired O2 falls to {100 * fio2.min():.1f} % at {t[np.argmin(fio2)]:.0f} min, below the "
-                      f"{100 * FIO2_ADVISORY:.0f} % usually kept at low flow"))
+        warns.append(
+            (
+                "INSPIRED_OXYGEN_LOW",
+                f"inspired O2 falls to {100 * fio2.min():.1f} % at {t[np.argmin(fio2)]:.0f} min, below the "
+                f"{100 * FIO2_ADVISORY:.0f} % usually kept at low flow",
+            )
+        )

@@ -73,13 +73,26 @@ from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATU
 QUADRATURES = ("hold", "trapezoid")
 #: Flow classes by fresh-gas flow [L/min], upper bounds inclusive (Brattwall et al. 2012, Table 1;
 #: Baum and Aitkenhead 1995 for low, minimal and metabolic flow).
-FLOW_CLASSES = (("metabolic", 0.25), ("minimal", 0.5), ("low", 1.0), ("medium", 2.0),
-                ("high", 4.0), ("very high", float("inf")))
+FLOW_CLASSES = (
+    ("metabolic", 0.25),
+    ("minimal", 0.5),
+    ("low", 1.0),
+    ("medium", 2.0),
+    ("high", 4.0),
+    ("very high", float("inf")),
+)
 FLOW_CLASS_SOURCE = "Baum and Aitkenhead 1995; Brattwall et al. 2012"
 #: Minimum inspired O2 at low flow (Baum and Aitkenhead 1995, from memory).
 MIN_INSPIRED_OXYGEN = 0.30
-UNITS = {"l": "liter", "ml": "milliliter", "min": "minute", "l_min": "liter / minute", "kg": "kilogram",
-         "mac_h": "MAC_hour", "kg_mac_h": "kilogram / MAC_hour"}
+UNITS = {
+    "l": "liter",
+    "ml": "milliliter",
+    "min": "minute",
+    "l_min": "liter / minute",
+    "kg": "kilogram",
+    "mac_h": "MAC_hour",
+    "kg_mac_h": "kilogram / MAC_hour",
+}
 
 
 def flow_class(flow_l_min: Any) -> Any:
@@ -165,9 +178,16 @@ def _case_sum(codes: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
     return np.bincount(codes, weights=values, minlength=n)
 
 
-def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100",
-          quadrature: str = "hold", maintenance_after: Any = "10 min", max_gap: Any = "30 min",
-          manifold_loss: float = 0.0) -> AuditResult:
+def audit(
+    source: Any,
+    *,
+    prices: Prices | None = None,
+    basis: str = "ar6_gwp100",
+    quadrature: str = "hold",
+    maintenance_after: Any = "10 min",
+    max_gap: Any = "30 min",
+    manifold_loss: float = 0.0,
+) -> AuditResult:
     """Audit a log of recorded cases.
 
     Parameters
@@ -244,11 +264,15 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
     cases["agent_vapour_l"] = pair.sum(axis=1)
     cases["agent_liquid_ml"] = liquid.sum(axis=1)
     named = [j for j, n in enumerate(agent_names) if n]
-    main = np.array(agent_names, dtype=object)[np.argmax(np.where(np.arange(n_ag) == 0, -1, pair), axis=1)] \
-        if named else np.full(n_cases, "", dtype=object)
+    main = (
+        np.array(agent_names, dtype=object)[np.argmax(np.where(np.arange(n_ag) == 0, -1, pair), axis=1)]
+        if named
+        else np.full(n_cases, "", dtype=object)
+    )
     used = pair[:, named] > 0 if named else np.zeros((n_cases, 0), bool)
-    cases["agent"] = [("+".join(agent_names[named[k]] for k in np.flatnonzero(row)) or m)
-                      for row, m in zip(used, main, strict=True)]
+    cases["agent"] = [
+        ("+".join(agent_names[named[k]] for k in np.flatnonzero(row)) or m) for row, m in zip(used, main, strict=True)
+    ]
     for j in named:
         cases[f"liquid_{agent_names[j]}_ml"] = liquid[:, j]
     n2o_released = carbon.nitrous_oxide_released(cases["nitrous_oxide_l"].to_numpy(), manifold_loss)
@@ -260,8 +284,9 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
     currency = None
     if prices is not None:
         currency = prices.currency
-        pairs = pd.DataFrame({"agent": np.tile(np.array(agent_names, dtype=object), n_cases),
-                              "agent_liquid_ml": liquid.ravel()})
+        pairs = pd.DataFrame(
+            {"agent": np.tile(np.array(agent_names, dtype=object), n_cases), "agent_liquid_ml": liquid.ravel()}
+        )
         agent_cost = cost_table(pairs, prices)
         by_case = agent_cost["agent"].to_numpy().reshape(n_cases, n_ag).sum(axis=1)
         gas_cost = cost_table(cases[["oxygen_l", "air_l", "nitrous_oxide_l"]], prices)
@@ -269,8 +294,9 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
         cases["cost_gases"] = gas_cost["gases"].to_numpy()
         cases["cost_total"] = cases["cost_agent"] + cases["cost_gases"]
         unpriced = agent_cost["unpriced"].to_numpy().reshape(n_cases, n_ag)
-        cases["unpriced"] = [";".join(sorted({u for u in (*row, g) if u}))
-                             for row, g in zip(unpriced, gas_cost["unpriced"], strict=True)]
+        cases["unpriced"] = [
+            ";".join(sorted({u for u in (*row, g) if u})) for row, g in zip(unpriced, gas_cost["unpriced"], strict=True)
+        ]
 
     # Maintenance KPIs with the interval after each sample (sample-and-hold of the setting).
     t_end = t + dt_next
@@ -291,21 +317,38 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
     if "min_inspired_oxygen" in s:
         low = np.isfinite(cases["min_inspired_oxygen"]) & (cases["min_inspired_oxygen"] < MIN_INSPIRED_OXYGEN)
         if low.any():
-            warnings.append(("LOW_INSPIRED_OXYGEN", f"{int(low.sum())} case(s) recorded inspired O2 below "
-                             f"{MIN_INSPIRED_OXYGEN:.0%} (Baum and Aitkenhead 1995): see min_inspired_oxygen"))
-    long_gap = (dt_next > gap)
+            warnings.append(
+                (
+                    "LOW_INSPIRED_OXYGEN",
+                    f"{int(low.sum())} case(s) recorded inspired O2 below "
+                    f"{MIN_INSPIRED_OXYGEN:.0%} (Baum and Aitkenhead 1995): see min_inspired_oxygen",
+                )
+            )
+    long_gap = dt_next > gap
     if long_gap.any():
         bad = sorted({log.case_ids[c] for c in codes[long_gap]})
-        warnings.append(("LONG_SAMPLE_GAP", f"{int(long_gap.sum())} gap(s) longer than {gap:g} min between "
-                         f"samples, bridged by the {quadrature} rule, in case(s) " + ", ".join(map(str, bad[:10]))
-                         + (" ..." if len(bad) > 10 else "")))
+        warnings.append(
+            (
+                "LONG_SAMPLE_GAP",
+                f"{int(long_gap.sum())} gap(s) longer than {gap:g} min between "
+                f"samples, bridged by the {quadrature} rule, in case(s) "
+                + ", ".join(map(str, bad[:10]))
+                + (" ..." if len(bad) > 10 else ""),
+            )
+        )
     if log.rows["used"] == 0:
-        warnings.append(("NO_ROWS_USED", f"no row of the log could be used ({log.rows['rejected']} rejected): "
-                         "see the rejections"))
+        warnings.append(
+            ("NO_ROWS_USED", f"no row of the log could be used ({log.rows['rejected']} rejected): see the rejections")
+        )
     single = cases["samples"] == 1
     if single.any():
-        warnings.append(("SINGLE_SAMPLE_CASE", f"{int(single.sum())} case(s) have one sample and no duration: "
-                         + ", ".join(map(str, cases.loc[single, "case_id"].head(10)))))
+        warnings.append(
+            (
+                "SINGLE_SAMPLE_CASE",
+                f"{int(single.sum())} case(s) have one sample and no duration: "
+                + ", ".join(map(str, cases.loc[single, "case_id"].head(10))),
+            )
+        )
 
     from .audit_report import group_table, kpi_summary, totals_of
 
@@ -325,14 +368,31 @@ def audit(source: Any, *, prices: Prices | None = None, basis: str = "ar6_gwp100
         notes += ("no prices given: costs not computed",)
     kpis = kpi_summary(cases, class_time, after)
     return AuditResult(
-        rows=dict(log.rows), rejections=list(log.rejections), cases=cases,
-        rooms=group_table(cases, "room"), months=group_table(cases, "month"),
-        totals=totals_of(cases), kpis=kpis, basis=basis, quadrature=quadrature, currency=currency,
-        samples=s, notes=notes + (f"CO2e basis: {label}", GAS_VOLUME_REFERENCE), warnings=tuple(warnings))
+        rows=dict(log.rows),
+        rejections=list(log.rejections),
+        cases=cases,
+        rooms=group_table(cases, "room"),
+        months=group_table(cases, "month"),
+        totals=totals_of(cases),
+        kpis=kpis,
+        basis=basis,
+        quadrature=quadrature,
+        currency=currency,
+        samples=s,
+        notes=notes + (f"CO2e basis: {label}", GAS_VOLUME_REFERENCE),
+        warnings=tuple(warnings),
+    )
 
 
-def _mac_hours(cases: pd.DataFrame, s: pd.DataFrame, codes: np.ndarray, w: np.ndarray,
-               agent_names: list[str], n_cases: int, warnings: list[tuple[str, str]]) -> None:
+def _mac_hours(
+    cases: pd.DataFrame,
+    s: pd.DataFrame,
+    codes: np.ndarray,
+    w: np.ndarray,
+    agent_names: list[str],
+    n_cases: int,
+    warnings: list[tuple[str, str]],
+) -> None:
     """MAC-hours per case where every sample has an end-tidal agent and the case an age."""
     cases["mac_hours"] = np.nan
     cases["mac_hours_note"] = ""
@@ -343,8 +403,13 @@ def _mac_hours(cases: pd.DataFrame, s: pd.DataFrame, codes: np.ndarray, w: np.nd
     if not (has_et and has_age):
         missing = [c for c, ok in (("end_tidal_agent", has_et), ("patient_age", has_age)) if not ok]
         cases["mac_hours_note"] = "no " + " and no ".join(missing) + " column"
-        warnings.append(("MAC_HOURS_UNAVAILABLE", "MAC-hours need end_tidal_agent and patient_age; the log has "
-                         "no " + " and no ".join(missing) + " column"))
+        warnings.append(
+            (
+                "MAC_HOURS_UNAVAILABLE",
+                "MAC-hours need end_tidal_agent and patient_age; the log has "
+                "no " + " and no ".join(missing) + " column",
+            )
+        )
         return
     et = s["end_tidal"].to_numpy()
     age = s["age"].to_numpy()
@@ -359,12 +424,16 @@ def _mac_hours(cases: pd.DataFrame, s: pd.DataFrame, codes: np.ndarray, w: np.nd
     n_bad = np.bincount(codes, weights=~ok, minlength=n_cases)
     mh = _case_sum(codes, np.where(ok, frac * w, 0.0), n_cases) / 60.0
     cases["mac_hours"] = np.where(n_bad == 0, mh, np.nan)
-    cases["mac_hours_note"] = np.where(n_bad == 0, "", [f"end-tidal agent or age missing in {int(k)} sample(s)"
-                                                          for k in n_bad])
+    cases["mac_hours_note"] = np.where(
+        n_bad == 0, "", [f"end-tidal agent or age missing in {int(k)} sample(s)" for k in n_bad]
+    )
     if (n_bad > 0).any():
-        warnings.append(("MAC_HOURS_INCOMPLETE", f"{int((n_bad > 0).sum())} case(s) lack end-tidal agent or age "
-                         "in some samples: no MAC-hours for them"))
+        warnings.append(
+            (
+                "MAC_HOURS_INCOMPLETE",
+                f"{int((n_bad > 0).sum())} case(s) lack end-tidal agent or age in some samples: no MAC-hours for them",
+            )
+        )
 
 
-__all__ = ["FLOW_CLASSES", "QUADRATURES", "AuditResult", "CO2E_BASES", "age_mac", "audit", "flow_class",
-           "read_log"]
+__all__ = ["FLOW_CLASSES", "QUADRATURES", "AuditResult", "CO2E_BASES", "age_mac", "audit", "flow_class", "read_log"]

@@ -47,10 +47,14 @@ SPEC: dict[str, tuple[str, str | None, str | None, tuple[float, float] | None]] 
     "patient_weight": ("mass", "kg", "kg", (0.5, 300.0)),
     "patient_age": ("age", "year", "year", (0.0, 120.0)),
 }
-DIMENSION = {"flow": "[length] ** 3 / [time]", "time": "[time]", "mass": "[mass]", "age": "[time]",
-             "fraction": "[]"}
-EXAMPLE = {"flow": "'L/min' or 'mL/min'", "time": "'min', 's', 'h' or 'ISO 8601'", "mass": "'kg' or 'lb'",
-           "age": "'year'", "fraction": "'%' or '1' (a 0-1 fraction)"}
+DIMENSION = {"flow": "[length] ** 3 / [time]", "time": "[time]", "mass": "[mass]", "age": "[time]", "fraction": "[]"}
+EXAMPLE = {
+    "flow": "'L/min' or 'mL/min'",
+    "time": "'min', 's', 'h' or 'ISO 8601'",
+    "mass": "'kg' or 'lb'",
+    "age": "'year'",
+    "fraction": "'%' or '1' (a 0-1 fraction)",
+}
 NO_AGENT = ("", "none", "off")
 NO_DATE = "no date (elapsed-time log)"
 _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
@@ -84,7 +88,11 @@ def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
         name = name.strip().lower()
         unit = rest.rstrip().removesuffix("]").strip() if rest else None
         if rest and not rest.rstrip().endswith("]"):
-            raise InputError(f"log column '{text}'", text, "a column name with its unit in square brackets, e.g. 'oxygen_flow [mL/min]'")
+            raise InputError(
+                f"log column '{text}'",
+                text,
+                "a column name with its unit in square brackets, e.g. 'oxygen_flow [mL/min]'",
+            )
         if name in names:
             raise InputError(f"log column '{name}'", text, "each column once")
         names.append(name)
@@ -139,16 +147,25 @@ def _rows(handle: Any, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, 
     text_cols = {i: str for i, n in enumerate(names) if n not in SPEC or SPEC[n][0] in ("text", "time")}
     start = handle.tell()
     try:
-        df = pd.read_csv(handle, header=None, names=list(range(len(raw))), dtype=text_cols, na_values=[""],
-                         keep_default_na=False, skip_blank_lines=False, skipinitialspace=True, engine="c",
-                         low_memory=False)
+        df = pd.read_csv(
+            handle,
+            header=None,
+            names=list(range(len(raw))),
+            dtype=text_cols,
+            na_values=[""],
+            keep_default_na=False,
+            skip_blank_lines=False,
+            skipinitialspace=True,
+            engine="c",
+            low_memory=False,
+        )
         df["line"] = np.arange(2, len(df) + 2)
         return df, []
     except pd.errors.ParserError:
         handle.seek(start)
     good, lines, bad = [], [], []
     reader = csv.reader(handle, skipinitialspace=True)
-    last = 0   # physical lines read by the csv reader so far; the header is line 1
+    last = 0  # physical lines read by the csv reader so far; the header is line 1
     for row in reader:
         line = 2 + last
         last = reader.line_num
@@ -190,8 +207,9 @@ class _Reasons:
             self.text.setdefault(int(i), []).append(msg)
 
 
-def _numeric(col: pd.Series, name: str, reasons: _Reasons, factor: float, unit_label: str,
-             required: bool) -> np.ndarray:
+def _numeric(
+    col: pd.Series, name: str, reasons: _Reasons, factor: float, unit_label: str, required: bool
+) -> np.ndarray:
     empty = _empty(col)
     if pd.api.types.is_numeric_dtype(col):
         values = col.to_numpy(dtype=float, copy=True)
@@ -272,42 +290,65 @@ def read_log(source: Any) -> LogData:
     need_ts = np.isnan(t_num) & ~t_empty
     ts = pd.to_datetime(ttext.where(need_ts, None), format="ISO8601", utc=True, errors="coerce")
     ts_ok = ts.notna().to_numpy()
-    r.add(~t_empty & ~ts_ok & np.isnan(t_num),
-          lambda v: f"time: got {v!r}; expected elapsed time (a number) or an ISO 8601 timestamp", ttext)
+    r.add(
+        ~t_empty & ~ts_ok & np.isnan(t_num),
+        lambda v: f"time: got {v!r}; expected elapsed time (a number) or an ISO 8601 timestamp",
+        ttext,
+    )
     t_factor = 1.0 if iso_only else float(factors["time"])
     epoch_min = ((ts - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(minutes=1)).to_numpy(dtype=float)
     is_ts = ts_ok
     t_abs = np.where(is_ts, epoch_min, t_num * t_factor)
 
-    flows = {c: _numeric(df[c], c, r, float(factors[c]), units[c], True)
-             for c in ("oxygen_flow", "air_flow", "nitrous_oxide_flow")}
-    setting = _numeric(df["vaporizer_setting"], "vaporizer_setting", r, float(factors["vaporizer_setting"]),
-                       units["vaporizer_setting"], True)
+    flows = {
+        c: _numeric(df[c], c, r, float(factors[c]), units[c], True)
+        for c in ("oxygen_flow", "air_flow", "nitrous_oxide_flow")
+    }
+    setting = _numeric(
+        df["vaporizer_setting"],
+        "vaporizer_setting",
+        r,
+        float(factors["vaporizer_setting"]),
+        units["vaporizer_setting"],
+        True,
+    )
     agent_s = text["agent"].str.lower()
     agent_codes, agent_uniques = pd.factorize(agent_s)
     agent_uniques = [str(a) for a in agent_uniques]
     known = np.isin(agent_codes, [i for i, a in enumerate(agent_uniques) if a in AGENTS])
     none = np.isin(agent_codes, [i for i, a in enumerate(agent_uniques) if a in NO_AGENT])
-    r.add(~known & ~none, lambda v: f"agent: got {v!r}; expected one of " + ", ".join(sorted(AGENTS))
-          + " (empty for none)", text["agent"])
+    r.add(
+        ~known & ~none,
+        lambda v: f"agent: got {v!r}; expected one of " + ", ".join(sorted(AGENTS)) + " (empty for none)",
+        text["agent"],
+    )
     r.add(none & (setting > 0), "agent: empty while vaporizer_setting is above 0")
-    top = np.array([AGENTS[a].vaporizer_max.to("dimensionless").magnitude if a in AGENTS else 1.0
-                    for a in agent_uniques])[agent_codes] if n else np.zeros(0)
+    top = (
+        np.array(
+            [AGENTS[a].vaporizer_max.to("dimensionless").magnitude if a in AGENTS else 1.0 for a in agent_uniques]
+        )[agent_codes]
+        if n
+        else np.zeros(0)
+    )
     for name in sorted({a for a in agent_uniques if a in AGENTS}):
         mx = AGENTS[name].vaporizer_max.to("dimensionless").magnitude
-        r.add((agent_s == name).to_numpy() & (setting > top) & (setting < 1.0),
-              f"vaporizer_setting: above the {name} vaporizer's maximum dial {mx * 100:g} %")
+        r.add(
+            (agent_s == name).to_numpy() & (setting > top) & (setting < 1.0),
+            f"vaporizer_setting: above the {name} vaporizer's maximum dial {mx * 100:g} %",
+        )
     r.add(setting >= 1.0, "vaporizer_setting: must be below 100 %")
-    opt = {c: _numeric(df[c], c, r, float(factors[c]), units[c], False)
-           for c in ("end_tidal_agent", "inspired_oxygen", "patient_weight", "patient_age") if c in names}
+    opt = {
+        c: _numeric(df[c], c, r, float(factors[c]), units[c], False)
+        for c in ("end_tidal_agent", "inspired_oxygen", "patient_weight", "patient_age")
+        if c in names
+    }
 
     codes_all, uniques = pd.factorize(case)
     # A case keeps one kind of time: the kind of its first valid row; rows of the other kind are rejected.
     valid_t = ~r.bad & np.isfinite(t_abs)
     first_kind = pd.Series(np.where(valid_t, is_ts, np.nan)).groupby(codes_all).transform("first").to_numpy()
     mixed = valid_t & (is_ts != (first_kind == 1))
-    r.add(mixed, lambda v: f"time: got {v!r}; this case mixes elapsed times and timestamps (first kind kept)",
-          ttext)
+    r.add(mixed, lambda v: f"time: got {v!r}; this case mixes elapsed times and timestamps (first kind kept)", ttext)
 
     ok = ~r.bad
     rejections = sorted([(int(df["line"].iat[i]), "; ".join(m)) for i, m in r.text.items()] + bad_width)
@@ -318,11 +359,21 @@ def read_log(source: Any) -> LogData:
     lines = df["line"].to_numpy()[idx]
     file_order_t = pd.Series(t_used).groupby(codes).diff().to_numpy()
     if (file_order_t < 0).any():
-        warnings.append(("TIME_NOT_ORDERED", f"{int((file_order_t < 0).sum())} sample(s) out of time order within "
-                         "their case: samples were sorted by time"))
+        warnings.append(
+            (
+                "TIME_NOT_ORDERED",
+                f"{int((file_order_t < 0).sum())} sample(s) out of time order within "
+                "their case: samples were sorted by time",
+            )
+        )
     if (file_order_t == 0).any():
-        warnings.append(("DUPLICATE_TIME", f"{int((file_order_t == 0).sum())} sample(s) repeat the time of the "
-                         "previous sample of their case: the later one holds"))
+        warnings.append(
+            (
+                "DUPLICATE_TIME",
+                f"{int((file_order_t == 0).sum())} sample(s) repeat the time of the "
+                "previous sample of their case: the later one holds",
+            )
+        )
     order = np.lexsort((lines, t_used, codes))
     idx, codes, t_used = idx[order], codes[order], t_used[order]
     n_cases = len(case_ids)
@@ -331,13 +382,25 @@ def read_log(source: Any) -> LogData:
     used_agents = np.unique(agent_codes[idx])
     agent_names = ["", *sorted({agent_uniques[i] for i in used_agents if agent_uniques[i] not in NO_AGENT})]
     remap = np.array([agent_names.index(a) if a in agent_names else 0 for a in agent_uniques] or [0])
-    s = pd.DataFrame({"case": codes, "line": df["line"].to_numpy()[idx], "t_min": t_used - start[codes],
-                      "oxygen": flows["oxygen_flow"][idx], "air": flows["air_flow"][idx],
-                      "nitrous_oxide": flows["nitrous_oxide_flow"][idx], "setting": setting[idx],
-                      "agent_code": remap[agent_codes[idx]]})
+    s = pd.DataFrame(
+        {
+            "case": codes,
+            "line": df["line"].to_numpy()[idx],
+            "t_min": t_used - start[codes],
+            "oxygen": flows["oxygen_flow"][idx],
+            "air": flows["air_flow"][idx],
+            "nitrous_oxide": flows["nitrous_oxide_flow"][idx],
+            "setting": setting[idx],
+            "agent_code": remap[agent_codes[idx]],
+        }
+    )
     per_case = {}
-    for c, key in (("end_tidal_agent", "end_tidal"), ("inspired_oxygen", "min_inspired_oxygen"),
-                   ("patient_weight", "weight"), ("patient_age", "age")):
+    for c, key in (
+        ("end_tidal_agent", "end_tidal"),
+        ("inspired_oxygen", "min_inspired_oxygen"),
+        ("patient_weight", "weight"),
+        ("patient_age", "age"),
+    ):
         if c in opt:
             s[key] = opt[c][idx]
             if key in ("weight", "age"):
@@ -346,14 +409,23 @@ def read_log(source: Any) -> LogData:
     case_is_ts = np.zeros(n_cases, dtype=bool)
     case_is_ts[codes] = is_ts[idx]
     start_ts = pd.to_datetime(np.where(case_is_ts, start, 0.0) * 6e7, unit="us", utc=True)
-    room = (text["room"].iloc[idx].reset_index(drop=True) if "room" in names
-            else pd.Series(np.full(len(idx), "", dtype=object)))
+    room = (
+        text["room"].iloc[idx].reset_index(drop=True)
+        if "room" in names
+        else pd.Series(np.full(len(idx), "", dtype=object))
+    )
     room_case = room.where(room != "").groupby(codes).first().reindex(range(n_cases)).fillna("unassigned")
     return LogData(
-        samples=s, case_ids=[str(c) for c in case_ids],
+        samples=s,
+        case_ids=[str(c) for c in case_ids],
         case_start=[ts.isoformat() if k else None for ts, k in zip(start_ts, case_is_ts, strict=True)],
         case_room=room_case.tolist(),
         case_month=[ts.strftime("%Y-%m") if k else NO_DATE for ts, k in zip(start_ts, case_is_ts, strict=True)],
         case_weight=per_case.get("weight", np.full(n_cases, np.nan)),
         case_age=per_case.get("age", np.full(n_cases, np.nan)),
-        agent_names=agent_names, rows=rows, rejections=rejections, units=units, warnings=tuple(warnings))
+        agent_names=agent_names,
+        rows=rows,
+        rejections=rejections,
+        units=units,
+        warnings=tuple(warnings),
+    )

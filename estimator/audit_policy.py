@@ -90,8 +90,11 @@ def parse_policy(data: dict[str, Any]) -> Policy:
     except ValidationError as exc:
         err = exc.errors()[0]
         loc = "policy." + ".".join(str(x) for x in err["loc"])
-        expected = ("one of the keys " + ", ".join(PolicyInput.model_fields) if err["type"] == "extra_forbidden"
-                    else err["msg"].lower())
+        expected = (
+            "one of the keys " + ", ".join(PolicyInput.model_fields)
+            if err["type"] == "extra_forbidden"
+            else err["msg"].lower()
+        )
         raise InputError(loc, err.get("input"), expected) from None
 
     def q(value: str, field: str, dim: str, unit: str, lo: float, hi: float) -> float:
@@ -106,13 +109,18 @@ def parse_policy(data: dict[str, Any]) -> Policy:
     return Policy(
         name=raw.name,
         fresh_gas_flow=q(raw.fresh_gas_flow, "fresh_gas_flow", "flow", "L/min", 0.1, ENGINE_MAX_FLOW),
-        minimum_oxygen_share=q(raw.minimum_oxygen_share, "minimum_oxygen_share", "fraction", "dimensionless",
-                               0.21, 1.0),
-        block=q(raw.block, "block", "time", "min", 1.0, 120.0), baseline=raw.baseline,
+        minimum_oxygen_share=q(
+            raw.minimum_oxygen_share, "minimum_oxygen_share", "fraction", "dimensionless", 0.21, 1.0
+        ),
+        block=q(raw.block, "block", "time", "min", 1.0, 120.0),
+        baseline=raw.baseline,
         default_weight=q(raw.default_weight, "default_weight", "mass", "kg", 0.5, 300.0),
         default_age=q(raw.default_age, "default_age", "age", "year", 0.0, 120.0),
-        maintenance_after=None if raw.maintenance_after is None else
-        q(raw.maintenance_after, "maintenance_after", "time", "min", 0.0, 600.0), max_cases=raw.max_cases)
+        maintenance_after=None
+        if raw.maintenance_after is None
+        else q(raw.maintenance_after, "maintenance_after", "time", "min", 0.0, 600.0),
+        max_cases=raw.max_cases,
+    )
 
 
 def policy_flows(o2: float, air: float, n2o: float, policy: Policy) -> tuple[float, float, float]:
@@ -186,8 +194,12 @@ def case_scenarios(result: AuditResult, policy: Policy) -> tuple[list[dict[str, 
             v = _held_mean(t, t_end, vapour, a, b)
             total = sum(f.values())
             dial = v / (total + v) if total + v > 0 else 0.0
-            ph = {"duration": f"{b - a} min", **{g: f"{x} L/min" for g, x in f.items()},
-                  "vaporizer": f"{dial * 100} %", "label": "wash-in as recorded"}
+            ph = {
+                "duration": f"{b - a} min",
+                **{g: f"{x} L/min" for g, x in f.items()},
+                "vaporizer": f"{dial * 100} %",
+                "label": "wash-in as recorded",
+            }
             phases["policy"].append(ph)
             phases["recorded"].append(ph)
         for a, b in _blocks(after, end, policy.block) if end > after else []:
@@ -195,17 +207,39 @@ def case_scenarios(result: AuditResult, policy: Policy) -> tuple[list[dict[str, 
             target = _held_mean(t, t_end, et, a, b)
             hold = {"end_tidal_target": f"{target * 100} %"} if target > 1e-5 else {"vaporizer": "0 %"}
             p = dict(zip(f, policy_flows(f["oxygen"], f["air"], f["nitrous_oxide"], policy), strict=True))
-            phases["policy"].append({"duration": f"{b - a} min", **{g: f"{x} L/min" for g, x in p.items()},
-                                     **hold, "label": "maintenance under the policy"})
-            phases["recorded"].append({"duration": f"{b - a} min", **{g: f"{x} L/min" for g, x in f.items()},
-                                       **hold, "label": "maintenance as recorded"})
+            phases["policy"].append(
+                {
+                    "duration": f"{b - a} min",
+                    **{g: f"{x} L/min" for g, x in p.items()},
+                    **hold,
+                    "label": "maintenance under the policy",
+                }
+            )
+            phases["recorded"].append(
+                {
+                    "duration": f"{b - a} min",
+                    **{g: f"{x} L/min" for g, x in f.items()},
+                    **hold,
+                    "label": "maintenance as recorded",
+                }
+            )
         weight = row.get("patient_weight_kg", math.nan)
         age = row.get("patient_age_year", math.nan)
         defaults = [n for n, v in (("weight", weight), ("age", age)) if not math.isfinite(v)]
-        patient = {"weight": f"{weight if math.isfinite(weight) else policy.default_weight} kg",
-                   "age": f"{age if math.isfinite(age) else policy.default_age} year"}
-        docs = {k: {"title": f"{cid} ({k})", "patient": patient, "agent": {"name": agent}, "phases": v,
-                    "output": {"interval": "5 min"}} for k, v in phases.items()}
+        patient = {
+            "weight": f"{weight if math.isfinite(weight) else policy.default_weight} kg",
+            "age": f"{age if math.isfinite(age) else policy.default_age} year",
+        }
+        docs = {
+            k: {
+                "title": f"{cid} ({k})",
+                "patient": patient,
+                "agent": {"name": agent},
+                "phases": v,
+                "output": {"interval": "5 min"},
+            }
+            for k, v in phases.items()
+        }
         out.append({"case_id": cid, "code": int(code), "agent": agent, "defaults": defaults, **docs})
     return out, skipped
 
@@ -221,9 +255,11 @@ def engine_runner(doc: dict[str, Any]) -> Any:
 def _side(totals: dict[str, Any], agent: str, prices: Prices | None, basis: str, loss: float) -> dict[str, float]:
     q = {k: totals[k] for k in ("agent_liquid", "oxygen", "air", "nitrous_oxide") if k in totals}
     co2e = carbon.case_carbon(q, agent, basis, manifold_loss=loss).released_co2e.to("kg").magnitude
-    out = {"agent_liquid_ml": float(q["agent_liquid"].to("mL").magnitude),
-           "fresh_gas_l": float(sum(q[g].to("L").magnitude for g in ("oxygen", "air", "nitrous_oxide") if g in q)),
-           "co2e_kg": float(co2e)}
+    out = {
+        "agent_liquid_ml": float(q["agent_liquid"].to("mL").magnitude),
+        "fresh_gas_l": float(sum(q[g].to("L").magnitude for g in ("oxygen", "air", "nitrous_oxide") if g in q)),
+        "co2e_kg": float(co2e),
+    }
     if prices is not None:
         out["cost_total"] = case_cost(q, prices, agent)["total"]
     return out
@@ -233,15 +269,21 @@ def _quantities(side: dict[str, float], basis: str, currency: str | None) -> dic
     out: dict[str, Any] = {
         "agent_liquid": {"magnitude": side["agent_liquid_ml"], "units": "milliliter"},
         "fresh_gas": {"magnitude": side["fresh_gas_l"], "units": "liter"},
-        "co2e": {"magnitude": side["co2e_kg"], "units": "kilogram", "basis": basis}}
+        "co2e": {"magnitude": side["co2e_kg"], "units": "kilogram", "basis": basis},
+    }
     if "cost_total" in side:
         out["cost"] = {"currency": currency, "total": side["cost_total"]}
     return out
 
 
-def counterfactual(result: AuditResult, policy: Policy, *, prices: Prices | None = None,
-                   runner: Callable[[dict[str, Any]], Any] | None = None,
-                   manifold_loss: float = 0.0) -> dict[str, Any]:
+def counterfactual(
+    result: AuditResult,
+    policy: Policy,
+    *,
+    prices: Prices | None = None,
+    runner: Callable[[dict[str, Any]], Any] | None = None,
+    manifold_loss: float = 0.0,
+) -> dict[str, Any]:
     """Savings of a low-flow policy over the audited cases (JSON-ready dict, see module doc)."""
     from .units import Q_
 
@@ -251,9 +293,11 @@ def counterfactual(result: AuditResult, policy: Policy, *, prices: Prices | None
     cases, warnings = [], []
     sums = {side: dict.fromkeys(keys, 0.0) for side in ("baseline", "policy")}
     if policy.max_cases is not None and len(built) > policy.max_cases:
-        skipped += [{"case_id": b["case_id"], "reason": f"beyond policy.max_cases = {policy.max_cases}"}
-                    for b in built[policy.max_cases:]]
-        built = built[:policy.max_cases]
+        skipped += [
+            {"case_id": b["case_id"], "reason": f"beyond policy.max_cases = {policy.max_cases}"}
+            for b in built[policy.max_cases :]
+        ]
+        built = built[: policy.max_cases]
     for item in built:
         try:
             res_p = run(item["policy"])
@@ -266,40 +310,62 @@ def counterfactual(result: AuditResult, policy: Policy, *, prices: Prices | None
             base = _side(res_b.totals, item["agent"], prices, result.basis, manifold_loss)
         else:
             row = result.cases.iloc[item["code"]]
-            totals = {"agent_liquid": Q_(row["agent_liquid_ml"], "mL"),
-                      **{g: Q_(row[f"{g}_l"], "L") for g in ("oxygen", "air", "nitrous_oxide")}}
+            totals = {
+                "agent_liquid": Q_(row["agent_liquid_ml"], "mL"),
+                **{g: Q_(row[f"{g}_l"], "L") for g in ("oxygen", "air", "nitrous_oxide")},
+            }
             base = _side(totals, item["agent"], prices, result.basis, manifold_loss)
         for k in keys:
             sums["baseline"][k] += base[k]
             sums["policy"][k] += pol[k]
         case_warn = [{"code": c, "message": m} for c, m in res_p.warnings]
         if item["defaults"]:
-            case_warn.append({"code": "PATIENT_DEFAULTS", "message": "policy default used for patient "
-                              + " and ".join(item["defaults"])})
+            case_warn.append(
+                {
+                    "code": "PATIENT_DEFAULTS",
+                    "message": "policy default used for patient " + " and ".join(item["defaults"]),
+                }
+            )
         cur = prices.currency if prices is not None else None
-        cases.append({"case_id": item["case_id"], "agent": item["agent"],
-                      "baseline": _quantities(base, result.basis, cur), "policy": _quantities(pol, result.basis, cur),
-                      "savings": _quantities({k: base[k] - pol[k] for k in keys}, result.basis, cur),
-                      "warnings": case_warn})
+        cases.append(
+            {
+                "case_id": item["case_id"],
+                "agent": item["agent"],
+                "baseline": _quantities(base, result.basis, cur),
+                "policy": _quantities(pol, result.basis, cur),
+                "savings": _quantities({k: base[k] - pol[k] for k in keys}, result.basis, cur),
+                "warnings": case_warn,
+            }
+        )
     flagged = sorted({w["code"] for c in cases for w in c["warnings"]})
     if flagged:
-        warnings.append({"code": "POLICY_CASE_WARNINGS", "message": "the engine warned for some policy cases: "
-                         + ", ".join(flagged) + " (see each case)"})
+        warnings.append(
+            {
+                "code": "POLICY_CASE_WARNINGS",
+                "message": "the engine warned for some policy cases: " + ", ".join(flagged) + " (see each case)",
+            }
+        )
     if skipped:
         warnings.append({"code": "CASES_SKIPPED", "message": f"{len(skipped)} case(s) not re-run (see skipped)"})
     savings = {k: sums["baseline"][k] - sums["policy"][k] for k in keys}
     currency = prices.currency if prices is not None else None
     share = {k: (savings[k] / sums["baseline"][k] if sums["baseline"][k] > 0 else None) for k in keys}
     return {
-        "policy": asdict(policy), "baseline": policy.baseline,
+        "policy": asdict(policy),
+        "baseline": policy.baseline,
         "method": "engine re-run of each case: wash-in as recorded, maintenance as an end-tidal hold at the "
-                  "recorded end-tidal agent with the policy's fresh-gas flow",
-        "cases": cases, "skipped": skipped,
-        "totals": {"baseline": _quantities(sums["baseline"], result.basis, currency),
-                   "policy": _quantities(sums["policy"], result.basis, currency),
-                   "savings": _quantities(savings, result.basis, currency),
-                   "savings_share": {k.rsplit("_", 1)[0]: v for k, v in share.items()}, "cases": len(cases)},
+        "recorded end-tidal agent with the policy's fresh-gas flow",
+        "cases": cases,
+        "skipped": skipped,
+        "totals": {
+            "baseline": _quantities(sums["baseline"], result.basis, currency),
+            "policy": _quantities(sums["policy"], result.basis, currency),
+            "savings": _quantities(savings, result.basis, currency),
+            "savings_share": {k.rsplit("_", 1)[0]: v for k, v in share.items()},
+            "cases": len(cases),
+        },
         "currency": currency,
-        "co2e_basis": result.basis, "gas_volume_reference": GAS_VOLUME_REFERENCE,
+        "co2e_basis": result.basis,
+        "gas_volume_reference": GAS_VOLUME_REFERENCE,
         "warnings": warnings,
     }

@@ -30,11 +30,30 @@ from .units import GAS_VOLUME_REFERENCE
 if TYPE_CHECKING:
     from .audit import AuditResult
 
-SUM_COLUMNS = ("duration_min", "oxygen_l", "air_l", "nitrous_oxide_l", "fresh_gas_l", "agent_vapour_l",
-               "agent_liquid_ml", "co2e_agent_kg", "co2e_nitrous_oxide_kg", "co2e_kg", "cost_agent",
-               "cost_gases", "cost_total", "maintenance_time_min")
-UNIT_OF_SUFFIX = (("_l_min", "liter / minute"), ("_kg", "kilogram"), ("_ml", "milliliter"), ("_min", "minute"),
-                  ("_l", "liter"), ("_year", "year"))
+SUM_COLUMNS = (
+    "duration_min",
+    "oxygen_l",
+    "air_l",
+    "nitrous_oxide_l",
+    "fresh_gas_l",
+    "agent_vapour_l",
+    "agent_liquid_ml",
+    "co2e_agent_kg",
+    "co2e_nitrous_oxide_kg",
+    "co2e_kg",
+    "cost_agent",
+    "cost_gases",
+    "cost_total",
+    "maintenance_time_min",
+)
+UNIT_OF_SUFFIX = (
+    ("_l_min", "liter / minute"),
+    ("_kg", "kilogram"),
+    ("_ml", "milliliter"),
+    ("_min", "minute"),
+    ("_l", "liter"),
+    ("_year", "year"),
+)
 
 
 def _pooled(df: pd.DataFrame, column: str) -> float:
@@ -61,8 +80,9 @@ def group_table(cases: pd.DataFrame, key: str) -> pd.DataFrame:
         ok = np.isfinite(mh)
         row["mac_hours"] = float(mh[ok].sum()) if ok.any() else math.nan
         row["cases_with_mac_hours"] = int(ok.sum())
-        row["co2e_per_mac_hour_kg"] = (float(df["co2e_kg"].to_numpy()[ok].sum() / mh[ok].sum())
-                                       if ok.any() and mh[ok].sum() > 0 else math.nan)
+        row["co2e_per_mac_hour_kg"] = (
+            float(df["co2e_kg"].to_numpy()[ok].sum() / mh[ok].sum()) if ok.any() and mh[ok].sum() > 0 else math.nan
+        )
         rows.append(row)
     return pd.DataFrame(rows)
 
@@ -74,8 +94,12 @@ def totals_of(cases: pd.DataFrame) -> dict[str, float]:
         return {"cases": 0, **{c: 0.0 for c in SUM_COLUMNS if c in cases}}
     out = table.iloc[0].to_dict()
     out.pop("_all")
-    for c in ("mean_maintenance_flow_l_min", "maintenance_share_le_1", "maintenance_share_le_0_5",
-              "co2e_per_mac_hour_kg"):
+    for c in (
+        "mean_maintenance_flow_l_min",
+        "maintenance_share_le_1",
+        "maintenance_share_le_0_5",
+        "co2e_per_mac_hour_kg",
+    ):
         out.pop(c, None)
     return {k: (int(v) if k.startswith("cases") else float(v)) for k, v in out.items()}
 
@@ -97,8 +121,9 @@ def kpi_summary(cases: pd.DataFrame, class_time: np.ndarray, after: float) -> di
         "mean_maintenance_flow_class": flow_class(mean) if math.isfinite(mean) else None,
         "maintenance_share_le_1": _pooled(cases, "maintenance_share_le_1") if len(cases) else math.nan,
         "maintenance_share_le_0_5": _pooled(cases, "maintenance_share_le_0_5") if len(cases) else math.nan,
-        "flow_class_shares": {name: (float(class_time[i] / total) if total > 0 else math.nan)
-                              for i, (name, _) in enumerate(FLOW_CLASSES)},
+        "flow_class_shares": {
+            name: (float(class_time[i] / total) if total > 0 else math.nan) for i, (name, _) in enumerate(FLOW_CLASSES)
+        },
         "flow_class_bounds_l_min": {name: b if math.isfinite(b) else None for name, b in FLOW_CLASSES},
         "flow_class_source": FLOW_CLASS_SOURCE,
         "mac_hours": mac_total,
@@ -145,7 +170,7 @@ def records(df: pd.DataFrame, basis: str, currency: str | None, keep_zero: bool 
         for k, v in rec.items():
             if k.startswith("liquid_") and k.endswith("_ml"):
                 if float(v) > 0 or keep_zero:
-                        by_agent[k[len("liquid_"):-3]] = {"magnitude": float(v), "units": "milliliter"}
+                    by_agent[k[len("liquid_") : -3]] = {"magnitude": float(v), "units": "milliliter"}
                 continue
             if k.startswith("cost_") or k == "unpriced":
                 continue
@@ -154,10 +179,14 @@ def records(df: pd.DataFrame, basis: str, currency: str | None, keep_zero: bool 
         if by_agent:
             item["agent_liquid_by_agent"] = by_agent
         if currency is not None and "cost_total" in rec:
-            item["cost"] = {"currency": currency, "agent": float(rec["cost_agent"]),
-                            "gases": float(rec["cost_gases"]), "absorbent": None,
-                            "total": float(rec["cost_total"]),
-                            "unpriced": [u for u in str(rec.get("unpriced", "")).split(";") if u]}
+            item["cost"] = {
+                "currency": currency,
+                "agent": float(rec["cost_agent"]),
+                "gases": float(rec["cost_gases"]),
+                "absorbent": None,
+                "total": float(rec["cost_total"]),
+                "unpriced": [u for u in str(rec.get("unpriced", "")).split(";") if u],
+            }
         elif "cost_total" not in rec:
             item["cost"] = None
         out.append(item)
@@ -167,17 +196,26 @@ def records(df: pd.DataFrame, basis: str, currency: str | None, keep_zero: bool 
 def audit_json(result: AuditResult) -> dict[str, Any]:
     """The ``lowflow audit --json`` document."""
     totals = records(pd.DataFrame([result.totals]), result.basis, result.currency, True)[0] if result.totals else {}
-    kpis = dict(records(pd.DataFrame([{k: v for k, v in result.kpis.items() if not isinstance(v, dict)}]),
-                        result.basis, result.currency)[0])
+    kpis = dict(
+        records(
+            pd.DataFrame([{k: v for k, v in result.kpis.items() if not isinstance(v, dict)}]),
+            result.basis,
+            result.currency,
+        )[0]
+    )
     kpis.pop("cost", None)
     for k, v in result.kpis.items():
         if isinstance(v, dict):
             kpis[k] = {n: (None if isinstance(x, float) and not math.isfinite(x) else x) for n, x in v.items()}
     totals.pop("cost", None)
     if result.currency is not None:
-        totals["cost"] = {"currency": result.currency, "agent": result.totals.get("cost_agent", 0.0),
-                          "gases": result.totals.get("cost_gases", 0.0), "absorbent": None,
-                          "total": result.totals.get("cost_total", 0.0)}
+        totals["cost"] = {
+            "currency": result.currency,
+            "agent": result.totals.get("cost_agent", 0.0),
+            "gases": result.totals.get("cost_gases", 0.0),
+            "absorbent": None,
+            "total": result.totals.get("cost_total", 0.0),
+        }
     else:
         totals["cost"] = None
     return {

@@ -65,10 +65,20 @@ CHECK_WEIGHTS = (0.5, 18.0, 110.0, 300.0)
 AGE_ENTRIES = (c.P_MAC_AGENT, c.P_MAC_N2O)
 #: Output columns of :func:`run_batch` and their units.
 TOTAL_UNITS = {
-    "duration": "min", "agent_liquid": "mL", "agent_vapour": "L", "agent_uptake": "L",
-    "oxygen": "L", "air": "L", "nitrous_oxide": "L", "nitrous_oxide_mass": "g",
-    "co2_absorbed": "L", "absorbent": "g", "mac_hours": "MAC_hour", "volume_deficit": "L",
-    "minimum_inspired_oxygen": "", "final_mac_ratio": "",
+    "duration": "min",
+    "agent_liquid": "mL",
+    "agent_vapour": "L",
+    "agent_uptake": "L",
+    "oxygen": "L",
+    "air": "L",
+    "nitrous_oxide": "L",
+    "nitrous_oxide_mass": "g",
+    "co2_absorbed": "L",
+    "absorbent": "g",
+    "mac_hours": "MAC_hour",
+    "volume_deficit": "L",
+    "minimum_inspired_oxygen": "",
+    "final_mac_ratio": "",
 }
 
 
@@ -135,8 +145,10 @@ def case_template(scenario: Scenario) -> CaseTemplate:
     for wt, (ph, y0) in zip(FIT_WEIGHTS + CHECK_WEIGHTS, runs, strict=True):
         model = coef[0] + coef[1] * wt**0.75 + coef[2] * wt
         if not np.allclose(model, ph, rtol=1e-9, atol=1e-12):
-            raise RuntimeError("phase parameters are not c + a kg^0.75 + b kg in body mass; the batch "
-                               "engine needs updating to the single-case engine")
+            raise RuntimeError(
+                "phase parameters are not c + a kg^0.75 + b kg in body mass; the batch "
+                "engine needs updating to the single-case engine"
+            )
         if initial is not None and not np.allclose(y0, initial, rtol=1e-12, atol=1e-15):
             initial = None
     older, _ = _engine_parameters(scenario, site, 60.0, age + 30.0)
@@ -146,8 +158,9 @@ def case_template(scenario: Scenario) -> CaseTemplate:
         raise RuntimeError("phase parameters depend on age other than through the Mapleson factor of MAC")
     flows = np.array([engine.true_flows(scenario, ph, site) for ph in scenario.phases])
     durations = np.array([ph.duration.to("min").magnitude for ph in scenario.phases])
-    return CaseTemplate(scenario, site, coef, age, initial, durations, flows,
-                        scenario.circuit.deficit_makeup == "room_air")
+    return CaseTemplate(
+        scenario, site, coef, age, initial, durations, flows, scenario.circuit.deficit_makeup == "room_air"
+    )
 
 
 def single_case_scenario(template: CaseTemplate, weight: float, age: float, duration: float) -> Scenario:
@@ -203,9 +216,16 @@ def absolute_tolerance() -> np.ndarray:
     return atol
 
 
-def run_batch(template: CaseTemplate, weights: Sequence[float], ages: Sequence[float],
-              durations: Sequence[float], *, rtol: float = RTOL, chunk: int = CHUNK,
-              progress: Callable[[float], None] | None = None) -> dict[str, np.ndarray]:
+def run_batch(
+    template: CaseTemplate,
+    weights: Sequence[float],
+    ages: Sequence[float],
+    durations: Sequence[float],
+    *,
+    rtol: float = RTOL,
+    chunk: int = CHUNK,
+    progress: Callable[[float], None] | None = None,
+) -> dict[str, np.ndarray]:
     """Totals of many cases of one template.
 
     Parameters
@@ -244,8 +264,9 @@ def run_batch(template: CaseTemplate, weights: Sequence[float], ages: Sequence[f
         st = np.zeros((m, 5), dtype=np.int64)
         integrate_cases(y0, p, np.ascontiguousarray(d), rtol, atol, y1, mk, extra, st)
         if st[:, 4].any():
-            raise RuntimeError("the batch integrator failed (step size collapsed) in "
-                               f"{int((st[:, 4] > 0).sum())} case(s)")
+            raise RuntimeError(
+                f"the batch integrator failed (step size collapsed) in {int((st[:, 4] > 0).sum())} case(s)"
+            )
         for key, v in _totals(template, p[:, 0], y0, y1, d, mk, total[sl]).items():
             out[key][sl] = v
         out["minimum_inspired_oxygen"][sl] = extra[:, 0]
@@ -275,7 +296,9 @@ def _totals(template, p0, y0, y1, d, mk, total) -> dict[str, np.ndarray]:
     n2o_mmol = dy[:, c.Y_FGIN + c.N2O] + dy[:, c.Y_MAKEUP + c.N2O]
     return {
         "duration": total.copy(),
-        "agent_liquid": agent_mmol / 1000 * ag.molar_mass.to("g/mol").magnitude
+        "agent_liquid": agent_mmol
+        / 1000
+        * ag.molar_mass.to("g/mol").magnitude
         / ag.liquid_density.to("g/mL").magnitude,
         "agent_vapour": agent_mmol * lpm,
         "agent_uptake": dy[:, c.Y_UPTAKE + c.AGENT] * lpm,

@@ -56,8 +56,10 @@ from .errors import InputError
 from .properties import AGENTS, CO2E_BASES, GASES, Sourced, validate_records
 from .units import GAS_VOLUME_REFERENCE, Q_, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
 
-RELEASE_NOTE = ("released agent = agent delivered less the share metabolised; the agent taken up "
-                "by the patient is breathed out after the case and is counted as released")
+RELEASE_NOTE = (
+    "released agent = agent delivered less the share metabolised; the agent taken up "
+    "by the patient is breathed out after the case and is counted as released"
+)
 NITROUS_NOTE = "released nitrous oxide = all nitrous oxide delivered, plus manifold losses when piped"
 
 
@@ -96,13 +98,13 @@ def gwp(species: str, basis: str = "ar6_gwp100") -> float:
     if table is None:
         raise InputError("agent", species, "one of " + ", ".join([*sorted(AGENTS), "nitrous_oxide"]))
     if basis not in table.gwp:
-        raise InputError("co2e_basis", basis, f"a basis with a GWP for {species}: "
-                         + ", ".join(sorted(table.gwp)))
+        raise InputError("co2e_basis", basis, f"a basis with a GWP for {species}: " + ", ".join(sorted(table.gwp)))
     return float(table.gwp[basis])
 
 
-def molar_volume(temperature: pint.Quantity = REFERENCE_TEMPERATURE,
-                 pressure: pint.Quantity = REFERENCE_PRESSURE) -> pint.Quantity:
+def molar_volume(
+    temperature: pint.Quantity = REFERENCE_TEMPERATURE, pressure: pint.Quantity = REFERENCE_PRESSURE
+) -> pint.Quantity:
     """Ideal-gas molar volume RT/p [L/mol], by default at the package reference (15 degC, 101.325 kPa).
 
     >>> round(molar_volume().to("L/mol").magnitude, 3)
@@ -113,9 +115,12 @@ def molar_volume(temperature: pint.Quantity = REFERENCE_TEMPERATURE,
     return ideal_molar_volume(temperature, pressure)
 
 
-def vapour_to_mass(volume: pint.Quantity, species: str,
-                   temperature: pint.Quantity = REFERENCE_TEMPERATURE,
-                   pressure: pint.Quantity = REFERENCE_PRESSURE) -> pint.Quantity:
+def vapour_to_mass(
+    volume: pint.Quantity,
+    species: str,
+    temperature: pint.Quantity = REFERENCE_TEMPERATURE,
+    pressure: pint.Quantity = REFERENCE_PRESSURE,
+) -> pint.Quantity:
     """Mass [g] of an agent vapour or a gas volume at (temperature, pressure), ideal gas.
 
     Parameters
@@ -188,8 +193,11 @@ def nitrous_oxide_released(delivered_l: Any, manifold_loss: float = 0.0) -> np.n
     500.0
     """
     if not 0.0 <= manifold_loss < 1.0:
-        raise InputError("manifold_loss", manifold_loss,
-                         "a share of supplied N2O lost before use, 0 to below 1 (0.80-0.98 audited, Thomas 2024)")
+        raise InputError(
+            "manifold_loss",
+            manifold_loss,
+            "a share of supplied N2O lost before use, 0 to below 1 (0.80-0.98 audited, Thomas 2024)",
+        )
     return np.asarray(delivered_l, dtype=float) / (1.0 - manifold_loss)
 
 
@@ -232,15 +240,19 @@ class CarbonResult:
             return {**jsonable(q), "basis": self.basis}
 
         return {
-            "basis": self.basis, "basis_label": self.basis_label, "agent": self.agent,
+            "basis": self.basis,
+            "basis_label": self.basis_label,
+            "agent": self.agent,
             "agent_delivered": jsonable(self.agent_delivered),
             "agent_metabolised": jsonable(self.agent_metabolised),
             "agent_released": jsonable(self.agent_released),
             "nitrous_oxide_released": jsonable(self.nitrous_oxide_released),
-            "agent_co2e": lab(self.agent_co2e), "nitrous_oxide_co2e": lab(self.nitrous_oxide_co2e),
+            "agent_co2e": lab(self.agent_co2e),
+            "nitrous_oxide_co2e": lab(self.nitrous_oxide_co2e),
             "released_co2e": lab(self.released_co2e),
             "supply_co2e": {k: lab(v) for k, v in self.supply_co2e.items()},
-            "total": lab(self.total), "notes": list(self.notes),
+            "total": lab(self.total),
+            "notes": list(self.notes),
             "warnings": [{"code": c, "message": m} for c, m in self.warnings],
             "gas_volume_reference": GAS_VOLUME_REFERENCE,
         }
@@ -253,10 +265,16 @@ def _q(totals: Mapping[str, Any], key: str, unit: str) -> float:
     return float(v.to(unit).magnitude) if isinstance(v, pint.Quantity) else float(v)
 
 
-def case_carbon(totals: Mapping[str, Any], agent_name: str | None, basis: str = "ar6_gwp100", *,
-                manifold_loss: float = 0.0, supply: bool = False,
-                absorbent_factor: pint.Quantity | None = None,
-                oxygen_factor: pint.Quantity | None = None) -> CarbonResult:
+def case_carbon(
+    totals: Mapping[str, Any],
+    agent_name: str | None,
+    basis: str = "ar6_gwp100",
+    *,
+    manifold_loss: float = 0.0,
+    supply: bool = False,
+    absorbent_factor: pint.Quantity | None = None,
+    oxygen_factor: pint.Quantity | None = None,
+) -> CarbonResult:
     """CO2e of one case from engine-style totals.
 
     Parameters
@@ -317,15 +335,28 @@ def case_carbon(totals: Mapping[str, Any], agent_name: str | None, basis: str = 
         if absorbent_factor is not None:
             supply_out["absorbent"] = (Q_(_q(totals, "absorbent", "g"), "g") * absorbent_factor).to("kg")
         elif _q(totals, "absorbent", "g") > 0:
-            warnings.append(("ABSORBENT_SUPPLY_NOT_COUNTED",
-                             "no sourced supply-carbon factor for absorbent is held; give one to count it"))
+            warnings.append(
+                (
+                    "ABSORBENT_SUPPLY_NOT_COUNTED",
+                    "no sourced supply-carbon factor for absorbent is held; give one to count it",
+                )
+            )
         notes.append("supply carbon of air is not counted")
     released_total = agent_kg + n2o_kg
     total = released_total + sum(v.magnitude for v in supply_out.values())
     return CarbonResult(
-        basis=basis, basis_label=label, agent=agent_name,
-        agent_delivered=Q_(delivered, "g"), agent_metabolised=Q_(metabolised, "g"),
-        agent_released=Q_(delivered - metabolised, "g"), nitrous_oxide_released=Q_(n2o_g, "g"),
-        agent_co2e=Q_(agent_kg, "kg"), nitrous_oxide_co2e=Q_(n2o_kg, "kg"),
-        released_co2e=Q_(released_total, "kg"), supply_co2e=supply_out, total=Q_(total, "kg"),
-        notes=tuple(notes), warnings=tuple(warnings))
+        basis=basis,
+        basis_label=label,
+        agent=agent_name,
+        agent_delivered=Q_(delivered, "g"),
+        agent_metabolised=Q_(metabolised, "g"),
+        agent_released=Q_(delivered - metabolised, "g"),
+        nitrous_oxide_released=Q_(n2o_g, "g"),
+        agent_co2e=Q_(agent_kg, "kg"),
+        nitrous_oxide_co2e=Q_(n2o_kg, "kg"),
+        released_co2e=Q_(released_total, "kg"),
+        supply_co2e=supply_out,
+        total=Q_(total, "kg"),
+        notes=tuple(notes),
+        warnings=tuple(warnings),
+    )

@@ -73,8 +73,14 @@ MAPLESON_MIN_AGE = 1.0
 #: Bottle size used for orders when none is given: 250 mL (common practice, no source).
 DEFAULT_BOTTLE = "250 mL"
 #: Patient keys a case-mix template may not override: they are per patient, not per case type.
-_PER_PATIENT = ("oxygen_consumption", "carbon_dioxide_production", "cardiac_output",
-                "alveolar_ventilation", "minute_ventilation", "frc")
+_PER_PATIENT = (
+    "oxygen_consumption",
+    "carbon_dioxide_production",
+    "cardiac_output",
+    "alveolar_ventilation",
+    "minute_ventilation",
+    "frc",
+)
 
 
 class _Strict(BaseModel):
@@ -225,8 +231,9 @@ def _q(value: Value | None, where: str, dim: str, unit: str, lo: float, hi: floa
     return float(q.to(unit).magnitude)
 
 
-def _normal(row: CaseTypeInput, key: str, where: str, dim: str, unit: str, limits: tuple[float, float],
-            default: float) -> Distribution:
+def _normal(
+    row: CaseTypeInput, key: str, where: str, dim: str, unit: str, limits: tuple[float, float], default: float
+) -> Distribution:
     f = f"{where}.{key}"
     mean = _q(getattr(row, f"{key}_mean"), f"{f}_mean", dim, unit, *limits)
     sd = _q(getattr(row, f"{key}_sd"), f"{f}_sd", dim, unit, 0.0, limits[1]) or 0.0
@@ -243,7 +250,9 @@ def _normal(row: CaseTypeInput, key: str, where: str, dim: str, unit: str, limit
     if not lo < hi:
         raise InputError(f"{f}_max", getattr(row, f"{key}_max"), f"above {key}_min, {lo:g} {unit}")
     if not lo <= mean <= hi:
-        raise InputError(f"{f}_mean", getattr(row, f"{key}_mean"), f"within {key}_min to {key}_max, {lo:g} to {hi:g} {unit}")
+        raise InputError(
+            f"{f}_mean", getattr(row, f"{key}_mean"), f"within {key}_min to {key}_max, {lo:g} to {hi:g} {unit}"
+        )
     return Distribution("normal", mean, sd, lo, hi)
 
 
@@ -268,9 +277,11 @@ def _duration(row: CaseTypeInput, where: str, fallback: float | None) -> Distrib
     lo = _q(row.duration_min, f"{where}.duration_min", "time", "min", *lim) or lim[0]
     hi = _q(row.duration_max, f"{where}.duration_max", "time", "min", *lim) or lim[1]
     if not lo < med < hi:
-        raise InputError(f"{where}.duration_max" if med >= hi else f"{where}.duration_min",
-                         row.duration_max if med >= hi else row.duration_min,
-                         f"duration_min below and duration_max above the median, {med:g} min")
+        raise InputError(
+            f"{where}.duration_max" if med >= hi else f"{where}.duration_min",
+            row.duration_max if med >= hi else row.duration_min,
+            f"duration_min below and duration_max above the median, {med:g} min",
+        )
     return Distribution("lognormal", math.log(med), math.log(p90 / med) / Z90, lo, hi)
 
 
@@ -291,22 +302,37 @@ def _count(row: CaseTypeInput, where: str) -> float:
 
 def _inline(row: CaseTypeInput, where: str, weight: float, age: float) -> dict[str, Any]:
     if row.agent is None:
-        raise InputError(f"{where}.agent", "(missing)", "an agent (" + ", ".join(sorted(AGENTS))
-                         + ") or a scenario file")
+        raise InputError(
+            f"{where}.agent", "(missing)", "an agent (" + ", ".join(sorted(AGENTS)) + ") or a scenario file"
+        )
     if row.end_tidal_target is not None and row.vaporizer is not None:
         raise InputError(f"{where}.vaporizer", row.vaporizer, "either end_tidal_target or vaporizer, not both")
-    drive = {"vaporizer": row.vaporizer} if row.vaporizer is not None else \
-        {"end_tidal_target": row.end_tidal_target or "1 MAC"}
+    drive = (
+        {"vaporizer": row.vaporizer}
+        if row.vaporizer is not None
+        else {"end_tidal_target": row.end_tidal_target or "1 MAC"}
+    )
     gas = {"oxygen_fraction": row.oxygen_fraction or "50 %", "balance": row.balance or "air"}
     wash = {"duration": row.wash_in_time or "10 min", "total_flow": row.wash_in_flow or "6 L/min"}
     keep = {"duration": "60 min", "total_flow": row.maintenance_flow or "0.5 L/min"}
-    return {"title": row.name, "patient": {"weight": f"{weight} kg", "age": f"{age} year"},
-            "agent": {"name": row.agent},
-            "phases": [{**wash, **gas, **drive, "label": "wash-in"}, {**keep, **gas, **drive, "label": "maintenance"}]}
+    return {
+        "title": row.name,
+        "patient": {"weight": f"{weight} kg", "age": f"{age} year"},
+        "agent": {"name": row.agent},
+        "phases": [{**wash, **gas, **drive, "label": "wash-in"}, {**keep, **gas, **drive, "label": "maintenance"}],
+    }
 
 
-_INLINE = ("agent", "wash_in_flow", "wash_in_time", "maintenance_flow", "oxygen_fraction", "balance",
-           "end_tidal_target", "vaporizer")
+_INLINE = (
+    "agent",
+    "wash_in_flow",
+    "wash_in_time",
+    "maintenance_flow",
+    "oxygen_fraction",
+    "balance",
+    "end_tidal_target",
+    "vaporizer",
+)
 
 
 def _prefixed(exc: InputError, where: str) -> InputError:
@@ -320,18 +346,26 @@ def case_type(row: CaseTypeInput, where: str, base_dir: Path) -> tuple[CaseType,
     if row.scenario is not None:
         used = [k for k in _INLINE if getattr(row, k) is not None]
         if used:
-            raise InputError(f"{where}.{used[0]}", getattr(row, used[0]), "no inline template keys beside a scenario file")
+            raise InputError(
+                f"{where}.{used[0]}", getattr(row, used[0]), "no inline template keys beside a scenario file"
+            )
         path = (base_dir / row.scenario).resolve()
         if not path.is_file():
-            raise InputError(f"{where}.scenario", row.scenario, "an existing scenario TOML file (relative to the case-mix file)")
+            raise InputError(
+                f"{where}.scenario", row.scenario, "an existing scenario TOML file (relative to the case-mix file)"
+            )
         try:
             sc = load_scenario(path)
         except InputError as exc:
             raise _prefixed(exc, f"{where}.scenario") from None
         over = [k for k in _PER_PATIENT if getattr(sc.patient, k) is not None]
         if over:
-            raise InputError(f"{where}.scenario", row.scenario, f"a template without patient.{over[0]}: the "
-                             "case mix draws each patient's weight, and the Brody laws scale from it")
+            raise InputError(
+                f"{where}.scenario",
+                row.scenario,
+                f"a template without patient.{over[0]}: the "
+                "case mix draws each patient's weight, and the Brody laws scale from it",
+            )
         w0, a0 = sc.patient.weight.to("kg").magnitude, sc.patient.age.to("year").magnitude
     else:
         w0 = _q(row.weight_mean, f"{where}.weight_mean", "mass", "kg", *SANE_WEIGHT)
@@ -348,25 +382,46 @@ def case_type(row: CaseTypeInput, where: str, base_dir: Path) -> tuple[CaseType,
     fallback = sc.duration.to("min").magnitude if row.scenario is not None else None
     duration = _duration(row, where, fallback)
     if weight.low < VALIDATED_WEIGHT[0] or weight.high > VALIDATED_WEIGHT[1]:
-        span = f"weight {weight.low:g} kg is" if weight.kind == "point" else \
-            f"weights {weight.low:g}-{weight.high:g} kg reach"
-        notes.append(("PATIENT_WEIGHT_OUTSIDE_VALIDATED", f"{row.name}: {span} outside {VALIDATED_WEIGHT[0]:g}-{VALIDATED_WEIGHT[1]:g} kg, where the weight power "
-                      "laws are taken as validated; treat those cases as rough"))
+        span = (
+            f"weight {weight.low:g} kg is"
+            if weight.kind == "point"
+            else f"weights {weight.low:g}-{weight.high:g} kg reach"
+        )
+        notes.append(
+            (
+                "PATIENT_WEIGHT_OUTSIDE_VALIDATED",
+                f"{row.name}: {span} outside {VALIDATED_WEIGHT[0]:g}-{VALIDATED_WEIGHT[1]:g} kg, where the weight power "
+                "laws are taken as validated; treat those cases as rough",
+            )
+        )
     if age.low < MAPLESON_MIN_AGE:
-        notes.append(("AGE_BELOW_MAPLESON_RANGE", f"{row.name}: ages from {age.low:g} years; Mapleson's age "
-                      "correction of MAC is fitted from 1 year up"))
+        notes.append(
+            (
+                "AGE_BELOW_MAPLESON_RANGE",
+                f"{row.name}: ages from {age.low:g} years; Mapleson's age correction of MAC is fitted from 1 year up",
+            )
+        )
     if duration.truncated_mass() > 0.01:
-        notes.append(("DURATION_TRUNCATED", f"{row.name}: the duration distribution is truncated to "
-                      f"{duration.low:g}-{duration.high:g} min, which removes {100 * duration.truncated_mass():.1f} % "
-                      "of the log-normal"))
+        notes.append(
+            (
+                "DURATION_TRUNCATED",
+                f"{row.name}: the duration distribution is truncated to "
+                f"{duration.low:g}-{duration.high:g} min, which removes {100 * duration.truncated_mass():.1f} % "
+                "of the log-normal",
+            )
+        )
     ct = CaseType(row.name, sc.agent.name, mean, row.count == "fixed", case_template(sc), duration, weight, age)
     return ct, notes
 
 
 def _inline_key(field_name: str) -> str:
     """Map a field of the generated scenario back to the inline key that set it."""
-    for pattern, key in ((r"phases\[0\]\.(duration)", "wash_in_time"), (r"phases\[0\]\.total_flow", "wash_in_flow"),
-                         (r"phases\[1\]\.total_flow", "maintenance_flow"), (r"agent", "agent")):
+    for pattern, key in (
+        (r"phases\[0\]\.(duration)", "wash_in_time"),
+        (r"phases\[0\]\.total_flow", "wash_in_flow"),
+        (r"phases\[1\]\.total_flow", "maintenance_flow"),
+        (r"agent", "agent"),
+    ):
         if re.match(pattern, field_name):
             return key
     tail = field_name.rsplit(".", 1)[-1]
@@ -399,8 +454,9 @@ def casemix_from_dict(data: dict[str, Any], base_dir: Path | str = ".") -> CaseM
         types.append(ct)
         notes += n
     prices = parse_prices(raw.prices) if raw.prices else None
-    return CaseMix(raw.title, raw.weeks, raw.seed, cover, raw.co2e_basis, loss, tuple(types), prices,
-                   raw.orders, tuple(notes))
+    return CaseMix(
+        raw.title, raw.weeks, raw.seed, cover, raw.co2e_basis, loss, tuple(types), prices, raw.orders, tuple(notes)
+    )
 
 
 def read_case_types_csv(source: Path | str, start: int = 0) -> list[CaseTypeInput]:
@@ -411,7 +467,9 @@ def read_case_types_csv(source: Path | str, start: int = 0) -> list[CaseTypeInpu
     >>> rows[0].weight_mean
     '82 kg'
     """
-    text = read_text_file(source, "case_types_file", "an existing CSV file") if isinstance(source, Path) else str(source)
+    text = (
+        read_text_file(source, "case_types_file", "an existing CSV file") if isinstance(source, Path) else str(source)
+    )
     reader = csv.reader(io.StringIO(text))
     try:
         header = next(reader)
@@ -463,8 +521,9 @@ def load_casemix(source: str | Path) -> CaseMix:
     InputError
         On unreadable TOML or CSV, or any invalid field (named with its row).
     """
-    if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source
-                                    and source.endswith((".toml", ".csv"))):
+    if isinstance(source, Path) or (
+        isinstance(source, str) and "\n" not in source and source.endswith((".toml", ".csv"))
+    ):
         path = Path(source)
         expected = "an existing case-mix file (.toml or .csv)"
         if path.suffix.lower() == ".csv":

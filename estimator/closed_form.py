@@ -89,9 +89,13 @@ def _times(t: Any, field: str, *, allow_zero: bool) -> tuple[np.ndarray, list[Wa
         raise InputError(field, shown, "0 min or more" if allow_zero else "more than 0 min")
     notes: list[Warning] = []
     if (minutes > SQUARE_ROOT_LAW_LIMIT).any():
-        notes.append(("SQUARE_ROOT_LAW_LONG",
-                      f"time beyond {SQUARE_ROOT_LAW_LIMIT:g} min: the square-root-of-time law never "
-                      "saturates and overstates uptake after a few hours"))
+        notes.append(
+            (
+                "SQUARE_ROOT_LAW_LONG",
+                f"time beyond {SQUARE_ROOT_LAW_LIMIT:g} min: the square-root-of-time law never "
+                "saturates and overstates uptake after a few hours",
+            )
+        )
     return minutes, notes
 
 
@@ -103,9 +107,15 @@ def _agent(name: Any, field: str = "agent.name") -> Species:
     return name if isinstance(name, Species) else agent(name, field)
 
 
-def lowe_uptake_coefficient(name: Any, *, weight: Any = "70 kg", age: Any = "40 years",
-                            cardiac_output: Any = None, mac_multiple: float = 1.0,
-                            factor: float = LOWE_FACTOR) -> Estimate:
+def lowe_uptake_coefficient(
+    name: Any,
+    *,
+    weight: Any = "70 kg",
+    age: Any = "40 years",
+    cardiac_output: Any = None,
+    mac_multiple: float = 1.0,
+    factor: float = LOWE_FACTOR,
+) -> Estimate:
     """Lowe's coefficient k = f x MAC x lambda_blood/gas x Q [mL vapour min^-1/2], the rate at 1 min.
 
     Parameters
@@ -149,8 +159,9 @@ def lowe_uptake_coefficient(name: Any, *, weight: Any = "70 kg", age: Any = "40 
         notes.extend(p.warnings)
     else:
         q = parse_quantity(cardiac_output, "patient.cardiac_output", "flow", default_unit="L/min")
-        check_range(q, "patient.cardiac_output", Q_(0, "L/min"), Q_(40, "L/min"), low_inclusive=False,
-                    value=cardiac_output)
+        check_range(
+            q, "patient.cardiac_output", Q_(0, "L/min"), Q_(40, "L/min"), low_inclusive=False, value=cardiac_output
+        )
         q_dl = q.to("dL/min").magnitude
     mac_pct = float(m.mac.to("percent").magnitude)
     k = factor * mac_multiple * mac_pct * sp.blood_gas * q_dl
@@ -237,13 +248,20 @@ def _severinghaus_scale(weight: Any, inspired: Any) -> tuple[float, list[Warning
     kg, frac = float(w.to("kg").magnitude), parse_fraction(inspired, "inspired_nitrous_oxide")
     notes: list[Warning] = []
     if not SEVERINGHAUS_WEIGHT_RANGE[0] <= kg <= SEVERINGHAUS_WEIGHT_RANGE[1]:
-        notes.append(("SEVERINGHAUS_WEIGHT_SCALED",
-                      f"Severinghaus measured adults of about 70 kg; scaled to {kg:g} kg by kg^0.75 "
-                      "(our scaling, not his)"))
+        notes.append(
+            (
+                "SEVERINGHAUS_WEIGHT_SCALED",
+                f"Severinghaus measured adults of about 70 kg; scaled to {kg:g} kg by kg^0.75 (our scaling, not his)",
+            )
+        )
     if not SEVERINGHAUS_FRACTION_RANGE[0] <= frac <= SEVERINGHAUS_FRACTION_RANGE[1]:
-        notes.append(("SEVERINGHAUS_FRACTION_SCALED",
-                      f"Severinghaus measured 65-75 % inspired nitrous oxide; scaled to {100 * frac:g} % "
-                      "in proportion (our scaling, not his)"))
+        notes.append(
+            (
+                "SEVERINGHAUS_FRACTION_SCALED",
+                f"Severinghaus measured 65-75 % inspired nitrous oxide; scaled to {100 * frac:g} % "
+                "in proportion (our scaling, not his)",
+            )
+        )
     scale = (kg / SEVERINGHAUS_WEIGHT) ** 0.75 * frac / SEVERINGHAUS_FRACTION
     return scale, notes
 
@@ -343,8 +361,11 @@ def dion_cost(concentration: Any, fresh_gas_flow: Any, duration: Any, name: Any,
     >>> round(dion_cost("1 %", "1 L/min", "60 min", "isoflurane", 0.25), 3)
     0.765
     """
-    if isinstance(price_per_ml, bool) or not isinstance(price_per_ml, int | float) or not (
-            np.isfinite(price_per_ml) and price_per_ml >= 0):
+    if (
+        isinstance(price_per_ml, bool)
+        or not isinstance(price_per_ml, int | float)
+        or not (np.isfinite(price_per_ml) and price_per_ml >= 0)
+    ):
         raise InputError("price_per_ml", price_per_ml, "a price per mL of 0 or more")
     return float(dion_liquid_volume(concentration, fresh_gas_flow, duration, name).magnitude * price_per_ml)
 
@@ -368,8 +389,14 @@ def molar_volume(temperature: Any = "20 degC", pressure: Any = STANDARD_ATMOSPHE
     return (ureg.molar_gas_constant * temp.to("K") / p).to("L/mol")
 
 
-def liquid_volume_at(concentration: Any, fresh_gas_flow: Any, duration: Any, name: Any,
-                     temperature: Any = "20 degC", pressure: Any = STANDARD_ATMOSPHERE) -> pint.Quantity:
+def liquid_volume_at(
+    concentration: Any,
+    fresh_gas_flow: Any,
+    duration: Any,
+    name: Any,
+    temperature: Any = "20 degC",
+    pressure: Any = STANDARD_ATMOSPHERE,
+) -> pint.Quantity:
     """Dion's formula with the molar volume at the temperature and pressure the flow is measured at.
 
     liquid = C x FGF x t / Vm(T, p) x MW / density, with Vm = R T / p (ideal gas). Dion's 2412

@@ -123,13 +123,16 @@ def _per_ml(p: AgentPriceInput, where: str) -> float | None:
     bottle = _amount(p.agent_bottle, f"{where}.agent_bottle")
     per_ml = _amount(p.agent_per_ml, f"{where}.agent_per_ml")
     if bottle is not None and per_ml is not None:
-        raise InputError(f"{where}.agent_per_ml", per_ml, "either agent_bottle with bottle_volume or agent_per_ml, not both")
+        raise InputError(
+            f"{where}.agent_per_ml", per_ml, "either agent_bottle with bottle_volume or agent_per_ml, not both"
+        )
     if bottle is not None:
         if p.bottle_volume is None:
             raise InputError(f"{where}.bottle_volume", None, "a bottle volume such as '250 mL' beside agent_bottle")
         vol = parse_quantity(p.bottle_volume, f"{where}.bottle_volume", "volume", default_unit="mL")
-        check_range(vol, f"{where}.bottle_volume", Q_(1, "mL"), Q_(5000, "mL"), value=p.bottle_volume,
-                    low_inclusive=True)
+        check_range(
+            vol, f"{where}.bottle_volume", Q_(1, "mL"), Q_(5000, "mL"), value=p.bottle_volume, low_inclusive=True
+        )
         return bottle / vol.to("mL").magnitude
     if p.bottle_volume is not None:
         raise InputError(f"{where}.agent_bottle", None, "a bottle price beside bottle_volume")
@@ -183,9 +186,14 @@ def parse_prices(data: Mapping[str, Any], where: str = "prices") -> Prices:
         check_range(contents, f"{where}.cylinders.{g}.contents", Q_(1, "L"), Q_(100000, "L"), value=cyl.contents)
         per_l[g] = price / contents.to("L").magnitude
     absorbent = _amount(raw.absorbent_per_kg, f"{where}.absorbent_per_kg")
-    return Prices(currency=currency, agent_per_ml=_per_ml(raw, where), agent_per_ml_by_agent=by_agent,
-                  gas_per_litre=per_l, absorbent_per_g=None if absorbent is None else absorbent / 1000.0,
-                  note=raw.note)
+    return Prices(
+        currency=currency,
+        agent_per_ml=_per_ml(raw, where),
+        agent_per_ml_by_agent=by_agent,
+        gas_per_litre=per_l,
+        absorbent_per_g=None if absorbent is None else absorbent / 1000.0,
+        note=raw.note,
+    )
 
 
 def load_prices(source: str | Path) -> Prices:
@@ -194,8 +202,11 @@ def load_prices(source: str | Path) -> Prices:
     >>> load_prices('[prices]\\ncurrency = "EUR"\\nair_per_m3 = 2.0').gas_per_litre["air"]
     0.002
     """
-    path = Path(source) if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source
-                                                        and "=" not in source) else None
+    path = (
+        Path(source)
+        if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source and "=" not in source)
+        else None
+    )
     text = read_text_file(path, "prices", "an existing prices TOML file") if path is not None else str(source)
     try:
         data = tomllib.loads(text)
@@ -291,14 +302,21 @@ def case_cost(totals: Mapping[str, Any], prices: Prices, agent: str | None = Non
         ``currency``, ``agent``, ``gases``, ``absorbent``, ``total`` (plain floats in the currency),
         ``gas_detail`` (per gas) and ``unpriced`` (items used but without a price).
     """
-    row = {"agent": agent or "", "agent_liquid_ml": _mag(totals.get("agent_liquid"), "mL"),
-           "absorbent_g": _mag(totals.get("absorbent"), "g")}
+    row = {
+        "agent": agent or "",
+        "agent_liquid_ml": _mag(totals.get("agent_liquid"), "mL"),
+        "absorbent_g": _mag(totals.get("absorbent"), "g"),
+    }
     for g in GASES_PRICED:
         row[f"{g}_l"] = _mag(totals.get(g), "L")
     t = cost_table(pd.DataFrame([row]), prices).iloc[0]
     detail = {g: row[f"{g}_l"] * prices.gas_per_litre[g] for g in GASES_PRICED if g in prices.gas_per_litre}
-    return {"currency": prices.currency, **{k: float(t[k]) for k in COST_KEYS},
-            "gas_detail": detail, "unpriced": [u for u in str(t["unpriced"]).split(";") if u]}
+    return {
+        "currency": prices.currency,
+        **{k: float(t[k]) for k in COST_KEYS},
+        "gas_detail": detail,
+        "unpriced": [u for u in str(t["unpriced"]).split(";") if u],
+    }
 
 
 def period_cost(costs: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
@@ -311,8 +329,7 @@ def period_cost(costs: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
     currencies = {c["currency"] for c in costs}
     if len(currencies) > 1:
         raise InputError("prices.currency", sorted(currencies), "one currency label for every case (never converted)")
-    out: dict[str, Any] = {"currency": currencies.pop() if currencies else UNSPECIFIED_CURRENCY,
-                           "cases": len(costs)}
+    out: dict[str, Any] = {"currency": currencies.pop() if currencies else UNSPECIFIED_CURRENCY, "cases": len(costs)}
     for k in COST_KEYS:
         out[k] = float(sum(c[k] for c in costs))
     out["unpriced"] = sorted({u for c in costs for u in c.get("unpriced", [])})

@@ -85,8 +85,12 @@ def supply_data() -> dict[str, dict[str, Any]]:
     for section, values in raw.items():
         out[section] = {}
         for key, rec in values.items():
-            if not isinstance(rec, dict) or rec.get("source") not in sources \
-                    or rec.get("confidence") not in CONFIDENCE_CODES or "value" not in rec:
+            if (
+                not isinstance(rec, dict)
+                or rec.get("source") not in sources
+                or rec.get("confidence") not in CONFIDENCE_CODES
+                or "value" not in rec
+            ):
                 raise DataError(f"supply.toml [{section}].{key}: needs value, a known source and a confidence code")
             out[section][key] = rec["value"]
     return out
@@ -156,8 +160,12 @@ def critical_temperature(gas: str) -> pint.Quantity:
     return Q_(_cp()("Tcrit", "", 0, "", 0, _fluid(gas)), "K")
 
 
-def litres_per_kg(gas: str, temperature: pint.Quantity = REFERENCE_TEMPERATURE,
-                  pressure: pint.Quantity = REFERENCE_PRESSURE, real_gas: bool = False) -> pint.Quantity:
+def litres_per_kg(
+    gas: str,
+    temperature: pint.Quantity = REFERENCE_TEMPERATURE,
+    pressure: pint.Quantity = REFERENCE_PRESSURE,
+    real_gas: bool = False,
+) -> pint.Quantity:
     """Free-gas volume of one kilogram [L/kg].
 
     With ``real_gas=False`` (the package convention, used for all contents) the volume is the ideal
@@ -229,10 +237,18 @@ def _count(value: Any, field_name: str) -> int:
     return value
 
 
-def compressed_cylinder(gas: str, water_capacity: Any, pressure: Any, temperature: Any = "15 degC",
-                        reserve_pressure: Any = None, *, count: int = 1, service_pressure: Any = None,
-                        ambient_pressure: pint.Quantity = STANDARD_ATMOSPHERE,
-                        field_prefix: str = "cylinder") -> CylinderContents:
+def compressed_cylinder(
+    gas: str,
+    water_capacity: Any,
+    pressure: Any,
+    temperature: Any = "15 degC",
+    reserve_pressure: Any = None,
+    *,
+    count: int = 1,
+    service_pressure: Any = None,
+    ambient_pressure: pint.Quantity = STANDARD_ATMOSPHERE,
+    field_prefix: str = "cylinder",
+) -> CylinderContents:
     """Contents and usable amount of compressed oxygen or air cylinders, by real-gas density.
 
     Parameters
@@ -265,20 +281,26 @@ def compressed_cylinder(gas: str, water_capacity: Any, pressure: Any, temperatur
     """
     f = field_prefix
     if str(gas).strip().lower() not in COMPRESSED_GASES:
-        raise InputError(f"{f}.gas", gas, "oxygen or air for a cylinder counted by pressure "
-                                          "(nitrous_oxide is counted by weight)")
+        raise InputError(
+            f"{f}.gas", gas, "oxygen or air for a cylinder counted by pressure (nitrous_oxide is counted by weight)"
+        )
     gas = str(gas).strip().lower()
     n = _count(count, f"{f}.count")
     wc = parse_quantity(water_capacity, f"{f}.water_capacity", "volume", default_unit="L")
-    check_range(wc.to("L"), f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False,
-                value=water_capacity)
+    check_range(wc.to("L"), f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False, value=water_capacity)
     t = _temperature(temperature, f"{f}.temperature")
     hi_bar = MAX_PRESSURE_BAR
     notes: list[tuple[str, str]] = []
     if service_pressure is not None:
         sp = parse_pressure(service_pressure, f"{f}.service_pressure").gauge(ambient_pressure)
-        check_range(sp.to("bar"), f"{f}.service_pressure", Q_(0, "bar"), Q_(MAX_PRESSURE_BAR, "bar"),
-                    low_inclusive=False, value=service_pressure)
+        check_range(
+            sp.to("bar"),
+            f"{f}.service_pressure",
+            Q_(0, "bar"),
+            Q_(MAX_PRESSURE_BAR, "bar"),
+            low_inclusive=False,
+            value=service_pressure,
+        )
         hi_bar = sp.to("bar").magnitude
     reading = parse_pressure(pressure, f"{f}.pressure")
     p_gauge = reading.gauge(ambient_pressure).to("bar")
@@ -286,41 +308,84 @@ def compressed_cylinder(gas: str, water_capacity: Any, pressure: Any, temperatur
     check_range(p_gauge, f"{f}.pressure", Q_(0, "bar"), Q_(MAX_PRESSURE_BAR, "bar"), value=pressure)
     rho = molar_density(gas, t, p_abs)
     if service_pressure is not None:
-        settled = Q_(_cp()("P", "T", REFERENCE_TEMPERATURE.to("K").magnitude, "Dmolar",
-                           rho.to("mol/m^3").magnitude, COOLPROP_FLUIDS[gas]), "Pa")
+        settled = Q_(
+            _cp()(
+                "P",
+                "T",
+                REFERENCE_TEMPERATURE.to("K").magnitude,
+                "Dmolar",
+                rho.to("mol/m^3").magnitude,
+                COOLPROP_FLUIDS[gas],
+            ),
+            "Pa",
+        )
         settled_gauge = (settled - ambient_pressure).to("bar").magnitude
         if settled_gauge > hi_bar * (1 + 1e-6):
-            raise InputError(f"{f}.pressure", pressure,
-                             f"0 to {hi_bar:g} bar, the service pressure at 15 degC (this reading "
-                             f"settles to {settled_gauge:.1f} bar at 15 degC)")
-    if reserve_pressure is None or parse_pressure(reserve_pressure, f"{f}.reserve_pressure").gauge(
-            ambient_pressure).magnitude == 0:
-        notes.append(("NO_RESERVE", f"{f}: no change-out reserve pressure set; usable contents assume "
-                                    "the cylinder is run down to ambient pressure"))
+            raise InputError(
+                f"{f}.pressure",
+                pressure,
+                f"0 to {hi_bar:g} bar, the service pressure at 15 degC (this reading "
+                f"settles to {settled_gauge:.1f} bar at 15 degC)",
+            )
+    if (
+        reserve_pressure is None
+        or parse_pressure(reserve_pressure, f"{f}.reserve_pressure").gauge(ambient_pressure).magnitude == 0
+    ):
+        notes.append(
+            (
+                "NO_RESERVE",
+                f"{f}: no change-out reserve pressure set; usable contents assume "
+                "the cylinder is run down to ambient pressure",
+            )
+        )
         r_abs = ambient_pressure.to("kPa")
     else:
         r = parse_pressure(reserve_pressure, f"{f}.reserve_pressure")
-        check_range(r.gauge(ambient_pressure).to("bar"), f"{f}.reserve_pressure", Q_(0, "bar"),
-                    Q_(hi_bar, "bar"), value=reserve_pressure)
+        check_range(
+            r.gauge(ambient_pressure).to("bar"),
+            f"{f}.reserve_pressure",
+            Q_(0, "bar"),
+            Q_(hi_bar, "bar"),
+            value=reserve_pressure,
+        )
         r_abs = r.absolute(ambient_pressure).to("kPa")
     contents = free_gas(rho * wc)
     residual = free_gas(molar_density(gas, t, r_abs) * wc)
     per = contents - residual
     if per.magnitude <= 0:
-        notes.append(("BELOW_RESERVE", f"{f}: the gauge reading is at or below the change-out reserve; "
-                                       "nothing usable is counted"))
+        notes.append(
+            (
+                "BELOW_RESERVE",
+                f"{f}: the gauge reading is at or below the change-out reserve; nothing usable is counted",
+            )
+        )
         per = Q_(0.0, "L")
     ideal = (wc * p_abs / REFERENCE_PRESSURE * REFERENCE_TEMPERATURE.to("K") / t).to("L")
-    return CylinderContents(gas=gas, count=n, contents=contents.to("L"), usable=(per * n).to("L"),
-                            compressibility=compressibility(gas, t, p_abs), ideal_contents=ideal,
-                            pressure=p_abs, phase="gas", warnings=tuple(notes))
+    return CylinderContents(
+        gas=gas,
+        count=n,
+        contents=contents.to("L"),
+        usable=(per * n).to("L"),
+        compressibility=compressibility(gas, t, p_abs),
+        ideal_contents=ideal,
+        pressure=p_abs,
+        phase="gas",
+        warnings=tuple(notes),
+    )
 
 
-def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any = "15 degC", *,
-                           count: int = 1, water_capacity: Any = None, pressure: Any = None,
-                           reserve_weight: Any = None,
-                           ambient_pressure: pint.Quantity = STANDARD_ATMOSPHERE,
-                           field_prefix: str = "cylinder") -> CylinderContents:
+def nitrous_oxide_cylinder(
+    gross_weight: Any,
+    tare_weight: Any,
+    temperature: Any = "15 degC",
+    *,
+    count: int = 1,
+    water_capacity: Any = None,
+    pressure: Any = None,
+    reserve_weight: Any = None,
+    ambient_pressure: pint.Quantity = STANDARD_ATMOSPHERE,
+    field_prefix: str = "cylinder",
+) -> CylinderContents:
     """Contents of nitrous oxide cylinders by weight; the gauge reading is never used for contents.
 
     Parameters
@@ -371,8 +436,7 @@ def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any
     wc = None
     if water_capacity is not None:
         wc = parse_quantity(water_capacity, f"{f}.water_capacity", "volume", default_unit="L").to("L")
-        check_range(wc, f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False,
-                    value=water_capacity)
+        check_range(wc, f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False, value=water_capacity)
         density = (net / wc).to("kg/m^3").magnitude
         if p_sat is not None:
             vapour_density = _cp()("D", "T", t.magnitude, "Q", 1, fluid)
@@ -383,22 +447,35 @@ def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any
             z = compressibility("nitrous_oxide", t, p_state)
         ratio = Q_(supply_data()["nitrous_oxide"]["filling_ratio"]).to("kg/L").magnitude
         if (net / wc).to("kg/L").magnitude > ratio:
-            notes.append(("NITROUS_OXIDE_OVERFILLED", f"{f}: {(net / wc).to('kg/L').magnitude:.2f} kg/L "
-                          f"is above the usual filling ratio of {ratio:g} kg/L (from memory); check the weights"))
+            notes.append(
+                (
+                    "NITROUS_OXIDE_OVERFILLED",
+                    f"{f}: {(net / wc).to('kg/L').magnitude:.2f} kg/L "
+                    f"is above the usual filling ratio of {ratio:g} kg/L (from memory); check the weights",
+                )
+            )
     if phase == "supercritical":
-        msg = (f"{f}: at {t.to('degC').magnitude:.1f} degC the nitrous oxide is above its critical "
-               f"temperature ({tc.to('degC').magnitude:.1f} degC): no liquid remains and the pressure "
-               "follows the gas law; contents still from weight")
+        msg = (
+            f"{f}: at {t.to('degC').magnitude:.1f} degC the nitrous oxide is above its critical "
+            f"temperature ({tc.to('degC').magnitude:.1f} degC): no liquid remains and the pressure "
+            "follows the gas law; contents still from weight"
+        )
         notes.append(("nitrous_oxide_supercritical", msg))
     elif phase == "vapour only":
-        notes.append(("NITROUS_OXIDE_NO_LIQUID", f"{f}: the weight implies no liquid is left; the gauge "
-                      "now falls with use"))
+        notes.append(
+            ("NITROUS_OXIDE_NO_LIQUID", f"{f}: the weight implies no liquid is left; the gauge now falls with use")
+        )
     if pressure is not None and p_sat is not None and phase == "liquid and vapour":
         g = parse_pressure(pressure, f"{f}.pressure").absolute(ambient_pressure)
         if g.to("kPa").magnitude < 0.9 * p_sat.magnitude:
-            notes.append(("NITROUS_OXIDE_GAUGE_LOW", f"{f}: gauge reads below the vapour pressure "
-                          f"({p_sat.to('bar').magnitude:.1f} bar absolute): the weights may be wrong or "
-                          "the cylinder colder than stated; contents are from weight"))
+            notes.append(
+                (
+                    "NITROUS_OXIDE_GAUGE_LOW",
+                    f"{f}: gauge reads below the vapour pressure "
+                    f"({p_sat.to('bar').magnitude:.1f} bar absolute): the weights may be wrong or "
+                    "the cylinder colder than stated; contents are from weight",
+                )
+            )
     reserve = Q_(0.0, "kg")
     if reserve_weight is not None:
         reserve = parse_quantity(reserve_weight, f"{f}.reserve_weight", "mass", default_unit="kg").to("kg")
@@ -411,7 +488,15 @@ def nitrous_oxide_cylinder(gross_weight: Any, tare_weight: Any, temperature: Any
     if usable_mass.magnitude == 0:
         notes.append(("BELOW_RESERVE", f"{f}: net weight is at or below the reserve; nothing usable is counted"))
     contents = free_gas(net / molar_mass)
-    return CylinderContents(gas="nitrous_oxide", count=n, contents=contents,
-                            usable=(free_gas(usable_mass / molar_mass) * n).to("L"), compressibility=z,
-                            pressure=p_state, vapour_pressure=p_sat, net_weight=net, phase=phase,
-                            warnings=tuple(notes))
+    return CylinderContents(
+        gas="nitrous_oxide",
+        count=n,
+        contents=contents,
+        usable=(free_gas(usable_mass / molar_mass) * n).to("L"),
+        compressibility=z,
+        pressure=p_state,
+        vapour_pressure=p_sat,
+        net_weight=net,
+        phase=phase,
+        warnings=tuple(notes),
+    )

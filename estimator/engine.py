@@ -100,16 +100,20 @@ def site_state(scenario: Scenario) -> SiteState:
         if st.argon_fraction is not None:
             argon = st.argon_fraction.to("").magnitude
             if comp[0] + argon > 1.0 + 1e-12:
-                raise InputError("site.argon_fraction", f"{100 * argon:g} %",
-                                 f"at most 100 % - oxygen_purity = {100 * (1 - comp[0]):g} %")
+                raise InputError(
+                    "site.argon_fraction",
+                    f"{100 * argon:g} %",
+                    f"at most 100 % - oxygen_purity = {100 * (1 - comp[0]):g} %",
+                )
             comp = (comp[0], 1.0 - comp[0] - argon, argon)
     elevation = None if site.elevation is None else float(site.elevation.to("m").magnitude)
     return SiteState(p, float(site.temperature.to("K").magnitude), elevation, comp, tuple(site.warnings), site)
 
 
 @lru_cache(maxsize=4096)
-def flowmeter_correction(gas: str, reading: float, ambient_kpa: float, temperature_k: float,
-                         purity: float | None) -> float:
+def flowmeter_correction(
+    gas: str, reading: float, ambient_kpa: float, temperature_k: float, purity: float | None
+) -> float:
     """True ambient flow per unit reading of a tube calibrated for its own gas (estimator.flowmeter)."""
     from .flowmeter import true_flow
     from .site import site_from_inputs
@@ -131,8 +135,12 @@ def true_flows(scenario: Scenario, phase: PhaseInput, site: SiteState) -> tuple[
     out = []
     for gas_name, reading in zip(("oxygen", "air", "nitrous_oxide"), flows, strict=True):
         pur = purity if gas_name == "oxygen" else None
-        out.append(reading * flowmeter_correction(gas_name, round(reading, 9), site.ambient_pressure_kpa,
-                                                  site.temperature_k, pur) if reading > 0 else 0.0)
+        out.append(
+            reading
+            * flowmeter_correction(gas_name, round(reading, 9), site.ambient_pressure_kpa, site.temperature_k, pur)
+            if reading > 0
+            else 0.0
+        )
     return tuple(out)
 
 
@@ -190,7 +198,9 @@ def base_parameters(scenario: Scenario, patient: Patient, site: SiteState) -> np
     p[c.P_FINSP] = scenario.circuit.inspiratory_fraction.to("").magnitude
     amb = pamb / (R_GAS * t_amb) * 1000.0  # mmol per ambient litre
     p[c.P_LEAK] = scenario.circuit.leak.to("L/min").magnitude * amb
-    p[c.P_SAMPLE] = 0.0 if scenario.circuit.sample_returned else scenario.circuit.sample_flow.to("L/min").magnitude * amb
+    p[c.P_SAMPLE] = (
+        0.0 if scenario.circuit.sample_returned else scenario.circuit.sample_flow.to("L/min").magnitude * amb
+    )
     p[c.P_MAKEUP_AIR] = 1.0 if scenario.circuit.deficit_makeup == "room_air" else 0.0
     age = patient.age.to("year").magnitude
     p[c.P_MAC_AGENT] = mac_at_age(ag, age) * 101.325 / pamb
@@ -320,8 +330,9 @@ def simulate(scenario: Scenario, *, rtol: float = RTOL, patient: Patient | None 
     return result
 
 
-def reference_solve(scenario: Scenario, *, method: str = "DOP853", rtol: float = 1e-12, atol: float = 1e-14,
-                    model: Any = None) -> tuple[np.ndarray, np.ndarray]:
+def reference_solve(
+    scenario: Scenario, *, method: str = "DOP853", rtol: float = 1e-12, atol: float = 1e-14, model: Any = None
+) -> tuple[np.ndarray, np.ndarray]:
     """The same model integrated phase by phase with :func:`scipy.integrate.solve_ivp`, for checks.
 
     The engine's own integrator is checked against this (tests and benchmarks/bench_case.py), and a
@@ -372,8 +383,9 @@ def reference_solve(scenario: Scenario, *, method: str = "DOP853", rtol: float =
             model.rhs(yy, p, w, out)
             return out
 
-        sol = solve_ivp(f, (t0, t0 + dur), y, method=method, t_eval=times, rtol=rtol,
-                        atol=atol * np.maximum(1.0, np.abs(y)))
+        sol = solve_ivp(
+            f, (t0, t0 + dur), y, method=method, t_eval=times, rtol=rtol, atol=atol * np.maximum(1.0, np.abs(y))
+        )
         derived.append(c.derived_series(np.ascontiguousarray(sol.y.T), p))
         y = sol.y[:, -1].copy()
         t0 += dur
@@ -384,7 +396,8 @@ def patient_from_scenario(scenario: Scenario) -> Patient:
     """Brody-scaled patient with the scenario's overrides."""
     pt = scenario.patient
     return patient_parameters(
-        pt.weight, pt.age,
+        pt.weight,
+        pt.age,
         oxygen_consumption=pt.oxygen_consumption,
         carbon_dioxide_production=pt.carbon_dioxide_production,
         cardiac_output=pt.cardiac_output,

@@ -38,8 +38,14 @@ if TYPE_CHECKING:
     from .audit import AuditResult
 
 FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
-SUFFIX_UNITS = (("_l_min", "L/min"), ("_kg", "kg CO2e"), ("_ml", "mL"), ("_min", "min"), ("_l", "L"),
-                ("_year", "years"))
+SUFFIX_UNITS = (
+    ("_l_min", "L/min"),
+    ("_kg", "kg CO2e"),
+    ("_ml", "mL"),
+    ("_min", "min"),
+    ("_l", "L"),
+    ("_year", "years"),
+)
 
 
 def neutralise(value: Any) -> Any:
@@ -53,9 +59,12 @@ def neutralise(value: Any) -> Any:
 LABELS = {
     "maintenance_share_le_1": "share of maintenance time at or below 1 L/min",
     "maintenance_share_le_0_5": "share of maintenance time at or below 0.5 L/min",
-    "mac_hours": "MAC-hours", "cases_with_mac_hours": "cases with MAC-hours",
-    "cases_without_mac_hours": "cases without MAC-hours", "mac_hours_note": "MAC-hours note",
-    "min_inspired_oxygen": "lowest inspired O2 (fraction)", "flow_class_shares": "share of maintenance time",
+    "mac_hours": "MAC-hours",
+    "cases_with_mac_hours": "cases with MAC-hours",
+    "cases_without_mac_hours": "cases without MAC-hours",
+    "mac_hours_note": "MAC-hours note",
+    "min_inspired_oxygen": "lowest inspired O2 (fraction)",
+    "flow_class_shares": "share of maintenance time",
     "flow_class_bounds_l_min": "flow class upper bound [L/min]",
 }
 
@@ -123,19 +132,26 @@ def write_xlsx(result: AuditResult, path: str | Path) -> Path:
         for row in ws.iter_rows():
             for cell in row:
                 if isinstance(cell.value, str):
-                    cell.data_type = "s"   # never a formula, whatever the text
+                    cell.data_type = "s"  # never a formula, whatever the text
 
     sheet("cases", export_table(result.cases, result))
     sheet("rooms", export_table(result.rooms, result))
     sheet("months", export_table(result.months, result))
     sheet("kpis", pd.DataFrame(_kpi_rows(result), columns=["kpi", "value"]))
-    sheet("rejections", pd.DataFrame([(line, neutralise(r)) for line, r in result.rejections],
-                                     columns=["line", "reason"]))
-    about = [("rows read", result.rows["read"]), ("rows used", result.rows["used"]),
-             ("rows rejected", result.rows["rejected"]), ("CO2e basis", CO2E_BASES[result.basis][1]),
-             ("gas volumes", GAS_VOLUME_REFERENCE), ("currency", neutralise(result.currency or "no prices")),
-             *[("note", n) for n in result.notes], *[(f"warning {c}", neutralise(m)) for c, m in result.warnings],
-             ("caution", _caution())]
+    sheet(
+        "rejections", pd.DataFrame([(line, neutralise(r)) for line, r in result.rejections], columns=["line", "reason"])
+    )
+    about = [
+        ("rows read", result.rows["read"]),
+        ("rows used", result.rows["used"]),
+        ("rows rejected", result.rows["rejected"]),
+        ("CO2e basis", CO2E_BASES[result.basis][1]),
+        ("gas volumes", GAS_VOLUME_REFERENCE),
+        ("currency", neutralise(result.currency or "no prices")),
+        *[("note", n) for n in result.notes],
+        *[(f"warning {c}", neutralise(m)) for c, m in result.warnings],
+        ("caution", _caution()),
+    ]
     sheet("about", pd.DataFrame(about, columns=["item", "value"]))
     wb.save(path)
     return path
@@ -156,8 +172,15 @@ def _cell(v: Any) -> Any:
 
 
 # ----------------------------------------------------------------------------- HTML report
-def svg_bars(labels: list[str], values: list[float], unit: str, title: str, *, width: int = 640,
-             colours: tuple[str, ...] = ("#3b6e8f",)) -> str:
+def svg_bars(
+    labels: list[str],
+    values: list[float],
+    unit: str,
+    title: str,
+    *,
+    width: int = 640,
+    colours: tuple[str, ...] = ("#3b6e8f",),
+) -> str:
     """A horizontal bar chart as an inline SVG string (labels escaped).
 
     >>> "<svg" in svg_bars(["a<b"], [1.0], "mL", "t") and "a&lt;b" in svg_bars(["a<b"], [1.0], "mL", "t")
@@ -167,8 +190,11 @@ def svg_bars(labels: list[str], values: list[float], unit: str, title: str, *, w
     top = max([abs(v) for v in vals] + [1e-12])
     bar_h, gap, left, right = 18, 6, 170, 110
     height = 28 + len(vals) * (bar_h + gap)
-    parts = [f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
-             f'aria-label="{html.escape(title)}">', f'<text x="0" y="16" class="t">{html.escape(title)}</text>']
+    parts = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
+        f'aria-label="{html.escape(title)}">',
+        f'<text x="0" y="16" class="t">{html.escape(title)}</text>',
+    ]
     span = width - left - right
     for i, (lab, v) in enumerate(zip(labels, vals, strict=True)):
         y = 28 + i * (bar_h + gap)
@@ -191,7 +217,7 @@ def _table(frame: pd.DataFrame, limit: int = 500) -> str:
             text = "" if v is None else (f"{v:.4g}" if isinstance(v, float) else str(v))
             cells.append(f"<td>{html.escape(text)}</td>")
         body.append("<tr>" + "".join(cells) + "</tr>")
-    more = (f"<p>{len(frame) - limit} more rows in the CSV/XLSX export.</p>" if len(frame) > limit else "")
+    more = f"<p>{len(frame) - limit} more rows in the CSV/XLSX export.</p>" if len(frame) > limit else ""
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>{more}"
 
 
@@ -209,13 +235,24 @@ def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
     k = result.kpis
     rooms, months = result.rooms, result.months
     charts = [
-        svg_bars(rooms["room"].astype(str).tolist(), rooms["agent_liquid_ml"].tolist(), "mL",
-                 "Liquid agent delivered per room") if len(rooms) else "",
-        svg_bars(months["month"].astype(str).tolist(), months["co2e_kg"].tolist(), "kg",
-                 f"CO2e per month ({label})") if len(months) else "",
-        svg_bars(list(k["flow_class_shares"]), [100 * (v if v == v else 0.0) for v in k["flow_class_shares"].values()],
-                 "%", "Share of maintenance time per flow class (Baum and Aitkenhead 1995; Brattwall et al. 2012)",
-                 colours=("#5b8c5a", "#7aa35f", "#a7b94f", "#d9a400", "#d9742b", "#c0392b")),
+        svg_bars(
+            rooms["room"].astype(str).tolist(),
+            rooms["agent_liquid_ml"].tolist(),
+            "mL",
+            "Liquid agent delivered per room",
+        )
+        if len(rooms)
+        else "",
+        svg_bars(months["month"].astype(str).tolist(), months["co2e_kg"].tolist(), "kg", f"CO2e per month ({label})")
+        if len(months)
+        else "",
+        svg_bars(
+            list(k["flow_class_shares"]),
+            [100 * (v if v == v else 0.0) for v in k["flow_class_shares"].values()],
+            "%",
+            "Share of maintenance time per flow class (Baum and Aitkenhead 1995; Brattwall et al. 2012)",
+            colours=("#5b8c5a", "#7aa35f", "#a7b94f", "#d9a400", "#d9742b", "#c0392b"),
+        ),
     ]
     cf = result.counterfactual
     cf_html = ""
@@ -225,15 +262,29 @@ def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
         keys = ["agent_liquid", "fresh_gas", "co2e"]
         vals_b = [t["baseline"][x]["magnitude"] for x in keys]
         vals_p = [t["policy"][x]["magnitude"] for x in keys]
-        rows = pd.DataFrame({"quantity": names, cf["baseline"]: vals_b, "policy": vals_p,
-                             "saving": [b - p for b, p in zip(vals_b, vals_p, strict=True)]})
-        cf_html = (f"<h2>Counterfactual: {esc(str(cf['policy']['name']))}</h2><p>{esc(cf['method'])}. "
-                   f"Cases re-run: {t['cases']}; skipped: {len(cf['skipped'])}.</p>" + _table(rows)
-                   + svg_bars([f"{n} ({s})" for n in ("agent", "CO2e") for s in (cf["baseline"], "policy")],
-                              [vals_b[0], vals_p[0], vals_b[2], vals_p[2]], "", "Baseline against policy",
-                              colours=("#3b6e8f", "#5b8c5a")))
-    totals = pd.DataFrame([(_header(c, label, result.currency), v) for c, v in result.totals.items()],
-                          columns=["total", "value"])
+        rows = pd.DataFrame(
+            {
+                "quantity": names,
+                cf["baseline"]: vals_b,
+                "policy": vals_p,
+                "saving": [b - p for b, p in zip(vals_b, vals_p, strict=True)],
+            }
+        )
+        cf_html = (
+            f"<h2>Counterfactual: {esc(str(cf['policy']['name']))}</h2><p>{esc(cf['method'])}. "
+            f"Cases re-run: {t['cases']}; skipped: {len(cf['skipped'])}.</p>"
+            + _table(rows)
+            + svg_bars(
+                [f"{n} ({s})" for n in ("agent", "CO2e") for s in (cf["baseline"], "policy")],
+                [vals_b[0], vals_p[0], vals_b[2], vals_p[2]],
+                "",
+                "Baseline against policy",
+                colours=("#3b6e8f", "#5b8c5a"),
+            )
+        )
+    totals = pd.DataFrame(
+        [(_header(c, label, result.currency), v) for c, v in result.totals.items()], columns=["total", "value"]
+    )
     kpi = pd.DataFrame(_kpi_rows(result), columns=["kpi", "value"])
     rej = pd.DataFrame(result.rejections, columns=["line", "reason"])
     lab = lambda df: export_table(df, result, spreadsheet=False)  # noqa: E731 - headers with units
@@ -241,16 +292,16 @@ def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
     notes = "".join(f"<li>{esc(n)}</li>" for n in result.notes)
     return f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>{esc(title)}</title>
 <style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>
-<p>Rows read {result.rows['read']}, used {result.rows['used']}, rejected {result.rows['rejected']}.
+<p>Rows read {result.rows["read"]}, used {result.rows["used"]}, rejected {result.rows["rejected"]}.
 CO2e basis: {esc(label)}. Gas volumes: {esc(GAS_VOLUME_REFERENCE)}.
-Costs: {esc(result.currency or 'no prices given')}.</p>
+Costs: {esc(result.currency or "no prices given")}.</p>
 <p class="caution">{esc(_caution())}</p>
 <h2>Totals</h2>{_table(totals)}<h2>Key figures</h2>{_table(kpi)}
-<h2>Charts</h2>{''.join(charts)}{cf_html}
+<h2>Charts</h2>{"".join(charts)}{cf_html}
 <h2>Rooms</h2>{_table(lab(rooms))}<h2>Months</h2>{_table(lab(months))}
 <h2>Cases</h2>{_table(lab(result.cases))}
-<h2>Rejected rows</h2>{_table(rej) if len(rej) else '<p>None.</p>'}
-<h2>Warnings</h2><ul>{warn or '<li>None.</li>'}</ul><h2>Method notes</h2><ul>{notes}</ul>
+<h2>Rejected rows</h2>{_table(rej) if len(rej) else "<p>None.</p>"}
+<h2>Warnings</h2><ul>{warn or "<li>None.</li>"}</ul><h2>Method notes</h2><ul>{notes}</ul>
 </body></html>"""
 
 
@@ -261,8 +312,14 @@ def write_html(result: AuditResult, path: str | Path, title: str = "Fresh-gas au
     return path
 
 
-def tables_report_html(title: str, tables: dict[str, pd.DataFrame], *, notes: list[str] | None = None,
-                       warnings: list[tuple[str, str]] | None = None, limit: int = 500) -> str:
+def tables_report_html(
+    title: str,
+    tables: dict[str, pd.DataFrame],
+    *,
+    notes: list[str] | None = None,
+    warnings: list[tuple[str, str]] | None = None,
+    limit: int = 500,
+) -> str:
     """A self-contained HTML report of named tables, with the caution and the warnings.
 
     Every text (title, headings, cells, notes, warnings) is escaped; nothing of the input becomes markup.
@@ -292,6 +349,5 @@ def tables_report_html(title: str, tables: dict[str, pd.DataFrame], *, notes: li
     return f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>{esc(title)}</title>
 <style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>{lines}
 <p class="caution">{esc(_caution())}</p>{sections}
-<h2>Warnings</h2><ul>{warn or '<li>None.</li>'}</ul>
+<h2>Warnings</h2><ul>{warn or "<li>None.</li>"}</ul>
 </body></html>"""
-

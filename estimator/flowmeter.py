@@ -93,7 +93,9 @@ class FlowmeterGeometry:
 
 
 # ---------------------------------------------------------------- the float model (plain SI floats)
-def annulus_flow(reading: Any, cal: tuple[float, float], use: tuple[float, float], geometry: FlowmeterGeometry | None = None) -> dict[str, np.ndarray]:
+def annulus_flow(
+    reading: Any, cal: tuple[float, float], use: tuple[float, float], geometry: FlowmeterGeometry | None = None
+) -> dict[str, np.ndarray]:
     """Solve the float balance: true volumetric flow in the tube at the float height of ``reading``.
 
     Parameters
@@ -118,27 +120,30 @@ def annulus_flow(reading: Any, cal: tuple[float, float], use: tuple[float, float
     g = geometry or FlowmeterGeometry()
     r = np.asarray(reading, dtype=float)
     w = math.pi * g.float_diameter
-    a, b = 12.0 * g.rim_length / w, 1.0 / (2.0 * g.discharge_coefficient ** 2 * w ** 2)
+    a, b = 12.0 * g.rim_length / w, 1.0 / (2.0 * g.discharge_coefficient**2 * w**2)
     (rho_c, mu_c), (rho_u, mu_u) = cal, use
     dp_c = g.pressure_drop
     dp_u = dp_c * (g.float_density - rho_u) / (g.float_density - rho_c)
     live = r > 0
     rs = np.where(live, r, 1.0)
     # 1/gap from a mu_c R y^3 + b rho_c R^2 y^2 = dp_c: Newton from above (convex, increasing).
-    c3, c2 = a * mu_c * rs, b * rho_c * rs ** 2
+    c3, c2 = a * mu_c * rs, b * rho_c * rs**2
     y = np.minimum(np.cbrt(dp_c / c3), np.sqrt(dp_c / c2))
     for _ in range(60):
-        step = (c3 * y ** 3 + c2 * y ** 2 - dp_c) / (3 * c3 * y ** 2 + 2 * c2 * y)
+        step = (c3 * y**3 + c2 * y**2 - dp_c) / (3 * c3 * y**2 + 2 * c2 * y)
         y = y - step
         if np.all(np.abs(step) <= 1e-13 * y):
             break
-    lin, quad = a * mu_u * y ** 3, b * rho_u * y ** 2
-    q = 2.0 * dp_u / (lin + np.sqrt(lin ** 2 + 4.0 * quad * dp_u))
+    lin, quad = a * mu_u * y**3, b * rho_u * y**2
+    q = 2.0 * dp_u / (lin + np.sqrt(lin**2 + 4.0 * quad * dp_u))
     share = lin * q / dp_u
-    return {"flow": np.where(live, q, 0.0), "gap": np.where(live, 1.0 / y, 0.0),
-            "viscous_share": np.where(live, share, 1.0),
-            "reynolds": np.where(live, 2.0 * rho_u * q / (mu_u * w), 0.0),
-            "transition_reynolds": np.where(live, 48.0 * g.discharge_coefficient ** 2 * g.rim_length * y, np.inf)}
+    return {
+        "flow": np.where(live, q, 0.0),
+        "gap": np.where(live, 1.0 / y, 0.0),
+        "viscous_share": np.where(live, share, 1.0),
+        "reynolds": np.where(live, 2.0 * rho_u * q / (mu_u * w), 0.0),
+        "transition_reynolds": np.where(live, 48.0 * g.discharge_coefficient**2 * g.rim_length * y, np.inf),
+    }
 
 
 def regime_of(viscous_share: Any) -> Any:
@@ -196,9 +201,17 @@ def _scalar(x: np.ndarray) -> Any:
     return float(x) if np.ndim(x) == 0 else x
 
 
-def true_flow(reading: Any, calibrated_for: Any, gas_in_use: Any, site: Site, *, purity: Any = None,
-              back_pressure: Any = None, geometry: FlowmeterGeometry | None = None,
-              accuracy: Any = None) -> TrueFlow:
+def true_flow(
+    reading: Any,
+    calibrated_for: Any,
+    gas_in_use: Any,
+    site: Site,
+    *,
+    purity: Any = None,
+    back_pressure: Any = None,
+    geometry: FlowmeterGeometry | None = None,
+    accuracy: Any = None,
+) -> TrueFlow:
     """True flow of ``gas_in_use`` behind a reading on a tube calibrated for ``calibrated_for``.
 
     Parameters
@@ -231,7 +244,11 @@ def true_flow(reading: Any, calibrated_for: Any, gas_in_use: Any, site: Site, *,
     >>> round(r.true_flow_ambient.to("L/min").magnitude, 6)
     5.0
     """
-    if isinstance(reading, pint.Quantity) and np.ndim(reading.magnitude) > 0 and reading.check("[length] ** 3 / [time]"):
+    if (
+        isinstance(reading, pint.Quantity)
+        and np.ndim(reading.magnitude) > 0
+        and reading.check("[length] ** 3 / [time]")
+    ):
         r_lpm = np.asarray(reading.to("L/min").magnitude, dtype=float)  # an array of readings
     else:
         r_lpm = np.asarray(parse_quantity(reading, "reading", "flow", "L/min").to("L/min").magnitude, dtype=float)
@@ -241,8 +258,11 @@ def true_flow(reading: Any, calibrated_for: Any, gas_in_use: Any, site: Site, *,
         raise InputError("purity", purity, "no purity unless a gas is 'concentrator'")
     cal_mix = resolve_gas(calibrated_for, purity, "calibrated_for")
     use_mix = resolve_gas(gas_in_use, purity, "gas")
-    acc = data_value("calibration", "accuracy", "") if accuracy is None else float(
-        parse_quantity(accuracy, "accuracy", "fraction").to("").magnitude)
+    acc = (
+        data_value("calibration", "accuracy", "")
+        if accuracy is None
+        else float(parse_quantity(accuracy, "accuracy", "fraction").to("").magnitude)
+    )
     _check_range(Q_(acc, ""), "accuracy", 0.0, 0.5, value=accuracy)
     bp = Q_(0.0, "kPa") if back_pressure is None else parse_quantity(back_pressure, "back_pressure", "pressure", "kPa")
     _check_range(bp.to("kPa"), "back_pressure", *BACK_PRESSURE_RANGE, value=back_pressure)
@@ -254,8 +274,9 @@ def true_flow(reading: Any, calibrated_for: Any, gas_in_use: Any, site: Site, *,
     cal = mixture_properties(cal_mix, t_cal, p_cal)
     use = mixture_properties(use_mix, t, p_tube)
     rho_amb = mixture_properties(use_mix, t, p_amb)[0]
-    rho_ref = mixture_properties(use_mix, float(REFERENCE_TEMPERATURE.to("K").magnitude),
-                                 float(REFERENCE_PRESSURE.to("Pa").magnitude))[0]
+    rho_ref = mixture_properties(
+        use_mix, float(REFERENCE_TEMPERATURE.to("K").magnitude), float(REFERENCE_PRESSURE.to("Pa").magnitude)
+    )[0]
     per_si = 60000.0  # (L/min) per (m3/s)
     stacked = np.stack([r_lpm, r_lpm * (1 - acc), r_lpm * (1 + acc)]) / per_si
     out = annulus_flow(stacked, cal, use, geometry)
@@ -264,11 +285,21 @@ def true_flow(reading: Any, calibrated_for: Any, gas_in_use: Any, site: Site, *,
 
     notes = list(site.warnings)
     if np.any((r_lpm > 0) & (r_lpm < LOW_READING)):
-        notes.append(("FLOWMETER_LOW_READING", f"reading below {LOW_READING:g} L/min: a float can stick and "
-                      "read wrong by tens of per cent at the bottom of the tube"))
+        notes.append(
+            (
+                "FLOWMETER_LOW_READING",
+                f"reading below {LOW_READING:g} L/min: a float can stick and "
+                "read wrong by tens of per cent at the bottom of the tube",
+            )
+        )
     if cal_mix != use_mix:
-        notes.append(("FLOWMETER_OTHER_GAS", f"tube calibrated for {_label(cal_mix)} used with {_label(use_mix)}: "
-                      "the true flow is a model correction, check it against a reference flowmeter"))
+        notes.append(
+            (
+                "FLOWMETER_OTHER_GAS",
+                f"tube calibrated for {_label(cal_mix)} used with {_label(use_mix)}: "
+                "the true flow is a model correction, check it against a reference flowmeter",
+            )
+        )
     with np.errstate(invalid="ignore", divide="ignore"):
         corr = np.where(r_lpm > 0, q_amb[0] / np.where(r_lpm > 0, r_lpm, 1.0), np.nan)
     return TrueFlow(

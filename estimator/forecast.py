@@ -112,15 +112,22 @@ class ForecastResult:
         """The ``lowflow forecast --json`` contract (see the README)."""
         from .jsonout import jsonable
 
-        return jsonable({
-            "title": self.title, "weeks": self.weeks, "seed": self.seed,
-            "cover": Q_(100 * self.cover, "percent"),
-            "items": self.items, "orders": self.orders, "cost": self.cost, "cases": self.cases,
-            "co2e_basis": basis_label(self.co2e_basis),
-            "warnings": [{"code": c, "message": m} for c, m in self.warnings],
-            "solver": self.solver,
-            "gas_volume_reference": GAS_VOLUME_REFERENCE,
-        })
+        return jsonable(
+            {
+                "title": self.title,
+                "weeks": self.weeks,
+                "seed": self.seed,
+                "cover": Q_(100 * self.cover, "percent"),
+                "items": self.items,
+                "orders": self.orders,
+                "cost": self.cost,
+                "cases": self.cases,
+                "co2e_basis": basis_label(self.co2e_basis),
+                "warnings": [{"code": c, "message": m} for c, m in self.warnings],
+                "solver": self.solver,
+                "gas_volume_reference": GAS_VOLUME_REFERENCE,
+            }
+        )
 
 
 def summary_statistics(values: np.ndarray) -> dict[str, float]:
@@ -141,8 +148,9 @@ def case_co2e(totals: dict[str, np.ndarray], agent: str, basis: str, manifold_lo
     delivered = liquid_to_mass(Q_(totals["agent_liquid"], "mL"), agent).magnitude
     uptake = vapour_to_mass(Q_(totals["agent_uptake"], "L"), agent).magnitude
     released = released_agent_mass(delivered, agent, uptake)
-    n2o_g = vapour_to_mass(Q_(nitrous_oxide_released(totals["nitrous_oxide"], manifold_loss), "L"),
-                           "nitrous_oxide").magnitude
+    n2o_g = vapour_to_mass(
+        Q_(nitrous_oxide_released(totals["nitrous_oxide"], manifold_loss), "L"), "nitrous_oxide"
+    ).magnitude
     return (released * gwp(agent, basis) + n2o_g * gwp("nitrous_oxide", basis)) / 1000.0
 
 
@@ -153,13 +161,20 @@ def _draw(mix: CaseMix, weeks: int, rng: np.random.Generator):
     draws = []
     for j, ct in enumerate(mix.case_types):
         n = int(counts[:, j].sum())
-        draws.append((ct.duration.sample(rng, n), ct.weight.sample(rng, n), ct.age.sample(rng, n),
-                      np.repeat(np.arange(weeks), counts[:, j])))
+        draws.append(
+            (
+                ct.duration.sample(rng, n),
+                ct.weight.sample(rng, n),
+                ct.age.sample(rng, n),
+                np.repeat(np.arange(weeks), counts[:, j]),
+            )
+        )
     return counts, draws
 
 
-def forecast(mix: CaseMix, *, weeks: int | None = None, seed: int | None = None,
-             progress: Callable[[float], None] | None = None) -> ForecastResult:
+def forecast(
+    mix: CaseMix, *, weeks: int | None = None, seed: int | None = None, progress: Callable[[float], None] | None = None
+) -> ForecastResult:
     """Monte-Carlo weekly demand of a case mix.
 
     Parameters
@@ -189,8 +204,16 @@ def forecast(mix: CaseMix, *, weeks: int | None = None, seed: int | None = None,
     counts, draws = _draw(mix, weeks, rng)
     total_cases = int(counts.sum())
     agents = sorted({ct.agent for ct in mix.case_types})
-    units = {"cases": "", "oxygen": "L", "air": "L", "nitrous_oxide": "kg", "absorbent": "kg",
-             "co2e": "kg", "mac_hours": "MAC_hour", **{a: "mL" for a in agents}}
+    units = {
+        "cases": "",
+        "oxygen": "L",
+        "air": "L",
+        "nitrous_oxide": "kg",
+        "absorbent": "kg",
+        "co2e": "kg",
+        "mac_hours": "MAC_hour",
+        **{a: "mL" for a in agents},
+    }
     weekly = {k: np.zeros(weeks) for k in units}
     weekly["cases"] = counts.sum(axis=1).astype(float)
     cost_weekly = np.zeros(weeks) if mix.prices is not None else None
@@ -208,27 +231,54 @@ def forecast(mix: CaseMix, *, weeks: int | None = None, seed: int | None = None,
         tot = run_batch(ct.template, wt, age, dur, progress=report) if n else {k: np.zeros(0) for k in TOTAL_UNITS}
         done += n
         evaluations += int(tot["evaluations"].sum()) if n else 0
-        add = {"oxygen": tot["oxygen"], "air": tot["air"], "nitrous_oxide": tot["nitrous_oxide_mass"] / 1000.0,
-               "absorbent": tot["absorbent"] / 1000.0, "mac_hours": tot["mac_hours"], ct.agent: tot["agent_liquid"],
-               "co2e": case_co2e(tot, ct.agent, mix.co2e_basis, mix.manifold_loss)}
+        add = {
+            "oxygen": tot["oxygen"],
+            "air": tot["air"],
+            "nitrous_oxide": tot["nitrous_oxide_mass"] / 1000.0,
+            "absorbent": tot["absorbent"] / 1000.0,
+            "mac_hours": tot["mac_hours"],
+            ct.agent: tot["agent_liquid"],
+            "co2e": case_co2e(tot, ct.agent, mix.co2e_basis, mix.manifold_loss),
+        }
         for key, v in add.items():
             weekly[key] += np.bincount(week, weights=v, minlength=weeks)
         if cost_weekly is not None and n:
-            usage = pd.DataFrame({"agent": ct.agent, "agent_liquid_ml": tot["agent_liquid"], "oxygen_l": tot["oxygen"],
-                                  "air_l": tot["air"], "nitrous_oxide_l": tot["nitrous_oxide"],
-                                  "absorbent_g": tot["absorbent"]})
+            usage = pd.DataFrame(
+                {
+                    "agent": ct.agent,
+                    "agent_liquid_ml": tot["agent_liquid"],
+                    "oxygen_l": tot["oxygen"],
+                    "air_l": tot["air"],
+                    "nitrous_oxide_l": tot["nitrous_oxide"],
+                    "absorbent_g": tot["absorbent"],
+                }
+            )
             table = cost_table(usage, mix.prices)
             cost_weekly += np.bincount(week, weights=table["total"].to_numpy(), minlength=weeks)
             unpriced |= {u for s in table["unpriced"] for u in s.split(";") if u}
-        flag_rows.append((ct.name, n, {
-            "cut": int((dur < ct.template.fixed_duration).sum()),
-            "hypoxic": int((tot["minimum_inspired_oxygen"] < 0.21).sum()),
-            "low_o2": int((tot["minimum_inspired_oxygen"] < FIO2_ADVISORY).sum()),
-            "deficit": int((tot["volume_deficit"] > 1e-6).sum()),
-            "not_held": int((tot["final_mac_ratio"] < 1.0 - TARGET_BAND).sum())}))
-        cases.append({"name": ct.name, "agent": ct.agent, "mean_per_week": ct.mean_per_week,
-                      "count": "fixed" if ct.fixed else "poisson", "simulated": n,
-                      "mean_duration": Q_(float(dur.mean()) if n else 0.0, "min")})
+        flag_rows.append(
+            (
+                ct.name,
+                n,
+                {
+                    "cut": int((dur < ct.template.fixed_duration).sum()),
+                    "hypoxic": int((tot["minimum_inspired_oxygen"] < 0.21).sum()),
+                    "low_o2": int((tot["minimum_inspired_oxygen"] < FIO2_ADVISORY).sum()),
+                    "deficit": int((tot["volume_deficit"] > 1e-6).sum()),
+                    "not_held": int((tot["final_mac_ratio"] < 1.0 - TARGET_BAND).sum()),
+                },
+            )
+        )
+        cases.append(
+            {
+                "name": ct.name,
+                "agent": ct.agent,
+                "mean_per_week": ct.mean_per_week,
+                "count": "fixed" if ct.fixed else "poisson",
+                "simulated": n,
+                "mean_duration": Q_(float(dur.mean()) if n else 0.0, "min"),
+            }
+        )
     if progress is not None:
         progress(1.0)
     elapsed = time.perf_counter() - t0
@@ -239,33 +289,53 @@ def forecast(mix: CaseMix, *, weeks: int | None = None, seed: int | None = None,
     items = {k: {s: Q_(v, units[k]) for s, v in summary_statistics(weekly[k]).items()} for k in units}
     cost = None
     if cost_weekly is not None:
-        cost = {"currency": mix.prices.currency, **summary_statistics(cost_weekly),
-                "unpriced": sorted(unpriced)}
+        cost = {"currency": mix.prices.currency, **summary_statistics(cost_weekly), "unpriced": sorted(unpriced)}
         weekly["cost"] = cost_weekly
     warns = list(mix.warnings) + _warnings(weeks, flag_rows, unpriced)
     orders = order_list(mix, weekly, units, warns)
-    solver = {"cases": total_cases, "seconds": round(elapsed, 3),
-              "evaluations_per_case": evaluations / total_cases if total_cases else 0.0}
-    return ForecastResult(mix.title, weeks, seed, mix.cover, items, weekly, units, orders, cost, cases,
-                          mix.co2e_basis, warns, solver)
+    solver = {
+        "cases": total_cases,
+        "seconds": round(elapsed, 3),
+        "evaluations_per_case": evaluations / total_cases if total_cases else 0.0,
+    }
+    return ForecastResult(
+        mix.title, weeks, seed, mix.cover, items, weekly, units, orders, cost, cases, mix.co2e_basis, warns, solver
+    )
 
 
 def _warnings(weeks: int, flag_rows: list, unpriced: set[str]) -> list[tuple[str, str]]:
     out = []
     if weeks < FEW_WEEKS:
-        out.append(("FEW_WEEKS", f"{weeks} simulated weeks: the P99 (and less so the P95) is rough; simulate at "
-                    f"least {FEW_WEEKS} weeks for a stable bad-week figure"))
+        out.append(
+            (
+                "FEW_WEEKS",
+                f"{weeks} simulated weeks: the P99 (and less so the P95) is rough; simulate at "
+                f"least {FEW_WEEKS} weeks for a stable bad-week figure",
+            )
+        )
     texts = {
-        "cut": ("CASES_CUT_SHORT", "ended part-way through the template's fixed phases (shorter than "
-                "them, e.g. during the wash-in)"),
-        "hypoxic": ("HYPOXIC_INSPIRED_MIXTURE", "had inspired O2 below 21 %: a hypoxic mixture; raise the O2 "
-                    "flow (checked at the integrator's step ends, so brief dips may be missed)"),
-        "low_o2": ("INSPIRED_OXYGEN_LOW", f"had inspired O2 below the {100 * FIO2_ADVISORY:.0f} % usually kept "
-                   "at low flow (checked at step ends)"),
-        "deficit": ("VOLUME_DEFICIT", "had fresh gas short of uptake, leak and unreturned sample gas (the "
-                    "bag empties); the make-up gas is counted in the totals"),
-        "not_held": ("TARGET_NOT_HELD", "ended below the end-tidal hold target (the "
-                     "vaporizer maximum or the flow limits it)"),
+        "cut": (
+            "CASES_CUT_SHORT",
+            "ended part-way through the template's fixed phases (shorter than them, e.g. during the wash-in)",
+        ),
+        "hypoxic": (
+            "HYPOXIC_INSPIRED_MIXTURE",
+            "had inspired O2 below 21 %: a hypoxic mixture; raise the O2 "
+            "flow (checked at the integrator's step ends, so brief dips may be missed)",
+        ),
+        "low_o2": (
+            "INSPIRED_OXYGEN_LOW",
+            f"had inspired O2 below the {100 * FIO2_ADVISORY:.0f} % usually kept at low flow (checked at step ends)",
+        ),
+        "deficit": (
+            "VOLUME_DEFICIT",
+            "had fresh gas short of uptake, leak and unreturned sample gas (the "
+            "bag empties); the make-up gas is counted in the totals",
+        ),
+        "not_held": (
+            "TARGET_NOT_HELD",
+            "ended below the end-tidal hold target (the vaporizer maximum or the flow limits it)",
+        ),
     }
     for name, n, flags in flag_rows:
         for key, (code, text) in texts.items():
@@ -278,8 +348,11 @@ def _warnings(weeks: int, flag_rows: list, unpriced: set[str]) -> list[tuple[str
 
 def _bottle_ml(mix: CaseMix, agent: str) -> float:
     o = mix.orders
-    value, where = (o.bottle_volumes[agent], f"orders.bottle_volumes.{agent}") if agent in o.bottle_volumes \
+    value, where = (
+        (o.bottle_volumes[agent], f"orders.bottle_volumes.{agent}")
+        if agent in o.bottle_volumes
         else (o.bottle_volume, "orders.bottle_volume")
+    )
     q = parse_quantity(value, where, "volume", default_unit="mL").to("mL").magnitude
     if not 1.0 <= q <= 5000.0:
         raise InputError(where, value, "1 to 5000 mL")
@@ -291,19 +364,30 @@ def cylinder_usable(size: CylinderSize, gas_name: str, where: str) -> pint.Quant
     (:mod:`estimator.cylinders`: real-gas for compressed gases, by weight for nitrous oxide)."""
     if gas_name == "nitrous_oxide":
         if size.gross_weight is None or size.tare_weight is None:
-            raise InputError(f"{where}.gross_weight", size.gross_weight, "gross_weight and tare_weight of a full cylinder")
-        c = nitrous_oxide_cylinder(size.gross_weight, size.tare_weight, size.temperature,
-                                   reserve_weight=size.reserve_weight, field_prefix=where)
+            raise InputError(
+                f"{where}.gross_weight", size.gross_weight, "gross_weight and tare_weight of a full cylinder"
+            )
+        c = nitrous_oxide_cylinder(
+            size.gross_weight,
+            size.tare_weight,
+            size.temperature,
+            reserve_weight=size.reserve_weight,
+            field_prefix=where,
+        )
     else:
         if size.water_capacity is None or size.pressure is None:
-            raise InputError(f"{where}.water_capacity", size.water_capacity, "water_capacity and pressure of a full cylinder")
-        c = compressed_cylinder(gas_name, size.water_capacity, size.pressure, size.temperature,
-                                size.reserve_pressure, field_prefix=where)
+            raise InputError(
+                f"{where}.water_capacity", size.water_capacity, "water_capacity and pressure of a full cylinder"
+            )
+        c = compressed_cylinder(
+            gas_name, size.water_capacity, size.pressure, size.temperature, size.reserve_pressure, field_prefix=where
+        )
     return c.usable.to("L")
 
 
-def order_list(mix: CaseMix, weekly: dict[str, np.ndarray], units: dict[str, str],
-               warns: list[tuple[str, str]]) -> list[dict[str, Any]]:
+def order_list(
+    mix: CaseMix, weekly: dict[str, np.ndarray], units: dict[str, str], warns: list[tuple[str, str]]
+) -> list[dict[str, Any]]:
     """Whole cylinders, bottles and packs that cover the ``mix.cover`` percentile week."""
     q = 100.0 * mix.cover
     out = []
@@ -314,8 +398,11 @@ def order_list(mix: CaseMix, weekly: dict[str, np.ndarray], units: dict[str, str
         if size is None:
             continue
         usable = cylinder_usable(size, g, f"orders.{g}_cylinder")
-        per = usable.magnitude if g != "nitrous_oxide" else \
-            usable.magnitude / reference_molar_volume().to("L/mol").magnitude * mw_n2o / 1000.0
+        per = (
+            usable.magnitude
+            if g != "nitrous_oxide"
+            else usable.magnitude / reference_molar_volume().to("L/mol").magnitude * mw_n2o / 1000.0
+        )
         out.append(_order(g, "cylinder", need, units[g], per, q))
     for a in [k for k in units if units[k] == "mL"]:
         out.append(_order(a, "bottle", float(np.percentile(weekly[a], q)), "mL", _bottle_ml(mix, a), q))
@@ -332,5 +419,11 @@ def order_list(mix: CaseMix, weekly: dict[str, np.ndarray], units: dict[str, str
 
 def _order(item: str, unit: str, need: float, units: str, per_unit: float, q: float) -> dict[str, Any]:
     count = math.ceil(need / per_unit - 1e-9) if per_unit > 0 and need > 0 else 0
-    return {"item": item, "unit": unit, "covers": f"P{q:g}", "need": Q_(need, units),
-            "per_unit": Q_(per_unit, units), "count": int(count)}
+    return {
+        "item": item,
+        "unit": unit,
+        "covers": f"P{q:g}",
+        "need": Q_(need, units),
+        "per_unit": Q_(per_unit, units),
+        "count": int(count),
+    }

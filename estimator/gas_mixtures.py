@@ -36,13 +36,30 @@ from .units import Q_, parse_quantity
 from .units import check_range as _check_range
 
 #: Gases the model knows, with their CoolProp fluid names.
-COOLPROP_NAMES = {"oxygen": "Oxygen", "nitrogen": "Nitrogen", "argon": "Argon", "helium": "Helium",
-                  "nitrous_oxide": "NitrousOxide", "carbon_dioxide": "CarbonDioxide", "air": "Air"}
-_DIMS = {"temperature": "[temperature]", "pressure": "[pressure]", "accuracy": "[]",
-         "float_diameter": "[length]", "rim_length": "[length]", "discharge_coefficient": "[]",
-         "pressure_drop": "[pressure]", "float_density": "[mass] / [length] ** 3", "sigma": "[length]",
-         "epsilon_over_k": "[temperature]", "molar_mass": "[mass] / [substance]", "argon_to_oxygen": "[]",
-         "lowest_pharmacopoeial_purity": "[]"}
+COOLPROP_NAMES = {
+    "oxygen": "Oxygen",
+    "nitrogen": "Nitrogen",
+    "argon": "Argon",
+    "helium": "Helium",
+    "nitrous_oxide": "NitrousOxide",
+    "carbon_dioxide": "CarbonDioxide",
+    "air": "Air",
+}
+_DIMS = {
+    "temperature": "[temperature]",
+    "pressure": "[pressure]",
+    "accuracy": "[]",
+    "float_diameter": "[length]",
+    "rim_length": "[length]",
+    "discharge_coefficient": "[]",
+    "pressure_drop": "[pressure]",
+    "float_density": "[mass] / [length] ** 3",
+    "sigma": "[length]",
+    "epsilon_over_k": "[temperature]",
+    "molar_mass": "[mass] / [substance]",
+    "argon_to_oxygen": "[]",
+    "lowest_pharmacopoeial_purity": "[]",
+}
 
 
 @cache
@@ -157,8 +174,8 @@ def chapman_enskog_viscosity(t: float, sigma: float, epsilon_over_k: float, mola
     20.2
     """
     ts = t / epsilon_over_k
-    omega = 1.16145 * ts ** -0.14874 + 0.52487 * math.exp(-0.77320 * ts) + 2.16178 * math.exp(-2.43787 * ts)
-    return 26.69e-7 * math.sqrt(molar_mass * t) / (sigma ** 2 * omega)
+    omega = 1.16145 * ts**-0.14874 + 0.52487 * math.exp(-0.77320 * ts) + 2.16178 * math.exp(-2.43787 * ts)
+    return 26.69e-7 * math.sqrt(molar_mass * t) / (sigma**2 * omega)
 
 
 @cache
@@ -175,8 +192,12 @@ def pure_gas_properties(name: str, t: float, p: float) -> tuple[float, float, fl
     rho = CP.PropsSI("D", "T", t, "P", p, fluid)
     if f"lennard_jones.{name}" in _data():  # CoolProp has no viscosity model for it
         lj = f"lennard_jones.{name}"
-        mu = chapman_enskog_viscosity(t, data_value(lj, "sigma", "angstrom"), data_value(lj, "epsilon_over_k", "K"),
-                                      data_value(lj, "molar_mass", "g/mol"))
+        mu = chapman_enskog_viscosity(
+            t,
+            data_value(lj, "sigma", "angstrom"),
+            data_value(lj, "epsilon_over_k", "K"),
+            data_value(lj, "molar_mass", "g/mol"),
+        )
     else:
         mu = CP.PropsSI("V", "T", t, "P", p, fluid)
     return rho, mu, CP.PropsSI("M", fluid)
@@ -193,8 +214,9 @@ def wilke_viscosity(x: Any, mu: Any, m: Any) -> float:
     2.0
     """
     x, mu, m = (np.asarray(v, dtype=float) for v in (x, mu, m))
-    phi = (1 + np.sqrt(mu[:, None] / mu[None, :]) * (m[None, :] / m[:, None]) ** 0.25) ** 2 \
-        / np.sqrt(8 * (1 + m[:, None] / m[None, :]))
+    phi = (1 + np.sqrt(mu[:, None] / mu[None, :]) * (m[None, :] / m[:, None]) ** 0.25) ** 2 / np.sqrt(
+        8 * (1 + m[:, None] / m[None, :])
+    )
     return float(np.sum(x * mu / (phi @ x)))
 
 

@@ -46,9 +46,11 @@ MAPLESON_REFERENCE_AGE = 40.0
 MAPLESON_VALID_FROM = 1.0
 #: Ages [year] accepted at all.
 AGE_RANGE = (0.0, 120.0)
-SOURCE = ("Mapleson WW. Br J Anaesth 1996;76:179 (age correction); Nickalls RWD, Mapleson WW. "
-          "Br J Anaesth 2003;91:170 (MAC fractions add, nitrous oxide included); MAC as a partial "
-          "pressure at other ambient pressures: common practice, no source")
+SOURCE = (
+    "Mapleson WW. Br J Anaesth 1996;76:179 (age correction); Nickalls RWD, Mapleson WW. "
+    "Br J Anaesth 2003;91:170 (MAC fractions add, nitrous oxide included); MAC as a partial "
+    "pressure at other ambient pressures: common practice, no source"
+)
 
 Warning = tuple[str, str]
 
@@ -150,24 +152,26 @@ def parse_age(age: Any, field: str = "patient.age") -> tuple[np.ndarray, list[Wa
     >>> parse_age(0.5)[1][0][0]
     'AGE_BELOW_MAPLESON_RANGE'
     """
-    if isinstance(age, np.ndarray | list | tuple) or (
-            isinstance(age, pint.Quantity) and np.ndim(age.magnitude) > 0):
+    if isinstance(age, np.ndarray | list | tuple) or (isinstance(age, pint.Quantity) and np.ndim(age.magnitude) > 0):
         q = age if isinstance(age, pint.Quantity) else Q_(np.asarray(age, dtype=float), "year")
         if not q.check("[time]"):
             raise InputError(field, age, "an age such as '55 years'")
         years = np.asarray(q.to("year").magnitude, dtype=float)
     else:
-        years = np.asarray(parse_quantity(age, field, "age", default_unit="year").to("year").magnitude,
-                           dtype=float)
+        years = np.asarray(parse_quantity(age, field, "age", default_unit="year").to("year").magnitude, dtype=float)
     bad = ~np.isfinite(years) | (years < AGE_RANGE[0]) | (years > AGE_RANGE[1])
     if bad.any():
         shown = age if years.ndim == 0 else f"{years[bad].flat[0]:g} year"
         raise InputError(field, shown, f"{AGE_RANGE[0]:g} to {AGE_RANGE[1]:g} years")
     notes: list[Warning] = []
     if (years < MAPLESON_VALID_FROM).any():
-        notes.append(("AGE_BELOW_MAPLESON_RANGE",
-                      f"age below {MAPLESON_VALID_FROM:g} year: Mapleson's age correction was fitted to "
-                      "ages above 1 year; MAC in infants is not predicted by it"))
+        notes.append(
+            (
+                "AGE_BELOW_MAPLESON_RANGE",
+                f"age below {MAPLESON_VALID_FROM:g} year: Mapleson's age correction was fitted to "
+                "ages above 1 year; MAC in infants is not predicted by it",
+            )
+        )
     return years, notes
 
 
@@ -249,8 +253,15 @@ def mac_at_pressure(mac_one_atmosphere: Any, ambient_pressure: Any) -> pint.Quan
     return (mac * STANDARD_ATMOSPHERE.to("kPa").magnitude / kpa).to("percent")
 
 
-def mac_at_age(name: Any, age: Any, ambient_pressure: Any = None, *, age_field: str = "patient.age",
-               agent_field: str = "agent.name", pressure_field: str = "site.ambient_pressure") -> AgeCorrectedMac:
+def mac_at_age(
+    name: Any,
+    age: Any,
+    ambient_pressure: Any = None,
+    *,
+    age_field: str = "patient.age",
+    agent_field: str = "agent.name",
+    pressure_field: str = "site.ambient_pressure",
+) -> AgeCorrectedMac:
     """Age-corrected MAC of an agent (or nitrous oxide), as a volume percent at the ambient pressure.
 
     Parameters
@@ -284,8 +295,9 @@ def mac_at_age(name: Any, age: Any, ambient_pressure: Any = None, *, age_field: 
     factor = mapleson_factor(years)
     mac40 = sp.mac40.to("percent").magnitude
     mac = Q_(mac40 * factor * STANDARD_ATMOSPHERE.to("kPa").magnitude / kpa, "percent")
-    return AgeCorrectedMac(sp.name, Q_(years if years.ndim else float(years), "year"), mac, factor,
-                           Q_(kpa, "kPa"), tuple(notes + pnotes))
+    return AgeCorrectedMac(
+        sp.name, Q_(years if years.ndim else float(years), "year"), mac, factor, Q_(kpa, "kPa"), tuple(notes + pnotes)
+    )
 
 
 def parse_fraction(value: Any, field: str) -> float:
@@ -341,10 +353,18 @@ def total_mac(end_tidal: dict[str, Any], age: Any, ambient_pressure: Any = None)
     return TotalMac(total, parts, tuple(notes))
 
 
-def end_tidal_for_total_mac(name: Any, total: Any, age: Any, nitrous_oxide: Any = 0.0,
-                            ambient_pressure: Any = None, *, total_field: str = "total_mac",
-                            nitrous_field: str = "nitrous_oxide", age_field: str = "patient.age",
-                            agent_field: str = "agent.name") -> EndTidalForTotal:
+def end_tidal_for_total_mac(
+    name: Any,
+    total: Any,
+    age: Any,
+    nitrous_oxide: Any = 0.0,
+    ambient_pressure: Any = None,
+    *,
+    total_field: str = "total_mac",
+    nitrous_field: str = "nitrous_oxide",
+    age_field: str = "patient.age",
+    agent_field: str = "agent.name",
+) -> EndTidalForTotal:
     """End-tidal agent fraction that, together with the nitrous oxide, gives a requested total MAC.
 
     F_agent = (total - F_N2O / MAC_N2O(age)) x MAC_agent(age), both MACs at the ambient pressure.
@@ -390,22 +410,38 @@ def end_tidal_for_total_mac(name: Any, total: Any, age: Any, nitrous_oxide: Any 
     notes = list(am.warnings)
     rest = want - n2o_mac
     if rest < -1e-12:
-        notes.append(("NITROUS_OXIDE_EXCEEDS_TOTAL",
-                      f"nitrous oxide alone gives {n2o_mac:.2f} MAC, more than the requested {want:g} MAC; "
-                      "no agent concentration can lower it"))
+        notes.append(
+            (
+                "NITROUS_OXIDE_EXCEEDS_TOTAL",
+                f"nitrous oxide alone gives {n2o_mac:.2f} MAC, more than the requested {want:g} MAC; "
+                "no agent concentration can lower it",
+            )
+        )
         return EndTidalForTotal(None, am, Q_(n2o_mac, "MAC"), Q_(want, "MAC"), tuple(notes))
     f_agent = max(rest, 0.0) * am.mac.to("dimensionless").magnitude
     if sp.vaporizer_max is not None and f_agent > sp.vaporizer_max.to("dimensionless").magnitude:
-        notes.append(("END_TIDAL_ABOVE_VAPORIZER_MAX",
-                      f"{100 * f_agent:.2f} % end-tidal {sp.name} is above the vaporizer's maximum dial "
-                      f"{sp.vaporizer_max.to('percent').magnitude:g} %; it cannot be reached"))
+        notes.append(
+            (
+                "END_TIDAL_ABOVE_VAPORIZER_MAX",
+                f"{100 * f_agent:.2f} % end-tidal {sp.name} is above the vaporizer's maximum dial "
+                f"{sp.vaporizer_max.to('percent').magnitude:g} %; it cannot be reached",
+            )
+        )
     if f_agent + f_n2o > 1.0:
-        notes.append(("MIXTURE_ABOVE_100_PERCENT",
-                      f"{100 * f_agent:.1f} % agent and {100 * f_n2o:.1f} % nitrous oxide add up to more "
-                      "than 100 %; this total MAC cannot be given with this nitrous oxide"))
+        notes.append(
+            (
+                "MIXTURE_ABOVE_100_PERCENT",
+                f"{100 * f_agent:.1f} % agent and {100 * f_n2o:.1f} % nitrous oxide add up to more "
+                "than 100 %; this total MAC cannot be given with this nitrous oxide",
+            )
+        )
     elif f_agent + f_n2o > 0.79:
-        notes.append(("OXYGEN_BELOW_AIR",
-                      f"{100 * f_agent:.1f} % agent and {100 * f_n2o:.1f} % nitrous oxide leave less than "
-                      "21 % for oxygen"))
-    return EndTidalForTotal(Q_(f_agent, "dimensionless").to("percent"), am, Q_(n2o_mac, "MAC"),
-                            Q_(want, "MAC"), tuple(notes))
+        notes.append(
+            (
+                "OXYGEN_BELOW_AIR",
+                f"{100 * f_agent:.1f} % agent and {100 * f_n2o:.1f} % nitrous oxide leave less than 21 % for oxygen",
+            )
+        )
+    return EndTidalForTotal(
+        Q_(f_agent, "dimensionless").to("percent"), am, Q_(n2o_mac, "MAC"), Q_(want, "MAC"), tuple(notes)
+    )

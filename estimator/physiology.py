@@ -202,8 +202,10 @@ def patient_parameters(
     kg = w.to("kg").magnitude
     notes: list[tuple[str, str]] = []
     if not VALIDATED_WEIGHT[0] <= kg <= VALIDATED_WEIGHT[1]:
-        msg = (f"patient weight {kg:g} kg is outside {VALIDATED_WEIGHT[0]:g}-{VALIDATED_WEIGHT[1]:g} kg, "
-               "the range over which the weight power laws are taken as validated; treat the results as rough")
+        msg = (
+            f"patient weight {kg:g} kg is outside {VALIDATED_WEIGHT[0]:g}-{VALIDATED_WEIGHT[1]:g} kg, "
+            "the range over which the weight power laws are taken as validated; treat the results as rough"
+        )
         notes.append(("PATIENT_WEIGHT_OUTSIDE_VALIDATED", msg))
 
     def opt(value: Any, name: str, dim: str, default: float, unit: str) -> pint.Quantity:
@@ -214,13 +216,19 @@ def patient_parameters(
         return q.to(unit)
 
     vo2 = opt(oxygen_consumption, "oxygen_consumption", "flow", brody_oxygen_consumption(kg), "mL/min")
-    vco2 = opt(carbon_dioxide_production, "carbon_dioxide_production", "flow",
-               brody_carbon_dioxide_production(kg), "mL/min")
+    vco2 = opt(
+        carbon_dioxide_production, "carbon_dioxide_production", "flow", brody_carbon_dioxide_production(kg), "mL/min"
+    )
     co = opt(cardiac_output, "cardiac_output", "flow", brody_cardiac_output(kg), "L/min")
     paco2 = parse_quantity(target_paco2, "patient.target_paco2", "pressure", default_unit="mmHg")
     check_range(paco2, "patient.target_paco2", Q_(20, "mmHg"), Q_(80, "mmHg"), value=target_paco2)
-    va = opt(alveolar_ventilation_, "alveolar_ventilation", "flow",
-             alveolar_ventilation(vco2.magnitude, paco2.to("mmHg").magnitude), "L/min")
+    va = opt(
+        alveolar_ventilation_,
+        "alveolar_ventilation",
+        "flow",
+        alveolar_ventilation(vco2.magnitude, paco2.to("mmHg").magnitude),
+        "L/min",
+    )
     rr = parse_quantity(respiratory_rate, "patient.respiratory_rate", "rate", default_unit="1/min")
     check_range(rr, "patient.respiratory_rate", Q_(2, "1/min"), Q_(80, "1/min"), value=respiratory_rate)
     if not 0 <= alveolar_dead_space_share < 0.9:
@@ -229,8 +237,11 @@ def patient_parameters(
     ve_default = va.magnitude / (1.0 - alveolar_dead_space_share) + dead
     ve = opt(minute_ventilation, "minute_ventilation", "flow", ve_default, "L/min")
     if ve.magnitude < va.magnitude:
-        raise InputError("patient.minute_ventilation", minute_ventilation,
-                         f"at least the alveolar ventilation, {va.magnitude:.2f} L/min")
+        raise InputError(
+            "patient.minute_ventilation",
+            minute_ventilation,
+            f"at least the alveolar ventilation, {va.magnitude:.2f} L/min",
+        )
     frc_q = opt(frc, "frc", "volume", FRC_PER_KG * kg, "L")
 
     scale = kg / REFERENCE_MASS
@@ -266,4 +277,3 @@ def patient_parameters(
         hepatic_flow=co * HEPATIC_FLOW_SHARE,
         warnings=tuple(notes),
     )
-

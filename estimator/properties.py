@@ -37,8 +37,7 @@ CONFIDENCE_CODES = {
 
 #: Tissue groups of the uptake model, in state order.
 TISSUES = ("vrg", "muscle", "fat", "vpg")
-TISSUE_NAMES = {"vrg": "vessel-rich group", "muscle": "muscle group", "fat": "fat group",
-                "vpg": "vessel-poor group"}
+TISSUE_NAMES = {"vrg": "vessel-rich group", "muscle": "muscle group", "fat": "fat group", "vpg": "vessel-poor group"}
 #: Climate bases: key -> (property name in the data file, label shown beside every figure).
 CO2E_BASES = {
     "ar6_gwp100": ("gwp100_ar6", "IPCC AR6 GWP100"),
@@ -152,7 +151,9 @@ def validate_records(data: dict[str, Any]) -> dict[str, dict[str, Sourced]]:
                     raise DataError(f"agents.toml [{name}].{prop}: unknown source {src!r}")
                 conf = raw.get("confidence")
                 if conf not in CONFIDENCE_CODES:
-                    raise DataError(f"agents.toml [{name}].{prop}: confidence must be one of {sorted(CONFIDENCE_CODES)}")
+                    raise DataError(
+                        f"agents.toml [{name}].{prop}: confidence must be one of {sorted(CONFIDENCE_CODES)}"
+                    )
                 unknown = set(raw) - {"value", "source", "confidence", "note"}
                 if unknown:
                     raise DataError(f"agents.toml [{name}].{prop}: unknown keys {sorted(unknown)}")
@@ -193,8 +194,7 @@ def _build(name: str, kind: str, recs: dict[str, Sourced], formula: str) -> Spec
 def _load() -> tuple[dict[str, Species], dict[str, Species]]:
     data = _raw()
     recs = validate_records(data)
-    agents = {n: _build(n, p.get("kind", "volatile"), recs[n], p.get("formula", ""))
-              for n, p in data["agents"].items()}
+    agents = {n: _build(n, p.get("kind", "volatile"), recs[n], p.get("formula", "")) for n, p in data["agents"].items()}
     gases = {n: _build(n, "gas", recs[n], "") for n in data["gases"]}
     return agents, gases
 
@@ -219,7 +219,9 @@ def agent(name: str, field_name: str = "agent.name") -> Species:
 def gas(name: str, field_name: str = "gas") -> Species:
     """Look up a carrier or inert gas (oxygen, air, nitrous_oxide, nitrogen, argon, carbon_dioxide)."""
     key = str(name).strip().lower().replace(" ", "_").replace("-", "_")
-    key = {"o2": "oxygen", "n2o": "nitrous_oxide", "n2": "nitrogen", "co2": "carbon_dioxide", "ar": "argon"}.get(key, key)
+    key = {"o2": "oxygen", "n2o": "nitrous_oxide", "n2": "nitrogen", "co2": "carbon_dioxide", "ar": "argon"}.get(
+        key, key
+    )
     if key not in GASES:
         raise InputError(field_name, name, "one of " + ", ".join(sorted(GASES)))
     return GASES[key]
@@ -230,7 +232,14 @@ def source_table() -> list[dict[str, str]]:
     rows = []
     for name, recs in validate_records(_raw()).items():
         for prop, rec in recs.items():
-            rows.append({"species": name, "property": prop, "value": str(rec.value),
-                         "confidence": rec.confidence, "source": _raw()["sources"][rec.source],
-                         "note": rec.note})
+            rows.append(
+                {
+                    "species": name,
+                    "property": prop,
+                    "value": str(rec.value),
+                    "confidence": rec.confidence,
+                    "source": _raw()["sources"][rec.source],
+                    "note": rec.note,
+                }
+            )
     return rows

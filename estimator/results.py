@@ -35,14 +35,32 @@ SETTLE = 1.0
 FIO2_ADVISORY = 0.30
 
 SERIES_UNITS = {
-    "time": "min", "phase": "", "inspired_oxygen": "%", "end_tidal_oxygen": "%",
-    "inspired_carbon_dioxide": "%", "end_tidal_carbon_dioxide": "%",
-    "inspired_nitrous_oxide": "%", "end_tidal_nitrous_oxide": "%",
-    "inspired_nitrogen": "%", "end_tidal_nitrogen": "%", "inspired_argon": "%", "end_tidal_argon": "%",
-    "inspired_agent": "%", "end_tidal_agent": "%", "inspired_oxygen_partial_pressure": "kPa", "end_tidal_target": "%", "end_tidal_mac": "MAC",
-    "vaporizer_setting": "%", "delivered_agent": "%", "fresh_gas_flow": "L/min",
-    "exhaust_flow": "L/min", "volume_deficit_flow": "L/min", "oxygen_uptake": "mL/min",
-    "agent_uptake": "mL/min", "nitrous_oxide_uptake": "mL/min", "co2_to_absorbent": "mL/min",
+    "time": "min",
+    "phase": "",
+    "inspired_oxygen": "%",
+    "end_tidal_oxygen": "%",
+    "inspired_carbon_dioxide": "%",
+    "end_tidal_carbon_dioxide": "%",
+    "inspired_nitrous_oxide": "%",
+    "end_tidal_nitrous_oxide": "%",
+    "inspired_nitrogen": "%",
+    "end_tidal_nitrogen": "%",
+    "inspired_argon": "%",
+    "end_tidal_argon": "%",
+    "inspired_agent": "%",
+    "end_tidal_agent": "%",
+    "inspired_oxygen_partial_pressure": "kPa",
+    "end_tidal_target": "%",
+    "end_tidal_mac": "MAC",
+    "vaporizer_setting": "%",
+    "delivered_agent": "%",
+    "fresh_gas_flow": "L/min",
+    "exhaust_flow": "L/min",
+    "volume_deficit_flow": "L/min",
+    "oxygen_uptake": "mL/min",
+    "agent_uptake": "mL/min",
+    "nitrous_oxide_uptake": "mL/min",
+    "co2_to_absorbent": "mL/min",
 }
 
 
@@ -112,16 +130,18 @@ class CaseResult:
         for key in SERIES_UNITS:
             col = f"{key} [{SERIES_UNITS[key]}]" if SERIES_UNITS[key] else key
             series[key] = s[col].tolist()
-        return jsonable({
-            "title": self.scenario.title,
-            "agent": self.scenario.agent.name,
-            "totals": self.totals,
-            "minimum_inspired_oxygen": self.minimum_inspired_oxygen,
-            "cost": self.cost,
-            "warnings": [{"code": code, "message": msg} for code, msg in self.warnings],
-            "phases": self.phases,
-            "series": series,
-            "gas_volume_reference": GAS_VOLUME_REFERENCE,
-            "flow_reference": self.flow_reference,
-            "co2e_basis": CO2E_BASES["ar6_gwp100"][1],
-        })
+        return jsonable(
+            {
+                "title": self.scenario.title,
+                "agent": self.scenario.agent.name,
+                "totals": self.totals,
+                "minimum_inspired_oxygen": self.minimum_inspired_oxygen,
+                "cost": self.cost,
+                "warnings": [{"code": code, "message": msg} for code, msg in self.warnings],
+                "phases": self.phases,
+                "series": series,
+                "gas_volume_reference": GAS_VOLUME_REFERENCE,
+                "flow_reference": self.flow_reference,
+                "co2e_basis": CO2E_BASES["ar6_gwp100"][1],
+            }
+        )

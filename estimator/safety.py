@@ -43,8 +43,16 @@ from .errors import InputError
 from .scenario import PhaseInput, Scenario
 from .units import Q_
 
-LIMITS = ("INSPIRED_O2", "GAS_BALANCE", "TARGET_REACH", "TARGET_HOLD", "BASAL_O2", "O2_PROPORTION",
-          "FLOWMETER_RANGE", "LABEL_SEVOFLURANE_US")
+LIMITS = (
+    "INSPIRED_O2",
+    "GAS_BALANCE",
+    "TARGET_REACH",
+    "TARGET_HOLD",
+    "BASAL_O2",
+    "O2_PROPORTION",
+    "FLOWMETER_RANGE",
+    "LABEL_SEVOFLURANE_US",
+)
 LIMIT_TEXT = {
     "INSPIRED_O2": "inspired O2 would fall below the threshold",
     "GAS_BALANCE": "fresh gas would not cover uptake, leak and unreturned sample gas (the bag empties)",
@@ -106,14 +114,19 @@ class FloorResult:
         from .jsonout import jsonable
         from .units import GAS_VOLUME_REFERENCE
 
-        return jsonable({
-            "threshold_inspired_oxygen": Q_(self.settings.threshold, "dimensionless"),
-            "phases": self.phases, "grid": self.grid, "schedule": self.schedule,
-            "schedule_text": self.schedule_text,
-            "comparison": self.comparison,
-            "warnings": [{"code": k, "message": m} for k, m in self.warnings],
-            "limits": LIMIT_TEXT, "gas_volume_reference": GAS_VOLUME_REFERENCE,
-        })
+        return jsonable(
+            {
+                "threshold_inspired_oxygen": Q_(self.settings.threshold, "dimensionless"),
+                "phases": self.phases,
+                "grid": self.grid,
+                "schedule": self.schedule,
+                "schedule_text": self.schedule_text,
+                "comparison": self.comparison,
+                "warnings": [{"code": k, "message": m} for k, m in self.warnings],
+                "limits": LIMIT_TEXT,
+                "gas_volume_reference": GAS_VOLUME_REFERENCE,
+            }
+        )
 
 
 def settings_from(scenario: Scenario, threshold: float | None = None) -> Settings:
@@ -128,14 +141,27 @@ def settings_from(scenario: Scenario, threshold: float | None = None) -> Setting
         ambient = engine.site_state(scenario).ambient_pressure_kpa
         at_site = float(fraction_for_sea_level_threshold(thr, Q_(ambient, "kPa")))
         if at_site > 1.0:
-            raise InputError("flow_floor.threshold_inspired_oxygen", thr,
-                             f"a PiO2 reachable at {ambient:.1f} kPa (even 100 % O2 gives less)")
+            raise InputError(
+                "flow_floor.threshold_inspired_oxygen",
+                thr,
+                f"a PiO2 reachable at {ambient:.1f} kPa (even 100 % O2 gives less)",
+            )
         thr = at_site
-    bands = [(b.up_to.to("L/min").magnitude, b.step.to("L/min").magnitude) for b in ff.scale] \
-        if ff.scale else list(DEFAULT_SCALE)
-    return Settings(thr, ff.reach_within.to("min").magnitude, ff.basal_oxygen_flow.to("L/min").magnitude,
-                    ff.minimum_oxygen_share.to("").magnitude, ff.maximum_flow.to("L/min").magnitude,
-                    ff.grid_interval.to("min").magnitude, settable_values(bands), tuple(ff.policies))
+    bands = (
+        [(b.up_to.to("L/min").magnitude, b.step.to("L/min").magnitude) for b in ff.scale]
+        if ff.scale
+        else list(DEFAULT_SCALE)
+    )
+    return Settings(
+        thr,
+        ff.reach_within.to("min").magnitude,
+        ff.basal_oxygen_flow.to("L/min").magnitude,
+        ff.minimum_oxygen_share.to("").magnitude,
+        ff.maximum_flow.to("L/min").magnitude,
+        ff.grid_interval.to("min").magnitude,
+        settable_values(bands),
+        tuple(ff.policies),
+    )
 
 
 def settable_values(bands: list[tuple[float, float]]) -> np.ndarray:
@@ -147,8 +173,11 @@ def settable_values(bands: list[tuple[float, float]]) -> np.ndarray:
     values, low = [], 0.0
     for i, (up, step) in enumerate(sorted(bands)):
         if up <= low or step <= 0:
-            raise InputError(f"flow_floor.scale[{i}]", f"up_to {up:g}, step {step:g}",
-                             "bands with increasing up_to and a step above 0")
+            raise InputError(
+                f"flow_floor.scale[{i}]",
+                f"up_to {up:g}, step {step:g}",
+                "bands with increasing up_to and a step above 0",
+            )
         n = int(math.floor((up - low) / step + 1e-9))
         values += [round(low + k * step, 9) for k in range(1, n + 1)]
         low = values[-1] if values else up
@@ -186,8 +215,16 @@ def candidates(phase: PhaseInput, st: Settings) -> list[tuple[float, float, floa
 
 def _with_flows(phase: PhaseInput, flows: tuple[float, float, float]) -> PhaseInput:
     o2, air, n2o = (Q_(v, "L/min") for v in flows)
-    return phase.model_copy(update={"oxygen": o2, "air": air, "nitrous_oxide": n2o, "oxygen_fraction": None,
-                                    "total_flow": None, "balance": None})
+    return phase.model_copy(
+        update={
+            "oxygen": o2,
+            "air": air,
+            "nitrous_oxide": n2o,
+            "oxygen_fraction": None,
+            "total_flow": None,
+            "balance": None,
+        }
+    )
 
 
 def static_failures(flows: tuple[float, float, float], st: Settings, agent_name: str) -> list[str]:
@@ -263,7 +300,9 @@ class Planner:
         if "sevoflurane_us_label" in self.st.policies and self.sc.agent.name == "sevoflurane":
             total = sum(flows)
             used = mac_before + (mac_min / 60 if total < 2.0 - 1e-9 else 0.0)
-            margins["LABEL_SEVOFLURANE_US"] = Q_(2.0 - used, "MAC_hour") if total < 2.0 - 1e-9 else Q_(total - 1.0, "L/min")
+            margins["LABEL_SEVOFLURANE_US"] = (
+                Q_(2.0 - used, "MAC_hour") if total < 2.0 - 1e-9 else Q_(total - 1.0, "L/min")
+            )
             if total < 2.0 - 1e-9 and used > 2.0 + 1e-9 and "LABEL_SEVOFLURANE_US" not in failed:
                 failed.append("LABEL_SEVOFLURANE_US")
         return Check(sorted(set(failed), key=LIMITS.index), margins, ys[-1].copy(), mac_min)
@@ -364,12 +403,15 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
         chk = res["check"] if res["flows"] else pl.check(ph, chosen, y, t, t, t + dur, mac_low)
         total = float(sum(chosen))
         entry = {
-            "index": i, "label": ph.label or _phase_label(n, len(live)),
-            "start": Q_(t, "min"), "end": Q_(t + dur, "min"),
+            "index": i,
+            "label": ph.label or _phase_label(n, len(live)),
+            "start": Q_(t, "min"),
+            "end": Q_(t + dur, "min"),
             "floor": Q_(total, "L/min") if res["flows"] else None,
             "flows": _flow_dict(chosen) if res["flows"] else None,
             "binding": res["binding"][0] if res["binding"] else None,
-            "binding_all": res["binding"], "binding_text": LIMIT_TEXT.get(res["binding"][0], "") if res["binding"] else "",
+            "binding_all": res["binding"],
+            "binding_text": LIMIT_TEXT.get(res["binding"][0], "") if res["binding"] else "",
             "margins": {k: v for k, v in (chk.margins if chk else {}).items() if k not in res["binding"]},
             "planned_total": Q_(float(sum(planned)), "L/min"),
             "flow_class": f"{flow_class(total)} flow ({FLOW_CLASS_SOURCE})" if res["flows"] else None,
@@ -380,8 +422,17 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
             entry["lowest_oxygen_flow"] = Q_(o2min, "L/min") if o2min is not None else None
             new_phases[i] = _with_flows(ph, chosen)
         phases_out.append(entry)
-        schedule.append({"index": i, "label": entry["label"], "start": Q_(t, "min"), "duration": Q_(dur, "min"),
-                         "total": Q_(total, "L/min"), **_flow_dict(chosen), "settable": bool(res["flows"])})
+        schedule.append(
+            {
+                "index": i,
+                "label": entry["label"],
+                "start": Q_(t, "min"),
+                "duration": Q_(dur, "min"),
+                "total": Q_(total, "L/min"),
+                **_flow_dict(chosen),
+                "settable": bool(res["flows"]),
+            }
+        )
         if total < 2.0 - 1e-9:
             mac_low += chk.mac_minutes / 60
         y = chk.end_state
@@ -405,18 +456,25 @@ def _grid(pl: Planner, scenario: Scenario, live) -> list[dict[str, Any]]:
         times, ys, _, _ = pl.run(ph, y, t, t + dur, pl.st.grid)
         for tg, yg in zip(times[:-1], ys[:-1], strict=True):
             res = pl.floor(ph, yg, tg, t, t + dur)
-            out.append({"time": Q_(float(tg), "min"),
-                        "floor": Q_(float(sum(res["flows"])), "L/min") if res["flows"] else None,
-                        "binding": res["binding"][0] if res["binding"] else None})
+            out.append(
+                {
+                    "time": Q_(float(tg), "min"),
+                    "floor": Q_(float(sum(res["flows"])), "L/min") if res["flows"] else None,
+                    "binding": res["binding"][0] if res["binding"] else None,
+                }
+            )
         y, t = ys[-1].copy(), t + dur
     return out
 
 
 def _compare(plan, rec) -> dict[str, Any]:
     keys = ("agent_liquid", "oxygen", "air", "nitrous_oxide", "co2e", "mean_fresh_gas_flow", "mac_hours")
-    return {"plan": {k: plan.totals[k] for k in keys}, "recommended": {k: rec.totals[k] for k in keys},
-            "saving": {k: plan.totals[k] - rec.totals[k] for k in keys},
-            "recommended_warnings": [{"code": k, "message": m} for k, m in rec.warnings]}
+    return {
+        "plan": {k: plan.totals[k] for k in keys},
+        "recommended": {k: rec.totals[k] for k in keys},
+        "saving": {k: plan.totals[k] - rec.totals[k] for k in keys},
+        "recommended_warnings": [{"code": k, "message": m} for k, m in rec.warnings],
+    }
 
 
 def schedule_text(schedule: list[dict[str, Any]]) -> str:

@@ -149,16 +149,20 @@ class PhaseInput(_Model):
         by_fraction = self.oxygen_fraction is not None or self.total_flow is not None
         by_flows = any(v is not None for v in (self.oxygen, self.air, self.nitrous_oxide))
         if by_fraction and by_flows:
-            raise ValueError("oxygen_fraction: give flows (oxygen, air, nitrous_oxide) or "
-                             "oxygen_fraction with total_flow, not both")
+            raise ValueError(
+                "oxygen_fraction: give flows (oxygen, air, nitrous_oxide) or oxygen_fraction with total_flow, not both"
+            )
         if by_fraction and (self.oxygen_fraction is None or self.total_flow is None):
             raise ValueError("total_flow: oxygen_fraction and total_flow go together")
         if self.balance is not None and not by_fraction:
             raise ValueError("balance: only with oxygen_fraction and total_flow")
         if (self.vaporizer is None) == (self.end_tidal_target is None):
             raise ValueError("vaporizer: give exactly one of vaporizer or end_tidal_target")
-        if self.balance == "air" and self.oxygen_fraction is not None and \
-                self.oxygen_fraction.to("").magnitude < _AIR_O2:
+        if (
+            self.balance == "air"
+            and self.oxygen_fraction is not None
+            and self.oxygen_fraction.to("").magnitude < _AIR_O2
+        ):
             raise ValueError(f"oxygen_fraction: at least {_AIR_O2:.4f} with an air balance")
         return self
 
@@ -256,7 +260,9 @@ def _loc(loc: tuple[Any, ...]) -> str:
     for part in loc:
         if isinstance(part, int):
             out += f"[{part}]"
-        elif part not in ("function-before[check(), lambda]",) and not str(part).startswith(("function-", "lax-", "union[")):
+        elif part not in ("function-before[check(), lambda]",) and not str(part).startswith(
+            ("function-", "lax-", "union[")
+        ):
             out += ("." if out else "") + str(part)
     return out
 

@@ -65,6 +65,7 @@ def _out(x: Any) -> Any:
     arr = np.asarray(x, dtype=float)
     return float(arr) if arr.ndim == 0 else arr
 
+
 #: Elevations [m] the troposphere formula covers; above HABITATION_LIMIT a warning.
 ELEVATION_RANGE = (-500.0, 11000.0)
 HABITATION_LIMIT = 6000.0
@@ -148,8 +149,11 @@ def standard_atmosphere(elevation: pint.Quantity, geopotential: bool = False) ->
     """
     h = np.asarray(elevation.to("m").magnitude, dtype=float)
     if np.any(h < ELEVATION_RANGE[0]) or np.any(h > ELEVATION_RANGE[1]):
-        raise InputError("site.elevation", f"{elevation:~P}",
-                         f"{ELEVATION_RANGE[0]:g} to {ELEVATION_RANGE[1]:g} m (ISO 2533 troposphere)")
+        raise InputError(
+            "site.elevation",
+            f"{elevation:~P}",
+            f"{ELEVATION_RANGE[0]:g} to {ELEVATION_RANGE[1]:g} m (ISO 2533 troposphere)",
+        )
     big_h = h if geopotential else geopotential_height(h)
     temperature = T0 - LAPSE_RATE * big_h
     pressure = P0 * (temperature / T0) ** EXPONENT
@@ -180,8 +184,13 @@ def pressure_altitude(pressure: pint.Quantity) -> pint.Quantity:
 
 def _height_warning(elevation_m: float) -> list[tuple[str, str]]:
     if elevation_m > HABITATION_LIMIT:
-        return [("SITE_ABOVE_HABITATION", f"elevation {elevation_m:.0f} m is above {HABITATION_LIMIT:.0f} m: "
-                 "no permanent habitation; the site models are not validated there")]
+        return [
+            (
+                "SITE_ABOVE_HABITATION",
+                f"elevation {elevation_m:.0f} m is above {HABITATION_LIMIT:.0f} m: "
+                "no permanent habitation; the site models are not validated there",
+            )
+        ]
     return []
 
 
@@ -217,14 +226,28 @@ def site_from_inputs(elevation: Any = None, ambient_pressure: Any = None, temper
     'sea level (default)'
     """
     notes: list[tuple[str, str]] = []
-    temp = DEFAULT_TEMPERATURE if temperature is None else parse_quantity(temperature, "site.temperature", "temperature", "degC")
-    check_range(temp.to("degC"), "site.temperature", Q_(TEMPERATURE_RANGE[0], "degC"),
-                Q_(TEMPERATURE_RANGE[1], "degC"), value=temperature)
+    temp = (
+        DEFAULT_TEMPERATURE
+        if temperature is None
+        else parse_quantity(temperature, "site.temperature", "temperature", "degC")
+    )
+    check_range(
+        temp.to("degC"),
+        "site.temperature",
+        Q_(TEMPERATURE_RANGE[0], "degC"),
+        Q_(TEMPERATURE_RANGE[1], "degC"),
+        value=temperature,
+    )
     t_c = float(temp.to("degC").magnitude)
     if not TEMPERATURE_USUAL[0] <= t_c <= TEMPERATURE_USUAL[1]:
-        notes.append(("SITE_TEMPERATURE_UNUSUAL", f"room temperature {t_c:g} degC is outside "
-                      f"{TEMPERATURE_USUAL[0]:g} to {TEMPERATURE_USUAL[1]:g} degC, the usual operating range of "
-                      "anaesthetic equipment"))
+        notes.append(
+            (
+                "SITE_TEMPERATURE_UNUSUAL",
+                f"room temperature {t_c:g} degC is outside "
+                f"{TEMPERATURE_USUAL[0]:g} to {TEMPERATURE_USUAL[1]:g} degC, the usual operating range of "
+                "anaesthetic equipment",
+            )
+        )
     elev = None
     if elevation is not None:
         elev = parse_quantity(elevation, "site.elevation", "length", "m")
@@ -244,9 +267,12 @@ def site_from_inputs(elevation: Any = None, ambient_pressure: Any = None, temper
         p_std = float(standard_atmosphere(elev)[0].magnitude)
         lo, hi = (p_std * k for k in PRESSURE_CONSISTENCY)
         if not lo <= float(pres.magnitude) <= hi:
-            raise InputError("site.ambient_pressure", ambient_pressure,
-                             f"{lo:.1f} to {hi:.1f} kPa to fit elevation {elev:~P} (standard {p_std:.1f} kPa); "
-                             "give an absolute pressure, or only one of the two")
+            raise InputError(
+                "site.ambient_pressure",
+                ambient_pressure,
+                f"{lo:.1f} to {hi:.1f} kPa to fit elevation {elev:~P} (standard {p_std:.1f} kPa); "
+                "give an absolute pressure, or only one of the two",
+            )
     notes += _height_warning(float(pressure_altitude(pres).magnitude))
     return Site(elev, pres, temp, tuple(notes), "measured pressure")
 
@@ -327,12 +353,21 @@ def check_inspired_oxygen(fio2: Any, threshold: Any, ambient: pint.Quantity) -> 
     sea_pio2 = float(inspired_oxygen_partial_pressure(thr, STANDARD_ATMOSPHERE).magnitude)
     out: list[tuple[str, str]] = []
     if need > 1.0:
-        out.append(("PIO2_THRESHOLD_UNREACHABLE", f"at {ambient.to('kPa').magnitude:.1f} kPa even 100 % oxygen "
-                    f"gives a PiO2 below {sea_pio2:.1f} kPa, the sea-level PiO2 of FiO2 {thr:.2f}"))
+        out.append(
+            (
+                "PIO2_THRESHOLD_UNREACHABLE",
+                f"at {ambient.to('kPa').magnitude:.1f} kPa even 100 % oxygen "
+                f"gives a PiO2 below {sea_pio2:.1f} kPa, the sea-level PiO2 of FiO2 {thr:.2f}",
+            )
+        )
     short = (f >= thr) & (f < need)
     if np.any(short):
-        out.append(("PIO2_BELOW_SEA_LEVEL_THRESHOLD",
-                    f"FiO2 {float(np.min(f[short])):.2f} meets the {thr:.2f} threshold but at "
-                    f"{ambient.to('kPa').magnitude:.1f} kPa gives PiO2 below {sea_pio2:.1f} kPa (its sea-level value); "
-                    f"FiO2 {min(need, 1.0):.2f} is needed for the same PiO2"))
+        out.append(
+            (
+                "PIO2_BELOW_SEA_LEVEL_THRESHOLD",
+                f"FiO2 {float(np.min(f[short])):.2f} meets the {thr:.2f} threshold but at "
+                f"{ambient.to('kPa').magnitude:.1f} kPa gives PiO2 below {sea_pio2:.1f} kPa (its sea-level value); "
+                f"FiO2 {min(need, 1.0):.2f} is needed for the same PiO2",
+            )
+        )
     return out

@@ -82,7 +82,6 @@ from .units import (
 __all__ = ["Inventory", "SupplyItem", "SupplyReport", "load_inventory", "plan_supply"]
 
 
-
 @dataclass(frozen=True)
 class SupplyItem:
     """One inventory entry and how long it lasts.
@@ -128,21 +127,41 @@ class SupplyReport:
 
         cols = [c for c in self.depletion.columns if c != "date"]
         units = {re.sub(r" \[.*\]$", "", c): re.search(r"\[(.*)\]$", c).group(1) for c in cols}
-        depletion = {"day": self.depletion.index.tolist(),
-                     "date": [d.isoformat() for d in self.depletion["date"]],
-                     "units": units,
-                     "remaining": {re.sub(r" \[.*\]$", "", c): self.depletion[c].tolist() for c in cols}}
-        return jsonable({
-            "title": self.title, "start": self.start,
-            "items": [{"name": i.name, "kind": i.kind, "supply": i.supply, "usable": i.usable,
-                       "runtime": i.runtime, "status": i.status, "draw_per_day": i.draw_per_day,
-                       "details": i.details} for i in self.items],
-            "supplies": self.supplies, "bottleneck": self.bottleneck,
-            "bottleneck_supply": self.bottleneck_supply, "days_of_supply": self.days_of_supply,
-            "cases_possible": self.cases_possible, "cases_possible_by_plan": self.cases_possible_by_plan,
-            "reorder_by": self.reorder_by, "depletion": depletion,
-            "warnings": [{"code": c, "message": m} for c, m in self.warnings],
-            "gas_volume_reference": self.gas_volume_reference})
+        depletion = {
+            "day": self.depletion.index.tolist(),
+            "date": [d.isoformat() for d in self.depletion["date"]],
+            "units": units,
+            "remaining": {re.sub(r" \[.*\]$", "", c): self.depletion[c].tolist() for c in cols},
+        }
+        return jsonable(
+            {
+                "title": self.title,
+                "start": self.start,
+                "items": [
+                    {
+                        "name": i.name,
+                        "kind": i.kind,
+                        "supply": i.supply,
+                        "usable": i.usable,
+                        "runtime": i.runtime,
+                        "status": i.status,
+                        "draw_per_day": i.draw_per_day,
+                        "details": i.details,
+                    }
+                    for i in self.items
+                ],
+                "supplies": self.supplies,
+                "bottleneck": self.bottleneck,
+                "bottleneck_supply": self.bottleneck_supply,
+                "days_of_supply": self.days_of_supply,
+                "cases_possible": self.cases_possible,
+                "cases_possible_by_plan": self.cases_possible_by_plan,
+                "reorder_by": self.reorder_by,
+                "depletion": depletion,
+                "warnings": [{"code": c, "message": m} for c, m in self.warnings],
+                "gas_volume_reference": self.gas_volume_reference,
+            }
+        )
 
 
 # ---------------------------------------------------------------------------------------------
@@ -153,8 +172,9 @@ def _minute_ventilation(result: Any, plan: CasePlan, f: str) -> float:
     """Minute ventilation [L/min] for drive gas: the plan's value, else the scenario's patient."""
     if plan.minute_ventilation is not None:
         q = parse_quantity(plan.minute_ventilation, f"{f}.minute_ventilation", "flow", "L/min")
-        return check_range(q.to("L/min"), f"{f}.minute_ventilation", Q_(0, "L/min"), Q_(60, "L/min"),
-                           value=plan.minute_ventilation).magnitude
+        return check_range(
+            q.to("L/min"), f"{f}.minute_ventilation", Q_(0, "L/min"), Q_(60, "L/min"), value=plan.minute_ventilation
+        ).magnitude
     patient = getattr(result, "patient", None)
     if patient is not None and getattr(patient, "minute_ventilation", None) is not None:
         return Q_(patient.minute_ventilation).to("L/min").magnitude
@@ -162,8 +182,11 @@ def _minute_ventilation(result: Any, plan: CasePlan, f: str) -> float:
     if spec is not None and getattr(spec, "weight", None) is not None:
         from .physiology import patient_parameters
 
-        return patient_parameters(spec.weight, getattr(spec, "age", None) or "40 year").minute_ventilation.to(
-            "L/min").magnitude
+        return (
+            patient_parameters(spec.weight, getattr(spec, "age", None) or "40 year")
+            .minute_ventilation.to("L/min")
+            .magnitude
+        )
     raise InputError(f"{f}.minute_ventilation", None, "a flow such as '6 L/min' (needed for drive gas)")
 
 
@@ -189,8 +212,12 @@ def _multiplier(value: float | None, f: str) -> float:
     if value is None:
         return float(data["drive_multiplier"])
     if not data["drive_multiplier_minimum"] <= value <= 5:
-        raise InputError(f, value, f"{data['drive_multiplier_minimum']:g} to 5 (a bellows ventilator uses at "
-                                   "least the minute ventilation; Klemenzson and Perouansky 2004)")
+        raise InputError(
+            f,
+            value,
+            f"{data['drive_multiplier_minimum']:g} to 5 (a bellows ventilator uses at "
+            "least the minute ventilation; Klemenzson and Perouansky 2004)",
+        )
     return float(value)
 
 
@@ -201,8 +228,9 @@ def _default_runner(path: str) -> Any:
     return simulate(load_scenario(path))
 
 
-def _demand_week(inv: Inventory, start: date, runner: Callable[[str], Any],
-                 warns: list[tuple[str, str]]) -> tuple[dict[str, np.ndarray], dict[str, list[float]]]:
+def _demand_week(
+    inv: Inventory, start: date, runner: Callable[[str], Any], warns: list[tuple[str, str]]
+) -> tuple[dict[str, np.ndarray], dict[str, list[float]]]:
     """Weekly per-minute demand of each resource and the case end times of each plan."""
     dem = inv.demand
     work = whole_number(dem.working_days_per_week, "demand.working_days_per_week", 0, 7)
@@ -237,8 +265,11 @@ def _demand_week(inv: Inventory, start: date, runner: Callable[[str], Any],
                 t0 = cursor.get(room, day_start)
                 cursor[room] = t0 + duration
                 if cursor[room] - day_start > 1440:
-                    raise InputError(f"demand.cases[{k}].per_day", plan.per_day,
-                                     f"cases that fit in 24 h in {plan.rooms} room(s) after the other plans")
+                    raise InputError(
+                        f"demand.cases[{k}].per_day",
+                        plan.per_day,
+                        f"cases that fit in 24 h in {plan.rooms} room(s) after the other plans",
+                    )
                 for key, amount in per_case.items():
                     if amount:
                         add_interval(arr(key), d * 1440 + t0, d * 1440 + t0 + duration, amount / duration)
@@ -247,8 +278,11 @@ def _demand_week(inv: Inventory, start: date, runner: Callable[[str], Any],
         f = f"demand.continuous[{k}]"
         g = gas_name(c.gas, f"{f}.gas")
         if (c.flow is None) == (c.minute_ventilation is None):
-            raise InputError(f, "flow" if c.flow is not None else "(neither)",
-                             "exactly one of flow or minute_ventilation (drive gas)")
+            raise InputError(
+                f,
+                "flow" if c.flow is not None else "(neither)",
+                "exactly one of flow or minute_ventilation (drive gas)",
+            )
         if c.flow is not None:
             q = parse_quantity(c.flow, f"{f}.flow", "flow", "L/min").to("L/min")
             rate = check_range(q, f"{f}.flow", Q_(0, "L/min"), Q_(200, "L/min"), value=c.flow).magnitude
@@ -259,7 +293,12 @@ def _demand_week(inv: Inventory, start: date, runner: Callable[[str], Any],
         t_on = clock_minutes(c.start, f"{f}.start")
         for d in range(7):
             if weekday[d] < whole_number(c.days_per_week, f"{f}.days_per_week", 0, 7) and hours > 0:
-                add_interval(arr(g), d * 1440 + (0 if hours >= 1440 else t_on), d * 1440 + (0 if hours >= 1440 else t_on) + hours, rate)
+                add_interval(
+                    arr(g),
+                    d * 1440 + (0 if hours >= 1440 else t_on),
+                    d * 1440 + (0 if hours >= 1440 else t_on) + hours,
+                    rate,
+                )
     return need, ends
 
 
@@ -301,8 +340,14 @@ def _failure(pool: Pool, exhausted: float) -> float:
     return float(max(exhausted, base + later[0])) if later.size else float(base + WEEK + idx[0])
 
 
-def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, Pool], concs: list,
-              ignore: set[str], warns: list[tuple[str, str]]) -> list[SupplyItem]:
+def _allocate(
+    inv: Inventory,
+    need: dict[str, np.ndarray],
+    pools: dict[str, Pool],
+    concs: list,
+    ignore: set[str],
+    warns: list[tuple[str, str]],
+) -> list[SupplyItem]:
     """Meet each gas demand by priority; set each pool's draw; describe the renewable sources."""
     priority = [p.strip().lower() for p in inv.supply.priority]
     if sorted(priority) != sorted(SOURCE_KINDS):
@@ -320,8 +365,11 @@ def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, Pool
                 draw, seen = res.copy(), True
                 continue
             if kind == "pipelines":
-                caps = [(p.name or f"{gg} pipeline", np.full(WEEK, np.inf if p.available else 0.0), None, None)
-                        for p, gg in pipes if gg == g]
+                caps = [
+                    (p.name or f"{gg} pipeline", np.full(WEEK, np.inf if p.available else 0.0), None, None)
+                    for p, gg in pipes
+                    if gg == g
+                ]
             else:
                 caps = [(n, cap, c, curve) for n, c, cap, curve in concs] if g == "oxygen" else []
             for name, cap, c, curve in caps:
@@ -336,20 +384,48 @@ def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, Pool
                 purity = np.interp(per_unit, curve[0], curve[1])
                 on = given > 0
                 o2 = float((given * purity).sum()) / 7
-                details = {"standby_until_cylinders_run_out": seen,
-                           "product_per_day": Q_(float(given.sum()) / 7, "L/day"),
-                           "oxygen_per_day": Q_(o2, "L/day"), "argon_per_day": Q_(o2 * ARGON_PER_OXYGEN, "L/day"),
-                           "lowest_purity": float(purity[on].min()) if on.any() else None}
+                details = {
+                    "standby_until_cylinders_run_out": seen,
+                    "product_per_day": Q_(float(given.sum()) / 7, "L/day"),
+                    "oxygen_per_day": Q_(o2, "L/day"),
+                    "argon_per_day": Q_(o2 * ARGON_PER_OXYGEN, "L/day"),
+                    "lowest_purity": float(purity[on].min()) if on.any() else None,
+                }
                 if on.any() and purity[on].min() < limit:
-                    warns.append(("CONCENTRATOR_PURITY_LOW", f"{name}: product falls to "
-                                  f"{100 * purity[on].min():.1f} % O2 at its operating flow, below "
-                                  f"{100 * limit:.0f} % (Oxygen 93 per cent)"))
-                renewables.append(SupplyItem(name, "concentrator", "oxygen", Q_(float(cap.sum()) / 7, "L/day"),
-                                             None, "renewable", None, details))
+                    warns.append(
+                        (
+                            "CONCENTRATOR_PURITY_LOW",
+                            f"{name}: product falls to "
+                            f"{100 * purity[on].min():.1f} % O2 at its operating flow, below "
+                            f"{100 * limit:.0f} % (Oxygen 93 per cent)",
+                        )
+                    )
+                renewables.append(
+                    SupplyItem(
+                        name,
+                        "concentrator",
+                        "oxygen",
+                        Q_(float(cap.sum()) / 7, "L/day"),
+                        None,
+                        "renewable",
+                        None,
+                        details,
+                    )
+                )
         for p, gg in pipes:
             if gg == g:
-                renewables.append(SupplyItem(p.name or f"{g} pipeline", "pipeline", g, None, None,
-                                             "unlimited" if p.available else "unavailable", None, {}))
+                renewables.append(
+                    SupplyItem(
+                        p.name or f"{g} pipeline",
+                        "pipeline",
+                        g,
+                        None,
+                        None,
+                        "unlimited" if p.available else "unavailable",
+                        None,
+                        {},
+                    )
+                )
         if g in ignore:
             continue
         if g in pools or demand.sum() > 0:
@@ -370,13 +446,19 @@ def _allocate(inv: Inventory, need: dict[str, np.ndarray], pools: dict[str, Pool
     for key in sorted(ignore):
         warns.append(("NOT_TRACKED", f"{key}: left out of the analysis (supply.ignore)"))
     if "absorbent" not in pools and "absorbent" not in ignore and need.get("co2", np.zeros(1)).sum() > 0:
-        warns.append(("ABSORBENT_NOT_TRACKED", "the cases load CO2 absorbent but the inventory lists none "
-                      "(add [absorbent] stock, or 'absorbent' to supply.ignore)"))
+        warns.append(
+            (
+                "ABSORBENT_NOT_TRACKED",
+                "the cases load CO2 absorbent but the inventory lists none "
+                "(add [absorbent] stock, or 'absorbent' to supply.ignore)",
+            )
+        )
     return renewables
 
 
-def plan_supply(inv: Inventory, *, start: date | str | None = None,
-                runner: Callable[[str], Any] | None = None) -> SupplyReport:
+def plan_supply(
+    inv: Inventory, *, start: date | str | None = None, runner: Callable[[str], Any] | None = None
+) -> SupplyReport:
     """Supply duration of every item, the bottleneck, cases possible and the reorder date.
 
     Parameters
@@ -431,27 +513,49 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
                 status, rt = "not used", float("inf")
             else:
                 status, rt = "runs out", _time_of(pool, upper)
-            items.append(SupplyItem(name, kind, key, Q_(usable * scale, unit),
-                                    Q_(rt / 1440, "day") if np.isfinite(rt) else None, status,
-                                    Q_(per_day * scale, f"{unit}/day") if usable > 0 and per_day > 0 else None,
-                                    details))
+            items.append(
+                SupplyItem(
+                    name,
+                    kind,
+                    key,
+                    Q_(usable * scale, unit),
+                    Q_(rt / 1440, "day") if np.isfinite(rt) else None,
+                    status,
+                    Q_(per_day * scale, f"{unit}/day") if usable > 0 and per_day > 0 else None,
+                    details,
+                )
+            )
             columns[f"{name} [{unit}]"] = (pool, lower, upper, scale)
             lower = upper
         if not pool.items:
             warns.append(("NO_STOCK", f"{key}: the plan uses it but the inventory lists none"))
         fail = fail_at[key]
-        row = {"name": key, "usable": Q_(total * scale, unit), "draw_per_day": Q_(per_day * scale, f"{unit}/day"),
-               "stock_runs_out": Q_(exhausted / 1440, "day") if np.isfinite(exhausted) else None,
-               "fails": Q_(fail / 1440, "day") if np.isfinite(fail) else None,
-               "reorder_by": None, "items": [i[0] for i in pool.items]}
+        row = {
+            "name": key,
+            "usable": Q_(total * scale, unit),
+            "draw_per_day": Q_(per_day * scale, f"{unit}/day"),
+            "stock_runs_out": Q_(exhausted / 1440, "day") if np.isfinite(exhausted) else None,
+            "fails": Q_(fail / 1440, "day") if np.isfinite(fail) else None,
+            "reorder_by": None,
+            "items": [i[0] for i in pool.items],
+        }
         if np.isfinite(fail):
             row["reorder_by"] = day0 + timedelta(days=int(np.floor(fail / 1440 - lead - safety)))
             if fail < 1440:
-                warns.append(("SUPPLY_UNDER_ONE_DAY", f"{key}: the demand cannot be met for one day: the "
-                              f"supply fails after {fail / 60:.1f} h"))
+                warns.append(
+                    (
+                        "SUPPLY_UNDER_ONE_DAY",
+                        f"{key}: the demand cannot be met for one day: the supply fails after {fail / 60:.1f} h",
+                    )
+                )
         elif np.isfinite(exhausted):
-            warns.append(("STOCK_BACKED_UP", f"{key}: the stock runs out on day {exhausted / 1440:.1f}; "
-                          "the sources after it in the priority then meet the demand"))
+            warns.append(
+                (
+                    "STOCK_BACKED_UP",
+                    f"{key}: the stock runs out on day {exhausted / 1440:.1f}; "
+                    "the sources after it in the priority then meet the demand",
+                )
+            )
         supplies.append(row)
     items.extend(renewables)
 
@@ -478,8 +582,13 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
         slack = t_b / 1440 - lead - safety
         reorder = day0 + timedelta(days=int(np.floor(slack)))
         if slack < 0:
-            warns.append(("REORDER_OVERDUE", f"order now: the bottleneck ({bottleneck}) runs out in "
-                          f"{t_b / 1440:.1f} days, less than lead time plus safety stock ({lead + safety:g} days)"))
+            warns.append(
+                (
+                    "REORDER_OVERDUE",
+                    f"order now: the bottleneck ({bottleneck}) runs out in "
+                    f"{t_b / 1440:.1f} days, less than lead time plus safety stock ({lead + safety:g} days)",
+                )
+            )
     finite = [i.runtime.magnitude for i in items if i.runtime is not None]
     n_days = min(table_days, int(np.ceil(max(finite))) + 1) if finite else min(table_days, 28)
     t = np.arange(n_days + 1) * 1440.0
@@ -487,6 +596,17 @@ def plan_supply(inv: Inventory, *, start: date | str | None = None,
     for col, (pool, lower, upper, scale) in columns.items():
         table[col] = np.clip(upper - _cum_at(pool, t), 0.0, upper - lower) * scale
     depletion = pd.DataFrame(table, index=pd.RangeIndex(n_days + 1, name="day"))
-    return SupplyReport(inv.title, day0, items, supplies, bottleneck, first,
-                        Q_(t_b / 1440, "day") if np.isfinite(t_b) else None, cases, by_plan, reorder,
-                        depletion, warns)
+    return SupplyReport(
+        inv.title,
+        day0,
+        items,
+        supplies,
+        bottleneck,
+        first,
+        Q_(t_b / 1440, "day") if np.isfinite(t_b) else None,
+        cases,
+        by_plan,
+        reorder,
+        depletion,
+        warns,
+    )

@@ -170,8 +170,9 @@ def _known_keys(loc: tuple[Any, ...]) -> list[str]:
         if isinstance(part, int):
             continue
         ann = model.model_fields[part].annotation
-        model = next((a for a in getattr(ann, "__args__", (ann,)) if isinstance(a, type)
-                      and issubclass(a, BaseModel)), None)
+        model = next(
+            (a for a in getattr(ann, "__args__", (ann,)) if isinstance(a, type) and issubclass(a, BaseModel)), None
+        )
         if model is None:
             for a in getattr(ann, "__args__", ()):
                 inner = getattr(a, "__args__", ())
@@ -205,7 +206,9 @@ def load_inventory(source: str | Path) -> Inventory:
         err = exc.errors()[0]
         where = _loc(err["loc"])
         if err["type"] == "extra_forbidden":
-            raise InputError(where, err["input"], "a known key here: " + ", ".join(_known_keys(err["loc"][:-1]))) from None
+            raise InputError(
+                where, err["input"], "a known key here: " + ", ".join(_known_keys(err["loc"][:-1]))
+            ) from None
         if err["type"] == "missing":
             raise InputError(where, "(missing)", "a value: this key is required") from None
         raise InputError(where, err["input"], err["msg"].lower()) from None
@@ -291,19 +294,31 @@ def _purity_curve(entry: ConcentratorEntry, rated: float, f: str) -> tuple[np.nd
     elif isinstance(entry.purity, list):
         if len(entry.purity) < 2 or any(len(p) != 2 for p in entry.purity):
             raise InputError(f"{f}.purity", entry.purity, "a list of [flow, purity] pairs, at least two")
-        flows = np.array([parse_quantity(p[0], f"{f}.purity[{i}][0]", "flow", "L/min").to("L/min").magnitude
-                          for i, p in enumerate(entry.purity)])
-        fr = np.array([parse_quantity(p[1], f"{f}.purity[{i}][1]", "fraction").to("").magnitude
-                       for i, p in enumerate(entry.purity)])
+        flows = np.array(
+            [
+                parse_quantity(p[0], f"{f}.purity[{i}][0]", "flow", "L/min").to("L/min").magnitude
+                for i, p in enumerate(entry.purity)
+            ]
+        )
+        fr = np.array(
+            [
+                parse_quantity(p[1], f"{f}.purity[{i}][1]", "fraction").to("").magnitude
+                for i, p in enumerate(entry.purity)
+            ]
+        )
         if flows[0] != 0 or flows[-1] < rated or np.any(np.diff(flows) <= 0):
-            raise InputError(f"{f}.purity", entry.purity,
-                             f"flows rising from 0 L/min to at least the rated flow, {rated:g} L/min")
+            raise InputError(
+                f"{f}.purity", entry.purity, f"flows rising from 0 L/min to at least the rated flow, {rated:g} L/min"
+            )
     else:
         p = parse_quantity(entry.purity, f"{f}.purity", "fraction").to("").magnitude
         flows, fr = np.array([0.0, rated]), np.array([p, p])
     if np.any(fr <= 0.21) or np.any(fr > top + 1e-9):
-        raise InputError(f"{f}.purity", entry.purity, f"O2 fractions above 21 % and at most {100 * top:.1f} % "
-                                                       "(the argon of air stays in the product)")
+        raise InputError(
+            f"{f}.purity",
+            entry.purity,
+            f"O2 fractions above 21 % and at most {100 * top:.1f} % (the argon of air stays in the product)",
+        )
     return flows, fr
 
 
@@ -329,8 +344,9 @@ def _unique(name: str, taken: set[str], f: str) -> str:
     return name
 
 
-def read_stocks(inv: Inventory, ambient: pint.Quantity, warns: list[tuple[str, str]],
-            names: set[str]) -> dict[str, Pool]:
+def read_stocks(
+    inv: Inventory, ambient: pint.Quantity, warns: list[tuple[str, str]], names: set[str]
+) -> dict[str, Pool]:
     pools: dict[str, Pool] = {}
     for k, c in enumerate(inv.cylinders):
         f = f"cylinders[{k}]"
@@ -338,19 +354,39 @@ def read_stocks(inv: Inventory, ambient: pint.Quantity, warns: list[tuple[str, s
         if g == "nitrous_oxide":
             for key in ("gross_weight", "tare_weight"):
                 if getattr(c, key) is None:
-                    raise InputError(f"{f}.{key}", "(missing)", "a mass such as '8.5 kg' (nitrous oxide is counted by weight)")
-            res = nitrous_oxide_cylinder(c.gross_weight, c.tare_weight, c.temperature, count=c.count,
-                                         water_capacity=c.water_capacity, pressure=c.pressure,
-                                         reserve_weight=c.reserve_weight, ambient_pressure=ambient, field_prefix=f)
+                    raise InputError(
+                        f"{f}.{key}", "(missing)", "a mass such as '8.5 kg' (nitrous oxide is counted by weight)"
+                    )
+            res = nitrous_oxide_cylinder(
+                c.gross_weight,
+                c.tare_weight,
+                c.temperature,
+                count=c.count,
+                water_capacity=c.water_capacity,
+                pressure=c.pressure,
+                reserve_weight=c.reserve_weight,
+                ambient_pressure=ambient,
+                field_prefix=f,
+            )
         else:
             for key in ("water_capacity", "pressure"):
                 if getattr(c, key) is None:
                     raise InputError(f"{f}.{key}", "(missing)", "a value: required for a compressed-gas cylinder")
             if c.gross_weight is not None or c.tare_weight is not None:
-                raise InputError(f"{f}.gross_weight", c.gross_weight, "no weights for oxygen or air (counted by pressure)")
-            res = compressed_cylinder(g, c.water_capacity, c.pressure, c.temperature, c.reserve_pressure,
-                                      count=c.count, service_pressure=c.service_pressure,
-                                      ambient_pressure=ambient, field_prefix=f)
+                raise InputError(
+                    f"{f}.gross_weight", c.gross_weight, "no weights for oxygen or air (counted by pressure)"
+                )
+            res = compressed_cylinder(
+                g,
+                c.water_capacity,
+                c.pressure,
+                c.temperature,
+                c.reserve_pressure,
+                count=c.count,
+                service_pressure=c.service_pressure,
+                ambient_pressure=ambient,
+                field_prefix=f,
+            )
         name = _unique(c.name or f"{g.replace('_', ' ')} cylinders {k + 1}", names, f)
         warns.extend((code, msg.replace(f + ":", f"{name}:")) for code, msg in res.warnings)
         details = {"count": res.count, "contents_per_cylinder": res.contents, "phase": res.phase}
@@ -364,8 +400,14 @@ def read_stocks(inv: Inventory, ambient: pint.Quantity, warns: list[tuple[str, s
         if a not in AGENTS:
             raise InputError(f"{f}.agent", b.agent, "one of " + ", ".join(sorted(AGENTS)))
         whole_number(b.count, f"{f}.count", 0, 10000)
-        vol = check_range(parse_quantity(b.volume, f"{f}.volume", "volume", "mL").to("mL"), f"{f}.volume",
-                          Q_(0, "mL"), Q_(5000, "mL"), low_inclusive=False, value=b.volume)
+        vol = check_range(
+            parse_quantity(b.volume, f"{f}.volume", "volume", "mL").to("mL"),
+            f"{f}.volume",
+            Q_(0, "mL"),
+            Q_(5000, "mL"),
+            low_inclusive=False,
+            value=b.volume,
+        )
         opened = 0.0
         if b.opened is not None:
             q = parse_quantity(b.opened, f"{f}.opened", "volume", "mL").to("mL")
@@ -377,24 +419,26 @@ def read_stocks(inv: Inventory, ambient: pint.Quantity, warns: list[tuple[str, s
         ab = inv.absorbent
         stock = parse_quantity(ab.stock, "absorbent.stock", "mass", "kg").to("g")
         check_range(stock, "absorbent.stock", Q_(0, "g"), Q_(10000, "kg"), value=ab.stock)
-        cap = parse_quantity(ab.co2_per_100g or supply_data()["absorbent"]["co2_per_100g"],
-                             "absorbent.co2_per_100g", "volume", "L").to("L")
-        check_range(cap, "absorbent.co2_per_100g", Q_(0, "L"), Q_(26, "L"), low_inclusive=False,
-                    value=ab.co2_per_100g)
+        cap = parse_quantity(
+            ab.co2_per_100g or supply_data()["absorbent"]["co2_per_100g"], "absorbent.co2_per_100g", "volume", "L"
+        ).to("L")
+        check_range(cap, "absorbent.co2_per_100g", Q_(0, "L"), Q_(26, "L"), low_inclusive=False, value=ab.co2_per_100g)
         name = _unique(ab.name, names, "absorbent")
         pool = pools.setdefault("absorbent", Pool("absorbent", "g"))
         pool.items.append((name, "absorbent", stock.magnitude, {"co2_per_100g": cap}))
     return pools
 
 
-def read_concentrators(inv: Inventory, start: date, names: set[str]) -> list[tuple[str, ConcentratorEntry, np.ndarray,
-                                                                              tuple[np.ndarray, np.ndarray]]]:
+def read_concentrators(
+    inv: Inventory, start: date, names: set[str]
+) -> list[tuple[str, ConcentratorEntry, np.ndarray, tuple[np.ndarray, np.ndarray]]]:
     out = []
     for k, c in enumerate(inv.concentrators):
         f = f"concentrators[{k}]"
         q = parse_quantity(c.rated_flow, f"{f}.rated_flow", "flow", "L/min").to("L/min")
-        rated = check_range(q, f"{f}.rated_flow", Q_(0, "L/min"), Q_(100, "L/min"), low_inclusive=False,
-                            value=c.rated_flow).magnitude
+        rated = check_range(
+            q, f"{f}.rated_flow", Q_(0, "L/min"), Q_(100, "L/min"), low_inclusive=False, value=c.rated_flow
+        ).magnitude
         whole_number(c.count, f"{f}.count", 0, 100)
         hours = minutes_per_day(c.hours_per_day, f"{f}.hours_per_day")
         t_on = 0.0 if hours >= 1440 else clock_minutes(c.start, f"{f}.start")

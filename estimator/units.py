@@ -71,7 +71,9 @@ DIMENSIONS: dict[str, tuple[str, str]] = {
 
 _NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _SPLIT = re.compile(rf"^\s*({_NUMBER})\s*(.*?)\s*$")
-_GAUGE = re.compile(r"^(?P<unit>bar|kPa|MPa|Pa|psi)\s*(?:\((?P<p>[ga])\)|(?P<s>[ga])|\s+(?P<w>gauge|absolute|abs))$", re.IGNORECASE)
+_GAUGE = re.compile(
+    r"^(?P<unit>bar|kPa|MPa|Pa|psi)\s*(?:\((?P<p>[ga])\)|(?P<s>[ga])|\s+(?P<w>gauge|absolute|abs))$", re.IGNORECASE
+)
 _UNIT_ALIASES = {
     "%": "percent",
     "years": "year",
@@ -170,8 +172,9 @@ def _describe(q: pint.Quantity) -> str:
     return f"units of {q.dimensionality}"
 
 
-def check_range(q: pint.Quantity, field: str, low: Any, high: Any, *, value: Any = None,
-                low_inclusive: bool = True) -> pint.Quantity:
+def check_range(
+    q: pint.Quantity, field: str, low: Any, high: Any, *, value: Any = None, low_inclusive: bool = True
+) -> pint.Quantity:
     """Check ``low <= q <= high`` (``low < q`` if not ``low_inclusive``) or raise InputError.
 
     Examples
@@ -185,8 +188,9 @@ def check_range(q: pint.Quantity, field: str, low: Any, high: Any, *, value: Any
     ok_low = mag >= lo.magnitude if low_inclusive else mag > lo.magnitude
     if not (ok_low and mag <= hi.to(lo.units).magnitude):
         lo_txt = f"{lo.magnitude:g}" if low_inclusive else f"above {lo.magnitude:g}"
-        raise InputError(field, value if value is not None else f"{q:~P}",
-                         f"{lo_txt} to {hi.to(lo.units).magnitude:g} {lo.units:~P}")
+        raise InputError(
+            field, value if value is not None else f"{q:~P}", f"{lo_txt} to {hi.to(lo.units).magnitude:g} {lo.units:~P}"
+        )
     return q
 
 
@@ -222,7 +226,9 @@ class PressureReading:
         return (self.quantity - ambient.to(self.quantity.units)).to(self.quantity.units)
 
 
-def parse_pressure(value: Any, field: str, default_reference: Literal["gauge", "absolute"] = "gauge") -> PressureReading:
+def parse_pressure(
+    value: Any, field: str, default_reference: Literal["gauge", "absolute"] = "gauge"
+) -> PressureReading:
     """Parse a pressure, honouring an explicit gauge or absolute marker.
 
     ``"137 bar(g)"``, ``"137 barg"``, ``"137 bar gauge"`` and ``"20 psig"`` are gauge;
@@ -245,8 +251,9 @@ def parse_pressure(value: Any, field: str, default_reference: Literal["gauge", "
         number, unit = match.groups()
         unit = unit.strip()
         if unit.lower() in ("psig", "psia"):
-            return PressureReading(parse_quantity(f"{number} psi", field, "pressure"),
-                                   "gauge" if unit.lower() == "psig" else "absolute")
+            return PressureReading(
+                parse_quantity(f"{number} psi", field, "pressure"), "gauge" if unit.lower() == "psig" else "absolute"
+            )
         g = _GAUGE.match(unit)
         if g:
             marker = (g.group("p") or g.group("s") or g.group("w")).lower()

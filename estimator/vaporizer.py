@@ -59,9 +59,14 @@ from .properties import Species, agent
 from .units import Q_, STANDARD_ATMOSPHERE
 
 KINDS = ("variable_bypass", "heated_pressurised")
-_KIND_ALIASES = {"variable_bypass": "variable_bypass", "bypass": "variable_bypass",
-                 "heated_pressurised": "heated_pressurised", "heated_pressurized": "heated_pressurised",
-                 "heated": "heated_pressurised", "desflurane_type": "heated_pressurised"}
+_KIND_ALIASES = {
+    "variable_bypass": "variable_bypass",
+    "bypass": "variable_bypass",
+    "heated_pressurised": "heated_pressurised",
+    "heated_pressurized": "heated_pressurised",
+    "heated": "heated_pressurised",
+    "desflurane_type": "heated_pressurised",
+}
 CONTROLS = ("outlet", "inlet")
 #: Ambient pressures [kPa] accepted (ISO 2533 troposphere, 11 000 m to -500 m, rounded outwards).
 PRESSURE_RANGE = (22.6, 108.5)
@@ -103,9 +108,12 @@ def _svp_kpa(agent_spec: Any, p_kpa: float) -> float:
     sp = agent_spec if isinstance(agent_spec, Species) else agent(agent_spec)
     svp = float(sp.vapour_pressure_20c.to("kPa").magnitude)
     if svp >= p_kpa:
-        raise InputError("vaporizer.kind", "variable_bypass",
-                         f"heated_pressurised for {sp.name}: its SVP {svp:g} kPa at 20 degC reaches the "
-                         f"ambient {p_kpa:.1f} kPa, so it boils in a variable-bypass chamber")
+        raise InputError(
+            "vaporizer.kind",
+            "variable_bypass",
+            f"heated_pressurised for {sp.name}: its SVP {svp:g} kPa at 20 degC reaches the "
+            f"ambient {p_kpa:.1f} kPa, so it boils in a variable-bypass chamber",
+        )
     return svp
 
 
@@ -128,8 +136,9 @@ def mac_fraction_at_site(mac_one_atmosphere: Any, ambient_pressure: Any) -> Any:
     return _out(_fraction(mac_one_atmosphere, "mac") * P0 / _pressure_kpa(ambient_pressure))
 
 
-def delivered_fraction(dial: Any, kind: str, ambient_pressure: Any, agent_name: Any = None,
-                       control: str = "outlet") -> Any:
+def delivered_fraction(
+    dial: Any, kind: str, ambient_pressure: Any, agent_name: Any = None, control: str = "outlet"
+) -> Any:
     """Volume fraction of agent in the vaporizer output at ``ambient_pressure``.
 
     Parameters
@@ -215,8 +224,9 @@ class DialSetting:
     warnings: tuple[tuple[str, str], ...] = field(default=())
 
 
-def dial_for_target(target: Any, mac_one_atmosphere: Any, kind: str, ambient_pressure: Any,
-                    agent_name: Any, control: str = "outlet") -> DialSetting:
+def dial_for_target(
+    target: Any, mac_one_atmosphere: Any, kind: str, ambient_pressure: Any, agent_name: Any, control: str = "outlet"
+) -> DialSetting:
     """Dial that delivers ``target`` MAC (as inspired = delivered fraction) at the site.
 
     Parameters
@@ -261,15 +271,29 @@ def dial_for_target(target: Any, mac_one_atmosphere: Any, kind: str, ambient_pre
     limit = 1.0 if svp is None else svp / p
     bad = f >= limit
     if np.any(bad):
-        notes.append(("DIAL_UNREACHABLE", f"{float(np.max(t)):g} MAC needs {100 * float(np.max(f)):.1f} % at "
-                      f"{p:.1f} kPa, more than this vaporizer can deliver ({100 * limit:.1f} %)"))
+        notes.append(
+            (
+                "DIAL_UNREACHABLE",
+                f"{float(np.max(t)):g} MAC needs {100 * float(np.max(f)):.1f} % at "
+                f"{p:.1f} kPa, more than this vaporizer can deliver ({100 * limit:.1f} %)",
+            )
+        )
     with np.errstate(divide="ignore", invalid="ignore"):
         dial = np.where(bad, np.nan, _dial_for_fraction(np.where(bad, 0.0, f), kind, p, svp, control))
     vmax = float(sp.vaporizer_max.to("").magnitude)
     if np.any(dial > vmax):
-        notes.append(("DIAL_ABOVE_VAPORIZER_MAX", f"{float(np.max(t)):g} MAC of {sp.name} needs a dial of "
-                      f"{100 * float(np.nanmax(dial)):.2f} % at {p:.1f} kPa, above the vaporizer maximum "
-                      f"of {100 * vmax:g} %"))
-    return DialSetting(dial=Q_(_out(dial * 100.0), "percent"), delivered_fraction=Q_(_out(f * 100.0), "percent"),
-                       partial_pressure=Q_(_out(f * p), "kPa"), mac_at_site=Q_(_out(mac_site * 100.0), "percent"),
-                       warnings=tuple(notes))
+        notes.append(
+            (
+                "DIAL_ABOVE_VAPORIZER_MAX",
+                f"{float(np.max(t)):g} MAC of {sp.name} needs a dial of "
+                f"{100 * float(np.nanmax(dial)):.2f} % at {p:.1f} kPa, above the vaporizer maximum "
+                f"of {100 * vmax:g} %",
+            )
+        )
+    return DialSetting(
+        dial=Q_(_out(dial * 100.0), "percent"),
+        delivered_fraction=Q_(_out(f * 100.0), "percent"),
+        partial_pressure=Q_(_out(f * p), "kPa"),
+        mac_at_site=Q_(_out(mac_site * 100.0), "percent"),
+        warnings=tuple(notes),
+    )

@@ -14,9 +14,17 @@ if TYPE_CHECKING:  # altair is imported only where a page builds an altair chart
 PALETTE = ("#0f6e6e", "#d08c1b", "#51607a", "#c8553d", "#6a994e")
 
 
-def time_course(frame: pd.DataFrame, columns: dict[str, str], y_title: str, *, height: int = 210,
-                rule: float | None = None, rule_label: str = "", step: bool = False,
-                x: str = "time [min]") -> dict[str, Any]:
+def time_course(
+    frame: pd.DataFrame,
+    columns: dict[str, str],
+    y_title: str,
+    *,
+    height: int = 210,
+    rule: float | None = None,
+    rule_label: str = "",
+    step: bool = False,
+    x: str = "time [min]",
+) -> dict[str, Any]:
     """Vega-Lite spec: lines of ``columns`` (frame column -> legend name) against column ``x``.
 
     Written as a plain spec rather than through altair's objects: building and validating those
@@ -29,31 +37,63 @@ def time_course(frame: pd.DataFrame, columns: dict[str, str], y_title: str, *, h
         "encoding": {
             "x": {"field": "time", "type": "quantitative", "title": x},
             "y": {"field": "value", "type": "quantitative", "title": y_title, "scale": {"zero": True}},
-            "color": {"field": "series", "type": "nominal", "title": None, "scale": {"range": list(PALETTE)},
-                      "legend": {"orient": "top", "labelLimit": 260}},
-            "tooltip": [{"field": "time", "type": "quantitative", "title": x, "format": ".3g"},
-                        {"field": "series", "type": "nominal"},
-                        {"field": "value", "type": "quantitative", "title": y_title, "format": ".3g"}]}}
+            "color": {
+                "field": "series",
+                "type": "nominal",
+                "title": None,
+                "scale": {"range": list(PALETTE)},
+                "legend": {"orient": "top", "labelLimit": 260},
+            },
+            "tooltip": [
+                {"field": "time", "type": "quantitative", "title": x, "format": ".3g"},
+                {"field": "series", "type": "nominal"},
+                {"field": "value", "type": "quantitative", "title": y_title, "format": ".3g"},
+            ],
+        },
+    }
     layers: list[dict[str, Any]] = [line]
     if rule is not None:
         ref = {"values": [{"value": rule, "label": rule_label}]}
-        layers.append({"data": ref, "mark": {"type": "rule", "strokeDash": [5, 4], "color": "#8a8f98"},
-                       "encoding": {"y": {"field": "value", "type": "quantitative"}}})
-        layers.append({"data": ref, "mark": {"type": "text", "align": "left", "dx": 4, "dy": -6, "color": "#5b6170",
-                                             "fontSize": 11},
-                       "encoding": {"y": {"field": "value", "type": "quantitative"}, "x": {"value": 4},
-                                    "text": {"field": "label", "type": "nominal"}}})
-    return {"$schema": "https://vega.github.io/schema/vega-lite/v6.json", "height": height,
-            "data": {"values": long.to_dict("records")}, "layer": layers}
+        layers.append(
+            {
+                "data": ref,
+                "mark": {"type": "rule", "strokeDash": [5, 4], "color": "#8a8f98"},
+                "encoding": {"y": {"field": "value", "type": "quantitative"}},
+            }
+        )
+        layers.append(
+            {
+                "data": ref,
+                "mark": {"type": "text", "align": "left", "dx": 4, "dy": -6, "color": "#5b6170", "fontSize": 11},
+                "encoding": {
+                    "y": {"field": "value", "type": "quantitative"},
+                    "x": {"value": 4},
+                    "text": {"field": "label", "type": "nominal"},
+                },
+            }
+        )
+    return {
+        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
+        "height": height,
+        "data": {"values": long.to_dict("records")},
+        "layer": layers,
+    }
 
 
 def bars(frame: pd.DataFrame, x: str, y: str, x_title: str, y_title: str, color: str = PALETTE[0]) -> alt.Chart:
     """A simple bar chart with labelled axes."""
     import altair as alt
 
-    return alt.Chart(frame).mark_bar(color=color).encode(
-        x=alt.X(f"{x}:N", title=x_title, sort=None), y=alt.Y(f"{y}:Q", title=y_title),
-        tooltip=[x, alt.Tooltip(f"{y}:Q", format=".3g")]).properties(height=240)
+    return (
+        alt.Chart(frame)
+        .mark_bar(color=color)
+        .encode(
+            x=alt.X(f"{x}:N", title=x_title, sort=None),
+            y=alt.Y(f"{y}:Q", title=y_title),
+            tooltip=[x, alt.Tooltip(f"{y}:Q", format=".3g")],
+        )
+        .properties(height=240)
+    )
 
 
 def show(chart: alt.Chart | dict[str, Any], where: Any = None) -> None:

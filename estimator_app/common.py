@@ -44,8 +44,12 @@ def unit_selectors() -> None:
     c1.selectbox("Flow", FLOW_UNITS, key="unit.flow")
     c2.selectbox("Pressure", PRESSURE_UNITS, key="unit.pressure")
     c1.selectbox("Mass", MASS_UNITS, key="unit.mass")
-    c2.text_input("Currency label", key="unit.currency", max_chars=40,
-                  help="Shown beside costs. A label only: no exchange rate is applied.")
+    c2.text_input(
+        "Currency label",
+        key="unit.currency",
+        max_chars=40,
+        help="Shown beside costs. A label only: no exchange rate is applied.",
+    )
 
 
 def flow_factor() -> float:
@@ -133,8 +137,16 @@ def csv_bytes(frame: pd.DataFrame) -> bytes:
     return safe.to_csv(index=False).encode("utf-8")
 
 
-def downloads(stem: str, sheets: dict[str, pd.DataFrame], document: Any, key: str, *, title: str = "",
-              notes: list[str] | None = None, warnings: Any = None) -> None:
+def downloads(
+    stem: str,
+    sheets: dict[str, pd.DataFrame],
+    document: Any,
+    key: str,
+    *,
+    title: str = "",
+    notes: list[str] | None = None,
+    warnings: Any = None,
+) -> None:
     """Download buttons: the first sheet as CSV, all sheets as XLSX, an HTML report of all sheets
     (with the caution and the warnings), and the document as JSON.
 
@@ -155,22 +167,54 @@ def downloads(stem: str, sheets: dict[str, pd.DataFrame], document: Any, key: st
         from estimator.exports import tables_report_html
 
         items = [(w["code"], w["message"]) if isinstance(w, dict) else tuple(w) for w in warnings or ()]
-        return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes,
-                                  warnings=items).encode("utf-8")
+        return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes, warnings=items).encode("utf-8")
 
     c1, c2, c3, c4 = st.columns(4)
-    c1.download_button("Download CSV", lambda: csv_bytes(first), f"{stem}.csv", "text/csv", key=f"{key}.csv",
-                       icon=":material/table_view:", width="stretch", on_click="ignore")
-    c2.download_button("Download XLSX", lambda: xlsx_bytes(sheets), f"{stem}.xlsx",
-                       "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key=f"{key}.xlsx",
-                       icon=":material/grid_on:", width="stretch", on_click="ignore")
-    c3.download_button("Report (HTML)", as_html, f"{stem}.html", "text/html", key=f"{key}.html",
-                       icon=":material/description:", width="stretch", on_click="ignore")
-    c4.download_button("Download JSON", as_json, f"{stem}.json", "application/json",
-                       key=f"{key}.json", icon=":material/data_object:", width="stretch", on_click="ignore")
+    c1.download_button(
+        "Download CSV",
+        lambda: csv_bytes(first),
+        f"{stem}.csv",
+        "text/csv",
+        key=f"{key}.csv",
+        icon=":material/table_view:",
+        width="stretch",
+        on_click="ignore",
+    )
+    c2.download_button(
+        "Download XLSX",
+        lambda: xlsx_bytes(sheets),
+        f"{stem}.xlsx",
+        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        key=f"{key}.xlsx",
+        icon=":material/grid_on:",
+        width="stretch",
+        on_click="ignore",
+    )
+    c3.download_button(
+        "Report (HTML)",
+        as_html,
+        f"{stem}.html",
+        "text/html",
+        key=f"{key}.html",
+        icon=":material/description:",
+        width="stretch",
+        on_click="ignore",
+    )
+    c4.download_button(
+        "Download JSON",
+        as_json,
+        f"{stem}.json",
+        "application/json",
+        key=f"{key}.json",
+        icon=":material/data_object:",
+        width="stretch",
+        on_click="ignore",
+    )
 
 
 def placeholder(what: str, module: str, detail: str) -> None:
     """A page whose model is still being written: say so plainly."""
-    st.info(f"**{what} is coming.** This page will run `{module}` once that module is part of the "
-            f"package. {detail}", icon=":material/construction:")
+    st.info(
+        f"**{what} is coming.** This page will run `{module}` once that module is part of the package. {detail}",
+        icon=":material/construction:",
+    )

@@ -50,8 +50,9 @@ def main() -> None:
     """Entry point of ``app.py``: every page through ``st.navigation``."""
     started = time.perf_counter()
     st.set_page_config(page_title="lowflow estimator", page_icon=":material/air:", layout="wide")
-    pages = [st.Page(_renderer(m), title=t, url_path=u, icon=i, default=(k == 0))
-             for k, (m, t, u, i) in enumerate(PAGES)]
+    pages = [
+        st.Page(_renderer(m), title=t, url_path=u, icon=i, default=(k == 0)) for k, (m, t, u, i) in enumerate(PAGES)
+    ]
     nav = st.navigation(pages)
     frame()
     nav.run()

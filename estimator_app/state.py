@@ -80,8 +80,12 @@ def current_result() -> Any:
 def scenario_sidebar() -> None:
     """Sidebar: load a scenario TOML (parsed and validated, never executed) and save the current one."""
     st.sidebar.subheader("Scenario")
-    up = st.sidebar.file_uploader("Load scenario (TOML)", type=["toml"], key="scenario.upload",
-                                  help="A scenario file as described in the README; at most 20 MB.")
+    up = st.sidebar.file_uploader(
+        "Load scenario (TOML)",
+        type=["toml"],
+        key="scenario.upload",
+        help="A scenario file as described in the README; at most 20 MB.",
+    )
     if up is not None and st.session_state.get("scenario.loaded_id") != up.file_id:
         st.session_state["scenario.loaded_id"] = up.file_id
         try:
@@ -92,8 +96,14 @@ def scenario_sidebar() -> None:
                 show_error(exc)
     doc = document()
     name = (doc.get("title") or "scenario").split(" - ")[0].strip().lower().replace(" ", "_")[:40] or "scenario"
-    st.sidebar.download_button("Save scenario (TOML)", toml_text().encode("utf-8"), f"{name}.toml",
-                               "application/toml", icon=":material/save:", width="stretch")
+    st.sidebar.download_button(
+        "Save scenario (TOML)",
+        toml_text().encode("utf-8"),
+        f"{name}.toml",
+        "application/toml",
+        icon=":material/save:",
+        width="stretch",
+    )
     if st.sidebar.button("Back to the demo case", icon=":material/restart_alt:", width="stretch"):
         set_document(demo.scenario(), reset_widgets=True)
         st.rerun()
@@ -111,8 +121,7 @@ def load(text: str) -> None:
     set_document(doc, reset_widgets=True)
 
 
-def upload_toml(label: str, key: str, help_text: str, doc_key: str, version_key: str,
-                validate: Any = None) -> None:
+def upload_toml(label: str, key: str, help_text: str, doc_key: str, version_key: str, validate: Any = None) -> None:
     """A TOML upload that replaces the document under ``doc_key`` (parsed, validated, never run).
 
     ``validate(text)`` raises InputError for a file that is TOML but not the expected document.

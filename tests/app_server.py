@@ -13,8 +13,16 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 #: Debian's chromium flags for a headless run that never reaches the network.
-FLAGS = ["--no-sandbox", "--headless", "--disable-gpu", "--disable-background-networking",
-         "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-quic"]
+FLAGS = [
+    "--no-sandbox",
+    "--headless",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+    "--disable-quic",
+]
 
 
 def free_port() -> int:
@@ -31,9 +39,26 @@ def start(timeout: float = 90.0, poll: float = 0.1) -> tuple[subprocess.Popen, s
     port = free_port()
     env = {**os.environ, "STREAMLIT_BROWSER_GATHER_USAGE_STATS": "false"}
     proc = subprocess.Popen(
-        [sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true", "--server.port",
-         str(port), "--server.address", "127.0.0.1", "--server.fileWatcherType", "none"],
-        cwd=ROOT, env=env, stdout=subprocess.PIPE, stderr=subprocess.STDOUT)
+        [
+            sys.executable,
+            "-m",
+            "streamlit",
+            "run",
+            "app.py",
+            "--server.headless",
+            "true",
+            "--server.port",
+            str(port),
+            "--server.address",
+            "127.0.0.1",
+            "--server.fileWatcherType",
+            "none",
+        ],
+        cwd=ROOT,
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.STDOUT,
+    )
     url = f"http://127.0.0.1:{port}"
     deadline = time.monotonic() + timeout
     while True:

@@ -36,8 +36,7 @@ KG_PER_LB = 0.45359237
 
 def page(name: str, scenario: dict | None = None) -> AppTest:
     """One page with the shared frame, run once."""
-    at = AppTest.from_string(f"from estimator_app.shell import page_main\npage_main({name!r})",
-                             default_timeout=TIMEOUT)
+    at = AppTest.from_string(f"from estimator_app.shell import page_main\npage_main({name!r})", default_timeout=TIMEOUT)
     if scenario is not None:
         at.session_state["scenario"] = scenario
         at.session_state["scenario.version"] = 0
@@ -156,7 +155,7 @@ def test_exports_are_safe_and_readable():
     import pandas as pd
     from openpyxl import load_workbook
 
-    frame = pd.DataFrame({"case": ["=HYPERLINK(\"x\")", "plain"], "value": [1.5, 2.0]})
+    frame = pd.DataFrame({"case": ['=HYPERLINK("x")', "plain"], "value": [1.5, 2.0]})
     assert b"'=HYPERLINK" in csv_bytes(frame)
     ws = load_workbook(io.BytesIO(xlsx_bytes({"cases": frame})))["cases"]
     assert ws["A2"].value.startswith("'=") and ws["A2"].data_type == "s"
@@ -230,8 +229,10 @@ def test_audit_page_reports_rejections_kpis_and_counterfactual():
 
 def test_audit_upload_of_a_small_log():
     at = page("fresh_gas_audit")
-    log = ("case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting\n"
-           "A,0,1,1,0,sevoflurane,2\nA,60,1,1,0,sevoflurane,2\n")
+    log = (
+        "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting\n"
+        "A,0,1,1,0,sevoflurane,2\nA,60,1,1,0,sevoflurane,2\n"
+    )
     at.get("file_uploader")[0].set_value(("log.csv", log.encode(), "text/csv"))
     at.run()
     assert_clean(at)
@@ -297,8 +298,9 @@ def test_demand_forecast_mean_cases_follow_poisson_and_more_cases_raise_demand()
     busier = demo.casemix()
     for row in busier["case_types"]:
         row["per_week"] *= 2
-    at2 = AppTest.from_string("from estimator_app.shell import page_main\npage_main('demand_forecast')",
-                              default_timeout=TIMEOUT)
+    at2 = AppTest.from_string(
+        "from estimator_app.shell import page_main\npage_main('demand_forecast')", default_timeout=TIMEOUT
+    )
     at2.session_state["forecast.doc"] = busier
     at2.session_state["forecast.version"] = 0
     at2.run()
@@ -332,15 +334,18 @@ def test_chart_specs_follow_the_vega_lite_schema():
     from estimator_app.charts import bars, time_course
 
     frame = pd.DataFrame({"time [min]": np.arange(6.0), "a [%]": np.linspace(21, 60, 6), "b": np.nan})
-    for spec in (time_course(frame, {"a [%]": "A", "b": "B"}, "y [%]", rule=30.0, rule_label="limit"),
-                 time_course(frame, {"a [%]": "A"}, "y", step=True, x="time [min]")):
+    for spec in (
+        time_course(frame, {"a [%]": "A", "b": "B"}, "y [%]", rule=30.0, rule_label="limit"),
+        time_course(frame, {"a [%]": "A"}, "y", step=True, x="time [min]"),
+    ):
         validate_jsonschema(spec, load_schema())
         assert spec["layer"][0]["encoding"]["x"]["title"] == "time [min]"
     bars(pd.DataFrame({"k": ["x"], "v": [1.0]}), "k", "v", "kind", "value [mL]").to_dict()  # altair validates
 
 
-@pytest.mark.parametrize("name", ["case_planner", "flow_floor", "supply_duration", "demand_forecast",
-                                  "site_flowmeter", "methods"])
+@pytest.mark.parametrize(
+    "name", ["case_planner", "flow_floor", "supply_duration", "demand_forecast", "site_flowmeter", "methods"]
+)
 def test_every_page_offers_csv_xlsx_html_and_json(name):
     # Issue contract: results download as CSV, XLSX, JSON and an HTML report on every page (the
     # audit page has its own four, tested above).

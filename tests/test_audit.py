@@ -20,7 +20,7 @@ DATA = Path(__file__).parent / "data"
 HEADER = "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting"
 # Ideal-gas molar volume at the package reference (15 degC, 101.325 kPa), CODATA R via scipy.
 VM = scipy.constants.R * 288.15 / 101325.0 * 1000.0
-SEVO = {"molar_mass": 200.05, "density": 1.52}   # CRC; Biro 2014 (agents.toml)
+SEVO = {"molar_mass": 200.05, "density": 1.52}  # CRC; Biro 2014 (agents.toml)
 
 
 def _synthetic(rng: np.random.Generator, n_cases: int = 4) -> tuple[pd.DataFrame, dict]:
@@ -73,20 +73,27 @@ def test_constant_dial_matches_dion_formula_with_vaporizer_output():
 def test_header_units_are_honoured():
     # mL/min and seconds give the same totals as L/min and minutes (SI definitions).
     a = audit(f"{HEADER}\nA,0,1,0.5,0,isoflurane,1\nA,30,1,0.5,0,isoflurane,1\n")
-    b = audit("case_id,time [s],oxygen_flow [mL/min],air_flow [mL/min],nitrous_oxide_flow,agent,"
-              "vaporizer_setting [1]\nA,0,1000,500,0,isoflurane,0.01\nA,1800,1000,500,0,isoflurane,0.01\n")
+    b = audit(
+        "case_id,time [s],oxygen_flow [mL/min],air_flow [mL/min],nitrous_oxide_flow,agent,"
+        "vaporizer_setting [1]\nA,0,1000,500,0,isoflurane,0.01\nA,1800,1000,500,0,isoflurane,0.01\n"
+    )
     for c in ("oxygen_l", "air_l", "agent_liquid_ml", "duration_min"):
         assert a.cases[c].iloc[0] == pytest.approx(b.cases[c].iloc[0], rel=1e-12)
 
 
-@pytest.mark.parametrize("header,column", [
-    ("case_id,time,oxygen_flow,air_flow,agent,vaporizer_setting", "nitrous_oxide_flow"),
-    ("case_id,time,oxygen_flow [L/min],air_flow [L],nitrous_oxide_flow,agent,vaporizer_setting", "air_flow"),
-    ("case_id,time,oxygen_flow [blorps per minute],air_flow,nitrous_oxide_flow,agent,vaporizer_setting",
-     "oxygen_flow"),
-    ("case_id,time,oxygen_flow,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting", "oxygen_flow"),
-    ("case_id [mL],time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting", "case_id"),
-])
+@pytest.mark.parametrize(
+    "header,column",
+    [
+        ("case_id,time,oxygen_flow,air_flow,agent,vaporizer_setting", "nitrous_oxide_flow"),
+        ("case_id,time,oxygen_flow [L/min],air_flow [L],nitrous_oxide_flow,agent,vaporizer_setting", "air_flow"),
+        (
+            "case_id,time,oxygen_flow [blorps per minute],air_flow,nitrous_oxide_flow,agent,vaporizer_setting",
+            "oxygen_flow",
+        ),
+        ("case_id,time,oxygen_flow,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting", "oxygen_flow"),
+        ("case_id [mL],time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting", "case_id"),
+    ],
+)
 def test_file_level_errors_name_the_column(header, column):
     with pytest.raises(InputError) as err:
         audit(header + "\nA,0,1,1,0,sevoflurane,2\n")
@@ -101,7 +108,7 @@ def test_malformed_rows_are_reported_with_line_and_reason():
     assert "time" in lines[3] and "yesterday" in lines[3]
     assert "oxygen_flow" in lines[4] and "-0.5" in lines[4]
     assert "agent" in lines[5] and "xenonflurane" in lines[5]
-    assert "maximum dial 8 %" in lines[6]              # sevoflurane dial range (common practice)
+    assert "maximum dial 8 %" in lines[6]  # sevoflurane dial range (common practice)
     assert "air_flow" in lines[7] and "abc" in lines[7]
     assert "case_id: empty" in lines[8]
     assert "fields where the header has" in lines[9]
@@ -110,7 +117,9 @@ def test_malformed_rows_are_reported_with_line_and_reason():
 
 
 def test_mixed_time_kinds_in_one_case_are_rejected():
-    r = audit(f"{HEADER}\nA,0,1,1,0,sevoflurane,2\nA,2025-01-01T10:00:00,1,1,0,sevoflurane,2\nA,5,1,1,0,sevoflurane,2\n")
+    r = audit(
+        f"{HEADER}\nA,0,1,1,0,sevoflurane,2\nA,2025-01-01T10:00:00,1,1,0,sevoflurane,2\nA,5,1,1,0,sevoflurane,2\n"
+    )
     assert [line for line, _ in r.rejections] == [3]
     assert "mixes" in r.rejections[0][1]
 
@@ -127,12 +136,23 @@ def test_timestamps_rooms_and_months():
     assert sorted(r.months["month"]) == ["2025-02", "2025-03"]
     k101 = r.cases.set_index("case_id").loc["K-101"]
     assert k101["duration_min"] == pytest.approx(90.0)
-    assert k101["start"] == "2025-02-03T07:00:00+00:00"     # offset converted to UTC
+    assert k101["start"] == "2025-02-03T07:00:00+00:00"  # offset converted to UTC
     assert any(code == "LONG_SAMPLE_GAP" for code, _ in r.warnings)
 
 
-@pytest.mark.parametrize("flow,name", [(0.25, "metabolic"), (0.26, "minimal"), (0.5, "minimal"), (1.0, "low"),
-                                       (1.5, "medium"), (2.0, "medium"), (4.0, "high"), (4.01, "very high")])
+@pytest.mark.parametrize(
+    "flow,name",
+    [
+        (0.25, "metabolic"),
+        (0.26, "minimal"),
+        (0.5, "minimal"),
+        (1.0, "low"),
+        (1.5, "medium"),
+        (2.0, "medium"),
+        (4.0, "high"),
+        (4.01, "very high"),
+    ],
+)
 def test_flow_classes_brattwall_2012(flow, name):
     # Brattwall M et al., Can J Anesth 2012;59:785: metabolic <= 0.25, minimal 0.25-0.5, low 0.5-1,
     # medium 1-2, high 2-4, very high > 4 L/min (upper bounds inclusive, as Baum and Aitkenhead 1995
@@ -149,8 +169,10 @@ def test_maintenance_kpis():
     assert k["maintenance_share_le_0_5"] == pytest.approx(1.0) and k["maintenance_share_le_1"] == pytest.approx(1.0)
     assert k["flow_class_shares"]["minimal"] == pytest.approx(1.0)
     assert r.cases["flow_class"].iloc[0] == "minimal"
-    r20 = audit(f"{HEADER}\nA,0,3,3,0,sevoflurane,3\nA,10,0.3,0.2,0,sevoflurane,2.5\nA,60,0.3,0.2,0,sevoflurane,0\n",
-                maintenance_after="20 min")
+    r20 = audit(
+        f"{HEADER}\nA,0,3,3,0,sevoflurane,3\nA,10,0.3,0.2,0,sevoflurane,2.5\nA,60,0.3,0.2,0,sevoflurane,0\n",
+        maintenance_after="20 min",
+    )
     assert r20.kpis["maintenance_time_min"] == pytest.approx(40.0)
 
 
@@ -160,8 +182,10 @@ def test_mac_hours_mapleson_1996():
     # for 120 min is 2 MAC-hours; the hand value is exact to 1e-9.
     mac70 = 1.80 * 10 ** (-0.00269 * 30)
     assert float(age_mac("sevoflurane", 70)) * 100 == pytest.approx(mac70, rel=1e-12)
-    text = ("case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent,"
-            f"patient_age\nA,0,1,1,0,sevoflurane,2,{mac70},70\nA,120,1,1,0,sevoflurane,2,{mac70},70\n")
+    text = (
+        "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent,"
+        f"patient_age\nA,0,1,1,0,sevoflurane,2,{mac70},70\nA,120,1,1,0,sevoflurane,2,{mac70},70\n"
+    )
     r = audit(text)
     assert r.cases["mac_hours"].iloc[0] == pytest.approx(2.0, rel=1e-9)
     assert r.kpis["co2e_per_mac_hour_kg"] == pytest.approx(r.cases["co2e_kg"].iloc[0] / 2.0)
@@ -204,19 +228,22 @@ def _stand_in(doc):
 
 
 def test_counterfactual_savings_arithmetic_with_stand_in():
-    text = ("case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent\n"
-            "A,0,2,2,0,sevoflurane,2,2\nA,10,2,2,0,sevoflurane,2,2\nA,70,2,2,0,sevoflurane,2,2\n"
-            "B,0,1,1,0,sevoflurane,2,\nB,30,1,1,0,sevoflurane,2,\n")
+    text = (
+        "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent\n"
+        "A,0,2,2,0,sevoflurane,2,2\nA,10,2,2,0,sevoflurane,2,2\nA,70,2,2,0,sevoflurane,2,2\n"
+        "B,0,1,1,0,sevoflurane,2,\nB,30,1,1,0,sevoflurane,2,\n"
+    )
     r = audit(text, prices=DEMO_PRICES)
     policy = parse_policy({"policy": {"fresh_gas_flow": "0.5 L/min", "baseline": "engine"}})
     cf = counterfactual(r, policy, prices=DEMO_PRICES, runner=_stand_in)
-    assert [s["case_id"] for s in cf["skipped"]] == ["B"]            # no end-tidal: said, not dropped
+    assert [s["case_id"] for s in cf["skipped"]] == ["B"]  # no end-tidal: said, not dropped
     case = cf["cases"][0]
     # Maintenance 60 min at 0.5 instead of 4 L/min; wash-in the same: saving = 3.5 x 60 L x 2/98 as vapour.
     saved_vapour = 3.5 * 60 * 0.02 / 0.98
     assert case["savings"]["agent_liquid"]["magnitude"] == pytest.approx(saved_vapour / VM * 200.05 / 1.52, rel=1e-9)
-    assert case["savings"]["cost"]["total"] == pytest.approx(case["baseline"]["cost"]["total"]
-                                                           - case["policy"]["cost"]["total"])
+    assert case["savings"]["cost"]["total"] == pytest.approx(
+        case["baseline"]["cost"]["total"] - case["policy"]["cost"]["total"]
+    )
     assert cf["totals"]["savings"]["co2e"]["basis"] == "ar6_gwp100"
     assert any(w["code"] == "STAND_IN" for w in case["warnings"])
     few = counterfactual(audit(DATA / "audit_two_rooms.csv"), parse_policy({"max_cases": 1}), runner=_stand_in)
@@ -227,7 +254,7 @@ def test_policy_flows_keep_oxygen_share():
     p = parse_policy({"fresh_gas_flow": "1 L/min", "minimum_oxygen_share": "50 %"})
     o2, air, n2o = policy_flows(1.0, 0.0, 3.0, p)
     assert o2 + air + n2o == pytest.approx(1.0) and o2 == pytest.approx(0.5)
-    assert policy_flows(0.3, 0.2, 0.0, p) == (0.3, 0.2, 0.0)     # a lower recorded flow is kept
+    assert policy_flows(0.3, 0.2, 0.0, p) == (0.3, 0.2, 0.0)  # a lower recorded flow is kept
     with pytest.raises(InputError):
         parse_policy({"fresh_gas_flow": "0.5 L/min", "colour": "green"})
 
@@ -235,9 +262,11 @@ def test_policy_flows_keep_oxygen_share():
 def test_counterfactual_through_the_engine():
     # The real engine (end-tidal hold): lowering maintenance flow from 6 to 0.5 L/min at the same
     # end-tidal must save agent (uptake is the same, less is vented: Baum and Aitkenhead 1995).
-    text = ("case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent,patient_age,"
-            "patient_weight\nE,0,3,3,0,sevoflurane,3,1.0,50,75\nE,10,3,3,0,sevoflurane,2.2,1.6,50,75\n"
-            "E,40,3,3,0,sevoflurane,2.2,1.6,50,75\n")
+    text = (
+        "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent,patient_age,"
+        "patient_weight\nE,0,3,3,0,sevoflurane,3,1.0,50,75\nE,10,3,3,0,sevoflurane,2.2,1.6,50,75\n"
+        "E,40,3,3,0,sevoflurane,2.2,1.6,50,75\n"
+    )
     r = audit(text)
     cf = counterfactual(r, parse_policy({"fresh_gas_flow": "0.5 L/min", "block": "30 min"}))
     assert cf["totals"]["cases"] == 1

@@ -23,15 +23,29 @@ from estimator.scenario import scenario_from_dict
 #: Agreement target of the batch engine with the single-case engine (see the module docstring).
 AGREEMENT = 1e-3
 #: Totals compared (litres of gas, mL of liquid, MAC-hours, CO2 to the absorbent).
-KEYS = ("agent_liquid", "agent_vapour", "agent_uptake", "oxygen", "air", "nitrous_oxide",
-        "nitrous_oxide_mass", "co2_absorbed", "absorbent", "mac_hours", "volume_deficit")
+KEYS = (
+    "agent_liquid",
+    "agent_vapour",
+    "agent_uptake",
+    "oxygen",
+    "air",
+    "nitrous_oxide",
+    "nitrous_oxide_mass",
+    "co2_absorbed",
+    "absorbent",
+    "mac_hours",
+    "volume_deficit",
+)
 
 
 def _scenario(agent="sevoflurane", wash=None, keep=None, **tables):
     wash = wash or {"oxygen": "3 L/min", "air": "3 L/min", "end_tidal_target": "1 MAC"}
     keep = keep or {"oxygen": "0.4 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"}
-    data = {"patient": {"weight": "70 kg", "age": "40 years"}, "agent": {"name": agent},
-            "phases": [{"duration": "10 min", **wash}, {"duration": "50 min", **keep}]}
+    data = {
+        "patient": {"weight": "70 kg", "age": "40 years"},
+        "agent": {"name": agent},
+        "phases": [{"duration": "10 min", **wash}, {"duration": "50 min", **keep}],
+    }
     data.update(tables)
     return scenario_from_dict(data)
 
@@ -39,14 +53,19 @@ def _scenario(agent="sevoflurane", wash=None, keep=None, **tables):
 VARIANTS = {
     "sevoflurane hold, O2/air": _scenario(),
     "isoflurane dial with N2O": _scenario(
-        "isoflurane", {"oxygen": "2 L/min", "nitrous_oxide": "4 L/min", "vaporizer": "1.5 %"},
-        {"oxygen": "0.5 L/min", "nitrous_oxide": "0.5 L/min", "vaporizer": "1.2 %"}),
+        "isoflurane",
+        {"oxygen": "2 L/min", "nitrous_oxide": "4 L/min", "vaporizer": "1.5 %"},
+        {"oxygen": "0.5 L/min", "nitrous_oxide": "0.5 L/min", "vaporizer": "1.2 %"},
+    ),
     "desflurane hold at 2000 m, unreturned sample, leak": _scenario(
-        "desflurane", keep={"oxygen": "0.5 L/min", "air": "0.3 L/min", "end_tidal_target": "1 MAC"},
-        site={"elevation": "2000 m"}, circuit={"sample_returned": False, "leak": "0.05 L/min"}),
+        "desflurane",
+        keep={"oxygen": "0.5 L/min", "air": "0.3 L/min", "end_tidal_target": "1 MAC"},
+        site={"elevation": "2000 m"},
+        circuit={"sample_returned": False, "leak": "0.05 L/min"},
+    ),
     "volume deficit, room-air make-up": _scenario(
-        keep={"oxygen": "0.15 L/min", "end_tidal_target": "0.8 MAC"},
-        circuit={"deficit_makeup": "room_air"}),
+        keep={"oxygen": "0.15 L/min", "end_tidal_target": "0.8 MAC"}, circuit={"deficit_makeup": "room_air"}
+    ),
 }
 
 
@@ -108,15 +127,20 @@ def test_against_scipy_lsoda():
     y = tpl.initial.copy()
     w = np.empty(c.NW)
     for k in range(len(d)):
+
         def f(t, yy, k=k):
             out = np.empty(c.NY)
             c.rhs(np.ascontiguousarray(yy), p[k], w, out)
             return out
+
         sol = solve_ivp(f, (0.0, d[k]), y, method="LSODA", rtol=1e-10, atol=1e-12)
         y = sol.y[:, -1]
     out = batch.run_batch(tpl, [85.0], [55.0], [180.0])
-    for key, idx in (("agent_vapour", c.Y_FGIN + c.AGENT), ("co2_absorbed", c.Y_CO2ABS),
-                     ("agent_uptake", c.Y_UPTAKE + c.AGENT)):
+    for key, idx in (
+        ("agent_vapour", c.Y_FGIN + c.AGENT),
+        ("co2_absorbed", c.Y_CO2ABS),
+        ("agent_uptake", c.Y_UPTAKE + c.AGENT),
+    ):
         ref = (y[idx] - tpl.initial[idx]) * batch.litres_per_mmol()
         assert out[key][0] == pytest.approx(ref, rel=AGREEMENT)
     assert out["mac_hours"][0] == pytest.approx((y[c.Y_MACMIN] - tpl.initial[c.Y_MACMIN]) / 60.0, rel=AGREEMENT)
@@ -138,8 +162,15 @@ def test_mass_balance_closes():
     dy = y1[0] - y0[0]
     for s in range(c.NS):
         delivered = dy[c.Y_FGIN + s] + dy[c.Y_MAKEUP + s]
-        out = (dy[c.Y_UPTAKE + s] + dy[c.Y_VENT + s] + dy[c.Y_LEAK + s] + dy[c.Y_SAMPLE + s]
-               + (dy[c.Y_CO2ABS] if s == c.CO2 else 0.0) + (c1[s] - c0[s]) + (l1[s] - l0[s]))
+        out = (
+            dy[c.Y_UPTAKE + s]
+            + dy[c.Y_VENT + s]
+            + dy[c.Y_LEAK + s]
+            + dy[c.Y_SAMPLE + s]
+            + (dy[c.Y_CO2ABS] if s == c.CO2 else 0.0)
+            + (c1[s] - c0[s])
+            + (l1[s] - l0[s])
+        )
         scale = max(abs(delivered), abs(dy[c.Y_UPTAKE + s]), 1e-9)
         assert abs(delivered - out) <= 1e-9 * scale, c.SPECIES[s]
 

@@ -96,8 +96,7 @@ def test_change_a_fresh_gas_flow_and_see_the_totals_change(server, browser, tmp_
     page.goto(server)
     page.get_by_text("Planning and audit aid only").first.wait_for(timeout=RENDER_TIMEOUT_MS)
     first_content = time.monotonic() - t0
-    page.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.wait_for(
-        timeout=RENDER_TIMEOUT_MS)
+    page.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.wait_for(timeout=RENDER_TIMEOUT_MS)
     first_totals = time.monotonic() - t0
     page.wait_for_function("document.querySelectorAll('.vega-embed').length >= 5", timeout=RENDER_TIMEOUT_MS)
     before_agent = number(metric_value(page, "Liquid agent"))
@@ -116,16 +115,23 @@ def test_change_a_fresh_gas_flow_and_see_the_totals_change(server, browser, tmp_
     assert after_agent > before_agent
     assert number(metric_value(page, "Oxygen")) > before_o2
     page.screenshot(path=str(tmp_path / "case_planner_after_edit.png"), full_page=True)
-    print(f"first content {first_content:.2f} s, first totals {first_totals:.2f} s, "
-          f"rerun after a flow edit {rerun:.2f} s (liquid agent {before_agent} -> {after_agent} mL)")
+    print(
+        f"first content {first_content:.2f} s, first totals {first_totals:.2f} s, "
+        f"rerun after a flow edit {rerun:.2f} s (liquid agent {before_agent} -> {after_agent} mL)"
+    )
     page.close()
 
 
 def test_every_page_opens_with_the_caution(server, browser):
     page = browser.new_page(viewport={"width": 1400, "height": 1000})
-    for path, title in (("flow-floor", "Flow floor"), ("supply-duration", "Supply duration"),
-                        ("fresh-gas-audit", "Fresh-gas audit"), ("site-and-flowmeter", "Site and flowmeter"),
-                        ("methods-and-sources", "Methods and sources"), ("demand-forecast", "Demand forecast")):
+    for path, title in (
+        ("flow-floor", "Flow floor"),
+        ("supply-duration", "Supply duration"),
+        ("fresh-gas-audit", "Fresh-gas audit"),
+        ("site-and-flowmeter", "Site and flowmeter"),
+        ("methods-and-sources", "Methods and sources"),
+        ("demand-forecast", "Demand forecast"),
+    ):
         page.goto(f"{server}/{path}")
         page.get_by_role("heading", name=title).first.wait_for(timeout=RENDER_TIMEOUT_MS)
         page.get_by_text("Planning and audit aid only").first.wait_for(timeout=RENDER_TIMEOUT_MS)

@@ -18,13 +18,19 @@ AR6_GWP20 = {"nitrous_oxide": 273, "desflurane": 7020, "isoflurane": 1930, "sevo
 AR5_GWP100 = {"nitrous_oxide": 265, "desflurane": 1790, "isoflurane": 491, "sevoflurane": 216, "halothane": 41}
 
 
-@pytest.mark.parametrize("basis,table", [("ar6_gwp100", AR6_GWP100), ("ar6_gwp20", AR6_GWP20),
-                                         ("ar5_gwp100", AR5_GWP100)])
+@pytest.mark.parametrize(
+    "basis,table", [("ar6_gwp100", AR6_GWP100), ("ar6_gwp20", AR6_GWP20), ("ar5_gwp100", AR5_GWP100)]
+)
 def test_gwp_values_match_ipcc_tables(basis, table):
     for species, value in table.items():
-        record(f"{species} GWP ({basis})", carbon.gwp(species, basis), value,
-               "IPCC AR6 WG1 Table 7.SM.7" if basis.startswith("ar6") else "IPCC AR5 WG1 Table 8.A.1", "exact",
-               carbon.gwp(species, basis) == value)
+        record(
+            f"{species} GWP ({basis})",
+            carbon.gwp(species, basis),
+            value,
+            "IPCC AR6 WG1 Table 7.SM.7" if basis.startswith("ar6") else "IPCC AR5 WG1 Table 8.A.1",
+            "exact",
+            carbon.gwp(species, basis) == value,
+        )
         assert carbon.gwp(species, basis) == value
 
 
@@ -43,11 +49,14 @@ def test_unknown_basis_names_field_and_choices():
     assert "co2e_basis" in str(err.value) and "ar6_gwp100" in str(err.value)
 
 
-@pytest.mark.parametrize("agent,mac,published_g,gwp20", [
-    ("sevoflurane", 0.020, 6980.0, 349.0),
-    ("isoflurane", 0.012, 15551.0, 1401.0),
-    ("desflurane", 0.060, 187186.0, 3714.0),
-])
+@pytest.mark.parametrize(
+    "agent,mac,published_g,gwp20",
+    [
+        ("sevoflurane", 0.020, 6980.0, 349.0),
+        ("isoflurane", 0.012, 15551.0, 1401.0),
+        ("desflurane", 0.060, 187186.0, 3714.0),
+    ],
+)
 def test_ryan_nielsen_2010_co2e_per_mac_hour_at_2_l_min(agent, mac, published_g, gwp20):
     # Ryan SM, Nielsen CJ. Anesth Analg 2010;111:92, abstract: CO2 equivalent (GWP20 basis) of
     # 1 MAC-hour at 2 L/min fresh gas: sevoflurane 6980 g, isoflurane 15,551 g, desflurane
@@ -59,8 +68,15 @@ def test_ryan_nielsen_2010_co2e_per_mac_hour_at_2_l_min(agent, mac, published_g,
     vapour = Q_(mac * 2.0 * 60.0, "L")
     mass = carbon.vapour_to_mass(vapour, agent, temperature=Q_(20, "degC"))
     co2e_g = mass.to("g").magnitude * gwp20
-    record(f"{agent} CO2e (GWP20) of 1 MAC-hour at 2 L/min", co2e_g, published_g,
-           "Ryan & Nielsen, Anesth Analg 2010;111:92", "rel 1 %", co2e_g == pytest.approx(published_g, rel=0.01), "g")
+    record(
+        f"{agent} CO2e (GWP20) of 1 MAC-hour at 2 L/min",
+        co2e_g,
+        published_g,
+        "Ryan & Nielsen, Anesth Analg 2010;111:92",
+        "rel 1 %",
+        co2e_g == pytest.approx(published_g, rel=0.01),
+        "g",
+    )
     assert co2e_g == pytest.approx(published_g, rel=0.01)
 
 
@@ -72,8 +88,15 @@ def test_vapour_per_ml_matches_biro_2014():
     for agent, ml in (("sevoflurane", 184.0), ("isoflurane", 195.0), ("desflurane", 210.0)):
         gas_g = carbon.vapour_to_mass(Q_(ml, "mL"), agent, temperature=Q_(20, "degC")).to("g").magnitude
         liquid_g = carbon.liquid_to_mass(Q_(1, "mL"), agent).to("g").magnitude
-        record(f"{agent}: mass of {ml:g} mL vapour vs 1 mL liquid", gas_g, liquid_g,
-               "Biro, Acta Anaesthesiol Scand 2014", "rel 2 %", gas_g == pytest.approx(liquid_g, rel=0.02), "g")
+        record(
+            f"{agent}: mass of {ml:g} mL vapour vs 1 mL liquid",
+            gas_g,
+            liquid_g,
+            "Biro, Acta Anaesthesiol Scand 2014",
+            "rel 2 %",
+            gas_g == pytest.approx(liquid_g, rel=0.02),
+            "g",
+        )
         assert gas_g == pytest.approx(liquid_g, rel=0.02)
 
 
@@ -90,8 +113,15 @@ def test_ideal_gas_nitrous_oxide_within_one_percent_of_coolprop():
 
     rho = PropsSI("D", "T", 288.15, "P", 101325.0, "NitrousOxide")  # kg/m3 = g/L
     ideal = carbon.vapour_to_mass(Q_(1.0, "L"), "nitrous_oxide").to("g").magnitude
-    record("mass of 1 L nitrous oxide at 15 degC", ideal, rho, "CoolProp density", "rel 1 %",
-           ideal == pytest.approx(rho, rel=0.01), "g")
+    record(
+        "mass of 1 L nitrous oxide at 15 degC",
+        ideal,
+        rho,
+        "CoolProp density",
+        "rel 1 %",
+        ideal == pytest.approx(rho, rel=0.01),
+        "g",
+    )
     assert ideal == pytest.approx(rho, rel=0.01)
 
 
@@ -118,7 +148,10 @@ def test_nitrous_oxide_manifold_loss_thomas_2024():
     # Thomas et al., Br J Anaesth 2024;133:1427: 80-98 % of supplied N2O lost before use. With a loss
     # share L, supply = used / (1 - L), all of it released.
     assert float(carbon.nitrous_oxide_released(100.0, 0.8)) == pytest.approx(500.0)
-    low, high = carbon.factors()["nitrous_oxide_manifold_loss_low"], carbon.factors()["nitrous_oxide_manifold_loss_high"]
+    low, high = (
+        carbon.factors()["nitrous_oxide_manifold_loss_low"],
+        carbon.factors()["nitrous_oxide_manifold_loss_high"],
+    )
     assert (low.value, high.value) == (0.80, 0.98)
     with pytest.raises(InputError):
         carbon.nitrous_oxide_released(1.0, 1.0)
@@ -136,15 +169,23 @@ def test_oxygen_supply_carbon_tariq_2024():
     # 2024, as quoted in REFERENCES sec. 8): 2000 L -> 0.34 kg.
     r = carbon.case_carbon({"oxygen": Q_(2000, "L"), "absorbent": Q_(100, "g")}, None, supply=True)
     o2e = r.supply_co2e["oxygen"].to("kg").magnitude
-    record("supply CO2e of 2000 L oxygen", o2e, 0.34, "Tariq et al., J Clean Prod 2024 (0.17 kg/m3, secondary)",
-           "rel 1e-9", o2e == pytest.approx(0.34, rel=1e-9), "kg")
+    record(
+        "supply CO2e of 2000 L oxygen",
+        o2e,
+        0.34,
+        "Tariq et al., J Clean Prod 2024 (0.17 kg/m3, secondary)",
+        "rel 1e-9",
+        o2e == pytest.approx(0.34, rel=1e-9),
+        "kg",
+    )
     assert r.supply_co2e["oxygen"].to("kg").magnitude == pytest.approx(0.34, rel=1e-9)
     assert any(code == "ABSORBENT_SUPPLY_NOT_COUNTED" for code, _ in r.warnings)
 
 
 def test_every_co2e_figure_carries_its_basis():
-    r = carbon.case_carbon({"agent_liquid": Q_(5, "mL"), "nitrous_oxide": Q_(10, "L")}, "desflurane",
-                           "ar5_gwp100", supply=True)
+    r = carbon.case_carbon(
+        {"agent_liquid": Q_(5, "mL"), "nitrous_oxide": Q_(10, "L")}, "desflurane", "ar5_gwp100", supply=True
+    )
     doc = r.to_json()
     for key in ("agent_co2e", "nitrous_oxide_co2e", "released_co2e", "total"):
         assert doc[key]["basis"] == "ar5_gwp100"

@@ -8,8 +8,17 @@ import pytest
 from estimator.cli import CAUTION, main
 
 DATA = Path(__file__).parent / "data"
-KEYS = {"rows", "rejections", "cases", "totals", "kpis", "counterfactual", "co2e_basis", "gas_volume_reference",
-        "warnings"}
+KEYS = {
+    "rows",
+    "rejections",
+    "cases",
+    "totals",
+    "kpis",
+    "counterfactual",
+    "co2e_basis",
+    "gas_volume_reference",
+    "warnings",
+}
 
 
 def run(args, capsys):
@@ -20,8 +29,9 @@ def run(args, capsys):
 
 
 def test_json_keys(capsys):
-    code, out, _ = run(["audit", str(DATA / "audit_two_rooms.csv"), "--json", "--basis", "ar5_gwp100",
-                        "--demo-prices"], capsys)
+    code, out, _ = run(
+        ["audit", str(DATA / "audit_two_rooms.csv"), "--json", "--basis", "ar5_gwp100", "--demo-prices"], capsys
+    )
     assert code == 0
     doc = json.loads(out)
     assert KEYS <= set(doc)
@@ -59,8 +69,17 @@ def test_bad_options_exit_2(extra, capsys):
 
 
 def test_exports_written(tmp_path, capsys):
-    args = ["audit", str(DATA / "audit_two_rooms.csv"), "--demo-prices", "--report", str(tmp_path / "r.html"),
-            "--xlsx", str(tmp_path / "r.xlsx"), "--csv", str(tmp_path / "r.csv")]
+    args = [
+        "audit",
+        str(DATA / "audit_two_rooms.csv"),
+        "--demo-prices",
+        "--report",
+        str(tmp_path / "r.html"),
+        "--xlsx",
+        str(tmp_path / "r.xlsx"),
+        "--csv",
+        str(tmp_path / "r.csv"),
+    ]
     code, out, _ = run(args, capsys)
     assert code == 0
     for name in ("r.html", "r.xlsx", "r.csv"):

@@ -16,12 +16,30 @@ def run(capsys, *args):
 
 
 def test_json_keys_and_values(capsys):
-    code, out, _ = run(capsys, "--reading", "10 L/min", "--calibrated-for", "oxygen", "--gas", "oxygen",
-                       "--elevation", "3000 m", "--json")
+    code, out, _ = run(
+        capsys,
+        "--reading",
+        "10 L/min",
+        "--calibrated-for",
+        "oxygen",
+        "--gas",
+        "oxygen",
+        "--elevation",
+        "3000 m",
+        "--json",
+    )
     assert code in (0, None)
     d = json.loads(out)
-    for key in ("true_flow_ambient", "true_flow_standard", "regime", "uncertainty", "reynolds", "site",
-                "warnings", "gas_volume_reference"):
+    for key in (
+        "true_flow_ambient",
+        "true_flow_standard",
+        "regime",
+        "uncertainty",
+        "reynolds",
+        "site",
+        "warnings",
+        "gas_volume_reference",
+    ):
         assert key in d
     assert set(d["uncertainty"]) == {"low", "high"}
     assert d["true_flow_ambient"]["units"] == "liter / minute"
@@ -35,8 +53,22 @@ def test_json_keys_and_values(capsys):
 
 
 def test_concentrator_with_purity_and_pressure(capsys):
-    code, out, _ = run(capsys, "--reading", "5 L/min", "--calibrated-for", "oxygen", "--gas", "concentrator",
-                       "--ambient-pressure", "70 kPa", "--temperature", "30 degC", "--purity", "93 %", "--json")
+    code, out, _ = run(
+        capsys,
+        "--reading",
+        "5 L/min",
+        "--calibrated-for",
+        "oxygen",
+        "--gas",
+        "concentrator",
+        "--ambient-pressure",
+        "70 kPa",
+        "--temperature",
+        "30 degC",
+        "--purity",
+        "93 %",
+        "--json",
+    )
     d = json.loads(out)
     assert d["composition"]["oxygen"] == pytest.approx(0.93)
     assert d["site"]["temperature"]["magnitude"] == pytest.approx(30.0)
@@ -44,20 +76,24 @@ def test_concentrator_with_purity_and_pressure(capsys):
 
 
 def test_human_output_ends_with_caution(capsys):
-    code, out, _ = run(capsys, "--reading", "0.5 L/min", "--calibrated-for", "air", "--gas",
-                       "oxygen=30 %, nitrous_oxide=70 %")
+    code, out, _ = run(
+        capsys, "--reading", "0.5 L/min", "--calibrated-for", "air", "--gas", "oxygen=30 %, nitrous_oxide=70 %"
+    )
     assert code in (0, None)
     assert "true flow" in out and "regime:" in out
     assert out.strip().endswith(CAUTION)
 
 
-@pytest.mark.parametrize("args,needle", [
-    (["--elevation", "12000 m"], "--elevation"),
-    (["--gas", "concentrator", "--purity", "99 %"], "--purity"),
-    (["--gas", "xenon"], "--gas"),
-    (["--elevation", "3000 m", "--ambient-pressure", "101 kPa"], "--ambient-pressure"),
-    (["--reading", "-2 L/min"], "--reading"),
-])
+@pytest.mark.parametrize(
+    "args,needle",
+    [
+        (["--elevation", "12000 m"], "--elevation"),
+        (["--gas", "concentrator", "--purity", "99 %"], "--purity"),
+        (["--gas", "xenon"], "--gas"),
+        (["--elevation", "3000 m", "--ambient-pressure", "101 kPa"], "--ambient-pressure"),
+        (["--reading", "-2 L/min"], "--reading"),
+    ],
+)
 def test_errors_are_one_line_exit_2(capsys, args, needle):
     base = {"--reading": "2 L/min", "--calibrated-for": "oxygen"}
     extra = dict(zip(args[::2], args[1::2], strict=True))

@@ -24,8 +24,19 @@ def test_json_contract(capsys):
     code, out, _ = _run(capsys, MIX, "--weeks", 12, "--seed", 5, "--json")
     assert code == 0
     doc = json.loads(out)
-    for key in ("weeks", "seed", "items", "orders", "warnings", "gas_volume_reference", "cost", "cases",
-                "cover", "co2e_basis", "solver"):
+    for key in (
+        "weeks",
+        "seed",
+        "items",
+        "orders",
+        "warnings",
+        "gas_volume_reference",
+        "cost",
+        "cases",
+        "cover",
+        "co2e_basis",
+        "solver",
+    ):
         assert key in doc, key
     assert doc["weeks"] == 12 and doc["seed"] == 5
     assert doc["gas_volume_reference"].startswith("free gas at 15 degC and 101.325 kPa")
@@ -65,8 +76,10 @@ def test_csv_file(capsys, tmp_path):
 
 def test_errors_are_one_line_with_status_2(capsys, tmp_path):
     bad = tmp_path / "bad.toml"
-    bad.write_text('[[case_types]]\nname = "x"\nper_week = 2\nagent = "sevoflurane"\nweight_mean = "70 kg"\n'
-                   'duration_median = "60 min"\nduration_p90 = "30 min"\n')
+    bad.write_text(
+        '[[case_types]]\nname = "x"\nper_week = 2\nagent = "sevoflurane"\nweight_mean = "70 kg"\n'
+        'duration_median = "60 min"\nduration_p90 = "30 min"\n'
+    )
     code, _, err = _run(capsys, bad)
     assert code == 2
     assert err.count("\n") == 1 and "case_types[0].duration_p90" in err

@@ -22,8 +22,7 @@ def test_json_keys_and_values(capsys):
     code, out, err = run(["mac", "--agent", "sevoflurane", "--age", "70", "--json"], capsys)
     assert code == 0 and err == ""
     doc = json.loads(out)
-    for key in ("mac", "end_tidal_for_total", "agent", "age", "nitrous_oxide_mac_fraction", "warnings",
-                "source"):
+    for key in ("mac", "end_tidal_for_total", "agent", "age", "nitrous_oxide_mac_fraction", "warnings", "source"):
         assert key in doc
     # Mapleson 1996: 1.80 % x 10^(-0.00269 x 30) = 1.4948 % at 70 years (Table 2 and formula).
     assert doc["mac"]["units"] == "percent"
@@ -36,8 +35,21 @@ def test_json_keys_and_values(capsys):
 
 
 def test_json_total_with_nitrous_oxide(capsys):
-    code, out, _ = run(["mac", "--agent", "isoflurane", "--age", "70 years", "--nitrous-oxide", "67 %",
-                        "--total-mac", "1.2", "--json"], capsys)
+    code, out, _ = run(
+        [
+            "mac",
+            "--agent",
+            "isoflurane",
+            "--age",
+            "70 years",
+            "--nitrous-oxide",
+            "67 %",
+            "--total-mac",
+            "1.2",
+            "--json",
+        ],
+        capsys,
+    )
     assert code == 0
     doc = json.loads(out)
     # Nickalls and Mapleson 2003 additivity with Mapleson 1996 MACs written out: nitrous oxide
@@ -50,8 +62,10 @@ def test_json_total_with_nitrous_oxide(capsys):
 
 
 def test_json_total_not_reachable_is_null_with_warning(capsys):
-    code, out, _ = run(["mac", "--agent", "sevoflurane", "--age", "40", "--nitrous-oxide", "70 %",
-                        "--total-mac", "0.5", "--json"], capsys)
+    code, out, _ = run(
+        ["mac", "--agent", "sevoflurane", "--age", "40", "--nitrous-oxide", "70 %", "--total-mac", "0.5", "--json"],
+        capsys,
+    )
     doc = json.loads(out)
     assert code == 0 and doc["end_tidal_for_total"] is None
     assert [w["code"] for w in doc["warnings"]] == ["NITROUS_OXIDE_EXCEEDS_TOTAL"]
@@ -64,15 +78,18 @@ def test_human_output_ends_with_caution(capsys):
     assert out.rstrip().endswith(CAUTION)
 
 
-@pytest.mark.parametrize("args,field", [
-    (["--agent", "ether", "--age", "40"], "--agent"),
-    (["--agent", "sevoflurane", "--age", "-3"], "--age"),
-    (["--agent", "sevoflurane", "--age", "40 kg"], "--age"),
-    (["--agent", "sevoflurane", "--age", "40", "--nitrous-oxide", "150 %"], "--nitrous-oxide"),
-    (["--agent", "sevoflurane", "--age", "40", "--total-mac", "9"], "--total-mac"),
-    (["--agent", "sevoflurane", "--age", "40", "--ambient-pressure", "2 kPa"], "--ambient-pressure"),
-    (["--agent", "sevoflurane", "--age", "40", "--elevation", "20000 m"], "--elevation"),
-])
+@pytest.mark.parametrize(
+    "args,field",
+    [
+        (["--agent", "ether", "--age", "40"], "--agent"),
+        (["--agent", "sevoflurane", "--age", "-3"], "--age"),
+        (["--agent", "sevoflurane", "--age", "40 kg"], "--age"),
+        (["--agent", "sevoflurane", "--age", "40", "--nitrous-oxide", "150 %"], "--nitrous-oxide"),
+        (["--agent", "sevoflurane", "--age", "40", "--total-mac", "9"], "--total-mac"),
+        (["--agent", "sevoflurane", "--age", "40", "--ambient-pressure", "2 kPa"], "--ambient-pressure"),
+        (["--agent", "sevoflurane", "--age", "40", "--elevation", "20000 m"], "--elevation"),
+    ],
+)
 def test_errors_are_one_line_naming_the_field(args, field, capsys):
     code, out, err = run(["mac", *args], capsys)
     assert code == 2 and out == ""
@@ -106,8 +123,12 @@ def test_help_and_version(capsys):
 
 
 def test_python_dash_m_runs_the_verb():
-    r = subprocess.run([sys.executable, "-m", "estimator", "mac", "--agent", "halothane", "--age", "40",
-                        "--json"], capture_output=True, text=True, timeout=60)
+    r = subprocess.run(
+        [sys.executable, "-m", "estimator", "mac", "--agent", "halothane", "--age", "40", "--json"],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
     assert r.returncode == 0, r.stderr
     # Mapleson 1996 Table 2: halothane 0.75 % at 40 years.
     assert json.loads(r.stdout)["mac"]["magnitude"] == pytest.approx(0.75, rel=1e-12)

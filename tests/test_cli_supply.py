@@ -48,4 +48,6 @@ def test_remote_site_through_the_engine(capsys):
     assert names["N2O spare"]["runtime"] is None and names["N2O spare"]["status"] == "not used"
     assert names["Concentrator 1"]["status"] == "renewable"
     assert j["cases_possible"] > 0 and len(j["depletion"]["day"]) > 10
-    assert set(j["depletion"]["remaining"]) == {n for n, i in names.items() if i["kind"] not in ("concentrator", "pipeline")}
+    assert set(j["depletion"]["remaining"]) == {
+        n for n, i in names.items() if i["kind"] not in ("concentrator", "pipeline")
+    }

@@ -26,6 +26,7 @@ from estimator.units import Q_
 
 # --- Lowe square-root-of-time ------------------------------------------------------------------
 
+
 def test_lowe_coefficient_from_published_terms():
     # Lowe and Ernst 1981: k = f x MAC x lambda x Q (MAC vol %, Q dL/min). Terms from outside the
     # project: sevoflurane MAC40 1.80 % (Mapleson 1996 Table 2), blood/gas 0.65 (Katoh 1992),
@@ -33,9 +34,15 @@ def test_lowe_coefficient_from_published_terms():
     q_dl = 2.0 * 70**0.75
     expected = 1.3 * 1.80 * 0.65 * q_dl
     k = lowe_uptake_coefficient("sevoflurane")
-    record("Lowe uptake coefficient f MAC lambda Q, sevoflurane, 70 kg", k.value.to("mL/min").magnitude, expected,
-           "Lowe & Ernst 1981; Mapleson 1996; Katoh 1992", "rel 1e-12",
-           k.value.to("mL/min").magnitude == pytest.approx(expected, rel=1e-12), "mL/min")
+    record(
+        "Lowe uptake coefficient f MAC lambda Q, sevoflurane, 70 kg",
+        k.value.to("mL/min").magnitude,
+        expected,
+        "Lowe & Ernst 1981; Mapleson 1996; Katoh 1992",
+        "rel 1e-12",
+        k.value.to("mL/min").magnitude == pytest.approx(expected, rel=1e-12),
+        "mL/min",
+    )
     assert k.value.to("mL/min").magnitude == pytest.approx(expected, rel=1e-12)
     assert k.warnings == ()
     # MAC multiple and f multiply the target; age follows Mapleson (10^(-0.00269 x 30) at 70 years).
@@ -90,14 +97,21 @@ def test_lowe_warnings_and_errors():
 
 # --- Severinghaus nitrous oxide --------------------------------------------------------------------
 
+
 @pytest.mark.parametrize("t,rate", [(1, 1000.0), (4, 500.0), (25, 200.0), (100, 100.0)])
 def test_severinghaus_rate(t, rate):
     # Severinghaus JW, J Clin Invest 1954;33:1183: about 1000 t^-1/2 mL/min (70 kg, 65-75 %
     # inspired): 1000 at 1 min, 200 at 25 min. The law itself, so round-off only.
     r = severinghaus_uptake_rate(f"{t} min")
-    record(f"Severinghaus N2O uptake rate at {t} min (law)", r.value.to("mL/min").magnitude, rate,
-           "Severinghaus, J Clin Invest 1954;33:1183", "rel 1e-12",
-           r.value.to("mL/min").magnitude == pytest.approx(rate, rel=1e-12), "mL/min")
+    record(
+        f"Severinghaus N2O uptake rate at {t} min (law)",
+        r.value.to("mL/min").magnitude,
+        rate,
+        "Severinghaus, J Clin Invest 1954;33:1183",
+        "rel 1e-12",
+        r.value.to("mL/min").magnitude == pytest.approx(rate, rel=1e-12),
+        "mL/min",
+    )
     assert r.value.to("mL/min").magnitude == pytest.approx(rate, rel=1e-12)
     assert r.warnings == ()
 
@@ -122,14 +136,21 @@ def test_severinghaus_scaling_is_ours_and_flagged():
 
 # --- Dion's formula ------------------------------------------------------------------------------
 
+
 def test_dion_worked_example_isoflurane():
     # Dion P, Can J Anaesth 1992;39:633: liquid mL = C% x FGF (L/min) x t (min) x MW / (2412 x d).
     # Reconstructed example: 1 % isoflurane at 1 L/min for 60 min, MW 184.49 g/mol (CRC), d 1.50 g/mL:
     # 1 x 1 x 60 x 184.49 / (2412 x 1.50) = 11069.4 / 3618 = 3.0595 mL. Round-off only.
     v = dion_liquid_volume("1 %", "1 L/min", "60 min", "isoflurane")
-    record("Dion liquid isoflurane, 1 % at 1 L/min for 60 min", v.to("mL").magnitude, 11069.4 / 3618.0,
-           "Dion, Can J Anaesth 1992;39:633 (formula, worked here)", "rel 1e-12",
-           v.to("mL").magnitude == pytest.approx(11069.4 / 3618.0, rel=1e-12), "mL")
+    record(
+        "Dion liquid isoflurane, 1 % at 1 L/min for 60 min",
+        v.to("mL").magnitude,
+        11069.4 / 3618.0,
+        "Dion, Can J Anaesth 1992;39:633 (formula, worked here)",
+        "rel 1e-12",
+        v.to("mL").magnitude == pytest.approx(11069.4 / 3618.0, rel=1e-12),
+        "mL",
+    )
     assert v.to("mL").magnitude == pytest.approx(11069.4 / 3618.0, rel=1e-12)
     # Cost at an invented demo price of 0.25 per mL: 0.765.
     assert dion_cost("1 %", "1 L/min", "60 min", "isoflurane", 0.25) == pytest.approx(0.25 * 11069.4 / 3618.0)
@@ -141,9 +162,15 @@ def test_dion_against_published_rule_of_thumb(name, per_percent_litre_hour):
     # (sevoflurane 3.3); e.g. 2 % isoflurane at 1 L/min uses 6 mL/h. The rule is rounded to one or two
     # figures, so 5 %.
     v = dion_liquid_volume("2 %", "1 L/min", "1 h", name).to("mL").magnitude
-    record(f"{name} liquid, 2 % at 1 L/min for 1 h (rule of thumb)", v, 2 * per_percent_litre_hour,
-           "Dhulkhed et al., Indian J Anaesth 2013;57:455", "rel 5 %",
-           v == pytest.approx(2 * per_percent_litre_hour, rel=0.05), "mL")
+    record(
+        f"{name} liquid, 2 % at 1 L/min for 1 h (rule of thumb)",
+        v,
+        2 * per_percent_litre_hour,
+        "Dhulkhed et al., Indian J Anaesth 2013;57:455",
+        "rel 5 %",
+        v == pytest.approx(2 * per_percent_litre_hour, rel=0.05),
+        "mL",
+    )
     assert v == pytest.approx(2 * per_percent_litre_hour, rel=0.05)
 
 
@@ -162,8 +189,15 @@ def test_exact_molar_volume_matches_dion_near_21_degc():
 def test_molar_volume_against_codata():
     # CODATA 2018 molar volume of an ideal gas at 273.15 K, 101.325 kPa: 22.413969 L/mol.
     vm = molar_volume("0 degC").to("L/mol").magnitude
-    record("ideal-gas molar volume at 0 degC, 101.325 kPa", vm, 22.413969, "CODATA 2018", "rel 1e-7",
-           vm == pytest.approx(22.413969, rel=1e-7), "L/mol")
+    record(
+        "ideal-gas molar volume at 0 degC, 101.325 kPa",
+        vm,
+        22.413969,
+        "CODATA 2018",
+        "rel 1e-7",
+        vm == pytest.approx(22.413969, rel=1e-7),
+        "L/mol",
+    )
     assert molar_volume("0 degC").to("L/mol").magnitude == pytest.approx(22.413969, rel=1e-7)
     with pytest.raises(InputError, match="temperature"):
         molar_volume("500 degC")
@@ -190,12 +224,21 @@ def test_vaporizer_output_correction():
 
 # --- Vapour per mL of liquid ---------------------------------------------------------------------
 
-@pytest.mark.parametrize("name,biro", [("sevoflurane", 184.0), ("isoflurane", 195.0),
-                                       ("desflurane", 210.0), ("halothane", 229.0)])
+
+@pytest.mark.parametrize(
+    "name,biro", [("sevoflurane", 184.0), ("isoflurane", 195.0), ("desflurane", 210.0), ("halothane", 229.0)]
+)
 def test_vapour_per_liquid_against_biro(name, biro):
     # Biro P, Acta Anaesthesiol Scand 2014 (doi 10.1111/aas.12374): mL vapour from 1 mL liquid at
     # 20 degC. Real vapours give up to 3 % more than ideal (Anesth Analg 1979;58:322): 3 %.
     v = vapour_per_liquid(name, "20 degC").to("mL/mL").magnitude
-    record(f"{name} vapour per mL of liquid at 20 degC", v, biro, "Biro, Acta Anaesthesiol Scand 2014",
-           "rel 3 %", v == pytest.approx(biro, rel=0.03), "mL/mL")
+    record(
+        f"{name} vapour per mL of liquid at 20 degC",
+        v,
+        biro,
+        "Biro, Acta Anaesthesiol Scand 2014",
+        "rel 3 %",
+        v == pytest.approx(biro, rel=0.03),
+        "mL/mL",
+    )
     assert v == pytest.approx(biro, rel=0.03)

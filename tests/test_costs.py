@@ -24,7 +24,7 @@ def test_dion_1992_worked_cost():
     liquid = 2 * 1 * 60 * 200.05 / (2412 * 1.52)
     prices = parse_prices({"currency": "USD", "agent_per_ml": 0.34})
     cost = case_cost({"agent_liquid": Q_(liquid, "mL")}, prices, "sevoflurane")
-    assert cost["agent"] == pytest.approx(6.548 * 0.34, rel=1e-3)   # 4 significant figures of the hand value
+    assert cost["agent"] == pytest.approx(6.548 * 0.34, rel=1e-3)  # 4 significant figures of the hand value
     assert cost["currency"] == "USD" and cost["total"] == cost["agent"]
 
 
@@ -56,19 +56,25 @@ def test_absorbent_per_kg():
     assert case_cost({"absorbent": Q_(500, "g")}, p)["absorbent"] == pytest.approx(4.0)
 
 
-@pytest.mark.parametrize("data,field", [
-    ({"currency": "EUR", "oxygen_per_m4": 1.0}, "prices.oxygen_per_m4"),
-    ({"currency": "EUR", "air_per_m3": -1.0}, "prices.air_per_m3"),
-    ({"currency": "EUR", "agent_bottle": 100.0}, "prices.bottle_volume"),
-    ({"currency": "EUR", "agent_bottle": 100.0, "bottle_volume": "250 mL", "agent_per_ml": 0.3}, "prices.agent_per_ml"),
-    ({"currency": "EUR", "agents": {"ether": {"agent_per_ml": 0.1}}}, "prices.agents"),
-    ({"currency": "EUR", "bottle_volume": "250 mL", "agent_bottle": 10.0, "cylinders": {}}, None),
-    ({"currency": "", "air_per_m3": 1.0}, "prices.currency"),
-    ({"currency": "EUR", "agent_per_ml": "cheap"}, "prices.agent_per_ml"),
-])
+@pytest.mark.parametrize(
+    "data,field",
+    [
+        ({"currency": "EUR", "oxygen_per_m4": 1.0}, "prices.oxygen_per_m4"),
+        ({"currency": "EUR", "air_per_m3": -1.0}, "prices.air_per_m3"),
+        ({"currency": "EUR", "agent_bottle": 100.0}, "prices.bottle_volume"),
+        (
+            {"currency": "EUR", "agent_bottle": 100.0, "bottle_volume": "250 mL", "agent_per_ml": 0.3},
+            "prices.agent_per_ml",
+        ),
+        ({"currency": "EUR", "agents": {"ether": {"agent_per_ml": 0.1}}}, "prices.agents"),
+        ({"currency": "EUR", "bottle_volume": "250 mL", "agent_bottle": 10.0, "cylinders": {}}, None),
+        ({"currency": "", "air_per_m3": 1.0}, "prices.currency"),
+        ({"currency": "EUR", "agent_per_ml": "cheap"}, "prices.agent_per_ml"),
+    ],
+)
 def test_bad_prices_name_the_field(data, field):
     if field is None:
-        parse_prices(data)   # a valid table
+        parse_prices(data)  # a valid table
         return
     with pytest.raises(InputError) as err:
         parse_prices(data)
@@ -88,23 +94,42 @@ def test_period_sum_and_one_currency():
     total = period_cost([a, b])
     assert total["total"] == pytest.approx(6.5) and total["cases"] == 2
     with pytest.raises(InputError):
-        period_cost([a, {**b, "currency": "USD"}])   # currencies are never converted
+        period_cost([a, {**b, "currency": "USD"}])  # currencies are never converted
 
 
 def test_compare_scenarios_side_by_side():
-    df = compare_costs({"high flow": {"currency": "EUR", "agent": 10.0, "gases": 2.0, "absorbent": 0.2, "total": 12.2},
-                        "low flow": {"currency": "EUR", "agent": 3.0, "gases": 0.5, "absorbent": 0.6, "total": 4.1}})
+    df = compare_costs(
+        {
+            "high flow": {"currency": "EUR", "agent": 10.0, "gases": 2.0, "absorbent": 0.2, "total": 12.2},
+            "low flow": {"currency": "EUR", "agent": 3.0, "gases": 0.5, "absorbent": 0.6, "total": 4.1},
+        }
+    )
     assert df.loc["total", "change vs high flow: low flow"] == pytest.approx(-8.1)
     assert df.attrs["currency"] == "EUR"
 
 
 def test_cost_table_vectorised_matches_case_cost():
-    usage = pd.DataFrame({"agent": ["sevoflurane", "desflurane", ""], "agent_liquid_ml": [10.0, 20.0, 0.0],
-                          "oxygen_l": [100.0, 0.0, 50.0], "air_l": [0.0, 10.0, 0.0], "nitrous_oxide_l": [0, 0, 200.0]})
+    usage = pd.DataFrame(
+        {
+            "agent": ["sevoflurane", "desflurane", ""],
+            "agent_liquid_ml": [10.0, 20.0, 0.0],
+            "oxygen_l": [100.0, 0.0, 50.0],
+            "air_l": [0.0, 10.0, 0.0],
+            "nitrous_oxide_l": [0, 0, 200.0],
+        }
+    )
     t = cost_table(usage, DEMO_PRICES)
     for i, row in usage.iterrows():
-        one = case_cost({"agent_liquid": row["agent_liquid_ml"], "oxygen": row["oxygen_l"], "air": row["air_l"],
-                         "nitrous_oxide": row["nitrous_oxide_l"]}, DEMO_PRICES, row["agent"] or None)
+        one = case_cost(
+            {
+                "agent_liquid": row["agent_liquid_ml"],
+                "oxygen": row["oxygen_l"],
+                "air": row["air_l"],
+                "nitrous_oxide": row["nitrous_oxide_l"],
+            },
+            DEMO_PRICES,
+            row["agent"] or None,
+        )
         assert t["total"].iloc[i] == pytest.approx(one["total"])
 
 

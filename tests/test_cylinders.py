@@ -25,14 +25,30 @@ def coolprop_litres(gas, water_l, p_abs_pa, t_k):
     return moles * R * T_REF / P_REF * 1000.0
 
 
-@pytest.mark.parametrize("gas,bar,temp", [("oxygen", 137, 15), ("oxygen", 200, 15), ("oxygen", 200, 35),
-                                          ("air", 200, 15), ("air", 300, 15), ("air", 137, -10)])
+@pytest.mark.parametrize(
+    "gas,bar,temp",
+    [
+        ("oxygen", 137, 15),
+        ("oxygen", 200, 15),
+        ("oxygen", 200, 35),
+        ("air", 200, 15),
+        ("air", 300, 15),
+        ("air", 137, -10),
+    ],
+)
 def test_contents_match_coolprop(gas, bar, temp):
     c = compressed_cylinder(gas, "10 L", f"{bar} bar", f"{temp} degC", "0 bar")
     expected = coolprop_litres(gas, 10.0, bar * 1e5 + 101325.0, temp + 273.15)
     got = c.contents.to("L").magnitude
-    record(f"{gas} in a 10 L cylinder at {bar} bar, {temp} degC (free gas at 15 degC)", got, expected,
-           "CoolProp (Bell et al. 2014), computed in the test", "rel 1e-9", got == pytest.approx(expected, rel=1e-9), "L")
+    record(
+        f"{gas} in a 10 L cylinder at {bar} bar, {temp} degC (free gas at 15 degC)",
+        got,
+        expected,
+        "CoolProp (Bell et al. 2014), computed in the test",
+        "rel 1e-9",
+        got == pytest.approx(expected, rel=1e-9),
+        "L",
+    )
     # Same equation of state, same state: agreement to round-off.
     assert c.contents.to("L").magnitude == pytest.approx(expected, rel=1e-9)
 
@@ -54,13 +70,20 @@ def test_air_holds_less_than_ideal(bar, z):
     assert c.compressibility == pytest.approx(z, abs=3e-3)
 
 
-@pytest.mark.parametrize("gas,bar,z", [("oxygen", 137, 0.931), ("oxygen", 200, 0.931), ("oxygen", 300, 0.973),
-                                       ("air", 137, 0.992)])
+@pytest.mark.parametrize(
+    "gas,bar,z", [("oxygen", 137, 0.931), ("oxygen", 200, 0.931), ("oxygen", 300, 0.973), ("air", 137, 0.992)]
+)
 def test_compressibility_table(gas, bar, z):
     # REFERENCES sec. 9 Z values at 15 degC (3 digits, so +-0.002 covers rounding and gauge/absolute).
     zc = compressibility(gas, Q_(15, "degC"), Q_(bar, "bar"))
-    record(f"compressibility Z of {gas} at {bar} bar, 15 degC", zc, z, "CoolProp values in REFERENCES sec. 9",
-           "abs 0.002", zc == pytest.approx(z, abs=2e-3))
+    record(
+        f"compressibility Z of {gas} at {bar} bar, 15 degC",
+        zc,
+        z,
+        "CoolProp values in REFERENCES sec. 9",
+        "abs 0.002",
+        zc == pytest.approx(z, abs=2e-3),
+    )
     assert compressibility(gas, Q_(15, "degC"), Q_(bar, "bar")) == pytest.approx(z, abs=2e-3)
 
 
@@ -85,8 +108,15 @@ def test_nitrous_oxide_litres_per_kg(temp, ref):
     real = litres_per_kg("nitrous_oxide", Q_(temp, "degC"), real_gas=True).to("L/kg").magnitude
     assert real == pytest.approx(1000.0 / rho, rel=1e-9)
     # REFERENCES sec. 9: 534 L/kg at 15 C, 543 at 20 C (CoolProp, rounded to 1 L/kg).
-    record(f"nitrous oxide free gas per kg at {temp} degC", real, ref, "CoolProp (rounded to 1 L/kg)", "abs 1 L/kg",
-           real == pytest.approx(ref, abs=1.0), "L/kg")
+    record(
+        f"nitrous oxide free gas per kg at {temp} degC",
+        real,
+        ref,
+        "CoolProp (rounded to 1 L/kg)",
+        "abs 1 L/kg",
+        real == pytest.approx(ref, abs=1.0),
+        "L/kg",
+    )
     assert real == pytest.approx(ref, abs=1.0)
     # The package convention (ideal molar volume) differs by the 1-atm Z of N2O, about 0.6 %.
     ideal = litres_per_kg("nitrous_oxide", Q_(temp, "degC")).to("L/kg").magnitude
@@ -103,11 +133,19 @@ def test_nitrous_oxide_contents_by_weight_not_gauge():
     assert any(code == "NITROUS_OXIDE_GAUGE_LOW" for code, _ in b.warnings)
     # Vapour pressure about 44 bar gauge at 15 C (REFERENCES sec. 9, CoolProp; 1 bar rounding).
     vp = (a.vapour_pressure - Q_(101.325, "kPa")).to("bar").magnitude
-    record("nitrous oxide cylinder gauge pressure at 15 degC", vp, 44.0, "CoolProp saturation pressure",
-           "abs 0.5 bar", vp == pytest.approx(44, abs=0.5), "bar")
+    record(
+        "nitrous oxide cylinder gauge pressure at 15 degC",
+        vp,
+        44.0,
+        "CoolProp saturation pressure",
+        "abs 0.5 bar",
+        vp == pytest.approx(44, abs=0.5),
+        "bar",
+    )
     assert (a.vapour_pressure - Q_(101.325, "kPa")).to("bar").magnitude == pytest.approx(44, abs=0.5)
     assert vapour_pressure("nitrous_oxide", Q_(20, "degC")).to("bar").magnitude == pytest.approx(
-        PropsSI("P", "T", 293.15, "Q", 0, "NitrousOxide") / 1e5, rel=1e-9)
+        PropsSI("P", "T", 293.15, "Q", 0, "NitrousOxide") / 1e5, rel=1e-9
+    )
 
 
 def test_nitrous_oxide_above_critical_temperature():
@@ -121,12 +159,15 @@ def test_nitrous_oxide_above_critical_temperature():
     assert below.phase == "liquid and vapour"
 
 
-@pytest.mark.parametrize("kwargs,field", [
-    ({"pressure": "230 bar", "service_pressure": "200 bar"}, "cylinder.pressure"),
-    ({"count": -1}, "cylinder.count"),
-    ({"temperature": "90 degC"}, "cylinder.temperature"),
-    ({"reserve_pressure": "-5 bar"}, "cylinder.reserve_pressure"),
-])
+@pytest.mark.parametrize(
+    "kwargs,field",
+    [
+        ({"pressure": "230 bar", "service_pressure": "200 bar"}, "cylinder.pressure"),
+        ({"count": -1}, "cylinder.count"),
+        ({"temperature": "90 degC"}, "cylinder.temperature"),
+        ({"reserve_pressure": "-5 bar"}, "cylinder.reserve_pressure"),
+    ],
+)
 def test_bad_compressed_input(kwargs, field):
     args = {"gas": "oxygen", "water_capacity": "10 L", "pressure": "137 bar"} | kwargs
     with pytest.raises(InputError) as err:
@@ -137,8 +178,9 @@ def test_bad_compressed_input(kwargs, field):
 def test_service_pressure_is_settled_at_15_c():
     # ISO 13769: working pressure is stated at 15 degC; a full 200 bar cylinder reads more when warm.
     warm = PropsSI("P", "T", 313.15, "Dmolar", PropsSI("Dmolar", "T", T_REF, "P", 200e5 + P_REF, "Oxygen"), "Oxygen")
-    c = compressed_cylinder("oxygen", "10 L", f"{(warm - P_REF) / 1e5 - 0.1:.2f} bar", "40 degC",
-                            service_pressure="200 bar")
+    c = compressed_cylinder(
+        "oxygen", "10 L", f"{(warm - P_REF) / 1e5 - 0.1:.2f} bar", "40 degC", service_pressure="200 bar"
+    )
     assert c.contents.magnitude > 0
 
 

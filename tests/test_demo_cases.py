@@ -91,14 +91,18 @@ def brody_vo2_ref(kg: float) -> float:
 
 
 # ------------------------------------------------------------------ the README's own commands
-@pytest.mark.parametrize("argv", [
-    ("case", "kestrel_lap_chole.toml"),
-    ("safe-flow", "kestrel_lap_chole.toml"),
-    ("supply", "highland_clinic_inventory.toml"),
-    ("forecast", "kestrel_case_mix.toml", "--weeks", "52", "--seed", "1"),
-    ("audit", "kestrel_audit_log.csv"),
-    ("case", "paediatric_infant_warning.toml"),
-], ids=lambda a: a[0] + ":" + a[1])
+@pytest.mark.parametrize(
+    "argv",
+    [
+        ("case", "kestrel_lap_chole.toml"),
+        ("safe-flow", "kestrel_lap_chole.toml"),
+        ("supply", "highland_clinic_inventory.toml"),
+        ("forecast", "kestrel_case_mix.toml", "--weeks", "52", "--seed", "1"),
+        ("audit", "kestrel_audit_log.csv"),
+        ("case", "paediatric_infant_warning.toml"),
+    ],
+    ids=lambda a: a[0] + ":" + a[1],
+)
 def test_readme_commands_run_and_end_with_the_caution(cli, argv):
     code, out, err = cli(*argv)
     assert code == 0 and err == ""
@@ -122,15 +126,27 @@ def end_tidal_to_fresh_gas(doc: dict, start: float, end: float) -> float:
 # ------------------------------------------------------------------ headline numbers of the cases
 #: file -> pinned totals, cost total (None: no prices), lowest inspired O2, warning codes.
 HEADLINES = {
-    "kestrel_lap_chole.toml": ({"agent_liquid": 11.82, "oxygen": 91.41, "air": 37.35, "co2e": 3.455,
-                                "mac_hours": 1.323}, 5.85, 0.334, []),
+    "kestrel_lap_chole.toml": (
+        {"agent_liquid": 11.82, "oxygen": 91.41, "air": 37.35, "co2e": 3.455, "mac_hours": 1.323},
+        5.85,
+        0.334,
+        [],
+    ),
     "kestrel_desflurane_bariatric.toml": ({"agent_liquid": 37.97, "oxygen": 119.9, "co2e": 144.0}, 26.23, 0.266, []),
-    "kestrel_nitrous_dental.toml": ({"nitrous_oxide": 68.81, "oxygen": 74.70, "agent_liquid": 5.03, "co2e": 39.03},
-                                    3.09, 0.253, ["INSPIRED_OXYGEN_LOW"]),
+    "kestrel_nitrous_dental.toml": (
+        {"nitrous_oxide": 68.81, "oxygen": 74.70, "agent_liquid": 5.03, "co2e": 39.03},
+        3.09,
+        0.253,
+        ["INSPIRED_OXYGEN_LOW"],
+    ),
     "highland_mobile_team.toml": ({"agent_liquid": 11.67, "oxygen": 103.6}, None, 0.428, ["FLOWMETER_ACCURACY"]),
     "paediatric_4y_16kg.toml": ({"agent_liquid": 14.49, "oxygen": 60.45, "mac_hours": 0.949}, None, 0.556, []),
-    "paediatric_infant_warning.toml": ({"agent_liquid": 8.83}, None, 0.586, ["PATIENT_WEIGHT_OUTSIDE_VALIDATED",
-                                                                          "AGE_BELOW_MAPLESON_RANGE"]),
+    "paediatric_infant_warning.toml": (
+        {"agent_liquid": 8.83},
+        None,
+        0.586,
+        ["PATIENT_WEIGHT_OUTSIDE_VALIDATED", "AGE_BELOW_MAPLESON_RANGE"],
+    ),
 }
 
 
@@ -151,8 +167,14 @@ def lap(cli):
     return cli.json("case", "kestrel_lap_chole.toml")
 
 
-@pytest.mark.parametrize("name,biro", [("kestrel_lap_chole.toml", 184.0), ("kestrel_desflurane_bariatric.toml", 210.0),
-                                       ("kestrel_nitrous_dental.toml", 195.0)])
+@pytest.mark.parametrize(
+    "name,biro",
+    [
+        ("kestrel_lap_chole.toml", 184.0),
+        ("kestrel_desflurane_bariatric.toml", 210.0),
+        ("kestrel_nitrous_dental.toml", 195.0),
+    ],
+)
 def test_vapour_per_ml_biro(cli, name, biro):
     # Biro 2014: 1 mL of liquid gives 184 (sevoflurane), 195 (isoflurane), 210 mL (desflurane) of
     # vapour at 20 degC, times 288.15/293.15 at the 15 degC reference. Real vapours give up to 3 %
@@ -160,8 +182,15 @@ def test_vapour_per_ml_biro(cli, name, biro):
     t = cli.json("case", name)["totals"]
     per_ml = mag(t, "agent_vapour") * 1000 / mag(t, "agent_liquid")
     want = biro * T_REF_OVER_T_FLOWMETER
-    check(f"demo {name.removesuffix('.toml')}: vapour per mL of agent delivered", per_ml, want,
-          f"Biro 2014 ({biro:g} mL/mL at 20 degC)", "rel 3 %", per_ml == pytest.approx(want, rel=0.03), "mL/mL")
+    check(
+        f"demo {name.removesuffix('.toml')}: vapour per mL of agent delivered",
+        per_ml,
+        want,
+        f"Biro 2014 ({biro:g} mL/mL at 20 degC)",
+        "rel 3 %",
+        per_ml == pytest.approx(want, rel=0.03),
+        "mL/mL",
+    )
 
 
 def test_lap_chole_oxygen_at_least_consumption(lap):
@@ -170,8 +199,15 @@ def test_lap_chole_oxygen_at_least_consumption(lap):
     t = lap["totals"]
     need = brody_vo2_ref(78) * mag(t, "duration")
     ok = mag(t, "oxygen_consumed") == pytest.approx(need, rel=0.01) and mag(t, "oxygen") >= need
-    check("demo lap chole: O2 consumed over 86 min, 78 kg", mag(t, "oxygen_consumed"), need,
-          "Lowe & Ernst 1981 (Brody VO2)", "rel 1 %; O2 supplied >= it", ok, "L")
+    check(
+        "demo lap chole: O2 consumed over 86 min, 78 kg",
+        mag(t, "oxygen_consumed"),
+        need,
+        "Lowe & Ernst 1981 (Brody VO2)",
+        "rel 1 %; O2 supplied >= it",
+        ok,
+        "L",
+    )
 
 
 def test_lap_chole_uptake_follows_lowe(lap):
@@ -186,8 +222,15 @@ def test_lap_chole_uptake_follows_lowe(lap):
     mac = a.mac40.to("percent").magnitude * 10 ** (-0.00269 * (47 - 40))
     lowe = 2 * 1.3 * mac * a.blood_gas * 2 * 78**0.75 * (math.sqrt(78) - math.sqrt(10))
     ok = model == pytest.approx(lowe, rel=0.35)
-    check("demo lap chole: sevoflurane uptake 10-78 min", model, lowe, "Lowe & Ernst 1981 (square-root law)",
-          "rel 35 %", ok, "mL vapour")
+    check(
+        "demo lap chole: sevoflurane uptake 10-78 min",
+        model,
+        lowe,
+        "Lowe & Ernst 1981 (square-root law)",
+        "rel 35 %",
+        ok,
+        "mL vapour",
+    )
 
 
 def test_lap_chole_carbon_dioxide_and_absorbent(lap):
@@ -199,8 +242,15 @@ def test_lap_chole_carbon_dioxide_and_absorbent(lap):
     made = 8 * 78**0.75 / 1000 * STPD_TO_REF * mag(t, "duration")
     co2 = mag(t, "co2_absorbed")
     ok = 0.5 * made <= co2 <= made * 1.001
-    check("demo lap chole: CO2 to the absorbent vs CO2 produced", co2, made, "Lowe & Ernst 1981 (Brody VCO2); "
-          "Zhong et al. 2020", "between 50 % and 100 %", ok, "L")
+    check(
+        "demo lap chole: CO2 to the absorbent vs CO2 produced",
+        co2,
+        made,
+        "Lowe & Ernst 1981 (Brody VCO2); Zhong et al. 2020",
+        "between 50 % and 100 %",
+        ok,
+        "L",
+    )
     grams = mag(t, "absorbent")
     assert co2 / 15 * 100 <= grams <= co2 / 10 * 100
 
@@ -211,8 +261,15 @@ def test_lap_chole_co2e_from_gwp(lap):
     t = lap["totals"]
     upper = mag(t, "agent_liquid") * 1.52 * 195 / 1000
     ok = 0.95 * upper <= mag(t, "co2e") <= upper * 1.001
-    check("demo lap chole: CO2e vs delivered sevoflurane x GWP100", mag(t, "co2e"), upper,
-          "IPCC AR6 WG1 Table 7.SM.7; Biro 2014 (density)", "95-100 %", ok, "kg")
+    check(
+        "demo lap chole: CO2e vs delivered sevoflurane x GWP100",
+        mag(t, "co2e"),
+        upper,
+        "IPCC AR6 WG1 Table 7.SM.7; Biro 2014 (density)",
+        "95-100 %",
+        ok,
+        "kg",
+    )
 
 
 @pytest.fixture(scope="module")
@@ -228,8 +285,15 @@ def test_lap_chole_flow_floor(lap_floor):
     # consumption (Brody, 0.28 L/min at the reference for 78 kg): gas balance.
     vo2 = brody_vo2_ref(78)
     ok = floors[1] <= 0.5 and min(floors) >= vo2
-    check("demo lap chole: flow floor in maintenance (minimal flow)", floors[1], 0.5,
-          "Baum & Aitkenhead 1995 (minimal flow); Brody VO2 as lower limit", "<= 0.5 and >= VO2", ok, "L/min")
+    check(
+        "demo lap chole: flow floor in maintenance (minimal flow)",
+        floors[1],
+        0.5,
+        "Baum & Aitkenhead 1995 (minimal flow); Brody VO2 as lower limit",
+        "<= 0.5 and >= VO2",
+        ok,
+        "L/min",
+    )
 
 
 # ------------------------------------------------------------------ desflurane and nitrous oxide cases
@@ -256,8 +320,14 @@ def test_desflurane_end_tidal_to_fresh_gas_ratio(des):
     # low flow may be underestimated (the tissue coefficients are partly from memory).
     ratio = end_tidal_to_fresh_gas(des, 10, 106)
     ok = 0.7 <= ratio <= 1.0
-    check("demo desflurane: end-tidal / fresh-gas agent at 0.8 L/min", ratio, 0.8,
-          "Coetzee & Stewart, Br J Anaesth 2002;88:46", "0.7 to 1.0", ok)
+    check(
+        "demo desflurane: end-tidal / fresh-gas agent at 0.8 L/min",
+        ratio,
+        0.8,
+        "Coetzee & Stewart, Br J Anaesth 2002;88:46",
+        "0.7 to 1.0",
+        ok,
+    )
 
 
 @pytest.fixture(scope="module")
@@ -271,15 +341,29 @@ def test_nitrous_oxide_litres_and_carbon(n2o):
     # the flowmeters' 20 degC; at the 15 degC reference it is 288.15/293.15 of it (Charles's law).
     set_l = (4 * 10 + 0.6 * 50) * T_REF_OVER_T_FLOWMETER
     ok = mag(t, "nitrous_oxide") == pytest.approx(set_l, rel=1e-6)
-    check("demo N2O case: nitrous oxide litres at 15 degC", mag(t, "nitrous_oxide"), set_l,
-          "Charles's law on the set flows", "rel 1e-6", ok, "L")
+    check(
+        "demo N2O case: nitrous oxide litres at 15 degC",
+        mag(t, "nitrous_oxide"),
+        set_l,
+        "Charles's law on the set flows",
+        "rel 1e-6",
+        ok,
+        "L",
+    )
     # CO2e = N2O mass x 273 + isoflurane delivered x 1.496 g/mL x 539 (IPCC AR6 GWP100; ideal-gas
     # molar volume at 15 degC from CODATA R; metabolised share of isoflurane about 0.2 %): rel 1 %.
     vm = R * 288.15 / 101325 * 1000
     want = (mag(t, "nitrous_oxide") / vm * 44.013 * 273 + mag(t, "agent_liquid") * 1.496 * 539) / 1000
     ok = mag(t, "co2e") == pytest.approx(want, rel=0.01)
-    check("demo N2O case: CO2e of nitrous oxide and isoflurane", mag(t, "co2e"), want,
-          "IPCC AR6 WG1 Table 7.SM.7; CODATA R", "rel 1 %", ok, "kg")
+    check(
+        "demo N2O case: CO2e of nitrous oxide and isoflurane",
+        mag(t, "co2e"),
+        want,
+        "IPCC AR6 WG1 Table 7.SM.7; CODATA R",
+        "rel 1 %",
+        ok,
+        "kg",
+    )
 
 
 def test_nitrous_oxide_uptake_severinghaus(n2o):
@@ -289,8 +373,15 @@ def test_nitrous_oxide_uptake_severinghaus(n2o):
     for t_min in (10, 20, 40):
         rate = float(s.loc[t_min, "nitrous_oxide_uptake"])
         ok = rate == pytest.approx(1000 / math.sqrt(t_min), rel=0.20)
-        check(f"demo N2O case: N2O uptake at {t_min} min", rate, 1000 / math.sqrt(t_min),
-              "Severinghaus, J Clin Invest 1954;33:1183", "rel 20 %", ok, "mL/min")
+        check(
+            f"demo N2O case: N2O uptake at {t_min} min",
+            rate,
+            1000 / math.sqrt(t_min),
+            "Severinghaus, J Clin Invest 1954;33:1183",
+            "rel 20 %",
+            ok,
+            "mL/min",
+        )
 
 
 # ------------------------------------------------------------------ Cairn Pass clinic, 2,800 m
@@ -310,8 +401,15 @@ def test_high_site_flowmeter_readings_between_the_limits(high):
     lo, hi = read * p, read * math.sqrt(p)
     o2 = mag(high["totals"], "oxygen")
     ok = lo <= o2 <= hi
-    check("demo 2,800 m: O2 litres from flowmeter readings (between the limits)", o2, f"{lo:.1f} to {hi:.1f}",
-          "Hagen-Poiseuille / orifice limits; ISO 2533 pressure", "inside the interval", ok, "L")
+    check(
+        "demo 2,800 m: O2 litres from flowmeter readings (between the limits)",
+        o2,
+        f"{lo:.1f} to {hi:.1f}",
+        "Hagen-Poiseuille / orifice limits; ISO 2533 pressure",
+        "inside the interval",
+        ok,
+        "L",
+    )
 
 
 def test_high_site_argon_accumulates(high):
@@ -321,16 +419,29 @@ def test_high_site_argon_accumulates(high):
     m = s[(s["time"] >= 40) & (s["time"] <= 70)]
     fresh = 93 * 0.00934 / 0.20946
     ok = float(m["inspired_argon"].min()) > fresh
-    check("demo 2,800 m: inspired argon at 1 L/min of concentrator O2", float(m["inspired_argon"].min()),
-          f"> {fresh:.2f}", "CRC dry-air argon ratio; REFERENCES sec. 9 (from memory)", "above fresh gas", ok, "%")
+    check(
+        "demo 2,800 m: inspired argon at 1 L/min of concentrator O2",
+        float(m["inspired_argon"].min()),
+        f"> {fresh:.2f}",
+        "CRC dry-air argon ratio; REFERENCES sec. 9 (from memory)",
+        "above fresh gas",
+        ok,
+        "%",
+    )
 
 
 def test_high_site_isoflurane_end_tidal_to_fresh_gas(high):
     # Coetzee & Stewart 2002: 0.3-0.7 end-tidal to fresh gas for the soluble agents (isoflurane).
     ratio = end_tidal_to_fresh_gas(high, 20, 70)
     ok = 0.3 <= ratio <= 0.7
-    check("demo 2,800 m: isoflurane end-tidal / fresh gas at 1 L/min", ratio, "0.3 to 0.7",
-          "Coetzee & Stewart, Br J Anaesth 2002;88:46", "inside the range", ok)
+    check(
+        "demo 2,800 m: isoflurane end-tidal / fresh gas at 1 L/min",
+        ratio,
+        "0.3 to 0.7",
+        "Coetzee & Stewart, Br J Anaesth 2002;88:46",
+        "inside the range",
+        ok,
+    )
 
 
 def test_high_site_flow_floor_threshold(cli):
@@ -340,8 +451,14 @@ def test_high_site_flow_floor_threshold(cli):
     want = 0.30 * (101.325 - 6.3) / (iso2533_kpa(2800) - 6.3)
     got = mag(doc, "threshold_inspired_oxygen")
     ok = got == pytest.approx(want, rel=1e-3)
-    check("demo 2,800 m: flow-floor FiO2 threshold for the sea-level PiO2 of 0.30", got, want,
-          "West (PiO2); ISO 2533", "rel 1e-3", ok)
+    check(
+        "demo 2,800 m: flow-floor FiO2 threshold for the sea-level PiO2 of 0.30",
+        got,
+        want,
+        "West (PiO2); ISO 2533",
+        "rel 1e-3",
+        ok,
+    )
     assert [p["floor"]["magnitude"] for p in doc["phases"]] == pytest.approx([2.0, 0.4, 0.4], abs=1e-9)
     codes = {w["code"] for w in doc["warnings"]}
     assert {"ARGON_ACCUMULATION", "HYPOXIC_MIXTURE_RISK"} <= codes
@@ -357,8 +474,15 @@ def test_paediatric_4_year_old(cli):
     want = 1.80 * 10 ** (-0.00269 * (4 - 40))
     got = float(s.loc[48, "end_tidal_agent"])
     ok = got == pytest.approx(want, rel=0.02)
-    check("demo 4-year-old: end-tidal sevoflurane held at 1 MAC", got, want, "Mapleson 1996 (age 4 years)",
-          "rel 2 %", ok, "%")
+    check(
+        "demo 4-year-old: end-tidal sevoflurane held at 1 MAC",
+        got,
+        want,
+        "Mapleson 1996 (age 4 years)",
+        "rel 2 %",
+        ok,
+        "%",
+    )
     # Brody VO2 for 16 kg over 53 min (Lowe & Ernst 1981), rel 1 %.
     assert mag(t, "oxygen_consumed") == pytest.approx(brody_vo2_ref(16) * 53, rel=0.01)
     # The 3-min induction alone delivers 6 L/min x 0.08/0.92 x 3 min of vapour (vaporizer output),
@@ -399,8 +523,15 @@ def test_supply_cylinders_against_coolprop(supply):
     want = 3 * moles * 0.010 * R * 288.15 / 101325 * 1000
     item = next(i for i in supply["items"] if i["name"] == "O2 backup")
     ok = mag(item, "usable") == pytest.approx(want, rel=1e-5)
-    check("demo clinic: usable O2 in 3 x 10 L cylinders, 190 to 20 bar at 10 degC, 2,800 m", mag(item, "usable"),
-          want, "CoolProp (Bell et al. 2014)", "rel 1e-5", ok, "L")
+    check(
+        "demo clinic: usable O2 in 3 x 10 L cylinders, 190 to 20 bar at 10 degC, 2,800 m",
+        mag(item, "usable"),
+        want,
+        "CoolProp (Bell et al. 2014)",
+        "rel 1e-5",
+        ok,
+        "L",
+    )
 
 
 def test_supply_bottleneck_follows_the_case(cli, supply):
@@ -415,8 +546,9 @@ def test_supply_bottleneck_follows_the_case(cli, supply):
 # ------------------------------------------------------------------ fresh-gas audit of the department
 @pytest.fixture(scope="module")
 def audit(cli):
-    return cli.json("audit", "kestrel_audit_log.csv", "--prices", "kestrel_prices.toml",
-                    "--policy", "kestrel_lowflow_policy.toml")
+    return cli.json(
+        "audit", "kestrel_audit_log.csv", "--prices", "kestrel_prices.toml", "--policy", "kestrel_lowflow_policy.toml"
+    )
 
 
 def test_audit_headline(audit):
@@ -451,8 +583,15 @@ def test_audit_liquid_matches_dion_on_the_log(demo_dir, audit):
     want = float((vapour * 1000 / per_ml).sum())
     got = mag(audit["totals"], "agent_liquid")
     ok = got == pytest.approx(want, rel=0.03)
-    check("demo audit: liquid agent of 452 logged cases", got, want, "Dion 1992 on the log; Biro 2014",
-          "rel 3 %", ok, "mL")
+    check(
+        "demo audit: liquid agent of 452 logged cases",
+        got,
+        want,
+        "Dion 1992 on the log; Biro 2014",
+        "rel 3 %",
+        ok,
+        "mL",
+    )
 
 
 def test_audit_nitrous_oxide_co2e_and_flow_class(audit):
@@ -461,8 +600,15 @@ def test_audit_nitrous_oxide_co2e_and_flow_class(audit):
     vm = R * 288.15 / 101325 * 1000
     want = mag(t, "nitrous_oxide") / vm * 44.013 * 273 / 1000
     ok = mag(t, "co2e_nitrous_oxide") == pytest.approx(want, rel=1e-4)
-    check("demo audit: CO2e of the logged nitrous oxide", mag(t, "co2e_nitrous_oxide"), want,
-          "IPCC AR6 WG1 Table 7.SM.7; CODATA R", "rel 1e-4", ok, "kg")
+    check(
+        "demo audit: CO2e of the logged nitrous oxide",
+        mag(t, "co2e_nitrous_oxide"),
+        want,
+        "IPCC AR6 WG1 Table 7.SM.7; CODATA R",
+        "rel 1e-4",
+        ok,
+        "kg",
+    )
     # Brattwall et al. 2012: 1-2 L/min is medium flow; the shares of the classes cover all the time.
     k = audit["kpis"]
     assert 1.0 < mag(k, "mean_maintenance_flow") <= 2.0 and k["mean_maintenance_flow_class"] == "medium"
@@ -496,7 +642,13 @@ def test_forecast_weekly_cases_are_poisson(forecast):
 
     mean = forecast["items"]["cases"]["mean"]["magnitude"]
     ok = abs(mean - 25) <= 3 * math.sqrt(25 / 52)
-    check("demo forecast: mean cases a week over 52 weeks", mean, 25.0, "Poisson law (scipy.stats)",
-          "3 standard errors", ok)
+    check(
+        "demo forecast: mean cases a week over 52 weeks",
+        mean,
+        25.0,
+        "Poisson law (scipy.stats)",
+        "3 standard errors",
+        ok,
+    )
     p95 = forecast["items"]["cases"]["p95"]["magnitude"]
     assert abs(p95 - poisson.ppf(0.95, 25)) <= 2

@@ -34,11 +34,15 @@ def random_case(draw):
         phases.append(ph)
     phases[0]["duration"] = "5 min"
     tables = {
-        "patient": {"weight": f"{draw(st.floats(min_value=3.0, max_value=200.0)):.1f} kg",
-                    "age": f"{draw(st.floats(min_value=1.0, max_value=95.0)):.0f} years"},
-        "circuit": {"leak": f"{draw(st.floats(min_value=0.0, max_value=0.3)):.3f} L/min",
-                    "sample_returned": draw(st.booleans()),
-                    "deficit_makeup": draw(st.sampled_from(["fresh_gas", "room_air"]))},
+        "patient": {
+            "weight": f"{draw(st.floats(min_value=3.0, max_value=200.0)):.1f} kg",
+            "age": f"{draw(st.floats(min_value=1.0, max_value=95.0)):.0f} years",
+        },
+        "circuit": {
+            "leak": f"{draw(st.floats(min_value=0.0, max_value=0.3)):.3f} L/min",
+            "sample_returned": draw(st.booleans()),
+            "deficit_makeup": draw(st.sampled_from(["fresh_gas", "room_air"])),
+        },
     }
     return ag, phases, tables
 
@@ -53,13 +57,24 @@ def test_mass_conserved_and_amounts_physical(case):
     r = run(ag, phases, **tables)
     assert max(r.mass_balance().values()) < 1e-6
     s = r.series
-    frac_cols = [k for k in s.columns if k.endswith("[%]") and ("inspired" in k or "end_tidal" in k)
-                 and "target" not in k]
+    frac_cols = [
+        k for k in s.columns if k.endswith("[%]") and ("inspired" in k or "end_tidal" in k) and "target" not in k
+    ]
     values = s[frac_cols].to_numpy()
     assert np.all(np.isfinite(values))
     assert values.min() > -1e-7 and values.max() < 100 + 1e-7
-    for key in ("agent_liquid", "agent_vapour", "oxygen", "air", "nitrous_oxide", "co2_absorbed", "mac_hours",
-                "agent_in_body", "agent_in_circuit", "volume_deficit"):
+    for key in (
+        "agent_liquid",
+        "agent_vapour",
+        "oxygen",
+        "air",
+        "nitrous_oxide",
+        "co2_absorbed",
+        "mac_hours",
+        "agent_in_body",
+        "agent_in_circuit",
+        "volume_deficit",
+    ):
         assert r.totals[key].magnitude >= -1e-9, key
 
 
@@ -87,16 +102,25 @@ def test_heavier_patient_takes_up_more(weight, factor):
 @pytest.mark.parametrize(
     "phases,tables",
     [
-        ([{"duration": "24 h", "oxygen": "0.5 L/min", "air": "0.5 L/min", "vaporizer": "2 %"}],
-         {"output": {"interval": "5 min"}}),
+        (
+            [{"duration": "24 h", "oxygen": "0.5 L/min", "air": "0.5 L/min", "vaporizer": "2 %"}],
+            {"output": {"interval": "5 min"}},
+        ),
         ([{"duration": "30 min", "oxygen": "15 L/min", "vaporizer": "2 %"}], {}),
         ([{"duration": "30 min", "oxygen": "0.1 L/min", "vaporizer": "2 %"}], {}),
-        ([{"duration": "0 min", "oxygen": "6 L/min", "vaporizer": "2 %"},
-          {"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}], {}),
+        (
+            [
+                {"duration": "0 min", "oxygen": "6 L/min", "vaporizer": "2 %"},
+                {"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"},
+            ],
+            {},
+        ),
         ([{"duration": "30 min", "oxygen": "1 L/min", "end_tidal_target": "1 MAC"}], {"patient": {"weight": "3 kg"}}),
         ([{"duration": "30 min", "oxygen": "2 L/min", "end_tidal_target": "1 MAC"}], {"patient": {"weight": "200 kg"}}),
-        ([{"duration": "30 min", "oxygen": "1 L/min", "air": "1 L/min", "vaporizer": "2 %"}],
-         {"site": {"oxygen_source": "concentrator", "oxygen_purity": "93 %"}}),
+        (
+            [{"duration": "30 min", "oxygen": "1 L/min", "air": "1 L/min", "vaporizer": "2 %"}],
+            {"site": {"oxygen_source": "concentrator", "oxygen_purity": "93 %"}},
+        ),
     ],
     ids=["24h", "15Lmin", "0.1Lmin", "zero-length-phase", "3kg", "200kg", "concentrator"],
 )
@@ -113,8 +137,11 @@ def test_argon_accumulates_with_concentrator_oxygen_at_low_flow():
     # memory). Derivation: argon leaves only with the exhaust, about FGF - VO2 = 0.26 L/min against
     # 0.5 L/min in, so at steady state the circuit holds about twice the fresh-gas share (4.15 % for
     # 93 % product with argon in its air ratio to O2); after 2 h it is past 1.5 times.
-    r = run("sevoflurane", [{"duration": "120 min", "oxygen": "0.5 L/min", "vaporizer": "2 %"}],
-            site={"oxygen_source": "concentrator", "oxygen_purity": "93 %"})
+    r = run(
+        "sevoflurane",
+        [{"duration": "120 min", "oxygen": "0.5 L/min", "vaporizer": "2 %"}],
+        site={"oxygen_source": "concentrator", "oxygen_purity": "93 %"},
+    )
     ar = r.series["inspired_argon [%]"].to_numpy()
     assert ar[-1] > 1.5 * 4.15 and ar[-1] > ar[10]
 

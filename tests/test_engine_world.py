@@ -26,12 +26,12 @@ def fa_fi(result, name: str, times) -> np.ndarray:
 def wash_in():
     """High fresh-gas flow (10 L/min O2, as in the Yasuda studies' open-circuit delivery)."""
     out = {}
-    for name, dial in (("desflurane", "3 %"), ("sevoflurane", "1 %"), ("isoflurane", "0.6 %"),
-                       ("halothane", "0.4 %")):
+    for name, dial in (("desflurane", "3 %"), ("sevoflurane", "1 %"), ("isoflurane", "0.6 %"), ("halothane", "0.4 %")):
         r = run(name, [{"duration": "30 min", "oxygen": "10 L/min", "vaporizer": dial}])
         out[name] = fa_fi(r, "agent", (5, 10, 30))
-    r = run("sevoflurane", [{"duration": "30 min", "oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min",
-                             "vaporizer": "0 %"}])
+    r = run(
+        "sevoflurane", [{"duration": "30 min", "oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min", "vaporizer": "0 %"}]
+    )
     out["nitrous_oxide"] = fa_fi(r, "nitrous_oxide", (5, 10, 30))
     return out
 
@@ -41,10 +41,17 @@ def test_wash_in_ranking_yasuda_1991(wash_in):
     # order N2O >= desflurane > sevoflurane > isoflurane > halothane at every time. Ranking only; no
     # tolerance needed.
     names = ("nitrous_oxide", "desflurane", "sevoflurane", "isoflurane", "halothane")
-    ranked = all(all(a >= b for a, b in zip(s, s[1:], strict=False))
-                 for s in ([wash_in[n][i] for n in names] for i in range(3)))
-    record("wash-in FA/FI ranking at 5, 10, 30 min", "N2O >= des > sevo > iso > halo" if ranked else "other order",
-           "N2O >= des > sevo > iso > halo", "Yasuda et al., Anesth Analg 1991;72:316", "ranking only", ranked)
+    ranked = all(
+        all(a >= b for a, b in zip(s, s[1:], strict=False)) for s in ([wash_in[n][i] for n in names] for i in range(3))
+    )
+    record(
+        "wash-in FA/FI ranking at 5, 10, 30 min",
+        "N2O >= des > sevo > iso > halo" if ranked else "other order",
+        "N2O >= des > sevo > iso > halo",
+        "Yasuda et al., Anesth Analg 1991;72:316",
+        "ranking only",
+        ranked,
+    )
     for i in range(3):
         seq = [wash_in[n][i] for n in ("nitrous_oxide", "desflurane", "sevoflurane", "isoflurane", "halothane")]
         assert all(a >= b for a, b in zip(seq, seq[1:], strict=False)), seq
@@ -56,8 +63,14 @@ def test_wash_in_values_near_yasuda_1991(wash_in):
     # of our table are partly from memory and published solubilities spread 10-15 %.
     published = {"desflurane": 0.90, "sevoflurane": 0.85, "isoflurane": 0.73, "halothane": 0.58}
     for name, value in published.items():
-        record(f"{name} FA/FI at 30 min, 10 L/min O2", wash_in[name][2], value,
-               "Yasuda et al. 1991, figures (from memory)", "abs 0.08", wash_in[name][2] == pytest.approx(value, abs=0.08))
+        record(
+            f"{name} FA/FI at 30 min, 10 L/min O2",
+            wash_in[name][2],
+            value,
+            "Yasuda et al. 1991, figures (from memory)",
+            "abs 0.08",
+            wash_in[name][2] == pytest.approx(value, abs=0.08),
+        )
         assert wash_in[name][2] == pytest.approx(value, abs=0.08)
 
 
@@ -87,8 +100,15 @@ def test_uptake_follows_lowe_square_root_of_time(name):
     a = agent(name)
     q_dl = 2.0 * 70**0.75
     lowe = 2 * 1.3 * a.mac40.to("percent").magnitude * a.blood_gas * q_dl * (math.sqrt(90) - math.sqrt(10))
-    record(f"{name} uptake 10-90 min at 1 MAC (engine vs Lowe)", model, lowe, "Lowe & Ernst 1981 (square-root law)",
-           "rel 35 %", model == pytest.approx(lowe, rel=0.35), "mL vapour")
+    record(
+        f"{name} uptake 10-90 min at 1 MAC (engine vs Lowe)",
+        model,
+        lowe,
+        "Lowe & Ernst 1981 (square-root law)",
+        "rel 35 %",
+        model == pytest.approx(lowe, rel=0.35),
+        "mL vapour",
+    )
     assert model == pytest.approx(lowe, rel=0.35)
     # and the shape: rate x sqrt(t) stays within +-30 % of its mean from 10 to 90 min
     k = u[sel] * np.sqrt(t[sel])
@@ -99,30 +119,55 @@ def test_nitrous_oxide_uptake_severinghaus():
     # Severinghaus JW, J Clin Invest 1954;33:1183: N2O uptake about 1000 t^-1/2 mL/min for a 70 kg
     # adult at 65-75 % inspired (confirmed by Bengtson et al., Anaesthesia 1994). Band +-20 %: the
     # published curve is an average fit over patients; ours is at 15 degC rather than STPD (+5 %).
-    r = run("sevoflurane", [{"duration": "60 min", "oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min",
-                             "vaporizer": "0 %"}])
+    r = run(
+        "sevoflurane", [{"duration": "60 min", "oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min", "vaporizer": "0 %"}]
+    )
     for t, rate in zip((10, 20, 30, 60), at_times(r, "nitrous_oxide_uptake [mL/min]", (10, 20, 30, 60)), strict=True):
-        record(f"N2O uptake rate at {t} min, 65 % inspired (engine)", rate, 1000 / math.sqrt(t),
-               "Severinghaus 1954; Bengtson et al. 1994", "rel 20 %", rate == pytest.approx(1000 / math.sqrt(t), rel=0.20),
-               "mL/min")
+        record(
+            f"N2O uptake rate at {t} min, 65 % inspired (engine)",
+            rate,
+            1000 / math.sqrt(t),
+            "Severinghaus 1954; Bengtson et al. 1994",
+            "rel 20 %",
+            rate == pytest.approx(1000 / math.sqrt(t), rel=0.20),
+            "mL/min",
+        )
         assert rate == pytest.approx(1000 / math.sqrt(t), rel=0.20), t
 
 
-@pytest.mark.parametrize("name,dial,flow", [("sevoflurane", 0.02, 2.0), ("isoflurane", 0.012, 1.0),
-                                            ("desflurane", 0.06, 3.0)])
+@pytest.mark.parametrize(
+    "name,dial,flow", [("sevoflurane", 0.02, 2.0), ("isoflurane", 0.012, 1.0), ("desflurane", 0.06, 3.0)]
+)
 def test_fixed_dial_liquid_matches_dion(name, dial, flow):
     # Dion P, Can J Anaesth 1992;39:633: liquid mL = C% x FGF x t x MW / (2412 x density), 2412 = 100 x
     # 24.12 L/mol (about 21 degC). With the vaporizer output carrier x D/(1-D), C% x FGF becomes
     # 100 D/(1-D) x carrier flow. Within 1 % (the molar volume at the model's 20 degC flowmeter
     # conditions, 24.06 L/mol, differs from Dion's 24.12 by 0.3 %).
-    r = run(name, [{"duration": "60 min", "oxygen": f"{flow} L/min", "vaporizer": f"{100 * dial} %"}],
-            site={"temperature": "20 degC"})
+    r = run(
+        name,
+        [{"duration": "60 min", "oxygen": f"{flow} L/min", "vaporizer": f"{100 * dial} %"}],
+        site={"temperature": "20 degC"},
+    )
     a = agent(name)
-    dion = 100 * dial / (1 - dial) * flow * 60 * a.molar_mass.to("g/mol").magnitude / (
-        2412 * a.liquid_density.to("g/mL").magnitude)
+    dion = (
+        100
+        * dial
+        / (1 - dial)
+        * flow
+        * 60
+        * a.molar_mass.to("g/mol").magnitude
+        / (2412 * a.liquid_density.to("g/mL").magnitude)
+    )
     liquid = r.totals["agent_liquid"].to("mL").magnitude
-    record(f"{name} liquid at {100 * dial:g} % dial, {flow:g} L/min for 60 min (engine)", liquid, dion,
-           "Dion, Can J Anaesth 1992;39:633", "rel 1 %", liquid == pytest.approx(dion, rel=0.01), "mL")
+    record(
+        f"{name} liquid at {100 * dial:g} % dial, {flow:g} L/min for 60 min (engine)",
+        liquid,
+        dion,
+        "Dion, Can J Anaesth 1992;39:633",
+        "rel 1 %",
+        liquid == pytest.approx(dion, rel=0.01),
+        "mL",
+    )
     assert r.totals["agent_liquid"].to("mL").magnitude == pytest.approx(dion, rel=0.01)
 
 
@@ -133,8 +178,11 @@ def test_non_absorbing_test_lung_washes_in_with_volume_over_flow():
     # V / FGF within 2 % (the lung mixes with the circuit at 6 L/min, not instantly).
     from estimator import engine
 
-    sc = scenario("sevoflurane", [{"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
-                  circuit={"volume": "4 L", "sample_flow": "0 L/min"})
+    sc = scenario(
+        "sevoflurane",
+        [{"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
+        circuit={"volume": "4 L", "sample_flow": "0 L/min"},
+    )
     patient = engine.patient_from_scenario(sc)
     site = engine.site_state(sc)
     base = engine.base_parameters(sc, patient, site)
@@ -154,9 +202,15 @@ def test_non_absorbing_test_lung_washes_in_with_volume_over_flow():
     frac = amount / total / d
     sel = (times > 4) & (frac < 0.995)
     slope = np.polyfit(times[sel], np.log(1 - frac[sel]), 1)[0]
-    record("wash-in time constant of a non-absorbing test lung", -1 / slope, total / fgf,
-           "well-mixed tank law V/FGF (common practice, no source)", "rel 2 %",
-           -1 / slope == pytest.approx(total / fgf, rel=0.02), "min")
+    record(
+        "wash-in time constant of a non-absorbing test lung",
+        -1 / slope,
+        total / fgf,
+        "well-mixed tank law V/FGF (common practice, no source)",
+        "rel 2 %",
+        -1 / slope == pytest.approx(total / fgf, rel=0.02),
+        "min",
+    )
     assert -1 / slope == pytest.approx(total / fgf, rel=0.02)
 
 
@@ -168,8 +222,11 @@ def test_steady_state_inspired_oxygen_matches_derived_balance():
     # flow), and FI_CO2 = 0 behind a fresh absorber, so FI_O2 = (r VI + VO2) / (VI (1 + r)).
     # After 24 h the body N2 stores are within 1 % of equilibrium (fat time constant about 4 h):
     # tolerance 0.5 % of the fraction.
-    r = run("sevoflurane", [{"duration": "1440 min", "oxygen": "0.5 L/min", "air": "0.5 L/min",
-                             "vaporizer": "0 %"}], output={"interval": "10 min"})
+    r = run(
+        "sevoflurane",
+        [{"duration": "1440 min", "oxygen": "0.5 L/min", "air": "0.5 L/min", "vaporizer": "0 %"}],
+        output={"interval": "10 min"},
+    )
     amb = 101.325 / (R_GAS * 293.15) * 1000
     vo2 = r.patient.oxygen_consumption.to("mL/min").magnitude / (R_GAS * 273.15 / 101.325)
     o2_in = 0.5 * amb + 0.5 * amb * 0.20946
@@ -181,8 +238,14 @@ def test_steady_state_inspired_oxygen_matches_derived_balance():
     vi = r.patient.minute_ventilation.to("L/min").magnitude * ca
     fio2 = (ratio * vi + vo2) / (vi * (1 + ratio))
     got = r.series["inspired_oxygen [%]"].iloc[-1] / 100
-    record("steady-state FiO2 at 0.5 L/min O2 + 0.5 L/min air, 24 h", got, fio2,
-           "derived O2/N2 balance (derived here)", "rel 0.5 %", got == pytest.approx(fio2, rel=0.005))
+    record(
+        "steady-state FiO2 at 0.5 L/min O2 + 0.5 L/min air, 24 h",
+        got,
+        fio2,
+        "derived O2/N2 balance (derived here)",
+        "rel 0.5 %",
+        got == pytest.approx(fio2, rel=0.005),
+    )
     assert r.series["inspired_oxygen [%]"].iloc[-1] / 100 == pytest.approx(fio2, rel=0.005)
 
 
@@ -190,10 +253,13 @@ def test_end_tidal_hold_reaches_and_holds_target():
     # Fact of the trade (common practice, no source): a target-controlled end-tidal hold reaches 1 MAC
     # within minutes at high flow and then holds it. The hold law is ours; we check the outcome:
     # within 2 % of target from the reported time to the end, and MAC-hours close to 1 per hour.
-    r = run("sevoflurane", [
-        {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", "end_tidal_target": "1 MAC"},
-        {"duration": "110 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"},
-    ])
+    r = run(
+        "sevoflurane",
+        [
+            {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", "end_tidal_target": "1 MAC"},
+            {"duration": "110 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"},
+        ],
+    )
     reached = r.phases[0]["target_reached"].to("min").magnitude
     assert reached < 10
     s = r.series
@@ -206,13 +272,22 @@ def test_end_tidal_hold_reaches_and_holds_target():
 def test_mac_target_counts_nitrous_oxide():
     # Nickalls and Mapleson 2003: MAC fractions add. With about 60 % end-tidal N2O (0.58 MAC at 40 years)
     # a 1 MAC total target asks for only about 0.42 MAC of sevoflurane.
-    r = run("sevoflurane", [{"duration": "60 min", "oxygen": "2 L/min", "nitrous_oxide": "4 L/min",
-                             "end_tidal_target": "1 MAC"}])
+    r = run(
+        "sevoflurane",
+        [{"duration": "60 min", "oxygen": "2 L/min", "nitrous_oxide": "4 L/min", "end_tidal_target": "1 MAC"}],
+    )
     last = r.series.iloc[-1]
     n2o_mac = last["end_tidal_nitrous_oxide [%]"] / 104
     agent_mac = last["end_tidal_agent [%]"] / 1.80
-    record("end-tidal hold of 1 MAC with N2O: sum of MAC fractions", n2o_mac + agent_mac, 1.0,
-           "Nickalls & Mapleson 2003 (additivity)", "abs 0.02", n2o_mac + agent_mac == pytest.approx(1.0, abs=0.02), "MAC")
+    record(
+        "end-tidal hold of 1 MAC with N2O: sum of MAC fractions",
+        n2o_mac + agent_mac,
+        1.0,
+        "Nickalls & Mapleson 2003 (additivity)",
+        "abs 0.02",
+        n2o_mac + agent_mac == pytest.approx(1.0, abs=0.02),
+        "MAC",
+    )
     assert n2o_mac + agent_mac == pytest.approx(1.0, abs=0.02)
     assert agent_mac < 0.5
 
@@ -226,8 +301,11 @@ def test_unreachable_target_is_reported():
 def test_volume_deficit_is_flagged_and_counted():
     # Fresh gas (0.15 L/min) below O2 uptake plus leak: the bag empties. The model must flag it and count
     # the make-up gas in the totals, never hide it.
-    r = run("sevoflurane", [{"duration": "30 min", "oxygen": "0.15 L/min", "vaporizer": "2 %"}],
-            circuit={"leak": "0.1 L/min"})
+    r = run(
+        "sevoflurane",
+        [{"duration": "30 min", "oxygen": "0.15 L/min", "vaporizer": "2 %"}],
+        circuit={"leak": "0.1 L/min"},
+    )
     codes = [w[0] for w in r.warnings]
     assert "VOLUME_DEFICIT" in codes
     assert r.totals["volume_deficit"].to("L").magnitude > 1.0
@@ -239,10 +317,13 @@ def test_reference_solve_agrees_to_1e6():
     # reference library; the series and totals must agree within 1e-6 relative).
     from estimator import engine
 
-    sc = scenario("sevoflurane", [
-        {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "1 MAC"},
-        {"duration": "50 min", "oxygen": "0.5 L/min", "end_tidal_target": "1 MAC"},
-    ])
+    sc = scenario(
+        "sevoflurane",
+        [
+            {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "1 MAC"},
+            {"duration": "50 min", "oxygen": "0.5 L/min", "end_tidal_target": "1 MAC"},
+        ],
+    )
     ours = simulate(sc)
     derived, ref_y = engine.reference_solve(sc, method="DOP853", rtol=1e-12, atol=1e-14)
     ref_et = derived[:, c.W_FET + c.AGENT] * 100
@@ -251,7 +332,13 @@ def test_reference_solve_agrees_to_1e6():
     from estimator.results import litres_per_mmol
 
     vap = ours.totals["agent_vapour"].to("L").magnitude
-    record("agent vapour of a 60 min case, engine vs scipy DOP853 (rtol 1e-12)", vap, agent_ref * litres_per_mmol(),
-           "scipy.integrate.solve_ivp DOP853", "rel 1e-6", vap == pytest.approx(agent_ref * litres_per_mmol(), rel=1e-6),
-           "L")
+    record(
+        "agent vapour of a 60 min case, engine vs scipy DOP853 (rtol 1e-12)",
+        vap,
+        agent_ref * litres_per_mmol(),
+        "scipy.integrate.solve_ivp DOP853",
+        "rel 1e-6",
+        vap == pytest.approx(agent_ref * litres_per_mmol(), rel=1e-6),
+        "L",
+    )
     assert ours.totals["agent_vapour"].to("L").magnitude == pytest.approx(agent_ref * litres_per_mmol(), rel=1e-6)

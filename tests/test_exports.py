@@ -35,9 +35,13 @@ def test_csv_export_guards_user_cells(injected, tmp_path):
     with path.open(encoding="utf-8", newline="") as fh:
         rows = list(csv.DictReader(fh))
     ids = {r["case id"] for r in rows}
-    assert ids == {"'=HYPERLINK(\"http://example.invalid\")", "'+cmd"}
-    assert all(not v.startswith(("=", "+", "@")) for r in rows for v in r.values() if v and not v[0].isdigit()
-               and not v.startswith("-"))
+    assert ids == {'\'=HYPERLINK("http://example.invalid")', "'+cmd"}
+    assert all(
+        not v.startswith(("=", "+", "@"))
+        for r in rows
+        for v in r.values()
+        if v and not v[0].isdigit() and not v.startswith("-")
+    )
     assert {r["room"] for r in rows} == {"'@SUM(A1:A2)", "<script>alert(1)</script>"}
     assert any("[kg CO2e, IPCC AR6 GWP100]" in k for k in rows[0])
 
@@ -53,7 +57,7 @@ def test_xlsx_export_has_no_formulas(injected, tmp_path):
             for cell in row:
                 assert cell.data_type != "f", (ws.title, cell.coordinate, cell.value)
     values = [c.value for c in wb["cases"]["A"]]
-    assert "'=HYPERLINK(\"http://example.invalid\")" in values
+    assert '\'=HYPERLINK("http://example.invalid")' in values
 
 
 def test_html_report_escapes_and_is_self_contained(injected, tmp_path):
@@ -76,9 +80,17 @@ def test_svg_bars_escape_labels():
 def test_report_shows_counterfactual_when_present(injected):
     import dataclasses
 
-    cf = {"policy": {"name": "<i>policy</i>"}, "method": "m", "baseline": "recorded", "skipped": [],
-          "totals": {"cases": 1, "baseline": {k: {"magnitude": 2.0} for k in ("agent_liquid", "fresh_gas", "co2e")},
-                     "policy": {k: {"magnitude": 1.0} for k in ("agent_liquid", "fresh_gas", "co2e")}}}
+    cf = {
+        "policy": {"name": "<i>policy</i>"},
+        "method": "m",
+        "baseline": "recorded",
+        "skipped": [],
+        "totals": {
+            "cases": 1,
+            "baseline": {k: {"magnitude": 2.0} for k in ("agent_liquid", "fresh_gas", "co2e")},
+            "policy": {k: {"magnitude": 1.0} for k in ("agent_liquid", "fresh_gas", "co2e")},
+        },
+    }
     text = report_html(dataclasses.replace(injected, counterfactual=cf))
     assert "Counterfactual: &lt;i&gt;policy&lt;/i&gt;" in text
 
@@ -90,9 +102,10 @@ def test_tables_report_escapes_everything_and_carries_the_caution():
     from estimator.caution import CAUTION
     from estimator.exports import tables_report_html
 
-    evil = '<script>alert(1)</script>'
-    page = tables_report_html(evil, {evil: pd.DataFrame({evil: [evil], "v": [1.5]})}, notes=[evil],
-                              warnings=[(evil, evil)])
+    evil = "<script>alert(1)</script>"
+    page = tables_report_html(
+        evil, {evil: pd.DataFrame({evil: [evil], "v": [1.5]})}, notes=[evil], warnings=[(evil, evil)]
+    )
     assert "<script>" not in page
     # <title> and <h1>, the note, the section heading, the column, the cell, the warning code and text
     assert page.count("&lt;script&gt;") == 8

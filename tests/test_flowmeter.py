@@ -29,8 +29,10 @@ HIGH = site_from_inputs(elevation="3000 m")
 
 
 # ------------------------------------------------------------------ gas properties
-@pytest.mark.parametrize("name,fluid", [("oxygen", "Oxygen"), ("air", "Air"), ("nitrogen", "Nitrogen"),
-                                        ("argon", "Argon"), ("helium", "Helium")])
+@pytest.mark.parametrize(
+    "name,fluid",
+    [("oxygen", "Oxygen"), ("air", "Air"), ("nitrogen", "Nitrogen"), ("argon", "Argon"), ("helium", "Helium")],
+)
 @pytest.mark.parametrize("t,p", [(293.15, 101325.0), (303.15, 70121.0), (283.15, 54048.0)])
 def test_pure_properties_are_coolprops(name, fluid, t, p):
     # CoolProp reference equations of state and viscosity models (Bell et al. 2014); the module
@@ -52,9 +54,15 @@ def test_chapman_enskog_against_coolprop_for_carbon_dioxide():
     for t in (283.15, 293.15, 313.15):
         ce = chapman_enskog_viscosity(t, 3.941, 195.2, 44.01)
         ref = CP.PropsSI("V", "T", t, "P", 101325, "CarbonDioxide")
-        record(f"CO2 viscosity at {t:g} K by Chapman-Enskog", ce * 1e6, ref * 1e6,
-               "CoolProp (Laesecke & Muzny 2017); Poling et al. 2001 error band", "rel 2.5 %",
-               ce == pytest.approx(ref, rel=0.025), "uPa s")
+        record(
+            f"CO2 viscosity at {t:g} K by Chapman-Enskog",
+            ce * 1e6,
+            ref * 1e6,
+            "CoolProp (Laesecke & Muzny 2017); Poling et al. 2001 error band",
+            "rel 2.5 %",
+            ce == pytest.approx(ref, rel=0.025),
+            "uPa s",
+        )
         assert ce == pytest.approx(CP.PropsSI("V", "T", t, "P", 101325, "CarbonDioxide"), rel=0.025)
 
 
@@ -62,8 +70,15 @@ def test_nitrous_oxide_viscosity_against_handbook():
     # CRC Handbook, Viscosity of gases: N2O 15.0 uPa s at 300 K and 1 atm (from memory). 3 %:
     # the method's typical error plus the unverified memory of the table.
     _, mu, _ = pure_gas_properties("nitrous_oxide", 300.0, 101325.0)
-    record("N2O viscosity at 300 K, 1 atm", mu * 1e6, 15.0, "CRC Handbook, viscosity of gases (from memory)",
-           "rel 3 %", mu == pytest.approx(15.0e-6, rel=0.03), "uPa s")
+    record(
+        "N2O viscosity at 300 K, 1 atm",
+        mu * 1e6,
+        15.0,
+        "CRC Handbook, viscosity of gases (from memory)",
+        "rel 3 %",
+        mu == pytest.approx(15.0e-6, rel=0.03),
+        "uPa s",
+    )
     assert mu == pytest.approx(15.0e-6, rel=0.03)
 
 
@@ -78,8 +93,15 @@ def test_wilke_air_against_coolprop_air():
     comps = {"nitrogen": 0.78084 + 0.00036, "oxygen": 0.20946, "argon": 0.00934}
     _, mu = mixture_properties(comps, 293.15, 101325.0)
     ref = CP.PropsSI("V", "T", 293.15, "P", 101325, "Air")
-    record("air viscosity at 20 degC by Wilke's rule from its components", mu * 1e6, ref * 1e6,
-           "CoolProp air (Lemmon & Jacobsen 2004)", "rel 1.5 %", mu == pytest.approx(ref, rel=0.015), "uPa s")
+    record(
+        "air viscosity at 20 degC by Wilke's rule from its components",
+        mu * 1e6,
+        ref * 1e6,
+        "CoolProp air (Lemmon & Jacobsen 2004)",
+        "rel 1.5 %",
+        mu == pytest.approx(ref, rel=0.015),
+        "uPa s",
+    )
     assert mu == pytest.approx(CP.PropsSI("V", "T", 293.15, "P", 101325, "Air"), rel=0.015)
 
 
@@ -92,8 +114,15 @@ def test_concentrator_density_and_viscosity_against_coolprop_mixture():
     fluid = "HEOS::" + "&".join(f"{k.capitalize()}[{v}]" for k, v in comp.items())
     rho, mu = mixture_properties(comp, 293.15, 101325.0)
     ref_rho = CP.PropsSI("D", "T", 293.15, "P", 101325, fluid)
-    record("density of 93 % concentrator oxygen at 20 degC", rho, ref_rho, "CoolProp HEOS mixture", "rel 1e-4",
-           rho == pytest.approx(ref_rho, rel=1e-4), "kg/m3")
+    record(
+        "density of 93 % concentrator oxygen at 20 degC",
+        rho,
+        ref_rho,
+        "CoolProp HEOS mixture",
+        "rel 1e-4",
+        rho == pytest.approx(ref_rho, rel=1e-4),
+        "kg/m3",
+    )
     assert rho == pytest.approx(CP.PropsSI("D", "T", 293.15, "P", 101325, fluid), rel=1e-4)
     assert mu == pytest.approx(CP.PropsSI("V", "T", 293.15, "P", 101325, fluid), rel=0.01)
 
@@ -139,9 +168,14 @@ def test_laminar_limit_is_viscosity_ratio():
     use = (1.83, 1.46e-5)
     out = annulus_flow(1e-5, CAL, use, g)
     buoy = (g.float_density - use[0]) / (g.float_density - CAL[0])
-    record("flowmeter laminar limit: true/reading", float(out["flow"]) / 1e-5, CAL[1] / use[1] * buoy,
-           "Hagen-Poiseuille viscosity ratio (hand derivation)", "rel 1e-6",
-           float(out["flow"]) / 1e-5 == pytest.approx(CAL[1] / use[1] * buoy, rel=1e-6))
+    record(
+        "flowmeter laminar limit: true/reading",
+        float(out["flow"]) / 1e-5,
+        CAL[1] / use[1] * buoy,
+        "Hagen-Poiseuille viscosity ratio (hand derivation)",
+        "rel 1e-6",
+        float(out["flow"]) / 1e-5 == pytest.approx(CAL[1] / use[1] * buoy, rel=1e-6),
+    )
     assert float(out["flow"]) / 1e-5 == pytest.approx(CAL[1] / use[1] * buoy, rel=1e-6)
     assert float(out["viscous_share"]) > 0.999999
 
@@ -151,9 +185,14 @@ def test_turbulent_limit_is_square_root_of_density_ratio():
     g = replace(FlowmeterGeometry(), rim_length=1.0e-9, float_density=1.0e12)  # no viscous term, no buoyancy
     use = (0.93, 2.03e-5)
     out = annulus_flow(2e-4, CAL, use, g)
-    record("flowmeter turbulent limit: true/reading", float(out["flow"]) / 2e-4, math.sqrt(CAL[0] / use[0]),
-           "orifice law, square root of density ratio (hand derivation)", "rel 1e-6",
-           float(out["flow"]) / 2e-4 == pytest.approx(math.sqrt(CAL[0] / use[0]), rel=1e-6))
+    record(
+        "flowmeter turbulent limit: true/reading",
+        float(out["flow"]) / 2e-4,
+        math.sqrt(CAL[0] / use[0]),
+        "orifice law, square root of density ratio (hand derivation)",
+        "rel 1e-6",
+        float(out["flow"]) / 2e-4 == pytest.approx(math.sqrt(CAL[0] / use[0]), rel=1e-6),
+    )
     assert float(out["flow"]) / 2e-4 == pytest.approx(math.sqrt(CAL[0] / use[0]), rel=1e-6)
     assert float(out["viscous_share"]) < 1e-6
 
@@ -207,9 +246,14 @@ def test_oxygen_at_altitude_reads_low_in_the_high_range():
     # nearly right at low flows (viscosity does not depend on pressure, Maxwell).
     r = true_flow(Q_(np.array([0.05, 15.0]), "L/min"), "oxygen", "oxygen", HIGH)
     limit = math.sqrt(101.325 / HIGH.ambient_pressure.to("kPa").magnitude)
-    record("O2 flowmeter at 3000 m, 15 L/min: true/reading", r.correction[1], limit,
-           "density range sqrt(p0/p) (common practice, no source)", "rel 1 %",
-           r.correction[1] == pytest.approx(limit, rel=0.01))
+    record(
+        "O2 flowmeter at 3000 m, 15 L/min: true/reading",
+        r.correction[1],
+        limit,
+        "density range sqrt(p0/p) (common practice, no source)",
+        "rel 1 %",
+        r.correction[1] == pytest.approx(limit, rel=0.01),
+    )
     assert 1.0 < r.correction[1] < limit and r.correction[1] == pytest.approx(limit, rel=0.01)
     assert r.correction[0] == pytest.approx(1.0, abs=0.005)
     assert r.regime[1] == "turbulent" and r.regime[0] == "laminar"
@@ -220,10 +264,22 @@ def test_air_through_an_oxygen_tube():
     # = 1.051, bottom mu_O2/mu_air = 20.27/18.21 = 1.113 (CoolProp at 20 degC). 1 % tolerance: at
     # 15 L/min and 0.05 L/min the other term still holds a few per cent of the pressure drop.
     r = true_flow(Q_(np.array([0.05, 15.0]), "L/min"), "oxygen", "air", SEA)
-    record("air on an O2 flowmeter at 15 L/min: true/reading", r.correction[1], 1.051,
-           "sqrt(rho_O2/rho_air), CoolProp properties", "rel 1 %", r.correction[1] == pytest.approx(1.051, rel=0.01))
-    record("air on an O2 flowmeter at 0.05 L/min: true/reading", r.correction[0], 1.113,
-           "mu_O2/mu_air, CoolProp properties", "rel 1 %", r.correction[0] == pytest.approx(1.113, rel=0.01))
+    record(
+        "air on an O2 flowmeter at 15 L/min: true/reading",
+        r.correction[1],
+        1.051,
+        "sqrt(rho_O2/rho_air), CoolProp properties",
+        "rel 1 %",
+        r.correction[1] == pytest.approx(1.051, rel=0.01),
+    )
+    record(
+        "air on an O2 flowmeter at 0.05 L/min: true/reading",
+        r.correction[0],
+        1.113,
+        "mu_O2/mu_air, CoolProp properties",
+        "rel 1 %",
+        r.correction[0] == pytest.approx(1.113, rel=0.01),
+    )
     assert r.correction[1] == pytest.approx(1.051, rel=0.01)
     assert r.correction[0] == pytest.approx(1.113, rel=0.01)
     assert [c for c, _ in r.warnings] == ["FLOWMETER_LOW_READING", "FLOWMETER_OTHER_GAS"]
@@ -241,8 +297,14 @@ def test_heliox_on_an_oxygen_tube():
     # (common practice, from memory; it is sqrt(rho_O2/rho_heliox) = sqrt(32.0/9.88)). 2 %: the
     # viscous remainder of the pressure drop at 15 L/min.
     r = true_flow("15 L/min", "oxygen", "oxygen=21 %, helium=79 %", SEA)
-    record("heliox 79/21 on an O2 flowmeter: true/reading", r.correction, 1.8, "common practice (from memory)",
-           "rel 2 %", r.correction == pytest.approx(1.8, rel=0.02))
+    record(
+        "heliox 79/21 on an O2 flowmeter: true/reading",
+        r.correction,
+        1.8,
+        "common practice (from memory)",
+        "rel 2 %",
+        r.correction == pytest.approx(1.8, rel=0.02),
+    )
     assert r.correction == pytest.approx(1.8, rel=0.02)
     assert r.regime == "turbulent"
 
@@ -262,9 +324,15 @@ def test_standard_litres_and_back_pressure():
 def test_uncertainty_band():
     # +-2.5 % of reading (common practice, no source); with true = reading it is exactly the band.
     r = true_flow("8 L/min", "oxygen", "oxygen", SEA)
-    record("flowmeter accuracy band at 8 L/min, lower edge", r.uncertainty["low"].magnitude, 7.8,
-           "+-2.5 % of reading (common practice, no source)", "rel 1e-9",
-           r.uncertainty["low"].magnitude == pytest.approx(7.8, rel=1e-9), "L/min")
+    record(
+        "flowmeter accuracy band at 8 L/min, lower edge",
+        r.uncertainty["low"].magnitude,
+        7.8,
+        "+-2.5 % of reading (common practice, no source)",
+        "rel 1e-9",
+        r.uncertainty["low"].magnitude == pytest.approx(7.8, rel=1e-9),
+        "L/min",
+    )
     assert r.uncertainty["low"].magnitude == pytest.approx(7.8, rel=1e-9)
     assert r.uncertainty["high"].magnitude == pytest.approx(8.2, rel=1e-9)
     r = true_flow("8 L/min", "oxygen", "helium", HIGH)
@@ -280,8 +348,16 @@ def test_zero_reading_and_vectorised_matches_scalar():
         assert one.regime == arr.regime[i]
 
 
-@pytest.mark.parametrize("kw", [{"reading": "-1 L/min"}, {"reading": "150 L/min"}, {"reading": "2 L"},
-                                {"purity": "93 %"}, {"back_pressure": "50 kPa"}])
+@pytest.mark.parametrize(
+    "kw",
+    [
+        {"reading": "-1 L/min"},
+        {"reading": "150 L/min"},
+        {"reading": "2 L"},
+        {"purity": "93 %"},
+        {"back_pressure": "50 kPa"},
+    ],
+)
 def test_bad_inputs(kw):
     args = {"reading": "2 L/min", "calibrated_for": "oxygen", "gas_in_use": "oxygen", "site": SEA}
     extra = {k: kw.pop(k) for k in list(kw) if k in ("purity", "back_pressure")}
@@ -291,10 +367,15 @@ def test_bad_inputs(kw):
 
 
 def test_data_table_is_validated():
-    good = {"sources": {"x": "a source"}, "geometry": {"rim_length": {"value": "1 mm", "source": "x", "confidence": "C"}}}
+    good = {
+        "sources": {"x": "a source"},
+        "geometry": {"rim_length": {"value": "1 mm", "source": "x", "confidence": "C"}},
+    }
     assert load_records(good)["geometry"]["rim_length"].value == Q_(1, "mm")
-    for bad in ({"value": "1 mm", "source": "nope", "confidence": "C"},
-                {"value": "1 mm", "source": "x", "confidence": "Z"},
-                {"value": "1 kg", "source": "x", "confidence": "C"}):
+    for bad in (
+        {"value": "1 mm", "source": "nope", "confidence": "C"},
+        {"value": "1 mm", "source": "x", "confidence": "Z"},
+        {"value": "1 kg", "source": "x", "confidence": "C"},
+    ):
         with pytest.raises(DataError):
             load_records({"sources": {"x": "s"}, "geometry": {"rim_length": bad}})

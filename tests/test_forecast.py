@@ -66,14 +66,16 @@ def test_point_collapse_equals_single_cases_times_counts():
     for ct, n in zip(mix.case_types, (4, 2), strict=True):
         sc = batch.single_case_scenario(ct.template, ct.weight.loc, ct.age.loc, ct.duration.loc)
         refs.append((engine.simulate(sc).totals, ct.agent, n))
-    expect = {"oxygen": sum(n * t["oxygen"].to("L").magnitude for t, _, n in refs),
-              "air": sum(n * t["air"].to("L").magnitude for t, _, n in refs),
-              "nitrous_oxide": sum(n * t["nitrous_oxide_mass"].to("kg").magnitude for t, _, n in refs),
-              "absorbent": sum(n * t["absorbent"].to("kg").magnitude for t, _, n in refs),
-              "sevoflurane": 4 * refs[0][0]["agent_liquid"].to("mL").magnitude,
-              "isoflurane": 2 * refs[1][0]["agent_liquid"].to("mL").magnitude,
-              "co2e": sum(n * case_carbon(t, a, "ar6_gwp100").total.to("kg").magnitude for t, a, n in refs),
-              "cases": 6.0}
+    expect = {
+        "oxygen": sum(n * t["oxygen"].to("L").magnitude for t, _, n in refs),
+        "air": sum(n * t["air"].to("L").magnitude for t, _, n in refs),
+        "nitrous_oxide": sum(n * t["nitrous_oxide_mass"].to("kg").magnitude for t, _, n in refs),
+        "absorbent": sum(n * t["absorbent"].to("kg").magnitude for t, _, n in refs),
+        "sevoflurane": 4 * refs[0][0]["agent_liquid"].to("mL").magnitude,
+        "isoflurane": 2 * refs[1][0]["agent_liquid"].to("mL").magnitude,
+        "co2e": sum(n * case_carbon(t, a, "ar6_gwp100").total.to("kg").magnitude for t, a, n in refs),
+        "cases": 6.0,
+    }
     for key, value in expect.items():
         np.testing.assert_allclose(r.weekly[key], value, rtol=AGREEMENT, err_msg=key)
         for s in ("mean", "p50", "p95", "p99"):
@@ -171,8 +173,7 @@ def test_truncated_normal_weight_against_scipy():
 def test_department_file_orders_and_cost():
     mix = load_casemix(DATA / "casemix_department.toml")
     r = forecast(mix, weeks=40)
-    assert {o["item"] for o in r.orders} == {"oxygen", "air", "nitrous_oxide", "sevoflurane", "isoflurane",
-                                             "absorbent"}
+    assert {o["item"] for o in r.orders} == {"oxygen", "air", "nitrous_oxide", "sevoflurane", "isoflurane", "absorbent"}
     ox = next(o for o in r.orders if o["item"] == "oxygen")
     usable = compressed_cylinder("oxygen", "10 L", "200 bar", "15 degC", "10 bar").usable.to("L").magnitude
     assert ox["per_unit"].magnitude == pytest.approx(usable)
@@ -183,12 +184,14 @@ def test_department_file_orders_and_cost():
     sevo = r.items["sevoflurane_bottles"]["mean"].magnitude
     assert sevo == pytest.approx(r.items["sevoflurane"]["mean"].magnitude / 250.0)
     assert r.cost["currency"] == "demo units" and r.cost["p95"] >= r.cost["p50"] > 0
-    assert ("FEW_WEEKS" in {c for c, _ in r.warnings})
+    assert "FEW_WEEKS" in {c for c, _ in r.warnings}
 
 
 def test_csv_equals_toml(tmp_path):
-    text = ("name,per_week,agent,duration_median [min],duration_p90 [min],weight_mean [kg],weight_sd [kg]\n"
-            "brief cases,10,sevoflurane,20,30,70,10\n")
+    text = (
+        "name,per_week,agent,duration_median [min],duration_p90 [min],weight_mean [kg],weight_sd [kg]\n"
+        "brief cases,10,sevoflurane,20,30,70,10\n"
+    )
     p = tmp_path / "mix.csv"
     p.write_text(text)
     from_csv = forecast(load_casemix(p), weeks=20, seed=4)
@@ -198,24 +201,33 @@ def test_csv_equals_toml(tmp_path):
 
 
 def _row(**keys):
-    base = {"name": '"x"', "per_week": "2", "agent": '"sevoflurane"', "weight_mean": '"70 kg"',
-            "duration_median": '"60 min"', "duration_p90": '"90 min"'}
+    base = {
+        "name": '"x"',
+        "per_week": "2",
+        "agent": '"sevoflurane"',
+        "weight_mean": '"70 kg"',
+        "duration_median": '"60 min"',
+        "duration_p90": '"90 min"',
+    }
     base.update(keys)
     return "[[case_types]]\n" + "\n".join(f"{k} = {v}" for k, v in base.items() if v is not None)
 
 
-@pytest.mark.parametrize("row, field", [
-    (_row(per_week="-3"), "case_types[1].per_week"),
-    (_row(duration_p90='"40 min"'), "case_types[1].duration_p90"),
-    (_row(agent='"chloroform"'), "case_types[1].agent"),
-    (_row(colour='"red"'), "case_types[1].colour"),
-    (_row(count='"fixed"', per_week="2.5"), "case_types[1].per_week"),
-    (_row(weight_sd='"10 kg"', weight_min='"80 kg"', weight_max='"60 kg"'), "case_types[1].weight_max"),
-    (_row(wash_in_flow='"40 L/min"'), "case_types[1].wash_in_flow"),
-    (_row(scenario='"missing.toml"', agent=None), "case_types[1].scenario"),
-    (_row(per_weekday="[1, 2]"), "case_types[1].per_week"),
-    (_row(weight_mean='"70 L"'), "case_types[1].weight_mean"),
-])
+@pytest.mark.parametrize(
+    "row, field",
+    [
+        (_row(per_week="-3"), "case_types[1].per_week"),
+        (_row(duration_p90='"40 min"'), "case_types[1].duration_p90"),
+        (_row(agent='"chloroform"'), "case_types[1].agent"),
+        (_row(colour='"red"'), "case_types[1].colour"),
+        (_row(count='"fixed"', per_week="2.5"), "case_types[1].per_week"),
+        (_row(weight_sd='"10 kg"', weight_min='"80 kg"', weight_max='"60 kg"'), "case_types[1].weight_max"),
+        (_row(wash_in_flow='"40 L/min"'), "case_types[1].wash_in_flow"),
+        (_row(scenario='"missing.toml"', agent=None), "case_types[1].scenario"),
+        (_row(per_weekday="[1, 2]"), "case_types[1].per_week"),
+        (_row(weight_mean='"70 L"'), "case_types[1].weight_mean"),
+    ],
+)
 def test_bad_rows_name_the_row(row, field):
     text = _row() + "\n" + row
     with pytest.raises(InputError) as err:
@@ -224,8 +236,11 @@ def test_bad_rows_name_the_row(row, field):
 
 
 def test_template_with_per_patient_override_is_refused(tmp_path):
-    (tmp_path / "t.toml").write_text((DATA / "casemix_lap_scenario.toml").read_text().replace(
-        'age = "50 years"', 'age = "50 years"\ncardiac_output = "5 L/min"'))
+    (tmp_path / "t.toml").write_text(
+        (DATA / "casemix_lap_scenario.toml")
+        .read_text()
+        .replace('age = "50 years"', 'age = "50 years"\ncardiac_output = "5 L/min"')
+    )
     (tmp_path / "m.toml").write_text('[[case_types]]\nname = "t"\nper_week = 1\nscenario = "t.toml"\n')
     with pytest.raises(InputError) as err:
         load_casemix(tmp_path / "m.toml")
@@ -233,8 +248,12 @@ def test_template_with_per_patient_override_is_refused(tmp_path):
 
 
 def test_top_level_errors():
-    for text, field in (("weeks = 0\n" + _row(), "weeks"), ('cover = "20 %"\n' + _row(), "cover"),
-                        ('co2e_basis = "ar9"\n' + _row(), "co2e_basis"), ("weeks = 3", "case_types")):
+    for text, field in (
+        ("weeks = 0\n" + _row(), "weeks"),
+        ('cover = "20 %"\n' + _row(), "cover"),
+        ('co2e_basis = "ar9"\n' + _row(), "co2e_basis"),
+        ("weeks = 3", "case_types"),
+    ):
         with pytest.raises(InputError) as err:
             load_casemix(text)
         assert err.value.field == field
@@ -256,15 +275,20 @@ def test_neonatal_point_patient_keeps_age_zero_and_warns():
 
 
 def test_empty_case_type_runs():
-    text = _row(per_week="0") + "\n" + _row(name='"y"', per_week="1", duration='"20 min"',
-                                              duration_median=None, duration_p90=None)
+    text = (
+        _row(per_week="0")
+        + "\n"
+        + _row(name='"y"', per_week="1", duration='"20 min"', duration_median=None, duration_p90=None)
+    )
     r = forecast(load_casemix(text), weeks=2, seed=0)
     assert r.cases[0]["simulated"] == 0 and r.cases[1]["simulated"] == int(r.weekly["cases"].sum())
 
 
 def test_case_types_file_rows_follow_the_toml_rows(tmp_path):
-    (tmp_path / "rows.csv").write_text("name,per_week,agent,duration [min],weight_mean [kg],weight_sd [kg]\n"
-                                       "ok,2,sevoflurane,30,70,\nbad,-1,sevoflurane,30,70,5\n")
+    (tmp_path / "rows.csv").write_text(
+        "name,per_week,agent,duration [min],weight_mean [kg],weight_sd [kg]\n"
+        "ok,2,sevoflurane,30,70,\nbad,-1,sevoflurane,30,70,5\n"
+    )
     text = 'case_types_file = "rows.csv"\n' + _row()
     (tmp_path / "mix.toml").write_text(text)
     with pytest.raises(InputError) as err:

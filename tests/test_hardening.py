@@ -34,28 +34,122 @@ SOME = settings(max_examples=25, deadline=None, derandomize=True, suppress_healt
 
 # ------------------------------------------------------------------ strategies
 #: Values that break parsers: odd units, non-finite numbers, empty text, wrong types.
-TOKENS = ["", " ", "nan", "inf", "-inf", "1e308", "-0", "0", "2", "-3", "2 L/min", "70 kg", "40 years", "5 %",
-          "1 MAC", "3 kg", "nan L/min", "inf %", "1e400 L/min", "2 L/min/min", "L/min", "%", "degC", "10 degC",
-          "200 bar", "-5 bar", "5 months", "24 h", "25 h", "0 min", "1e-9 min", "sevoflurane", "xenon", "oxygen",
-          "2026-13-40", "08:00", "99:99", "[", "]]", "\"", "\\", "\u00e9", "\x00", "1_000", "0x10", "**"]
+TOKENS = [
+    "",
+    " ",
+    "nan",
+    "inf",
+    "-inf",
+    "1e308",
+    "-0",
+    "0",
+    "2",
+    "-3",
+    "2 L/min",
+    "70 kg",
+    "40 years",
+    "5 %",
+    "1 MAC",
+    "3 kg",
+    "nan L/min",
+    "inf %",
+    "1e400 L/min",
+    "2 L/min/min",
+    "L/min",
+    "%",
+    "degC",
+    "10 degC",
+    "200 bar",
+    "-5 bar",
+    "5 months",
+    "24 h",
+    "25 h",
+    "0 min",
+    "1e-9 min",
+    "sevoflurane",
+    "xenon",
+    "oxygen",
+    "2026-13-40",
+    "08:00",
+    "99:99",
+    "[",
+    "]]",
+    '"',
+    "\\",
+    "\u00e9",
+    "\x00",
+    "1_000",
+    "0x10",
+    "**",
+]
 #: Text a user could type (no lone surrogates: a file cannot hold them as UTF-8).
 TEXT = st.characters(codec="utf-8", exclude_categories=["Cs"])
-KEYS = ["title", "patient", "weight", "age", "agent", "name", "circuit", "volume", "leak", "sample_flow", "site",
-        "elevation", "ambient_pressure", "temperature", "phases", "duration", "oxygen", "air", "nitrous_oxide",
-        "vaporizer", "end_tidal_target", "oxygen_fraction", "total_flow", "balance", "prices", "currency",
-        "flow_floor", "scale", "cylinders", "gas", "water_capacity", "pressure", "bottles", "count", "demand",
-        "cases", "scenario", "per_day", "concentrators", "rated_flow", "hours_per_day", "case_types",
-        "per_week", "duration_median", "duration_p90", "weight_mean", "weeks", "seed", "orders", "zzz"]
-scalars = st.one_of(st.sampled_from(TOKENS), st.text(TEXT, max_size=12), st.integers(-10**6, 10**6),
-                    st.floats(allow_nan=True, allow_infinity=True), st.booleans())
+KEYS = [
+    "title",
+    "patient",
+    "weight",
+    "age",
+    "agent",
+    "name",
+    "circuit",
+    "volume",
+    "leak",
+    "sample_flow",
+    "site",
+    "elevation",
+    "ambient_pressure",
+    "temperature",
+    "phases",
+    "duration",
+    "oxygen",
+    "air",
+    "nitrous_oxide",
+    "vaporizer",
+    "end_tidal_target",
+    "oxygen_fraction",
+    "total_flow",
+    "balance",
+    "prices",
+    "currency",
+    "flow_floor",
+    "scale",
+    "cylinders",
+    "gas",
+    "water_capacity",
+    "pressure",
+    "bottles",
+    "count",
+    "demand",
+    "cases",
+    "scenario",
+    "per_day",
+    "concentrators",
+    "rated_flow",
+    "hours_per_day",
+    "case_types",
+    "per_week",
+    "duration_median",
+    "duration_p90",
+    "weight_mean",
+    "weeks",
+    "seed",
+    "orders",
+    "zzz",
+]
+scalars = st.one_of(
+    st.sampled_from(TOKENS),
+    st.text(TEXT, max_size=12),
+    st.integers(-(10**6), 10**6),
+    st.floats(allow_nan=True, allow_infinity=True),
+    st.booleans(),
+)
 tables = st.recursive(
     scalars,
     lambda inner: st.one_of(st.lists(inner, max_size=3), st.dictionaries(st.sampled_from(KEYS), inner, max_size=5)),
     max_leaves=25,
 )
 documents = st.dictionaries(st.sampled_from(KEYS), tables, max_size=6)
-toml_text = st.text(TEXT, max_size=300).map(
-    lambda s: s + "\n")
+toml_text = st.text(TEXT, max_size=300).map(lambda s: s + "\n")
 
 SCENARIO = """title = "invented hardening case"
 [patient]
@@ -217,13 +311,28 @@ def _loaders():
     from estimator.scenario import load_scenario
     from estimator.supply import load_inventory
 
-    return {"scenario": load_scenario, "inventory": load_inventory, "casemix": load_casemix,
-            "case_types_file": read_case_types_csv, "prices": load_prices, "log": audit}
+    return {
+        "scenario": load_scenario,
+        "inventory": load_inventory,
+        "casemix": load_casemix,
+        "case_types_file": read_case_types_csv,
+        "prices": load_prices,
+        "log": audit,
+    }
 
 
-@pytest.mark.parametrize("name,suffix", [("scenario", ".toml"), ("inventory", ".toml"), ("casemix", ".toml"),
-                                         ("casemix", ".csv"), ("case_types_file", ".csv"), ("prices", ".toml"),
-                                         ("log", ".csv")])
+@pytest.mark.parametrize(
+    "name,suffix",
+    [
+        ("scenario", ".toml"),
+        ("inventory", ".toml"),
+        ("casemix", ".toml"),
+        ("casemix", ".csv"),
+        ("case_types_file", ".csv"),
+        ("prices", ".toml"),
+        ("log", ".csv"),
+    ],
+)
 @pytest.mark.parametrize("problem", ["missing", "folder", "not-utf8"])
 def test_file_loaders_name_a_bad_path(tmp_path, name, suffix, problem):
     # Every loader, given a path that does not exist, a folder, or bytes that are not UTF-8, raises
@@ -232,7 +341,7 @@ def test_file_loaders_name_a_bad_path(tmp_path, name, suffix, problem):
     if problem == "folder":
         path.mkdir()
     elif problem == "not-utf8":
-        path.write_bytes(b"name = \"\xff\xfe\xfa\"\n")
+        path.write_bytes(b'name = "\xff\xfe\xfa"\n')
     with pytest.raises(InputError) as err:
         _loaders()[name](path)
     assert "\n" not in str(err.value)
@@ -272,9 +381,30 @@ def run_cli(argv: list[str]) -> tuple[int, str, str]:
 
 FILES = {"scenario.toml": SCENARIO, "inventory.toml": INVENTORY, "mix.toml": CASEMIX, "log.csv": AUDIT}
 VERBS = ["case", "safe-flow", "supply", "forecast", "audit", "mac", "flowmeter", "nonsense", "--version", ""]
-OPTIONS = ["--json", "--weeks", "--seed", "--policy", "--prices", "--basis", "--threshold", "--agent", "--age",
-           "--nitrous-oxide", "--total-mac", "--elevation", "--reading", "--calibrated-for", "--gas",
-           "--temperature", "--start", "--quadrature", "--maintenance-after", "--manifold-loss", "--no-grid", "-x"]
+OPTIONS = [
+    "--json",
+    "--weeks",
+    "--seed",
+    "--policy",
+    "--prices",
+    "--basis",
+    "--threshold",
+    "--agent",
+    "--age",
+    "--nitrous-oxide",
+    "--total-mac",
+    "--elevation",
+    "--reading",
+    "--calibrated-for",
+    "--gas",
+    "--temperature",
+    "--start",
+    "--quadrature",
+    "--maintenance-after",
+    "--manifold-loss",
+    "--no-grid",
+    "-x",
+]
 
 
 @st.composite
@@ -289,8 +419,12 @@ def argv_and_files(draw):
             text = draw(st.text(TEXT, max_size=120))
         if kind != "none":
             files[name] = text
-    words = st.one_of(st.sampled_from(OPTIONS), st.sampled_from(TOKENS), st.sampled_from(sorted(FILES)),
-                      st.sampled_from(["1", "2", "0.5", "sevoflurane", "oxygen", "air", "3000 m", "2 L/min"]))
+    words = st.one_of(
+        st.sampled_from(OPTIONS),
+        st.sampled_from(TOKENS),
+        st.sampled_from(sorted(FILES)),
+        st.sampled_from(["1", "2", "0.5", "sevoflurane", "oxygen", "air", "3000 m", "2 L/min"]),
+    )
     argv = [draw(st.sampled_from(VERBS))] + draw(st.lists(words, max_size=6))
     return [a for a in argv if a != ""] or ["--help"], files
 
@@ -304,8 +438,10 @@ def test_cli_random_arguments_never_crash(case):
             (Path(tmp) / name).write_text(text, encoding="utf-8")
         argv = [str(Path(tmp) / a) if a in FILES else a for a in argv]
         # A valid file through a long forecast would only be slow, not wrong: keep weeks small.
-        argv = [a if not (i and argv[i - 1] == "--weeks" and a.isdigit() and int(a) > 4) else "2"
-                for i, a in enumerate(argv)]
+        argv = [
+            a if not (i and argv[i - 1] == "--weeks" and a.isdigit() and int(a) > 4) else "2"
+            for i, a in enumerate(argv)
+        ]
         code, out, err = run_cli(argv)
     assert code in (0, 2), (argv, code, err)
     if code == 2:
@@ -346,30 +482,88 @@ def finite_json(result) -> dict:
     return json.loads(dumps(result.to_json()), parse_constant=refuse)
 
 
-@pytest.mark.parametrize("phases,tables", [
-    ([{"duration": "30 min", "oxygen_fraction": "100 %", "total_flow": "1 L/min", "balance": "air",
-       "vaporizer": "2 %"}], {}),
-    ([{"duration": "30 min", "oxygen_fraction": "100 %", "total_flow": "1 L/min", "balance": "nitrous_oxide",
-       "end_tidal_target": "1 MAC"}], {}),
-    ([{"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
-     {"circuit": {"leak": "0 L/min", "sample_flow": "0 L/min"}}),
-    ([{"duration": "20 min", "oxygen": "0 L/min", "vaporizer": "2 %"}], {}),
-    ([{"duration": "10 min", "oxygen": "0 L/min", "end_tidal_target": "1 MAC"}],
-     {"agent": {"name": "isoflurane"}, "patient": {"weight": "152 kg"}}),
-    ([{"duration": "20 min", "oxygen": "15 L/min", "air": "15 L/min", "nitrous_oxide": "15 L/min",
-       "vaporizer": "2 %"}], {}),
-    ([{"duration": "1 s", "oxygen": "2 L/min", "vaporizer": "2 %"}], {}),
-    ([{"duration": "6 min", "oxygen": "2 L/min", "vaporizer": "1 %"}] * 60, {"output": {"interval": "2 min"}}),
-    ([{"duration": "20 min", "oxygen": "1 L/min", "end_tidal_target": "1 MAC"}],
-     {"patient": {"weight": "0.5 kg", "age": "0 years"}}),
-    ([{"duration": "20 min", "oxygen": "3 L/min", "end_tidal_target": "1 MAC"}],
-     {"patient": {"weight": "300 kg", "age": "120 years"}}),
-    ([{"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
-     {"site": {"elevation": "11000 m", "temperature": "-20 degC", "oxygen_source": "concentrator"}}),
-    ([{"duration": "20 min", "oxygen": "1 L/min", "air": "1 L/min", "vaporizer": "2 %"}],
-     {"site": {"elevation": "-500 m", "temperature": "50 degC"}}),
-], ids=["100%O2-air-balance", "100%O2-n2o-balance", "no-leak-no-sample", "zero-flow", "zero-flow-hold", "45Lmin",
-        "one-second", "60-phases", "0.5kg-newborn", "300kg-120y", "11000m-cold", "-500m-hot"])
+@pytest.mark.parametrize(
+    "phases,tables",
+    [
+        (
+            [
+                {
+                    "duration": "30 min",
+                    "oxygen_fraction": "100 %",
+                    "total_flow": "1 L/min",
+                    "balance": "air",
+                    "vaporizer": "2 %",
+                }
+            ],
+            {},
+        ),
+        (
+            [
+                {
+                    "duration": "30 min",
+                    "oxygen_fraction": "100 %",
+                    "total_flow": "1 L/min",
+                    "balance": "nitrous_oxide",
+                    "end_tidal_target": "1 MAC",
+                }
+            ],
+            {},
+        ),
+        (
+            [{"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
+            {"circuit": {"leak": "0 L/min", "sample_flow": "0 L/min"}},
+        ),
+        ([{"duration": "20 min", "oxygen": "0 L/min", "vaporizer": "2 %"}], {}),
+        (
+            [{"duration": "10 min", "oxygen": "0 L/min", "end_tidal_target": "1 MAC"}],
+            {"agent": {"name": "isoflurane"}, "patient": {"weight": "152 kg"}},
+        ),
+        (
+            [
+                {
+                    "duration": "20 min",
+                    "oxygen": "15 L/min",
+                    "air": "15 L/min",
+                    "nitrous_oxide": "15 L/min",
+                    "vaporizer": "2 %",
+                }
+            ],
+            {},
+        ),
+        ([{"duration": "1 s", "oxygen": "2 L/min", "vaporizer": "2 %"}], {}),
+        ([{"duration": "6 min", "oxygen": "2 L/min", "vaporizer": "1 %"}] * 60, {"output": {"interval": "2 min"}}),
+        (
+            [{"duration": "20 min", "oxygen": "1 L/min", "end_tidal_target": "1 MAC"}],
+            {"patient": {"weight": "0.5 kg", "age": "0 years"}},
+        ),
+        (
+            [{"duration": "20 min", "oxygen": "3 L/min", "end_tidal_target": "1 MAC"}],
+            {"patient": {"weight": "300 kg", "age": "120 years"}},
+        ),
+        (
+            [{"duration": "20 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
+            {"site": {"elevation": "11000 m", "temperature": "-20 degC", "oxygen_source": "concentrator"}},
+        ),
+        (
+            [{"duration": "20 min", "oxygen": "1 L/min", "air": "1 L/min", "vaporizer": "2 %"}],
+            {"site": {"elevation": "-500 m", "temperature": "50 degC"}},
+        ),
+    ],
+    ids=[
+        "100%O2-air-balance",
+        "100%O2-n2o-balance",
+        "no-leak-no-sample",
+        "zero-flow",
+        "zero-flow-hold",
+        "45Lmin",
+        "one-second",
+        "60-phases",
+        "0.5kg-newborn",
+        "300kg-120y",
+        "11000m-cold",
+        "-500m-hot",
+    ],
+)
 def test_engine_edge_cases_conserve_and_give_finite_json(phases, tables):
     rest = {k: v for k, v in tables.items() if k != "agent"}
     r = run(tables.get("agent", {}).get("name", "sevoflurane"), phases, **rest)
@@ -387,15 +581,21 @@ def test_engine_edge_cases_conserve_and_give_finite_json(phases, tables):
 
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(agent=st.sampled_from(["sevoflurane", "isoflurane", "desflurane"]),
-       weight=st.floats(3, 200), oxygen=st.sampled_from([0.0, 1e-6, 1e-3, 0.05]),
-       target=st.sampled_from(["0.5 MAC", "1 MAC", "1.3 MAC"]))
+@given(
+    agent=st.sampled_from(["sevoflurane", "isoflurane", "desflurane"]),
+    weight=st.floats(3, 200),
+    oxygen=st.sampled_from([0.0, 1e-6, 1e-3, 0.05]),
+    target=st.sampled_from(["0.5 MAC", "1 MAC", "1.3 MAC"]),
+)
 def test_end_tidal_hold_at_no_or_trace_fresh_gas_is_finite(agent, weight, oxygen, target):
     # Found by the edge cases above: with no fresh gas the hold law has no gain. Any weight, agent
     # and target must give a finite, mass-conserving result (common practice, no source: a
     # vaporizer cannot deliver agent without carrier gas).
-    r = run(agent, [{"duration": "10 min", "oxygen": f"{oxygen} L/min", "end_tidal_target": target}],
-            patient={"weight": f"{weight} kg"})
+    r = run(
+        agent,
+        [{"duration": "10 min", "oxygen": f"{oxygen} L/min", "end_tidal_target": target}],
+        patient={"weight": f"{weight} kg"},
+    )
     assert max(r.mass_balance().values()) < 1e-6
     finite_json(r)
 
@@ -409,16 +609,28 @@ def test_hundred_percent_oxygen_has_no_nitrogen_left_to_wash_in():
 
 
 @SOME
-@given(st.sampled_from(["sevoflurane", "isoflurane", "desflurane"]), st.floats(0.05, 15.0), st.floats(0.0, 15.0),
-       st.floats(0.0, 10.0), st.floats(0.5, 300.0))
+@given(
+    st.sampled_from(["sevoflurane", "isoflurane", "desflurane"]),
+    st.floats(0.05, 15.0),
+    st.floats(0.0, 15.0),
+    st.floats(0.0, 10.0),
+    st.floats(0.5, 300.0),
+)
 def test_random_valid_cases_give_finite_json(agent_name, o2, air, n2o, kg):
     # Any valid input gives a JSON document without NaN, and the flow floor and its JSON likewise.
     from engine_helpers import scenario
 
     from estimator.safety import flow_floor
 
-    phases = [{"duration": "10 min", "oxygen": f"{o2:.3f} L/min", "air": f"{air:.3f} L/min",
-               "nitrous_oxide": f"{n2o:.3f} L/min", "end_tidal_target": "1 MAC"}]
+    phases = [
+        {
+            "duration": "10 min",
+            "oxygen": f"{o2:.3f} L/min",
+            "air": f"{air:.3f} L/min",
+            "nitrous_oxide": f"{n2o:.3f} L/min",
+            "end_tidal_target": "1 MAC",
+        }
+    ]
     sc = scenario(agent_name, phases, patient={"weight": f"{kg:.2f} kg"})
     from estimator.engine import simulate
 
@@ -440,8 +652,9 @@ def test_recorder_writes_only_when_asked(tmp_path, monkeypatch):
     record("a | b", float("nan"), "1 to 2", "src", "rel 1 %", False, "L")
     row = json.loads(out.read_text())
     assert row["computed"] == "nan" and row["passed"] is False
-    spec = importlib.util.spec_from_file_location("make_validation", Path(__file__).parent.parent / "docs" /
-                                                  "make_validation.py")
+    spec = importlib.util.spec_from_file_location(
+        "make_validation", Path(__file__).parent.parent / "docs" / "make_validation.py"
+    )
     gen = importlib.util.module_from_spec(spec)
     spec.loader.exec_module(gen)
     text = gen.render(gen.read_rows(out), "2026-01-01")

@@ -34,16 +34,30 @@ def published_factor(age):
 def test_shipped_mac40_is_mapleson_table2(name, mac40):
     # Data file against Mapleson 1996 Table 2; exact, the table is copied to its printed digits.
     v = agent(name).mac40.to("percent").magnitude
-    record(f"{name} MAC at 40 years", v, mac40, "Mapleson 1996, Table 2", "rel 1e-12",
-           v == pytest.approx(mac40, rel=1e-12), "%")
+    record(
+        f"{name} MAC at 40 years",
+        v,
+        mac40,
+        "Mapleson 1996, Table 2",
+        "rel 1e-12",
+        v == pytest.approx(mac40, rel=1e-12),
+        "%",
+    )
     assert agent(name).mac40.to("percent").magnitude == pytest.approx(mac40, rel=1e-12)
 
 
 def test_shipped_nitrous_oxide_mac40():
     # Mapleson 1996 Table 2: nitrous oxide 104 % at 40 years.
     v = gas("nitrous_oxide").mac40.to("percent").magnitude
-    record("nitrous oxide MAC at 40 years", v, MAPLESON_N2O, "Mapleson 1996, Table 2", "rel 1e-12",
-           v == pytest.approx(MAPLESON_N2O, rel=1e-12), "%")
+    record(
+        "nitrous oxide MAC at 40 years",
+        v,
+        MAPLESON_N2O,
+        "Mapleson 1996, Table 2",
+        "rel 1e-12",
+        v == pytest.approx(MAPLESON_N2O, rel=1e-12),
+        "%",
+    )
     assert gas("nitrous_oxide").mac40.to("percent").magnitude == pytest.approx(MAPLESON_N2O, rel=1e-12)
 
 
@@ -62,8 +76,14 @@ def test_decline_six_percent_per_decade():
     # figure is rounded to a whole percent, so allow 0.5 percentage point.
     ages = np.arange(1.0, 111.0, 10.0)
     ratios = mapleson_factor(ages + 10.0) / mapleson_factor(ages)
-    record("MAC decline per decade of age", float(np.mean(1.0 - ratios)), 0.06, "Mapleson 1996, abstract",
-           "abs 0.005", bool(np.allclose(1.0 - ratios, 0.06, atol=0.005)))
+    record(
+        "MAC decline per decade of age",
+        float(np.mean(1.0 - ratios)),
+        0.06,
+        "Mapleson 1996, abstract",
+        "abs 0.005",
+        bool(np.allclose(1.0 - ratios, 0.06, atol=0.005)),
+    )
     assert np.allclose(1.0 - ratios, 0.06, atol=0.005)
 
 
@@ -71,8 +91,14 @@ def test_decline_six_percent_per_decade():
 def test_mapleson_factors_at_ages(age, factor):
     # Factors from the published formula, hand-computed to 3 decimals (10^(0.00269 x 39) = 1.2733,
     # ...); tolerance half a unit in the third decimal.
-    record(f"Mapleson age factor at {age} years", mapleson_factor(age), factor,
-           "Mapleson 1996 formula, hand-computed", "abs 5e-4", mapleson_factor(age) == pytest.approx(factor, abs=5e-4))
+    record(
+        f"Mapleson age factor at {age} years",
+        mapleson_factor(age),
+        factor,
+        "Mapleson 1996 formula, hand-computed",
+        "abs 5e-4",
+        mapleson_factor(age) == pytest.approx(factor, abs=5e-4),
+    )
     assert mapleson_factor(age) == pytest.approx(factor, abs=5e-4)
 
 
@@ -108,9 +134,15 @@ def test_additivity_with_nitrous_oxide():
     # Nickalls and Mapleson 2003: total MAC = sum of F_ET,i / MAC_i(age), nitrous oxide included.
     # At 40 years: 0.9 % sevoflurane = 0.5 MAC (1.80 % Table 2); 52 % nitrous oxide = 0.5 MAC (104 %).
     r = total_mac({"sevoflurane": "0.9 %", "nitrous_oxide": "52 %"}, "40 years")
-    record("total MAC of 0.9 % sevoflurane + 52 % N2O at 40 years", r.total.to("MAC").magnitude, 1.0,
-           "Nickalls & Mapleson 2003 (additivity); Mapleson 1996 Table 2", "rel 1e-12",
-           r.total.to("MAC").magnitude == pytest.approx(1.0, rel=1e-12), "MAC")
+    record(
+        "total MAC of 0.9 % sevoflurane + 52 % N2O at 40 years",
+        r.total.to("MAC").magnitude,
+        1.0,
+        "Nickalls & Mapleson 2003 (additivity); Mapleson 1996 Table 2",
+        "rel 1e-12",
+        r.total.to("MAC").magnitude == pytest.approx(1.0, rel=1e-12),
+        "MAC",
+    )
     assert r.total.to("MAC").magnitude == pytest.approx(1.0, rel=1e-12)
     assert r.contributions["nitrous_oxide"].magnitude == pytest.approx(0.5, rel=1e-12)
     # At 80 years both MACs fall by the same factor, so the same mixture is 1/0.781 MAC (Mapleson 1996).
@@ -133,9 +165,15 @@ def test_inverse_known_value():
     f = published_factor(70)
     expected = (1.2 - 0.67 / (1.04 * f)) * 0.018 * f * 100
     r = end_tidal_for_total_mac("sevoflurane", 1.2, "70 years", "67 %")
-    record("sevoflurane end-tidal for 1.2 MAC total with 67 % N2O at 70 years",
-           r.end_tidal.to("percent").magnitude, expected, "Mapleson 1996; Nickalls & Mapleson 2003 (formula)",
-           "rel 1e-12", r.end_tidal.to("percent").magnitude == pytest.approx(expected, rel=1e-12), "%")
+    record(
+        "sevoflurane end-tidal for 1.2 MAC total with 67 % N2O at 70 years",
+        r.end_tidal.to("percent").magnitude,
+        expected,
+        "Mapleson 1996; Nickalls & Mapleson 2003 (formula)",
+        "rel 1e-12",
+        r.end_tidal.to("percent").magnitude == pytest.approx(expected, rel=1e-12),
+        "%",
+    )
     assert r.end_tidal.to("percent").magnitude == pytest.approx(expected, rel=1e-12)
     assert r.nitrous_oxide_mac.magnitude == pytest.approx(0.67 / (1.04 * f), rel=1e-12)
 
@@ -165,8 +203,12 @@ def test_inverse_flags_unreachable_and_hypoxic():
 
 
 @settings(max_examples=60, deadline=None)
-@given(age=st.floats(1.0, 120.0), n2o=st.floats(0.0, 0.8), extra=st.floats(0.0, 1.5),
-       name=st.sampled_from(sorted(MAPLESON_TABLE2)))
+@given(
+    age=st.floats(1.0, 120.0),
+    n2o=st.floats(0.0, 0.8),
+    extra=st.floats(0.0, 1.5),
+    name=st.sampled_from(sorted(MAPLESON_TABLE2)),
+)
 def test_inverse_round_trip(age, n2o, extra, name):
     # Round trip through the additivity rule: the returned end-tidal gives back the total.
     n2o_mac = n2o / (1.04 * published_factor(age))
@@ -198,8 +240,15 @@ def test_mac_at_pressure_is_a_partial_pressure():
     # ICAO standard atmosphere (ISO 2533): 70.12 kPa at 3000 m; sevoflurane 1 MAC there is
     # 1.80 x 101.325 / 70.12 = 2.60 %; rel 1e-3 covers the 4-digit pressure.
     r = mac_at_age("sevoflurane", 40, "70.12 kPa")
-    record("sevoflurane 1 MAC as volume % at 70.12 kPa (3000 m)", r.mac.magnitude, 2.60,
-           "Dalton's law with ISO 2533 pressure at 3000 m", "rel 1e-3", r.mac.magnitude == pytest.approx(2.60, rel=1e-3), "%")
+    record(
+        "sevoflurane 1 MAC as volume % at 70.12 kPa (3000 m)",
+        r.mac.magnitude,
+        2.60,
+        "Dalton's law with ISO 2533 pressure at 3000 m",
+        "rel 1e-3",
+        r.mac.magnitude == pytest.approx(2.60, rel=1e-3),
+        "%",
+    )
     assert r.mac.magnitude == pytest.approx(2.60, rel=1e-3)
     assert r.warnings == ()
     # Above the limit of habitation (40 kPa is about 7000 m in the ISO 2533 atmosphere): a warning

@@ -21,10 +21,24 @@ def test_brody_power_laws(kg):
     # Q = 2 kg^0.75 dL/min. Computed here from the published coefficients; round-off only.
     p = patient_parameters(f"{kg} kg")
     vo2, q = p.oxygen_consumption.to("mL/min").magnitude, p.cardiac_output.to("dL/min").magnitude
-    record(f"O2 consumption, {kg:g} kg (Brody 10 kg^0.75)", vo2, 10 * kg**0.75, "Lowe & Ernst 1981 (Brody's law)",
-           "rel 1e-12", vo2 == pytest.approx(10 * kg**0.75, rel=1e-12), "mL/min")
-    record(f"cardiac output, {kg:g} kg (Brody 2 kg^0.75)", q, 2 * kg**0.75, "Lowe & Ernst 1981 (Brody's law)",
-           "rel 1e-12", q == pytest.approx(2 * kg**0.75, rel=1e-12), "dL/min")
+    record(
+        f"O2 consumption, {kg:g} kg (Brody 10 kg^0.75)",
+        vo2,
+        10 * kg**0.75,
+        "Lowe & Ernst 1981 (Brody's law)",
+        "rel 1e-12",
+        vo2 == pytest.approx(10 * kg**0.75, rel=1e-12),
+        "mL/min",
+    )
+    record(
+        f"cardiac output, {kg:g} kg (Brody 2 kg^0.75)",
+        q,
+        2 * kg**0.75,
+        "Lowe & Ernst 1981 (Brody's law)",
+        "rel 1e-12",
+        q == pytest.approx(2 * kg**0.75, rel=1e-12),
+        "dL/min",
+    )
     assert p.oxygen_consumption.to("mL/min").magnitude == pytest.approx(10 * kg**0.75, rel=1e-12)
     assert p.carbon_dioxide_production.to("mL/min").magnitude == pytest.approx(8 * kg**0.75, rel=1e-12)
     assert p.cardiac_output.to("dL/min").magnitude == pytest.approx(2 * kg**0.75, rel=1e-12)
@@ -38,8 +52,15 @@ def test_brody_70kg_against_quoted_values():
     # quoted figure is rounded, so 5 %.
     p = patient_parameters("70 kg")
     vo2 = p.oxygen_consumption.to("mL/min").magnitude
-    record("O2 consumption, 70 kg adult", vo2, 250.0, "Lowe & Ernst 1981, quoted figure (secondary)", "rel 5 %",
-           vo2 == pytest.approx(250.0, rel=0.05), "mL/min")
+    record(
+        "O2 consumption, 70 kg adult",
+        vo2,
+        250.0,
+        "Lowe & Ernst 1981, quoted figure (secondary)",
+        "rel 5 %",
+        vo2 == pytest.approx(250.0, rel=0.05),
+        "mL/min",
+    )
     assert p.oxygen_consumption.to("mL/min").magnitude == pytest.approx(250.0, rel=0.05)
     # Resting adult cardiac output about 5 L/min (common practice, no source); 5 %.
     assert p.cardiac_output.to("L/min").magnitude == pytest.approx(5.0, rel=0.05)
@@ -53,8 +74,15 @@ def test_brody_70kg_within_measured_oxygen_consumption():
     # Lieberman JA et al., Anesthesiology 2000;92:407: awake VO2 3.0 +- 0.5 mL/kg/min. Brody's
     # figure per kg at 70 kg (3.46) lies within one standard deviation of it.
     per_kg = brody_oxygen_consumption(70.0) / 70.0
-    record("O2 consumption per kg, 70 kg (Brody)", per_kg, "3.0 +- 0.5", "Lieberman et al., Anesthesiology 2000;92:407",
-           "within 1 SD (2.5-3.5)", 2.5 <= per_kg <= 3.5, "mL/kg/min")
+    record(
+        "O2 consumption per kg, 70 kg (Brody)",
+        per_kg,
+        "3.0 +- 0.5",
+        "Lieberman et al., Anesthesiology 2000;92:407",
+        "within 1 SD (2.5-3.5)",
+        2.5 <= per_kg <= 3.5,
+        "mL/kg/min",
+    )
     assert 2.5 <= per_kg <= 3.5
 
 
@@ -65,8 +93,15 @@ def test_kleiber_cross_check(kg):
     # mL/min is 10 x 1440 / 1000 x 4.825 = 69.5 kcal/day x kg^0.75. Kleiber's 70 is rounded and the
     # energy equivalent varies 4.7-5.05 kcal/L with RQ: 3 %.
     kcal_per_day = brody_oxygen_consumption(kg) * 1440.0 / 1000.0 * 4.825
-    record(f"basal metabolic rate from Brody VO2, {kg:g} kg", kcal_per_day, 70.0 * kg**0.75,
-           "Kleiber 1947 (from memory)", "rel 3 %", kcal_per_day == pytest.approx(70.0 * kg**0.75, rel=0.03), "kcal/day")
+    record(
+        f"basal metabolic rate from Brody VO2, {kg:g} kg",
+        kcal_per_day,
+        70.0 * kg**0.75,
+        "Kleiber 1947 (from memory)",
+        "rel 3 %",
+        kcal_per_day == pytest.approx(70.0 * kg**0.75, rel=0.03),
+        "kcal/day",
+    )
     assert kcal_per_day == pytest.approx(70.0 * kg**0.75, rel=0.03)
 
 
@@ -77,13 +112,18 @@ def test_alveolar_ventilation_equation(vco2, paco2):
     # water vapour cancels). The code's 0.863 is this rounded to 3 figures: rel 1e-4.
     k = 760.0 * 310.15 / 273.15 / 1000.0
     va = alveolar_ventilation(vco2, paco2)
-    record(f"alveolar ventilation, VCO2 {vco2:g} mL/min, PaCO2 {paco2:g} mmHg", va, vco2 * k / paco2,
-           "West, Respiratory Physiology (alveolar ventilation equation)", "rel 1e-4",
-           va == pytest.approx(vco2 * k / paco2, rel=1e-4), "L/min BTPS")
+    record(
+        f"alveolar ventilation, VCO2 {vco2:g} mL/min, PaCO2 {paco2:g} mmHg",
+        va,
+        vco2 * k / paco2,
+        "West, Respiratory Physiology (alveolar ventilation equation)",
+        "rel 1e-4",
+        va == pytest.approx(vco2 * k / paco2, rel=1e-4),
+        "L/min BTPS",
+    )
     assert alveolar_ventilation(vco2, paco2) == pytest.approx(vco2 * k / paco2, rel=1e-4)
     p = patient_parameters("70 kg", target_paco2=f"{paco2} mmHg")
-    assert p.alveolar_ventilation.to("L/min").magnitude == pytest.approx(
-        8 * 70**0.75 * k / paco2, rel=1e-4)
+    assert p.alveolar_ventilation.to("L/min").magnitude == pytest.approx(8 * 70**0.75 * k / paco2, rel=1e-4)
 
 
 def test_alveolar_ventilation_rejects_zero_paco2():

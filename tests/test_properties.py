@@ -42,18 +42,21 @@ def test_good_document_loads_with_units():
     assert recs["blood_gas"].value == 0.5 and recs["mac40"].note == "example"
 
 
-@pytest.mark.parametrize("line,message", [
-    ('density = { value = "1.5 g/mL", confidence = "V" }', "no source"),
-    ('density = { value = "1.5 g/mL", source = "", confidence = "V" }', "no source"),
-    ('density = { value = "1.5 g/mL", source = "nowhere", confidence = "V" }', "unknown source"),
-    ('density = { value = "1.5 g/mL", source = "book", confidence = "X" }', "confidence"),
-    ('density = { value = "1.5 g/mL", source = "book" }', "confidence"),
-    ('density = { value = "1.5 blargs", source = "book", confidence = "V" }', "unparsable"),
-    ('density = { value = "one g/mL", source = "book", confidence = "V" }', "unparsable"),
-    ('density = { value = true, source = "book", confidence = "V" }', "number or a unit"),
-    ('density = "1.5 g/mL"', "expected"),
-    ('density = { value = "1.5 g/mL", source = "book", confidence = "V", by = "me" }', "unknown keys"),
-])
+@pytest.mark.parametrize(
+    "line,message",
+    [
+        ('density = { value = "1.5 g/mL", confidence = "V" }', "no source"),
+        ('density = { value = "1.5 g/mL", source = "", confidence = "V" }', "no source"),
+        ('density = { value = "1.5 g/mL", source = "nowhere", confidence = "V" }', "unknown source"),
+        ('density = { value = "1.5 g/mL", source = "book", confidence = "X" }', "confidence"),
+        ('density = { value = "1.5 g/mL", source = "book" }', "confidence"),
+        ('density = { value = "1.5 blargs", source = "book", confidence = "V" }', "unparsable"),
+        ('density = { value = "one g/mL", source = "book", confidence = "V" }', "unparsable"),
+        ('density = { value = true, source = "book", confidence = "V" }', "number or a unit"),
+        ('density = "1.5 g/mL"', "expected"),
+        ('density = { value = "1.5 g/mL", source = "book", confidence = "V", by = "me" }', "unknown keys"),
+    ],
+)
 def test_bad_records_are_refused(line, message):
     with pytest.raises(DataError, match=message):
         validate_records(doc(line + "\n"))
@@ -90,8 +93,9 @@ def test_shipped_units_have_the_right_dimensions():
         assert isinstance(sp.vapour_pressure_20c, pint.Quantity) and sp.vapour_pressure_20c.check("[pressure]")
 
 
-@pytest.mark.parametrize("name,mw", [("sevoflurane", 200.05), ("isoflurane", 184.49), ("desflurane", 168.04),
-                                     ("halothane", 197.38)])
+@pytest.mark.parametrize(
+    "name,mw", [("sevoflurane", 200.05), ("isoflurane", 184.49), ("desflurane", 168.04), ("halothane", 197.38)]
+)
 def test_molar_masses_from_formula(name, mw):
     # IUPAC 2013 standard atomic weights (abridged, from memory): C 12.011, H 1.008, F 18.998,
     # O 15.999, Cl 35.45, Br 79.904. Sum over the formula in the data file; rel 1e-3 covers

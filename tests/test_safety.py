@@ -35,11 +35,22 @@ def test_floor_matches_derived_steady_state_oxygen_balance():
     # not what binds) is that FGF rounded up: within 0.01 L/min plus 2 % (residual
     # nitrogen release from the fat group after 24 h, and the O2 fraction of air lumped with N2/Ar).
     thr = 0.40
-    sc = scenario("sevoflurane", [{"duration": "1440 min", "oxygen_fraction": "60 %", "total_flow": "1 L/min",
-                                   "balance": "air", "vaporizer": "0 %"}],
-                  flow_floor={"threshold_inspired_oxygen": str(thr), "scale": FINE_SCALE},
-                  output={"interval": "10 min"}, circuit={"initial": "oxygen"},
-                  patient={"weight": "70 kg", "initial": "preoxygenated"})
+    sc = scenario(
+        "sevoflurane",
+        [
+            {
+                "duration": "1440 min",
+                "oxygen_fraction": "60 %",
+                "total_flow": "1 L/min",
+                "balance": "air",
+                "vaporizer": "0 %",
+            }
+        ],
+        flow_floor={"threshold_inspired_oxygen": str(thr), "scale": FINE_SCALE},
+        output={"interval": "10 min"},
+        circuit={"initial": "oxygen"},
+        patient={"weight": "70 kg", "initial": "preoxygenated"},
+    )
     res = flow_floor(sc, grid=False)
     from estimator.engine import patient_from_scenario
 
@@ -51,9 +62,15 @@ def test_floor_matches_derived_steady_state_oxygen_balance():
     f = 0.60
     r_star = (vi * thr - vo2) / (vi * (1 - thr))
     fgf = vo2 / (f - r_star * (1 - f))
-    record("flow floor for FiO2 0.40 with 60 % O2 in air, 24 h (engine)", floor_of(res), fgf,
-           "steady-state O2 balance (derived here)", "rel 2 % + 0.011 L/min",
-           floor_of(res) == pytest.approx(fgf, rel=0.02, abs=0.011), "L/min")
+    record(
+        "flow floor for FiO2 0.40 with 60 % O2 in air, 24 h (engine)",
+        floor_of(res),
+        fgf,
+        "steady-state O2 balance (derived here)",
+        "rel 2 % + 0.011 L/min",
+        floor_of(res) == pytest.approx(fgf, rel=0.02, abs=0.011),
+        "L/min",
+    )
     assert res.phases[0]["binding"] == "INSPIRED_O2"
     assert floor_of(res) == pytest.approx(fgf, rel=0.02, abs=0.011)
 
@@ -61,18 +78,26 @@ def test_floor_matches_derived_steady_state_oxygen_balance():
 def test_floor_never_below_metabolic_flow():
     # The floor can never be below O2 consumption plus agent and N2O uptake (gas balance; Baum and
     # Aitkenhead 1995 call this metabolic flow, about 0.25 L/min for an adult).
-    sc = scenario("sevoflurane", [{"duration": "60 min", "oxygen": "1 L/min", "nitrous_oxide": "1 L/min",
-                                   "end_tidal_target": "1 MAC"}],
-                  flow_floor={"threshold_inspired_oxygen": "0.25", "scale": FINE_SCALE})
+    sc = scenario(
+        "sevoflurane",
+        [{"duration": "60 min", "oxygen": "1 L/min", "nitrous_oxide": "1 L/min", "end_tidal_target": "1 MAC"}],
+        flow_floor={"threshold_inspired_oxygen": "0.25", "scale": FINE_SCALE},
+    )
     res = flow_floor(sc, grid=False)
     from estimator.engine import simulate
 
     plan = simulate(sc)
     s = plan.series
     metabolic = (s["oxygen_uptake [mL/min]"] + s["agent_uptake [mL/min]"] + s["nitrous_oxide_uptake [mL/min]"]).max()
-    record("flow floor vs peak metabolic flow (O2 + agent + N2O uptake)", floor_of(res) * 1000, metabolic,
-           "gas balance; Baum & Aitkenhead 1995 (metabolic flow)", "floor >= 0.9 x metabolic",
-           floor_of(res) * 1000 >= 0.9 * metabolic, "mL/min")
+    record(
+        "flow floor vs peak metabolic flow (O2 + agent + N2O uptake)",
+        floor_of(res) * 1000,
+        metabolic,
+        "gas balance; Baum & Aitkenhead 1995 (metabolic flow)",
+        "floor >= 0.9 x metabolic",
+        floor_of(res) * 1000 >= 0.9 * metabolic,
+        "mL/min",
+    )
     assert floor_of(res) * 1000 >= 0.9 * metabolic  # uptake falls as the phase goes on; 10 % for that
 
 
@@ -81,7 +106,9 @@ def test_floor_never_below_metabolic_flow():
 def test_higher_threshold_never_lowers_floor(thr, step_up):
     ph = [{"duration": "40 min", "oxygen": "0.5 L/min", "air": "0.5 L/min", "vaporizer": "1 %"}]
     a = flow_floor(scenario("sevoflurane", ph, flow_floor={"threshold_inspired_oxygen": f"{thr}"}), grid=False)
-    b = flow_floor(scenario("sevoflurane", ph, flow_floor={"threshold_inspired_oxygen": f"{thr + step_up}"}), grid=False)
+    b = flow_floor(
+        scenario("sevoflurane", ph, flow_floor={"threshold_inspired_oxygen": f"{thr + step_up}"}), grid=False
+    )
     assert floor_of(b) >= floor_of(a)
 
 
@@ -111,10 +138,13 @@ def test_leak_or_unreturned_sampling_never_lowers_floor(leak, more, sampling):
 
 @pytest.fixture(scope="module")
 def planned():
-    sc = scenario("sevoflurane", [
-        {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", "end_tidal_target": "1 MAC"},
-        {"duration": "50 min", "oxygen": "0.6 L/min", "air": "0.4 L/min", "end_tidal_target": "1 MAC"},
-    ])
+    sc = scenario(
+        "sevoflurane",
+        [
+            {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", "end_tidal_target": "1 MAC"},
+            {"duration": "50 min", "oxygen": "0.6 L/min", "air": "0.4 L/min", "end_tidal_target": "1 MAC"},
+        ],
+    )
     return flow_floor(sc)
 
 
@@ -124,11 +154,27 @@ def test_flow_classes_and_settable_rounding(planned):
     scale = settable_values([(1.0, 0.1), (15.0, 0.5)])
     for ph in planned.phases:
         total = ph["floor"].to("L/min").magnitude
-        expected = ("metabolic" if total <= 0.25 else "minimal" if total <= 0.5 else "low" if total <= 1
-                    else "medium" if total <= 2 else "high" if total <= 4 else "very high")
-        record(f"flow class of a {total:g} L/min floor", ph["flow_class"].split(" (")[0], expected + " flow",
-               "Brattwall et al., Can J Anesth 2012;59:785, Table 1", "class name",
-               ph["flow_class"].startswith(expected + " flow"))
+        expected = (
+            "metabolic"
+            if total <= 0.25
+            else "minimal"
+            if total <= 0.5
+            else "low"
+            if total <= 1
+            else "medium"
+            if total <= 2
+            else "high"
+            if total <= 4
+            else "very high"
+        )
+        record(
+            f"flow class of a {total:g} L/min floor",
+            ph["flow_class"].split(" (")[0],
+            expected + " flow",
+            "Brattwall et al., Can J Anesth 2012;59:785, Table 1",
+            "class name",
+            ph["flow_class"].startswith(expected + " flow"),
+        )
         assert ph["flow_class"].startswith(expected + " flow") and "Brattwall" in ph["flow_class"]
     for s in planned.schedule:
         for gas in ("oxygen", "air", "nitrous_oxide"):
@@ -139,8 +185,17 @@ def test_flow_classes_and_settable_rounding(planned):
 def test_floor_report_shape_and_schedule(planned):
     assert [p["index"] for p in planned.phases] == [0, 1]
     for ph in planned.phases:
-        assert ph["binding"] in ("INSPIRED_O2", "GAS_BALANCE", "TARGET_REACH", "TARGET_HOLD", "FLOWMETER_MINIMUM",
-                                 "BASAL_O2", "O2_PROPORTION", "FLOWMETER_RANGE", "LABEL_SEVOFLURANE_US")
+        assert ph["binding"] in (
+            "INSPIRED_O2",
+            "GAS_BALANCE",
+            "TARGET_REACH",
+            "TARGET_HOLD",
+            "FLOWMETER_MINIMUM",
+            "BASAL_O2",
+            "O2_PROPORTION",
+            "FLOWMETER_RANGE",
+            "LABEL_SEVOFLURANE_US",
+        )
         assert ph["binding"] not in ph["margins"]
     assert planned.phases[0]["floor"] <= planned.phases[0]["planned_total"]
     times = [g["time"].to("min").magnitude for g in planned.grid]
@@ -162,8 +217,15 @@ def test_label_policy_raises_sevoflurane_floor_to_one_litre():
     # Sevoflurane US label: fresh gas below 1 L/min not recommended (REFERENCES sec. 11).
     ph = [{"duration": "60 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"}]
     res = flow_floor(scenario("sevoflurane", ph, flow_floor={"policies": ["sevoflurane_us_label"]}), grid=False)
-    record("sevoflurane flow floor under the US-label policy", floor_of(res), ">= 1.0",
-           "sevoflurane US label (REFERENCES sec. 11)", "at least 1 L/min", floor_of(res) >= 1.0, "L/min")
+    record(
+        "sevoflurane flow floor under the US-label policy",
+        floor_of(res),
+        ">= 1.0",
+        "sevoflurane US label (REFERENCES sec. 11)",
+        "at least 1 L/min",
+        floor_of(res) >= 1.0,
+        "L/min",
+    )
     assert floor_of(res) >= 1.0
     assert "LABEL_RULE_BREACHED" in [c for c, _ in res.warnings]
 

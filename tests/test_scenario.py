@@ -106,9 +106,13 @@ def test_vaporizer_above_agent_maximum_is_an_error():
 
 
 @settings(max_examples=60, deadline=None)
-@given(st.dictionaries(st.sampled_from(["weight", "age", "frc", "oxygen_consumption", "bogus"]),
-                       st.one_of(st.text(max_size=12), st.floats(allow_nan=True), st.integers(), st.booleans()),
-                       min_size=1))
+@given(
+    st.dictionaries(
+        st.sampled_from(["weight", "age", "frc", "oxygen_consumption", "bogus"]),
+        st.one_of(st.text(max_size=12), st.floats(allow_nan=True), st.integers(), st.booleans()),
+        min_size=1,
+    )
+)
 def test_fuzzed_patient_tables_give_input_errors_only(patient):
     # Hardening: any garbage gives an InputError (or loads), never another exception.
     d = base()
@@ -125,14 +129,31 @@ def test_cli_case_json_contract(tmp_path, capsys):
     csv = tmp_path / "series.csv"
     assert cli(["case", str(f), "--json", "--csv", str(csv)]) == 0
     out = json.loads(capsys.readouterr().out)
-    for key in ("duration", "agent_liquid", "agent_vapour", "agent_uptake", "agent_vented", "oxygen", "air",
-                "nitrous_oxide", "co2_absorbed", "co2e", "mac_hours"):
+    for key in (
+        "duration",
+        "agent_liquid",
+        "agent_vapour",
+        "agent_uptake",
+        "agent_vented",
+        "oxygen",
+        "air",
+        "nitrous_oxide",
+        "co2_absorbed",
+        "co2e",
+        "mac_hours",
+    ):
         assert set(out["totals"][key]) == {"magnitude", "units"}, key
     assert set(out["minimum_inspired_oxygen"]) == {"magnitude", "units"}
     series = out["series"]
     n = len(series["time"])
-    for key in ("inspired_oxygen", "end_tidal_agent", "inspired_agent", "end_tidal_mac", "vaporizer_setting",
-                "fresh_gas_flow"):
+    for key in (
+        "inspired_oxygen",
+        "end_tidal_agent",
+        "inspired_agent",
+        "end_tidal_mac",
+        "vaporizer_setting",
+        "fresh_gas_flow",
+    ):
         assert len(series[key]) == n and key in series["units"]
     assert "15 degC" in out["gas_volume_reference"]
     assert isinstance(out["warnings"], list)

@@ -19,16 +19,21 @@ from estimator.site import (
 from estimator.units import Q_
 
 
-@pytest.mark.parametrize("height,kpa", [(0, 101.325), (1000, 89.875), (3000, 70.109), (5000, 54.020),
-                                        (11000, 22.632)])
+@pytest.mark.parametrize("height,kpa", [(0, 101.325), (1000, 89.875), (3000, 70.109), (5000, 54.020), (11000, 22.632)])
 def test_pressure_against_iso2533_table(height, kpa):
     # ISO 2533:1975 / ICAO Doc 7488/3 tables by geopotential height (from memory; the same numbers
     # are quoted in the project's brief). The tables give 5 significant figures, so 0.6 Pa is
     # the rounding half-step plus a little.
     p, _ = standard_atmosphere(Q_(height, "m"), geopotential=True)
-    record(f"standard atmosphere pressure at {height} m geopotential", p.to("kPa").magnitude, kpa,
-           "ISO 2533:1975 / ICAO Doc 7488/3 table (from memory)", "abs 0.6 Pa",
-           p.to("kPa").magnitude == pytest.approx(kpa, abs=6e-4), "kPa")
+    record(
+        f"standard atmosphere pressure at {height} m geopotential",
+        p.to("kPa").magnitude,
+        kpa,
+        "ISO 2533:1975 / ICAO Doc 7488/3 table (from memory)",
+        "abs 0.6 Pa",
+        p.to("kPa").magnitude == pytest.approx(kpa, abs=6e-4),
+        "kPa",
+    )
     assert p.to("kPa").magnitude == pytest.approx(kpa, abs=6e-4)
 
 
@@ -37,9 +42,15 @@ def test_pressure_against_geometric_table(height, pa):
     # U.S. Standard Atmosphere 1976 (NOAA/NASA/USAF), table by geometric altitude, identical to
     # ISO 2533 below 32 km (from memory). 5 significant figures: half-step 5 Pa.
     p, _ = standard_atmosphere(Q_(height, "m"))
-    record(f"standard atmosphere pressure at {height} m geometric", p.to("Pa").magnitude, pa,
-           "U.S. Standard Atmosphere 1976 table (from memory)", "abs 5 Pa",
-           p.to("Pa").magnitude == pytest.approx(pa, abs=5.0), "Pa")
+    record(
+        f"standard atmosphere pressure at {height} m geometric",
+        p.to("Pa").magnitude,
+        pa,
+        "U.S. Standard Atmosphere 1976 table (from memory)",
+        "abs 5 Pa",
+        p.to("Pa").magnitude == pytest.approx(pa, abs=5.0),
+        "Pa",
+    )
     assert p.to("Pa").magnitude == pytest.approx(pa, abs=5.0)
 
 
@@ -97,8 +108,10 @@ def test_pressure_inconsistent_with_elevation_is_an_error(pressure):
     assert "site.ambient_pressure" in str(err.value) and "kPa" in str(err.value)
 
 
-@pytest.mark.parametrize("kw", [{"ambient_pressure": "0 kPa"}, {"ambient_pressure": "250 kPa"},
-                                {"temperature": "70 degC"}, {"elevation": "3 kg"}])
+@pytest.mark.parametrize(
+    "kw",
+    [{"ambient_pressure": "0 kPa"}, {"ambient_pressure": "250 kPa"}, {"temperature": "70 degC"}, {"elevation": "3 kg"}],
+)
 def test_bad_values_are_errors(kw):
     with pytest.raises(InputError):
         site_from_inputs(**kw)
@@ -116,8 +129,15 @@ def test_water_vapour_at_37c_against_coolprop():
     svp = CP.PropsSI("P", "T", 310.15, "Q", 0, "Water") / 1000.0
     dry = inspired_oxygen_partial_pressure(1.0, Q_(101.325, "kPa"), water_vapour=False).magnitude
     wet = inspired_oxygen_partial_pressure(1.0, Q_(101.325, "kPa")).magnitude
-    record("water vapour pressure at 37 degC used for PiO2", dry - wet, svp, "CoolProp (IAPWS-95 water)", "rel 0.5 %",
-           dry - wet == pytest.approx(svp, rel=5e-3), "kPa")
+    record(
+        "water vapour pressure at 37 degC used for PiO2",
+        dry - wet,
+        svp,
+        "CoolProp (IAPWS-95 water)",
+        "rel 0.5 %",
+        dry - wet == pytest.approx(svp, rel=5e-3),
+        "kPa",
+    )
     assert dry - wet == pytest.approx(svp, rel=5e-3)
 
 
@@ -125,9 +145,15 @@ def test_inspired_oxygen_at_sea_level_west():
     # West JB, Respiratory Physiology: PiO2 = 0.2093 x (760 - 47) = 149 mmHg (from memory);
     # 0.5 mmHg covers the rounding of the textbook figure.
     pio2 = inspired_oxygen_partial_pressure(0.2093, Q_(760, "mmHg"))
-    record("PiO2 breathing air at sea level", pio2.to("mmHg").magnitude, 149.0,
-           "West, Respiratory Physiology (from memory)", "abs 0.5 mmHg",
-           pio2.to("mmHg").magnitude == pytest.approx(149.0, abs=0.5), "mmHg")
+    record(
+        "PiO2 breathing air at sea level",
+        pio2.to("mmHg").magnitude,
+        149.0,
+        "West, Respiratory Physiology (from memory)",
+        "abs 0.5 mmHg",
+        pio2.to("mmHg").magnitude == pytest.approx(149.0, abs=0.5),
+        "mmHg",
+    )
     assert pio2.to("mmHg").magnitude == pytest.approx(149.0, abs=0.5)
 
 

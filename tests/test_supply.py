@@ -29,12 +29,23 @@ class StandIn:
 
     totals: dict
     warnings: list = field(default_factory=list)
-    scenario: object = field(default_factory=lambda: SimpleNamespace(
-        agent=SimpleNamespace(name="sevoflurane"), patient=SimpleNamespace(weight=Q_(70, "kg"), age=Q_(40, "year"))))
+    scenario: object = field(
+        default_factory=lambda: SimpleNamespace(
+            agent=SimpleNamespace(name="sevoflurane"), patient=SimpleNamespace(weight=Q_(70, "kg"), age=Q_(40, "year"))
+        )
+    )
 
 
-CASE = StandIn({"duration": Q_(90, "min"), "oxygen": Q_(60, "L"), "air": Q_(20, "L"),
-                "nitrous_oxide": Q_(0, "L"), "agent_liquid": Q_(12, "mL"), "co2_absorbed": Q_(18, "L")})
+CASE = StandIn(
+    {
+        "duration": Q_(90, "min"),
+        "oxygen": Q_(60, "L"),
+        "air": Q_(20, "L"),
+        "nitrous_oxide": Q_(0, "L"),
+        "agent_liquid": Q_(12, "mL"),
+        "co2_absorbed": Q_(18, "L"),
+    }
+)
 
 
 def runner(path):
@@ -43,8 +54,17 @@ def runner(path):
 
 def usable_o2(bar, reserve=10.0):
     """Usable free-gas litres of a 10 L oxygen cylinder at 15 degC, from CoolProp directly."""
+
     def litres(p):
-        return PropsSI("Dmolar", "T", 288.15, "P", p * 1e5 + 101325, "Oxygen") * 0.010 * 8.314462618 * 288.15 / 101325 * 1000
+        return (
+            PropsSI("Dmolar", "T", 288.15, "P", p * 1e5 + 101325, "Oxygen")
+            * 0.010
+            * 8.314462618
+            * 288.15
+            / 101325
+            * 1000
+        )
+
     return litres(bar) - litres(reserve)
 
 
@@ -74,7 +94,9 @@ def test_cylinders_of_one_gas_are_used_one_after_another():
 
 
 def test_bottleneck_is_the_minimum_and_unused_item_is_not_a_division_error():
-    text = O2.format(name="A", bar=200) + """
+    text = (
+        O2.format(name="A", bar=200)
+        + """
 [[bottles]]
 agent = "sevoflurane"
 count = 1
@@ -91,6 +113,7 @@ co2_per_100g = "12 L"
 [supply]
 ignore = ["air"]
 """
+    )
     r = plan_supply(load_inventory(text), start=START, runner=runner)
     by = {i.name: i for i in r.items}
     iso = by["isoflurane bottles 2"]
@@ -129,9 +152,13 @@ ignore = ["oxygen", "air", "absorbent"]
 
 
 def test_no_stock_for_a_used_agent_fails_on_the_first_case():
-    r = plan_supply(load_inventory('[[demand.cases]]\nscenario = "x.toml"\nper_day = 1\n'
-                                   '[supply]\nignore = ["oxygen", "air", "absorbent"]\n'),
-                    start=START, runner=runner)
+    r = plan_supply(
+        load_inventory(
+            '[[demand.cases]]\nscenario = "x.toml"\nper_day = 1\n[supply]\nignore = ["oxygen", "air", "absorbent"]\n'
+        ),
+        start=START,
+        runner=runner,
+    )
     assert r.bottleneck_supply == "sevoflurane"
     assert r.days_of_supply.to("h").magnitude == pytest.approx(8.0)  # the case starts at 08:00
     codes = {c for c, _ in r.warnings}
@@ -139,7 +166,9 @@ def test_no_stock_for_a_used_agent_fails_on_the_first_case():
 
 
 def test_drive_gas_is_a_multiple_of_minute_ventilation():
-    text = O2.format(name="A", bar=200) + """
+    text = (
+        O2.format(name="A", bar=200)
+        + """
 [[demand.cases]]
 scenario = "x.toml"
 per_day = 1
@@ -150,6 +179,7 @@ minute_ventilation = "6 L/min"
 [supply]
 ignore = ["sevoflurane", "air", "absorbent"]
 """
+    )
     r = plan_supply(load_inventory(text), start=START, runner=runner)
     # Klemenzson and Perouansky 2004: bellows drive gas = multiplier x minute ventilation.
     assert r.items[0].draw_per_day.to("L/day").magnitude == pytest.approx(60 + 1.5 * 6 * 90)
@@ -159,7 +189,9 @@ ignore = ["sevoflurane", "air", "absorbent"]
 
 
 def test_concentrator_first_then_cylinders():
-    text = O2.format(name="A", bar=200) + """
+    text = (
+        O2.format(name="A", bar=200)
+        + """
 [[concentrators]]
 rated_flow = "5 L/min"
 hours_per_day = "12 h"
@@ -169,6 +201,7 @@ purity = "93 %"
 gas = "oxygen"
 flow = "2 L/min"
 """
+    )
     r = plan_supply(load_inventory(text), start=START)
     cyl, conc = r.items[0], r.items[1]
     # The concentrator covers 12 of 24 h: cylinders draw 2 L/min x 12 h = 1440 L/day.
@@ -181,7 +214,9 @@ flow = "2 L/min"
 
 
 def test_cylinders_first_then_concentrator_backs_them_up():
-    text = O2.format(name="A", bar=137) + """
+    text = (
+        O2.format(name="A", bar=137)
+        + """
 [supply]
 priority = ["pipelines", "cylinders", "concentrators"]
 [[concentrators]]
@@ -190,6 +225,7 @@ rated_flow = "10 L/min"
 gas = "oxygen"
 flow = "2 L/min"
 """
+    )
     r = plan_supply(load_inventory(text), start=START)
     assert r.items[0].runtime.magnitude == pytest.approx(usable_o2(137) / 2880)
     assert r.bottleneck is None and r.days_of_supply is None
@@ -214,25 +250,38 @@ flow = "5 L/min"
 
 
 def test_pipeline_meets_demand_and_backup_is_not_used():
-    text = O2.format(name="backup", bar=200) + '[[pipelines]]\ngas = "oxygen"\n' \
+    text = (
+        O2.format(name="backup", bar=200) + '[[pipelines]]\ngas = "oxygen"\n'
         '[[demand.continuous]]\ngas = "oxygen"\nflow = "3 L/min"\n'
+    )
     r = plan_supply(load_inventory(text), start=START)
     assert r.items[0].status == "not used" and r.bottleneck is None
-    r2 = plan_supply(load_inventory(text.replace('gas = "oxygen"\n[[demand', 'gas = "oxygen"\navailable = false\n[[demand')),
-                     start=START)
+    r2 = plan_supply(
+        load_inventory(text.replace('gas = "oxygen"\n[[demand', 'gas = "oxygen"\navailable = false\n[[demand')),
+        start=START,
+    )
     assert r2.bottleneck == "backup"
 
 
-@pytest.mark.parametrize("text,field", [
-    (O2.format(name="A", bar=137).replace("pressure =", "pressur ="), "cylinders[0].pressur"),
-    (O2.format(name="A", bar=137) + '[[cylinders]]\ngas = "nitrous_oxide"\ngross_weight = "5 kg"\ntare_weight = "6 kg"\n',
-     "cylinders[1].tare_weight"),
-    (O2.format(name="A", bar=137).replace('"10 bar"', '"10 bar"\ncount = -2'), "cylinders[0].count"),
-    (O2.format(name="A", bar=137).replace('"oxygen"', '"helium"'), "cylinders[0].gas"),
-    (O2.format(name="A", bar=250).replace('"10 bar"', '"10 bar"\nservice_pressure = "200 bar"'), "cylinders[0].pressure"),
-    ('[[bottles]]\nagent = "ether"\n', "bottles[0].agent"),
-    ('[plan]\nstart = "next monday"\n', "plan.start"),
-])
+@pytest.mark.parametrize(
+    "text,field",
+    [
+        (O2.format(name="A", bar=137).replace("pressure =", "pressur ="), "cylinders[0].pressur"),
+        (
+            O2.format(name="A", bar=137)
+            + '[[cylinders]]\ngas = "nitrous_oxide"\ngross_weight = "5 kg"\ntare_weight = "6 kg"\n',
+            "cylinders[1].tare_weight",
+        ),
+        (O2.format(name="A", bar=137).replace('"10 bar"', '"10 bar"\ncount = -2'), "cylinders[0].count"),
+        (O2.format(name="A", bar=137).replace('"oxygen"', '"helium"'), "cylinders[0].gas"),
+        (
+            O2.format(name="A", bar=250).replace('"10 bar"', '"10 bar"\nservice_pressure = "200 bar"'),
+            "cylinders[0].pressure",
+        ),
+        ('[[bottles]]\nagent = "ether"\n', "bottles[0].agent"),
+        ('[plan]\nstart = "next monday"\n', "plan.start"),
+    ],
+)
 def test_bad_input_names_the_field(text, field):
     with pytest.raises(InputError) as err:
         plan_supply(load_inventory(text), start=None if "plan" in text else START)
@@ -243,10 +292,12 @@ def test_site_elevation_lowers_the_ambient_pressure():
     text = O2.format(name="A", bar=137)
     low = plan_supply(load_inventory(text), start=START).items[0].usable
     high = plan_supply(load_inventory('[site]\nambient_pressure = "70 kPa"\n' + text), start=START).items[0].usable
+
     # The same gauge readings at 70 kPa ambient are 31.3 kPa less absolute pressure, both at the
     # reading and at the reserve (gauge + ambient), computed here from CoolProp directly.
     def litres(p_pa):
         return PropsSI("Dmolar", "T", 288.15, "P", p_pa, "Oxygen") * 0.010 * 8.314462618 * 288.15 / 101325 * 1000
+
     assert low.magnitude == pytest.approx(usable_o2(137), rel=1e-9)
     assert high.magnitude == pytest.approx(litres(137e5 + 70e3) - litres(10e5 + 70e3), rel=1e-9)
     by_elevation = plan_supply(load_inventory('[site]\nelevation = "3000 m"\n' + text), start=START).items[0].usable
@@ -254,11 +305,21 @@ def test_site_elevation_lowers_the_ambient_pressure():
 
 
 def test_json_keys():
-    r = plan_supply(load_inventory(O2.format(name="A", bar=137) + '[[demand.continuous]]\ngas = "oxygen"\nflow = "1 L/min"\n'),
-                    start=START)
+    r = plan_supply(
+        load_inventory(O2.format(name="A", bar=137) + '[[demand.continuous]]\ngas = "oxygen"\nflow = "1 L/min"\n'),
+        start=START,
+    )
     j = r.to_json()
-    for key in ("items", "bottleneck", "days_of_supply", "cases_possible", "reorder_by", "depletion",
-                "warnings", "gas_volume_reference"):
+    for key in (
+        "items",
+        "bottleneck",
+        "days_of_supply",
+        "cases_possible",
+        "reorder_by",
+        "depletion",
+        "warnings",
+        "gas_volume_reference",
+    ):
         assert key in j
     assert set(j["items"][0]) >= {"name", "kind", "usable", "runtime"}
     assert j["depletion"]["units"] == {"A": "L"} and len(j["depletion"]["remaining"]["A"]) == len(j["depletion"]["day"])

@@ -42,9 +42,14 @@ def test_heated_pressurised_needs_dial_raised_by_p0_over_p():
     f = delivered_fraction(0.06, "heated_pressurised", P3000)
     assert f == pytest.approx(0.06, rel=1e-15)
     s = dial_for_target("1 MAC", "6.0 %", "heated_pressurised", P3000, "desflurane")
-    record("heated pressurised dial for 1 MAC desflurane at 3000 m", s.dial.to("").magnitude, 0.06 * 101.325 / 70.121,
-           "Dalton's law, p0/p (common practice, no source)", "rel 1e-12",
-           s.dial.to("").magnitude == pytest.approx(0.06 * 101.325 / 70.121, rel=1e-12))
+    record(
+        "heated pressurised dial for 1 MAC desflurane at 3000 m",
+        s.dial.to("").magnitude,
+        0.06 * 101.325 / 70.121,
+        "Dalton's law, p0/p (common practice, no source)",
+        "rel 1e-12",
+        s.dial.to("").magnitude == pytest.approx(0.06 * 101.325 / 70.121, rel=1e-12),
+    )
     assert s.dial.to("").magnitude == pytest.approx(0.06 * 101.325 / 70.121, rel=1e-12)
     assert s.partial_pressure.to("kPa").magnitude == pytest.approx(0.06 * 101.325, rel=1e-12)
     assert s.warnings == ()
@@ -67,9 +72,14 @@ def test_inlet_control_against_chamber_mass_balance():
         lo, hi = (mid, hi) if output(mid, 101.325) < 0.02 else (lo, mid)
     expected = output(lo, 70.121)
     got = delivered_fraction(0.02, "variable_bypass", P3000, "sevoflurane", control="inlet")
-    record("inlet-controlled vaporizer at 3000 m, dial 2 % sevoflurane", got, expected,
-           "chamber mass balance, SVP 20.9 kPa (Biro 2014), derived here", "rel 1e-9",
-           got == pytest.approx(expected, rel=1e-9))
+    record(
+        "inlet-controlled vaporizer at 3000 m, dial 2 % sevoflurane",
+        got,
+        expected,
+        "chamber mass balance, SVP 20.9 kPa (Biro 2014), derived here",
+        "rel 1e-9",
+        got == pytest.approx(expected, rel=1e-9),
+    )
     assert got == pytest.approx(expected, rel=1e-9)
     assert got * 70.121 > 0.02 * 101.325  # delivers more partial pressure than the outlet design
 
@@ -113,8 +123,15 @@ def test_desflurane_boils_in_a_variable_bypass_chamber_at_altitude():
     assert "heated_pressurised" in str(err.value)
 
 
-@pytest.mark.parametrize("args", [(1.2, "tec", P0), ("120 %", "variable_bypass", P0),
-                                  (0.02, "variable_bypass", Q_(10, "kPa")), (0.3, "variable_bypass", P0, "sevoflurane")])
+@pytest.mark.parametrize(
+    "args",
+    [
+        (1.2, "tec", P0),
+        ("120 %", "variable_bypass", P0),
+        (0.02, "variable_bypass", Q_(10, "kPa")),
+        (0.3, "variable_bypass", P0, "sevoflurane"),
+    ],
+)
 def test_bad_inputs(args):
     with pytest.raises(InputError):
         delivered_fraction(*args)

@@ -35,8 +35,9 @@ def _plain(value: Any) -> Any:
     return str(value)
 
 
-def record(quantity: str, computed: Any, published: Any, source: str, tolerance: str, passed: Any,
-           unit: str = "") -> None:
+def record(
+    quantity: str, computed: Any, published: Any, source: str, tolerance: str, passed: Any, unit: str = ""
+) -> None:
     """Append one reference check to the file named by ``LOWFLOW_VALIDATION_OUT`` (if it is set).
 
     Parameters

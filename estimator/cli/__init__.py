@@ -38,8 +38,9 @@ def _version(value: bool) -> None:
 
 @app.callback()
 def _root(
-    version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
-                                 help="Print the version and exit."),
+    version: bool = typer.Option(
+        False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
+    ),
 ) -> None:
     """Low-flow anaesthesia gas-consumption and cost estimator."""
 

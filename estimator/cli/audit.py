@@ -49,8 +49,9 @@ def _fmt(v: float, unit: str = "") -> str:
 def audit_command(
     log: str = typer.Argument(..., help="Audit log CSV (see the README for the columns and units)."),
     policy: str | None = typer.Option(None, "--policy", help="Low-flow policy TOML for the counterfactual."),
-    basis: str = typer.Option("ar6_gwp100", "--basis",
-                              help="CO2e basis: ar6_gwp100, ar6_gwp20, ar5_gwp100, sulbaek2012_gwp100."),
+    basis: str = typer.Option(
+        "ar6_gwp100", "--basis", help="CO2e basis: ar6_gwp100, ar6_gwp20, ar5_gwp100, sulbaek2012_gwp100."
+    ),
     prices: str | None = typer.Option(None, "--prices", help="Prices TOML ([prices] table)."),
     demo_prices: bool = typer.Option(False, "--demo-prices", help="Use the invented demo prices."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON document."),
@@ -58,10 +59,12 @@ def audit_command(
     xlsx: str | None = typer.Option(None, "--xlsx", help="Write an XLSX workbook."),
     csv_out: str | None = typer.Option(None, "--csv", help="Write the per-case table as CSV."),
     quadrature: str = typer.Option("hold", "--quadrature", help="hold (sample and hold) or trapezoid."),
-    maintenance_after: str = typer.Option("10 min", "--maintenance-after",
-                                          help="Maintenance starts this long after a case's first sample."),
-    manifold_loss: float = typer.Option(0.0, "--manifold-loss",
-                                        help="Share of piped N2O lost before use (0 for cylinders)."),
+    maintenance_after: str = typer.Option(
+        "10 min", "--maintenance-after", help="Maintenance starts this long after a case's first sample."
+    ),
+    manifold_loss: float = typer.Option(
+        0.0, "--manifold-loss", help="Share of piped N2O lost before use (0 for cylinders)."
+    ),
 ) -> None:
     """Fresh-gas audit: agent, gases, CO2e and cost per case, room and month, with KPIs."""
     from .. import exports
@@ -73,8 +76,14 @@ def audit_command(
     price_table = load_prices(Path(prices)) if prices is not None else (DEMO_PRICES if demo_prices else None)
     if not Path(log).is_file():
         raise InputError("LOG", log, "an existing CSV file")
-    result = audit(log, prices=price_table, basis=basis, quadrature=quadrature,
-                   maintenance_after=maintenance_after, manifold_loss=manifold_loss)
+    result = audit(
+        log,
+        prices=price_table,
+        basis=basis,
+        quadrature=quadrature,
+        maintenance_after=maintenance_after,
+        manifold_loss=manifold_loss,
+    )
     if policy is not None:
         from ..audit_policy import counterfactual
 
@@ -102,25 +111,35 @@ def _human(result, written: list[str]) -> None:
         echo(f"  ... {len(result.rejections) - 20} more rejected rows (see --json or the exports)")
     label = CO2E_BASES[result.basis][1]
     echo(f"Cases {t.get('cases', 0)}; duration {_fmt(t.get('duration_min', 0.0), 'min')}")
-    echo(f"Liquid agent {_fmt(t.get('agent_liquid_ml', 0.0), 'mL')}; O2 {_fmt(t.get('oxygen_l', 0.0), 'L')}, "
-         f"air {_fmt(t.get('air_l', 0.0), 'L')}, N2O {_fmt(t.get('nitrous_oxide_l', 0.0), 'L')}")
+    echo(
+        f"Liquid agent {_fmt(t.get('agent_liquid_ml', 0.0), 'mL')}; O2 {_fmt(t.get('oxygen_l', 0.0), 'L')}, "
+        f"air {_fmt(t.get('air_l', 0.0), 'L')}, N2O {_fmt(t.get('nitrous_oxide_l', 0.0), 'L')}"
+    )
     echo(f"CO2e {_fmt(t.get('co2e_kg', 0.0), 'kg')} ({label})")
     if result.currency is not None:
-        echo(f"Cost {_fmt(t.get('cost_total', 0.0))} {result.currency} (agent {_fmt(t.get('cost_agent', 0.0))}, "
-             f"gases {_fmt(t.get('cost_gases', 0.0))})")
-    echo(f"Mean maintenance flow {_fmt(k['mean_maintenance_flow_l_min'], 'L/min')} "
-         f"({k['mean_maintenance_flow_class'] or 'no maintenance time'}; after {k['maintenance_after_min']:g} min); "
-         f"time at <= 1 L/min {_fmt(100 * k['maintenance_share_le_1'], '%')}, "
-         f"<= 0.5 L/min {_fmt(100 * k['maintenance_share_le_0_5'], '%')}")
-    echo(f"MAC-hours {_fmt(k['mac_hours'])} ({k['cases_with_mac_hours']} cases; {k['cases_without_mac_hours']} "
-         f"without); CO2e per MAC-hour {_fmt(k['co2e_per_mac_hour_kg'], 'kg')}")
+        echo(
+            f"Cost {_fmt(t.get('cost_total', 0.0))} {result.currency} (agent {_fmt(t.get('cost_agent', 0.0))}, "
+            f"gases {_fmt(t.get('cost_gases', 0.0))})"
+        )
+    echo(
+        f"Mean maintenance flow {_fmt(k['mean_maintenance_flow_l_min'], 'L/min')} "
+        f"({k['mean_maintenance_flow_class'] or 'no maintenance time'}; after {k['maintenance_after_min']:g} min); "
+        f"time at <= 1 L/min {_fmt(100 * k['maintenance_share_le_1'], '%')}, "
+        f"<= 0.5 L/min {_fmt(100 * k['maintenance_share_le_0_5'], '%')}"
+    )
+    echo(
+        f"MAC-hours {_fmt(k['mac_hours'])} ({k['cases_with_mac_hours']} cases; {k['cases_without_mac_hours']} "
+        f"without); CO2e per MAC-hour {_fmt(k['co2e_per_mac_hour_kg'], 'kg')}"
+    )
     cf = result.counterfactual
     if cf:
         s = cf["totals"]["savings"]
-        echo(f"Policy '{cf['policy']['name']}' ({cf['totals']['cases']} cases re-run, {len(cf['skipped'])} skipped): "
-             f"saves {_fmt(s['agent_liquid']['magnitude'], 'mL')} agent, {_fmt(s['co2e']['magnitude'], 'kg')} CO2e"
-             + (f", {_fmt(s['cost']['total'])} {cf['currency']}" if "cost" in s else "")
-             + f" against the {cf['baseline']} baseline")
+        echo(
+            f"Policy '{cf['policy']['name']}' ({cf['totals']['cases']} cases re-run, {len(cf['skipped'])} skipped): "
+            f"saves {_fmt(s['agent_liquid']['magnitude'], 'mL')} agent, {_fmt(s['co2e']['magnitude'], 'kg')} CO2e"
+            + (f", {_fmt(s['cost']['total'])} {cf['currency']}" if "cost" in s else "")
+            + f" against the {cf['baseline']} baseline"
+        )
     for code, msg in result.warnings:
         echo(f"warning {code}: {msg}")
     for w in (cf or {}).get("warnings", []):

@@ -33,8 +33,10 @@ def summary(result) -> str:
     """Readable summary of a :class:`~estimator.results.CaseResult`."""
     t = result.totals
     sc = result.scenario
-    lines = [f"{sc.title or 'Case'}: {sc.agent.name}, {t['duration'].to('min').magnitude:.0f} min, "
-             f"mean fresh-gas flow {t['mean_fresh_gas_flow'].to('L/min').magnitude:.2f} L/min"]
+    lines = [
+        f"{sc.title or 'Case'}: {sc.agent.name}, {t['duration'].to('min').magnitude:.0f} min, "
+        f"mean fresh-gas flow {t['mean_fresh_gas_flow'].to('L/min').magnitude:.2f} L/min"
+    ]
     rows = [
         ("liquid agent", t["agent_liquid"].to("mL").magnitude, "mL"),
         ("agent vapour delivered", t["agent_vapour"].to("L").magnitude, "L"),
@@ -52,8 +54,10 @@ def summary(result) -> str:
     lines.append(f"  {'lowest inspired O2':<28}{100 * result.minimum_inspired_oxygen.magnitude:10.1f} %")
     if result.cost:
         cost = result.cost
-        lines.append(f"  {'cost':<28}{cost['total']:10.2f} {cost['currency']} (agent {cost['agent']:.2f}, "
-                     f"gases {cost['gases']:.2f}, absorbent {cost['absorbent']:.2f})")
+        lines.append(
+            f"  {'cost':<28}{cost['total']:10.2f} {cost['currency']} (agent {cost['agent']:.2f}, "
+            f"gases {cost['gases']:.2f}, absorbent {cost['absorbent']:.2f})"
+        )
     for ph in result.phases:
         if ph.get("mode") == "end_tidal_hold":
             reached = ph.get("target_reached")

@@ -26,14 +26,29 @@ from ..units import parse_quantity
 from . import CAUTION, app
 
 #: Model field names -> the option that sets them, so an error names what the user typed.
-_OPTIONS = {"site.elevation": "--elevation", "site.ambient_pressure": "--ambient-pressure",
-            "site.temperature": "--temperature", "reading": "--reading", "calibrated_for": "--calibrated-for",
-            "gas": "--gas", "purity": "--purity", "back_pressure": "--back-pressure", "accuracy": "--accuracy"}
+_OPTIONS = {
+    "site.elevation": "--elevation",
+    "site.ambient_pressure": "--ambient-pressure",
+    "site.temperature": "--temperature",
+    "reading": "--reading",
+    "calibrated_for": "--calibrated-for",
+    "gas": "--gas",
+    "purity": "--purity",
+    "back_pressure": "--back-pressure",
+    "accuracy": "--accuracy",
+}
 
 
-def flowmeter_report(reading: Any, calibrated_for: str, gas: str | None = None, elevation: Any = None,
-                     ambient_pressure: Any = None, temperature: Any = None, purity: Any = None,
-                     back_pressure: Any = None) -> dict[str, Any]:
+def flowmeter_report(
+    reading: Any,
+    calibrated_for: str,
+    gas: str | None = None,
+    elevation: Any = None,
+    ambient_pressure: Any = None,
+    temperature: Any = None,
+    purity: Any = None,
+    back_pressure: Any = None,
+) -> dict[str, Any]:
     """The ``lowflow flowmeter`` result: the JSON document before encoding.
 
     Parameters
@@ -50,12 +65,22 @@ def flowmeter_report(reading: Any, calibrated_for: str, gas: str | None = None, 
     """
     try:
         site = site_from_inputs(elevation, ambient_pressure, temperature)
-        r = true_flow(reading, calibrated_for, calibrated_for if gas is None else gas, site,
-                      purity=purity, back_pressure=back_pressure)
+        r = true_flow(
+            reading,
+            calibrated_for,
+            calibrated_for if gas is None else gas,
+            site,
+            purity=purity,
+            back_pressure=back_pressure,
+        )
     except InputError as exc:
         raise InputError(_OPTIONS.get(exc.field, exc.field), exc.value, exc.expected) from None
-    return _document(r, parse_quantity(reading, "--reading", "flow", "L/min").to("L/min"), calibrated_for,
-                     calibrated_for if gas is None else gas)
+    return _document(
+        r,
+        parse_quantity(reading, "--reading", "flow", "L/min").to("L/min"),
+        calibrated_for,
+        calibrated_for if gas is None else gas,
+    )
 
 
 def _document(r: TrueFlow, reading: Any, calibrated_for: str, gas: str) -> dict[str, Any]:
@@ -73,8 +98,12 @@ def _document(r: TrueFlow, reading: Any, calibrated_for: str, gas: str) -> dict[
         "transition_reynolds": r.transition_reynolds,
         "viscous_share": r.viscous_share,
         "correction": r.correction,
-        "site": {"pressure": r.site.ambient_pressure, "temperature": r.site.temperature,
-                 "elevation": r.site.elevation, "basis": r.site.basis},
+        "site": {
+            "pressure": r.site.ambient_pressure,
+            "temperature": r.site.temperature,
+            "elevation": r.site.elevation,
+            "basis": r.site.basis,
+        },
         "tube_pressure": r.tube_pressure,
         "warnings": [{"code": c, "message": m} for c, m in r.warnings],
         "gas_volume_reference": r.gas_volume_reference,
@@ -104,20 +133,28 @@ def _human(d: dict[str, Any]) -> str:
 def flowmeter_command(
     reading: str = typer.Option(..., "--reading", help="Scale reading, e.g. '10 L/min' (0 to 100 L/min)."),
     calibrated_for: str = typer.Option(..., "--calibrated-for", help="Gas the tube is calibrated for, e.g. oxygen."),
-    gas: str | None = typer.Option(None, "--gas", help="Gas flowing: oxygen, air, nitrous_oxide, nitrogen, argon, "
-                                   "helium, carbon_dioxide, concentrator, or 'oxygen=30 %, nitrous_oxide=70 %' "
-                                   "(default: the calibration gas)."),
+    gas: str | None = typer.Option(
+        None,
+        "--gas",
+        help="Gas flowing: oxygen, air, nitrous_oxide, nitrogen, argon, "
+        "helium, carbon_dioxide, concentrator, or 'oxygen=30 %, nitrous_oxide=70 %' "
+        "(default: the calibration gas).",
+    ),
     elevation: str | None = typer.Option(None, "--elevation", help="Site elevation, e.g. '3000 m' (-500 to 11000 m)."),
-    ambient_pressure: str | None = typer.Option(None, "--ambient-pressure",
-                                                help="Measured absolute pressure, e.g. '70 kPa' (used in preference "
-                                                "to the elevation)."),
-    temperature: str | None = typer.Option(None, "--temperature", help="Room temperature, e.g. '30 degC' (default 20)."),
+    ambient_pressure: str | None = typer.Option(
+        None,
+        "--ambient-pressure",
+        help="Measured absolute pressure, e.g. '70 kPa' (used in preference to the elevation).",
+    ),
+    temperature: str | None = typer.Option(
+        None, "--temperature", help="Room temperature, e.g. '30 degC' (default 20)."
+    ),
     purity: str | None = typer.Option(None, "--purity", help="Oxygen in concentrator product, e.g. '93 %'."),
-    back_pressure: str | None = typer.Option(None, "--back-pressure", help="Gauge pressure at the tube outlet, "
-                                             "e.g. '1 kPa' (default 0)."),
+    back_pressure: str | None = typer.Option(
+        None, "--back-pressure", help="Gauge pressure at the tube outlet, e.g. '1 kPa' (default 0)."
+    ),
     json_out: bool = typer.Option(False, "--json", help="Print JSON (quantities as magnitude and units)."),
 ) -> None:
     """True flow behind a float-flowmeter reading at the site's pressure and temperature."""
-    d = flowmeter_report(reading, calibrated_for, gas, elevation, ambient_pressure, temperature, purity,
-                         back_pressure)
+    d = flowmeter_report(reading, calibrated_for, gas, elevation, ambient_pressure, temperature, purity, back_pressure)
     typer.echo(dumps(d) if json_out else _human(d))

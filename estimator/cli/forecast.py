@@ -8,8 +8,15 @@ import typer
 
 from . import CAUTION, app
 
-_LABELS = {"cases": "cases", "oxygen": "oxygen", "air": "air", "nitrous_oxide": "nitrous oxide",
-           "absorbent": "CO2 absorbent", "co2e": "CO2e", "mac_hours": "MAC-hours"}
+_LABELS = {
+    "cases": "cases",
+    "oxygen": "oxygen",
+    "air": "air",
+    "nitrous_oxide": "nitrous oxide",
+    "absorbent": "CO2 absorbent",
+    "co2e": "CO2e",
+    "mac_hours": "MAC-hours",
+}
 
 
 @app.command("forecast")
@@ -35,29 +42,42 @@ def _fmt(q) -> str:
 
 def summary(result) -> str:
     """Readable summary of a :class:`~estimator.forecast.ForecastResult`."""
-    lines = [f"Demand forecast{': ' + result.title if result.title else ''} - {result.weeks} simulated weeks, "
-             f"seed {result.seed}, {result.solver['cases']} cases"]
+    lines = [
+        f"Demand forecast{': ' + result.title if result.title else ''} - {result.weeks} simulated weeks, "
+        f"seed {result.seed}, {result.solver['cases']} cases"
+    ]
     for c in result.cases:
-        lines.append(f"  {c['name']}: {c['mean_per_week']:g} a week ({c['count']}), {c['agent']}, "
-                     f"mean {c['mean_duration'].to('min').magnitude:.0f} min")
+        lines.append(
+            f"  {c['name']}: {c['mean_per_week']:g} a week ({c['count']}), {c['agent']}, "
+            f"mean {c['mean_duration'].to('min').magnitude:.0f} min"
+        )
     lines.append(f"  {'per week':<26}{'mean':>10}{'P50':>10}{'P95':>10}{'P99':>10}  unit")
     for key, stats in result.items.items():
         label = _LABELS.get(key, key.replace("_bottles", " bottles").replace("_", " "))
         unit = result.units[key] or ("bottles" if key.endswith("_bottles") else "")
         if key in ("sevoflurane", "isoflurane", "desflurane", "halothane"):
             label += " (liquid)"
-        lines.append(f"  {label:<26}" + "".join(_fmt(stats[s]) for s in ("mean", "p50", "p95", "p99"))
-                     + f"  {unit.replace('MAC_hour', 'MAC h')}")
+        lines.append(
+            f"  {label:<26}"
+            + "".join(_fmt(stats[s]) for s in ("mean", "p50", "p95", "p99"))
+            + f"  {unit.replace('MAC_hour', 'MAC h')}"
+        )
     if result.cost:
         cost = result.cost
-        lines.append(f"  {'cost (' + cost['currency'] + ')':<26}" + "".join(
-            f"{cost[s]:10.0f}" if cost[s] >= 1000 else f"{cost[s]:10.2f}" for s in ("mean", "p50", "p95", "p99")))
+        lines.append(
+            f"  {'cost (' + cost['currency'] + ')':<26}"
+            + "".join(
+                f"{cost[s]:10.0f}" if cost[s] >= 1000 else f"{cost[s]:10.2f}" for s in ("mean", "p50", "p95", "p99")
+            )
+        )
     if result.orders:
         lines.append(f"Orders that cover a P{100 * result.cover:g} week:")
         for o in result.orders:
-            lines.append(f"  {o['item'].replace('_', ' '):<16}{o['count']:5d} {o['unit']}(s) of "
-                         f"{o['per_unit'].magnitude:.4g} {result.units[o['item']]} usable "
-                         f"(need {o['need'].magnitude:.4g} {result.units[o['item']]})")
+            lines.append(
+                f"  {o['item'].replace('_', ' '):<16}{o['count']:5d} {o['unit']}(s) of "
+                f"{o['per_unit'].magnitude:.4g} {result.units[o['item']]} usable "
+                f"(need {o['need'].magnitude:.4g} {result.units[o['item']]})"
+            )
     lines.append(f"Gas litres: free gas at 15 degC and 101.325 kPa. CO2e basis: {result.to_json()['co2e_basis']}.")
     if result.warnings:
         lines.append("Warnings:")

@@ -35,8 +35,14 @@ def _site(elevation: Any, ambient_pressure: Any) -> Any:
         raise InputError(option, exc.value, exc.expected) from None
 
 
-def mac_report(agent: str, age: Any, nitrous_oxide: Any = None, total: Any = None,
-               ambient_pressure: Any = None, elevation: Any = None) -> dict[str, Any]:
+def mac_report(
+    agent: str,
+    age: Any,
+    nitrous_oxide: Any = None,
+    total: Any = None,
+    ambient_pressure: Any = None,
+    elevation: Any = None,
+) -> dict[str, Any]:
     """The ``lowflow mac`` result: a dict of quantities, the JSON document before encoding.
 
     Parameters
@@ -69,9 +75,17 @@ def mac_report(agent: str, age: Any, nitrous_oxide: Any = None, total: Any = Non
     n2o_mac = Q_(f_n2o / n2o.mac.to("dimensionless").magnitude, "MAC")
     end_tidal = requested = None
     if total is not None:
-        r = end_tidal_for_total_mac(m.agent, total, age, f_n2o, pressure, total_field="--total-mac",
-                                    nitrous_field="--nitrous-oxide", age_field="--age",
-                                    agent_field="--agent")
+        r = end_tidal_for_total_mac(
+            m.agent,
+            total,
+            age,
+            f_n2o,
+            pressure,
+            total_field="--total-mac",
+            nitrous_field="--nitrous-oxide",
+            age_field="--age",
+            agent_field="--agent",
+        )
         end_tidal, requested = r.end_tidal, r.total
         warnings += [w for w in r.warnings if w[0] not in {c for c, _ in warnings}]
     return {
@@ -91,18 +105,21 @@ def mac_report(agent: str, age: Any, nitrous_oxide: Any = None, total: Any = Non
 
 
 def _human(r: dict[str, Any]) -> str:
-    lines = [f"{r['agent']} at {r['age'].magnitude:g} years: 1 MAC = {r['mac'].magnitude:.2f} % end-tidal "
-             f"at {r['ambient_pressure'].magnitude:.1f} kPa (age factor {r['age_factor']:.3f})"]
+    lines = [
+        f"{r['agent']} at {r['age'].magnitude:g} years: 1 MAC = {r['mac'].magnitude:.2f} % end-tidal "
+        f"at {r['ambient_pressure'].magnitude:.1f} kPa (age factor {r['age_factor']:.3f})"
+    ]
     if r["nitrous_oxide"].magnitude > 0:
-        lines.append(f"nitrous oxide {r['nitrous_oxide'].magnitude:g} % end-tidal adds "
-                     f"{r['nitrous_oxide_mac_fraction'].magnitude:.2f} MAC")
+        lines.append(
+            f"nitrous oxide {r['nitrous_oxide'].magnitude:g} % end-tidal adds "
+            f"{r['nitrous_oxide_mac_fraction'].magnitude:.2f} MAC"
+        )
     if r["total_mac"] is not None:
         want = r["total_mac"].magnitude
         if r["end_tidal_for_total"] is None:
             lines.append(f"{want:g} MAC in total: not possible with this nitrous oxide")
         else:
-            lines.append(f"{want:g} MAC in total: {r['end_tidal_for_total'].magnitude:.2f} % end-tidal "
-                         f"{r['agent']}")
+            lines.append(f"{want:g} MAC in total: {r['end_tidal_for_total'].magnitude:.2f} % end-tidal {r['agent']}")
     lines += [f"warning [{w['code']}]: {w['message']}" for w in r["warnings"]]
     lines += [f"Source: {r['source']}.", CAUTION]
     return "\n".join(lines)
@@ -113,11 +130,15 @@ def mac_command(
     agent: str = typer.Option(..., "--agent", help="Volatile agent: sevoflurane, isoflurane, desflurane, halothane."),
     age: str = typer.Option(..., "--age", help="Age, e.g. '70' or '70 years' (0 to 120; the fit holds above 1 year)."),
     nitrous_oxide: str | None = typer.Option(None, "--nitrous-oxide", help="End-tidal nitrous oxide, e.g. '67 %'."),
-    total: str | None = typer.Option(None, "--total-mac", help="Requested total MAC, e.g. 1.2; gives the agent end-tidal."),
-    ambient_pressure: str | None = typer.Option(None, "--ambient-pressure",
-                                                help="Absolute ambient pressure, e.g. '80 kPa' (default 101.325 kPa)."),
-    elevation: str | None = typer.Option(None, "--elevation",
-                                         help="Site elevation, e.g. '2400 m'; pressure from the standard atmosphere."),
+    total: str | None = typer.Option(
+        None, "--total-mac", help="Requested total MAC, e.g. 1.2; gives the agent end-tidal."
+    ),
+    ambient_pressure: str | None = typer.Option(
+        None, "--ambient-pressure", help="Absolute ambient pressure, e.g. '80 kPa' (default 101.325 kPa)."
+    ),
+    elevation: str | None = typer.Option(
+        None, "--elevation", help="Site elevation, e.g. '2400 m'; pressure from the standard atmosphere."
+    ),
     json_out: bool = typer.Option(False, "--json", help="Print JSON (quantities as magnitude and units)."),
 ) -> None:
     """Age-corrected MAC (Mapleson 1996) and the end-tidal agent for a total MAC with nitrous oxide."""

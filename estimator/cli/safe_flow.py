@@ -13,7 +13,9 @@ from . import CAUTION, app
 def safe_flow(
     file: Path = typer.Argument(..., help="Scenario TOML file; its [flow_floor] table holds the settings."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
-    threshold: float | None = typer.Option(None, "--threshold", help="Inspired O2 threshold, 0.21 to 1 (default 0.30)."),
+    threshold: float | None = typer.Option(
+        None, "--threshold", help="Inspired O2 threshold, 0.21 to 1 (default 0.30)."
+    ),
     no_grid: bool = typer.Option(False, "--no-grid", help="Skip the floor on the time grid."),
 ) -> None:
     """Lowest safe fresh-gas flow per phase and over time, what limits it, and a settable schedule."""
@@ -31,22 +33,35 @@ def safe_flow(
         if ph["floor"] is None:
             lines.append(f"  {ph['label']:<12} {span:<14} no safe setting: {ph['binding_text']}")
             continue
-        lines.append(f"  {ph['label']:<12} {span:<14} floor {ph['floor'].to('L/min').magnitude:5.2f} L/min "
-                     f"(plan {ph['planned_total'].to('L/min').magnitude:.2f}); {ph['flow_class']}; "
-                     f"limited by {ph['binding']}: {ph['binding_text']}")
+        lines.append(
+            f"  {ph['label']:<12} {span:<14} floor {ph['floor'].to('L/min').magnitude:5.2f} L/min "
+            f"(plan {ph['planned_total'].to('L/min').magnitude:.2f}); {ph['flow_class']}; "
+            f"limited by {ph['binding']}: {ph['binding_text']}"
+        )
         if ph["lowest_oxygen_flow"] is not None:
-            lines.append(f"  {'':<12} {'':<14} lowest O2 flow at that total: "
-                         f"{ph['lowest_oxygen_flow'].to('L/min').magnitude:.2f} L/min")
+            lines.append(
+                f"  {'':<12} {'':<14} lowest O2 flow at that total: "
+                f"{ph['lowest_oxygen_flow'].to('L/min').magnitude:.2f} L/min"
+            )
     lines.append(f"Recommended: {result.schedule_text}")
     cmp_ = result.comparison
-    for key, unit, name in (("agent_liquid", "mL", "liquid agent"), ("oxygen", "L", "oxygen"), ("air", "L", "air"),
-                            ("nitrous_oxide", "L", "nitrous oxide"), ("co2e", "kg", "CO2e (AR6 GWP100)")):
-        lines.append(f"  {name:<20} plan {cmp_['plan'][key].to(unit).magnitude:9.2f}  recommended "
-                     f"{cmp_['recommended'][key].to(unit).magnitude:9.2f} {unit}")
+    for key, unit, name in (
+        ("agent_liquid", "mL", "liquid agent"),
+        ("oxygen", "L", "oxygen"),
+        ("air", "L", "air"),
+        ("nitrous_oxide", "L", "nitrous oxide"),
+        ("co2e", "kg", "CO2e (AR6 GWP100)"),
+    ):
+        lines.append(
+            f"  {name:<20} plan {cmp_['plan'][key].to(unit).magnitude:9.2f}  recommended "
+            f"{cmp_['recommended'][key].to(unit).magnitude:9.2f} {unit}"
+        )
     if result.grid:
-        pts = ", ".join(f"{g['time'].to('min').magnitude:g} min: "
-                        + (f"{g['floor'].to('L/min').magnitude:g}" if g["floor"] is not None else "none")
-                        for g in result.grid[:: max(1, len(result.grid) // 8)])
+        pts = ", ".join(
+            f"{g['time'].to('min').magnitude:g} min: "
+            + (f"{g['floor'].to('L/min').magnitude:g}" if g["floor"] is not None else "none")
+            for g in result.grid[:: max(1, len(result.grid) // 8)]
+        )
         lines.append(f"Floor over time (L/min): {pts}")
     if result.warnings:
         lines.append("Advisories:")

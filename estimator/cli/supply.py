@@ -31,15 +31,17 @@ def render(report: SupplyReport) -> str:
     header = f"{'item':<28} {'kind':<12} {'usable':>16} {'draw a day':>16} {'lasts':>12}"
     lines += [header, "-" * len(header)]
     for i in report.items:
-        lines.append(f"{i.name[:28]:<28} {i.kind:<12} {_amount(i.usable):>16} {_amount(i.draw_per_day):>16} "
-                     f"{_runtime(i):>12}")
+        lines.append(
+            f"{i.name[:28]:<28} {i.kind:<12} {_amount(i.usable):>16} {_amount(i.draw_per_day):>16} {_runtime(i):>12}"
+        )
     lines.append("")
     if report.bottleneck is None:
         lines.append("Bottleneck: none - no supply runs out under this plan.")
     else:
         days = report.days_of_supply.to("day").magnitude
-        lines.append(f"Bottleneck: {report.bottleneck} ({report.bottleneck_supply}) - the supply fails after "
-                     f"{days:.1f} days.")
+        lines.append(
+            f"Bottleneck: {report.bottleneck} ({report.bottleneck_supply}) - the supply fails after {days:.1f} days."
+        )
         if report.cases_possible is not None:
             lines.append(f"Cases possible before then: {report.cases_possible}")
         lines.append(f"Reorder by: {report.reorder_by.isoformat()}")
@@ -54,7 +56,9 @@ def render(report: SupplyReport) -> str:
 def supply(
     file: Annotated[Path, typer.Argument(help="Inventory file (TOML): stocks, sources and demand.")],
     json_out: Annotated[bool, typer.Option("--json", help="Print JSON instead of text.")] = False,
-    start: Annotated[str | None, typer.Option("--start", help="First day (YYYY-MM-DD); default plan.start or today.")] = None,
+    start: Annotated[
+        str | None, typer.Option("--start", help="First day (YYYY-MM-DD); default plan.start or today.")
+    ] = None,
 ) -> None:
     """How long the stocks last, which runs out first (the bottleneck) and when to reorder."""
     report = plan_supply(load_inventory(file), start=start)

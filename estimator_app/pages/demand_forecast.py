@@ -33,8 +33,22 @@ from ..common import (
 
 DOC, VERSION = "forecast.doc", "forecast.version"
 PLANNER = "case planner"
-COLUMNS = ["name", "per week", "count", "template", "agent", "wash-in flow", "wash-in [min]", "maintenance flow",
-           "O2 [%]", "target [MAC]", "duration median [min]", "duration P90 [min]", "weight mean", "weight SD"]
+COLUMNS = [
+    "name",
+    "per week",
+    "count",
+    "template",
+    "agent",
+    "wash-in flow",
+    "wash-in [min]",
+    "maintenance flow",
+    "O2 [%]",
+    "target [MAC]",
+    "duration median [min]",
+    "duration P90 [min]",
+    "weight mean",
+    "weight SD",
+]
 
 
 def available() -> bool:
@@ -55,15 +69,24 @@ def case_frame(doc: dict[str, Any], ff: float, mu: str) -> pd.DataFrame:
     for c in doc.get("case_types", []):
         planner = c.get("scenario") is not None
         wf, mf = _num(c.get("wash_in_flow"), "flow", "L/min"), _num(c.get("maintenance_flow"), "flow", "L/min")
-        rows.append({"name": c.get("name", ""), "per week": c.get("per_week"), "count": c.get("count", "poisson"),
-                     "template": PLANNER if planner else "inline", "agent": c.get("agent"),
-                     "wash-in flow": None if wf is None else wf * ff, "wash-in [min]": _num(c.get("wash_in_time"), "time", "min"),
-                     "maintenance flow": None if mf is None else mf * ff,
-                     "O2 [%]": _num(c.get("oxygen_fraction"), "fraction", "percent"),
-                     "target [MAC]": _num(c.get("end_tidal_target"), "mac", "MAC"),
-                     "duration median [min]": _num(c.get("duration_median") or c.get("duration"), "time", "min"),
-                     "duration P90 [min]": _num(c.get("duration_p90"), "time", "min"),
-                     "weight mean": _num(c.get("weight_mean"), "mass", mu), "weight SD": _num(c.get("weight_sd"), "mass", mu)})
+        rows.append(
+            {
+                "name": c.get("name", ""),
+                "per week": c.get("per_week"),
+                "count": c.get("count", "poisson"),
+                "template": PLANNER if planner else "inline",
+                "agent": c.get("agent"),
+                "wash-in flow": None if wf is None else wf * ff,
+                "wash-in [min]": _num(c.get("wash_in_time"), "time", "min"),
+                "maintenance flow": None if mf is None else mf * ff,
+                "O2 [%]": _num(c.get("oxygen_fraction"), "fraction", "percent"),
+                "target [MAC]": _num(c.get("end_tidal_target"), "mac", "MAC"),
+                "duration median [min]": _num(c.get("duration_median") or c.get("duration"), "time", "min"),
+                "duration P90 [min]": _num(c.get("duration_p90"), "time", "min"),
+                "weight mean": _num(c.get("weight_mean"), "mass", mu),
+                "weight SD": _num(c.get("weight_sd"), "mass", mu),
+            }
+        )
     return pd.DataFrame(rows, columns=COLUMNS)
 
 
@@ -82,15 +105,23 @@ def case_types(frame: pd.DataFrame, ff: float, mu: str) -> list[dict[str, Any]]:
         if row["template"] == PLANNER:
             c["scenario"] = "case_planner.toml"
         else:
-            for col, key, fmt in (("agent", "agent", "{}"), ("wash-in [min]", "wash_in_time", "{:g} min"),
-                                  ("O2 [%]", "oxygen_fraction", "{:g} %"), ("target [MAC]", "end_tidal_target", "{:g} MAC")):
+            for col, key, fmt in (
+                ("agent", "agent", "{}"),
+                ("wash-in [min]", "wash_in_time", "{:g} min"),
+                ("O2 [%]", "oxygen_fraction", "{:g} %"),
+                ("target [MAC]", "end_tidal_target", "{:g} MAC"),
+            ):
                 if _set(row, col):
                     c[key] = fmt.format(row[col])
             for col, key in (("wash-in flow", "wash_in_flow"), ("maintenance flow", "maintenance_flow")):
                 if _set(row, col):
                     c[key] = f"{row[col] / ff:g} L/min"
-        for col, key, u in (("duration median [min]", "duration_median", "min"), ("duration P90 [min]", "duration_p90", "min"),
-                            ("weight mean", "weight_mean", mu), ("weight SD", "weight_sd", mu)):
+        for col, key, u in (
+            ("duration median [min]", "duration_median", "min"),
+            ("duration P90 [min]", "duration_p90", "min"),
+            ("weight mean", "weight_mean", mu),
+            ("weight SD", "weight_sd", mu),
+        ):
             if _set(row, col):
                 c[key] = f"{row[col]:g} {u}"
         out.append(c)
@@ -153,9 +184,13 @@ def cached_forecast(mix_text: str, scenario_text: str) -> Any:
 
 
 def _upload() -> None:
-    state.upload_toml("Load a case mix (TOML)", "forecast.upload",
-                      "Case types as in the README; at most 20 MB. Scenario files it names run the case on the "
-                      "case planner page.", DOC, VERSION)
+    state.upload_toml(
+        "Load a case mix (TOML)",
+        "forecast.upload",
+        "Case types as in the README; at most 20 MB. Scenario files it names run the case on the case planner page.",
+        DOC,
+        VERSION,
+    )
 
 
 def inputs() -> dict[str, Any]:
@@ -163,29 +198,49 @@ def inputs() -> dict[str, Any]:
     v, fu, mu, ff = st.session_state[VERSION], unit("flow"), unit("mass"), flow_factor()
     c1, c2, c3 = st.columns(3)
     weeks = c1.number_input("Weeks to simulate", 1, 1040, int(doc.get("weeks", 52)), key=f"forecast.weeks.{v}")
-    seed = c2.number_input("Random seed", 0, 2**31 - 1, int(doc.get("seed") or 1), key=f"forecast.seed.{v}",
-                           help="The same seed gives the same weeks")
-    cover = c3.number_input("Orders cover the percentile [%]", 50.0, 99.9,
-                            _num(doc.get("cover", "95 %"), "fraction", "percent") or 95.0, 1.0, key=f"forecast.cover.{v}")
-    st.markdown(f"**Case types** - flows in {fu}, weights in {mu}; a row whose template is *{PLANNER}* takes its "
-                "phases from the case planner page")
+    seed = c2.number_input(
+        "Random seed",
+        0,
+        2**31 - 1,
+        int(doc.get("seed") or 1),
+        key=f"forecast.seed.{v}",
+        help="The same seed gives the same weeks",
+    )
+    cover = c3.number_input(
+        "Orders cover the percentile [%]",
+        50.0,
+        99.9,
+        _num(doc.get("cover", "95 %"), "fraction", "percent") or 95.0,
+        1.0,
+        key=f"forecast.cover.{v}",
+    )
+    st.markdown(
+        f"**Case types** - flows in {fu}, weights in {mu}; a row whose template is *{PLANNER}* takes its "
+        "phases from the case planner page"
+    )
     seed_key = f"forecast.seed_frame.{v}.{fu}.{mu}"
     if seed_key not in st.session_state:
         st.session_state[seed_key] = case_frame(doc, ff, mu)
-    edited = st.data_editor(st.session_state[seed_key], key=f"forecast.types.{v}.{fu}.{mu}", num_rows="dynamic",
-                            hide_index=True, width="stretch", column_config={
-                                "count": st.column_config.SelectboxColumn("count", options=["poisson", "fixed"]),
-                                "template": st.column_config.SelectboxColumn("template", options=[PLANNER, "inline"],
-                                                                             required=True),
-                                "agent": st.column_config.SelectboxColumn("agent", options=sorted(AGENTS)),
-                                "wash-in flow": st.column_config.NumberColumn(f"wash-in flow [{fu}]", min_value=0.0),
-                                "maintenance flow": st.column_config.NumberColumn(f"maintenance flow [{fu}]",
-                                                                                  min_value=0.0),
-                                "weight mean": st.column_config.NumberColumn(f"weight mean [{mu}]", min_value=0.0),
-                                "weight SD": st.column_config.NumberColumn(f"weight SD [{mu}]", min_value=0.0)})
+    edited = st.data_editor(
+        st.session_state[seed_key],
+        key=f"forecast.types.{v}.{fu}.{mu}",
+        num_rows="dynamic",
+        hide_index=True,
+        width="stretch",
+        column_config={
+            "count": st.column_config.SelectboxColumn("count", options=["poisson", "fixed"]),
+            "template": st.column_config.SelectboxColumn("template", options=[PLANNER, "inline"], required=True),
+            "agent": st.column_config.SelectboxColumn("agent", options=sorted(AGENTS)),
+            "wash-in flow": st.column_config.NumberColumn(f"wash-in flow [{fu}]", min_value=0.0),
+            "maintenance flow": st.column_config.NumberColumn(f"maintenance flow [{fu}]", min_value=0.0),
+            "weight mean": st.column_config.NumberColumn(f"weight mean [{mu}]", min_value=0.0),
+            "weight SD": st.column_config.NumberColumn(f"weight SD [{mu}]", min_value=0.0),
+        },
+    )
     new = {k: val for k, val in doc.items() if k not in ("case_types", "case_types_file")}
-    new.update({"weeks": int(weeks), "seed": int(seed), "cover": f"{cover:g} %",
-                "case_types": case_types(edited, ff, mu)})
+    new.update(
+        {"weeks": int(weeks), "seed": int(seed), "cover": f"{cover:g} %", "case_types": case_types(edited, ff, mu)}
+    )
     return new
 
 
@@ -193,54 +248,92 @@ def histogram(result: Any, item: str) -> dict[str, Any]:
     unit_ = result.units.get(item, "")
     title = f"{item.replace('_', ' ')} a week" + (f" [{unit_}]" if unit_ else "")
     values = [{"v": float(x)} for x in result.weekly[item]]
-    return {"$schema": "https://vega.github.io/schema/vega-lite/v6.json", "height": 240, "data": {"values": values},
-            "mark": {"type": "bar", "color": PALETTE[0]},
-            "encoding": {"x": {"field": "v", "type": "quantitative", "bin": {"maxbins": 30}, "title": title},
-                         "y": {"aggregate": "count", "type": "quantitative", "title": "weeks"}}}
+    return {
+        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
+        "height": 240,
+        "data": {"values": values},
+        "mark": {"type": "bar", "color": PALETTE[0]},
+        "encoding": {
+            "x": {"field": "v", "type": "quantitative", "bin": {"maxbins": 30}, "title": title},
+            "y": {"aggregate": "count", "type": "quantitative", "title": "weeks"},
+        },
+    }
 
 
 def outputs(result: Any) -> None:
     currency = unit("currency") or (result.cost or {}).get("currency", "")
-    items = pd.DataFrame([{"item": k.replace("_", " "), "unit": result.units.get(k, ""),
-                           **{s: float(q[s].magnitude) for s in ("mean", "p50", "p95", "p99")}}
-                          for k, q in result.items.items()])
+    items = pd.DataFrame(
+        [
+            {
+                "item": k.replace("_", " "),
+                "unit": result.units.get(k, ""),
+                **{s: float(q[s].magnitude) for s in ("mean", "p50", "p95", "p99")},
+            }
+            for k, q in result.items.items()
+        ]
+    )
     m = st.columns(4)
     cases = result.items["cases"]
     m[0].metric("Cases a week (mean)", f"{cases['mean'].magnitude:.1f}")
     m[1].metric("Cases in a P95 week", f"{cases['p95'].magnitude:.0f}")
-    m[2].metric(f"Cost a week, P95 [{currency}]" if result.cost else "Cost a week, P95",
-                f"{result.cost['p95']:.0f}" if result.cost else "no prices")
+    m[2].metric(
+        f"Cost a week, P95 [{currency}]" if result.cost else "Cost a week, P95",
+        f"{result.cost['p95']:.0f}" if result.cost else "no prices",
+    )
     m[3].metric("CO2e a week (P95)", f"{result.items['co2e']['p95'].to('kg').magnitude:.0f} kg")
     st.subheader("Weekly demand")
     st.dataframe(items, hide_index=True, width="stretch")
     st.caption(f"Gas: {GAS_VOLUME_REFERENCE}. Nitrous oxide in kg (it is bought by weight).")
     choices = [k for k in result.weekly if k != "cases"]
-    pick = st.selectbox("Distribution over the simulated weeks of", choices, key="forecast.pick",
-                        format_func=lambda k: k.replace("_", " "))
+    pick = st.selectbox(
+        "Distribution over the simulated weeks of",
+        choices,
+        key="forecast.pick",
+        format_func=lambda k: k.replace("_", " "),
+    )
     show(histogram(result, pick))
     st.subheader("Orders")
-    orders = pd.DataFrame([{"item": o["item"].replace("_", " "), "order": o.get("count"), "unit": o.get("unit"),
-                            "covers": o.get("covers"),
-                            "need": None if o.get("need") is None else float(o["need"].magnitude),
-                            "need unit": "" if o.get("need") is None else f"{o['need'].units:~P}",
-                            "each holds": None if o.get("per_unit") is None else float(o["per_unit"].magnitude)}
-                           for o in result.orders])
+    orders = pd.DataFrame(
+        [
+            {
+                "item": o["item"].replace("_", " "),
+                "order": o.get("count"),
+                "unit": o.get("unit"),
+                "covers": o.get("covers"),
+                "need": None if o.get("need") is None else float(o["need"].magnitude),
+                "need unit": "" if o.get("need") is None else f"{o['need'].units:~P}",
+                "each holds": None if o.get("per_unit") is None else float(o["per_unit"].magnitude),
+            }
+            for o in result.orders
+        ]
+    )
     st.dataframe(orders, hide_index=True, width="stretch")
     st.subheader("Warnings")
     show_warnings(result.warnings, empty="No forecast warnings.")
     weekly = pd.DataFrame({"week": range(1, result.weeks + 1), **{k: v for k, v in result.weekly.items()}})
-    downloads("demand_forecast", {"items": items, "orders": orders, "weekly": weekly}, result.to_json, "forecast",
-              title="Demand forecast", notes=[f"{result.weeks} simulated weeks. Gas volumes: {GAS_VOLUME_REFERENCE}."],
-              warnings=result.warnings)
+    downloads(
+        "demand_forecast",
+        {"items": items, "orders": orders, "weekly": weekly},
+        result.to_json,
+        "forecast",
+        title="Demand forecast",
+        notes=[f"{result.weeks} simulated weeks. Gas volumes: {GAS_VOLUME_REFERENCE}."],
+        warnings=result.warnings,
+    )
 
 
 def render() -> None:
     st.title("Demand forecast")
-    st.caption("A department's case mix: cylinders, bottles and absorbent a week with P50 and P95, and the order "
-               "that covers a bad week.")
+    st.caption(
+        "A department's case mix: cylinders, bottles and absorbent a week with P50 and P95, and the order "
+        "that covers a bad week."
+    )
     if not available():
-        placeholder("The demand forecast", "estimator.forecast",
-                    "It will draw weekly case counts from the case mix and report each item's weekly demand.")
+        placeholder(
+            "The demand forecast",
+            "estimator.forecast",
+            "It will draw weekly case counts from the case mix and report each item's weekly demand.",
+        )
         return
     _upload()
     try:
@@ -250,6 +343,7 @@ def render() -> None:
     except InputError as exc:
         show_error(exc)
         return
-    st.download_button("Save case mix (TOML)", text.encode("utf-8"), "casemix.toml", "application/toml",
-                       icon=":material/save:")
+    st.download_button(
+        "Save case mix (TOML)", text.encode("utf-8"), "casemix.toml", "application/toml", icon=":material/save:"
+    )
     outputs(result)

@@ -45,16 +45,44 @@ def settings(doc: dict[str, Any]) -> dict[str, Any]:
             return default
 
     c1, c2, c3, c4 = st.columns(4)
-    thr = c1.number_input("Inspired O2 threshold [%]", 21.0, 100.0,
-                          cur("threshold_inspired_oxygen", "fraction", "percent", 30.0), 1.0, key=f"floor.thr.{v}")
-    basal = c2.number_input(f"Machine basal O2 flow [{fu}]", 0.0, 1.0 * f,
-                            cur("basal_oxygen_flow", "flow", "L/min", 0.0) * f, 0.05 * f, key=f"floor.basal.{v}.{fu}")
-    reach = c3.number_input("Reach the end-tidal target within [min]", 0.5, 120.0,
-                            cur("reach_within", "time", "min", 15.0), 1.0, key=f"floor.reach.{v}")
-    label = c4.checkbox("Sevoflurane US label rule", "sevoflurane_us_label" in ff_doc.get("policies", []),
-                        key=f"floor.label.{v}", help=">= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min")
-    ff_doc.update({"threshold_inspired_oxygen": f"{thr:g} %", "basal_oxygen_flow": f"{basal / f:g} L/min",
-                   "reach_within": f"{reach:g} min", "policies": ["sevoflurane_us_label"] if label else []})
+    thr = c1.number_input(
+        "Inspired O2 threshold [%]",
+        21.0,
+        100.0,
+        cur("threshold_inspired_oxygen", "fraction", "percent", 30.0),
+        1.0,
+        key=f"floor.thr.{v}",
+    )
+    basal = c2.number_input(
+        f"Machine basal O2 flow [{fu}]",
+        0.0,
+        1.0 * f,
+        cur("basal_oxygen_flow", "flow", "L/min", 0.0) * f,
+        0.05 * f,
+        key=f"floor.basal.{v}.{fu}",
+    )
+    reach = c3.number_input(
+        "Reach the end-tidal target within [min]",
+        0.5,
+        120.0,
+        cur("reach_within", "time", "min", 15.0),
+        1.0,
+        key=f"floor.reach.{v}",
+    )
+    label = c4.checkbox(
+        "Sevoflurane US label rule",
+        "sevoflurane_us_label" in ff_doc.get("policies", []),
+        key=f"floor.label.{v}",
+        help=">= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min",
+    )
+    ff_doc.update(
+        {
+            "threshold_inspired_oxygen": f"{thr:g} %",
+            "basal_oxygen_flow": f"{basal / f:g} L/min",
+            "reach_within": f"{reach:g} min",
+            "policies": ["sevoflurane_us_label"] if label else [],
+        }
+    )
     return ff_doc
 
 
@@ -67,44 +95,83 @@ def phase_table(result: Any) -> pd.DataFrame:
     rows = []
     for p in result.phases:
         fl = p.get("flows") or {}
-        rows.append({"phase": p["label"], "start [min]": p["start"].to("min").magnitude,
-                     "end [min]": p["end"].to("min").magnitude, f"planned [{fu}]": flow(p["planned_total"]),
-                     f"flow floor [{fu}]": flow(p["floor"]), f"O2 [{fu}]": flow(fl.get("oxygen")),
-                     f"air [{fu}]": flow(fl.get("air")), f"N2O [{fu}]": flow(fl.get("nitrous_oxide")),
-                     "binding limit": p["binding"] or "-", "why": p["binding_text"], "flow class": p["flow_class"]})
+        rows.append(
+            {
+                "phase": p["label"],
+                "start [min]": p["start"].to("min").magnitude,
+                "end [min]": p["end"].to("min").magnitude,
+                f"planned [{fu}]": flow(p["planned_total"]),
+                f"flow floor [{fu}]": flow(p["floor"]),
+                f"O2 [{fu}]": flow(fl.get("oxygen")),
+                f"air [{fu}]": flow(fl.get("air")),
+                f"N2O [{fu}]": flow(fl.get("nitrous_oxide")),
+                "binding limit": p["binding"] or "-",
+                "why": p["binding_text"],
+                "flow class": p["flow_class"],
+            }
+        )
     return pd.DataFrame(rows)
 
 
 def chart(result: Any, plan: Any) -> alt.Chart:
     fu, f = unit("flow"), flow_factor()
-    planned = pd.DataFrame({"time": plan.series["time [min]"], "value": plan.series["fresh_gas_flow [L/min]"] * f,
-                            "series": "planned fresh-gas flow"})
-    grid = pd.DataFrame([{"time": g["time"].to("min").magnitude,
-                          "value": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
-                          "series": "flow floor from this time", "binding": g["binding"] or "-"}
-                         for g in result.grid])
+    planned = pd.DataFrame(
+        {
+            "time": plan.series["time [min]"],
+            "value": plan.series["fresh_gas_flow [L/min]"] * f,
+            "series": "planned fresh-gas flow",
+        }
+    )
+    grid = pd.DataFrame(
+        [
+            {
+                "time": g["time"].to("min").magnitude,
+                "value": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
+                "series": "flow floor from this time",
+                "binding": g["binding"] or "-",
+            }
+            for g in result.grid
+        ]
+    )
     sched = []
     for s in result.schedule:
         t0 = s["start"].to("min").magnitude
         for t in (t0, t0 + s["duration"].to("min").magnitude):
             sched.append({"time": t, "value": s["total"].to("L/min").magnitude * f, "series": "recommended schedule"})
     data = pd.concat([planned, grid, pd.DataFrame(sched)], ignore_index=True)
-    return alt.Chart(data).mark_line(strokeWidth=2.2, interpolate="step-after").encode(
-        x=alt.X("time:Q", title="time [min]"), y=alt.Y("value:Q", title=f"fresh-gas flow [{fu}]"),
-        color=alt.Color("series:N", title=None, scale=alt.Scale(range=list(PALETTE)), legend=alt.Legend(orient="top")),
-        tooltip=[alt.Tooltip("time:Q", title="time [min]"), "series:N",
-                 alt.Tooltip("value:Q", title=f"flow [{fu}]", format=".2f"), "binding:N"],
-    ).properties(height=300)
+    return (
+        alt.Chart(data)
+        .mark_line(strokeWidth=2.2, interpolate="step-after")
+        .encode(
+            x=alt.X("time:Q", title="time [min]"),
+            y=alt.Y("value:Q", title=f"fresh-gas flow [{fu}]"),
+            color=alt.Color(
+                "series:N", title=None, scale=alt.Scale(range=list(PALETTE)), legend=alt.Legend(orient="top")
+            ),
+            tooltip=[
+                alt.Tooltip("time:Q", title="time [min]"),
+                "series:N",
+                alt.Tooltip("value:Q", title=f"flow [{fu}]", format=".2f"),
+                "binding:N",
+            ],
+        )
+        .properties(height=300)
+    )
 
 
 def render() -> None:
     st.title("Flow floor")
-    st.caption("How low may the fresh-gas flow go, phase by phase, for the case on the planner page, and which "
-               "limit binds: inspired O2, a full bag, reaching and holding the end-tidal target, machine limits.")
+    st.caption(
+        "How low may the fresh-gas flow go, phase by phase, for the case on the planner page, and which "
+        "limit binds: inspired O2, a full bag, reaching and holding the end-tidal target, machine limits."
+    )
     if model() is None:
-        placeholder("The flow floor", "estimator.safety",
-                    "It will search the lowest fresh-gas flow at each moment that keeps inspired O2 above the "
-                    "threshold, keeps the bag full and lets the vaporizer hold the end-tidal target.")
+        placeholder(
+            "The flow floor",
+            "estimator.safety",
+            "It will search the lowest fresh-gas flow at each moment that keeps inspired O2 above the "
+            "threshold, keeps the bag full and lets the vaporizer hold the end-tidal target.",
+        )
         return
     doc = dict(state.document())
     doc["flow_floor"] = settings(doc)
@@ -121,8 +188,12 @@ def render() -> None:
     fu, f = unit("flow"), flow_factor()
     mean_rec = cmp_["recommended"]["mean_fresh_gas_flow"].to("L/min").magnitude * f
     mean_plan = cmp_["plan"]["mean_fresh_gas_flow"].to("L/min").magnitude * f
-    m[0].metric("Mean flow at the floor", f"{mean_rec:.{2 if fu == 'L/min' else 0}f} {fu}",
-                f"{mean_rec - mean_plan:+.{2 if fu == 'L/min' else 0}f} {fu} vs plan", delta_color="off")
+    m[0].metric(
+        "Mean flow at the floor",
+        f"{mean_rec:.{2 if fu == 'L/min' else 0}f} {fu}",
+        f"{mean_rec - mean_plan:+.{2 if fu == 'L/min' else 0}f} {fu} vs plan",
+        delta_color="off",
+    )
     m[1].metric("Liquid agent saved", f"{cmp_['saving']['agent_liquid'].to('mL').magnitude:.1f} mL")
     m[2].metric("Oxygen saved", f"{cmp_['saving']['oxygen'].to('L').magnitude:.0f} L", help=GAS_VOLUME_REFERENCE)
     m[3].metric("CO2e saved", f"{cmp_['saving']['co2e'].to('kg').magnitude:.2f} kg", help="IPCC AR6 GWP100")
@@ -131,16 +202,34 @@ def render() -> None:
     st.dataframe(table, hide_index=True, width="stretch")
     st.subheader("Flow floor over time")
     show(chart(result, plan))
-    st.caption("The floor at a time answers: from here to the end of this phase, how low may the flow go on the "
-               "planned course so far. Flows are settable values on the flowmeter scale.")
+    st.caption(
+        "The floor at a time answers: from here to the end of this phase, how low may the flow go on the "
+        "planned course so far. Flows are settable values on the flowmeter scale."
+    )
     st.subheader("Advisories")
     show_warnings(result.warnings, empty="No flow-floor advisories.")
     if cmp_.get("recommended_warnings"):
         st.markdown("**At the recommended schedule the case model warns:**")
         show_warnings(cmp_["recommended_warnings"])
-    grid = pd.DataFrame([{"time [min]": g["time"].to("min").magnitude,
-                          f"floor [{fu}]": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
-                          "binding": g["binding"]} for g in result.grid])
-    downloads("flow_floor", {"phases": table, "grid": grid}, result.to_json, "floor", title="Flow floor",
-              notes=[f"Flows in {fu}: the lowest total fresh-gas flow that keeps every limit, per phase and "
-                     "over time.", f"Gas volumes: {GAS_VOLUME_REFERENCE}."], warnings=result.warnings)
+    grid = pd.DataFrame(
+        [
+            {
+                "time [min]": g["time"].to("min").magnitude,
+                f"floor [{fu}]": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
+                "binding": g["binding"],
+            }
+            for g in result.grid
+        ]
+    )
+    downloads(
+        "flow_floor",
+        {"phases": table, "grid": grid},
+        result.to_json,
+        "floor",
+        title="Flow floor",
+        notes=[
+            f"Flows in {fu}: the lowest total fresh-gas flow that keeps every limit, per phase and over time.",
+            f"Gas volumes: {GAS_VOLUME_REFERENCE}.",
+        ],
+        warnings=result.warnings,
+    )

@@ -30,23 +30,34 @@ def _prices() -> Any:
 def run_audit(text: str, prices_key: str, basis: str, quadrature: str, after: float) -> Any:
     from estimator.audit import audit
 
-    return audit(io.StringIO(text), prices=_prices() if prices_key else None, basis=basis, quadrature=quadrature,
-                 maintenance_after=f"{after:g} min")
+    return audit(
+        io.StringIO(text),
+        prices=_prices() if prices_key else None,
+        basis=basis,
+        quadrature=quadrature,
+        maintenance_after=f"{after:g} min",
+    )
 
 
 @st.cache_data(max_entries=8, show_spinner="Re-running each case at the policy flow (engine)...")
-def run_counterfactual(text: str, prices_key: str, basis: str, quadrature: str, after: float,
-                       policy_flow: float) -> dict[str, Any]:
+def run_counterfactual(
+    text: str, prices_key: str, basis: str, quadrature: str, after: float, policy_flow: float
+) -> dict[str, Any]:
     from estimator.audit_policy import counterfactual, parse_policy
 
     result = run_audit(text, prices_key, basis, quadrature, after)
-    return counterfactual(result, parse_policy({"fresh_gas_flow": f"{policy_flow:g} L/min"}),
-                          prices=_prices() if prices_key else None)
+    return counterfactual(
+        result, parse_policy({"fresh_gas_flow": f"{policy_flow:g} L/min"}), prices=_prices() if prices_key else None
+    )
 
 
 def _log_text() -> tuple[str, str]:
-    up = st.file_uploader("Fresh-gas log (CSV)", type=["csv"], key="audit.upload",
-                          help=f"Header and units as in the README; at most {MAX_UPLOAD_BYTES // 2**20} MB.")
+    up = st.file_uploader(
+        "Fresh-gas log (CSV)",
+        type=["csv"],
+        key="audit.upload",
+        help=f"Header and units as in the README; at most {MAX_UPLOAD_BYTES // 2**20} MB.",
+    )
     if up is None:
         st.caption("No log loaded: showing an invented demo log of 8 cases in two theatres.")
         return demo.audit_log_csv(), "demo log"
@@ -66,17 +77,31 @@ def _file(result: Any, kind: str) -> bytes:
 
 def render() -> None:
     st.title("Fresh-gas audit")
-    st.caption("From recorded cases: how much agent, CO2e and money the fresh gas cost, and what a low-flow "
-               "policy would save.")
+    st.caption(
+        "From recorded cases: how much agent, CO2e and money the fresh gas cost, and what a low-flow policy would save."
+    )
     bases = list(CO2E_BASES)
     c1, c2, c3, c4 = st.columns(4)
     basis = c1.selectbox("CO2e basis", bases, format_func=lambda b: CO2E_BASES[b][1], key="audit.basis")
-    quad = c2.selectbox("Integration", ("hold", "trapezoid"), key="audit.quadrature",
-                        format_func=lambda q: {"hold": "sample and hold (dials)", "trapezoid": "trapezoid (measured)"}[q])
+    quad = c2.selectbox(
+        "Integration",
+        ("hold", "trapezoid"),
+        key="audit.quadrature",
+        format_func=lambda q: {"hold": "sample and hold (dials)", "trapezoid": "trapezoid (measured)"}[q],
+    )
     after = c3.number_input("Maintenance starts after [min]", 0.0, 600.0, 10.0, 1.0, key="audit.after")
     ff = 1000.0 if unit("flow") == "mL/min" else 1.0
-    policy = c4.number_input(f"Policy fresh-gas flow [{unit('flow')}]", 0.1 * ff, 15.0 * ff, 0.5 * ff, 0.1 * ff,
-                             key=f"audit.policy.{unit('flow')}") / ff
+    policy = (
+        c4.number_input(
+            f"Policy fresh-gas flow [{unit('flow')}]",
+            0.1 * ff,
+            15.0 * ff,
+            0.5 * ff,
+            0.1 * ff,
+            key=f"audit.policy.{unit('flow')}",
+        )
+        / ff
+    )
     try:
         text, name = _log_text()
         prices_key = state.toml_text({"p": state.document().get("prices") or {}})
@@ -89,27 +114,31 @@ def render() -> None:
     st.subheader(f"{name}: {r['read']} rows read, {r['used']} used, {r['rejected']} rejected")
     if result.rejections:
         with st.expander(f"Rejected rows ({len(result.rejections)})", expanded=True):
-            st.dataframe(pd.DataFrame(result.rejections, columns=["line", "reason"]), hide_index=True,
-                         width="stretch")
+            st.dataframe(pd.DataFrame(result.rejections, columns=["line", "reason"]), hide_index=True, width="stretch")
     k, t = result.kpis, result.totals
     m = st.columns(5)
     m[0].metric("Cases", f"{t.get('cases', 0)}")
     m[1].metric("Liquid agent", f"{t.get('agent_liquid_ml', 0):.0f} mL")
     m[2].metric("CO2e", f"{t.get('co2e_kg', 0):.1f} kg", help=CO2E_BASES[basis][1])
-    m[3].metric(f"Cost [{currency}]" if "cost_total" in t else "Cost",
-                f"{t['cost_total']:.2f}" if "cost_total" in t else "no prices")
-    m[4].metric("Mean maintenance flow", f"{k['mean_maintenance_flow_l_min'] * ff:.{2 if ff == 1 else 0}f} "
-                f"{unit('flow')}", help=f"class: {k.get('mean_maintenance_flow_class')}")
+    m[3].metric(
+        f"Cost [{currency}]" if "cost_total" in t else "Cost",
+        f"{t['cost_total']:.2f}" if "cost_total" in t else "no prices",
+    )
+    m[4].metric(
+        "Mean maintenance flow",
+        f"{k['mean_maintenance_flow_l_min'] * ff:.{2 if ff == 1 else 0}f} {unit('flow')}",
+        help=f"class: {k.get('mean_maintenance_flow_class')}",
+    )
     m = st.columns(4)
     m[0].metric("Maintenance time at <= 1 L/min", f"{100 * k['maintenance_share_le_1']:.0f} %")
     m[1].metric("Maintenance time at <= 0.5 L/min", f"{100 * k['maintenance_share_le_0_5']:.0f} %")
     m[2].metric("MAC-hours", f"{k.get('mac_hours', 0):.1f}")
     m[3].metric("CO2e per MAC-hour", f"{k.get('co2e_per_mac_hour_kg', float('nan')):.2f} kg")
-    shares = pd.DataFrame({"flow class": list(k["flow_class_shares"]),
-                           "share": [100 * v for v in k["flow_class_shares"].values()]})
+    shares = pd.DataFrame(
+        {"flow class": list(k["flow_class_shares"]), "share": [100 * v for v in k["flow_class_shares"].values()]}
+    )
     c1, c2 = st.columns(2)
-    show(bars(shares, "flow class", "share", "flow class (Brattwall et al. 2012)",
-                         "maintenance time [%]"), c1)
+    show(bars(shares, "flow class", "share", "flow class (Brattwall et al. 2012)", "maintenance time [%]"), c1)
     per_case = result.cases[["case_id", "agent_liquid_ml"]].rename(columns={"agent_liquid_ml": "liquid"})
     show(bars(per_case, "case_id", "liquid", "case", "liquid agent [mL]"), c2)
     tabs = st.tabs(["Cases", "Rooms", "Months"])
@@ -119,22 +148,29 @@ def render() -> None:
     show_warnings(result.warnings)
 
     st.subheader("Counterfactual: the same cases at the policy flow")
-    st.caption("Each case re-run by the engine: wash-in as recorded, maintenance as an end-tidal hold at the "
-               "recorded end-tidal agent with the policy's fresh-gas flow.")
+    st.caption(
+        "Each case re-run by the engine: wash-in as recorded, maintenance as an end-tidal hold at the "
+        "recorded end-tidal agent with the policy's fresh-gas flow."
+    )
     cf = None
     if st.toggle("Run the counterfactual", key="audit.cf"):
         try:
-            cf = run_counterfactual(text, prices_key if state.document().get("prices") else "", basis, quad, after,
-                                    policy)
+            cf = run_counterfactual(
+                text, prices_key if state.document().get("prices") else "", basis, quad, after, policy
+            )
         except InputError as exc:
             show_error(exc)
     if cf is not None:
         s, share = cf["totals"]["savings"], cf["totals"]["savings_share"]
         m = st.columns(4)
-        m[0].metric("Liquid agent saved", f"{s['agent_liquid']['magnitude']:.0f} mL",
-                    f"{100 * (share.get('agent_liquid') or 0):.0f} %")
-        m[1].metric("Fresh gas saved", f"{s['fresh_gas']['magnitude']:.0f} L",
-                    f"{100 * (share.get('fresh_gas') or 0):.0f} %")
+        m[0].metric(
+            "Liquid agent saved",
+            f"{s['agent_liquid']['magnitude']:.0f} mL",
+            f"{100 * (share.get('agent_liquid') or 0):.0f} %",
+        )
+        m[1].metric(
+            "Fresh gas saved", f"{s['fresh_gas']['magnitude']:.0f} L", f"{100 * (share.get('fresh_gas') or 0):.0f} %"
+        )
         m[2].metric("CO2e saved", f"{s['co2e']['magnitude']:.1f} kg", f"{100 * (share.get('co2e') or 0):.0f} %")
         if s.get("cost"):
             m[3].metric(f"Cost saved [{currency}]", f"{s['cost']['total']:.2f}")
@@ -152,11 +188,18 @@ def render() -> None:
 
     c = st.columns(4)
     opts = {"width": "stretch", "on_click": "ignore"}
-    c[0].download_button("Cases (CSV)", lambda: _file(result, "csv"), "audit_cases.csv", "text/csv",
-                         key="audit.csv", **opts)
-    c[1].download_button("Workbook (XLSX)", lambda: _file(result, "xlsx"), "audit.xlsx",
-                         "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key="audit.xlsx",
-                         **opts)
-    c[2].download_button("Report (HTML)", lambda: _file(result, "html"), "audit_report.html", "text/html",
-                         key="audit.html", **opts)
+    c[0].download_button(
+        "Cases (CSV)", lambda: _file(result, "csv"), "audit_cases.csv", "text/csv", key="audit.csv", **opts
+    )
+    c[1].download_button(
+        "Workbook (XLSX)",
+        lambda: _file(result, "xlsx"),
+        "audit.xlsx",
+        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        key="audit.xlsx",
+        **opts,
+    )
+    c[2].download_button(
+        "Report (HTML)", lambda: _file(result, "html"), "audit_report.html", "text/html", key="audit.html", **opts
+    )
     c[3].download_button("JSON", as_json, "audit.json", "application/json", key="audit.json", **opts)

@@ -34,13 +34,19 @@ REFERENCES = (
 )
 
 EQUATIONS = (
-    ("Brody power laws (patient scaling)", r"\dot V_{O_2} = 10\,W^{3/4}\ \mathrm{mL/min},\quad "
-     r"\dot V_{CO_2} = 8\,W^{3/4},\quad \dot Q = 2\,W^{3/4}\ \mathrm{dL/min}"),
+    (
+        "Brody power laws (patient scaling)",
+        r"\dot V_{O_2} = 10\,W^{3/4}\ \mathrm{mL/min},\quad "
+        r"\dot V_{CO_2} = 8\,W^{3/4},\quad \dot Q = 2\,W^{3/4}\ \mathrm{dL/min}",
+    ),
     ("Mapleson age correction of MAC", r"\mathrm{MAC}(a) = \mathrm{MAC}_{40}\cdot 10^{-0.00269\,(a-40)}"),
     ("Vaporizer output", r"\dot V_{agent} = \dot V_{carrier}\,\frac{D}{1-D}"),
     ("Circle gas balance", r"\dot V_{exhaust} = \dot V_{FG} - \dot V_{uptake} - \dot V_{leak} - \dot V_{sample,lost}"),
     ("Tissue group (perfusion-limited)", r"V_t \lambda_{t/b} \frac{dP_t}{dt} = \dot Q_t\,(P_a - P_t)"),
-    ("Lowe square-root-of-time (cross-check)", r"\dot V_{uptake}(t) = f\,\mathrm{MAC}\,\lambda_{b/g}\,\dot Q\,t^{-1/2}"),
+    (
+        "Lowe square-root-of-time (cross-check)",
+        r"\dot V_{uptake}(t) = f\,\mathrm{MAC}\,\lambda_{b/g}\,\dot Q\,t^{-1/2}",
+    ),
     ("Dion's vapour-cost formula", r"V_{liquid} = \frac{C\,\dot V_{FG}\,t\,M}{2412\,\rho}"),
 )
 
@@ -112,26 +118,35 @@ def render() -> None:
     table = pd.DataFrame(source_table())
     st.caption("Confidence: " + "; ".join(f"**{k}** {v}" for k, v in CONFIDENCE_CODES.items()))
     agent_names = sorted(table["species"].unique())
-    pick = st.multiselect("Species", agent_names, default=[], key="methods.species",
-                          placeholder="all species")
+    pick = st.multiselect("Species", agent_names, default=[], key="methods.species", placeholder="all species")
     shown = table[table["species"].isin(pick)] if pick else table
     st.dataframe(shown, hide_index=True, width="stretch")
     st.subheader("Validation")
-    st.caption("Each row is a check in the test suite of a model value against a published table or "
-               "worked example, a standard, a reference library or a fact of the trade "
-               "(docs/VALIDATION.md in the repository).")
+    st.caption(
+        "Each row is a check in the test suite of a model value against a published table or "
+        "worked example, a standard, a reference library or a fact of the trade "
+        "(docs/VALIDATION.md in the repository)."
+    )
     report = validation_table()
     if report is None:
-        st.info("The validation report docs/VALIDATION.md is not in this installation; generate it with "
-                "`uv run python docs/make_validation.py`.")
+        st.info(
+            "The validation report docs/VALIDATION.md is not in this installation; generate it with "
+            "`uv run python docs/make_validation.py`."
+        )
     else:
         table, summary = report
         st.markdown(summary.replace("`", ""))
-        st.dataframe(table.drop(columns=["#"], errors="ignore"), hide_index=True, width="stretch",
-                     key="methods.validation")
+        st.dataframe(
+            table.drop(columns=["#"], errors="ignore"), hide_index=True, width="stretch", key="methods.validation"
+        )
     st.subheader("References")
     for ref in REFERENCES:
         st.markdown(f"- {ref}")
-    downloads("sourced_values", {"values": table}, {"values": table.to_dict("records")}, "methods",
-              title="Sourced values", notes=["Confidence: " + "; ".join(f"{k} {v}" for k, v in
-                                                                         CONFIDENCE_CODES.items())])
+    downloads(
+        "sourced_values",
+        {"values": table},
+        {"values": table.to_dict("records")},
+        "methods",
+        title="Sourced values",
+        notes=["Confidence: " + "; ".join(f"{k} {v}" for k, v in CONFIDENCE_CODES.items())],
+    )
