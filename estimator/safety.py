@@ -9,6 +9,10 @@ which every limit holds from the start to the end of the phase:
 * ``GAS_BALANCE``: no volume deficit (fresh gas covers net uptake, leak and unreturned sample gas);
 * ``TARGET_REACH`` / ``TARGET_HOLD``: an end-tidal hold target reached within ``reach_within`` of the
   phase start and then held with the dial at or below the vaporizer maximum;
+* ``WASH_OUT``: in a phase with the dial at 0 that starts above ``wash_out_to`` end-tidal MAC (agent
+  and N2O; default 0.3 MAC, about MAC-awake: Stoelting RK et al. Anesthesiology 1970;33:5, Katoh T
+  et al. Anesthesiology 1993;79:1132 for sevoflurane, from memory), that value is reached within
+  ``wash_out_within`` of the phase start (default 10 min, or the phase end if sooner) and kept;
 * ``BASAL_O2``, ``O2_PROPORTION``, ``FLOWMETER_RANGE``: machine limits (basal O2 flow, at least 25 %
   O2 in O2/N2O, ISO 80601-2-13 anti-hypoxic proportioning, from memory; the flowmeter's top);
 * ``LABEL_SEVOFLURANE_US`` (optional policy): sevoflurane US label, fresh gas not below 1 L/min and
@@ -48,6 +52,7 @@ LIMITS = (
     "GAS_BALANCE",
     "TARGET_REACH",
     "TARGET_HOLD",
+    "WASH_OUT",
     "BASAL_O2",
     "O2_PROPORTION",
     "FLOWMETER_RANGE",
@@ -58,6 +63,7 @@ LIMIT_TEXT = {
     "GAS_BALANCE": "fresh gas would not cover uptake, leak and unreturned sample gas (the bag empties)",
     "TARGET_REACH": "the end-tidal target would not be reached in time",
     "TARGET_HOLD": "the end-tidal target could not be held with the dial at its maximum",
+    "WASH_OUT": "with the dial at 0 the end-tidal MAC would not fall to the wash-out target in time",
     "BASAL_O2": "the O2 flow would be below the machine's basal O2 flow",
     "O2_PROPORTION": "the O2 share of O2/N2O would be below the anti-hypoxic minimum",
     "FLOWMETER_RANGE": "a flow would exceed the flowmeter's range",
@@ -79,6 +85,8 @@ class Settings:
 
     threshold: float
     reach_within: float
+    wash_out_to: float
+    wash_out_within: float
     basal_o2: float
     min_o2_share: float
     max_flow: float
@@ -155,6 +163,8 @@ def settings_from(scenario: Scenario, threshold: float | None = None) -> Setting
     return Settings(
         thr,
         ff.reach_within.to("min").magnitude,
+        ff.wash_out_to.to("MAC").magnitude,
+        ff.wash_out_within.to("min").magnitude,
         ff.basal_oxygen_flow.to("L/min").magnitude,
         ff.minimum_oxygen_share.to("").magnitude,
         ff.maximum_flow.to("L/min").magnitude,
@@ -296,6 +306,18 @@ class Planner:
                 if pinned.any():
                     failed.append("TARGET_HOLD")
                 margins["TARGET_HOLD"] = Q_(float(100 * (p[c.P_UMAX] - u[after].max())), "percent")
+        elif p[c.P_UFIXED] == 0.0 and p[c.P_CARRIER + c.N2O] == 0.0 and ws[0, c.W_MAC] > self.st.wash_out_to + 1e-9:
+            # emergence: dial off, no N2O delivered, and agent (or N2O) left to wash out
+            mac = ws[:, c.W_MAC]
+            deadline = max(min(t_phase0 + self.st.wash_out_within, t1), t0)
+            low = mac <= self.st.wash_out_to + 1e-9
+            reached = int(np.argmax(low)) if low.any() else None
+            kept = reached is not None and bool(low[reached:].all())
+            if reached is None or times[reached] > deadline + 1e-9 or not kept:
+                failed.append("WASH_OUT")
+                margins["WASH_OUT"] = Q_(float("nan"), "min")
+            else:
+                margins["WASH_OUT"] = Q_(float(deadline - times[reached]), "min")
         mac_min = float(ys[-1, c.Y_MACMIN] - ys[0, c.Y_MACMIN])
         if "sevoflurane_us_label" in self.st.policies and self.sc.agent.name == "sevoflurane":
             total = sum(flows)

@@ -210,6 +210,9 @@ class FlowFloorInput(_Model):
     threshold_basis: Literal["fraction", "partial_pressure"] = "fraction"
     """``partial_pressure``: the threshold is read as the sea-level PiO2 it gives (for high sites)."""
     reach_within: _quantity("time", 0.5, 120.0, "min") = Q_(15.0, "min")
+    wash_out_to: _quantity("mac", 0.05, 1.0, "MAC") = Q_(0.3, "MAC")
+    """Emergence: end-tidal MAC (agent and N2O) to reach in a phase with the dial at 0."""
+    wash_out_within: _quantity("time", 0.5, 120.0, "min") = Q_(10.0, "min")
     basal_oxygen_flow: _quantity("flow", 0.0, 1.0, "L/min") = Q_(0.0, "L/min")
     minimum_oxygen_share: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(0.25, "dimensionless")
     maximum_flow: Flow = Q_(15.0, "L/min")

@@ -186,6 +186,18 @@ def test_flow_floor_page_and_a_stricter_threshold():
     assert (strict >= floor - 1e-9).all() and (strict > floor + 1e-9).any()
 
 
+def test_flow_floor_page_less_time_to_wash_out_raises_the_emergence_floor():
+    # The demo's emergence (dial at 0) is bound by the wash-out limit; less time for it needs more
+    # fresh gas (a well-mixed circuit washes out faster at higher flow, common practice).
+    at = page("flow_floor")
+    table = at.dataframe[0].value
+    emergence = table.iloc[-1]
+    assert emergence["binding limit"] == "WASH_OUT"
+    at.number_input(key="floor.washin.0").set_value(5.0).run()
+    assert_clean(at)
+    assert at.dataframe[0].value.iloc[-1]["flow floor [L/min]"] > emergence["flow floor [L/min]"]
+
+
 def test_supply_page_more_cases_fewer_days():
     at = page("supply_duration")
     assert_clean(at)

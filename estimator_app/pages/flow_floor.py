@@ -69,7 +69,25 @@ def settings(doc: dict[str, Any]) -> dict[str, Any]:
         1.0,
         key=f"floor.reach.{v}",
     )
-    label = c4.checkbox(
+    w1, w2 = c4.columns(2)
+    wash_to = w1.number_input(
+        "Wash out to [MAC]",
+        0.05,
+        1.0,
+        cur("wash_out_to", "mac", "MAC", 0.3),
+        0.05,
+        key=f"floor.washto.{v}",
+        help="Emergence (dial at 0, no N2O): end-tidal MAC to reach; about MAC-awake at 0.3",
+    )
+    wash_in = w2.number_input(
+        "within [min]",
+        0.5,
+        120.0,
+        cur("wash_out_within", "time", "min", 10.0),
+        1.0,
+        key=f"floor.washin.{v}",
+    )
+    label = c3.checkbox(
         "Sevoflurane US label rule",
         "sevoflurane_us_label" in ff_doc.get("policies", []),
         key=f"floor.label.{v}",
@@ -80,6 +98,8 @@ def settings(doc: dict[str, Any]) -> dict[str, Any]:
             "threshold_inspired_oxygen": f"{thr:g} %",
             "basal_oxygen_flow": f"{basal / f:g} L/min",
             "reach_within": f"{reach:g} min",
+            "wash_out_to": f"{wash_to:g} MAC",
+            "wash_out_within": f"{wash_in:g} min",
             "policies": ["sevoflurane_us_label"] if label else [],
         }
     )
