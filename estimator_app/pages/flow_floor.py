@@ -44,65 +44,83 @@ def settings(doc: dict[str, Any]) -> dict[str, Any]:
         except InputError:
             return default
 
-    c1, c2, c3, c4 = st.columns(4)
-    thr = c1.number_input(
-        "Inspired O2 threshold [%]",
-        21.0,
-        100.0,
-        cur("threshold_inspired_oxygen", "fraction", "percent", 30.0),
-        1.0,
-        key=f"floor.thr.{v}",
+    #: (column, key in [flow_floor], label, dimension, unit shown, default, low, high, step, widget key, help)
+    inputs = (
+        (
+            0,
+            "threshold_inspired_oxygen",
+            "Inspired O2 threshold [%]",
+            "fraction",
+            "percent",
+            30.0,
+            21.0,
+            100.0,
+            1.0,
+            "thr",
+            None,
+        ),
+        (
+            1,
+            "basal_oxygen_flow",
+            f"Machine basal O2 flow [{fu}]",
+            "flow",
+            "L/min",
+            0.0,
+            0.0,
+            1.0,
+            0.05,
+            f"basal.{fu}",
+            None,
+        ),
+        (
+            2,
+            "reach_within",
+            "Reach the end-tidal target within [min]",
+            "time",
+            "min",
+            15.0,
+            0.5,
+            120.0,
+            1.0,
+            "reach",
+            None,
+        ),
+        (
+            3,
+            "wash_out_to",
+            "Wash out to [MAC]",
+            "mac",
+            "MAC",
+            0.3,
+            0.05,
+            1.0,
+            0.05,
+            "washto",
+            "Emergence (dial at 0, no N2O): end-tidal MAC to reach; about MAC-awake at 0.3",
+        ),
+        (3, "wash_out_within", "Wash out within [min]", "time", "min", 10.0, 0.5, 120.0, 1.0, "washin", None),
     )
-    basal = c2.number_input(
-        f"Machine basal O2 flow [{fu}]",
-        0.0,
-        1.0 * f,
-        cur("basal_oxygen_flow", "flow", "L/min", 0.0) * f,
-        0.05 * f,
-        key=f"floor.basal.{v}.{fu}",
-    )
-    reach = c3.number_input(
-        "Reach the end-tidal target within [min]",
-        0.5,
-        120.0,
-        cur("reach_within", "time", "min", 15.0),
-        1.0,
-        key=f"floor.reach.{v}",
-    )
-    w1, w2 = c4.columns(2)
-    wash_to = w1.number_input(
-        "Wash out to [MAC]",
-        0.05,
-        1.0,
-        cur("wash_out_to", "mac", "MAC", 0.3),
-        0.05,
-        key=f"floor.washto.{v}",
-        help="Emergence (dial at 0, no N2O): end-tidal MAC to reach; about MAC-awake at 0.3",
-    )
-    wash_in = w2.number_input(
-        "within [min]",
-        0.5,
-        120.0,
-        cur("wash_out_within", "time", "min", 10.0),
-        1.0,
-        key=f"floor.washin.{v}",
-    )
-    label = c3.checkbox(
+    cols = st.columns(4)
+    values = {}
+    for col, key, label, dim, u, default, low, high, step, widget, tip in inputs:
+        scale = f if dim == "flow" else 1.0  # flows in the display unit
+        shown = cols[col].number_input(
+            label,
+            low * scale,
+            high * scale,
+            cur(key, dim, u, default) * scale,
+            step * scale,
+            key=f"floor.{widget}.{v}",
+            help=tip,
+        )
+        values[key] = f"{shown / scale:g} {'%' if u == 'percent' else u}"
+    label = cols[2].checkbox(
         "Sevoflurane US label rule",
         "sevoflurane_us_label" in ff_doc.get("policies", []),
         key=f"floor.label.{v}",
         help=">= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min",
     )
-    ff_doc.update(
-        {
-            "threshold_inspired_oxygen": f"{thr:g} %",
-            "basal_oxygen_flow": f"{basal / f:g} L/min",
-            "reach_within": f"{reach:g} min",
-            "wash_out_to": f"{wash_to:g} MAC",
-            "wash_out_within": f"{wash_in:g} min",
-            "policies": ["sevoflurane_us_label"] if label else [],
-        }
-    )
+    ff_doc.update({**values, "policies": ["sevoflurane_us_label"] if label else []})
     return ff_doc
 
 
