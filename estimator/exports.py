@@ -228,6 +228,19 @@ th{background:#eef3f6;text-align:left}svg text{font-size:12px;fill:#1d2a33}svg .
 .caution{background:#fff6e0;border-left:4px solid #d9a400;padding:.6em}"""
 
 
+def _page(title: str, body: str) -> str:
+    """A self-contained HTML document: the escaped title as heading, our style, then ``body``."""
+    esc = html.escape
+    return f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>{esc(title)}</title>
+<style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>{body}</body></html>"""
+
+
+def _warning_items(warnings: list[tuple[str, str]] | None) -> str:
+    """List items of (code, message) warnings, escaped; one "None." item when there are none."""
+    items = "".join(f"<li><b>{html.escape(c)}</b>: {html.escape(m)}</li>" for c, m in warnings or ())
+    return items or "<li>None.</li>"
+
+
 def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
     """The self-contained HTML report of an audit."""
     label = CO2E_BASES[result.basis][1]
@@ -288,10 +301,11 @@ def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
     kpi = pd.DataFrame(_kpi_rows(result), columns=["kpi", "value"])
     rej = pd.DataFrame(result.rejections, columns=["line", "reason"])
     lab = lambda df: export_table(df, result, spreadsheet=False)  # noqa: E731 - headers with units
-    warn = "".join(f"<li><b>{esc(c)}</b>: {esc(m)}</li>" for c, m in result.warnings)
+    warn = _warning_items(result.warnings)
     notes = "".join(f"<li>{esc(n)}</li>" for n in result.notes)
-    return f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>{esc(title)}</title>
-<style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>
+    return _page(
+        title,
+        f"""
 <p>Rows read {result.rows["read"]}, used {result.rows["used"]}, rejected {result.rows["rejected"]}.
 CO2e basis: {esc(label)}. Gas volumes: {esc(GAS_VOLUME_REFERENCE)}.
 Costs: {esc(result.currency or "no prices given")}.</p>
@@ -301,8 +315,9 @@ Costs: {esc(result.currency or "no prices given")}.</p>
 <h2>Rooms</h2>{_table(lab(rooms))}<h2>Months</h2>{_table(lab(months))}
 <h2>Cases</h2>{_table(lab(result.cases))}
 <h2>Rejected rows</h2>{_table(rej) if len(rej) else "<p>None.</p>"}
-<h2>Warnings</h2><ul>{warn or "<li>None.</li>"}</ul><h2>Method notes</h2><ul>{notes}</ul>
-</body></html>"""
+<h2>Warnings</h2><ul>{warn}</ul><h2>Method notes</h2><ul>{notes}</ul>
+""",
+    )
 
 
 def write_html(result: AuditResult, path: str | Path, title: str = "Fresh-gas audit") -> Path:
@@ -345,9 +360,11 @@ def tables_report_html(
     esc = html.escape
     sections = "".join(f"<h2>{esc(str(name))}</h2>{_table(frame, limit)}" for name, frame in tables.items())
     lines = "".join(f"<p>{esc(n)}</p>" for n in notes or ())
-    warn = "".join(f"<li><b>{esc(c)}</b>: {esc(m)}</li>" for c, m in warnings or ())
-    return f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>{esc(title)}</title>
-<style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>{lines}
+    warn = _warning_items(warnings)
+    return _page(
+        title,
+        f"""{lines}
 <p class="caution">{esc(_caution())}</p>{sections}
-<h2>Warnings</h2><ul>{warn or "<li>None.</li>"}</ul>
-</body></html>"""
+<h2>Warnings</h2><ul>{warn}</ul>
+""",
+    )

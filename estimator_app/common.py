@@ -81,9 +81,14 @@ def show_error(exc: InputError) -> None:
     st.error(f"Input not accepted: {exc}", icon=":material/error:")
 
 
+def warning_pairs(warnings: Any) -> list[tuple[str, str]]:
+    """(code, message) pairs of warnings given as pairs or as JSON dicts with code and message."""
+    return [(w["code"], w["message"]) if isinstance(w, dict) else tuple(w) for w in warnings or ()]
+
+
 def show_warnings(warnings: Any, empty: str | None = None) -> None:
     """Model warnings as (code, message) pairs, or dicts with code and message."""
-    items = [(w["code"], w["message"]) if isinstance(w, dict) else tuple(w) for w in warnings or ()]
+    items = warning_pairs(warnings)
     for code, message in items:
         st.warning(f"**{code}** - {message}", icon=":material/report:")
     if not items and empty:
@@ -166,8 +171,8 @@ def downloads(
     def as_html() -> bytes:
         from estimator.exports import tables_report_html
 
-        items = [(w["code"], w["message"]) if isinstance(w, dict) else tuple(w) for w in warnings or ()]
-        return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes, warnings=items).encode("utf-8")
+        pairs = warning_pairs(warnings)
+        return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes, warnings=pairs).encode("utf-8")
 
     c1, c2, c3, c4 = st.columns(4)
     c1.download_button(
