@@ -12,7 +12,8 @@ which every limit holds from the start to the end of the phase:
 * ``WASH_OUT``: in a phase with the dial at 0 that starts above ``wash_out_to`` end-tidal MAC (agent
   and N2O; default 0.3 MAC, about MAC-awake: Stoelting RK et al. Anesthesiology 1970;33:5, Katoh T
   et al. Anesthesiology 1993;79:1132 for sevoflurane, from memory), that value is reached within
-  ``wash_out_within`` of the phase start (default 10 min, or the phase end if sooner) and kept;
+  ``wash_out_within`` of the phase start (default 10 min, common practice, no source; or the phase
+  end if sooner) and kept;
 * ``BASAL_O2``, ``O2_PROPORTION``, ``FLOWMETER_RANGE``: machine limits (basal O2 flow, at least 25 %
   O2 in O2/N2O, ISO 80601-2-13 anti-hypoxic proportioning, from memory; the flowmeter's top);
 * ``LABEL_SEVOFLURANE_US`` (optional policy): sevoflurane US label, fresh gas not below 1 L/min and
