@@ -4,7 +4,7 @@ deference to local practice.
 References
 ----------
 .. [1] Sevoflurane US prescribing information: compound A; fresh gas below 1 L/min not recommended,
-   at most 2 MAC-hours at 1 to < 2 L/min (REFERENCES sec. 11).
+   at most 2 MAC-hours at 1 to < 2 L/min.
 .. [2] Fang ZX, Eger EI, Laster MJ et al. Carbon monoxide production from degradation of desflurane,
    enflurane, isoflurane, halothane, and sevoflurane by soda lime and Baralyme. Anesth Analg
    1995;80:1187-93.
@@ -18,12 +18,17 @@ from typing import Any
 
 import numpy as np
 
+from .limits import (
+    ARGON_LIMIT,
+    COMPOUND_A_FLOW,
+    LABEL_MAC_HOURS,
+    LABEL_MIDDLE_FLOW,
+    LABEL_MINIMUM_FLOW,
+    LOW_FLOW,
+    NITROGEN_LIMIT,
+)
+
 LOCAL = "Follow local practice and the agent's local labelling."
-#: Inspired N2 above this share in a low-flow phase counts as accumulation (common practice, no source).
-NITROGEN_LIMIT = 0.10
-#: Inspired argon above this share is flagged (common practice, no source: it lowers inspired O2 by as much).
-ARGON_LIMIT = 0.05
-LOW_FLOW = 1.0  # [L/min], Baum and Aitkenhead 1995
 
 
 def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[str, str]]:
@@ -37,7 +42,7 @@ def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[s
     if fio2.min() < st.threshold:
         out.append(
             (
-                "HYPOXIC_MIXTURE_RISK",
+                "INSPIRED_OXYGEN_LOW",
                 f"the plan lets inspired O2 fall to {100 * fio2.min():.1f} % (threshold {100 * st.threshold:.0f} %) "
                 f"at {t[np.argmin(fio2)]:.0f} min. Raise the O2 share or the flow; monitor inspired O2 "
                 f"continuously with its low alarm set. {LOCAL}",
@@ -54,7 +59,7 @@ def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[s
     if codes & {"TARGET_NOT_REACHED"}:
         out.append(
             (
-                "TARGET_UNREACHABLE",
+                "TARGET_NOT_REACHED",
                 "the planned end-tidal target is not reached in the plan: raise the fresh-gas flow during "
                 f"wash-in. Monitor end-tidal agent. {LOCAL}",
             )
@@ -77,10 +82,10 @@ def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[s
                 )
             )
     if "sevoflurane_us_label" in st.policies and scenario.agent.name == "sevoflurane":
-        low = fgf < 1.0 - 1e-9
-        mid = (fgf >= 1.0 - 1e-9) & (fgf < 2.0 - 1e-9)
+        low = fgf < LABEL_MINIMUM_FLOW - 1e-9
+        mid = (fgf >= LABEL_MINIMUM_FLOW - 1e-9) & (fgf < LABEL_MIDDLE_FLOW - 1e-9)
         mac_mid = np.trapezoid(np.where(mid, s["end_tidal_mac [MAC]"], 0.0), t) / 60
-        if low.any() or mac_mid > 2.0:
+        if low.any() or mac_mid > LABEL_MAC_HOURS:
             out.append(
                 (
                     "LABEL_RULE_BREACHED",
@@ -89,7 +94,7 @@ def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[s
                     f"labelling differs. {LOCAL}",
                 )
             )
-    if scenario.agent.name == "sevoflurane" and (fgf < 2.0).any():
+    if scenario.agent.name == "sevoflurane" and (fgf < COMPOUND_A_FLOW).any():
         out.append(
             (
                 "COMPOUND_A",

@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from . import circuit as c
+from .limits import HYPOXIC_FRACTION
 from .properties import agent as agent_properties
 from .properties import gas
 from .results import FIO2_ADVISORY, P_H2O, SETTLE, TARGET_BAND, CaseResult, litres_per_mmol
@@ -260,7 +261,7 @@ def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray
                 "made the shortfall good with make-up gas, counted in the totals; raise the fresh-gas flow",
             )
         )
-    if fio2.min() < 0.21:
+    if fio2.min() < HYPOXIC_FRACTION:
         warns.append(
             (
                 "HYPOXIC_INSPIRED_MIXTURE",

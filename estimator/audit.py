@@ -66,6 +66,7 @@ from .audit_log import LogData, read_log
 from .closed_form import vapour_per_liquid
 from .costs import Prices, cost_table
 from .errors import InputError
+from .limits import INSPIRED_OXYGEN_FLOOR
 from .mac import mapleson_factor
 from .properties import AGENTS, CO2E_BASES, GASES
 from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE, parse_quantity
@@ -82,8 +83,8 @@ FLOW_CLASSES = (
     ("very high", float("inf")),
 )
 FLOW_CLASS_SOURCE = "Baum and Aitkenhead 1995; Brattwall et al. 2012"
-#: Minimum inspired O2 at low flow (Baum and Aitkenhead 1995, from memory).
-MIN_INSPIRED_OXYGEN = 0.30
+#: Minimum inspired O2 at low flow (the registry's INSPIRED_OXYGEN_FLOOR, Baum and Aitkenhead 1995).
+MIN_INSPIRED_OXYGEN = INSPIRED_OXYGEN_FLOOR
 UNITS = {
     "l": "liter",
     "ml": "milliliter",
@@ -319,7 +320,7 @@ def audit(
         if low.any():
             warnings.append(
                 (
-                    "LOW_INSPIRED_OXYGEN",
+                    "INSPIRED_OXYGEN_LOW",
                     f"{int(low.sum())} case(s) recorded inspired O2 below "
                     f"{MIN_INSPIRED_OXYGEN:.0%} (Baum and Aitkenhead 1995): see min_inspired_oxygen",
                 )

@@ -57,6 +57,7 @@ from scipy.special import ndtr, ndtri
 from .batch import CaseTemplate, case_template
 from .costs import Prices, parse_prices
 from .errors import InputError, read_text_file
+from .limits import MAPLESON_VALID_FROM as MAPLESON_MIN_AGE
 from .physiology import SANE_WEIGHT, VALIDATED_WEIGHT
 from .properties import AGENTS, CO2E_BASES
 from .scenario import input_error_from_validation, load_scenario, scenario_from_dict
@@ -68,8 +69,6 @@ Z90 = float(ndtri(0.9))
 #: Durations the model accepts [min] (a scenario lasts at most 24 h).
 DURATION_LIMITS = (1.0, 24 * 60.0)
 AGE_LIMITS = (0.0, 120.0)
-#: Mapleson's age factor is fitted from 1 year of age up (Mapleson 1996).
-MAPLESON_MIN_AGE = 1.0
 #: Bottle size used for orders when none is given: 250 mL (common practice, no source).
 DEFAULT_BOTTLE = "250 mL"
 #: Patient keys a case-mix template may not override: they are per patient, not per case type.

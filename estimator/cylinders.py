@@ -460,7 +460,7 @@ def nitrous_oxide_cylinder(
             f"temperature ({tc.to('degC').magnitude:.1f} degC): no liquid remains and the pressure "
             "follows the gas law; contents still from weight"
         )
-        notes.append(("nitrous_oxide_supercritical", msg))
+        notes.append(("NITROUS_OXIDE_SUPERCRITICAL", msg))
     elif phase == "vapour only":
         notes.append(
             ("NITROUS_OXIDE_NO_LIQUID", f"{f}: the weight implies no liquid is left; the gauge now falls with use")

@@ -63,6 +63,7 @@ import pint
 
 from .errors import InputError
 from .gas_mixtures import data_value, mixture_properties, resolve_gas
+from .limits import LOW_READING
 from .site import Site, site_from_inputs  # noqa: F401 (doctests)
 from .units import (
     GAS_VOLUME_REFERENCE,
@@ -77,7 +78,6 @@ from .units import check_range as _check_range
 LAMINAR_SHARE, TURBULENT_SHARE = 0.8, 0.2
 #: Readings [L/min] accepted; below LOW_READING a warning (sticking float, common practice).
 READING_RANGE = (0.0, 100.0)
-LOW_READING = 0.1
 BACK_PRESSURE_RANGE = (0.0, 20.0)  # kPa gauge at the tube outlet
 
 

@@ -64,13 +64,12 @@ from .casemix import CaseMix, CylinderSize
 from .costs import cost_table
 from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, reference_molar_volume
 from .errors import InputError
+from .limits import FEW_WEEKS, HYPOXIC_FRACTION
 from .properties import gas
 from .results import FIO2_ADVISORY, TARGET_BAND
 from .units import GAS_VOLUME_REFERENCE, Q_, parse_quantity
 
 STATISTICS = ("mean", "p50", "p95", "p99")
-#: Below this many weeks the P99 is flagged as rough (about 1 week in 100 lies above it).
-FEW_WEEKS = 100
 
 
 @dataclass
@@ -262,7 +261,7 @@ def forecast(
                 n,
                 {
                     "cut": int((dur < ct.template.fixed_duration).sum()),
-                    "hypoxic": int((tot["minimum_inspired_oxygen"] < 0.21).sum()),
+                    "hypoxic": int((tot["minimum_inspired_oxygen"] < HYPOXIC_FRACTION).sum()),
                     "low_o2": int((tot["minimum_inspired_oxygen"] < FIO2_ADVISORY).sum()),
                     "deficit": int((tot["volume_deficit"] > 1e-6).sum()),
                     "not_held": int((tot["final_mac_ratio"] < 1.0 - TARGET_BAND).sum()),

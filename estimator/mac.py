@@ -33,6 +33,7 @@ import numpy as np
 import pint
 
 from .errors import InputError
+from .limits import MAPLESON_VALID_FROM
 from .properties import Species, agent, gas
 from .site import site_from_inputs
 from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
@@ -41,9 +42,6 @@ from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
 MAPLESON_SLOPE = 0.00269
 #: Reference age of the tabulated MAC values [year] (Mapleson 1996, Table 2).
 MAPLESON_REFERENCE_AGE = 40.0
-#: Ages [year] the fit was made over: above 1 year (Mapleson 1996). Below it MAC does not follow
-#: the log-linear law (it peaks in infancy and is lower in neonates; from memory).
-MAPLESON_VALID_FROM = 1.0
 #: Ages [year] accepted at all.
 AGE_RANGE = (0.0, 120.0)
 SOURCE = (

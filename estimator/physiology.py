@@ -29,6 +29,7 @@ from typing import Any
 import pint
 
 from .errors import InputError
+from .limits import VALIDATED_WEIGHT
 from .properties import TISSUES
 from .units import Q_, check_range, parse_quantity
 
@@ -39,9 +40,6 @@ BRODY_CARDIAC_OUTPUT = 2.0
 #: Alveolar ventilation equation constant (L/min BTPS x mmHg per mL/min STPD), West.
 ALVEOLAR_CONSTANT = 0.863
 
-#: Weight range [kg] over which the power laws are taken as validated (adult and older-child
-#: clinical use; Brody's law was fitted across mature animals, Lowe applied it to adults and children).
-VALIDATED_WEIGHT = (10.0, 150.0)
 #: Outside this range [kg] a weight is rejected as not a human patient.
 SANE_WEIGHT = (0.5, 300.0)
 

@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 import pint
 
+from .limits import INSPIRED_OXYGEN_FLOOR, TARGET_BAND  # noqa: F401 (TARGET_BAND re-exported)
 from .properties import CO2E_BASES
 from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
 
@@ -22,17 +23,14 @@ if TYPE_CHECKING:
     from .physiology import Patient
     from .scenario import Scenario
 
-#: End-tidal within this share of the hold target counts as reached (common practice, no source:
-#: agent analysers read to about +-0.1 vol% or 5 % of reading, ISO 80601-2-55).
-TARGET_BAND = 0.02
 #: Water-vapour pressure of inspired gas warmed to 37 degC, for PiO2 (West; as in estimator.site).
 P_H2O = 6.3
 #: Inspired O2 is judged from this case time on [min]: over the first minute a circuit of room air is
 #: still filling with fresh gas at any flow (a modelling choice; the minimum over the whole series is
 #: still reported as ``minimum_inspired_oxygen``).
 SETTLE = 1.0
-#: Default inspired O2 advisory threshold at low flow (Baum and Aitkenhead 1995, from memory).
-FIO2_ADVISORY = 0.30
+#: Default inspired O2 advisory threshold at low flow (the registry's INSPIRED_OXYGEN_FLOOR).
+FIO2_ADVISORY = INSPIRED_OXYGEN_FLOOR
 
 SERIES_UNITS = {
     "time": "min",

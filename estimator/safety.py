@@ -45,20 +45,13 @@ import numpy as np
 from . import circuit as c
 from . import engine
 from .errors import InputError
+from .limits import HYPOXIC_FRACTION, LABEL_MAC_HOURS, LABEL_MIDDLE_FLOW, LABEL_MINIMUM_FLOW, TARGET_BAND, codes_of
 from .scenario import PhaseInput, Scenario
 from .units import Q_
 
-LIMITS = (
-    "INSPIRED_O2",
-    "GAS_BALANCE",
-    "TARGET_REACH",
-    "TARGET_HOLD",
-    "WASH_OUT",
-    "BASAL_O2",
-    "O2_PROPORTION",
-    "FLOWMETER_RANGE",
-    "LABEL_SEVOFLURANE_US",
-)
+#: The binding limits in the order they are reported (the registry's binding codes, less the two
+#: that only name why no limit failed: the scale's lowest setting and a phase without fresh gas).
+LIMITS = tuple(k for k in codes_of("binding") if k not in ("FLOWMETER_MINIMUM", "NO_FRESH_GAS"))
 LIMIT_TEXT = {
     "INSPIRED_O2": "inspired O2 would fall below the threshold",
     "GAS_BALANCE": "fresh gas would not cover uptake, leak and unreturned sample gas (the bag empties)",
@@ -74,8 +67,6 @@ LIMIT_TEXT = {
 #: Default flowmeter scale: 0.1 L/min steps up to 1 L/min, 0.5 L/min above (common practice, from
 #: memory; REFERENCES sec. 6).
 DEFAULT_SCALE = ((1.0, 0.1), (15.0, 0.5))
-#: End-tidal within this share of target counts as reached (as in estimator.results).
-TARGET_BAND = 0.02
 CHECK_INTERVAL = 1.0  # [min] resolution of the limit checks
 from .results import SETTLE  # noqa: E402  inspired O2 is judged from this case time on [min]
 
@@ -142,7 +133,7 @@ def settings_from(scenario: Scenario, threshold: float | None = None) -> Setting
     """Checked plain-number settings; the scale is the sorted list of settable flows [L/min]."""
     ff = scenario.flow_floor
     thr = ff.threshold_inspired_oxygen.to("").magnitude if threshold is None else float(threshold)
-    if not 0.21 <= thr <= 1.0:
+    if not HYPOXIC_FRACTION <= thr <= 1.0:
         raise InputError("flow_floor.threshold_inspired_oxygen", thr, "0.21 to 1 (never below room air)")
     if ff.threshold_basis == "partial_pressure":
         from .site import fraction_for_sea_level_threshold
@@ -248,7 +239,7 @@ def static_failures(flows: tuple[float, float, float], st: Settings, agent_name:
         out.append("O2_PROPORTION")
     if max(flows) > st.max_flow + 1e-9:
         out.append("FLOWMETER_RANGE")
-    if "sevoflurane_us_label" in st.policies and agent_name == "sevoflurane" and sum(flows) < 1.0 - 1e-9:
+    if "sevoflurane_us_label" in st.policies and agent_name == "sevoflurane" and sum(flows) < LABEL_MINIMUM_FLOW - 1e-9:
         out.append("LABEL_SEVOFLURANE_US")
     return out
 
@@ -322,11 +313,12 @@ class Planner:
         mac_min = float(ys[-1, c.Y_MACMIN] - ys[0, c.Y_MACMIN])
         if "sevoflurane_us_label" in self.st.policies and self.sc.agent.name == "sevoflurane":
             total = sum(flows)
-            used = mac_before + (mac_min / 60 if total < 2.0 - 1e-9 else 0.0)
+            mid = total < LABEL_MIDDLE_FLOW - 1e-9
+            used = mac_before + (mac_min / 60 if mid else 0.0)
             margins["LABEL_SEVOFLURANE_US"] = (
-                Q_(2.0 - used, "MAC_hour") if total < 2.0 - 1e-9 else Q_(total - 1.0, "L/min")
+                Q_(LABEL_MAC_HOURS - used, "MAC_hour") if mid else Q_(total - LABEL_MINIMUM_FLOW, "L/min")
             )
-            if total < 2.0 - 1e-9 and used > 2.0 + 1e-9 and "LABEL_SEVOFLURANE_US" not in failed:
+            if mid and used > LABEL_MAC_HOURS + 1e-9 and "LABEL_SEVOFLURANE_US" not in failed:
                 failed.append("LABEL_SEVOFLURANE_US")
         return Check(sorted(set(failed), key=LIMITS.index), margins, ys[-1].copy(), mac_min)
 
@@ -456,7 +448,7 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
                 "settable": bool(res["flows"]),
             }
         )
-        if total < 2.0 - 1e-9:
+        if total < LABEL_MIDDLE_FLOW - 1e-9:
             mac_low += chk.mac_minutes / 60
         y = chk.end_state
         t += dur

@@ -34,6 +34,7 @@ from typing import Annotated, Any, Literal
 import pint
 from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, model_validator
 
+from . import limits as lim
 from .errors import InputError, read_text_file
 from .properties import AGENTS, gas
 from .units import DIMENSIONS, Q_, parse_quantity
@@ -206,15 +207,15 @@ class ScaleStep(_Model):
 class FlowFloorInput(_Model):
     """``[flow_floor]``: settings of the flow floor (``lowflow safe-flow``); every key optional."""
 
-    threshold_inspired_oxygen: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(0.30, "dimensionless")
+    threshold_inspired_oxygen: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(lim.INSPIRED_OXYGEN_FLOOR, "")
     threshold_basis: Literal["fraction", "partial_pressure"] = "fraction"
     """``partial_pressure``: the threshold is read as the sea-level PiO2 it gives (for high sites)."""
-    reach_within: _quantity("time", 0.5, 120.0, "min") = Q_(15.0, "min")
-    wash_out_to: _quantity("mac", 0.05, 1.0, "MAC") = Q_(0.3, "MAC")
+    reach_within: _quantity("time", 0.5, 120.0, "min") = Q_(lim.TARGET_REACH_WITHIN, "min")
+    wash_out_to: _quantity("mac", 0.05, 1.0, "MAC") = Q_(lim.WASH_OUT_TARGET, "MAC")
     """Emergence: end-tidal MAC (agent and N2O) to reach in a phase with the dial at 0."""
-    wash_out_within: _quantity("time", 0.5, 120.0, "min") = Q_(10.0, "min")
+    wash_out_within: _quantity("time", 0.5, 120.0, "min") = Q_(lim.WASH_OUT_WITHIN, "min")
     basal_oxygen_flow: _quantity("flow", 0.0, 1.0, "L/min") = Q_(0.0, "L/min")
-    minimum_oxygen_share: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(0.25, "dimensionless")
+    minimum_oxygen_share: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(lim.MINIMUM_OXYGEN_SHARE, "")
     maximum_flow: Flow = Q_(15.0, "L/min")
     grid_interval: _quantity("time", 1.0, 60.0, "min") = Q_(5.0, "min")
     scale: list[ScaleStep] | None = None

@@ -47,6 +47,7 @@ import numpy as np
 import pint
 
 from .errors import InputError
+from .limits import HABITATION_LIMIT
 from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
 
 #: ISO 2533:1975 constants (troposphere).
@@ -68,7 +69,6 @@ def _out(x: Any) -> Any:
 
 #: Elevations [m] the troposphere formula covers; above HABITATION_LIMIT a warning.
 ELEVATION_RANGE = (-500.0, 11000.0)
-HABITATION_LIMIT = 6000.0
 #: Ambient pressures [kPa] accepted directly (the standard pressures at 11 000 m and -500 m,
 #: rounded outwards; hyperbaric use is outside the model).
 PRESSURE_RANGE = (22.6, 108.5)

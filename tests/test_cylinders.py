@@ -152,7 +152,7 @@ def test_nitrous_oxide_above_critical_temperature():
     # Critical temperature 309.52 K (36.4 degC; Span and Wagner 2003 via CoolProp).
     c = nitrous_oxide_cylinder("8.5 kg", "5.0 kg", "40 degC", water_capacity="10 L")
     assert c.phase == "supercritical" and c.vapour_pressure is None
-    assert any(code == "nitrous_oxide_supercritical" for code, _ in c.warnings)
+    assert any(code == "NITROUS_OXIDE_SUPERCRITICAL" for code, _ in c.warnings)
     p = PropsSI("P", "T", 313.15, "D", 350.0, "NitrousOxide")  # 3.5 kg in 10 L
     assert c.pressure.to("Pa").magnitude == pytest.approx(p, rel=1e-9)
     below = nitrous_oxide_cylinder("8.5 kg", "5.0 kg", "30 degC", water_capacity="10 L")

@@ -462,7 +462,7 @@ def test_high_site_flow_floor_threshold(cli):
     )
     assert [p["floor"]["magnitude"] for p in doc["phases"]] == pytest.approx([2.0, 0.4, 3.5], abs=1e-9)
     codes = {w["code"] for w in doc["warnings"]}
-    assert {"ARGON_ACCUMULATION", "HYPOXIC_MIXTURE_RISK"} <= codes
+    assert {"ARGON_ACCUMULATION", "INSPIRED_OXYGEN_LOW"} <= codes
 
 
 # ------------------------------------------------------------------ paediatric list

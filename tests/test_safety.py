@@ -245,7 +245,7 @@ def test_hypoxic_plan_is_flagged():
     ph = [{"duration": "60 min", "oxygen": "0.3 L/min", "nitrous_oxide": "0.7 L/min", "end_tidal_target": "1 MAC"}]
     res = flow_floor(scenario("sevoflurane", ph), grid=False)
     codes = [c for c, _ in res.warnings]
-    assert "HYPOXIC_MIXTURE_RISK" in codes
+    assert "INSPIRED_OXYGEN_LOW" in codes
 
 
 def test_threshold_below_room_air_is_refused():

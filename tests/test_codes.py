@@ -1,0 +1,537 @@
+"""Every warning, advisory and binding code is produced by a test, and every code is registered.
+
+Each entry of ``PRODUCERS`` builds a small input that produces its code; safety codes also have a
+safe counterpart in ``SAFE`` under which the code must go away (one-sided: the warning is given when
+the limit is passed and not given when it is kept). The meta-tests check that the producers cover
+the registry (:data:`estimator.limits.CODES`) and that every code literal in the package is
+registered, so removing any code's emission, or adding an unregistered one, fails a test.
+"""
+
+from __future__ import annotations
+
+import ast
+from collections.abc import Callable
+from pathlib import Path
+from types import SimpleNamespace
+
+import pytest
+from engine_helpers import scenario
+
+from estimator.limits import CODES, INSPIRED_OXYGEN_FLOOR
+from estimator.units import Q_
+
+PACKAGE = Path(__file__).resolve().parent.parent / "estimator"
+START = "2026-03-02"
+AUDIT_HEADER = "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting"
+
+
+def _codes(warnings) -> set[str]:
+    return {w["code"] if isinstance(w, dict) else w[0] for w in warnings}
+
+
+# --- case engine and flow floor (each input run once, however many codes it serves) ------------------
+
+_RUNS: dict[str, set[str]] = {}
+
+
+def _once(key: tuple, run: Callable[[], set[str]]) -> set[str]:
+    k = repr(key)
+    if k not in _RUNS:
+        _RUNS[k] = run()
+    return _RUNS[k]
+
+
+def case(agent: str, *phases: dict, **tables) -> Callable[[], set[str]]:
+    """Codes of a simulated case."""
+
+    def run():
+        from estimator.engine import simulate
+
+        return _codes(simulate(scenario(agent, list(phases), **tables)).warnings)
+
+    return lambda: _once(("case", agent, phases, tables), run)
+
+
+def floor(agent: str, *phases: dict, **tables) -> Callable[[], set[str]]:
+    """Advisories and binding limits (every phase's ``binding_all``) of a flow floor."""
+
+    def run():
+        from estimator.safety import flow_floor
+
+        res = flow_floor(scenario(agent, list(phases), **tables), grid=False)
+        out = _codes(res.warnings)
+        for ph in res.phases:
+            out |= set(ph["binding_all"] or [])
+        return out
+
+    return lambda: _once(("floor", agent, phases, tables), run)
+
+
+HOLD = {"end_tidal_target": "1 MAC"}
+LOW_O2 = {"duration": "60 min", "oxygen": "0.3 L/min", "nitrous_oxide": "0.7 L/min", **HOLD}
+SAFE_O2 = {"duration": "60 min", "oxygen": "2 L/min", "air": "2 L/min", **HOLD}
+EMERGENCE = (
+    {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", **HOLD},
+    {"duration": "50 min", "oxygen": "0.6 L/min", "air": "0.4 L/min", **HOLD},
+    {"duration": "1 min", "oxygen": "3 L/min", "air": "3 L/min", "vaporizer": "0 %"},
+)
+
+
+# --- small calculators ------------------------------------------------------------------------------
+
+
+def site(**kw):
+    from estimator.site import site_from_inputs
+
+    return lambda: _codes(site_from_inputs(**kw).warnings)
+
+
+def pio2(fio2, threshold, kpa):
+    from estimator.site import check_inspired_oxygen
+
+    return lambda: _codes(check_inspired_oxygen(fio2, threshold, Q_(kpa, "kPa")))
+
+
+def dial(target, kpa, agent="sevoflurane", kind="variable_bypass"):
+    from estimator.mac import mac_at_age
+    from estimator.vaporizer import dial_for_target
+
+    def run():
+        mac = mac_at_age(agent, "40 years").mac
+        return _codes(dial_for_target(target, mac, kind, Q_(kpa, "kPa"), agent).warnings)
+
+    return run
+
+
+def total(agent, mac, age, n2o):
+    from estimator.mac import end_tidal_for_total_mac
+
+    return lambda: _codes(end_tidal_for_total_mac(agent, mac, age, n2o).warnings)
+
+
+def flowmeter(reading, cal, use):
+    from estimator.flowmeter import true_flow
+    from estimator.site import site_from_inputs
+
+    return lambda: _codes(true_flow(reading, cal, use, site_from_inputs()).warnings)
+
+
+def closed(fn: str, *args, **kw):
+    from estimator import closed_form
+
+    return lambda: _codes(getattr(closed_form, fn)(*args, **kw).warnings)
+
+
+def patient(weight):
+    from estimator.physiology import patient_parameters
+
+    return lambda: _codes(patient_parameters(weight, "40 years").warnings)
+
+
+def carbon_supply(absorbent_g):
+    from estimator.carbon import case_carbon
+
+    totals = {"agent_liquid": Q_(10, "mL"), "oxygen": Q_(100, "L"), "absorbent": Q_(absorbent_g, "g")}
+    return lambda: _codes(case_carbon(totals, "sevoflurane", supply=True).warnings)
+
+
+def o2_cylinder(pressure, reserve):
+    from estimator.cylinders import compressed_cylinder
+
+    return lambda: _codes(compressed_cylinder("oxygen", "10 L", pressure, reserve_pressure=reserve).warnings)
+
+
+def n2o_cylinder(gross, tare, temperature="15 degC", **kw):
+    from estimator.cylinders import nitrous_oxide_cylinder
+
+    return lambda: _codes(nitrous_oxide_cylinder(gross, tare, temperature, **kw).warnings)
+
+
+# --- supply ----------------------------------------------------------------------------------------
+
+O2_CYL = '[[cylinders]]\nname = "A"\ngas = "oxygen"\nwater_capacity = "10 L"\npressure = "{bar} bar"\nreserve_pressure = "10 bar"\n'
+SUPPLY_CASE = SimpleNamespace(
+    totals={
+        "duration": Q_(90, "min"),
+        "oxygen": Q_(60, "L"),
+        "air": Q_(20, "L"),
+        "nitrous_oxide": Q_(0, "L"),
+        "agent_liquid": Q_(12, "mL"),
+        "co2_absorbed": Q_(18, "L"),
+    },
+    warnings=[],
+    scenario=SimpleNamespace(
+        agent=SimpleNamespace(name="sevoflurane"), patient=SimpleNamespace(weight=Q_(70, "kg"), age=Q_(40, "year"))
+    ),
+)
+
+
+def supply(text: str):
+    from estimator.supply import load_inventory, plan_supply
+
+    return lambda: _codes(plan_supply(load_inventory(text), start=START, runner=lambda _: SUPPLY_CASE).warnings)
+
+
+CASES_ONLY = '[[demand.cases]]\nscenario = "x.toml"\nper_day = 1\n'
+CONTINUOUS = '[[demand.continuous]]\ngas = "oxygen"\nflow = "{flow} L/min"\n'
+PURITY = '[[concentrators]]\nrated_flow = "5 L/min"\npurity = [["0 L/min", "95 %"], ["5 L/min", "{low} %"]]\n'
+
+
+# --- forecast --------------------------------------------------------------------------------------
+
+MIX = """
+weeks = {weeks}
+seed = 1
+[[case_types]]
+name = "list"
+per_week = 2
+count = "fixed"
+agent = "sevoflurane"
+{extra}
+{duration}
+weight_mean = "70 kg"
+age_mean = "50 years"
+{orders}
+"""
+
+
+def forecast(
+    weeks=3,
+    extra='wash_in_flow = "6 L/min"\nwash_in_time = "10 min"\nmaintenance_flow = "1 L/min"',
+    duration="60 min",
+    orders="",
+):
+    from estimator.casemix import load_casemix
+    from estimator.forecast import forecast as run
+
+    text = MIX.format(weeks=weeks, extra=extra, duration=f'duration = "{duration}"', orders=orders)
+    return lambda: _codes(run(load_casemix(text)).warnings)
+
+
+def casemix(extra: str):
+    from estimator.casemix import load_casemix
+
+    return lambda: _codes(load_casemix(MIX.format(weeks=3, extra=extra, duration="", orders="")).warnings)
+
+
+# --- audit -----------------------------------------------------------------------------------------
+
+
+def audit(rows: str, header: str = AUDIT_HEADER, **kw):
+    from estimator.audit import audit as run
+
+    return lambda: _codes(run(f"{header}\n{rows}", **kw).warnings)
+
+
+def policy(rows: str, header: str, **kw):
+    from estimator.audit import audit as run
+    from estimator.audit_policy import counterfactual, parse_policy
+
+    def go():
+        res = counterfactual(run(f"{header}\n{rows}"), parse_policy(kw))
+        out = _codes(res["warnings"])
+        for c in res["cases"]:
+            out |= _codes(c["warnings"])
+        return out
+
+    return go
+
+
+FULL = AUDIT_HEADER + ",end_tidal_agent,patient_age,patient_weight"
+SEVO_ROWS = (
+    "E,0,3,3,0,sevoflurane,3,1.0,50,75\nE,10,3,3,0,sevoflurane,2.2,1.6,50,75\nE,40,3,3,0,sevoflurane,2.2,1.6,50,75\n"
+)
+
+
+#: code -> builder returning the set of codes an input produces.
+PRODUCERS: dict[str, Callable[[], set[str]]] = {
+    # flow floor: binding limits
+    "INSPIRED_O2": floor(
+        "sevoflurane", {"duration": "40 min", "oxygen": "0.5 L/min", "air": "0.5 L/min", "vaporizer": "1 %"}
+    ),
+    "GAS_BALANCE": floor(
+        "sevoflurane",
+        {"duration": "30 min", "oxygen": "1 L/min", "vaporizer": "2 %"},
+        flow_floor={"threshold_inspired_oxygen": "0.21"},
+    ),
+    "TARGET_REACH": floor(
+        "sevoflurane",
+        {"duration": "30 min", "oxygen": "1 L/min", "air": "1 L/min", **HOLD},
+        flow_floor={"reach_within": "2 min"},
+    ),
+    "TARGET_HOLD": floor(
+        "sevoflurane",
+        {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "2 MAC"},
+        {"duration": "60 min", "oxygen": "1 L/min", "end_tidal_target": "2 MAC"},
+        flow_floor={"threshold_inspired_oxygen": "0.21", "reach_within": "60 min"},
+    ),
+    "WASH_OUT": floor("sevoflurane", *EMERGENCE),
+    "BASAL_O2": floor(
+        "sevoflurane",
+        {"duration": "20 min", "oxygen": "0.5 L/min", "air": "1.5 L/min", "vaporizer": "2 %"},
+        flow_floor={"threshold_inspired_oxygen": "0.21", "basal_oxygen_flow": "1 L/min"},
+    ),
+    "O2_PROPORTION": floor(
+        "sevoflurane",
+        {"duration": "20 min", "oxygen": "0.5 L/min", "nitrous_oxide": "1.5 L/min", **HOLD},
+        flow_floor={"threshold_inspired_oxygen": "0.21", "minimum_oxygen_share": "0.3"},
+    ),
+    "FLOWMETER_RANGE": floor(
+        "sevoflurane",
+        {"duration": "20 min", "oxygen": "0.2 L/min", "air": "9.8 L/min", **HOLD},
+        flow_floor={"maximum_flow": "2 L/min"},
+    ),
+    "LABEL_SEVOFLURANE_US": floor(
+        "sevoflurane",
+        {"duration": "60 min", "oxygen": "1 L/min", "vaporizer": "2 %"},
+        flow_floor={"threshold_inspired_oxygen": "0.21", "policies": ["sevoflurane_us_label"]},
+    ),
+    "FLOWMETER_MINIMUM": floor(
+        "sevoflurane",
+        {"duration": "20 min", "oxygen": "1 L/min", "air": "1 L/min", **HOLD},
+        flow_floor={"threshold_inspired_oxygen": "0.21", "scale": [{"up_to": "15 L/min", "step": "5 L/min"}]},
+    ),
+    "NO_FRESH_GAS": floor(
+        "sevoflurane",
+        {"duration": "20 min", "oxygen": "2 L/min", **HOLD},
+        {"duration": "5 min", "oxygen": "0 L/min", "vaporizer": "0 %"},
+    ),
+    # flow floor: advisories
+    "NO_SAFE_FLOOR": floor("sevoflurane", *EMERGENCE),
+    "LABEL_RULE_BREACHED": floor(
+        "sevoflurane",
+        {"duration": "60 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", **HOLD},
+        flow_floor={"policies": ["sevoflurane_us_label"]},
+    ),
+    "COMPOUND_A": floor("sevoflurane", {"duration": "60 min", "oxygen": "1 L/min", **HOLD}),
+    "CARBON_MONOXIDE_DRY_ABSORBENT": floor("desflurane", {"duration": "60 min", "oxygen": "1 L/min", **HOLD}),
+    "NITROGEN_ACCUMULATION": floor(
+        "sevoflurane",
+        {"duration": "1 min", "oxygen": "2 L/min", **HOLD},
+        {"duration": "60 min", "oxygen": "0.5 L/min", **HOLD},
+    ),
+    "ARGON_ACCUMULATION": floor(
+        "desflurane", {"duration": "90 min", "oxygen": "0.5 L/min", **HOLD}, site={"oxygen_source": "concentrator"}
+    ),
+    # case engine
+    "INSPIRED_OXYGEN_LOW": case(
+        "sevoflurane", {"duration": "60 min", "oxygen": "0.3 L/min", "air": "0.7 L/min", "vaporizer": "2 %"}
+    ),
+    "HYPOXIC_INSPIRED_MIXTURE": case("sevoflurane", {"duration": "60 min", "air": "0.5 L/min", "vaporizer": "2 %"}),
+    "VOLUME_DEFICIT": case("sevoflurane", {"duration": "30 min", "oxygen": "0.1 L/min", "vaporizer": "2 %"}),
+    "TARGET_NOT_REACHED": case(
+        "sevoflurane", {"duration": "10 min", "oxygen": "0.5 L/min", "end_tidal_target": "2 MAC"}
+    ),
+    "TARGET_NOT_HELD": case(
+        "sevoflurane",
+        {"duration": "15 min", "oxygen": "6 L/min", "end_tidal_target": "2.5 MAC"},
+        {"duration": "60 min", "oxygen": "0.3 L/min", "end_tidal_target": "2.5 MAC"},
+    ),
+    "DIAL_AT_MAXIMUM": case(
+        "sevoflurane",
+        {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "2 MAC"},
+        {"duration": "60 min", "oxygen": "0.3 L/min", "end_tidal_target": "2 MAC"},
+    ),
+    "FLOWMETER_ACCURACY": case(
+        "sevoflurane",
+        {"duration": "10 min", "oxygen": "2 L/min", "vaporizer": "2 %"},
+        site={"flowmeter_readings": True},
+    ),
+    # site, vaporizer, MAC, flowmeter, closed forms, patient
+    "SITE_ABOVE_HABITATION": site(elevation="7000 m"),
+    "SITE_TEMPERATURE_UNUSUAL": site(temperature="45 degC"),
+    "PIO2_BELOW_SEA_LEVEL_THRESHOLD": pio2(0.32, 0.30, 70.0),
+    "PIO2_THRESHOLD_UNREACHABLE": pio2(0.32, 0.90, 50.0),
+    "DIAL_UNREACHABLE": dial(5.0, 30.0, "desflurane", "heated_pressurised"),
+    "DIAL_ABOVE_VAPORIZER_MAX": dial(5.0, 101.325),
+    "AGE_BELOW_MAPLESON_RANGE": total("sevoflurane", 1.0, "0.5 years", 0.0),
+    "NITROUS_OXIDE_EXCEEDS_TOTAL": total("sevoflurane", 0.5, "40 years", "70 %"),
+    "END_TIDAL_ABOVE_VAPORIZER_MAX": total("desflurane", 3.0, "2 years", 0.0),
+    "MIXTURE_ABOVE_100_PERCENT": total("desflurane", 3.0, "2 years", "90 %"),
+    "OXYGEN_BELOW_AIR": total("sevoflurane", 1.5, "40 years", "78 %"),
+    "FLOWMETER_LOW_READING": flowmeter(0.05, "oxygen", "oxygen"),
+    "FLOWMETER_OTHER_GAS": flowmeter(1.0, "oxygen", "air"),
+    "SQUARE_ROOT_LAW_LONG": closed("lowe_uptake_rate", "sevoflurane", "300 min"),
+    "SEVERINGHAUS_WEIGHT_SCALED": closed("severinghaus_uptake_rate", "10 min", weight="100 kg"),
+    "SEVERINGHAUS_FRACTION_SCALED": closed("severinghaus_uptake_rate", "10 min", inspired="50 %"),
+    "PATIENT_WEIGHT_OUTSIDE_VALIDATED": patient("5 kg"),
+    "ABSORBENT_SUPPLY_NOT_COUNTED": carbon_supply(100.0),
+    # cylinders and supply
+    "NO_RESERVE": o2_cylinder("137 bar", None),
+    "BELOW_RESERVE": o2_cylinder("5 bar", "10 bar"),
+    "NITROUS_OXIDE_OVERFILLED": n2o_cylinder("18 kg", "5 kg", water_capacity="10 L"),
+    "NITROUS_OXIDE_SUPERCRITICAL": n2o_cylinder("8.5 kg", "5 kg", "40 degC"),
+    "NITROUS_OXIDE_NO_LIQUID": n2o_cylinder("5.1 kg", "5 kg", water_capacity="10 L"),
+    "NITROUS_OXIDE_GAUGE_LOW": n2o_cylinder("8.5 kg", "5 kg", pressure="20 bar"),
+    "CONCENTRATOR_PURITY_LOW": supply(PURITY.format(low=85) + CONTINUOUS.format(flow=5)),
+    "NOT_TRACKED": supply(CASES_ONLY + '[supply]\nignore = ["oxygen", "air", "absorbent"]\n'),
+    "ABSORBENT_NOT_TRACKED": supply(CASES_ONLY + '[supply]\nignore = ["oxygen", "air"]\n'),
+    "NO_STOCK": supply(CASES_ONLY + '[supply]\nignore = ["oxygen", "air", "absorbent"]\n'),
+    "SUPPLY_UNDER_ONE_DAY": supply(O2_CYL.format(bar=137) + CONTINUOUS.format(flow=2)),
+    "STOCK_BACKED_UP": supply(
+        O2_CYL.format(bar=137)
+        + '[[pipelines]]\ngas = "oxygen"\n[supply]\npriority = ["cylinders", "pipelines", "concentrators"]\n'
+        + CONTINUOUS.format(flow=2)
+    ),
+    "NO_BOTTLENECK": supply('[[pipelines]]\ngas = "oxygen"\n' + CONTINUOUS.format(flow=2)),
+    "REORDER_OVERDUE": supply('[plan]\nlead_time = "1 day"\n' + O2_CYL.format(bar=137) + CONTINUOUS.format(flow=2)),
+    # forecast
+    "DURATION_TRUNCATED": casemix('duration_median = "60 min"\nduration_p90 = "90 min"\nduration_max = "70 min"'),
+    "FEW_WEEKS": forecast(),
+    "CASES_CUT_SHORT": forecast(duration="5 min"),
+    "UNPRICED_ITEMS": forecast(orders='[prices]\ncurrency = "demo units"\noxygen_per_m3 = 3.0\n'),
+    "ORDER_SIZE_EMPTY": forecast(
+        orders='[orders]\noxygen_cylinder = { water_capacity = "10 L", pressure = "10 bar", reserve_pressure = "10 bar" }\n'
+    ),
+    # audit log, audit and policy
+    "UNUSED_COLUMNS": audit("A,0,1,1,0,sevoflurane,2,x\nA,10,1,1,0,sevoflurane,2,x\n", AUDIT_HEADER + ",comment"),
+    "TIME_NOT_ORDERED": audit("A,10,1,1,0,sevoflurane,2\nA,0,2,2,0,sevoflurane,2\nA,20,1,1,0,sevoflurane,2\n"),
+    "DUPLICATE_TIME": audit("A,0,1,1,0,sevoflurane,2\nA,0,2,2,0,sevoflurane,2\nA,20,1,1,0,sevoflurane,2\n"),
+    "LONG_SAMPLE_GAP": audit("A,0,1,1,0,sevoflurane,2\nA,200,1,1,0,sevoflurane,2\n"),
+    "NO_ROWS_USED": audit("A,x,1,1,0,sevoflurane,2\n"),
+    "SINGLE_SAMPLE_CASE": audit("A,0,1,1,0,sevoflurane,2\n"),
+    "MAC_HOURS_UNAVAILABLE": audit("A,0,1,1,0,sevoflurane,2\nA,10,1,1,0,sevoflurane,2\n"),
+    "MAC_HOURS_INCOMPLETE": audit(
+        "A,0,1,1,0,sevoflurane,2,1.0,50\nA,10,1,1,0,sevoflurane,2,,50\n", AUDIT_HEADER + ",end_tidal_agent,patient_age"
+    ),
+    "PATIENT_DEFAULTS": policy(
+        "E,0,3,3,0,sevoflurane,3,1.0\nE,10,3,3,0,sevoflurane,2.2,1.6\nE,40,3,3,0,sevoflurane,2.2,1.6\n",
+        AUDIT_HEADER + ",end_tidal_agent",
+        fresh_gas_flow="0.5 L/min",
+        block="30 min",
+    ),
+    "POLICY_CASE_WARNINGS": policy(SEVO_ROWS, FULL, fresh_gas_flow="0.2 L/min", block="30 min"),
+    "CASES_SKIPPED": policy("A,0,1,1,0,,0\nA,60,1,1,0,,0\n", AUDIT_HEADER, fresh_gas_flow="0.5 L/min", block="30 min"),
+}
+
+#: Safety codes: the safe counterpart under which the code goes away (one-sided checks).
+SAFE: dict[str, Callable[[], set[str]]] = {
+    "INSPIRED_OXYGEN_LOW": case(
+        "sevoflurane", {"duration": "60 min", "oxygen": "1 L/min", "air": "1 L/min", "vaporizer": "2 %"}
+    ),
+    "HYPOXIC_INSPIRED_MIXTURE": case(
+        "sevoflurane", {"duration": "60 min", "oxygen": "1 L/min", "air": "1 L/min", "vaporizer": "2 %"}
+    ),
+    "VOLUME_DEFICIT": case("sevoflurane", {"duration": "30 min", "oxygen": "1 L/min", "vaporizer": "2 %"}),
+    "COMPOUND_A": floor("sevoflurane", {"duration": "60 min", "oxygen": "1 L/min", "air": "1 L/min", **HOLD}),
+    "CARBON_MONOXIDE_DRY_ABSORBENT": floor("sevoflurane", {"duration": "60 min", "oxygen": "1 L/min", **HOLD}),
+    "NITROGEN_ACCUMULATION": floor(
+        "sevoflurane",
+        {"duration": "10 min", "oxygen": "6 L/min", **HOLD},
+        {"duration": "60 min", "oxygen": "0.5 L/min", **HOLD},
+    ),
+    "ARGON_ACCUMULATION": floor("desflurane", {"duration": "90 min", "oxygen": "0.5 L/min", **HOLD}),
+    "LABEL_RULE_BREACHED": floor(
+        "sevoflurane",
+        {"duration": "60 min", "oxygen": "1 L/min", "air": "1 L/min", **HOLD},
+        flow_floor={"policies": ["sevoflurane_us_label"]},
+    ),
+    "NO_SAFE_FLOOR": floor("sevoflurane", *EMERGENCE[:2]),
+    "PIO2_BELOW_SEA_LEVEL_THRESHOLD": pio2(0.50, 0.30, 70.0),
+    "PIO2_THRESHOLD_UNREACHABLE": pio2(0.50, 0.30, 70.0),
+    "OXYGEN_BELOW_AIR": total("sevoflurane", 1.5, "40 years", "50 %"),
+    "CONCENTRATOR_PURITY_LOW": supply(PURITY.format(low=93) + CONTINUOUS.format(flow=5)),
+    "SUPPLY_UNDER_ONE_DAY": supply(O2_CYL.format(bar=137) + CONTINUOUS.format(flow=0.2)),
+    "REORDER_OVERDUE": supply('[plan]\nlead_time = "1 day"\n' + O2_CYL.format(bar=200) + CONTINUOUS.format(flow=0.05)),
+}
+
+
+@pytest.mark.parametrize("code", sorted(PRODUCERS))
+def test_code_is_produced(code):
+    assert code in PRODUCERS[code]()
+
+
+@pytest.mark.parametrize("code", sorted(SAFE))
+def test_safety_code_goes_away_under_the_safe_counterpart(code):
+    assert code not in SAFE[code]()
+
+
+def test_every_registered_code_has_a_producer():
+    assert set(CODES) - set(PRODUCERS) == set()
+    assert set(PRODUCERS) - set(CODES) == set()
+
+
+def test_every_safety_code_has_a_safe_counterpart():
+    # Binding limits are held one-sided by test_floor_keeps_its_limits (the plan at the floor keeps them).
+    safety = {k for k, c in CODES.items() if c.safety and c.severity != "binding"}
+    assert safety - set(SAFE) == set()
+
+
+def _code_literals() -> dict[str, list[str]]:
+    """UPPER_SNAKE string literals in the package's modules (outside ``__all__``), with their files."""
+    found: dict[str, list[str]] = {}
+    for path in PACKAGE.rglob("*.py"):
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        skip = set()
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Assign) and any(getattr(t, "id", "") == "__all__" for t in node.targets):
+                skip |= {id(n) for n in ast.walk(node.value)}
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Constant) and isinstance(node.value, str) and id(node) not in skip:
+                v = node.value
+                if v.isupper() and "_" in v and v.replace("_", "").isalnum() and v[0].isalpha():
+                    found.setdefault(v, []).append(path.name)
+    return found
+
+
+def test_every_code_literal_in_the_package_is_registered():
+    unregistered = {k: v for k, v in _code_literals().items() if k not in CODES}
+    assert unregistered == {}
+
+
+def test_registry_entries_are_complete():
+    for c in CODES.values():
+        assert c.severity in ("binding", "advisory", "warning")
+        assert c.meaning and c.source
+    assert INSPIRED_OXYGEN_FLOOR == 0.30
+
+
+FLOOR_PLANS = {
+    "O2/N2O, basal O2, label policy": (
+        "sevoflurane",
+        [
+            {"duration": "10 min", "oxygen": "2 L/min", "nitrous_oxide": "4 L/min", **HOLD},
+            {"duration": "50 min", "oxygen": "0.5 L/min", "nitrous_oxide": "0.5 L/min", **HOLD},
+        ],
+        {"basal_oxygen_flow": "0.2 L/min", "policies": ["sevoflurane_us_label"]},
+    ),
+    "O2/air, higher threshold": (
+        "desflurane",
+        [
+            {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", **HOLD},
+            {"duration": "50 min", "oxygen": "0.5 L/min", "air": "0.5 L/min", **HOLD},
+        ],
+        {"threshold_inspired_oxygen": "0.35"},
+    ),
+}
+
+
+@pytest.mark.parametrize("name", sorted(FLOOR_PLANS))
+def test_floor_keeps_its_limits(name):
+    # One-sided: the floor may be conservative, never below a limit. The recommended schedule, run
+    # through the case engine (its own integration at rtol 1e-8, every integrator step, not the
+    # planner's 1-min checks), keeps inspired O2 at or above the threshold from the settling minute
+    # on, has no volume deficit, and keeps the machine limits (O2 share with N2O, basal O2, label).
+    from estimator.engine import simulate
+    from estimator.results import SETTLE
+    from estimator.safety import flow_floor
+
+    agent, phases, settings = FLOOR_PLANS[name]
+    res = flow_floor(scenario(agent, phases, flow_floor=settings), grid=False)
+    st = res.settings
+    schedule = [dict(p) for p in phases]
+    for p, entry in zip(schedule, res.phases, strict=True):
+        assert entry["floor"] is not None
+        flows = {k: v.to("L/min").magnitude for k, v in entry["flows"].items()}
+        p.update({k: f"{v:g} L/min" for k, v in flows.items()})
+        o2, n2o = flows["oxygen"], flows["nitrous_oxide"]
+        assert o2 >= st.basal_o2 - 1e-9
+        assert n2o == 0 or o2 / (o2 + n2o) >= st.min_o2_share - 1e-9
+        if "sevoflurane_us_label" in st.policies:
+            assert sum(flows.values()) >= 1.0 - 1e-9
+    r = simulate(scenario(agent, schedule, flow_floor=settings))
+    s = r.series
+    judged = s["time [min]"].to_numpy() >= SETTLE
+    assert s["inspired_oxygen [%]"].to_numpy()[judged].min() / 100 >= st.threshold
+    assert r.totals["volume_deficit"].to("L").magnitude == pytest.approx(0.0, abs=1e-9)
+    assert "VOLUME_DEFICIT" not in _codes(r.warnings)
