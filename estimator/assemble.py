@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from . import circuit as c
+from .constants import GAS_CONSTANT
 from .limits import HYPOXIC_FRACTION
 from .properties import agent as agent_properties
 from .properties import gas
@@ -51,7 +52,7 @@ def _content(y: np.ndarray, base: np.ndarray) -> tuple[np.ndarray, np.ndarray, n
 
 def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np.ndarray, chunks: list) -> CaseResult:
     """Assemble totals, series and warnings from the integrated phases."""
-    amb = site.ambient_pressure_kpa / (8.314462618 * site.temperature_k) * 1000.0  # mmol / ambient L
+    amb = site.ambient_pressure_kpa / (GAS_CONSTANT * site.temperature_k) * 1000.0  # mmol / ambient L
     lpm = litres_per_mmol()
     ag = agent_properties(scenario.agent.name)
     kind_bypass = (

@@ -39,6 +39,7 @@ from typing import Any
 
 import pint
 
+from .constants import GAS_CONSTANT
 from .errors import InputError
 from .properties import CONFIDENCE_CODES, DataError
 from .units import (
@@ -55,7 +56,6 @@ from .units import (
 COOLPROP_FLUIDS = {"oxygen": "Oxygen", "air": "Air", "nitrous_oxide": "NitrousOxide"}
 COMPRESSED_GASES = ("oxygen", "air")
 #: Molar gas constant [J/(mol K)] (CODATA 2018, exact in the 2019 SI).
-GAS_CONSTANT = 8.314462618
 #: Cylinder temperatures accepted [degC]: the service range of medical gas cylinders, -40 to 65 degC
 #: (common practice, no source); outside it the reading is rejected, not extrapolated.
 TEMPERATURE_RANGE = (-40.0, 65.0)

@@ -32,6 +32,10 @@ import numpy as np
 
 from . import circuit as c
 from .assemble import build_result
+from .constants import BODY_TEMPERATURE_K as T_BODY
+from .constants import GAS_CONSTANT as R_GAS
+from .constants import MOLAR_VOLUME_STPD
+from .constants import WATER_VAPOUR_37C_KPA as P_H2O_BODY
 from .errors import InputError
 from .physiology import Patient, patient_parameters
 from .properties import Species, gas
@@ -40,14 +44,6 @@ from .results import CaseResult
 from .scenario import PhaseInput, Scenario
 from .units import Q_
 
-#: Molar gas constant [J/(mol K)] (CODATA 2018, exact since the 2019 SI).
-R_GAS = 8.314462618
-#: Body temperature [K] and saturated water-vapour pressure at 37 degC, 47 mmHg [kPa] (West,
-#: Respiratory Physiology; 6.27 kPa also by CoolProp for water at 310.15 K).
-T_BODY = 310.15
-P_H2O_BODY = 6.266
-#: Molar volume at STPD [L/mol] (0 degC, 101.325 kPa, ideal gas) for metabolic rates given STPD.
-MOLAR_VOLUME_STPD = R_GAS * 273.15 / 101.325
 #: Time constants of the end-tidal hold law [min]: alveolar and circuit tracking.
 HOLD_TAU_LUNG = 1.0
 HOLD_TAU_CIRCUIT = 0.5

@@ -30,6 +30,7 @@ from typing import Any
 
 import numpy as np
 
+from .constants import GAS_CONSTANT
 from .errors import InputError
 from .properties import DataError, Sourced, gas
 from .units import Q_, parse_quantity
@@ -232,5 +233,5 @@ def mixture_properties(composition: dict[str, float], t: float, p: float) -> tup
     x = np.array([composition[n] for n in names])
     props = np.array([pure_gas_properties(n, t, p) for n in names])
     rho, mu, m = props.T
-    z = p * m / (rho * 8.314462618 * t)
-    return float(p * np.dot(x, m) / (np.dot(x, z) * 8.314462618 * t)), wilke_viscosity(x, mu, m)
+    z = p * m / (rho * GAS_CONSTANT * t)
+    return float(p * np.dot(x, m) / (np.dot(x, z) * GAS_CONSTANT * t)), wilke_viscosity(x, mu, m)

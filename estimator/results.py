@@ -15,16 +15,17 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 import pint
 
+from .constants import MOLAR_VOLUME_REFERENCE, WATER_VAPOUR_37C_KPA
 from .limits import INSPIRED_OXYGEN_FLOOR, TARGET_BAND  # noqa: F401 (TARGET_BAND re-exported)
 from .properties import CO2E_BASES
-from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
+from .units import GAS_VOLUME_REFERENCE
 
 if TYPE_CHECKING:
     from .physiology import Patient
     from .scenario import Scenario
 
-#: Water-vapour pressure of inspired gas warmed to 37 degC, for PiO2 (West; as in estimator.site).
-P_H2O = 6.3
+#: Water-vapour pressure of inspired gas warmed to 37 degC, for PiO2 [kPa] (estimator.constants).
+P_H2O = WATER_VAPOUR_37C_KPA
 #: Inspired O2 is judged from this case time on [min]: over the first minute a circuit of room air is
 #: still filling with fresh gas at any flow (a modelling choice; the minimum over the whole series is
 #: still reported as ``minimum_inspired_oxygen``).
@@ -64,9 +65,7 @@ SERIES_UNITS = {
 
 def litres_per_mmol() -> float:
     """Free-gas litres at the package reference (15 degC, 101.325 kPa) per mmol, ideal gas."""
-    from .engine import R_GAS
-
-    return R_GAS * REFERENCE_TEMPERATURE.to("K").magnitude / REFERENCE_PRESSURE.to("kPa").magnitude / 1000.0
+    return MOLAR_VOLUME_REFERENCE / 1000.0
 
 
 @dataclass

@@ -46,6 +46,7 @@ from typing import Any
 import numpy as np
 import pint
 
+from .constants import WATER_VAPOUR_37C_KPA
 from .errors import InputError
 from .limits import HABITATION_LIMIT
 from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
@@ -56,7 +57,7 @@ T0 = 288.15  # K
 LAPSE_RATE = 0.0065  # K/m
 G0 = 9.80665  # m/s2
 MOLAR_MASS_AIR = 0.02896442  # kg/mol
-R_STAR = 8.31432  # J/(mol K), the value of the standard
+R_STAR = 8.31432  # J/(mol K), the standard's own value (not CODATA's GAS_CONSTANT: it defines the atmosphere)
 EARTH_RADIUS = 6356766.0  # m
 EXPONENT = G0 * MOLAR_MASS_AIR / (R_STAR * LAPSE_RATE)
 
@@ -79,8 +80,8 @@ PRESSURE_CONSISTENCY = (0.85, 1.08)
 TEMPERATURE_RANGE = (-20.0, 50.0)
 TEMPERATURE_USUAL = (10.0, 40.0)
 DEFAULT_TEMPERATURE = Q_(20.0, "degC")
-#: Saturated water vapour pressure at 37 degC, 47 mmHg = 6.3 kPa (West).
-WATER_VAPOUR_37C = Q_(6.3, "kPa")
+#: Saturated water vapour pressure at 37 degC, 47 mmHg = 6.27 kPa (West; estimator.constants).
+WATER_VAPOUR_37C = Q_(WATER_VAPOUR_37C_KPA, "kPa")
 
 
 @dataclass(frozen=True)
@@ -287,7 +288,7 @@ def inspired_oxygen_partial_pressure(fio2: Any, ambient: pint.Quantity, water_va
     ambient : pint.Quantity [kPa]
         Barometric pressure.
     water_vapour : bool
-        Subtract the saturated water vapour pressure at 37 degC (6.3 kPa), i.e. tracheal gas.
+        Subtract the saturated water vapour pressure at 37 degC (47 mmHg, 6.27 kPa), i.e. tracheal gas.
 
     References
     ----------
@@ -296,7 +297,7 @@ def inspired_oxygen_partial_pressure(fio2: Any, ambient: pint.Quantity, water_va
     Examples
     --------
     >>> round(inspired_oxygen_partial_pressure(0.30, Q_(101.325, "kPa")).magnitude, 2)
-    28.51
+    28.52
     """
     f = fio2.to("dimensionless").magnitude if isinstance(fio2, pint.Quantity) else np.asarray(fio2, dtype=float)
     dry = ambient.to("kPa").magnitude - (WATER_VAPOUR_37C.magnitude if water_vapour else 0.0)

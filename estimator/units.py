@@ -36,6 +36,7 @@ from typing import Any, Literal
 
 import pint
 
+from .constants import REFERENCE_TEMPERATURE_C, STANDARD_PRESSURE_KPA
 from .errors import InputError
 
 ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=None)
@@ -48,10 +49,10 @@ Q_ = ureg.Quantity
 Quantity = pint.Quantity
 
 #: Reference condition of every gas volume the package reports (cylinder-contents convention).
-REFERENCE_TEMPERATURE = Q_(15.0, "degC")
-REFERENCE_PRESSURE = Q_(101.325, "kPa")
+REFERENCE_TEMPERATURE = Q_(REFERENCE_TEMPERATURE_C, "degC")
+REFERENCE_PRESSURE = Q_(STANDARD_PRESSURE_KPA, "kPa")
 GAS_VOLUME_REFERENCE = "free gas at 15 degC and 101.325 kPa (dry)"
-STANDARD_ATMOSPHERE = Q_(101.325, "kPa")
+STANDARD_ATMOSPHERE = Q_(STANDARD_PRESSURE_KPA, "kPa")
 
 #: Named dimensions accepted by :func:`parse_quantity`, with an example for error messages.
 DIMENSIONS: dict[str, tuple[str, str]] = {
