@@ -14,6 +14,8 @@ import numpy as np
 import pandas as pd
 
 from . import circuit as c
+from .accounting import absorbent_mass
+from .carbon import totals_co2e
 from .constants import GAS_CONSTANT
 from .limits import HYPOXIC_FRACTION
 from .properties import agent as agent_properties
@@ -217,9 +219,7 @@ def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
     duration = scenario.duration.to("min").magnitude
     fg_mmol = sum(d[c.Y_FGIN + s] for s in range(c.NS))
     n2o_mmol = d[c.Y_FGIN + c.N2O] + d[c.Y_MAKEUP + c.N2O]
-    released_agent_g = (agent_mmol - d[c.Y_METAB]) / 1000 * mw
     n2o_g = n2o_mmol / 1000 * gas("nitrous_oxide").molar_mass.to("g/mol").magnitude
-    co2e = (released_agent_g * ag.gwp.get("ar6_gwp100", 0.0) + n2o_g * gas("nitrous_oxide").gwp["ar6_gwp100"]) / 1000
     co2_l = d[c.Y_CO2ABS] * lpm
     cap = scenario.circuit.absorbent_capacity.to("L").magnitude  # L CO2 per 100 g
     totals = {
@@ -239,12 +239,13 @@ def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
         "nitrous_oxide_mass": Q_(n2o_g, "g"),
         "oxygen_consumed": Q_(d[c.Y_O2CONS] * lpm, "L"),
         "co2_absorbed": Q_(co2_l, "L"),
-        "absorbent": Q_(co2_l / cap * 100.0, "g"),
-        "co2e": Q_(co2e, "kg"),
+        "absorbent": Q_(float(absorbent_mass(co2_l, cap)), "g"),
+        "co2e": Q_(0.0, "kg"),
         "mac_hours": Q_(d[c.Y_MACMIN] / 60.0, "MAC_hour"),
         "mean_fresh_gas_flow": Q_(fg_mmol / amb / duration, "L/min"),
         "volume_deficit": Q_(sum(d[c.Y_MAKEUP + s] for s in range(c.NS)) / amb, "L"),
     }
+    totals["co2e"] = Q_(float(totals_co2e(totals, scenario.agent.name)["co2e_kg"]), "kg")  # the one CO2e rule
     return totals, balance
 
 

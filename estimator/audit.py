@@ -68,7 +68,7 @@ from .costs import Prices, cost_table
 from .errors import InputError
 from .limits import INSPIRED_OXYGEN_FLOOR
 from .mac import mapleson_factor
-from .properties import AGENTS, CO2E_BASES, GASES
+from .properties import AGENTS, CO2E_BASES
 from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE, parse_quantity
 
 QUADRATURES = ("hold", "trapezoid")
@@ -249,10 +249,8 @@ def audit(
     agent_names = log.agent_names
     n_ag = len(agent_names)
     pair = _case_sum(codes * n_ag + agent_codes, vapour * w, n_cases * n_ag).reshape(n_cases, n_ag)
-    vm = carbon.molar_volume().to("L/mol").magnitude
     liquid = np.zeros_like(pair)
     ref = (REFERENCE_TEMPERATURE, REFERENCE_PRESSURE)
-    released_g = np.zeros_like(pair)
     co2e_agent = np.zeros(n_cases)
     for j, name in enumerate(agent_names):
         if not name:
@@ -260,8 +258,7 @@ def audit(
         sp = AGENTS[name]
         liquid[:, j] = pair[:, j] * 1000.0 / vapour_per_liquid(name, *ref).to("mL/mL").magnitude
         grams = liquid[:, j] * sp.liquid_density.to("g/mL").magnitude
-        released_g[:, j] = carbon.released_agent_mass(grams, name)
-        co2e_agent += released_g[:, j] / 1000.0 * carbon.gwp(name, basis)
+        co2e_agent += carbon.released_co2e(name, basis, delivered_g=grams)["agent_co2e_kg"]  # no uptake in a log
     cases["agent_vapour_l"] = pair.sum(axis=1)
     cases["agent_liquid_ml"] = liquid.sum(axis=1)
     named = [j for j, n in enumerate(agent_names) if n]
@@ -276,10 +273,11 @@ def audit(
     ]
     for j in named:
         cases[f"liquid_{agent_names[j]}_ml"] = liquid[:, j]
-    n2o_released = carbon.nitrous_oxide_released(cases["nitrous_oxide_l"].to_numpy(), manifold_loss)
-    n2o_g = n2o_released / vm * GASES["nitrous_oxide"].molar_mass.to("g/mol").magnitude
+    n2o = carbon.released_co2e(
+        None, basis, nitrous_oxide_l=cases["nitrous_oxide_l"].to_numpy(), manifold_loss=manifold_loss
+    )
     cases["co2e_agent_kg"] = co2e_agent
-    cases["co2e_nitrous_oxide_kg"] = n2o_g / 1000.0 * carbon.gwp("nitrous_oxide", basis)
+    cases["co2e_nitrous_oxide_kg"] = n2o["nitrous_oxide_co2e_kg"]
     cases["co2e_kg"] = cases["co2e_agent_kg"] + cases["co2e_nitrous_oxide_kg"]
 
     currency = None

@@ -252,8 +252,15 @@ def engine_runner(doc: dict[str, Any]) -> Any:
     return simulate(scenario_from_dict(doc))
 
 
-def _side(totals: dict[str, Any], agent: str, prices: Prices | None, basis: str, loss: float) -> dict[str, float]:
-    q = {k: totals[k] for k in ("agent_liquid", "oxygen", "air", "nitrous_oxide") if k in totals}
+def _side(
+    totals: dict[str, Any], agent: str, prices: Prices | None, basis: str, loss: float, engine: bool = False
+) -> dict[str, float]:
+    """One side of the comparison; with ``engine`` both sides are engine runs, so the metabolised agent is
+    the engine's (as the case counts it), else the share of the delivered agent, as for a log."""
+    keep = ("agent_liquid", "oxygen", "air", "nitrous_oxide") + (
+        ("agent_uptake", "agent_metabolised") if engine else ()
+    )
+    q = {k: totals[k] for k in keep if k in totals}
     co2e = carbon.case_carbon(q, agent, basis, manifold_loss=loss).released_co2e.to("kg").magnitude
     out = {
         "agent_liquid_ml": float(q["agent_liquid"].to("mL").magnitude),
@@ -305,9 +312,10 @@ def counterfactual(
         except InputError as exc:
             skipped.append({"case_id": item["case_id"], "reason": f"engine refused the scenario: {exc}"})
             continue
-        pol = _side(res_p.totals, item["agent"], prices, result.basis, manifold_loss)
+        both = res_b is not None
+        pol = _side(res_p.totals, item["agent"], prices, result.basis, manifold_loss, both)
         if res_b is not None:
-            base = _side(res_b.totals, item["agent"], prices, result.basis, manifold_loss)
+            base = _side(res_b.totals, item["agent"], prices, result.basis, manifold_loss, both)
         else:
             row = result.cases.iloc[item["code"]]
             totals = {

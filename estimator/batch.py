@@ -39,6 +39,7 @@ import numpy as np
 
 from . import circuit as c
 from . import engine
+from .accounting import absorbent_mass
 from .mac import mapleson_factor
 from .properties import agent as agent_properties
 from .properties import gas
@@ -69,6 +70,7 @@ TOTAL_UNITS = {
     "agent_liquid": "mL",
     "agent_vapour": "L",
     "agent_uptake": "L",
+    "agent_metabolised": "L",
     "oxygen": "L",
     "air": "L",
     "nitrous_oxide": "L",
@@ -302,12 +304,13 @@ def _totals(template, p0, y0, y1, d, mk, total) -> dict[str, np.ndarray]:
         / ag.liquid_density.to("g/mL").magnitude,
         "agent_vapour": agent_mmol * lpm,
         "agent_uptake": dy[:, c.Y_UPTAKE + c.AGENT] * lpm,
+        "agent_metabolised": dy[:, c.Y_METAB] * lpm,
         "oxygen": gas_l[:, 0] * amb * lpm,
         "air": gas_l[:, 1] * amb * lpm,
         "nitrous_oxide": gas_l[:, 2] * amb * lpm,
         "nitrous_oxide_mass": n2o_mmol / 1000 * gas("nitrous_oxide").molar_mass.to("g/mol").magnitude,
         "co2_absorbed": co2_l,
-        "absorbent": co2_l / cap * 100.0,
+        "absorbent": absorbent_mass(co2_l, cap),
         "mac_hours": dy[:, c.Y_MACMIN] / 60.0,
         "volume_deficit": dy[:, c.Y_MAKEUP : c.Y_MAKEUP + c.NS].sum(axis=1) / amb,
     }

@@ -52,9 +52,10 @@ from typing import Any
 import numpy as np
 import pint
 
+from .accounting import liquid_to_mass, molar_volume, vapour_to_mass  # noqa: F401 (re-exported)
 from .errors import InputError
 from .properties import AGENTS, CO2E_BASES, GASES, Sourced, validate_records
-from .units import GAS_VOLUME_REFERENCE, Q_, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
+from .units import GAS_VOLUME_REFERENCE, Q_
 
 RELEASE_NOTE = (
     "released agent = agent delivered less the share metabolised; the agent taken up "
@@ -100,57 +101,6 @@ def gwp(species: str, basis: str = "ar6_gwp100") -> float:
     if basis not in table.gwp:
         raise InputError("co2e_basis", basis, f"a basis with a GWP for {species}: " + ", ".join(sorted(table.gwp)))
     return float(table.gwp[basis])
-
-
-def molar_volume(
-    temperature: pint.Quantity = REFERENCE_TEMPERATURE, pressure: pint.Quantity = REFERENCE_PRESSURE
-) -> pint.Quantity:
-    """Ideal-gas molar volume RT/p [L/mol], by default at the package reference (15 degC, 101.325 kPa).
-
-    >>> round(molar_volume().to("L/mol").magnitude, 3)
-    23.645
-    """
-    from .closed_form import molar_volume as ideal_molar_volume
-
-    return ideal_molar_volume(temperature, pressure)
-
-
-def vapour_to_mass(
-    volume: pint.Quantity,
-    species: str,
-    temperature: pint.Quantity = REFERENCE_TEMPERATURE,
-    pressure: pint.Quantity = REFERENCE_PRESSURE,
-) -> pint.Quantity:
-    """Mass [g] of an agent vapour or a gas volume at (temperature, pressure), ideal gas.
-
-    Parameters
-    ----------
-    volume : Quantity [L] (scalar or array magnitude)
-    species : str
-        An agent of ``agents.toml`` or a gas (``nitrous_oxide``, ``oxygen``...).
-    temperature, pressure : Quantity
-        Reference of the volume; default 15 degC and 101.325 kPa.
-
-    >>> round(vapour_to_mass(Q_(23.645, "L"), "nitrous_oxide").to("g").magnitude, 2)
-    44.01
-    """
-    table = AGENTS.get(species) or GASES.get(species)
-    if table is None:
-        raise InputError("agent", species, "one of " + ", ".join([*sorted(AGENTS), *sorted(GASES)]))
-    moles = volume.to("L").magnitude / molar_volume(temperature, pressure).magnitude
-    return Q_(moles * table.molar_mass.to("g/mol").magnitude, "g")
-
-
-def liquid_to_mass(volume: pint.Quantity, agent_name: str) -> pint.Quantity:
-    """Mass [g] of liquid agent: volume x liquid density at 20 degC.
-
-    >>> round(liquid_to_mass(Q_(250, "mL"), "desflurane").to("g").magnitude, 1)
-    366.2
-    """
-    sp = AGENTS.get(agent_name)
-    if sp is None:
-        raise InputError("agent", agent_name, "one of " + ", ".join(sorted(AGENTS)))
-    return (volume * sp.liquid_density).to("g")
 
 
 def co2e(mass: pint.Quantity, species: str, basis: str = "ar6_gwp100") -> pint.Quantity:
@@ -258,11 +208,108 @@ class CarbonResult:
         }
 
 
-def _q(totals: Mapping[str, Any], key: str, unit: str) -> float:
+def _v(totals: Mapping[str, Any], key: str, unit: str) -> Any:
+    """A total in ``unit`` as a float or array (a Quantity is converted; a plain number is taken as is)."""
     v = totals.get(key)
     if v is None:
-        return 0.0
-    return float(v.to(unit).magnitude) if isinstance(v, pint.Quantity) else float(v)
+        return None
+    return v.to(unit).magnitude if isinstance(v, pint.Quantity) else np.asarray(v, dtype=float)
+
+
+def released_co2e(
+    agent_name: str | None,
+    basis: str = "ar6_gwp100",
+    *,
+    delivered_g: Any = 0.0,
+    nitrous_oxide_l: Any = 0.0,
+    metabolised_g: Any = None,
+    uptake_g: Any = None,
+    manifold_loss: float = 0.0,
+) -> dict[str, np.ndarray]:
+    """The one CO2e rule of the package: released agent and nitrous oxide on a basis (floats or arrays).
+
+    Released agent = delivered - metabolised. The metabolised amount is taken, in this order, as
+    given (the engine integrates it), as the metabolised share of uptake, or as that share of the
+    delivered agent (an upper bound, when uptake is not known). Released N2O = delivered /
+    (1 - manifold loss), free gas at 15 degC and 101.325 kPa, converted to mass as an ideal gas.
+    CO2e = mass x GWP of :func:`gwp` on ``basis``.
+
+    Returns
+    -------
+    dict
+        ``agent_delivered_g``, ``agent_metabolised_g``, ``agent_released_g``, ``nitrous_oxide_g``,
+        ``agent_co2e_kg``, ``nitrous_oxide_co2e_kg``, ``co2e_kg``.
+
+    Examples
+    --------
+    >>> r = released_co2e("sevoflurane", delivered_g=100.0, uptake_g=20.0)
+    >>> round(float(r["agent_released_g"]), 1), round(float(r["co2e_kg"]), 2)
+    (99.4, 19.38)
+    """
+    basis_label(basis)
+    delivered = np.asarray(delivered_g, dtype=float)
+    if agent_name:
+        if metabolised_g is not None:
+            released = delivered - np.asarray(metabolised_g, dtype=float)
+        else:
+            released = released_agent_mass(delivered, agent_name, uptake_g)
+        agent_kg = released / 1000.0 * gwp(agent_name, basis)
+    else:
+        released = np.zeros_like(delivered)
+        agent_kg = np.zeros_like(delivered)
+    n2o_l = nitrous_oxide_released(nitrous_oxide_l, manifold_loss)
+    n2o_g = n2o_l / molar_volume().to("L/mol").magnitude * GASES["nitrous_oxide"].molar_mass.to("g/mol").magnitude
+    n2o_kg = n2o_g / 1000.0 * gwp("nitrous_oxide", basis)
+    return {
+        "agent_delivered_g": delivered,
+        "agent_metabolised_g": delivered - released,
+        "agent_released_g": released,
+        "nitrous_oxide_g": n2o_g,
+        "agent_co2e_kg": agent_kg,
+        "nitrous_oxide_co2e_kg": n2o_kg,
+        "co2e_kg": agent_kg + n2o_kg,
+    }
+
+
+def totals_co2e(
+    totals: Mapping[str, Any], agent_name: str | None, basis: str = "ar6_gwp100", manifold_loss: float = 0.0
+) -> dict[str, np.ndarray]:
+    """:func:`released_co2e` of engine-style totals (one case as Quantities, or batch arrays).
+
+    ``agent_liquid`` [mL] (or ``agent_vapour`` [L]); the metabolised agent from
+    ``agent_metabolised`` [L vapour] when given, else from ``agent_uptake`` [L]; ``nitrous_oxide``
+    [L]. Case, batch, forecast, supply and policy audit all count CO2e through this function.
+
+    >>> r = totals_co2e({"agent_liquid": Q_(20, "mL"), "nitrous_oxide": Q_(0, "L")}, "sevoflurane")
+    >>> round(float(r["co2e_kg"]), 2)
+    5.75
+    """
+    delivered = 0.0
+    metabolised = uptake = None
+    if agent_name:
+        liquid = _v(totals, "agent_liquid", "mL")
+        if liquid is not None:
+            delivered = liquid * AGENTS[agent_name].liquid_density.to("g/mL").magnitude
+        else:
+            delivered = _vapour_g(_v(totals, "agent_vapour", "L"), agent_name)
+        metabolised = _vapour_g(_v(totals, "agent_metabolised", "L"), agent_name)
+        uptake = _vapour_g(_v(totals, "agent_uptake", "L"), agent_name)
+    n2o = _v(totals, "nitrous_oxide", "L")
+    return released_co2e(
+        agent_name,
+        basis,
+        delivered_g=delivered,
+        nitrous_oxide_l=0.0 if n2o is None else n2o,
+        metabolised_g=metabolised,
+        uptake_g=uptake,
+        manifold_loss=manifold_loss,
+    )
+
+
+def _vapour_g(litres: Any, species: str) -> Any:
+    if litres is None:
+        return None
+    return vapour_to_mass(Q_(litres, "L"), species).magnitude
 
 
 def case_carbon(
@@ -307,34 +354,19 @@ def case_carbon(
     label = basis_label(basis)
     warnings: list[tuple[str, str]] = []
     notes = [RELEASE_NOTE, NITROUS_NOTE, f"CO2e basis: {label}"]
-    delivered = 0.0
-    metabolised = 0.0
-    agent_kg = 0.0
-    if agent_name:
-        if "agent_liquid" in totals:
-            delivered = liquid_to_mass(Q_(_q(totals, "agent_liquid", "mL"), "mL"), agent_name).magnitude
-        else:
-            delivered = vapour_to_mass(Q_(_q(totals, "agent_vapour", "L"), "L"), agent_name).magnitude
-        uptake = None
-        if "agent_uptake" in totals:
-            uptake = vapour_to_mass(Q_(_q(totals, "agent_uptake", "L"), "L"), agent_name).magnitude
-        else:
-            notes.append("agent uptake not known: metabolised share taken of the delivered agent")
-        released = float(released_agent_mass(delivered, agent_name, uptake))
-        metabolised = delivered - released
-        agent_kg = released / 1000.0 * gwp(agent_name, basis)
-    n2o_l = float(nitrous_oxide_released(_q(totals, "nitrous_oxide", "L"), manifold_loss))
+    if agent_name and "agent_metabolised" not in totals and "agent_uptake" not in totals:
+        notes.append("agent uptake not known: metabolised share taken of the delivered agent")
     if manifold_loss:
         notes.append(f"nitrous oxide includes a manifold loss of {manifold_loss:.0%} of supply")
-    n2o_g = vapour_to_mass(Q_(n2o_l, "L"), "nitrous_oxide").magnitude
-    n2o_kg = n2o_g / 1000.0 * gwp("nitrous_oxide", basis)
+    r = {k: float(v) for k, v in totals_co2e(totals, agent_name, basis, manifold_loss).items()}
     supply_out: dict[str, pint.Quantity] = {}
     if supply:
         f_o2 = oxygen_factor if oxygen_factor is not None else factors()["oxygen_supply"].value
-        supply_out["oxygen"] = (Q_(_q(totals, "oxygen", "L"), "L") * f_o2).to("kg")
+        supply_out["oxygen"] = (Q_(float(_v(totals, "oxygen", "L") or 0.0), "L") * f_o2).to("kg")
+        absorbent_g = float(_v(totals, "absorbent", "g") or 0.0)
         if absorbent_factor is not None:
-            supply_out["absorbent"] = (Q_(_q(totals, "absorbent", "g"), "g") * absorbent_factor).to("kg")
-        elif _q(totals, "absorbent", "g") > 0:
+            supply_out["absorbent"] = (Q_(absorbent_g, "g") * absorbent_factor).to("kg")
+        elif absorbent_g > 0:
             warnings.append(
                 (
                     "ABSORBENT_SUPPLY_NOT_COUNTED",
@@ -342,19 +374,18 @@ def case_carbon(
                 )
             )
         notes.append("supply carbon of air is not counted")
-    released_total = agent_kg + n2o_kg
-    total = released_total + sum(v.magnitude for v in supply_out.values())
+    total = r["co2e_kg"] + sum(v.magnitude for v in supply_out.values())
     return CarbonResult(
         basis=basis,
         basis_label=label,
         agent=agent_name,
-        agent_delivered=Q_(delivered, "g"),
-        agent_metabolised=Q_(metabolised, "g"),
-        agent_released=Q_(delivered - metabolised, "g"),
-        nitrous_oxide_released=Q_(n2o_g, "g"),
-        agent_co2e=Q_(agent_kg, "kg"),
-        nitrous_oxide_co2e=Q_(n2o_kg, "kg"),
-        released_co2e=Q_(released_total, "kg"),
+        agent_delivered=Q_(r["agent_delivered_g"], "g"),
+        agent_metabolised=Q_(r["agent_metabolised_g"], "g"),
+        agent_released=Q_(r["agent_released_g"], "g"),
+        nitrous_oxide_released=Q_(r["nitrous_oxide_g"], "g"),
+        agent_co2e=Q_(r["agent_co2e_kg"], "kg"),
+        nitrous_oxide_co2e=Q_(r["nitrous_oxide_co2e_kg"], "kg"),
+        released_co2e=Q_(r["co2e_kg"], "kg"),
         supply_co2e=supply_out,
         total=Q_(total, "kg"),
         notes=tuple(notes),

@@ -54,11 +54,7 @@ import pint
 from .batch import TOTAL_UNITS, run_batch
 from .carbon import (
     basis_label,
-    gwp,
-    liquid_to_mass,
-    nitrous_oxide_released,
-    released_agent_mass,
-    vapour_to_mass,
+    totals_co2e,
 )
 from .casemix import CaseMix, CylinderSize
 from .costs import cost_table
@@ -141,16 +137,8 @@ def summary_statistics(values: np.ndarray) -> dict[str, float]:
 
 
 def case_co2e(totals: dict[str, np.ndarray], agent: str, basis: str, manifold_loss: float = 0.0) -> np.ndarray:
-    """CO2e per case [kg] from batch totals, as :func:`estimator.carbon.case_carbon` counts it
-    (released agent = delivered less the metabolised share of uptake; all N2O delivered, plus
-    manifold losses)."""
-    delivered = liquid_to_mass(Q_(totals["agent_liquid"], "mL"), agent).magnitude
-    uptake = vapour_to_mass(Q_(totals["agent_uptake"], "L"), agent).magnitude
-    released = released_agent_mass(delivered, agent, uptake)
-    n2o_g = vapour_to_mass(
-        Q_(nitrous_oxide_released(totals["nitrous_oxide"], manifold_loss), "L"), "nitrous_oxide"
-    ).magnitude
-    return (released * gwp(agent, basis) + n2o_g * gwp("nitrous_oxide", basis)) / 1000.0
+    """CO2e per case [kg] from batch totals: :func:`estimator.carbon.totals_co2e`, the rule of the case."""
+    return totals_co2e(totals, agent, basis, manifold_loss)["co2e_kg"]
 
 
 def _draw(mix: CaseMix, weeks: int, rng: np.random.Generator):

@@ -35,6 +35,7 @@ import pint
 from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, model_validator
 
 from . import limits as lim
+from .accounting import absorbent_capacity as _absorbent_capacity
 from .errors import InputError, read_text_file
 from .properties import AGENTS, gas
 from .units import DIMENSIONS, Q_, parse_quantity
@@ -113,8 +114,8 @@ class CircuitInput(_Model):
     initial: Literal["room_air", "oxygen"] = "room_air"
     inspiratory_fraction: _quantity("fraction", 0.0, 0.8, "dimensionless") = Q_(1 / 3, "dimensionless")
     deficit_makeup: Literal["fresh_gas", "room_air"] = "fresh_gas"
-    absorbent_capacity: _quantity("volume", 1.0, 26.0, "L") = Q_(12.0, "L")
-    """Practical CO2 capacity per 100 g of absorbent (10-15 L; REFERENCES sec. 10)."""
+    absorbent_capacity: _quantity("volume", 1.0, 26.0, "L") = _absorbent_capacity()
+    """Practical CO2 capacity per 100 g of absorbent (default: the package's one value, estimator.accounting)."""
 
 
 class SiteInput(_Model):

@@ -33,6 +33,7 @@ import numpy as np
 import pint
 from pydantic import BaseModel, ConfigDict, StrictBool, StrictInt, ValidationError
 
+from .accounting import absorbent_capacity
 from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, supply_data
 from .errors import InputError, read_text_file
 from .properties import AGENTS
@@ -419,9 +420,7 @@ def read_stocks(
         ab = inv.absorbent
         stock = parse_quantity(ab.stock, "absorbent.stock", "mass", "kg").to("g")
         check_range(stock, "absorbent.stock", Q_(0, "g"), Q_(10000, "kg"), value=ab.stock)
-        cap = parse_quantity(
-            ab.co2_per_100g or supply_data()["absorbent"]["co2_per_100g"], "absorbent.co2_per_100g", "volume", "L"
-        ).to("L")
+        cap = parse_quantity(ab.co2_per_100g or absorbent_capacity(), "absorbent.co2_per_100g", "volume", "L").to("L")
         check_range(cap, "absorbent.co2_per_100g", Q_(0, "L"), Q_(26, "L"), low_inclusive=False, value=ab.co2_per_100g)
         name = _unique(ab.name, names, "absorbent")
         pool = pools.setdefault("absorbent", Pool("absorbent", "g"))

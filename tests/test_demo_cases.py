@@ -128,14 +128,14 @@ def end_tidal_to_fresh_gas(doc: dict, start: float, end: float) -> float:
 HEADLINES = {
     "kestrel_lap_chole.toml": (
         {"agent_liquid": 11.82, "oxygen": 91.41, "air": 37.35, "co2e": 3.455, "mac_hours": 1.323},
-        5.85,
+        6.06,
         0.334,
         [],
     ),
-    "kestrel_desflurane_bariatric.toml": ({"agent_liquid": 37.97, "oxygen": 119.9, "co2e": 144.0}, 26.23, 0.266, []),
+    "kestrel_desflurane_bariatric.toml": ({"agent_liquid": 37.97, "oxygen": 119.9, "co2e": 144.0}, 26.64, 0.266, []),
     "kestrel_nitrous_dental.toml": (
         {"nitrous_oxide": 68.81, "oxygen": 74.70, "agent_liquid": 5.03, "co2e": 39.03},
-        3.09,
+        3.22,
         0.253,
         ["INSPIRED_OXYGEN_LOW"],
     ),

@@ -88,7 +88,10 @@ def test_point_collapse_equals_single_cases_times_counts():
 def test_case_co2e_matches_carbon_module():
     tpl = batch.case_template(load_casemix(POINT).case_types[1].template.scenario)
     tot = batch.run_batch(tpl, [64.0], [40.0], [40.0])
-    q = {k: batch.Q_(tot[k][0], batch.TOTAL_UNITS[k]) for k in ("agent_liquid", "agent_uptake", "nitrous_oxide")}
+    q = {
+        k: batch.Q_(tot[k][0], batch.TOTAL_UNITS[k])
+        for k in ("agent_liquid", "agent_uptake", "agent_metabolised", "nitrous_oxide")
+    }
     ref = case_carbon(q, "isoflurane", "ar5_gwp100", manifold_loss=0.5).total.to("kg").magnitude
     assert case_co2e(tot, "isoflurane", "ar5_gwp100", 0.5)[0] == pytest.approx(ref, rel=1e-12)
 

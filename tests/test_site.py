@@ -122,8 +122,8 @@ def test_unusual_room_temperature_warns():
 
 
 def test_water_vapour_at_37c_against_coolprop():
-    # West's 47 mmHg (6.3 kPa) against IAPWS-95 water in CoolProp at 37 degC (6.2795 kPa); the
-    # 0.3 % difference is the rounding of 47 mmHg.
+    # West's 47 mmHg (6.266 kPa, estimator.constants) against IAPWS-95 water in CoolProp at 37 degC
+    # (6.2795 kPa); the 0.2 % difference is the rounding of 47 mmHg.
     import CoolProp.CoolProp as CP
 
     svp = CP.PropsSI("P", "T", 310.15, "Q", 0, "Water") / 1000.0
