@@ -127,13 +127,19 @@ _NONE = "common practice, no source"
 _TABLE: tuple[tuple[str, str, str, str, bool], ...] = (
     # Flow floor: binding limits.
     ("INSPIRED_O2", "binding", "inspired O2 would fall below the threshold", _BA, True),
-    ("GAS_BALANCE", "binding", "fresh gas would not cover uptake, leak and unreturned sample gas", "model", True),
+    (
+        "GAS_BALANCE",
+        "binding",
+        "fresh gas would not cover uptake, leak and unreturned sample gas (the bag empties)",
+        "model",
+        True,
+    ),
     ("TARGET_REACH", "binding", "the end-tidal target would not be reached in time", _NONE, False),
     ("TARGET_HOLD", "binding", "the end-tidal target could not be held with the dial at its maximum", "model", False),
     (
         "WASH_OUT",
         "binding",
-        "end-tidal MAC would not fall to the wash-out target in time",
+        "with the dial at 0 the end-tidal MAC would not fall to the wash-out target in time",
         "Stoelting 1970; Katoh 1993",
         False,
     ),
@@ -141,12 +147,18 @@ _TABLE: tuple[tuple[str, str, str, str, bool], ...] = (
     (
         "O2_PROPORTION",
         "binding",
-        "O2 share of O2/N2O below the anti-hypoxic minimum",
+        "the O2 share of O2/N2O would be below the anti-hypoxic minimum",
         "ISO 80601-2-13 (from memory)",
         True,
     ),
     ("FLOWMETER_RANGE", "binding", "a flow would exceed the flowmeter's range", "machine setting", False),
-    ("LABEL_SEVOFLURANE_US", "binding", "the sevoflurane US label rule", _LABEL, True),
+    (
+        "LABEL_SEVOFLURANE_US",
+        "binding",
+        "the sevoflurane US label rule (>= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min)",
+        _LABEL,
+        True,
+    ),
     ("FLOWMETER_MINIMUM", "binding", "the lowest setting of the flowmeter scale", "machine setting", False),
     ("NO_FRESH_GAS", "binding", "the phase has no fresh gas, so no floor can be set", "model", False),
     # Flow floor: advisories.

@@ -45,27 +45,25 @@ import numpy as np
 from . import circuit as c
 from . import engine
 from .errors import InputError
-from .limits import HYPOXIC_FRACTION, LABEL_MAC_HOURS, LABEL_MIDDLE_FLOW, LABEL_MINIMUM_FLOW, TARGET_BAND, codes_of
+from .limits import (
+    CODES,
+    HYPOXIC_FRACTION,
+    LABEL_MAC_HOURS,
+    LABEL_MIDDLE_FLOW,
+    LABEL_MINIMUM_FLOW,
+    TARGET_BAND,
+    codes_of,
+)
 from .scenario import PhaseInput, Scenario
 from .units import Q_
 
 #: The binding limits in the order they are reported (the registry's binding codes, less the two
 #: that only name why no limit failed: the scale's lowest setting and a phase without fresh gas).
 LIMITS = tuple(k for k in codes_of("binding") if k not in ("FLOWMETER_MINIMUM", "NO_FRESH_GAS"))
-LIMIT_TEXT = {
-    "INSPIRED_O2": "inspired O2 would fall below the threshold",
-    "GAS_BALANCE": "fresh gas would not cover uptake, leak and unreturned sample gas (the bag empties)",
-    "TARGET_REACH": "the end-tidal target would not be reached in time",
-    "TARGET_HOLD": "the end-tidal target could not be held with the dial at its maximum",
-    "WASH_OUT": "with the dial at 0 the end-tidal MAC would not fall to the wash-out target in time",
-    "BASAL_O2": "the O2 flow would be below the machine's basal O2 flow",
-    "O2_PROPORTION": "the O2 share of O2/N2O would be below the anti-hypoxic minimum",
-    "FLOWMETER_RANGE": "a flow would exceed the flowmeter's range",
-    "LABEL_SEVOFLURANE_US": "the sevoflurane US label rule (>= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min)",
-    "FLOWMETER_MINIMUM": "the lowest setting of the flowmeter scale",
-}
+#: Plain words for each binding code (the ``limits`` key of the JSON), from the registry.
+LIMIT_TEXT = {k: CODES[k].meaning for k in (*LIMITS, "FLOWMETER_MINIMUM")}
 #: Default flowmeter scale: 0.1 L/min steps up to 1 L/min, 0.5 L/min above (common practice, from
-#: memory; REFERENCES sec. 6).
+#: memory, no source).
 DEFAULT_SCALE = ((1.0, 0.1), (15.0, 0.5))
 CHECK_INTERVAL = 1.0  # [min] resolution of the limit checks
 from .results import SETTLE  # noqa: E402  inspired O2 is judged from this case time on [min]
