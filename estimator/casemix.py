@@ -58,6 +58,7 @@ from .batch import CaseTemplate, case_template
 from .costs import Prices, parse_prices
 from .errors import InputError, read_text_file
 from .limits import MAPLESON_VALID_FROM as MAPLESON_MIN_AGE
+from .limits import TRUNCATED_SHARE
 from .physiology import SANE_WEIGHT, VALIDATED_WEIGHT
 from .properties import AGENTS, CO2E_BASES
 from .scenario import input_error_from_validation, load_scenario, scenario_from_dict
@@ -400,7 +401,7 @@ def case_type(row: CaseTypeInput, where: str, base_dir: Path) -> tuple[CaseType,
                 f"{row.name}: ages from {age.low:g} years; Mapleson's age correction of MAC is fitted from 1 year up",
             )
         )
-    if duration.truncated_mass() > 0.01:
+    if duration.truncated_mass() > TRUNCATED_SHARE:
         notes.append(
             (
                 "DURATION_TRUNCATED",

@@ -41,6 +41,7 @@ import pint
 
 from .constants import GAS_CONSTANT
 from .errors import InputError
+from .limits import NITROUS_OXIDE_GAUGE_SHARE
 from .properties import CONFIDENCE_CODES, DataError
 from .units import (
     Q_,
@@ -467,7 +468,7 @@ def nitrous_oxide_cylinder(
         )
     if pressure is not None and p_sat is not None and phase == "liquid and vapour":
         g = parse_pressure(pressure, f"{f}.pressure").absolute(ambient_pressure)
-        if g.to("kPa").magnitude < 0.9 * p_sat.magnitude:
+        if g.to("kPa").magnitude < NITROUS_OXIDE_GAUGE_SHARE * p_sat.magnitude:
             notes.append(
                 (
                     "NITROUS_OXIDE_GAUGE_LOW",

@@ -80,6 +80,14 @@ LOW_READING = 0.1
 #: Site elevation [m] above which a warning is given (common practice, no source: the highest
 #: permanent settlements lie near 5100 m).
 HABITATION_LIMIT = 6000.0
+#: Room temperatures [degC] usual for anaesthetic equipment; outside them SITE_TEMPERATURE_UNUSUAL
+#: (common practice, no source).
+TEMPERATURE_USUAL = (10.0, 40.0)
+#: An N2O gauge below this share of the vapour pressure gets NITROUS_OXIDE_GAUGE_LOW (common practice,
+#: no source: a gauge reads to a few per cent, a colder cylinder a little lower).
+NITROUS_OXIDE_GAUGE_SHARE = 0.9
+#: A case-mix duration law that loses more than this share to its limits gets DURATION_TRUNCATED (our choice).
+TRUNCATED_SHARE = 0.01
 #: Weights [kg] over which the physiological power laws are taken as validated (adult and
 #: older-child clinical use; Lowe and Ernst 1981 applied Brody's law to adults and children).
 VALIDATED_WEIGHT = (10.0, 150.0)

@@ -33,7 +33,7 @@ import numpy as np
 import pint
 
 from .errors import InputError
-from .limits import MAPLESON_VALID_FROM
+from .limits import HYPOXIC_FRACTION, MAPLESON_VALID_FROM
 from .properties import Species, agent, gas
 from .site import site_from_inputs
 from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
@@ -433,7 +433,7 @@ def end_tidal_for_total_mac(
                 "than 100 %; this total MAC cannot be given with this nitrous oxide",
             )
         )
-    elif f_agent + f_n2o > 0.79:
+    elif f_agent + f_n2o > 1.0 - HYPOXIC_FRACTION:
         notes.append(
             (
                 "OXYGEN_BELOW_AIR",

@@ -48,7 +48,7 @@ import pint
 
 from .constants import WATER_VAPOUR_37C_KPA
 from .errors import InputError
-from .limits import HABITATION_LIMIT
+from .limits import HABITATION_LIMIT, TEMPERATURE_USUAL
 from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
 
 #: ISO 2533:1975 constants (troposphere).
@@ -75,10 +75,8 @@ ELEVATION_RANGE = (-500.0, 11000.0)
 PRESSURE_RANGE = (22.6, 108.5)
 #: Accepted ratio of a measured pressure to the standard value at the stated elevation.
 PRESSURE_CONSISTENCY = (0.85, 1.08)
-#: Room temperature [degC] accepted, and the range usual for anaesthetic equipment
-#: (common practice, no source); outside the latter a warning.
+#: Room temperature [degC] accepted; outside TEMPERATURE_USUAL (estimator.limits) a warning.
 TEMPERATURE_RANGE = (-20.0, 50.0)
-TEMPERATURE_USUAL = (10.0, 40.0)
 DEFAULT_TEMPERATURE = Q_(20.0, "degC")
 #: Saturated water vapour pressure at 37 degC, 47 mmHg = 6.27 kPa (West; estimator.constants).
 WATER_VAPOUR_37C = Q_(WATER_VAPOUR_37C_KPA, "kPa")
