@@ -259,6 +259,14 @@ _TABLE: tuple[tuple[str, str, str, str, bool], ...] = (
 
 #: Every code the package emits, by name.
 CODES: dict[str, Code] = {row[0]: Code(*row) for row in _TABLE}
+#: Former names of codes merged so that one event has one code (former -> current), for readers of
+#: older JSON output; the package emits only the current names.
+RENAMED = {
+    "HYPOXIC_MIXTURE_RISK": "INSPIRED_OXYGEN_LOW",
+    "LOW_INSPIRED_OXYGEN": "INSPIRED_OXYGEN_LOW",
+    "TARGET_UNREACHABLE": "TARGET_NOT_REACHED",
+    "nitrous_oxide_supercritical": "NITROUS_OXIDE_SUPERCRITICAL",
+}
 
 
 def code(name: str) -> str:
