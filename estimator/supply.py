@@ -50,6 +50,7 @@ import numpy as np
 import pandas as pd
 import pint
 
+from .accounting import absorbent_mass
 from .cylinders import supply_data
 from .errors import InputError
 from .supply_file import (
@@ -435,8 +436,8 @@ def _allocate(
         if key in GASES:
             continue
         if key == "absorbent":
-            cap = pool.items[0][3]["co2_per_100g"].to("L").magnitude / 100.0
-            pool.draw = need.get("co2", np.zeros(WEEK)) / cap
+            cap = pool.items[0][3]["co2_per_100g"].to("L").magnitude
+            pool.draw = absorbent_mass(need.get("co2", np.zeros(WEEK)), cap)
         else:
             pool.draw = need.get(key, np.zeros(WEEK)).copy()
         pool.unmet_after = pool.draw
