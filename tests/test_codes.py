@@ -1,6 +1,7 @@
 """Every warning, advisory and binding code is produced by a test, and every code is registered.
 
-Each entry of ``PRODUCERS`` builds a small input that produces its code; safety codes also have a
+Each entry of ``PRODUCERS`` (keyed ``CODE``, or ``CODE/emitter`` when several modules emit the same
+code) builds a small input that produces its code; safety codes also have a
 safe counterpart in ``SAFE`` under which the code must go away (one-sided: the warning is given when
 the limit is passed and not given when it is kept). The meta-tests check that the producers cover
 the registry (:data:`estimator.limits.CODES`) and that every code literal in the package is
