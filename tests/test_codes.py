@@ -13,237 +13,46 @@ from __future__ import annotations
 import ast
 from collections.abc import Callable
 from pathlib import Path
-from types import SimpleNamespace
 
 import pytest
+from code_inputs import (
+    AUDIT_HEADER,
+    CASES_ONLY,
+    CONTINUOUS,
+    EMERGENCE,
+    FLOWS,
+    FULL,
+    HOLD,
+    LOW_O2,
+    O2_CYL,
+    PATIENT,
+    PURITY,
+    SEVO_ROWS,
+    audit,
+    carbon_supply,
+    case,
+    casemix,
+    closed,
+    dial,
+    floor,
+    flowmeter,
+    forecast,
+    maintenance,
+    n2o_cylinder,
+    o2_cylinder,
+    patient,
+    pio2,
+    policy,
+    site,
+    supply,
+    total,
+    warning_codes,
+)
 from engine_helpers import scenario
 
 from estimator.limits import CODES, INSPIRED_OXYGEN_FLOOR, RENAMED
-from estimator.units import Q_
 
 PACKAGE = Path(__file__).resolve().parent.parent / "estimator"
-START = "2026-03-02"
-AUDIT_HEADER = "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting"
-
-
-def _codes(warnings) -> set[str]:
-    return {w["code"] if isinstance(w, dict) else w[0] for w in warnings}
-
-
-# --- case engine and flow floor (each input run once, however many codes it serves) ------------------
-
-_RUNS: dict[str, set[str]] = {}
-
-
-def _once(key: tuple, run: Callable[[], set[str]]) -> set[str]:
-    k = repr(key)
-    if k not in _RUNS:
-        _RUNS[k] = run()
-    return _RUNS[k]
-
-
-def case(agent: str, *phases: dict, **tables) -> Callable[[], set[str]]:
-    """Codes of a simulated case."""
-
-    def run():
-        from estimator.engine import simulate
-
-        return _codes(simulate(scenario(agent, list(phases), **tables)).warnings)
-
-    return lambda: _once(("case", agent, phases, tables), run)
-
-
-def floor(agent: str, *phases: dict, **tables) -> Callable[[], set[str]]:
-    """Advisories and binding limits (every phase's ``binding_all``) of a flow floor."""
-
-    def run():
-        from estimator.safety import flow_floor
-
-        res = flow_floor(scenario(agent, list(phases), **tables), grid=False)
-        out = _codes(res.warnings)
-        for ph in res.phases:
-            out |= set(ph["binding_all"] or [])
-        return out
-
-    return lambda: _once(("floor", agent, phases, tables), run)
-
-
-HOLD = {"end_tidal_target": "1 MAC"}
-LOW_O2 = {"duration": "60 min", "oxygen": "0.3 L/min", "nitrous_oxide": "0.7 L/min", **HOLD}
-SAFE_O2 = {"duration": "60 min", "oxygen": "2 L/min", "air": "2 L/min", **HOLD}
-EMERGENCE = (
-    {"duration": "10 min", "oxygen": "3 L/min", "air": "3 L/min", **HOLD},
-    {"duration": "50 min", "oxygen": "0.6 L/min", "air": "0.4 L/min", **HOLD},
-    {"duration": "1 min", "oxygen": "3 L/min", "air": "3 L/min", "vaporizer": "0 %"},
-)
-
-
-# --- small calculators ------------------------------------------------------------------------------
-
-
-def site(**kw):
-    from estimator.site import site_from_inputs
-
-    return lambda: _codes(site_from_inputs(**kw).warnings)
-
-
-def pio2(fio2, threshold, kpa):
-    from estimator.site import check_inspired_oxygen
-
-    return lambda: _codes(check_inspired_oxygen(fio2, threshold, Q_(kpa, "kPa")))
-
-
-def dial(target, kpa, agent="sevoflurane", kind="variable_bypass"):
-    from estimator.mac import mac_at_age
-    from estimator.vaporizer import dial_for_target
-
-    def run():
-        mac = mac_at_age(agent, "40 years").mac
-        return _codes(dial_for_target(target, mac, kind, Q_(kpa, "kPa"), agent).warnings)
-
-    return run
-
-
-def total(agent, mac, age, n2o):
-    from estimator.mac import end_tidal_for_total_mac
-
-    return lambda: _codes(end_tidal_for_total_mac(agent, mac, age, n2o).warnings)
-
-
-def flowmeter(reading, cal, use):
-    from estimator.flowmeter import true_flow
-    from estimator.site import site_from_inputs
-
-    return lambda: _codes(true_flow(reading, cal, use, site_from_inputs()).warnings)
-
-
-def closed(fn: str, *args, **kw):
-    from estimator import closed_form
-
-    return lambda: _codes(getattr(closed_form, fn)(*args, **kw).warnings)
-
-
-def patient(weight):
-    from estimator.physiology import patient_parameters
-
-    return lambda: _codes(patient_parameters(weight, "40 years").warnings)
-
-
-def carbon_supply(absorbent_g):
-    from estimator.carbon import case_carbon
-
-    totals = {"agent_liquid": Q_(10, "mL"), "oxygen": Q_(100, "L"), "absorbent": Q_(absorbent_g, "g")}
-    return lambda: _codes(case_carbon(totals, "sevoflurane", supply=True).warnings)
-
-
-def o2_cylinder(pressure, reserve):
-    from estimator.cylinders import compressed_cylinder
-
-    return lambda: _codes(compressed_cylinder("oxygen", "10 L", pressure, reserve_pressure=reserve).warnings)
-
-
-def n2o_cylinder(gross, tare, temperature="15 degC", **kw):
-    from estimator.cylinders import nitrous_oxide_cylinder
-
-    return lambda: _codes(nitrous_oxide_cylinder(gross, tare, temperature, **kw).warnings)
-
-
-# --- supply ----------------------------------------------------------------------------------------
-
-O2_CYL = '[[cylinders]]\nname = "A"\ngas = "oxygen"\nwater_capacity = "10 L"\npressure = "{bar} bar"\nreserve_pressure = "10 bar"\n'
-SUPPLY_CASE = SimpleNamespace(
-    totals={
-        "duration": Q_(90, "min"),
-        "oxygen": Q_(60, "L"),
-        "air": Q_(20, "L"),
-        "nitrous_oxide": Q_(0, "L"),
-        "agent_liquid": Q_(12, "mL"),
-        "co2_absorbed": Q_(18, "L"),
-    },
-    warnings=[],
-    scenario=SimpleNamespace(
-        agent=SimpleNamespace(name="sevoflurane"), patient=SimpleNamespace(weight=Q_(70, "kg"), age=Q_(40, "year"))
-    ),
-)
-
-
-def supply(text: str):
-    from estimator.supply import load_inventory, plan_supply
-
-    return lambda: _codes(plan_supply(load_inventory(text), start=START, runner=lambda _: SUPPLY_CASE).warnings)
-
-
-CASES_ONLY = '[[demand.cases]]\nscenario = "x.toml"\nper_day = 1\n'
-CONTINUOUS = '[[demand.continuous]]\ngas = "oxygen"\nflow = "{flow} L/min"\n'
-PURITY = '[[concentrators]]\nrated_flow = "5 L/min"\npurity = [["0 L/min", "95 %"], ["5 L/min", "{low} %"]]\n'
-
-
-# --- forecast --------------------------------------------------------------------------------------
-
-#: One case type, two fixed cases a week; ``body`` holds its other keys, ``tail`` any later tables.
-MIX = """
-weeks = {weeks}
-seed = 1
-[[case_types]]
-name = "list"
-per_week = 2
-count = "fixed"
-agent = "sevoflurane"
-{body}
-{tail}
-"""
-PATIENT = 'weight_mean = "70 kg"\nage_mean = "50 years"\n'
-FLOWS = 'wash_in_flow = "6 L/min"\nwash_in_time = "10 min"\nmaintenance_flow = "1 L/min"\n'
-
-
-def forecast(body: str = FLOWS + PATIENT + 'duration = "60 min"', weeks: int = 3, tail: str = ""):
-    """Warnings of a forecast of one case type (``body``: its keys)."""
-    from estimator.casemix import load_casemix
-    from estimator.forecast import forecast as run
-
-    return lambda: _codes(run(load_casemix(MIX.format(weeks=weeks, body=body, tail=tail))).warnings)
-
-
-def maintenance(flows: str, duration: str = "60 min") -> str:
-    """A case-type body: 10 min wash-in at 6 L/min, then the given maintenance keys."""
-    return 'wash_in_flow = "6 L/min"\nwash_in_time = "10 min"\n' + flows + PATIENT + f'duration = "{duration}"'
-
-
-def casemix(body: str):
-    """Load-time warnings of a case mix of one case type."""
-    from estimator.casemix import load_casemix
-
-    return lambda: _codes(load_casemix(MIX.format(weeks=3, body=body, tail="")).warnings)
-
-
-# --- audit -----------------------------------------------------------------------------------------
-
-
-def audit(rows: str, header: str = AUDIT_HEADER, **kw):
-    from estimator.audit import audit as run
-
-    return lambda: _codes(run(f"{header}\n{rows}", **kw).warnings)
-
-
-def policy(rows: str, header: str, **kw):
-    from estimator.audit import audit as run
-    from estimator.audit_policy import counterfactual, parse_policy
-
-    def go():
-        res = counterfactual(run(f"{header}\n{rows}"), parse_policy(kw))
-        out = _codes(res["warnings"])
-        for c in res["cases"]:
-            out |= _codes(c["warnings"])
-        return out
-
-    return go
-
-
-FULL = AUDIT_HEADER + ",end_tidal_agent,patient_age,patient_weight"
-SEVO_ROWS = (
-    "E,0,3,3,0,sevoflurane,3,1.0,50,75\nE,10,3,3,0,sevoflurane,2.2,1.6,50,75\nE,40,3,3,0,sevoflurane,2.2,1.6,50,75\n"
-)
-
 
 #: code -> builder returning the set of codes an input produces.
 PRODUCERS: dict[str, Callable[[], set[str]]] = {
@@ -615,4 +424,4 @@ def test_floor_keeps_its_limits(name):
     judged = s["time [min]"].to_numpy() >= SETTLE
     assert s["inspired_oxygen [%]"].to_numpy()[judged].min() / 100 >= st.threshold
     assert r.totals["volume_deficit"].to("L").magnitude == pytest.approx(0.0, abs=1e-9)
-    assert "VOLUME_DEFICIT" not in _codes(r.warnings)
+    assert "VOLUME_DEFICIT" not in warning_codes(r.warnings)
