@@ -175,6 +175,7 @@ def lap(cli):
         ("kestrel_nitrous_dental.toml", 195.0),
     ],
 )
+@pytest.mark.validation
 def test_vapour_per_ml_biro(cli, name, biro):
     # Biro 2014: 1 mL of liquid gives 184 (sevoflurane), 195 (isoflurane), 210 mL (desflurane) of
     # vapour at 20 degC, times 288.15/293.15 at the 15 degC reference. Real vapours give up to 3 %
@@ -210,24 +211,27 @@ def test_lap_chole_oxygen_at_least_consumption(lap):
     )
 
 
+@pytest.mark.validation
 def test_lap_chole_uptake_follows_lowe(lap):
     # Lowe & Ernst 1981: cumulative uptake between 10 min and the end of the hold (78 min) is
-    # 2 f MAC lambda Q (sqrt 78 - sqrt 10), f 1.3, MAC age-corrected (Mapleson 1996), Q = 2 kg^0.75
-    # dL/min. Band 35 % as in test_engine_world (the law is an empirical fit; the compartment model
-    # falls below it as tissues fill).
+    # 2 C lambda Q (sqrt 78 - sqrt 10) for an alveolar concentration C held (their f x MAC), with Q =
+    # 2 kg^0.75 dL/min. C is the end-tidal the case holds (a condition of the case); the sevoflurane
+    # blood/gas 0.65 is the published term (Miller's Anesthesia, Inhaled anesthetics, Table 1 [S]),
+    # not the model's data file. Band +-2 CV of measured closed-circuit requirement between patients
+    # (isoflurane 5.85 +- 1.32 mL in the first hour, n = 20; tests/data/published/studies.toml).
     s = case_series(lap)
     sel = (s["time"] >= 10) & (s["time"] <= 78)
     model = float(np.trapezoid(s.loc[sel, "agent_uptake"], s.loc[sel, "time"]))
-    a = agent("sevoflurane")
-    mac = a.mac40.to("percent").magnitude * 10 ** (-0.00269 * (47 - 40))
-    lowe = 2 * 1.3 * mac * a.blood_gas * 2 * 78**0.75 * (math.sqrt(78) - math.sqrt(10))
-    ok = model == pytest.approx(lowe, rel=0.35)
+    held = float(s.loc[sel, "end_tidal_target"].mean())
+    lowe = 2 * held * 0.65 * 2 * 78**0.75 * (math.sqrt(78) - math.sqrt(10))
+    band = 2 * 1.32 / 5.85
+    ok = model == pytest.approx(lowe, rel=band)
     check(
         "demo lap chole: sevoflurane uptake 10-78 min",
         model,
         lowe,
-        "Lowe & Ernst 1981 (square-root law)",
-        "rel 35 %",
+        "Lowe & Ernst 1981 (square-root law); blood/gas Miller's Anesthesia Table 1 [S]",
+        f"rel {band:.0%} (2 CV of closed-circuit requirement)",
         ok,
         "mL vapour",
     )
@@ -313,20 +317,20 @@ def test_desflurane_carbon_and_mac_hours(des):
     assert mag(t, "mac_hours") == pytest.approx(106 / 60, rel=0.05)
 
 
+@pytest.mark.validation
 def test_desflurane_end_tidal_to_fresh_gas_ratio(des):
-    # Coetzee JF, Stewart LJ, Br J Anaesth 2002;88:46: desflurane end-tidal to fresh-gas partial
-    # pressure ratio about 0.8 at 0.5-3 L/min, whatever the flow; 0.3-0.7 for the soluble agents.
-    # A published mean over patients and flows: we accept 0.7-1.0 (1 is the physical ceiling while
-    # the patient takes agent up). The model gives about 0.95: it sits high, so desflurane uptake at
-    # low flow may be underestimated (the tissue coefficients are partly from memory).
+    # Coetzee JF, Stewart LJ, Br J Anaesth 2002;88:46 (abstract): desflurane end-tidal to fresh-gas
+    # partial pressure ratio 0.8 at 3, 1 and 0.5 L/min, whatever the flow. No spread in the
+    # abstract; the band 0.7-0.9 is the target set for this ratio in issue 15 (a band up to 1.0, the
+    # physical ceiling, could not fail high).
     ratio = end_tidal_to_fresh_gas(des, 10, 106)
-    ok = 0.7 <= ratio <= 1.0
+    ok = 0.7 <= ratio <= 0.9
     check(
         "demo desflurane: end-tidal / fresh-gas agent at 0.8 L/min",
         ratio,
         0.8,
         "Coetzee & Stewart, Br J Anaesth 2002;88:46",
-        "0.7 to 1.0",
+        "0.7 to 0.9",
         ok,
     )
 
@@ -367,6 +371,7 @@ def test_nitrous_oxide_litres_and_carbon(n2o):
     )
 
 
+@pytest.mark.validation
 def test_nitrous_oxide_uptake_severinghaus(n2o):
     # Severinghaus 1954: N2O uptake about 1000 t^-1/2 mL/min for 70 kg at 65-75 % inspired; the
     # dental case (68 kg) holds 65-69 % inspired from 5 to 40 min. Band 20 % as in test_engine_world.
@@ -431,6 +436,7 @@ def test_high_site_argon_accumulates(high):
     )
 
 
+@pytest.mark.validation
 def test_high_site_isoflurane_end_tidal_to_fresh_gas(high):
     # Coetzee & Stewart 2002: 0.3-0.7 end-tidal to fresh gas for the soluble agents (isoflurane).
     ratio = end_tidal_to_fresh_gas(high, 20, 70)

@@ -30,6 +30,7 @@ def published_factor(age):
     return 10 ** (-0.00269 * (age - 40.0))
 
 
+@pytest.mark.validation
 @pytest.mark.parametrize("name,mac40", sorted(MAPLESON_TABLE2.items()))
 def test_shipped_mac40_is_mapleson_table2(name, mac40):
     # Data file against Mapleson 1996 Table 2; exact, the table is copied to its printed digits.
@@ -46,6 +47,7 @@ def test_shipped_mac40_is_mapleson_table2(name, mac40):
     assert agent(name).mac40.to("percent").magnitude == pytest.approx(mac40, rel=1e-12)
 
 
+@pytest.mark.validation
 def test_shipped_nitrous_oxide_mac40():
     # Mapleson 1996 Table 2: nitrous oxide 104 % at 40 years.
     v = gas("nitrous_oxide").mac40.to("percent").magnitude

@@ -47,6 +47,7 @@ def test_brody_power_laws(kg):
     assert brody_cardiac_output(kg) == pytest.approx(0.2 * kg**0.75, rel=1e-12)
 
 
+@pytest.mark.validation
 def test_brody_70kg_against_quoted_values():
     # Lowe and Ernst 1981 quote about 250 mL/min O2 for a 70 kg adult (REFERENCES sec. 1, S); the
     # quoted figure is rounded, so 5 %.
@@ -70,6 +71,7 @@ def test_brody_70kg_against_quoted_values():
     assert ratio.to("dimensionless").magnitude == pytest.approx(0.8, rel=1e-12)
 
 
+@pytest.mark.validation
 def test_brody_70kg_within_measured_oxygen_consumption():
     # Lieberman JA et al., Anesthesiology 2000;92:407: awake VO2 3.0 +- 0.5 mL/kg/min. Brody's
     # figure per kg at 70 kg (3.46) lies within one standard deviation of it.

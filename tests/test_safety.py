@@ -148,6 +148,7 @@ def planned():
     return flow_floor(sc)
 
 
+@pytest.mark.validation
 def test_flow_classes_and_settable_rounding(planned):
     # Flow classes as published: metabolic <= 0.25, minimal 0.25-0.5, low 0.5-1, medium 1-2, high 2-4,
     # very high > 4 L/min (Brattwall et al. 2012, Table 1; Baum and Aitkenhead 1995).
@@ -213,6 +214,7 @@ def test_lowest_oxygen_flow_at_chosen_total(planned):
     assert ph["lowest_oxygen_flow"] <= ph["flows"]["oxygen"]
 
 
+@pytest.mark.validation
 def test_label_policy_raises_sevoflurane_floor_to_one_litre():
     # Sevoflurane US label: fresh gas below 1 L/min not recommended (REFERENCES sec. 11).
     ph = [{"duration": "60 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"}]
