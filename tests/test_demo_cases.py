@@ -21,7 +21,6 @@ import pytest
 from validation import record
 
 from estimator.cli import CAUTION, main
-from estimator.properties import agent
 
 PIN = 0.02  # see the module docstring
 #: Free gas at 15 degC per litre at the 20 degC flowmeter conditions (Charles's law).
