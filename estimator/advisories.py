@@ -4,7 +4,7 @@ deference to local practice.
 References
 ----------
 .. [1] Sevoflurane US prescribing information: compound A; fresh gas below 1 L/min not recommended,
-   at most 2 MAC-hours at 1 to < 2 L/min (REFERENCES sec. 11).
+   at most 2 MAC-hours at 1 to < 2 L/min.
 .. [2] Fang ZX, Eger EI, Laster MJ et al. Carbon monoxide production from degradation of desflurane,
    enflurane, isoflurane, halothane, and sevoflurane by soda lime and Baralyme. Anesth Analg
    1995;80:1187-93.

@@ -72,7 +72,7 @@ LIMIT_TEXT = {
     "FLOWMETER_MINIMUM": "the lowest setting of the flowmeter scale",
 }
 #: Default flowmeter scale: 0.1 L/min steps up to 1 L/min, 0.5 L/min above (common practice, from
-#: memory; REFERENCES sec. 6).
+#: memory).
 DEFAULT_SCALE = ((1.0, 0.1), (15.0, 0.5))
 #: End-tidal within this share of target counts as reached (as in estimator.results).
 TARGET_BAND = 0.02

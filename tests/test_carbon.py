@@ -11,8 +11,8 @@ from estimator import carbon
 from estimator.errors import InputError
 from estimator.units import Q_
 
-# IPCC AR6 WG1 (2021) Ch. 7 Table 7.SM.7 and IPCC AR5 WG1 (2013) Table 8.A.1, as listed in the
-# project's REFERENCES sec. 8 (read in the source). Exact table values: no tolerance.
+# IPCC AR6 WG1 (2021) Ch. 7 Supplementary Material Table 7.SM.7 and IPCC AR5 WG1 (2013) Table 8.A.1
+# (read in the source; docs/REFERENCES.md). Exact table values: no tolerance.
 AR6_GWP100 = {"nitrous_oxide": 273, "desflurane": 2590, "isoflurane": 539, "sevoflurane": 195, "halothane": 45}
 AR6_GWP20 = {"nitrous_oxide": 273, "desflurane": 7020, "isoflurane": 1930, "sevoflurane": 702, "halothane": 162}
 AR5_GWP100 = {"nitrous_oxide": 265, "desflurane": 1790, "isoflurane": 491, "sevoflurane": 216, "halothane": 41}
@@ -171,7 +171,7 @@ def test_nitrous_oxide_co2e_ar6():
 @pytest.mark.validation
 def test_oxygen_supply_carbon_tariq_2024():
     # Supply carbon of bulk O2 about 0.17 kg CO2e per m3 (derived from Tariq et al., J Clean Prod
-    # 2024, as quoted in REFERENCES sec. 8): 2000 L -> 0.34 kg.
+    # 2024, volume and page not read; secondary): 2000 L -> 0.34 kg.
     r = carbon.case_carbon({"oxygen": Q_(2000, "L"), "absorbent": Q_(100, "g")}, None, supply=True)
     o2e = r.supply_co2e["oxygen"].to("kg").magnitude
     record(

@@ -78,7 +78,7 @@ def test_lowe_cumulative_is_integral_of_rate():
 
 
 def test_lowe_warnings_and_errors():
-    # The law never saturates (REFERENCES sec. 5): long times are flagged, not clipped.
+    # The law never saturates (Lowe & Ernst 1981: no tissue fills): long times are flagged, not clipped.
     r = lowe_cumulative_uptake("sevoflurane", "6 h")
     assert "SQUARE_ROOT_LAW_LONG" in [c for c, _ in r.warnings]
     assert r.value.magnitude > lowe_cumulative_uptake("sevoflurane", "4 h").value.magnitude

@@ -240,7 +240,7 @@ def test_lap_chole_carbon_dioxide_and_absorbent(lap):
     # Brody (Lowe & Ernst 1981): VCO2 = 8 kg^0.75 mL/min STPD. The absorbent cannot take more than
     # the patient makes, and at minimal flow most of it (Zhong et al., Br J Anaesth 2020): more than
     # half over a case with 16 of 86 min at 6 L/min. Absorbent: practical capacity 10-15 L CO2 per
-    # 100 g (REFERENCES sec. 10), so the grams used lie between CO2/15 and CO2/10 x 100.
+    # 100 g (anaesthesia equipment texts, no single source), so the grams used lie between CO2/15 and CO2/10 x 100.
     t = lap["totals"]
     made = 8 * 78**0.75 / 1000 * STPD_TO_REF * mag(t, "duration")
     co2 = mag(t, "co2_absorbed")
@@ -308,7 +308,7 @@ def des(cli):
 
 def test_desflurane_carbon_and_mac_hours(des):
     t = des["totals"]
-    # IPCC AR6 GWP100 2590; density 1.465 g/mL (REFERENCES sec. 2, from memory): 95-100 % as above.
+    # IPCC AR6 GWP100 2590; density 1.465 g/mL (Eger EI, Anesth Analg 1992;75(4 Suppl):S3, from memory): 95-100 % as above.
     upper = mag(t, "agent_liquid") * 1.465 * 2590 / 1000
     assert 0.95 * upper <= mag(t, "co2e") <= upper * 1.01
     # An end-tidal hold of 1 MAC gives about 1 MAC-hour an hour of hold (6 + 100 min; the first
@@ -419,7 +419,7 @@ def test_high_site_flowmeter_readings_between_the_limits(high):
 
 def test_high_site_argon_accumulates(high):
     # Concentrator product of 93 % O2 carries argon in its air ratio to O2 (0.934/20.946 %, CRC), so
-    # 4.15 % of the fresh gas; at 1 L/min it builds up in the circle above that (REFERENCES sec. 9).
+    # 4.15 % of the fresh gas; at 1 L/min it builds up in the circle above that (argon 0.934 % of dry air, CRC Handbook).
     s = case_series(high)
     m = s[(s["time"] >= 40) & (s["time"] <= 70)]
     fresh = 93 * 0.00934 / 0.20946
@@ -428,7 +428,7 @@ def test_high_site_argon_accumulates(high):
         "demo 2,800 m: inspired argon at 1 L/min of concentrator O2",
         float(m["inspired_argon"].min()),
         f"> {fresh:.2f}",
-        "CRC dry-air argon ratio; REFERENCES sec. 9 (from memory)",
+        "CRC Handbook dry-air argon ratio (from memory)",
         "above fresh gas",
         ok,
         "%",

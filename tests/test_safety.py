@@ -216,14 +216,14 @@ def test_lowest_oxygen_flow_at_chosen_total(planned):
 
 @pytest.mark.validation
 def test_label_policy_raises_sevoflurane_floor_to_one_litre():
-    # Sevoflurane US label: fresh gas below 1 L/min not recommended (REFERENCES sec. 11).
+    # Sevoflurane US label: fresh gas below 1 L/min not recommended (sevoflurane US prescribing information).
     ph = [{"duration": "60 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"}]
     res = flow_floor(scenario("sevoflurane", ph, flow_floor={"policies": ["sevoflurane_us_label"]}), grid=False)
     record(
         "sevoflurane flow floor under the US-label policy",
         floor_of(res),
         ">= 1.0",
-        "sevoflurane US label (REFERENCES sec. 11)",
+        "sevoflurane US prescribing information (label)",
         "at least 1 L/min",
         floor_of(res) >= 1.0,
         "L/min",
@@ -234,7 +234,7 @@ def test_label_policy_raises_sevoflurane_floor_to_one_litre():
 
 def test_advisories_for_agent_and_oxygen_source():
     # Fang et al. 1995: desiccated absorbent with desflurane makes CO; argon from concentrator O2
-    # accumulates at low flow (REFERENCES sec. 9).
+    # accumulates at low flow (argon 0.934 % of dry air, CRC Handbook).
     ph = [{"duration": "90 min", "oxygen": "0.5 L/min", "end_tidal_target": "1 MAC"}]
     res = flow_floor(scenario("desflurane", ph, site={"oxygen_source": "concentrator"}), grid=False)
     codes = [c for c, _ in res.warnings]
