@@ -92,6 +92,27 @@ def _table(header: list[str], rows: list[list[str]]) -> list[str]:
     return lines
 
 
+def fitted_parameters() -> list[str]:
+    """Parameters of estimator/data fitted to published data (confidence "F"), as text lines."""
+    import tomllib
+
+    out = []
+    for path in sorted((ROOT / "estimator" / "data").glob("*.toml")):
+        data = tomllib.loads(path.read_text(encoding="utf-8"))
+        sources = data.get("sources", {})
+
+        stack = [(data, f"{path.name}: ")]
+        while stack:
+            table, where = stack.pop()
+            for key, value in table.items():
+                if isinstance(value, dict) and value.get("confidence") == "F":
+                    src = sources.get(value.get("source", ""), value.get("source", ""))
+                    out.append(f"- `{where}{key}` = {value.get('value')}: fitted to {src}. {value.get('note', '')}")
+                elif isinstance(value, dict):
+                    stack.append((value, f"{where}{key}."))
+    return out
+
+
 def render(rows: list[dict], when: str, command: str = COMMAND, consistency: list[dict] | None = None) -> str:
     """The Markdown report: ``rows`` (checks against published sources), then ``consistency``."""
     lines = [
@@ -112,6 +133,15 @@ def render(rows: list[dict], when: str, command: str = COMMAND, consistency: lis
         f"Validation: {_counts(rows)}.",
         "",
     ]
+    fitted = fitted_parameters()
+    if fitted:
+        lines += [
+            "Parameters fitted to published data (not independent checks: rows from the same study check "
+            "the fit, not the model):",
+            "",
+            *fitted,
+            "",
+        ]
     body = [
         [
             str(i),
