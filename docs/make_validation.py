@@ -82,7 +82,7 @@ def _counts(rows: list[dict]) -> str:
     failed = sum(r["passed"] is False for r in rows)
     unscored = sum(r["passed"] is None for r in rows)
     scored = len(rows) - unscored
-    text = f"{len(rows)} checks, {scored - failed} pass, {failed} fail"
+    text = f"{scored - failed} pass, {failed} fail"
     return text + (f", {unscored} shown but not scored (no published spread)" if unscored else "")
 
 
@@ -115,10 +115,13 @@ def fitted_parameters() -> list[str]:
 
 def render(rows: list[dict], when: str, command: str = COMMAND, consistency: list[dict] | None = None) -> str:
     """The Markdown report: ``rows`` (checks against published sources), then ``consistency``."""
+    summary = f"{len(rows)} checks against published sources: {_counts(rows)}"
+    if consistency is not None:
+        summary += f"; {len(consistency)} consistency checks"
     lines = [
         "# Validation report",
         "",
-        f"Generated {when} by `{command}`. Do not edit by hand: run the command again.",
+        f"Generated {when} by `{command}` ({summary}). Do not edit by hand: run the command again.",
         "",
         "## Validation: the model against published values",
         "",
@@ -157,7 +160,7 @@ def render(rows: list[dict], when: str, command: str = COMMAND, consistency: lis
         ]
         for i, r in enumerate(rows, start=1)
     ]
-    header = ["#", "quantity", "conditions", "published (spread)", "model", "unit", "tolerance (how)", "pass"]
+    header = ["#", "quantity", "conditions", "published value", "value computed", "unit", "tolerance", "pass"]
     lines += _table([*header, "source", "test"], body)
     if consistency is not None:
         lines += [
