@@ -38,7 +38,18 @@ MUTANTS = (
 
 
 def mutate(text: str, agent: str, key: str, factor: float) -> str:
-    """``text`` of agents.toml with ``key`` of ``[agents.<agent>]`` multiplied by ``factor``."""
+    """``text`` of agents.toml with ``key`` of ``[agents.<agent>]`` multiplied by ``factor``.
+
+    Only the ``value`` of that one line in that one agent's table changes.
+
+    >>> text = "[agents.a]\nblood_gas = { value = 0.65, source = \"x\" }\n[agents.b]\nblood_gas = { value = 0.42 }\n"
+    >>> print(mutate(text, "a", "blood_gas", 2.0))
+    [agents.a]
+    blood_gas = { value = 1.3, source = "x" }
+    [agents.b]
+    blood_gas = { value = 0.42 }
+    <BLANKLINE>
+    """
     start = text.index(f"[agents.{agent}]")
     end = text.find("\n[", start + 1)
     end = len(text) if end < 0 else end
