@@ -38,7 +38,7 @@ MUTANTS = (
 
 
 def mutate(text: str, agent: str, key: str, factor: float) -> str:
-    """``text`` of agents.toml with ``key`` of ``[agents.<agent>]`` multiplied by ``factor``.
+    r"""``text`` of agents.toml with ``key`` of ``[agents.<agent>]`` multiplied by ``factor``.
 
     Only the ``value`` of that one line in that one agent's table changes.
 
