@@ -4,11 +4,14 @@ Usage (from the repository root)::
 
     uv run python docs/make_validation.py
 
-Runs pytest on the test files that compare model values with published ones, with the environment
-variable LOWFLOW_VALIDATION_OUT naming a scratch file; each ``record(...)`` call in those tests
-(tests/validation.py) appends one row there. The rows become one Markdown table: quantity, value
-computed, published value, source, tolerance, pass, and the test that made the check. The exit
-status is pytest's, or 1 if any recorded check failed.
+Runs pytest twice on the test files that compare model values with outside values, with the
+environment variable LOWFLOW_VALIDATION_OUT naming a scratch file; each ``record(...)`` call in those
+tests (tests/validation.py) appends one row there. The tests marked ``validation`` (checks against a
+published source: ``uv run pytest -m validation`` runs exactly these) fill the *validation* section:
+conditions, published value with its spread, the model's value, the tolerance and how it was
+derived, pass or fail. The other recorded tests (a formula re-evaluated, scipy or CoolProp on the same
+equations, the model against its own runs) fill the separate *consistency* section. The exit status
+is pytest's.
 """
 
 from __future__ import annotations
@@ -40,14 +43,15 @@ TEST_FILES = (
     "tests/test_carbon.py",
     "tests/test_safety.py",
     "tests/test_demo_cases.py",
+    "tests/test_validation_published.py",
 )
 
 
-def run_tests(out: Path, files: tuple[str, ...] = TEST_FILES) -> int:
-    """Run pytest on ``files`` with the recorder writing to ``out``; return pytest's exit status."""
+def run_tests(out: Path, files: tuple[str, ...] = TEST_FILES, marker: str = "validation") -> int:
+    """Run pytest on ``files`` selecting ``-m marker`` with the recorder writing to ``out``."""
     env = {**os.environ, ENV: str(out)}
     existing = [f for f in files if (ROOT / f).is_file()]
-    cmd = [sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", *existing]
+    cmd = [sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "-m", marker, *existing]
     return subprocess.call(cmd, cwd=ROOT, env=env)
 
 
@@ -70,54 +74,134 @@ def _cell(value) -> str:
     return text.replace("|", "\\|").replace("\n", " ")
 
 
-def render(rows: list[dict], when: str, command: str = COMMAND) -> str:
-    """The Markdown report of ``rows``."""
-    failed = sum(not r["passed"] for r in rows)
+def _outcome(row: dict) -> str:
+    return "not scored" if row["passed"] is None else _cell(bool(row["passed"]))
+
+
+def _counts(rows: list[dict]) -> str:
+    failed = sum(r["passed"] is False for r in rows)
+    unscored = sum(r["passed"] is None for r in rows)
+    scored = len(rows) - unscored
+    text = f"{scored - failed} pass, {failed} fail"
+    return text + (f", {unscored} shown but not scored (no published spread)" if unscored else "")
+
+
+def _table(header: list[str], rows: list[list[str]]) -> list[str]:
+    lines = ["| " + " | ".join(header) + " |", "|" + "---|" * len(header)]
+    lines += ["| " + " | ".join(r) + " |" for r in rows]
+    return lines
+
+
+def fitted_parameters() -> list[str]:
+    """Parameters of estimator/data fitted to published data (confidence "F"), as text lines."""
+    import tomllib
+
+    out = []
+    for path in sorted((ROOT / "estimator" / "data").glob("*.toml")):
+        data = tomllib.loads(path.read_text(encoding="utf-8"))
+        sources = data.get("sources", {})
+
+        stack = [(data, f"{path.name}: ")]
+        while stack:
+            table, where = stack.pop()
+            for key, value in table.items():
+                if isinstance(value, dict) and value.get("confidence") == "F":
+                    src = sources.get(value.get("source", ""), value.get("source", ""))
+                    out.append(f"- `{where}{key}` = {value.get('value')}: fitted to {src}. {value.get('note', '')}")
+                elif isinstance(value, dict):
+                    stack.append((value, f"{where}{key}."))
+    return out
+
+
+def render(rows: list[dict], when: str, command: str = COMMAND, consistency: list[dict] | None = None) -> str:
+    """The Markdown report: ``rows`` (checks against published sources), then ``consistency``."""
+    summary = f"{len(rows)} checks against published sources: {_counts(rows)}"
+    if consistency is not None:
+        summary += f"; {len(consistency)} consistency checks"
     lines = [
         "# Validation report",
         "",
-        "Each row is one check in the test suite of a model value against a value from outside the "
-        "project: a published table or worked example, a standard, a reference library (CoolProp, "
-        "scipy) or a fact of the trade. The tolerance is the one the test asserts, justified in a "
-        "comment beside the test. Values from memory are marked so in the source column.",
+        f"Generated {when} by `{command}` ({summary}). Do not edit by hand: run the command again.",
         "",
-        f"Generated {when} by `{command}` ({len(rows)} checks, {len(rows) - failed} pass, "
-        f"{failed} fail). Do not edit by hand: run the command again.",
+        "## Validation: the model against published values",
         "",
-        "| # | quantity | value computed | published value | unit | source | tolerance | pass | test |",
-        "|---|---|---|---|---|---|---|---|---|",
+        "Each row is one check marked `validation` (`uv run pytest -m validation` runs exactly these): a "
+        "model value against a value published outside the project (a measurement in patients or "
+        "volunteers, a published table, a standard, a reference equation of state). The tolerance is "
+        "derived from the published between-patient spread where there is one, and says how; a row "
+        "whose source reports no spread is shown but not scored. Sources marked [S] were read in a "
+        "secondary source, values marked from memory are so marked. The measurements of agent and gas "
+        "use, with their conditions and derivations, are in tests/data/published/studies.toml.",
+        "",
+        f"Validation: {_counts(rows)}.",
+        "",
     ]
-    for i, r in enumerate(rows, start=1):
-        test = r.get("test", "")
-        lines.append(
-            "| "
-            + " | ".join(
-                [
-                    str(i),
-                    _cell(r["quantity"]),
-                    _cell(r["computed"]),
-                    _cell(r["published"]),
-                    _cell(r.get("unit") or ""),
-                    _cell(r["source"]),
-                    _cell(r["tolerance"]),
-                    _cell(bool(r["passed"])),
-                    f"`{_cell(test)}`" if test else "",
-                ]
-            )
-            + " |"
-        )
+    fitted = fitted_parameters()
+    if fitted:
+        lines += [
+            "Parameters fitted to published data (not independent checks: rows from the same study check "
+            "the fit, not the model):",
+            "",
+            *fitted,
+            "",
+        ]
+    body = [
+        [
+            str(i),
+            _cell(r["quantity"]),
+            _cell(r.get("conditions") or ""),
+            _cell(r["published"]),
+            _cell(r["computed"]),
+            _cell(r.get("unit") or ""),
+            _cell(r["tolerance"]),
+            _outcome(r),
+            _cell(r["source"]),
+            f"`{_cell(r.get('test', ''))}`" if r.get("test") else "",
+        ]
+        for i, r in enumerate(rows, start=1)
+    ]
+    header = ["#", "quantity", "conditions", "published value", "value computed", "unit", "tolerance", "pass"]
+    lines += _table([*header, "source", "test"], body)
+    if consistency is not None:
+        lines += [
+            "",
+            "## Consistency: the code against itself",
+            "",
+            "Checks that compare the code with itself, not with the world: a formula re-evaluated by "
+            "hand, scipy or CoolProp on the same equations the code uses, a transcription of a table, the "
+            "model against its own sea-level or reference run. They guard against slips, not against a "
+            "wrong model.",
+            "",
+            f"Consistency: {_counts(consistency)}.",
+            "",
+        ]
+        body = [
+            [
+                str(i),
+                _cell(r["quantity"]),
+                _cell(r["computed"]),
+                _cell(r["published"]),
+                _cell(r.get("unit") or ""),
+                _cell(r["source"]),
+                _cell(r["tolerance"]),
+                _outcome(r),
+                f"`{_cell(r.get('test', ''))}`" if r.get("test") else "",
+            ]
+            for i, r in enumerate(consistency, start=1)
+        ]
+        header = ["#", "quantity", "value computed", "reference value", "unit", "reference", "tolerance", "pass"]
+        lines += _table([*header, "test"], body)
     return "\n".join(lines) + "\n"
 
 
 def main() -> int:
     with tempfile.TemporaryDirectory() as tmp:
-        out = Path(tmp) / "rows.jsonl"
-        status = run_tests(out)
-        rows = read_rows(out)
-    OUT.write_text(render(rows, dt.date.today().isoformat()), encoding="utf-8")
-    print(f"wrote {OUT.relative_to(ROOT)}: {len(rows)} checks")
-    if status == 0 and any(not r["passed"] for r in rows):
-        status = 1
+        val, cons = Path(tmp) / "validation.jsonl", Path(tmp) / "consistency.jsonl"
+        status = run_tests(val, marker="validation")
+        run_tests(cons, marker="not validation")
+        rows, consistency = read_rows(val), read_rows(cons)
+    OUT.write_text(render(rows, dt.date.today().isoformat(), consistency=consistency), encoding="utf-8")
+    print(f"wrote {OUT.relative_to(ROOT)}: {len(rows)} validation and {len(consistency)} consistency checks")
     return status
 
 

@@ -11,8 +11,8 @@ from estimator import carbon
 from estimator.errors import InputError
 from estimator.units import Q_
 
-# IPCC AR6 WG1 (2021) Ch. 7 Table 7.SM.7 and IPCC AR5 WG1 (2013) Table 8.A.1, as listed in the
-# project's REFERENCES sec. 8 (read in the source). Exact table values: no tolerance.
+# IPCC AR6 WG1 (2021) Ch. 7 Supplementary Material Table 7.SM.7 and IPCC AR5 WG1 (2013) Table 8.A.1
+# (read in the source; docs/REFERENCES.md). Exact table values: no tolerance.
 AR6_GWP100 = {"nitrous_oxide": 273, "desflurane": 2590, "isoflurane": 539, "sevoflurane": 195, "halothane": 45}
 AR6_GWP20 = {"nitrous_oxide": 273, "desflurane": 7020, "isoflurane": 1930, "sevoflurane": 702, "halothane": 162}
 AR5_GWP100 = {"nitrous_oxide": 265, "desflurane": 1790, "isoflurane": 491, "sevoflurane": 216, "halothane": 41}
@@ -21,6 +21,7 @@ AR5_GWP100 = {"nitrous_oxide": 265, "desflurane": 1790, "isoflurane": 491, "sevo
 @pytest.mark.parametrize(
     "basis,table", [("ar6_gwp100", AR6_GWP100), ("ar6_gwp20", AR6_GWP20), ("ar5_gwp100", AR5_GWP100)]
 )
+@pytest.mark.validation
 def test_gwp_values_match_ipcc_tables(basis, table):
     for species, value in table.items():
         record(
@@ -57,6 +58,7 @@ def test_unknown_basis_names_field_and_choices():
         ("desflurane", 0.060, 187186.0, 3714.0),
     ],
 )
+@pytest.mark.validation
 def test_ryan_nielsen_2010_co2e_per_mac_hour_at_2_l_min(agent, mac, published_g, gwp20):
     # Ryan SM, Nielsen CJ. Anesth Analg 2010;111:92, abstract: CO2 equivalent (GWP20 basis) of
     # 1 MAC-hour at 2 L/min fresh gas: sevoflurane 6980 g, isoflurane 15,551 g, desflurane
@@ -80,6 +82,7 @@ def test_ryan_nielsen_2010_co2e_per_mac_hour_at_2_l_min(agent, mac, published_g,
     assert co2e_g == pytest.approx(published_g, rel=0.01)
 
 
+@pytest.mark.validation
 def test_vapour_per_ml_matches_biro_2014():
     # Biro P, Acta Anaesthesiol Scand 2014;58:968: 1 mL of liquid gives 184 mL (sevoflurane),
     # 195 mL (isoflurane), 210 mL (desflurane) of vapour at 20 degC. Mass of that vapour must equal
@@ -106,6 +109,7 @@ def test_molar_volume_against_scipy_constants():
     assert carbon.molar_volume().to("L/mol").magnitude == pytest.approx(expected, rel=1e-9)
 
 
+@pytest.mark.validation
 def test_ideal_gas_nitrous_oxide_within_one_percent_of_coolprop():
     # Real-gas density of N2O at 15 degC, 101.325 kPa from CoolProp; the module's ideal-gas mass must be
     # within 1 % (Z of N2O at 1 atm is about 0.994, so the ideal figure is about 0.6 % low).
@@ -164,9 +168,10 @@ def test_nitrous_oxide_co2e_ar6():
     assert r.nitrous_oxide_co2e.to("kg").magnitude == pytest.approx(expected, rel=1e-4)
 
 
+@pytest.mark.validation
 def test_oxygen_supply_carbon_tariq_2024():
     # Supply carbon of bulk O2 about 0.17 kg CO2e per m3 (derived from Tariq et al., J Clean Prod
-    # 2024, as quoted in REFERENCES sec. 8): 2000 L -> 0.34 kg.
+    # 2024, volume and page not read; secondary): 2000 L -> 0.34 kg.
     r = carbon.case_carbon({"oxygen": Q_(2000, "L"), "absorbent": Q_(100, "g")}, None, supply=True)
     o2e = r.supply_co2e["oxygen"].to("kg").magnitude
     record(

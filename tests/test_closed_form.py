@@ -78,7 +78,7 @@ def test_lowe_cumulative_is_integral_of_rate():
 
 
 def test_lowe_warnings_and_errors():
-    # The law never saturates (REFERENCES sec. 5): long times are flagged, not clipped.
+    # The law never saturates (Lowe & Ernst 1981: no tissue fills): long times are flagged, not clipped.
     r = lowe_cumulative_uptake("sevoflurane", "6 h")
     assert "SQUARE_ROOT_LAW_LONG" in [c for c, _ in r.warnings]
     assert r.value.magnitude > lowe_cumulative_uptake("sevoflurane", "4 h").value.magnitude
@@ -156,6 +156,7 @@ def test_dion_worked_example_isoflurane():
     assert dion_cost("1 %", "1 L/min", "60 min", "isoflurane", 0.25) == pytest.approx(0.25 * 11069.4 / 3618.0)
 
 
+@pytest.mark.validation
 @pytest.mark.parametrize("name,per_percent_litre_hour", [("isoflurane", 3.0), ("sevoflurane", 3.3)])
 def test_dion_against_published_rule_of_thumb(name, per_percent_litre_hour):
     # Dhulkhed V et al., Indian J Anaesth 2013;57:455: liquid mL/h ~ dial % x FGF (L/min) x 3
@@ -186,6 +187,7 @@ def test_exact_molar_volume_matches_dion_near_21_degc():
     assert cold / a == pytest.approx((t_c + 273.15) / 273.15, rel=1e-9)
 
 
+@pytest.mark.validation
 def test_molar_volume_against_codata():
     # CODATA 2018 molar volume of an ideal gas at 273.15 K, 101.325 kPa: 22.413969 L/mol.
     vm = molar_volume("0 degC").to("L/mol").magnitude
@@ -228,6 +230,7 @@ def test_vaporizer_output_correction():
 @pytest.mark.parametrize(
     "name,biro", [("sevoflurane", 184.0), ("isoflurane", 195.0), ("desflurane", 210.0), ("halothane", 229.0)]
 )
+@pytest.mark.validation
 def test_vapour_per_liquid_against_biro(name, biro):
     # Biro P, Acta Anaesthesiol Scand 2014 (doi 10.1111/aas.12374): mL vapour from 1 mL liquid at
     # 20 degC. Real vapours give up to 3 % more than ideal (Anesth Analg 1979;58:322): 3 %.

@@ -38,7 +38,7 @@ def test_bottle_price_is_price_over_volume():
 
 
 def test_nitrous_oxide_per_m3_uk_audit_price():
-    # N2O about 26 GBP/m3 (UK audit abstract, secondary source, REFERENCES sec. 12): 1000 L -> 26 GBP.
+    # N2O about 26 GBP/m3 (a UK audit abstract quoted in a secondary source; primary not identified): 1000 L -> 26 GBP.
     p = parse_prices({"currency": "GBP", "nitrous_oxide_per_m3": 26.0})
     c = case_cost({"nitrous_oxide": Q_(1000, "L")}, p)
     assert c["gases"] == pytest.approx(26.0) and c["gas_detail"]["nitrous_oxide"] == pytest.approx(26.0)

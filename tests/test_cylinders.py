@@ -55,7 +55,7 @@ def test_contents_match_coolprop(gas, bar, temp):
 
 @pytest.mark.parametrize("bar", [137, 200])
 def test_oxygen_holds_more_than_ideal(bar):
-    # REFERENCES sec. 9 (CoolProp): O2 at 15 degC Z = 0.931 at 137 and 200 bar, so more than ideal.
+    # CoolProp (Bell IH et al., Ind Eng Chem Res 2014;53:2498): O2 at 15 degC Z = 0.931 at 137 and 200 bar, so more than ideal.
     c = compressed_cylinder("oxygen", "10 L", f"{bar} bar", "15 degC")
     assert c.contents > c.ideal_contents
     assert c.contents.magnitude / c.ideal_contents.magnitude == pytest.approx(1 / 0.931, rel=3e-3)
@@ -63,7 +63,7 @@ def test_oxygen_holds_more_than_ideal(bar):
 
 @pytest.mark.parametrize("bar,z", [(200, 1.021), (300, 1.101)])
 def test_air_holds_less_than_ideal(bar, z):
-    # REFERENCES sec. 9: air at 15 degC Z = 1.021 at 200 bar, 1.101 at 300 bar. The table gives 3
+    # CoolProp (Bell et al. 2014): air at 15 degC Z = 1.021 at 200 bar, 1.101 at 300 bar. The table gives 3
     # digits at round pressures (gauge vs absolute differ by 1 bar): tolerance 3e-3.
     c = compressed_cylinder("air", "10 L", f"{bar} bar", "15 degC")
     assert c.contents < c.ideal_contents
@@ -74,13 +74,13 @@ def test_air_holds_less_than_ideal(bar, z):
     "gas,bar,z", [("oxygen", 137, 0.931), ("oxygen", 200, 0.931), ("oxygen", 300, 0.973), ("air", 137, 0.992)]
 )
 def test_compressibility_table(gas, bar, z):
-    # REFERENCES sec. 9 Z values at 15 degC (3 digits, so +-0.002 covers rounding and gauge/absolute).
+    # CoolProp (Bell et al. 2014) Z values at 15 degC (3 digits, so +-0.002 covers rounding and gauge/absolute).
     zc = compressibility(gas, Q_(15, "degC"), Q_(bar, "bar"))
     record(
         f"compressibility Z of {gas} at {bar} bar, 15 degC",
         zc,
         z,
-        "CoolProp values in REFERENCES sec. 9",
+        "CoolProp (Bell et al., Ind Eng Chem Res 2014;53:2498)",
         "abs 0.002",
         zc == pytest.approx(z, abs=2e-3),
     )
@@ -107,7 +107,7 @@ def test_nitrous_oxide_litres_per_kg(temp, ref):
     rho = PropsSI("D", "T", t, "P", P_REF, "NitrousOxide")  # kg/m3, computed here
     real = litres_per_kg("nitrous_oxide", Q_(temp, "degC"), real_gas=True).to("L/kg").magnitude
     assert real == pytest.approx(1000.0 / rho, rel=1e-9)
-    # REFERENCES sec. 9: 534 L/kg at 15 C, 543 at 20 C (CoolProp, rounded to 1 L/kg).
+    # CoolProp (Bell et al. 2014): 534 L/kg at 15 C, 543 at 20 C (CoolProp, rounded to 1 L/kg).
     record(
         f"nitrous oxide free gas per kg at {temp} degC",
         real,
@@ -131,7 +131,7 @@ def test_nitrous_oxide_contents_by_weight_not_gauge():
     assert a.usable == b.usable  # the gauge never enters the contents
     assert a.usable.to("L").magnitude == pytest.approx(3.5 / m * R * T_REF / P_REF * 1000, rel=1e-9)
     assert any(code == "NITROUS_OXIDE_GAUGE_LOW" for code, _ in b.warnings)
-    # Vapour pressure about 44 bar gauge at 15 C (REFERENCES sec. 9, CoolProp; 1 bar rounding).
+    # Vapour pressure about 44 bar gauge at 15 C (CoolProp, Bell et al. 2014; 1 bar rounding).
     vp = (a.vapour_pressure - Q_(101.325, "kPa")).to("bar").magnitude
     record(
         "nitrous oxide cylinder gauge pressure at 15 degC",

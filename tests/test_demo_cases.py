@@ -21,7 +21,6 @@ import pytest
 from validation import record
 
 from estimator.cli import CAUTION, main
-from estimator.properties import agent
 
 PIN = 0.02  # see the module docstring
 #: Free gas at 15 degC per litre at the 20 degC flowmeter conditions (Charles's law).
@@ -127,22 +126,27 @@ def end_tidal_to_fresh_gas(doc: dict, start: float, end: float) -> float:
 #: file -> pinned totals, cost total (None: no prices), lowest inspired O2, warning codes.
 HEADLINES = {
     "kestrel_lap_chole.toml": (
-        {"agent_liquid": 11.82, "oxygen": 91.41, "air": 37.35, "co2e": 3.455, "mac_hours": 1.323},
-        6.06,
+        {"agent_liquid": 15.07, "oxygen": 91.41, "air": 37.35, "co2e": 4.426, "mac_hours": 1.324},
+        7.089,
         0.334,
         [],
     ),
-    "kestrel_desflurane_bariatric.toml": ({"agent_liquid": 37.97, "oxygen": 119.9, "co2e": 144.0}, 26.64, 0.266, []),
+    "kestrel_desflurane_bariatric.toml": (
+        {"agent_liquid": 45.76, "oxygen": 119.9, "co2e": 173.6},
+        31.10,
+        0.266,
+        ["TARGET_NOT_REACHED"],
+    ),
     "kestrel_nitrous_dental.toml": (
-        {"nitrous_oxide": 68.81, "oxygen": 74.70, "agent_liquid": 5.03, "co2e": 39.03},
-        3.22,
+        {"nitrous_oxide": 68.81, "oxygen": 74.70, "agent_liquid": 6.499, "co2e": 40.22},
+        3.272,
         0.253,
         ["INSPIRED_OXYGEN_LOW"],
     ),
-    "highland_mobile_team.toml": ({"agent_liquid": 11.67, "oxygen": 103.6}, None, 0.428, ["FLOWMETER_ACCURACY"]),
-    "paediatric_4y_16kg.toml": ({"agent_liquid": 14.49, "oxygen": 60.45, "mac_hours": 0.949}, None, 0.556, []),
+    "highland_mobile_team.toml": ({"agent_liquid": 14.64, "oxygen": 103.6}, None, 0.428, ["FLOWMETER_ACCURACY"]),
+    "paediatric_4y_16kg.toml": ({"agent_liquid": 15.45, "oxygen": 60.45, "mac_hours": 0.945}, None, 0.556, []),
     "paediatric_infant_warning.toml": (
-        {"agent_liquid": 8.83},
+        {"agent_liquid": 9.527},
         None,
         0.586,
         ["PATIENT_WEIGHT_OUTSIDE_VALIDATED", "AGE_BELOW_MAPLESON_RANGE"],
@@ -175,6 +179,7 @@ def lap(cli):
         ("kestrel_nitrous_dental.toml", 195.0),
     ],
 )
+@pytest.mark.validation
 def test_vapour_per_ml_biro(cli, name, biro):
     # Biro 2014: 1 mL of liquid gives 184 (sevoflurane), 195 (isoflurane), 210 mL (desflurane) of
     # vapour at 20 degC, times 288.15/293.15 at the 15 degC reference. Real vapours give up to 3 %
@@ -210,24 +215,27 @@ def test_lap_chole_oxygen_at_least_consumption(lap):
     )
 
 
+@pytest.mark.validation
 def test_lap_chole_uptake_follows_lowe(lap):
     # Lowe & Ernst 1981: cumulative uptake between 10 min and the end of the hold (78 min) is
-    # 2 f MAC lambda Q (sqrt 78 - sqrt 10), f 1.3, MAC age-corrected (Mapleson 1996), Q = 2 kg^0.75
-    # dL/min. Band 35 % as in test_engine_world (the law is an empirical fit; the compartment model
-    # falls below it as tissues fill).
+    # 2 C lambda Q (sqrt 78 - sqrt 10) for an alveolar concentration C held (their f x MAC), with Q =
+    # 2 kg^0.75 dL/min. C is the end-tidal the case holds (a condition of the case); the sevoflurane
+    # blood/gas 0.65 is the published term (Miller's Anesthesia, Inhaled anesthetics, Table 1 [S]),
+    # not the model's data file. Band +-2 CV of measured closed-circuit requirement between patients
+    # (isoflurane 5.85 +- 1.32 mL in the first hour, n = 20; tests/data/published/studies.toml).
     s = case_series(lap)
     sel = (s["time"] >= 10) & (s["time"] <= 78)
     model = float(np.trapezoid(s.loc[sel, "agent_uptake"], s.loc[sel, "time"]))
-    a = agent("sevoflurane")
-    mac = a.mac40.to("percent").magnitude * 10 ** (-0.00269 * (47 - 40))
-    lowe = 2 * 1.3 * mac * a.blood_gas * 2 * 78**0.75 * (math.sqrt(78) - math.sqrt(10))
-    ok = model == pytest.approx(lowe, rel=0.35)
+    held = float(s.loc[sel, "end_tidal_target"].mean())
+    lowe = 2 * held * 0.65 * 2 * 78**0.75 * (math.sqrt(78) - math.sqrt(10))
+    band = 2 * 1.32 / 5.85
+    ok = model == pytest.approx(lowe, rel=band)
     check(
         "demo lap chole: sevoflurane uptake 10-78 min",
         model,
         lowe,
-        "Lowe & Ernst 1981 (square-root law)",
-        "rel 35 %",
+        "Lowe & Ernst 1981 (square-root law); blood/gas Miller's Anesthesia Table 1 [S]",
+        f"rel {band:.0%} (2 CV of closed-circuit requirement)",
         ok,
         "mL vapour",
     )
@@ -237,7 +245,7 @@ def test_lap_chole_carbon_dioxide_and_absorbent(lap):
     # Brody (Lowe & Ernst 1981): VCO2 = 8 kg^0.75 mL/min STPD. The absorbent cannot take more than
     # the patient makes, and at minimal flow most of it (Zhong et al., Br J Anaesth 2020): more than
     # half over a case with 16 of 86 min at 6 L/min. Absorbent: practical capacity 10-15 L CO2 per
-    # 100 g (REFERENCES sec. 10), so the grams used lie between CO2/15 and CO2/10 x 100.
+    # 100 g (anaesthesia equipment texts, no single source), so the grams used lie between CO2/15 and CO2/10 x 100.
     t = lap["totals"]
     made = 8 * 78**0.75 / 1000 * STPD_TO_REF * mag(t, "duration")
     co2 = mag(t, "co2_absorbed")
@@ -279,7 +287,7 @@ def lap_floor(cli):
 
 def test_lap_chole_flow_floor(lap_floor):
     floors = [p["floor"]["magnitude"] for p in lap_floor["phases"]]
-    assert floors == pytest.approx([2.0, 0.5, 3.0], abs=1e-9)  # settable scale steps: exact
+    assert floors == pytest.approx([2.0, 0.5, 3.5], abs=1e-9)  # settable scale steps: exact
     # Emergence (dial off) is set by washing out to 0.3 MAC within 10 min, not by O2 or gas balance.
     assert [p["binding"] for p in lap_floor["phases"]] == ["INSPIRED_O2", "INSPIRED_O2", "WASH_OUT"]
     # Baum & Aitkenhead 1995: minimal flow is 0.5 L/min; and no floor can be below the patient's O2
@@ -305,7 +313,7 @@ def des(cli):
 
 def test_desflurane_carbon_and_mac_hours(des):
     t = des["totals"]
-    # IPCC AR6 GWP100 2590; density 1.465 g/mL (REFERENCES sec. 2, from memory): 95-100 % as above.
+    # IPCC AR6 GWP100 2590; density 1.465 g/mL (Eger EI, Anesth Analg 1992;75(4 Suppl):S3, from memory): 95-100 % as above.
     upper = mag(t, "agent_liquid") * 1.465 * 2590 / 1000
     assert 0.95 * upper <= mag(t, "co2e") <= upper * 1.01
     # An end-tidal hold of 1 MAC gives about 1 MAC-hour an hour of hold (6 + 100 min; the first
@@ -313,20 +321,20 @@ def test_desflurane_carbon_and_mac_hours(des):
     assert mag(t, "mac_hours") == pytest.approx(106 / 60, rel=0.05)
 
 
+@pytest.mark.validation
 def test_desflurane_end_tidal_to_fresh_gas_ratio(des):
-    # Coetzee JF, Stewart LJ, Br J Anaesth 2002;88:46: desflurane end-tidal to fresh-gas partial
-    # pressure ratio about 0.8 at 0.5-3 L/min, whatever the flow; 0.3-0.7 for the soluble agents.
-    # A published mean over patients and flows: we accept 0.7-1.0 (1 is the physical ceiling while
-    # the patient takes agent up). The model gives about 0.95: it sits high, so desflurane uptake at
-    # low flow may be underestimated (the tissue coefficients are partly from memory).
+    # Coetzee JF, Stewart LJ, Br J Anaesth 2002;88:46 (abstract): desflurane end-tidal to fresh-gas
+    # partial pressure ratio 0.8 at 3, 1 and 0.5 L/min, whatever the flow. No spread in the
+    # abstract; the band 0.7-0.9 is the target set for this ratio in issue 15 (a band up to 1.0, the
+    # physical ceiling, could not fail high).
     ratio = end_tidal_to_fresh_gas(des, 10, 106)
-    ok = 0.7 <= ratio <= 1.0
+    ok = 0.7 <= ratio <= 0.9
     check(
         "demo desflurane: end-tidal / fresh-gas agent at 0.8 L/min",
         ratio,
         0.8,
         "Coetzee & Stewart, Br J Anaesth 2002;88:46",
-        "0.7 to 1.0",
+        "0.7 to 0.9",
         ok,
     )
 
@@ -367,6 +375,7 @@ def test_nitrous_oxide_litres_and_carbon(n2o):
     )
 
 
+@pytest.mark.validation
 def test_nitrous_oxide_uptake_severinghaus(n2o):
     # Severinghaus 1954: N2O uptake about 1000 t^-1/2 mL/min for 70 kg at 65-75 % inspired; the
     # dental case (68 kg) holds 65-69 % inspired from 5 to 40 min. Band 20 % as in test_engine_world.
@@ -415,7 +424,7 @@ def test_high_site_flowmeter_readings_between_the_limits(high):
 
 def test_high_site_argon_accumulates(high):
     # Concentrator product of 93 % O2 carries argon in its air ratio to O2 (0.934/20.946 %, CRC), so
-    # 4.15 % of the fresh gas; at 1 L/min it builds up in the circle above that (REFERENCES sec. 9).
+    # 4.15 % of the fresh gas; at 1 L/min it builds up in the circle above that (argon 0.934 % of dry air, CRC Handbook).
     s = case_series(high)
     m = s[(s["time"] >= 40) & (s["time"] <= 70)]
     fresh = 93 * 0.00934 / 0.20946
@@ -424,13 +433,14 @@ def test_high_site_argon_accumulates(high):
         "demo 2,800 m: inspired argon at 1 L/min of concentrator O2",
         float(m["inspired_argon"].min()),
         f"> {fresh:.2f}",
-        "CRC dry-air argon ratio; REFERENCES sec. 9 (from memory)",
+        "CRC Handbook dry-air argon ratio (from memory)",
         "above fresh gas",
         ok,
         "%",
     )
 
 
+@pytest.mark.validation
 def test_high_site_isoflurane_end_tidal_to_fresh_gas(high):
     # Coetzee & Stewart 2002: 0.3-0.7 end-tidal to fresh gas for the soluble agents (isoflurane).
     ratio = end_tidal_to_fresh_gas(high, 20, 70)
@@ -460,7 +470,7 @@ def test_high_site_flow_floor_threshold(cli):
         "rel 1e-3",
         ok,
     )
-    assert [p["floor"]["magnitude"] for p in doc["phases"]] == pytest.approx([2.0, 0.4, 3.5], abs=1e-9)
+    assert [p["floor"]["magnitude"] for p in doc["phases"]] == pytest.approx([2.0, 0.6, 4.5], abs=1e-9)
     codes = {w["code"] for w in doc["warnings"]}
     assert {"ARGON_ACCUMULATION", "INSPIRED_OXYGEN_LOW"} <= codes
 
@@ -508,9 +518,9 @@ def supply(cli):
 
 def test_supply_headline(supply):
     assert supply["bottleneck"] == "isoflurane bottles 1"
-    assert mag(supply, "days_of_supply") == pytest.approx(14.47, rel=PIN)
-    assert supply["cases_possible"] == 50
-    assert supply["reorder_by"] == "2026-04-08"
+    assert mag(supply, "days_of_supply") == pytest.approx(11.35, rel=PIN)
+    assert supply["cases_possible"] == 40
+    assert supply["reorder_by"] == "2026-04-05"
 
 
 def test_supply_cylinders_against_coolprop(supply):
@@ -563,7 +573,7 @@ def test_audit_headline(audit):
     k = audit["kpis"]
     assert mag(k, "mean_maintenance_flow") == pytest.approx(1.145, rel=PIN)
     saved = mag(audit["counterfactual"]["totals"]["savings"], "agent_liquid")
-    assert saved == pytest.approx(70.1, rel=PIN)
+    assert saved == pytest.approx(72.46, rel=PIN)
 
 
 def test_audit_liquid_matches_dion_on_the_log(demo_dir, audit):
@@ -628,8 +638,8 @@ def forecast(cli):
 def test_forecast_headline(forecast):
     items = forecast["items"]
     assert items["cases"]["mean"]["magnitude"] == pytest.approx(25.62, rel=PIN)
-    assert items["sevoflurane"]["mean"]["magnitude"] == pytest.approx(220.8, rel=PIN)
-    assert items["sevoflurane"]["p95"]["magnitude"] == pytest.approx(298.5, rel=PIN)
+    assert items["sevoflurane"]["mean"]["magnitude"] == pytest.approx(265.4, rel=PIN)
+    assert items["sevoflurane"]["p95"]["magnitude"] == pytest.approx(359.0, rel=PIN)
     assert items["oxygen"]["mean"]["magnitude"] == pytest.approx(1232, rel=PIN)
     orders = {o["item"]: o["count"] for o in forecast["orders"]}
     assert orders["sevoflurane"] == 2 and orders["oxygen"] == 1

@@ -36,6 +36,7 @@ def wash_in():
     return out
 
 
+@pytest.mark.validation
 def test_wash_in_ranking_yasuda_1991(wash_in):
     # Yasuda N et al., Anesth Analg 1991;72:316 and Anesthesiology 1991;74:489: FA/FI rises in the
     # order N2O >= desflurane > sevoflurane > isoflurane > halothane at every time. Ranking only; no
@@ -57,21 +58,33 @@ def test_wash_in_ranking_yasuda_1991(wash_in):
         assert all(a >= b for a, b in zip(seq, seq[1:], strict=False)), seq
 
 
-def test_wash_in_values_near_yasuda_1991(wash_in):
-    # Yasuda 1991 (figures, read from memory): FA/FI at 30 min about 0.90 desflurane, 0.85
-    # sevoflurane, 0.73 isoflurane, 0.58 halothane. Tolerance 0.08 absolute: the tissue/blood values
-    # of our table are partly from memory and published solubilities spread 10-15 %.
-    published = {"desflurane": 0.90, "sevoflurane": 0.85, "isoflurane": 0.73, "halothane": 0.58}
-    for name, value in published.items():
-        record(
-            f"{name} FA/FI at 30 min, 10 L/min O2",
-            wash_in[name][2],
-            value,
-            "Yasuda et al. 1991, figures (from memory)",
-            "abs 0.08",
-            wash_in[name][2] == pytest.approx(value, abs=0.08),
+def test_wash_in_values_near_yasuda_1991():
+    # Yasuda N et al., Anesthesiology 1991;74:489 (abstract): 8 volunteers, 65-70 % N2O throughout, FI
+    # 2.0 % desflurane, 0.4 % isoflurane, 0.2 % halothane for 30 min; FA/FI at 30 min 0.90 +- 0.01,
+    # 0.73 +- 0.03, 0.58 +- 0.04 (mean +- SD). These are the data the intertissue diffusion clearance
+    # is fitted to (estimator/data/agents.toml, intertissue_rate), so this is a consistency check of
+    # the fit, not validation. Tolerance 0.08 absolute as before the fit (tissue/blood values spread
+    # 10-15 % between sources); the fit leaves desflurane 3 SD high (model 0.933), which the structure
+    # cannot reach.
+    published = {"desflurane": (0.90, "2.0 %"), "isoflurane": (0.73, "0.4 %"), "halothane": (0.58, "0.2 %")}
+    gases = {"oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min"}
+    for name, (value, dial) in published.items():
+        r = run(
+            name,
+            [{"duration": "30 min", **gases, "vaporizer": dial}],
+            patient={"weight": "70 kg", "age": "25 years"},
+            circuit={"inspiratory_fraction": 0.8},
         )
-        assert wash_in[name][2] == pytest.approx(value, abs=0.08)
+        got = fa_fi(r, "agent", (30,))[0]
+        record(
+            f"{name} FA/FI at 30 min, 65 % N2O (fit data of the intertissue clearance; consistency)",
+            got,
+            value,
+            "Yasuda et al., Anesthesiology 1991;74:489, abstract",
+            "abs 0.08",
+            got == pytest.approx(value, abs=0.08),
+        )
+        assert got == pytest.approx(value, abs=0.08)
 
 
 def test_wash_in_slows_as_vessel_rich_group_fills():
@@ -84,37 +97,51 @@ def test_wash_in_slows_as_vessel_rich_group_fills():
     assert (f30 - f15) / 15 < 0.2 * (f5 - f1) / 4
 
 
+#: Published terms of Lowe's law, written here so that the check does not read the model's data file.
+#: Blood/gas partition coefficients and MAC (30-55 years): Miller's Anesthesia, chapter "Inhaled
+#: anesthetics", Table 1 (secondary, read); f = 1.3 and Q = 2 kg^0.75 dL/min: Lowe HJ, Ernst EA. The
+#: Quantitative Practice of Anesthesia: Use of Closed Circuit. Williams & Wilkins 1981 (from memory).
+LOWE_PUBLISHED = {"sevoflurane": (1.85, 0.65), "isoflurane": (1.15, 1.46), "desflurane": (6.0, 0.45)}
+LOWE_F = 1.3
+#: Between-patient coefficient of variation of measured closed-circuit agent requirement: isoflurane
+#: 5.85 +- 1.32 mL in the first hour, n = 20 (tests/data/published/studies.toml, iso_closed_circuit);
+#: the band is +-2 CV, the spread within which a patient of that study lies.
+CLOSED_CIRCUIT_CV = 1.32 / 5.85
+
+
+@pytest.mark.validation
 @pytest.mark.parametrize("name", ["sevoflurane", "isoflurane", "desflurane"])
 def test_uptake_follows_lowe_square_root_of_time(name):
-    # Lowe HJ, Ernst EA 1981: uptake rate = f MAC lambda_bg Q t^-1/2 (mL/min; MAC in vol %, Q in dL/min,
-    # f about 1.3), so cumulative uptake between 10 and 90 min is 2 f MAC lambda Q (sqrt 90 - sqrt 10).
-    # Band +-35 %: f = 1.3 is an empirical fit to closed-circuit halothane data, blood/gas values
-    # spread 10-15 % between sources, and a compartment model departs from the law as tissues fill,
-    # most for desflurane, whose lower tissue/blood coefficients (muscle 2.0, fat 27; Yasuda 1989)
-    # fill the tissues sooner than halothane's (model/Lowe: sevoflurane 0.8, desflurane 0.7).
-    r = run(name, [{"duration": "90 min", "oxygen": "2 L/min", "air": "2 L/min", "end_tidal_target": "1 MAC"}])
+    # Lowe HJ, Ernst EA 1981: uptake rate = f MAC lambda_b/g Q t^-1/2 (mL/min; MAC in vol %, Q in
+    # dL/min) with the alveolar concentration held at f x MAC, so the cumulative uptake between 10
+    # and 90 min is 2 f MAC lambda Q (sqrt 90 - sqrt 10). The engine holds the same end-tidal
+    # concentration (f x published MAC as a percentage, so its own MAC table does not enter). Band
+    # +-2 CV of the measured closed-circuit requirement between patients (about +-45 %).
+    mac, lam = LOWE_PUBLISHED[name]
+    target = LOWE_F * mac
+    r = run(name, [{"duration": "90 min", "oxygen": "2 L/min", "air": "2 L/min", "end_tidal_target": f"{target} %"}])
     t = r.series["time [min]"].to_numpy()
     u = r.series["agent_uptake [mL/min]"].to_numpy()
     sel = t >= 10
     model = np.trapezoid(u[sel], t[sel])
-    a = agent(name)
     q_dl = 2.0 * 70**0.75
-    lowe = 2 * 1.3 * a.mac40.to("percent").magnitude * a.blood_gas * q_dl * (math.sqrt(90) - math.sqrt(10))
+    lowe = 2 * target * lam * q_dl * (math.sqrt(90) - math.sqrt(10))
+    band = 2 * CLOSED_CIRCUIT_CV
+    ok = model == pytest.approx(lowe, rel=band)
     record(
-        f"{name} uptake 10-90 min at 1 MAC (engine vs Lowe)",
+        f"{name} uptake 10-90 min at an end-tidal {target:.3g} % (f x MAC), 70 kg (engine vs Lowe)",
         model,
         lowe,
-        "Lowe & Ernst 1981 (square-root law)",
-        "rel 35 %",
-        model == pytest.approx(lowe, rel=0.35),
+        "Lowe & Ernst 1981 (square-root law; f, Q from memory); MAC, blood/gas: Miller's Anesthesia, "
+        "Inhaled anesthetics, Table 1 [S]",
+        f"rel {band:.0%} (2 x CV {CLOSED_CIRCUIT_CV:.1%} of closed-circuit requirement, n = 20)",
+        ok,
         "mL vapour",
     )
-    assert model == pytest.approx(lowe, rel=0.35)
-    # and the shape: rate x sqrt(t) stays within +-30 % of its mean from 10 to 90 min
-    k = u[sel] * np.sqrt(t[sel])
-    assert k.max() / k.mean() < 1.3 and k.min() / k.mean() > 0.7
+    assert ok, (model, lowe)
 
 
+@pytest.mark.validation
 def test_nitrous_oxide_uptake_severinghaus():
     # Severinghaus JW, J Clin Invest 1954;33:1183: N2O uptake about 1000 t^-1/2 mL/min for a 70 kg
     # adult at 65-75 % inspired (confirmed by Bengtson et al., Anaesthesia 1994). Band +-20 %: the

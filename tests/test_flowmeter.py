@@ -44,6 +44,7 @@ def test_pure_properties_are_coolprops(name, fluid, t, p):
     assert mu == pytest.approx(CP.PropsSI("V", "T", t, "P", p, fluid), rel=1e-12)
 
 
+@pytest.mark.validation
 def test_chapman_enskog_against_coolprop_for_carbon_dioxide():
     # The method used for N2O, checked on its isoelectronic twin CO2 whose viscosity CoolProp has
     # (Laesecke & Muzny 2017 model). Lennard-Jones parameters of CO2: Svehla 1962 via Poling et al.
@@ -66,6 +67,7 @@ def test_chapman_enskog_against_coolprop_for_carbon_dioxide():
         assert ce == pytest.approx(CP.PropsSI("V", "T", t, "P", 101325, "CarbonDioxide"), rel=0.025)
 
 
+@pytest.mark.validation
 def test_nitrous_oxide_viscosity_against_handbook():
     # CRC Handbook, Viscosity of gases: N2O 15.0 uPa s at 300 K and 1 atm (from memory). 3 %:
     # the method's typical error plus the unverified memory of the table.
@@ -82,6 +84,7 @@ def test_nitrous_oxide_viscosity_against_handbook():
     assert mu == pytest.approx(15.0e-6, rel=0.03)
 
 
+@pytest.mark.validation
 def test_wilke_air_against_coolprop_air():
     # Wilke (1950) from the components of dry air (CRC composition) against CoolProp's air
     # (Lemmon & Jacobsen 2004). Poling et al. 2001 give Wilke errors below about 2 % for
@@ -105,6 +108,7 @@ def test_wilke_air_against_coolprop_air():
     assert mu == pytest.approx(CP.PropsSI("V", "T", 293.15, "P", 101325, "Air"), rel=0.015)
 
 
+@pytest.mark.validation
 def test_concentrator_density_and_viscosity_against_coolprop_mixture():
     # CoolProp's HEOS mixture (GERG-type mixing) for 93 % O2 product; density to 0.01 % (Z - 1 is
     # 1e-3 at 1 atm, so any sensible mixing rule agrees), viscosity to 1 % (Wilke's error band).

@@ -20,7 +20,7 @@ from estimator.mac import (
 from estimator.properties import agent, gas
 from estimator.units import Q_
 
-# Mapleson WW, Br J Anaesth 1996;76:179, Table 2: MAC at 40 years [vol %] (REFERENCES sec. 2-3).
+# Mapleson WW, Br J Anaesth 1996;76:179, Table 2: MAC at 40 years [vol %].
 MAPLESON_TABLE2 = {"halothane": 0.75, "isoflurane": 1.17, "sevoflurane": 1.80, "desflurane": 6.6}
 MAPLESON_N2O = 104.0
 
@@ -30,6 +30,7 @@ def published_factor(age):
     return 10 ** (-0.00269 * (age - 40.0))
 
 
+@pytest.mark.validation
 @pytest.mark.parametrize("name,mac40", sorted(MAPLESON_TABLE2.items()))
 def test_shipped_mac40_is_mapleson_table2(name, mac40):
     # Data file against Mapleson 1996 Table 2; exact, the table is copied to its printed digits.
@@ -46,6 +47,7 @@ def test_shipped_mac40_is_mapleson_table2(name, mac40):
     assert agent(name).mac40.to("percent").magnitude == pytest.approx(mac40, rel=1e-12)
 
 
+@pytest.mark.validation
 def test_shipped_nitrous_oxide_mac40():
     # Mapleson 1996 Table 2: nitrous oxide 104 % at 40 years.
     v = gas("nitrous_oxide").mac40.to("percent").magnitude
@@ -72,7 +74,7 @@ def test_age_corrected_mac_follows_mapleson(name, age):
 
 
 def test_decline_six_percent_per_decade():
-    # Mapleson 1996 abstract: MAC falls by about 6 % per decade (REFERENCES sec. 3). The quoted
+    # Mapleson 1996 abstract: MAC falls by about 6 % per decade. The quoted
     # figure is rounded to a whole percent, so allow 0.5 percentage point.
     ages = np.arange(1.0, 111.0, 10.0)
     ratios = mapleson_factor(ages + 10.0) / mapleson_factor(ages)

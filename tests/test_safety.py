@@ -148,6 +148,7 @@ def planned():
     return flow_floor(sc)
 
 
+@pytest.mark.validation
 def test_flow_classes_and_settable_rounding(planned):
     # Flow classes as published: metabolic <= 0.25, minimal 0.25-0.5, low 0.5-1, medium 1-2, high 2-4,
     # very high > 4 L/min (Brattwall et al. 2012, Table 1; Baum and Aitkenhead 1995).
@@ -213,15 +214,16 @@ def test_lowest_oxygen_flow_at_chosen_total(planned):
     assert ph["lowest_oxygen_flow"] <= ph["flows"]["oxygen"]
 
 
+@pytest.mark.validation
 def test_label_policy_raises_sevoflurane_floor_to_one_litre():
-    # Sevoflurane US label: fresh gas below 1 L/min not recommended (REFERENCES sec. 11).
+    # Sevoflurane US label: fresh gas below 1 L/min not recommended (sevoflurane US prescribing information).
     ph = [{"duration": "60 min", "oxygen": "0.3 L/min", "air": "0.2 L/min", "end_tidal_target": "1 MAC"}]
     res = flow_floor(scenario("sevoflurane", ph, flow_floor={"policies": ["sevoflurane_us_label"]}), grid=False)
     record(
         "sevoflurane flow floor under the US-label policy",
         floor_of(res),
         ">= 1.0",
-        "sevoflurane US label (REFERENCES sec. 11)",
+        "sevoflurane US prescribing information (label)",
         "at least 1 L/min",
         floor_of(res) >= 1.0,
         "L/min",
@@ -232,7 +234,7 @@ def test_label_policy_raises_sevoflurane_floor_to_one_litre():
 
 def test_advisories_for_agent_and_oxygen_source():
     # Fang et al. 1995: desiccated absorbent with desflurane makes CO; argon from concentrator O2
-    # accumulates at low flow (REFERENCES sec. 9).
+    # accumulates at low flow (argon 0.934 % of dry air, CRC Handbook).
     ph = [{"duration": "90 min", "oxygen": "0.5 L/min", "end_tidal_target": "1 MAC"}]
     res = flow_floor(scenario("desflurane", ph, site={"oxygen_source": "concentrator"}), grid=False)
     codes = [c for c, _ in res.warnings]

@@ -19,6 +19,7 @@ from estimator.site import (
 from estimator.units import Q_
 
 
+@pytest.mark.validation
 @pytest.mark.parametrize("height,kpa", [(0, 101.325), (1000, 89.875), (3000, 70.109), (5000, 54.020), (11000, 22.632)])
 def test_pressure_against_iso2533_table(height, kpa):
     # ISO 2533:1975 / ICAO Doc 7488/3 tables by geopotential height (from memory; the same numbers
@@ -37,6 +38,7 @@ def test_pressure_against_iso2533_table(height, kpa):
     assert p.to("kPa").magnitude == pytest.approx(kpa, abs=6e-4)
 
 
+@pytest.mark.validation
 @pytest.mark.parametrize("height,pa", [(1000, 8.9876e4), (3000, 7.0121e4), (5000, 5.4048e4)])
 def test_pressure_against_geometric_table(height, pa):
     # U.S. Standard Atmosphere 1976 (NOAA/NASA/USAF), table by geometric altitude, identical to
@@ -121,6 +123,7 @@ def test_unusual_room_temperature_warns():
     assert [c for c, _ in site_from_inputs(temperature="45 degC").warnings] == ["SITE_TEMPERATURE_UNUSUAL"]
 
 
+@pytest.mark.validation
 def test_water_vapour_at_37c_against_coolprop():
     # West's 47 mmHg (6.266 kPa, estimator.constants) against IAPWS-95 water in CoolProp at 37 degC
     # (6.2795 kPa); the 0.2 % difference is the rounding of 47 mmHg.
@@ -141,6 +144,7 @@ def test_water_vapour_at_37c_against_coolprop():
     assert dry - wet == pytest.approx(svp, rel=5e-3)
 
 
+@pytest.mark.validation
 def test_inspired_oxygen_at_sea_level_west():
     # West JB, Respiratory Physiology: PiO2 = 0.2093 x (760 - 47) = 149 mmHg (from memory);
     # 0.5 mmHg covers the rounding of the textbook figure.

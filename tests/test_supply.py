@@ -124,7 +124,7 @@ ignore = ["air"]
     sevo = by["sevoflurane bottles 1"]
     assert sevo.draw_per_day.to("mL/day").magnitude == pytest.approx(4 * 12 * 5 / 7)
     assert 7 < sevo.runtime.magnitude < 8
-    # absorbent: 18 L CO2 a case at 12 L per 100 g = 150 g a case (REFERENCES sec. 10 capacity).
+    # absorbent: 18 L CO2 a case at 12 L per 100 g = 150 g a case (practical capacity 10-15 L per 100 g, anaesthesia equipment texts, no single source).
     assert by["CO2 absorbent"].draw_per_day.to("g/day").magnitude == pytest.approx(4 * 150 * 5 / 7)
 
 

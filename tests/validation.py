@@ -36,7 +36,14 @@ def _plain(value: Any) -> Any:
 
 
 def record(
-    quantity: str, computed: Any, published: Any, source: str, tolerance: str, passed: Any, unit: str = ""
+    quantity: str,
+    computed: Any,
+    published: Any,
+    source: str,
+    tolerance: str,
+    passed: Any,
+    unit: str = "",
+    conditions: str = "",
 ) -> None:
     """Append one reference check to the file named by ``LOWFLOW_VALIDATION_OUT`` (if it is set).
 
@@ -50,10 +57,14 @@ def record(
         Author, year and table (or "CoolProp", "common practice, no source", ...).
     tolerance : str
         The tolerance of the assertion beside the call ("rel 3 %", "abs 0.5 mmHg", "exact").
-    passed : bool
-        The outcome of the same comparison as the assertion.
+    passed : bool or None
+        The outcome of the same comparison as the assertion; None for a row shown but not scored
+        (no published spread to compare with).
     unit : str
         Unit of plain-number values [text].
+    conditions : str
+        The conditions of the comparison not already in ``quantity`` (patient, gases, what was
+        assumed where the source is silent) [text].
     """
     path = os.environ.get(ENV)
     if not path:
@@ -65,7 +76,8 @@ def record(
         "unit": unit,
         "source": source,
         "tolerance": tolerance,
-        "passed": bool(passed),
+        "passed": None if passed is None else bool(passed),
+        "conditions": conditions,
         "test": os.environ.get("PYTEST_CURRENT_TEST", "").rsplit(" (", 1)[0],
     }
     with open(path, "a", encoding="utf-8") as fh:
