@@ -45,9 +45,6 @@ from .units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity, ureg
 
 #: Lowe's factor f (Lowe and Ernst 1981, from memory).
 LOWE_FACTOR = 1.3
-#: Beyond this time [min] the square-root laws are flagged: they never saturate and a compartment
-#: model falls below them "after a few hours" (Lowe and Ernst 1981); the 4 h mark is our choice.
-SQUARE_ROOT_LAW_LIMIT = 240.0
 #: Severinghaus 1954: about 1000 mL/min at 1 min for about 70 kg at 65-75 % inspired nitrous oxide.
 SEVERINGHAUS_RATE_1MIN = 1000.0
 SEVERINGHAUS_WEIGHT = 70.0
