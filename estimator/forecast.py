@@ -20,8 +20,8 @@ References
 
 Examples
 --------
->>> from estimator.casemix import load_casemix
->>> mix = load_casemix('''
+>>> from estimator.casemix import casemix_from_text
+>>> mix = casemix_from_text('''
 ... weeks = 20
 ... seed = 3
 ... [[case_types]]
