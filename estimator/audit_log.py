@@ -8,7 +8,7 @@ years), sorted per case, ready for vectorised integration by :mod:`estimator.aud
 
 Examples
 --------
->>> log = read_log("case_id,time,oxygen_flow [mL/min],air_flow,nitrous_oxide_flow,agent,vaporizer_setting\\n"
+>>> log = log_from_text("case_id,time,oxygen_flow [mL/min],air_flow,nitrous_oxide_flow,agent,vaporizer_setting\\n"
 ...                "A,0,500,0,0,isoflurane,1\\nA,5,-1,0,0,isoflurane,1\\n")
 >>> log.rows, log.rejections
 ({'read': 2, 'used': 1, 'rejected': 1}, [(3, "oxygen_flow: got '-1' mL/min; expected 0 to 30 L/min")])
@@ -18,6 +18,8 @@ from __future__ import annotations
 
 import csv
 import io
+import os
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -26,7 +28,7 @@ import numpy as np
 import pandas as pd
 import pint
 
-from .errors import InputError
+from .errors import InputError, read_text_file
 from .properties import AGENTS
 from .units import Q_, ureg
 
@@ -57,6 +59,9 @@ EXAMPLE = {
 }
 NO_AGENT = ("", "none", "off")
 NO_DATE = "no date (elapsed-time log)"
+#: Largest elapsed time a numeric ``time`` may give [min] (about 1.9 years, longer than any case;
+#: a Unix time in seconds, about 1.7e9, lies far beyond it).
+MAX_ELAPSED_MIN = 1e6
 _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 
 
@@ -123,32 +128,50 @@ def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
     return names, factors
 
 
-def _is_file(text: str) -> bool:
-    """True for a path to an existing file; CSV text (however long) is not a path."""
-    try:
-        return Path(text).is_file()
-    except (OSError, ValueError):
-        return False
-
-
-def _open(source: Any) -> Any:
-    if isinstance(source, str) and ("\n" in source or "," in source) and not _is_file(source):
-        return io.StringIO(source.lstrip("\ufeff"))
-    if isinstance(source, str | Path):
-        if not _is_file(str(source)):
+def _source_text(source: Any) -> str:
+    """The CSV text of a log given as a path, a file object, or bytes (an upload), chosen by type."""
+    if isinstance(source, bytes | bytearray | memoryview):
+        return _decode(bytes(source), "(upload)")
+    if isinstance(source, str | os.PathLike):
+        if isinstance(source, str) and "\n" in source:
+            raise InputError("log", "(text)", "a path to a CSV file; pass CSV text to log_from_text")
+        try:
+            regular = stat.S_ISREG(Path(source).stat().st_mode)
+        except (OSError, ValueError):
+            regular = False
+        if not regular:
             raise InputError("log", str(source), "an existing CSV file")
-        return open(source, encoding="utf-8-sig", newline="")  # noqa: SIM115 - closed by the caller
-    return io.StringIO(source.read().lstrip("\ufeff"))
+        return read_text_file(source, "log", "an existing CSV file")
+    if hasattr(source, "read"):
+        data = source.read()
+        return _decode(data, "(upload)") if isinstance(data, bytes) else str(data).lstrip("\ufeff")
+    raise InputError("log", type(source).__name__, "a path, a file object or the bytes of a CSV file")
 
 
-def _rows(handle: Any, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, list[tuple[int, str]]]:
-    """Data rows with a ``line`` column; numeric columns parsed by the C reader, rows of the wrong width
-    rejected (by a slower csv pass, only when the fast reader finds one)."""
+def _decode(data: bytes, shown: str) -> str:
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError("log", shown, "a CSV file in UTF-8 text") from None
+
+
+def _physical_lines(text: str) -> int:
+    """Lines of text as a CSV reader counts them (a last line without a newline counts)."""
+    return text.count("\n") + (1 if text and not text.endswith("\n") else 0)
+
+
+def _rows(text: str, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, list[tuple[int, str]]]:
+    """Data rows with a ``line`` column (the physical line a row starts on; the header is line 1).
+
+    Numeric columns are parsed by the C reader; when a row has more cells than the header, or a
+    quoted cell spans lines (records and lines then differ), a slower csv pass numbers the lines.
+    Either way a row with fewer cells than the header reads its missing trailing cells as empty,
+    and a row with more is rejected.
+    """
     text_cols = {i: str for i, n in enumerate(names) if n not in SPEC or SPEC[n][0] in ("text", "time")}
-    start = handle.tell()
     try:
         df = pd.read_csv(
-            handle,
+            io.StringIO(text),
             header=None,
             names=list(range(len(raw))),
             dtype=text_cols,
@@ -159,26 +182,57 @@ def _rows(handle: Any, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, 
             engine="c",
             low_memory=False,
         )
-        df["line"] = np.arange(2, len(df) + 2)
+        if len(df) == _physical_lines(text):  # one record per line: the line is the record's
+            df["line"] = np.arange(2, len(df) + 2)
+            return df, []
+    except pd.errors.EmptyDataError:
+        df = pd.DataFrame(columns=list(range(len(raw))), dtype=str)
+        df["line"] = np.zeros(0, dtype=int)
         return df, []
     except pd.errors.ParserError:
-        handle.seek(start)
+        pass
     good, lines, bad = [], [], []
-    reader = csv.reader(handle, skipinitialspace=True)
+    reader = csv.reader(io.StringIO(text, newline=""), skipinitialspace=True)
     last = 0  # physical lines read by the csv reader so far; the header is line 1
-    for row in reader:
-        line = 2 + last
-        last = reader.line_num
-        if len(row) == 0:
-            row = [""] * len(raw)
-        if len(row) != len(raw):
-            bad.append((line, f"{len(row)} fields where the header has {len(raw)}"))
-            continue
-        good.append(row)
-        lines.append(line)
+    try:
+        for row in reader:
+            line = 2 + last
+            last = reader.line_num
+            if len(row) > len(raw):
+                bad.append((line, f"{len(row)} fields where the header has {len(raw)}"))
+                continue
+            good.append(row + [""] * (len(raw) - len(row)))
+            lines.append(line)
+    except csv.Error as exc:
+        bad.append((2 + last, f"unreadable CSV from this line on ({exc})"))
     df = pd.DataFrame(good, columns=list(range(len(raw))), dtype=str)
     df["line"] = np.array(lines, dtype=int)
     return df, bad
+
+
+def _unit_of(raw: list[str], names: list[str], column: str) -> str:
+    cell = raw[names.index(column)]
+    return cell.partition("[")[2].rstrip().removesuffix("]").strip()
+
+
+def _varying(values: pd.Series, codes: np.ndarray, case_ids: Any, column: str, unit: str) -> list[tuple[str, str]]:
+    """A warning naming the cases whose rows give more than one value of a per-patient column."""
+    g = values.groupby(codes)
+    lo, hi = g.min().to_numpy(), g.max().to_numpy()
+    first = g.first().to_numpy()
+    varies = np.flatnonzero(np.isfinite(lo) & (hi > lo))
+    if not len(varies):
+        return []
+    shown = [f"{case_ids[i]!r} ({lo[i]:g}-{hi[i]:g} {unit}, first {first[i]:g} {unit} used)" for i in varies[:5]]
+    return [
+        (
+            "PATIENT_VALUE_VARIES",
+            f"{column}: {len(varies)} case(s) give more than one value: "
+            + "; ".join(shown)
+            + (" ..." if len(varies) > 5 else "")
+            + "; the first value of each case is used; check the log",
+        )
+    ]
 
 
 def _show(v: Any) -> str:
@@ -232,11 +286,13 @@ def _numeric(
 
 
 def read_log(source: Any) -> LogData:
-    """Read and validate an audit log.
+    """Read and validate an audit log from a file.
 
     Parameters
     ----------
-    source : path, file object or CSV text
+    source : str, os.PathLike, file object or bytes
+        A path (a string is always a path), an open file, or the bytes of an upload. CSV text goes
+        to :func:`log_from_text`.
 
     Returns
     -------
@@ -247,16 +303,30 @@ def read_log(source: Any) -> LogData:
     InputError
         For a file-level problem, naming the column.
     """
-    with _open(source) as handle:
-        try:
-            raw = next(csv.reader([handle.readline()]), [])
-            if not raw:
-                raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
-            names, factors = _header(raw)
-            df, bad_width = _rows(handle, raw, names)
-        except UnicodeDecodeError:
-            shown = str(source) if isinstance(source, str | Path) else "(upload)"
-            raise InputError("log", shown, "a CSV file in UTF-8 text") from None
+    return log_from_text(_source_text(source))
+
+
+def log_from_text(text: str) -> LogData:
+    """Read and validate an audit log given as CSV text (never read as a path).
+
+    Raises
+    ------
+    InputError
+        For a file-level problem, naming the column.
+    """
+    if not isinstance(text, str):
+        raise InputError("log", type(text).__name__, "CSV text (str)")
+    text = text.lstrip("\ufeff")
+    first = io.StringIO(text, newline="").readline()  # the header, ended by \n, \r\n or \r
+    rest = text[len(first) :]
+    try:
+        raw = next(csv.reader([first.rstrip("\r\n")]), []) if first.strip() else []
+    except csv.Error:
+        raise InputError("log", "(header row)", "a CSV header row with the columns " + ", ".join(REQUIRED)) from None
+    if not raw:
+        raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
+    names, factors = _header(raw)
+    df, bad_width = _rows(rest, raw, names)
     df.columns = [*names, "line"]
     unknown = [n for n in names if n not in SPEC]
     warnings: list[tuple[str, str]] = []
@@ -296,9 +366,31 @@ def read_log(source: Any) -> LogData:
         ttext,
     )
     t_factor = 1.0 if iso_only else float(factors["time"])
+    units_time = "ISO 8601" if iso_only else (_unit_of(raw, names, "time") or "min")
     epoch_min = ((ts - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(minutes=1)).to_numpy(dtype=float)
     is_ts = ts_ok
     t_abs = np.where(is_ts, epoch_min, t_num * t_factor)
+    far = ~is_ts & np.isfinite(t_abs) & (np.abs(t_abs) > MAX_ELAPSED_MIN)
+    if far.any():
+        r.add(
+            far,
+            lambda v: (
+                f"time: got {v!r} {units_time}; expected elapsed time within +-{MAX_ELAPSED_MIN:g} min (about "
+                "2 years): a Unix time in seconds? write ISO 8601 timestamps (time [ISO 8601])"
+            ),
+            ttext,
+        )
+        far_cases = sorted(set(case[far]))
+        warnings.append(
+            (
+                "TIME_NOT_ELAPSED",
+                f"time: {int(far.sum())} row(s) of case(s) "
+                + ", ".join(repr(c) for c in far_cases[:5])
+                + (" ..." if len(far_cases) > 5 else "")
+                + f" give elapsed times beyond {MAX_ELAPSED_MIN:g} min, more than any case lasts (Unix-epoch "
+                "seconds?); those rows were rejected",
+            )
+        )
 
     flows = {
         c: _numeric(df[c], c, r, float(factors[c]), units[c], True)
@@ -405,6 +497,7 @@ def read_log(source: Any) -> LogData:
             s[key] = opt[c][idx]
             if key in ("weight", "age"):
                 per_case[key] = s[key].groupby(codes).first().reindex(range(n_cases)).to_numpy()
+                warnings += _varying(s[key], codes, case_ids, c, SPEC[c][2])
                 s[key] = per_case[key][codes]
     case_is_ts = np.zeros(n_cases, dtype=bool)
     case_is_ts[codes] = is_ts[idx]
