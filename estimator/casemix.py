@@ -43,13 +43,15 @@ import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Literal
+from typing import Any
 
-from pydantic import BaseModel, ConfigDict, StrictInt, ValidationError
+from pydantic import ValidationError
 
 from .batch import CaseTemplate, case_template
 from .casemix_draws import (
     AGE_LIMITS,
+    DURATION_LIMITS,
+    Z90,
     Distribution,
     duration_law,
     normal_law,
@@ -58,21 +60,19 @@ from .casemix_draws import (
 )
 from .casemix_files import case_type_rows, reference_text, referenced_file
 from .casemix_plan import inline_scenario
+from .casemix_schema import DEFAULT_BOTTLE, CaseMixInput, CaseTypeInput, CylinderSize, OrdersInput
 from .costs import Prices, parse_prices
 from .errors import InputError, read_text_file
 from .physiology import SANE_WEIGHT, VALIDATED_WEIGHT
 from .properties import CO2E_BASES
 from .scenario import Scenario, input_error_from_validation, scenario_from_dict
 
-Value = str | int | float
 #: Weeks a forecast may simulate (20 years).
 MAX_WEEKS = 1040
 #: Largest seed (numpy seeds are unsigned 64-bit integers; 2**63 - 1 keeps TOML's integer range).
 MAX_SEED = 2**63 - 1
 #: Mapleson's age factor is fitted from 1 year of age up (Mapleson 1996).
 MAPLESON_MIN_AGE = 1.0
-#: Bottle size used for orders when none is given: 250 mL (common practice, no source).
-DEFAULT_BOTTLE = "250 mL"
 #: Patient keys a case-mix template may not override: they are per patient, not per case type.
 _PER_PATIENT = (
     "oxygen_consumption",
@@ -82,79 +82,6 @@ _PER_PATIENT = (
     "minute_ventilation",
     "frc",
 )
-
-
-class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-
-class CaseTypeInput(_Strict):
-    """One ``[[case_types]]`` row; see the module docstring and the README for every key."""
-
-    name: str
-    per_week: float | None = None
-    per_weekday: list[float] | None = None
-    count: Literal["poisson", "fixed"] = "poisson"
-    scenario: str | None = None
-    agent: str | None = None
-    wash_in_flow: Value | None = None
-    wash_in_time: Value | None = None
-    maintenance_flow: Value | None = None
-    oxygen_fraction: Value | None = None
-    balance: Literal["air", "nitrous_oxide"] | None = None
-    end_tidal_target: Value | None = None
-    vaporizer: Value | None = None
-    duration: Value | None = None
-    duration_median: Value | None = None
-    duration_p90: Value | None = None
-    duration_min: Value | None = None
-    duration_max: Value | None = None
-    weight_mean: Value | None = None
-    weight_sd: Value | None = None
-    weight_min: Value | None = None
-    weight_max: Value | None = None
-    age_mean: Value | None = None
-    age_sd: Value | None = None
-    age_min: Value | None = None
-    age_max: Value | None = None
-
-
-class CylinderSize(_Strict):
-    """A cylinder size for orders: compressed by pressure, or nitrous oxide by weight."""
-
-    water_capacity: Value | None = None
-    pressure: Value | None = None
-    temperature: Value = "15 degC"
-    reserve_pressure: Value | None = None
-    gross_weight: Value | None = None
-    tare_weight: Value | None = None
-    reserve_weight: Value | None = None
-
-
-class OrdersInput(_Strict):
-    """``[orders]``: pack sizes; items without a size are reported without an order."""
-
-    oxygen_cylinder: CylinderSize | None = None
-    air_cylinder: CylinderSize | None = None
-    nitrous_oxide_cylinder: CylinderSize | None = None
-    bottle_volume: Value = DEFAULT_BOTTLE
-    bottle_volumes: dict[str, Value] = {}
-    absorbent_pack: Value | None = None
-
-
-class CaseMixInput(_Strict):
-    """The case-mix file."""
-
-    title: str = ""
-    weeks: StrictInt = 52
-    seed: StrictInt | None = None
-    cover: Value = "95 %"
-    co2e_basis: str = "ar6_gwp100"
-    nitrous_oxide_manifold_loss: Value = 0.0
-    case_types: list[CaseTypeInput] = []
-    case_types_file: str | None = None
-    prices: dict[str, Any] | None = None
-    orders: OrdersInput = OrdersInput()
 
 
 @dataclass(frozen=True)
@@ -442,3 +369,25 @@ def load_casemix(path: str | os.PathLike[str]) -> CaseMix:
         rows = [r.model_dump(exclude_none=True) for r in case_types_from_text(text)]
         return casemix_from_dict({"case_types": rows}, p.parent)
     return casemix_from_text(text, p.parent)
+
+
+__all__ = [
+    "AGE_LIMITS",
+    "DEFAULT_BOTTLE",
+    "DURATION_LIMITS",
+    "Z90",
+    "CaseMix",
+    "CaseMixInput",
+    "CaseType",
+    "CaseTypeInput",
+    "CylinderSize",
+    "Distribution",
+    "OrdersInput",
+    "case_type",
+    "case_types_from_text",
+    "casemix_from_dict",
+    "casemix_from_text",
+    "load_casemix",
+    "read_case_types_csv",
+    "scenario_file",
+]
