@@ -387,6 +387,7 @@ __all__ = [
     "case_types_from_text",
     "casemix_from_dict",
     "casemix_from_text",
+    "MAX_WEEKS",
     "load_casemix",
     "read_case_types_csv",
     "scenario_file",

@@ -60,7 +60,7 @@ from .carbon import (
     released_agent_mass,
     vapour_to_mass,
 )
-from .casemix import CaseMix, CylinderSize
+from .casemix import MAX_WEEKS, CaseMix, CylinderSize
 from .costs import cost_table
 from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, reference_molar_volume
 from .errors import InputError
@@ -187,7 +187,7 @@ def forecast(
     ----------
     mix : CaseMix
     weeks : int, optional
-        Weeks to simulate (default the file's ``weeks``), 1 to 1040.
+        Weeks to simulate (default the file's ``weeks``), 1 to :data:`~estimator.casemix.MAX_WEEKS` (1040).
     seed : int, optional
         Seed of the random generator (default the file's ``seed``; without either a fresh one,
         reported in the result so that the run can be repeated).
@@ -202,8 +202,8 @@ def forecast(
     ForecastResult
     """
     weeks = mix.weeks if weeks is None else weeks
-    if isinstance(weeks, bool) or not isinstance(weeks, int) or not 1 <= weeks <= 1040:
-        raise InputError("weeks", weeks, "1 to 1040 weeks")
+    if isinstance(weeks, bool) or not isinstance(weeks, int) or not 1 <= weeks <= MAX_WEEKS:
+        raise InputError("weeks", weeks, f"1 to {MAX_WEEKS} weeks")
     check_size(mix, weeks, max_cases)
     seed = mix.seed if seed is None else seed
     if seed is None:
