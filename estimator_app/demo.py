@@ -110,7 +110,7 @@ DEMO_CASEMIX: dict[str, Any] = {
             "wash_in_flow": "6 L/min",
             "wash_in_time": "6 min",
             "maintenance_flow": "0.8 L/min",
-            "oxygen_fraction": "50 %",
+            "oxygen_fraction": "65 %",
             "end_tidal_target": "1 MAC",
             "duration_median": "40 min",
             "duration_p90": "65 min",
