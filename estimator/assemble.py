@@ -101,6 +101,9 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
         cols["agent_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.AGENT]
         cols["nitrous_oxide_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.N2O]
         cols["co2_to_absorbent [mL/min]"] = 1000 * lpm * ws[:, c.W_CO2ABS]
+        ml_per_mmol = ag.molar_mass.to("g/mol").magnitude / 1000 / ag.liquid_density.to("g/mL").magnitude
+        agent_in = ys[:, c.Y_FGIN + c.AGENT] + ys[:, c.Y_MAKEUP + c.AGENT]  # accumulators start at 0
+        cols["agent_liquid_cumulative [mL]"] = ml_per_mmol * agent_in
         df = cols
         frames.append(df)
         info: dict[str, Any] = {

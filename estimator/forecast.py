@@ -66,6 +66,7 @@ from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, reference_mo
 from .errors import InputError
 from .properties import gas
 from .results import FIO2_ADVISORY, TARGET_BAND
+from .spread import forecast_adjuster
 from .units import GAS_VOLUME_REFERENCE, Q_, parse_quantity
 
 STATISTICS = ("mean", "p50", "p95", "p99")
@@ -173,7 +174,12 @@ def _draw(mix: CaseMix, weeks: int, rng: np.random.Generator):
 
 
 def forecast(
-    mix: CaseMix, *, weeks: int | None = None, seed: int | None = None, progress: Callable[[float], None] | None = None
+    mix: CaseMix,
+    *,
+    weeks: int | None = None,
+    seed: int | None = None,
+    progress: Callable[[float], None] | None = None,
+    patient_spread: bool = False,
 ) -> ForecastResult:
     """Monte-Carlo weekly demand of a case mix.
 
@@ -187,6 +193,10 @@ def forecast(
         reported in the result so that the run can be repeated).
     progress : callable, optional
         Called with the fraction of cases done, from 0 to 1.
+    patient_spread : bool
+        Draw each case's physiology (cardiac output, metabolic rate, agent solubility, fat volume)
+        from the published between-patient variation of :mod:`estimator.spread`, after the case
+        draws and from the same generator (off by default: the pinned forecasts stay comparable).
 
     Returns
     -------
@@ -228,7 +238,12 @@ def forecast(
             if progress is not None and total_cases:
                 progress((done + frac * n) / total_cases)
 
-        tot = run_batch(ct.template, wt, age, dur, progress=report) if n else {k: np.zeros(0) for k in TOTAL_UNITS}
+        adjust = forecast_adjuster(ct.agent, n, rng) if patient_spread and n else None
+        tot = (
+            run_batch(ct.template, wt, age, dur, progress=report, adjust=adjust)
+            if n
+            else {k: np.zeros(0) for k in TOTAL_UNITS}
+        )
         done += n
         evaluations += int(tot["evaluations"].sum()) if n else 0
         add = {
@@ -297,6 +312,7 @@ def forecast(
         "cases": total_cases,
         "seconds": round(elapsed, 3),
         "evaluations_per_case": evaluations / total_cases if total_cases else 0.0,
+        "patient_spread": patient_spread,
     }
     return ForecastResult(
         mix.title, weeks, seed, mix.cover, items, weekly, units, orders, cost, cases, mix.co2e_basis, warns, solver

@@ -25,13 +25,16 @@ def forecast(
     weeks: int | None = typer.Option(None, "--weeks", help="Weeks to simulate (default: the file's, else 52)."),
     seed: int | None = typer.Option(None, "--seed", help="Random seed, for a repeatable run."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
+    patient_spread: bool = typer.Option(
+        False, "--patient-spread", help="Draw each case's physiology from published between-patient variation."
+    ),
 ) -> None:
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
     from ..casemix import load_casemix
     from ..forecast import forecast as run
     from ..jsonout import dumps
 
-    result = run(load_casemix(file), weeks=weeks, seed=seed)
+    result = run(load_casemix(file), weeks=weeks, seed=seed, patient_spread=patient_spread)
     typer.echo(dumps(result.to_json()) if json_out else summary(result))
 
 
