@@ -252,7 +252,7 @@ def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
 def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray, totals: dict, warns: list) -> None:
     t = series["time [min]"].to_numpy()[judged]
     fio2 = fio2_all[judged]
-    deficit = series["volume_deficit_flow [L/min]"].to_numpy()
+    deficit = series["volume_deficit_flow [L/min]"].to_numpy()[judged]
     if totals["volume_deficit"].magnitude > 1e-9:
         first = t[np.argmax(deficit > 0)] if np.any(deficit > 0) else t[0]
         warns.append(
