@@ -259,3 +259,43 @@ def test_spread_of_closed_circuit_agent_use_matches_published_variation():
         use[i] = simulate(s, adjust=lambda p, row=row: apply_factors(p, row)).totals["agent_liquid"].magnitude
     cv = use.std(ddof=1) / use.mean()
     assert lo <= cv <= hi, f"model CV {cv:.3f}, published band {lo:.3f}-{hi:.3f}"
+
+
+# --- app -------------------------------------------------------------------------------------------
+def _app_path():
+    import sys
+
+    root = str(Path(__file__).resolve().parents[1])
+    if root not in sys.path:  # app.py runs from the repository root; estimator_app is not installed
+        sys.path.insert(0, root)
+
+
+def test_band_spec_follows_the_vega_lite_schema():
+    _app_path()
+    from altair.utils.schemapi import validate_jsonschema
+    from altair.vegalite.v6.schema.core import load_schema
+
+    from estimator_app.charts import time_course
+    from estimator_app.spread_view import with_band
+
+    r = simulate_spread(_scenario(duration="10 min"), 5, seed=1)
+    base = simulate(_scenario(duration="10 min")).series
+    spec = with_band(time_course(base, {"end_tidal_agent [%]": "end-tidal"}, "agent [%]"), r, "end_tidal_agent")
+    validate_jsonschema(spec, load_schema())
+    assert spec["layer"][0]["mark"]["type"] == "area"
+    assert len(spec["layer"][0]["data"]["values"]) == len(r.time)
+
+
+def test_case_planner_shows_the_band():
+    _app_path()
+    from streamlit.testing.v1 import AppTest
+
+    at = AppTest.from_string("from estimator_app.shell import page_main\npage_main('case_planner')", default_timeout=90)
+    at.run()
+    assert not at.exception
+    assert all("P5" not in list(df.value.columns) for df in at.dataframe)  # off by default
+    at.number_input(key="case.spread.n").set_value(20).run()
+    assert not at.exception and not at.error
+    table = next(df.value for df in at.dataframe if "P95" in df.value.columns)
+    assert list(table["quantity"])[0] == "liquid agent"
+    assert (table["P5"] <= table["P95"]).all()
