@@ -260,7 +260,8 @@ def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray
                 "VOLUME_DEFICIT",
                 f"from {first:.0f} min the fresh gas does not cover uptake, leak and unreturned sample gas: "
                 f"the bag empties ({totals['volume_deficit'].to('L').magnitude:.2f} L short in all); the model "
-                "made the shortfall good with make-up gas, counted in the totals; raise the fresh-gas flow",
+                "made the shortfall good with make-up gas (the fresh-gas mix, counted in the gas totals; room "
+                "air where no fresh gas flows or the ventilator entrains air); raise the fresh-gas flow",
             )
         )
     if fio2.min() < 0.21:

@@ -56,7 +56,7 @@ RTOL = 1e-4
 #: a 1-min case's uptake was off by 9e-4; measured); 1e-3 mmol is 0.02 mL of gas.
 ATOL_FRACTION = 1e-8
 ATOL_AMOUNT = 1e-3
-#: Cases per chunk: parameters of a chunk take chunk x phases x 66 x 8 bytes (about 1 MB a phase).
+#: Cases per chunk: parameters of a chunk take chunk x phases x NP (98) x 8 bytes (about 1.6 MB a phase).
 CHUNK = 2048
 #: Weights [kg] at which the parameter model is fitted, and at which it is verified.
 FIT_WEIGHTS = (5.0, 60.0, 200.0)

@@ -18,7 +18,9 @@ and, for the four inert or anaesthetic species, six blood and tissue compartment
   out (inspired minus net uptake: the concentration and second-gas effects follow), blood uptake;
 * arterial and mixed-venous blood, and the vessel-rich, muscle, fat and vessel-poor groups,
   perfusion-limited (Eger 1974; Mapleson 1963), with hepatic metabolism of the agent from the
-  venous outflow of the vessel-rich group;
+  venous outflow of the vessel-rich group; fat in two compartments of high and low blood flow
+  per kg (Levitt 2007), and fat next to the vessel-rich organs and to muscle that takes up agent
+  by intertissue diffusion from them (Perl, Lesser and Steele 1960; Eger and Saidman 2005);
 * O2 is consumed and CO2 produced at the patient's metabolic rates (Brody scaling).
 
 Circle layout: the exhaust (APL or spill) valve vents mixed expired gas *before* the absorber, so at
@@ -27,7 +29,9 @@ share of it that flows during inspiration (``f_insp``) is inhaled directly, the 
 circuit. Where the circuit would need more gas than the expired limb returns (fresh gas below net
 uptake plus leak plus unreturned sample flow) the bag empties: the shortfall is recorded as a
 volume deficit and made good by make-up gas (fresh-gas composition, or room air for ventilators
-with an air-entrainment valve), which the totals count separately.
+with an air-entrainment valve and whenever no fresh gas flows at all), which the totals count
+separately; the make-up gas enters the balance of every species, so the fractions sum to 1. A
+vaporizer with no carrier gas delivers nothing.
 
 Integrator: Dormand-Prince 5(4) with an embedded error estimate and a PI step-size controller
 (Hairer, Norsett and Wanner, Solving ODEs I, 2nd ed. 1993, sec. II.4-5). Runge-Kutta methods keep
@@ -40,6 +44,11 @@ References
    J Appl Physiol 1963;18:197-204.
 .. [3] Dormand JR, Prince PJ. A family of embedded Runge-Kutta formulae. J Comput Appl Math
    1980;6:19-26.
+.. [4] Levitt DG. Heterogeneity of human adipose blood flow. BMC Clin Pharmacol 2007;7:1.
+.. [5] Perl W, Lesser GT, Steele JM. The kinetics of distribution of the fat-soluble inert gas
+   cyclopropane in the body. Biophys J 1960;1:111-35 (journal, year and pages from memory).
+.. [6] Eger EI II, Saidman LJ. Illustrations of inhaled anesthetic uptake, including intertissue
+   diffusion to and from fat. Anesth Analg 2005;100:1020-33.
 """
 
 from __future__ import annotations
@@ -56,37 +65,42 @@ SPECIES = ("oxygen", "carbon_dioxide", "nitrogen", "nitrous_oxide", "agent", "ar
 #: Species carried in blood and tissues, in body-state order.
 BODY = (N2, N2O, AGENT, AR)
 NB = 4
-NT = 4  # tissue groups: vrg, muscle, fat, vpg
+#: Tissue compartments (names and order: estimator.physiology.COMPARTMENTS): vessel-rich, muscle,
+#: well- and poorly perfused fat, vessel-poor (unperfused), and the fat next to the vessel-rich
+#: organs and next to muscle, which takes up agent only by intertissue diffusion from that tissue.
+NT = 7
 
 # --- state layout --------------------------------------------------------------------------------
 Y_FC = 0  # circuit fractions [6]
 Y_FA = 6  # alveolar fractions [6]
-Y_BODY = 12  # per body species b: arterial, venous, vrg, muscle, fat, vpg -> 12 + 6 b + k
-NBODYSTATE = 6
-Y_FGIN = 36  # fresh gas delivered per species [mmol]
-Y_VENT = 42  # vented through the exhaust valve
-Y_LEAK = 48  # lost by leak
-Y_SAMPLE = 54  # lost as unreturned sample gas
-Y_MAKEUP = 60  # deficit make-up gas
-Y_CO2ABS = 66  # CO2 held by the absorbent
-Y_METAB = 67  # agent metabolised
-Y_O2CONS = 68  # O2 consumed
-Y_MACMIN = 69  # integral of end-tidal total MAC [MAC x min]
-Y_UPTAKE = 70  # net uptake from the lungs per species [6]
-NY = 76
+Y_BODY = 12  # per body species b: arterial, venous, then the NT tissues -> 12 + NBODYSTATE b + k
+NBODYSTATE = 2 + NT
+Y_FGIN = Y_BODY + NB * NBODYSTATE  # fresh gas delivered per species [mmol] (48)
+Y_VENT = Y_FGIN + 6  # vented through the exhaust valve
+Y_LEAK = Y_FGIN + 12  # lost by leak
+Y_SAMPLE = Y_FGIN + 18  # lost as unreturned sample gas
+Y_MAKEUP = Y_FGIN + 24  # deficit make-up gas
+Y_CO2ABS = Y_FGIN + 30  # CO2 held by the absorbent
+Y_METAB = Y_FGIN + 31  # agent metabolised
+Y_O2CONS = Y_FGIN + 32  # O2 consumed
+Y_MACMIN = Y_FGIN + 33  # integral of end-tidal total MAC [MAC x min]
+Y_UPTAKE = Y_FGIN + 34  # net uptake from the lungs per species [6]
+NY = Y_UPTAKE + 6
 
 # --- parameter layout ----------------------------------------------------------------------------
 P_NC, P_NL, P_VA, P_VDALV, P_VDANAT, P_Q, P_CA, P_VART, P_VVEN = range(9)
-P_QT = 9  # [4] tissue blood flows [L/min]
-P_VT = 13  # [4] tissue volumes [L]
-P_QH, P_EH, P_VO2, P_VCO2, P_FINSP, P_LEAK, P_SAMPLE, P_MAKEUP_AIR = range(17, 25)
-P_CARRIER = 25  # [6] fresh-gas carrier flow per species [mmol/min]
-P_MODE, P_UFIXED, P_UMAX, P_TARGET_FRAC, P_TARGET_MAC, P_MAC_AGENT, P_MAC_N2O = range(31, 38)
-P_TAU_L, P_TAU_C = 38, 39
-P_LAMBDA = 40  # [4] blood/gas per body species
-P_LAMBDA_T = 44  # [4 x 4] tissue/blood, species-major
-P_AIR = 60  # [6] room-air dry fractions (make-up gas)
-NP = 66
+P_QT = 9  # [NT] tissue blood flows [L/min]
+P_VT = P_QT + NT  # [NT] tissue volumes [L]
+P_DIFF = P_VT + NT  # [NT] intertissue diffusion clearance into each tissue [L/min of donor tissue]
+P_DONOR = P_DIFF + NT  # [NT] index of the lean tissue that feeds it by diffusion (-1: none)
+P_QH, P_EH, P_VO2, P_VCO2, P_FINSP, P_LEAK, P_SAMPLE, P_MAKEUP_AIR = range(P_DONOR + NT, P_DONOR + NT + 8)
+P_CARRIER = P_MAKEUP_AIR + 1  # [6] fresh-gas carrier flow per species [mmol/min]
+P_MODE, P_UFIXED, P_UMAX, P_TARGET_FRAC, P_TARGET_MAC, P_MAC_AGENT, P_MAC_N2O = range(P_CARRIER + 6, P_CARRIER + 13)
+P_TAU_L, P_TAU_C = P_MAC_N2O + 1, P_MAC_N2O + 2
+P_LAMBDA = P_TAU_C + 1  # [4] blood/gas per body species
+P_LAMBDA_T = P_LAMBDA + NB  # [4 x NT] tissue/blood, species-major
+P_AIR = P_LAMBDA_T + NB * NT  # [6] room-air dry fractions (make-up gas)
+NP = P_AIR + 6
 
 # --- derived quantities (workspace) --------------------------------------------------------------
 W_FI = 0  # inspired fractions [6]
@@ -226,7 +240,12 @@ def _hold_dial(y, p, w):
 @_jit
 def flows(y, p, w):
     """Derived flows and fractions of a state (fills ``w``; see the ``W_*`` layout)."""
-    if p[P_MODE] == MODE_HOLD:
+    carrier = 0.0
+    for s in range(NS):
+        carrier += p[P_CARRIER + s]
+    if carrier <= 0.0:
+        u = 0.0  # a vaporizer with no carrier gas through it delivers nothing
+    elif p[P_MODE] == MODE_HOLD:
         u = _hold_dial(y, p, w)
     else:
         u = p[P_UFIXED]
@@ -250,9 +269,12 @@ def rhs(y, p, w, dy):
     u = w[W_U]
     inv_nc = 1.0 / p[P_NC]
     inv_nl = 1.0 / p[P_NL]
+    # make-up gas: fresh-gas composition, or room air with an air-entrainment valve or when no fresh
+    # gas flows at all (the circuit then draws room air through its negative-pressure relief)
+    room_air = p[P_MAKEUP_AIR] > 0.0 or fgf <= 0.0
     for s in range(NS):
         ffg = u if s == AGENT else (p[P_CARRIER + s] / fgf if fgf > 0.0 else 0.0)
-        fmk = p[P_AIR + s] if p[P_MAKEUP_AIR] > 0.0 else ffg
+        fmk = p[P_AIR + s] if room_air else ffg
         fc = y[Y_FC + s]
         fe = w[W_FE + s]
         into = (fgf - direct) * ffg + absorber * fe + makeup * fmk
@@ -277,13 +299,20 @@ def rhs(y, p, w, dy):
         for k in range(NT):
             pt = y[base + 2 + k]
             qt = p[P_QT + k]
-            cap = p[P_VT + k] * p[P_LAMBDA_T + NT * b + k]
-            d = qt * (pa - pt)
             venous_in += qt * pt
+            dy[base + 2 + k] = qt * (pa - pt)  # inflow [L blood x fraction / min], divided below
             if b == 2 and k == 0:
-                cleared = p[P_EH] * p[P_QH] * pt
-                venous_in -= cleared
-            dy[base + 2 + k] = d / cap if cap > 0.0 else 0.0
+                venous_in -= p[P_EH] * p[P_QH] * pt
+        for k in range(NT):
+            j = int(p[P_DONOR + k])
+            if j >= 0:
+                # intertissue diffusion from lean tissue j to the fat next to it (Perl et al. 1960)
+                flux = p[P_DIFF + k] * p[P_LAMBDA_T + NT * b + j] * (y[base + 2 + j] - y[base + 2 + k])
+                dy[base + 2 + k] += flux
+                dy[base + 2 + j] -= flux
+        for k in range(NT):
+            cap = p[P_VT + k] * p[P_LAMBDA_T + NT * b + k]
+            dy[base + 2 + k] = dy[base + 2 + k] / cap if cap > 0.0 else 0.0
         dy[base + 1] = (venous_in - q * pv) / p[P_VVEN]
     dy[Y_CO2ABS] = w[W_CO2ABS]
     dy[Y_METAB] = w[W_METAB]

@@ -34,7 +34,7 @@ import numpy as np
 from . import circuit as c
 from .assemble import build_result
 from .errors import InputError
-from .physiology import Patient, patient_parameters
+from .physiology import COMPARTMENT_TISSUE, COMPARTMENTS, DIFFUSION_DONOR, Patient, patient_parameters
 from .properties import Species, gas
 from .properties import agent as agent_properties
 from .results import CaseResult
@@ -188,9 +188,12 @@ def base_parameters(scenario: Scenario, patient: Patient, site: SiteState) -> np
     p[c.P_Q] = patient.cardiac_output.to("L/min").magnitude
     p[c.P_VART] = patient.arterial_volume.to("L").magnitude
     p[c.P_VVEN] = patient.venous_volume.to("L").magnitude
-    for k, t in enumerate(("vrg", "muscle", "fat", "vpg")):
+    for k, t in enumerate(COMPARTMENTS):
         p[c.P_QT + k] = patient.tissue_flow[t].to("L/min").magnitude
         p[c.P_VT + k] = patient.tissue_volume[t].to("L").magnitude
+        donor = DIFFUSION_DONOR.get(t)
+        p[c.P_DONOR + k] = COMPARTMENTS.index(donor) if donor else -1.0
+        p[c.P_DIFF + k] = patient.tissue_diffusion[t].to("L/min").magnitude if donor else 0.0
     p[c.P_QH] = patient.hepatic_flow.to("L/min").magnitude
     ag = agent_properties(scenario.agent.name)
     p[c.P_EH] = ag.hepatic_extraction
@@ -210,8 +213,8 @@ def base_parameters(scenario: Scenario, patient: Patient, site: SiteState) -> np
     p[c.P_TAU_C] = HOLD_TAU_CIRCUIT
     for b, sp in enumerate((gas("nitrogen"), gas("nitrous_oxide"), ag, gas("argon"))):
         p[c.P_LAMBDA + b] = sp.blood_gas
-        for k, t in enumerate(("vrg", "muscle", "fat", "vpg")):
-            p[c.P_LAMBDA_T + c.NT * b + k] = sp.tissue_blood[t]
+        for k, t in enumerate(COMPARTMENTS):
+            p[c.P_LAMBDA_T + c.NT * b + k] = sp.tissue_blood[COMPARTMENT_TISSUE[t]]
     p[c.P_AIR : c.P_AIR + c.NS] = air_fractions()
     return p
 

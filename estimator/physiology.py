@@ -9,6 +9,9 @@ References
 .. [2] Lowe HJ, Ernst EA. The Quantitative Practice of Anesthesia: Use of Closed Circuit.
    Williams & Wilkins, Baltimore 1981 (VO2 = 10 kg^0.75, VCO2 = 8 kg^0.75 mL/min, Q = 2 kg^0.75 dL/min).
 .. [3] Eger EI II. Anesthetic Uptake and Action. Williams & Wilkins 1974 (tissue groups of a 70 kg adult).
+.. [5] Levitt DG. Heterogeneity of human adipose blood flow. BMC Clin Pharmacol 2007;7:1.
+.. [6] Eger EI II, Saidman LJ. Illustrations of inhaled anesthetic uptake, including intertissue
+   diffusion to and from fat. Anesth Analg 2005;100:1020-33.
 .. [4] West JB. Respiratory Physiology: The Essentials (alveolar ventilation equation,
    VA = 0.863 VCO2 / PaCO2 with VA in L/min BTPS, VCO2 in mL/min STPD, PaCO2 in mmHg).
 
@@ -29,7 +32,7 @@ from typing import Any
 import pint
 
 from .errors import InputError
-from .properties import TISSUES
+from .properties import TISSUES, physiology_value
 from .units import Q_, check_range, parse_quantity
 
 #: Brody's coefficients at mass^0.75 (Lowe and Ernst 1981): mL/min STPD, mL/min STPD, dL/min.
@@ -50,6 +53,19 @@ SANE_WEIGHT = (0.5, 300.0)
 REFERENCE_MASS = 70.0
 TISSUE_VOLUME_70KG = {"vrg": 6.0, "muscle": 33.0, "fat": 14.5, "vpg": 12.5}
 TISSUE_FLOW_SHARE = {"vrg": 0.75, "muscle": 0.19, "fat": 0.06, "vpg": 0.0}
+#: Model compartments in state order (estimator.circuit), the tissue group whose partition coefficient
+#: each uses, and the lean tissue that feeds each fat-next-to-lean compartment by diffusion.
+COMPARTMENTS = ("vrg", "muscle", "fat_fast", "fat_slow", "vpg", "fat_vrg", "fat_muscle")
+COMPARTMENT_TISSUE = {
+    "vrg": "vrg",
+    "muscle": "muscle",
+    "fat_fast": "fat",
+    "fat_slow": "fat",
+    "vpg": "vpg",
+    "fat_vrg": "fat",
+    "fat_muscle": "fat",
+}
+DIFFUSION_DONOR = {"fat_vrg": "vrg", "fat_muscle": "muscle"}
 #: Blood volume 70 mL/kg split 30 % arterial / 70 % venous (common practice, no source).
 BLOOD_VOLUME_PER_KG = 0.070
 ARTERIAL_SHARE = 0.30
@@ -77,8 +93,11 @@ class Patient:
     alveolar_ventilation : [L/min] BTPS, perfused alveoli only
     minute_ventilation : [L/min] BTPS, what the ventilator delivers from the circuit
     frc : [L] BTPS
-    tissue_volume : dict of [L]
-    tissue_flow : dict of [L/min]
+    tissue_volume : dict of [L], one entry per model compartment (:data:`COMPARTMENTS`)
+    tissue_flow : dict of [L/min], blood flow of each compartment
+    tissue_diffusion : dict of [L/min]
+        Intertissue diffusion clearance into each fat-next-to-lean compartment, in litres of the
+        lean tissue (:data:`DIFFUSION_DONOR`) per minute.
     arterial_volume, venous_volume : [L] of blood
     alveolar_dead_space_share : float
         Share of end-tidal gas that comes from unperfused alveoli (carries inspired gas).
@@ -102,6 +121,7 @@ class Patient:
     respiratory_rate: pint.Quantity
     hepatic_flow: pint.Quantity
     warnings: tuple[tuple[str, str], ...] = field(default=())
+    tissue_diffusion: dict[str, pint.Quantity] = field(default_factory=dict)
 
     def with_overrides(self, **kw: Any) -> Patient:
         """A copy with fields replaced (quantities in any compatible unit)."""
@@ -149,6 +169,53 @@ def alveolar_ventilation(vco2_ml_min: float, paco2_mmhg: float = 40.0) -> float:
     return ALVEOLAR_CONSTANT * vco2_ml_min / paco2_mmhg
 
 
+def fat_split(fat_volume: float, fat_flow: float, weight_kg: float) -> dict[str, tuple[float, float, float]]:
+    """Split Eger's fat group into the compartments of the late-uptake structure.
+
+    Fat next to the vessel-rich organs and next to muscle (reference-man volumes, a share of the fat
+    group) is unperfused and fed by intertissue diffusion from that lean tissue (Eger and Saidman
+    2005); its clearance is the sourced rate per litre of adjacent fat, scaled with mass^0.75 like a
+    flow. The rest of the fat is perfused in two compartments with Levitt's (2007) blood flows per
+    kg; their split is chosen so that at the 70 kg reference they carry Eger's fat-group flow. The
+    shares are fixed at the reference, so volumes stay proportional to the fat volume and flows to
+    the fat flow (mass and mass^0.75 for the Brody patient).
+
+    Parameters
+    ----------
+    fat_volume : [L] of the fat group.
+    fat_flow : [L/min] of the fat group.
+    weight_kg : body mass [kg] (scales the diffusion clearances).
+
+    Returns
+    -------
+    dict
+        compartment -> (volume [L], blood flow [L/min], diffusion clearance [L/min]).
+
+    Examples
+    --------
+    >>> s = fat_split(14.5, 0.29, 70.0)
+    >>> round(sum(v for v, _, _ in s.values()), 6), round(sum(q for _, q, _ in s.values()), 6)
+    (14.5, 0.29)
+    """
+    high = physiology_value("adipose_flow_high").to("L/min/kg").magnitude
+    low = physiology_value("adipose_flow_low").to("L/min/kg").magnitude
+    ref_v = TISSUE_VOLUME_70KG["fat"]
+    ref_q = TISSUE_FLOW_SHARE["fat"] * brody_cardiac_output(REFERENCE_MASS)
+    next_vrg = physiology_value("fat_next_to_vrg").to("L").magnitude / ref_v
+    next_muscle = physiology_value("fat_next_to_muscle").to("L").magnitude / ref_v
+    perfused = 1.0 - next_vrg - next_muscle
+    fast = (ref_q / (ref_v * perfused) - low) / (high - low)  # share of perfused fat at the high flow
+    flow_fast = fast * high / (fast * high + (1.0 - fast) * low)  # its share of the fat flow
+    rate = physiology_value("intertissue_rate").to("1/min").magnitude
+    diff = rate * (REFERENCE_MASS / weight_kg) ** 0.25
+    return {
+        "fat_fast": (fat_volume * perfused * fast, fat_flow * flow_fast, 0.0),
+        "fat_slow": (fat_volume * perfused * (1.0 - fast), fat_flow * (1.0 - flow_fast), 0.0),
+        "fat_vrg": (fat_volume * next_vrg, 0.0, diff * fat_volume * next_vrg),
+        "fat_muscle": (fat_volume * next_muscle, 0.0, diff * fat_volume * next_muscle),
+    }
+
+
 def patient_parameters(
     weight: Any,
     age: Any = "40 year",
@@ -192,7 +259,7 @@ def patient_parameters(
     >>> p = patient_parameters("70 kg", "40 years")
     >>> round(p.alveolar_ventilation.to("L/min").magnitude, 2)
     4.18
-    >>> round(p.tissue_volume["fat"].to("L").magnitude, 1)
+    >>> round(sum(p.tissue_volume[t].to("L").magnitude for t in COMPARTMENTS if t.startswith("fat")), 1)
     14.5
     """
     w = parse_quantity(weight, "patient.weight", "mass", default_unit="kg")
@@ -258,6 +325,14 @@ def patient_parameters(
     if any(s < 0 for s in shares.values()) or sum(shares.values()) > 1.0 + 1e-9:
         raise InputError("patient.tissue_flow_share", shares, "shares of at least 0 summing to at most 1")
     flows = {t: co * shares[t] for t in TISSUES}
+    split = fat_split(vols["fat"].to("L").magnitude, flows["fat"].to("L/min").magnitude, kg)
+    comp_v = {t: vols[t].to("L") for t in ("vrg", "muscle", "vpg")}
+    comp_q = {t: flows[t].to("L/min") for t in ("vrg", "muscle", "vpg")}
+    diffusion = {}
+    for name, (v, q, d) in split.items():
+        comp_v[name], comp_q[name] = Q_(v, "L"), Q_(q, "L/min")
+        if name in DIFFUSION_DONOR:
+            diffusion[name] = Q_(d, "L/min")
     blood = BLOOD_VOLUME_PER_KG * kg
     return Patient(
         weight=w.to("kg"),
@@ -268,8 +343,9 @@ def patient_parameters(
         alveolar_ventilation=va,
         minute_ventilation=ve,
         frc=frc_q,
-        tissue_volume=vols,
-        tissue_flow=flows,
+        tissue_volume={t: comp_v[t] for t in COMPARTMENTS},
+        tissue_flow={t: comp_q[t] for t in COMPARTMENTS},
+        tissue_diffusion=diffusion,
         arterial_volume=Q_(blood * ARTERIAL_SHARE, "L"),
         venous_volume=Q_(blood * (1 - ARTERIAL_SHARE), "L"),
         alveolar_dead_space_share=float(alveolar_dead_space_share),

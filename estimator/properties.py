@@ -33,6 +33,7 @@ CONFIDENCE_CODES = {
     "M": "from memory, unverified",
     "D": "derived from the cited formula",
     "C": "common practice, no source",
+    "F": "fitted to the named data set in the note (never to data used for validation)",
 }
 
 #: Tissue groups of the uptake model, in state order.
@@ -136,7 +137,7 @@ def validate_records(data: dict[str, Any]) -> dict[str, dict[str, Sourced]]:
     """
     sources = data.get("sources", {})
     out: dict[str, dict[str, Sourced]] = {}
-    for section in ("agents", "gases"):
+    for section in ("agents", "gases", "physiology"):
         for name, props in data.get(section, {}).items():
             recs: dict[str, Sourced] = {}
             for prop, raw in props.items():
@@ -200,6 +201,15 @@ def _load() -> tuple[dict[str, Species], dict[str, Species]]:
 
 
 AGENTS, GASES = _load()
+
+
+def physiology_value(name: str, table: str = "late_uptake") -> Any:
+    """A sourced physiological constant of ``[physiology.<table>]`` in the data file (pint or float).
+
+    >>> physiology_value("adipose_flow_high").to("L/min/kg").magnitude
+    0.074
+    """
+    return validate_records({"sources": _raw()["sources"], "physiology": _raw()["physiology"]})[table][name].value
 
 
 def agent(name: str, field_name: str = "agent.name") -> Species:
