@@ -41,7 +41,7 @@ import numpy as np
 
 from . import circuit as c
 from .errors import InputError
-from .properties import TISSUES
+from .physiology import COMPARTMENT_TISSUE, COMPARTMENTS
 from .units import Q_
 
 #: Factors in column order of :func:`draw_factors`.
@@ -56,6 +56,9 @@ SPREAD_SERIES = {
 }
 #: Percentiles reported.
 PERCENTILES = {"p05": 5.0, "p50": 50.0, "p95": 95.0}
+#: Model compartments that are fat (perfused, and fed by diffusion from lean tissue): the fat factor
+#: scales all of them.
+FAT_COMPARTMENTS = tuple(k for k, t in enumerate(COMPARTMENTS) if COMPARTMENT_TISSUE[t] == "fat")
 #: Patients per run accepted by :func:`simulate_spread` (10,000 would take over a minute).
 MAX_PATIENTS = 5000
 #: Range of the spread multiplier (1 = the published spreads); above 1.5 a fat group drawn at the
@@ -144,8 +147,10 @@ def apply_factors(p: np.ndarray, f: np.ndarray) -> np.ndarray:
 
     Cardiac output scales every tissue and hepatic flow; the metabolic rate scales O2 consumption,
     CO2 production and with it alveolar ventilation (and its alveolar dead-space part); the agent's
-    blood/gas and tissue/blood coefficients scale; the fat group grows or shrinks and the muscle
-    group gives up or takes the same volume. Returns a new array.
+    blood/gas and tissue/blood coefficients scale; every fat compartment grows or shrinks (with the
+    diffusion clearance of the fat next to lean tissue, which is per litre of that fat) and the muscle
+    group gives up or takes the same volume; fat blood flows keep their share of cardiac output.
+    Returns a new array.
 
     >>> from estimator.circuit import NP, P_Q
     >>> p = np.ones(NP)
@@ -163,11 +168,14 @@ def apply_factors(p: np.ndarray, f: np.ndarray) -> np.ndarray:
     b = c.BODY.index(c.AGENT)
     p[..., c.P_LAMBDA + b] *= bg
     p[..., c.P_LAMBDA_T + c.NT * b : c.P_LAMBDA_T + c.NT * (b + 1)] *= tb[..., None]
-    kf, km = c.P_VT + TISSUES.index("fat"), c.P_VT + TISSUES.index("muscle")
-    grown = p[..., kf] * (fat - 1.0)
+    km = c.P_VT + COMPARTMENTS.index("muscle")
+    grown = np.zeros_like(fat)
+    for k in FAT_COMPARTMENTS:
+        grown = grown + p[..., c.P_VT + k] * (fat - 1.0)
+        p[..., c.P_VT + k] *= fat
+        p[..., c.P_DIFF + k] *= fat  # diffusion clearance is per litre of the fat next to lean tissue
     if np.any(p[..., km] - grown <= 0.0):
         raise InputError("spread.fat_volume", float(np.max(fat)), "a fat group smaller than fat plus muscle")
-    p[..., kf] += grown
     p[..., km] -= grown
     return p
 
