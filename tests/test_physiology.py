@@ -157,3 +157,32 @@ def test_bare_numbers_are_kg_and_years():
     assert p.weight.to("kg").magnitude == 70 and p.age.to("year").magnitude == 55
     with pytest.raises(InputError, match="patient.age"):
         patient_parameters(70, "130 years")
+
+
+# --- late-uptake compartments -------------------------------------------------------------------
+def test_fat_compartments_keep_eger_fat_group_and_levitt_flows():
+    # The split keeps Eger's 14.5 L and 6 % of cardiac output for the fat as a whole (Eger 1974), and
+    # the two perfused fat compartments carry Levitt's (2007) flows per kg, 0.074 and 0.014 L/min.
+    # Round-off only.
+    from estimator.physiology import COMPARTMENTS
+
+    p = patient_parameters(70)
+    fat = [t for t in COMPARTMENTS if t.startswith("fat")]
+    assert sum(p.tissue_volume[t].to("L").magnitude for t in fat) == pytest.approx(14.5, rel=1e-12)
+    co = p.cardiac_output.to("L/min").magnitude
+    assert sum(p.tissue_flow[t].to("L/min").magnitude for t in fat) == pytest.approx(0.06 * co, rel=1e-12)
+    per_l = {t: (p.tissue_flow[t] / p.tissue_volume[t]).to("L/min/L").magnitude for t in ("fat_fast", "fat_slow")}
+    assert per_l == pytest.approx({"fat_fast": 0.074, "fat_slow": 0.014}, rel=1e-12)
+    assert p.tissue_flow["fat_vrg"].magnitude == 0.0 and p.tissue_flow["fat_muscle"].magnitude == 0.0
+
+
+def test_late_uptake_compartments_scale_like_the_others():
+    # Brody scaling (Lowe and Ernst 1981): volumes with mass, flows and diffusion clearances with
+    # mass^0.75 (what the batch engine's parameter model c + a kg^0.75 + b kg requires). Round-off only.
+    a, b = patient_parameters(35), patient_parameters(140)
+    for t in ("fat_fast", "fat_slow", "fat_vrg", "fat_muscle"):
+        assert (b.tissue_volume[t] / a.tissue_volume[t]).magnitude == pytest.approx(4.0, rel=1e-12)
+    for t in ("fat_fast", "fat_slow"):
+        assert (b.tissue_flow[t] / a.tissue_flow[t]).magnitude == pytest.approx(4.0**0.75, rel=1e-12)
+    for t in ("fat_vrg", "fat_muscle"):
+        assert (b.tissue_diffusion[t] / a.tissue_diffusion[t]).magnitude == pytest.approx(4.0**0.75, rel=1e-12)
