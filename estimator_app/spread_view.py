@@ -81,6 +81,27 @@ def show_totals(band: Any) -> None:
     """P5-P95 beside each total with a spread."""
     st.markdown(f"**P5-P95 over {band.n} simulated patients** (seed {band.seed})")
     st.dataframe(totals_table(band), hide_index=True, width="stretch")
+    with st.expander("Between-patient distributions and their sources"):
+        st.dataframe(distributions_table(band.agent), hide_index=True, width="stretch")
+
+
+def distributions_table(agent: str) -> pd.DataFrame:
+    """The factors drawn for each patient: CV, source and confidence (estimator/data/spread.toml)."""
+    from estimator.properties import CONFIDENCE_CODES
+    from estimator.spread import distributions, sources
+
+    return pd.DataFrame(
+        [
+            {
+                "factor": s.name.replace("_", " "),
+                "CV": s.cv,
+                "source": sources()[s.source],
+                "confidence": f"{s.confidence} ({CONFIDENCE_CODES[s.confidence]})",
+                "derivation": s.derivation,
+            }
+            for s in distributions(agent).values()
+        ]
+    )
 
 
 def with_band(spec: dict[str, Any], band: Any, key: str, color: str = PALETTE[0]) -> dict[str, Any]:

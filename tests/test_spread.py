@@ -303,3 +303,5 @@ def test_case_planner_shows_the_band():
     table = next(df.value for df in at.dataframe if "P95" in df.value.columns)
     assert list(table["quantity"])[0] == "liquid agent"
     assert (table["P5"] <= table["P95"]).all()
+    dist = next(df.value for df in at.dataframe if "derivation" in df.value.columns)
+    assert any("Esper" in src for src in dist["source"])
