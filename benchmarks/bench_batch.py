@@ -31,7 +31,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench_case import CASE, plain_python_model, solve_with  # noqa: E402
+from bench_case import CASE, plain_python_model  # noqa: E402
 
 from estimator import batch, engine  # noqa: E402
 from estimator.scenario import scenario_from_dict  # noqa: E402
@@ -89,7 +89,7 @@ def main() -> None:
     t = time.perf_counter()
     for wt in weights[:k]:
         case = batch.single_case_scenario(template, float(wt), 40.0, 240.0)
-        solve_with(plain, case, "LSODA", 1e-6, 1e-9)
+        engine.reference_solve(case, method="LSODA", rtol=1e-6, atol=1e-9, model=plain)
     t_lsoda = (time.perf_counter() - t) / k
 
     dev = 0.0

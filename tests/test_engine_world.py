@@ -57,21 +57,33 @@ def test_wash_in_ranking_yasuda_1991(wash_in):
         assert all(a >= b for a, b in zip(seq, seq[1:], strict=False)), seq
 
 
-def test_wash_in_values_near_yasuda_1991(wash_in):
-    # Yasuda 1991 (figures, read from memory): FA/FI at 30 min about 0.90 desflurane, 0.85
-    # sevoflurane, 0.73 isoflurane, 0.58 halothane. Tolerance 0.08 absolute: the tissue/blood values
-    # of our table are partly from memory and published solubilities spread 10-15 %.
-    published = {"desflurane": 0.90, "sevoflurane": 0.85, "isoflurane": 0.73, "halothane": 0.58}
-    for name, value in published.items():
-        record(
-            f"{name} FA/FI at 30 min, 10 L/min O2",
-            wash_in[name][2],
-            value,
-            "Yasuda et al. 1991, figures (from memory)",
-            "abs 0.08",
-            wash_in[name][2] == pytest.approx(value, abs=0.08),
+def test_wash_in_values_near_yasuda_1991():
+    # Yasuda N et al., Anesthesiology 1991;74:489 (abstract): 8 volunteers, 65-70 % N2O throughout, FI
+    # 2.0 % desflurane, 0.4 % isoflurane, 0.2 % halothane for 30 min; FA/FI at 30 min 0.90 +- 0.01,
+    # 0.73 +- 0.03, 0.58 +- 0.04 (mean +- SD). These are the data the intertissue diffusion clearance
+    # is fitted to (estimator/data/agents.toml, intertissue_rate), so this is a consistency check of
+    # the fit, not validation. Tolerance 0.08 absolute as before the fit (tissue/blood values spread
+    # 10-15 % between sources); the fit leaves desflurane 3 SD high (model 0.933), which the structure
+    # cannot reach.
+    published = {"desflurane": (0.90, "2.0 %"), "isoflurane": (0.73, "0.4 %"), "halothane": (0.58, "0.2 %")}
+    gases = {"oxygen": "3.5 L/min", "nitrous_oxide": "6.5 L/min"}
+    for name, (value, dial) in published.items():
+        r = run(
+            name,
+            [{"duration": "30 min", **gases, "vaporizer": dial}],
+            patient={"weight": "70 kg", "age": "25 years"},
+            circuit={"inspiratory_fraction": 0.8},
         )
-        assert wash_in[name][2] == pytest.approx(value, abs=0.08)
+        got = fa_fi(r, "agent", (30,))[0]
+        record(
+            f"{name} FA/FI at 30 min, 65 % N2O (fit data of the intertissue clearance; consistency)",
+            got,
+            value,
+            "Yasuda et al., Anesthesiology 1991;74:489, abstract",
+            "abs 0.08",
+            got == pytest.approx(value, abs=0.08),
+        )
+        assert got == pytest.approx(value, abs=0.08)
 
 
 def test_wash_in_slows_as_vessel_rich_group_fills():
@@ -84,7 +96,17 @@ def test_wash_in_slows_as_vessel_rich_group_fills():
     assert (f30 - f15) / 15 < 0.2 * (f5 - f1) / 4
 
 
-@pytest.mark.parametrize("name", ["sevoflurane", "isoflurane", "desflurane"])
+LOWE_LATE = (
+    "the late-uptake structure (two adipose flows, fat next to lean tissue; docs/MODEL_LATE_UPTAKE.md) "
+    "takes up more sevoflurane than Lowe's law after the first hour, as the patient data of Coetzee 2002 "
+    "and Eger 1997 require; the 35 % band is not a published spread"
+)
+
+
+@pytest.mark.parametrize(
+    "name",
+    [pytest.param("sevoflurane", marks=pytest.mark.xfail(strict=True, reason=LOWE_LATE)), "isoflurane", "desflurane"],
+)
 def test_uptake_follows_lowe_square_root_of_time(name):
     # Lowe HJ, Ernst EA 1981: uptake rate = f MAC lambda_bg Q t^-1/2 (mL/min; MAC in vol %, Q in dL/min,
     # f about 1.3), so cumulative uptake between 10 and 90 min is 2 f MAC lambda Q (sqrt 90 - sqrt 10).

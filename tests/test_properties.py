@@ -71,7 +71,7 @@ def test_every_shipped_value_has_a_known_source_and_code():
     # Read the shipped file directly, not through the loader under test.
     data = tomllib.loads(resources.files("estimator").joinpath("data/agents.toml").read_text(encoding="utf-8"))
     count = 0
-    for section in ("agents", "gases"):
+    for section in ("agents", "gases", "physiology"):
         for name, props in data[section].items():
             for prop, raw in props.items():
                 if prop in ("kind", "formula"):
@@ -80,7 +80,8 @@ def test_every_shipped_value_has_a_known_source_and_code():
                 assert data["sources"][raw["source"]].strip(), (name, prop)
                 assert raw["confidence"] in CONFIDENCE_CODES, (name, prop)
                 count += 1
-    assert count == sum(len(s.records) for s in (*AGENTS.values(), *GASES.values()))
+    physiology = sum(len(t) for t in data["physiology"].values())
+    assert count == sum(len(s.records) for s in (*AGENTS.values(), *GASES.values())) + physiology
     rows = source_table()
     assert len(rows) == count and all(r["source"] for r in rows)
 
