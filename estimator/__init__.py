@@ -31,6 +31,7 @@ _LAZY = {
     "load_scenario": ("estimator.scenario", "load_scenario"),
     "scenario_from_dict": ("estimator.scenario", "scenario_from_dict"),
     "flow_floor": ("estimator.safety", "flow_floor"),
+    "simulate_spread": ("estimator.spread", "simulate_spread"),
     "InputError": ("estimator.errors", "InputError"),
 }
 

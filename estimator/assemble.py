@@ -105,6 +105,9 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
         cols["agent_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.AGENT]
         cols["nitrous_oxide_uptake [mL/min]"] = 1000 * lpm * ws[:, c.W_UPT + c.N2O]
         cols["co2_to_absorbent [mL/min]"] = 1000 * lpm * ws[:, c.W_CO2ABS]
+        ml_per_mmol = ag.molar_mass.to("g/mol").magnitude / 1000 / ag.liquid_density.to("g/mL").magnitude
+        agent_in = ys[:, c.Y_FGIN + c.AGENT] + ys[:, c.Y_MAKEUP + c.AGENT]  # accumulators start at 0
+        cols["agent_liquid_cumulative [mL]"] = ml_per_mmol * agent_in
         df = cols
         frames.append(df)
         info: dict[str, Any] = {
@@ -252,7 +255,7 @@ def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
 def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray, totals: dict, warns: list) -> None:
     t = series["time [min]"].to_numpy()[judged]
     fio2 = fio2_all[judged]
-    deficit = series["volume_deficit_flow [L/min]"].to_numpy()
+    deficit = series["volume_deficit_flow [L/min]"].to_numpy()[judged]
     if totals["volume_deficit"].magnitude > 1e-9:
         first = t[np.argmax(deficit > 0)] if np.any(deficit > 0) else t[0]
         warns.append(

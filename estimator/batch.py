@@ -227,6 +227,7 @@ def run_batch(
     rtol: float = RTOL,
     chunk: int = CHUNK,
     progress: Callable[[float], None] | None = None,
+    adjust: Callable[[np.ndarray, slice], np.ndarray] | None = None,
 ) -> dict[str, np.ndarray]:
     """Totals of many cases of one template.
 
@@ -241,6 +242,11 @@ def run_batch(
         Cases integrated at a time.
     progress : callable, optional
         Called with the fraction done after each chunk.
+    adjust : callable, optional
+        ``adjust(p, rows)`` returns the parameter arrays (shape (m, phases, NP)) of the cases ``rows``
+        changed per patient (between-patient variation, :func:`estimator.spread.forecast_adjuster`).
+        It must keep the ratios of alveolar ventilation, O2 consumption and CO2 production, on which
+        the shared initial state depends (the spread factors scale all three together).
 
     Returns
     -------
@@ -259,6 +265,8 @@ def run_batch(
     for lo in range(0, n, chunk):
         sl = slice(lo, min(n, lo + chunk))
         p = parameters(template, wt[sl], ag[sl])
+        if adjust is not None:
+            p = adjust(p, sl)
         d = phase_durations(template, total[sl])
         y0 = _initial_states(template, p)
         m = len(y0)

@@ -24,6 +24,7 @@ True
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 from functools import lru_cache
 from typing import Any
@@ -283,7 +284,13 @@ def phase_times(start: float, duration: float, interval: float) -> np.ndarray:
     return t
 
 
-def simulate(scenario: Scenario, *, rtol: float = RTOL, patient: Patient | None = None) -> CaseResult:
+def simulate(
+    scenario: Scenario,
+    *,
+    rtol: float = RTOL,
+    patient: Patient | None = None,
+    adjust: Callable[[np.ndarray], np.ndarray] | None = None,
+) -> CaseResult:
     """Run one case through the circle-system model.
 
     Parameters
@@ -294,6 +301,9 @@ def simulate(scenario: Scenario, *, rtol: float = RTOL, patient: Patient | None 
         Relative tolerance of the integrator (default 1e-8).
     patient : Patient, optional
         Overrides the patient built from ``scenario.patient``.
+    adjust : callable, optional
+        Applied to the base parameter vector before integration and returning the vector to use:
+        the between-patient variation hook of :mod:`estimator.spread` (solubility, flows, volumes).
 
     Returns
     -------
@@ -304,6 +314,8 @@ def simulate(scenario: Scenario, *, rtol: float = RTOL, patient: Patient | None 
         patient = patient_from_scenario(scenario)
     site = site_state(scenario)
     base = base_parameters(scenario, patient, site)
+    if adjust is not None:  # between-patient variation (estimator.spread)
+        base = adjust(base)
     y = initial_state(scenario, base, site)
     atol = absolute_tolerance()
     interval = scenario.output.interval.to("min").magnitude

@@ -65,6 +65,7 @@ from .forecast_size import MAX_CASES, check_size
 from .limits import FEW_WEEKS, HYPOXIC_FRACTION
 from .properties import gas
 from .results import FIO2_ADVISORY, TARGET_BAND
+from .spread import forecast_adjuster
 from .units import GAS_VOLUME_REFERENCE, Q_
 
 STATISTICS = ("mean", "p50", "p95", "p99")
@@ -168,6 +169,7 @@ def forecast(
     seed: int | None = None,
     progress: Callable[[float], None] | None = None,
     max_cases: int = MAX_CASES,
+    patient_spread: bool = False,
 ) -> ForecastResult:
     """Monte-Carlo weekly demand of a case mix.
 
@@ -184,6 +186,10 @@ def forecast(
     max_cases : int
         Most expected cases to run (default :data:`estimator.forecast_size.MAX_CASES`, at most
         :data:`~estimator.forecast_size.CASE_CEILING`); a larger forecast is refused before it runs.
+    patient_spread : bool
+        Draw each case's physiology (cardiac output, metabolic rate, agent solubility, fat volume)
+        from the published between-patient variation of :mod:`estimator.spread`, after the case
+        draws and from the same generator (off by default: the pinned forecasts stay comparable).
 
     Returns
     -------
@@ -226,7 +232,12 @@ def forecast(
             if progress is not None and total_cases:
                 progress((done + frac * n) / total_cases)
 
-        tot = run_batch(ct.template, wt, age, dur, progress=report) if n else {k: np.zeros(0) for k in TOTAL_UNITS}
+        adjust = forecast_adjuster(ct.agent, n, rng) if patient_spread and n else None
+        tot = (
+            run_batch(ct.template, wt, age, dur, progress=report, adjust=adjust)
+            if n
+            else {k: np.zeros(0) for k in TOTAL_UNITS}
+        )
         done += n
         evaluations += int(tot["evaluations"].sum()) if n else 0
         add = {
@@ -295,6 +306,7 @@ def forecast(
         "cases": total_cases,
         "seconds": round(elapsed, 3),
         "evaluations_per_case": evaluations / total_cases if total_cases else 0.0,
+        "patient_spread": patient_spread,
     }
     return ForecastResult(
         mix.title, weeks, seed, mix.cover, items, weekly, units, orders, cost, cases, mix.co2e_basis, warns, solver

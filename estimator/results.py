@@ -60,6 +60,7 @@ SERIES_UNITS = {
     "agent_uptake": "mL/min",
     "nitrous_oxide_uptake": "mL/min",
     "co2_to_absorbent": "mL/min",
+    "agent_liquid_cumulative": "mL",
 }
 
 

@@ -14,22 +14,35 @@ def case(
     file: Path = typer.Argument(..., help="Scenario TOML file (see the README)."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
     csv: Path | None = typer.Option(None, "--csv", help="Write the time series to this CSV file."),
+    spread: int = typer.Option(
+        0, "--spread", help="Also simulate N patients drawn from published between-patient variation (0 = off)."
+    ),
+    seed: int | None = typer.Option(None, "--seed", help="Seed of the patient draws (--spread); reported in the JSON."),
 ) -> None:
     """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
     from ..engine import simulate
     from ..jsonout import dumps
     from ..scenario import load_scenario
 
-    result = simulate(load_scenario(file))
+    scenario = load_scenario(file)
+    result = simulate(scenario)
+    band = None
+    if spread:
+        from ..spread import simulate_spread
+
+        band = simulate_spread(scenario, spread, seed=seed)
     if csv is not None:
         result.series.to_csv(csv, index=False)
     if json_out:
-        typer.echo(dumps(result.to_json()))
+        out = result.to_json()
+        if band is not None:
+            out["spread"] = band.to_json()
+        typer.echo(dumps(out))
         return
-    typer.echo(summary(result))
+    typer.echo(summary(result, band))
 
 
-def summary(result) -> str:
+def summary(result, band=None) -> str:
     """Readable summary of a :class:`~estimator.results.CaseResult`."""
     t = result.totals
     sc = result.scenario
@@ -50,7 +63,13 @@ def summary(result) -> str:
         ("MAC-hours", t["mac_hours"].to("MAC_hour").magnitude, ""),
         ("CO2e (IPCC AR6 GWP100)", t["co2e"].to("kg").magnitude, "kg"),
     ]
-    lines += [f"  {name:<28}{value:10.2f} {unit}" for name, value, unit in rows]
+    keys = {"liquid agent": "agent_liquid", "oxygen": "oxygen", "nitrous oxide": "nitrous_oxide"}
+    keys["CO2e (IPCC AR6 GWP100)"] = "co2e"
+    lines += [
+        f"  {name:<28}{value:10.2f} {unit}"
+        + (f"   ({band.band_text(keys[name])})" if band is not None and name in keys else "")
+        for name, value, unit in rows
+    ]
     lines.append(f"  {'lowest inspired O2':<28}{100 * result.minimum_inspired_oxygen.magnitude:10.1f} %")
     if result.cost:
         cost = result.cost
@@ -64,6 +83,11 @@ def summary(result) -> str:
             when = f"reached at {reached.to('min').magnitude:.0f} min" if reached is not None else "not reached"
             lines.append(f"  phase {ph['index']}: end-tidal hold target {when}")
     lines.append("Gas litres: free gas at 15 degC and 101.325 kPa.")
+    if band is not None:
+        lines.append(
+            f"P5-P95: {band.n} patients drawn from published between-patient variation (seed {band.seed}); "
+            "see the README, 'Patient spread'."
+        )
     if result.warnings:
         lines.append("Warnings:")
         lines += [f"  [{code}] {msg}" for code, msg in result.warnings]

@@ -36,6 +36,9 @@ def forecast(
         help=f"Most expected cases to simulate (default {MAX_CASES:,}, at most {CASE_CEILING:,}); "
         "a larger forecast is refused before it runs.",
     ),
+    patient_spread: bool = typer.Option(
+        False, "--patient-spread", help="Draw each case's physiology from published between-patient variation."
+    ),
 ) -> None:
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
     from ..casemix import MAX_WEEKS, load_casemix
@@ -50,7 +53,7 @@ def forecast(
         size = check_size(mix, span, max_cases)
         if size.seconds >= ANNOUNCE_AFTER:
             typer.echo(size.text(span), err=True)
-    result = run(mix, weeks=weeks, seed=seed, max_cases=max_cases)
+    result = run(mix, weeks=weeks, seed=seed, max_cases=max_cases, patient_spread=patient_spread)
     typer.echo(dumps(result.to_json()) if json_out else summary(result))
 
 

@@ -12,7 +12,7 @@ from estimator.errors import InputError
 from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
 
-from .. import state
+from .. import spread_view, state
 from ..charts import show, time_course
 from ..common import downloads, flow_factor, show_error, show_warnings, unit
 
@@ -288,6 +288,9 @@ def outputs(result: Any, doc: dict[str, Any]) -> None:
     m[3].metric("Lowest inspired O2", f"{100 * result.minimum_inspired_oxygen.magnitude:.1f} %")
     m[4].metric("Absorbent used", f"{t['absorbent'].to('g').magnitude:.0f} g")
     st.caption(f"Gas volumes: {GAS_VOLUME_REFERENCE}. Flows: ambient litres at the site, as a flowmeter shows.")
+    band = spread_view.control()
+    if band is not None:
+        spread_view.show_totals(band)
 
     st.subheader("Warnings")
     show_warnings(result.warnings, empty="No model warnings for this case.")
@@ -296,33 +299,31 @@ def outputs(result: Any, doc: dict[str, Any]) -> None:
     s = result.series.copy()
     s["fresh_gas_flow [display]"] = s["fresh_gas_flow [L/min]"] * flow_factor()
     c1, c2 = st.columns(2)
-    show(
-        time_course(
-            s,
-            {"inspired_oxygen [%]": "inspired O2"},
-            "inspired O2 [%]",
-            rule=30.0,
-            rule_label="30 % usually kept at low flow",
-        ),
-        c1,
+    o2_spec = time_course(
+        s,
+        {"inspired_oxygen [%]": "inspired O2"},
+        "inspired O2 [%]",
+        rule=30.0,
+        rule_label="30 % usually kept at low flow",
     )
-    show(
-        time_course(
-            s,
-            {
-                "end_tidal_agent [%]": "end-tidal agent",
-                "inspired_agent [%]": "inspired agent",
-                "end_tidal_target [%]": "end-tidal hold target",
-            },
-            "agent [%]",
-        ),
-        c2,
+    show(spread_view.with_band(o2_spec, band, "inspired_oxygen"), c1)
+    agent_spec = time_course(
+        s,
+        {
+            "end_tidal_agent [%]": "end-tidal agent",
+            "inspired_agent [%]": "inspired agent",
+            "end_tidal_target [%]": "end-tidal hold target",
+        },
+        "agent [%]",
     )
+    show(spread_view.with_band(agent_spec, band, "end_tidal_agent"), c2)
     show(time_course(s, {"end_tidal_mac [MAC]": "end-tidal MAC"}, "end-tidal [MAC]"), c1)
     show(time_course(s, {"vaporizer_setting [%]": "vaporizer dial"}, "dial [%]", step=True), c2)
     show(
         time_course(s, {"fresh_gas_flow [display]": "fresh-gas flow"}, f"fresh-gas flow [{fu}]", height=170, step=True)
     )
+    if band is not None:
+        spread_view.cumulative_chart(s, band)
 
     st.subheader("Phases")
     phases = pd.DataFrame(
