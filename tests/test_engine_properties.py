@@ -133,8 +133,8 @@ def test_edge_cases_run_and_conserve(phases, tables):
 
 
 def test_argon_accumulates_with_concentrator_oxygen_at_low_flow():
-    # Argon from 93 % concentrator oxygen accumulates in a circle at low flow (REFERENCES sec. 9, from
-    # memory). Derivation: argon leaves only with the exhaust, about FGF - VO2 = 0.26 L/min against
+    # Argon from 93 % concentrator oxygen accumulates in a circle at low flow (a consequence of the
+    # argon balance; from memory, no source read). Derivation: argon leaves only with the exhaust, about FGF - VO2 = 0.26 L/min against
     # 0.5 L/min in, so at steady state the circuit holds about twice the fresh-gas share (4.15 % for
     # 93 % product with argon in its air ratio to O2); after 2 h it is past 1.5 times.
     r = run(
