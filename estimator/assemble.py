@@ -168,28 +168,34 @@ def _hold_report(index: int, times: np.ndarray, ws: np.ndarray, p: np.ndarray, w
     target = ws[:, c.W_TARGET]
     reached = np.nonzero(et >= (1 - TARGET_BAND) * target)[0]
     out: dict[str, Any] = {"target_reached": None}
+    no_carrier = p[c.P_CARRIER : c.P_CARRIER + c.NS].sum() <= 0.0
     if reached.size == 0:
+        why = (
+            "no fresh gas flows, so the vaporizer delivers nothing"
+            if no_carrier
+            else "the vaporizer maximum or the fresh-gas flow limits the wash-in"
+        )
         warns.append(
             (
                 "TARGET_NOT_REACHED",
                 f"phase {index}: the end-tidal target ({100 * target[-1]:.2f} %) was not reached by "
-                f"{times[-1]:.0f} min (end-tidal {100 * et[-1]:.2f} %); the vaporizer maximum or the "
-                "fresh-gas flow limits the wash-in",
+                f"{times[-1]:.0f} min (end-tidal {100 * et[-1]:.2f} %); {why}",
             )
         )
         return out
     i = reached[0]
     out["target_reached"] = Q_(float(times[i]), "min")
     after = slice(i, None)
-    at_max = ws[after, c.W_U] >= p[c.P_UMAX] * (1 - 1e-9)
+    at_max = (ws[after, c.W_U] >= p[c.P_UMAX] * (1 - 1e-9)) | no_carrier
     low = et[after] < (1 - TARGET_BAND) * target[after]
     if np.any(at_max & low):
         t_fail = times[after][np.argmax(at_max & low)]
+        why = "no fresh gas flows, so the vaporizer delivers nothing" if no_carrier else "the dial is at its maximum"
         warns.append(
             (
                 "TARGET_NOT_HELD",
-                f"phase {index}: from {t_fail:.0f} min the end-tidal target cannot be held with the dial at "
-                "its maximum; raise the fresh-gas flow",
+                f"phase {index}: from {t_fail:.0f} min the end-tidal target cannot be held: {why}; raise the "
+                "fresh-gas flow",
             )
         )
     elif np.any(at_max):

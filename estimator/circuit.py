@@ -69,6 +69,11 @@ NB = 4
 #: well- and poorly perfused fat, vessel-poor (unperfused), and the fat next to the vessel-rich
 #: organs and next to muscle, which takes up agent only by intertissue diffusion from that tissue.
 NT = 7
+#: Intertissue diffusion pairs (tissue indices): fat next to the vessel-rich organs (5) from the
+#: vessel-rich group (0), intermuscular fat (6) from muscle (1). ``P_DIFF`` of the receiving fat
+#: holds the clearance; ``P_DONOR`` records the donor for reports and checks.
+DIFFUSION_TO = (5, 6)
+DIFFUSION_FROM = (0, 1)
 
 # --- state layout --------------------------------------------------------------------------------
 Y_FC = 0  # circuit fractions [6]
@@ -295,23 +300,24 @@ def rhs(y, p, w, dy):
         pv = y[base + 1]
         fa = y[Y_FA + (N2, N2O, AGENT, AR)[b]]
         dy[base] = q * (fa - pa) / p[P_VART]
+        lam = P_LAMBDA_T + NT * b
         venous_in = 0.0
         for k in range(NT):
             pt = y[base + 2 + k]
             qt = p[P_QT + k]
             venous_in += qt * pt
             dy[base + 2 + k] = qt * (pa - pt)  # inflow [L blood x fraction / min], divided below
-            if b == 2 and k == 0:
-                venous_in -= p[P_EH] * p[P_QH] * pt
+        if b == 2:
+            venous_in -= p[P_EH] * p[P_QH] * y[base + 2]  # hepatic clearance from the vrg outflow
+        # intertissue diffusion from a lean tissue to the fat next to it (Perl et al. 1960)
+        for i in range(2):
+            k = DIFFUSION_TO[i]
+            j = DIFFUSION_FROM[i]
+            flux = p[P_DIFF + k] * p[lam + j] * (y[base + 2 + j] - y[base + 2 + k])
+            dy[base + 2 + k] += flux
+            dy[base + 2 + j] -= flux
         for k in range(NT):
-            j = int(p[P_DONOR + k])
-            if j >= 0:
-                # intertissue diffusion from lean tissue j to the fat next to it (Perl et al. 1960)
-                flux = p[P_DIFF + k] * p[P_LAMBDA_T + NT * b + j] * (y[base + 2 + j] - y[base + 2 + k])
-                dy[base + 2 + k] += flux
-                dy[base + 2 + j] -= flux
-        for k in range(NT):
-            cap = p[P_VT + k] * p[P_LAMBDA_T + NT * b + k]
+            cap = p[P_VT + k] * p[lam + k]
             dy[base + 2 + k] = dy[base + 2 + k] / cap if cap > 0.0 else 0.0
         dy[base + 1] = (venous_in - q * pv) / p[P_VVEN]
     dy[Y_CO2ABS] = w[W_CO2ABS]

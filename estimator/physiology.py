@@ -9,11 +9,11 @@ References
 .. [2] Lowe HJ, Ernst EA. The Quantitative Practice of Anesthesia: Use of Closed Circuit.
    Williams & Wilkins, Baltimore 1981 (VO2 = 10 kg^0.75, VCO2 = 8 kg^0.75 mL/min, Q = 2 kg^0.75 dL/min).
 .. [3] Eger EI II. Anesthetic Uptake and Action. Williams & Wilkins 1974 (tissue groups of a 70 kg adult).
+.. [4] West JB. Respiratory Physiology: The Essentials (alveolar ventilation equation,
+   VA = 0.863 VCO2 / PaCO2 with VA in L/min BTPS, VCO2 in mL/min STPD, PaCO2 in mmHg).
 .. [5] Levitt DG. Heterogeneity of human adipose blood flow. BMC Clin Pharmacol 2007;7:1.
 .. [6] Eger EI II, Saidman LJ. Illustrations of inhaled anesthetic uptake, including intertissue
    diffusion to and from fat. Anesth Analg 2005;100:1020-33.
-.. [4] West JB. Respiratory Physiology: The Essentials (alveolar ventilation equation,
-   VA = 0.863 VCO2 / PaCO2 with VA in L/min BTPS, VCO2 in mL/min STPD, PaCO2 in mmHg).
 
 Examples
 --------
@@ -47,7 +47,7 @@ ALVEOLAR_CONSTANT = 0.863
 SANE_WEIGHT = (0.5, 300.0)
 
 #: Tissue groups of the 70 kg reference adult: volume [L] and share of cardiac output
-#: (Eger 1974, as tabulated in REFERENCES; from memory). Vessel-poor group: no perfusion.
+#: (Eger EI II, Anesthetic Uptake and Action, 1974; from memory). Vessel-poor group: no perfusion.
 REFERENCE_MASS = 70.0
 TISSUE_VOLUME_70KG = {"vrg": 6.0, "muscle": 33.0, "fat": 14.5, "vpg": 12.5}
 TISSUE_FLOW_SHARE = {"vrg": 0.75, "muscle": 0.19, "fat": 0.06, "vpg": 0.0}
@@ -67,7 +67,7 @@ DIFFUSION_DONOR = {"fat_vrg": "vrg", "fat_muscle": "muscle"}
 #: Blood volume 70 mL/kg split 30 % arterial / 70 % venous (common practice, no source).
 BLOOD_VOLUME_PER_KG = 0.070
 ARTERIAL_SHARE = 0.30
-#: FRC supine under general anaesthesia, about 30-35 mL/kg (from memory; REFERENCES sec. 1).
+#: FRC supine under general anaesthesia, about 30-35 mL/kg (from memory, no source read).
 FRC_PER_KG = 0.030
 #: Anatomical dead space about 2.2 mL/kg (Radford 1955, from memory) and alveolar dead space as a
 #: share of the alveolar part of each breath under anaesthesia, about 10 % (from memory).
@@ -174,7 +174,7 @@ def fat_split(fat_volume: float, fat_flow: float, weight_kg: float) -> dict[str,
     group) is unperfused and fed by intertissue diffusion from that lean tissue (Eger and Saidman
     2005); its clearance is the sourced rate per litre of adjacent fat, scaled with mass^0.75 like a
     flow. The rest of the fat is perfused in two compartments with Levitt's (2007) blood flows per
-    kg; their split is chosen so that at the 70 kg reference they carry Eger's fat-group flow. The
+    kg (a litre of fat taken as a kilogram); their split is chosen so that at the 70 kg reference they carry Eger's fat-group flow. The
     shares are fixed at the reference, so volumes stay proportional to the fat volume and flows to
     the fat flow (mass and mass^0.75 for the Brody patient).
 

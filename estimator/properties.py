@@ -209,7 +209,12 @@ def physiology_value(name: str, table: str = "late_uptake") -> Any:
     >>> physiology_value("adipose_flow_high").to("L/min/kg").magnitude
     0.074
     """
-    return validate_records({"sources": _raw()["sources"], "physiology": _raw()["physiology"]})[table][name].value
+    return _physiology()[table][name].value
+
+
+@cache
+def _physiology() -> dict[str, dict[str, Sourced]]:
+    return validate_records({"sources": _raw()["sources"], "physiology": _raw()["physiology"]})
 
 
 def agent(name: str, field_name: str = "agent.name") -> Species:

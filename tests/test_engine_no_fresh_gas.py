@@ -58,9 +58,16 @@ def test_mass_balance_holds_without_fresh_gas(no_flow):
 
 
 def test_end_tidal_hold_without_fresh_gas_cannot_deliver():
-    r = run("sevoflurane", [WASH, {**NO_FLOW, "vaporizer": None, "end_tidal_target": "1 MAC"}])
+    # the wash-in at 2 % reaches about 1.3 % end-tidal: a 0.6 MAC target is reached, then lost
+    r = run("sevoflurane", [WASH, {**NO_FLOW, "vaporizer": None, "end_tidal_target": "0.6 MAC"}])
     s = r.series
     assert (s[(s["phase"] == 1) & (s["time [min]"] > 10.0)]["delivered_agent [%]"] == 0.0).all()
+    held = [m for code, m in r.warnings if code == "TARGET_NOT_HELD"]
+    assert held and "no fresh gas flows" in held[0]
+    # a target above what the wash-in reached: never reached, and the reason is the missing carrier
+    r = run("sevoflurane", [WASH, {**NO_FLOW, "vaporizer": None, "end_tidal_target": "1.5 MAC"}])
+    missed = [m for code, m in r.warnings if code == "TARGET_NOT_REACHED"]
+    assert missed and "no fresh gas flows" in missed[0]
 
 
 def test_batch_engine_agrees_without_fresh_gas():

@@ -49,7 +49,7 @@ def test_brody_power_laws(kg):
 
 @pytest.mark.validation
 def test_brody_70kg_against_quoted_values():
-    # Lowe and Ernst 1981 quote about 250 mL/min O2 for a 70 kg adult (as quoted in a secondary source, S); the
+    # Lowe and Ernst 1981 quote about 250 mL/min O2 for a 70 kg adult (secondary, from memory); the
     # quoted figure is rounded, so 5 %.
     p = patient_parameters("70 kg")
     vo2 = p.oxygen_consumption.to("mL/min").magnitude
