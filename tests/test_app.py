@@ -62,7 +62,7 @@ def test_app_opens_on_the_demo_case_with_the_caution():
     assert_clean(at)
     assert at.title[0].value == "Case planner"
     assert at.warning[0].value == CAUTION
-    assert "Harbourside" in at.text_input[0].value
+    assert "Kestrel" in at.text_input[0].value  # demo_cases/kestrel_lap_chole.toml
     assert number(metric(at, "Liquid agent")) > 0
 
 
@@ -115,7 +115,7 @@ def test_display_units_follow_their_definitions(planner):
     assert_clean(at)
     # L/min is shown to 0.01 L/min, so the mL/min figure agrees within half that step, 5 mL/min.
     assert number(metric(at, "Mean fresh-gas flow")) == pytest.approx(1000 * lpm, abs=5.0)
-    assert at.number_input(key="case.weight.0.lb").value == pytest.approx(82 / KG_PER_LB, rel=1e-9)
+    assert at.number_input(key="case.weight.0.lb").value == pytest.approx(78 / KG_PER_LB, rel=1e-9)
     assert metric(at, "Mean fresh-gas flow").endswith("mL/min")
 
 
@@ -198,29 +198,102 @@ def test_flow_floor_page_less_time_to_wash_out_raises_the_emergence_floor():
     assert at.dataframe[0].value.iloc[-1]["flow floor [L/min]"] > emergence["flow floor [L/min]"]
 
 
+def edit_table(at: AppTest, key: str, edits: dict) -> AppTest:
+    """Send a data editor the edit a browser sends (AppTest has no data-editor API): the editor's
+    JSON state of edited, added and deleted rows, with the other widgets as they stand."""
+    el = next(e for e in at.dataframe if e.key == key)
+    states = at._tree.get_widget_states()
+    w = states.widgets.add()
+    w.id = el.proto.id
+    w.string_value = json.dumps({"edited_rows": {}, "added_rows": [], "deleted_rows": [], **edits})
+    return at._run(states, timeout=TIMEOUT)
+
+
 def test_supply_page_more_cases_fewer_days():
     at = page("supply_duration")
     assert_clean(at)
     days = number(metric(at, "Days of supply"))
     assert metric(at, "Bottleneck") != "none"
     # Twice the cases a day draw the stocks down faster: fewer days (common practice, no source).
-    at.number_input(key="supply.per_day.0").set_value(10).run()
+    at = edit_table(at, "supply.cases.0", {"edited_rows": {"0": {"cases a day": 8}}})
     assert_clean(at)
     assert number(metric(at, "Days of supply")) < days
 
 
-def test_supply_inventory_upload_and_a_misspelt_key():
+def test_supply_inventory_upload_with_its_scenario_and_a_misspelt_key():
     at = page("supply_duration")
-    inv = demo.inventory()
+    inv, named = demo.document("highland_clinic_inventory.toml")
     inv["bottles"][0]["count"] = 40  # plenty of agent: the bottleneck must be another item
-    at.get("file_uploader")[0].set_value(("inv.toml", tomli_w.dumps(inv).encode(), "application/toml"))
+    scenario = [(n, t.encode(), "application/toml") for n, t in named.items()]
+    at.get("file_uploader")[0].set_value([("inv.toml", tomli_w.dumps(inv).encode(), "application/toml"), *scenario])
     at.run()
     assert_clean(at)
-    assert "sevoflurane" not in metric(at, "Bottleneck").lower()
+    assert "isoflurane" not in metric(at, "Bottleneck").lower()
+    # The same refusal as the command line's loader, with the field named; the loaded inventory stays.
     inv["cylinders"][0]["water_capacty"] = "50 L"
-    at.get("file_uploader")[0].set_value(("bad.toml", tomli_w.dumps(inv).encode(), "application/toml"))
+    at.get("file_uploader")[0].set_value([("bad.toml", tomli_w.dumps(inv).encode(), "application/toml"), *scenario])
     at.run()
     assert any("water_capacty" in e.value for e in at.error)
+    assert "isoflurane" not in metric(at, "Bottleneck").lower()
+    # An inventory whose case plan names a file not given with it is refused, naming the file.
+    at.get("file_uploader")[0].set_value([("alone.toml", tomli_w.dumps(demo.inventory()).encode(), "text/plain")])
+    at.run()
+    assert any("highland_mobile_team.toml" in e.value for e in at.error)
+
+
+def test_supply_empty_concentrator_table_takes_a_typed_rated_flow():
+    # Issue 14 item 11: a row added to an empty "Oxygen concentrators" table, with a rated flow typed
+    # in, gave a traceback. An empty table's columns are number columns too; the value the browser
+    # sends as text is read as a number, and no traceback reaches the page.
+    at = AppTest.from_string(
+        "from estimator_app.shell import page_main\npage_main('supply_duration')", default_timeout=TIMEOUT
+    )
+    inv, named = demo.document("highland_clinic_inventory.toml")
+    del inv["concentrators"]
+    at.session_state["supply.doc"], at.session_state["supply.doc.files"] = inv, named
+    at.session_state["supply.version"] = 0
+    at.run()
+    assert_clean(at)
+    without = number(metric(at, "Days of supply"))
+    for typed in ("10", 10):
+        at = edit_table(at, "supply.conc.0", {"added_rows": [{"rated flow [L/min]": typed}]})
+        assert_clean(at)
+        # A 10 L/min concentrator (24 h a day by default) relieves the O2 cylinders: more days.
+        assert number(metric(at, "Days of supply")) > without
+
+
+@pytest.mark.parametrize("name", ["case_planner", "supply_duration", "demand_forecast", "flow_floor"])
+def test_every_numeric_editor_column_is_a_number_column(name):
+    # Issue 14 item 11: a column holding numbers (or a unit in its label) is a number column with a
+    # lower bound, whether its table starts empty or not, so the browser never sends text for it.
+    at = page(name)
+    assert_clean(at)
+    editors = [e for e in at.dataframe if e.key]
+    for editor in editors:
+        config = json.loads(editor.proto.columns)
+        for title, frame_dtype in editor.value.dtypes.items():
+            numeric = str(frame_dtype).startswith(("float", "int")) and title != "_row"
+            if numeric or "[" in title:
+                assert config[title]["type_config"]["type"] == "number", (editor.key, title)
+                assert "min_value" in config[title]["type_config"], (editor.key, title)
+
+
+def test_a_fault_in_a_page_is_one_line_never_a_traceback():
+    # Any exception that is not an InputError is caught by the page shell and shown as one short
+    # line; config.toml keeps error details off as a second guard.
+    at = AppTest.from_string(
+        "from estimator_app.shell import guarded\n"
+        "from estimator.errors import InputError\n"
+        "guarded(lambda: 1 / 0)\n"
+        "guarded(lambda: (_ for _ in ()).throw(InputError('cylinders[0].pressure', '-3 bar', '0 to 300 bar')))\n",
+        default_timeout=TIMEOUT,
+    ).run()
+    assert not at.exception
+    assert len(at.error) == 2
+    assert "ZeroDivisionError" in at.error[0].value and "Traceback" not in at.error[0].value
+    assert "cylinders[0].pressure" in at.error[1].value and "0 to 300 bar" in at.error[1].value
+    config = tomllib.loads((ROOT / ".streamlit" / "config.toml").read_text(encoding="utf-8"))
+    assert config["client"]["showErrorDetails"] is False
 
 
 def test_audit_page_reports_rejections_kpis_and_counterfactual():

@@ -1,0 +1,139 @@
+"""The app's door to the file contracts: the same loaders the command line uses, fed text, never paths.
+
+A page holds the parsed document (a plain dict in the TOML contract) and the text of every file that
+document names (scenario files of an inventory or a case mix, a case-types CSV). Before it runs, it
+hands the document to the loader of its contract here: the loader the ``lowflow`` verb calls, so an
+unknown key, a value out of range or a missing file gives the same InputError as on the command line.
+
+Files named inside a document are looked up only among the files the user gave alongside it (or the
+demo folder's files for a demo), by name; a name is never opened as a path on the server.
+"""
+
+from __future__ import annotations
+
+import tempfile
+import tomllib
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+import tomli_w
+
+from estimator.errors import InputError
+
+#: The demo inputs the app opens on: the repository's demo_cases/ folder (invented sites and cases).
+DEMO_DIR = Path(__file__).resolve().parents[1] / "demo_cases"
+
+#: A case plan or case type naming one of these runs the case on the case planner page.
+PLANNER_NAMES = ("case planner", "case_planner.toml")
+
+
+def toml_text(doc: dict[str, Any]) -> str:
+    """TOML text of a document (``None`` values dropped: TOML has no null)."""
+    return tomli_w.dumps(_clean(doc))
+
+
+def _clean(value: Any) -> Any:
+    if isinstance(value, dict):
+        return {k: _clean(v) for k, v in value.items() if v is not None}
+    if isinstance(value, list):
+        return [_clean(v) for v in value]
+    return value
+
+
+def parse_toml(text: str, field: str) -> dict[str, Any]:
+    """A TOML document from text; InputError naming ``field`` if it is not TOML."""
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(field, "(file)", f"valid TOML ({exc})") from None
+    except RecursionError:
+        raise InputError(field, "(file)", "TOML nested at most a few levels deep") from None
+
+
+def referenced(kind: str, doc: dict[str, Any]) -> list[str]:
+    """Names of the files a document refers to (scenario files, a case-types CSV)."""
+    if kind == "inventory":
+        rows = doc.get("demand", {}).get("cases", []) if isinstance(doc.get("demand"), dict) else []
+        names = [r.get("scenario") for r in rows if isinstance(r, dict)]
+    elif kind == "casemix":
+        names = [r.get("scenario") for r in doc.get("case_types", []) if isinstance(r, dict)]
+        names.append(doc.get("case_types_file"))
+    else:
+        names = []
+    return [str(n) for n in names if isinstance(n, str) and n]
+
+
+def demo_files(kind: str) -> dict[str, str]:
+    """Text of the demo folder's files that a demo of ``kind`` may name, by file name."""
+    return {p.name: p.read_text(encoding="utf-8") for p in sorted(DEMO_DIR.glob("*.toml")) if kind != "scenario"}
+
+
+@contextmanager
+def folder(files: dict[str, str], planner_text: str | None = None) -> Iterator[Path]:
+    """A private temporary folder holding ``files`` (name -> text) and the planner's case under its names.
+
+    The loaders resolve a file named in a document against this folder, as the command line resolves
+    it against the document's own folder; nothing else on the server is reachable through it.
+    """
+    with tempfile.TemporaryDirectory(prefix="lowflow-app-") as tmp:
+        base = Path(tmp)
+        if planner_text is not None:
+            for name in PLANNER_NAMES:
+                (base / name).write_text(planner_text, encoding="utf-8")
+        for name, text in files.items():
+            safe = Path(name).name
+            if safe and safe == name:
+                (base / safe).write_text(text, encoding="utf-8")
+        yield base
+
+
+def load_scenario_text(text: str) -> Any:
+    """The scenario of TOML text, through the command line's loader."""
+    from estimator import scenario as contract
+
+    loader = getattr(contract, "scenario_from_text", None)
+    return loader(text) if loader is not None else contract.load_scenario(text)
+
+
+def load_inventory_text(text: str, base_dir: Path | None = None) -> Any:
+    """The inventory of TOML text, through the command line's loader (unknown keys refused)."""
+    from estimator import supply_file as contract
+
+    loader = getattr(contract, "inventory_from_text", None)
+    if loader is not None:
+        return loader(text, base_dir=base_dir)
+    inv = contract.load_inventory(text)
+    return inv if base_dir is None else inv.model_copy(update={"base_dir": str(base_dir)})
+
+
+def load_casemix_text(text: str, base_dir: Path) -> Any:
+    """The case mix of TOML text, through the command line's loader; named files resolve in ``base_dir``."""
+    from estimator import casemix as contract
+
+    loader = getattr(contract, "casemix_from_text", None)
+    if loader is not None:
+        return loader(text, base_dir=base_dir)
+    return contract.casemix_from_dict(parse_toml(text, "casemix"), base_dir)
+
+
+def check(kind: str, doc: dict[str, Any], files: dict[str, str], planner_text: str) -> None:
+    """Run the command line's loader of ``kind`` on a document: InputError exactly where the CLI gives one."""
+    text = toml_text(doc)
+    if kind == "scenario":
+        load_scenario_text(text)
+    elif kind == "inventory":
+        load_inventory_text(text)
+        missing = [n for n in referenced(kind, doc) if n not in files and n not in PLANNER_NAMES]
+        if missing:
+            raise InputError(
+                "demand.cases.scenario",
+                missing[0],
+                "a scenario file given alongside the inventory (or 'case planner' for the planner's case)",
+            )
+    elif kind == "casemix":
+        with folder(files, planner_text) as base:
+            load_casemix_text(text, base)
+    else:  # pragma: no cover - a programming error
+        raise ValueError(kind)
