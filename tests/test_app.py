@@ -7,7 +7,6 @@ in direction (more flow, more agent), the ISO standard atmosphere, and the packa
 
 from __future__ import annotations
 
-import copy
 import io
 import json
 import sys
