@@ -21,24 +21,34 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import tomllib
 from pathlib import Path
 
 import typer
 
-from ..errors import InputError, read_text_file
+from ..errors import InputError
 from ..jsonout import dumps
 from . import CAUTION, app
+from .outputs import output_paths, write_output
 
 
 def _policy(path: Path):
-    from ..audit_policy import parse_policy
+    from ..audit_policy import load_policy
 
     try:
-        data = tomllib.loads(read_text_file(path, "--policy", "an existing TOML policy file"))
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError("--policy", str(path), f"a TOML policy file ({exc})") from None
-    return parse_policy(data)
+        return load_policy(path)
+    except InputError as exc:  # name the option the user typed
+        field = "--policy" if exc.field.split(" ")[0] == "policy" and "." not in exc.field else exc.field
+        raise InputError(field, exc.value, exc.expected) from None
+
+
+def _prices(path: str):
+    from ..costs import load_prices
+
+    try:
+        return load_prices(path)
+    except InputError as exc:  # name the option the user typed
+        field = "--prices" if exc.field.split(" ")[0] == "prices" and "." not in exc.field else exc.field
+        raise InputError(field, exc.value, exc.expected) from None
 
 
 def _fmt(v: float, unit: str = "") -> str:
@@ -69,11 +79,14 @@ def audit_command(
     """Fresh-gas audit: agent, gases, CO2e and cost per case, room and month, with KPIs."""
     from .. import exports
     from ..audit import audit
-    from ..costs import DEMO_PRICES, load_prices
+    from ..costs import DEMO_PRICES
 
     if prices is not None and demo_prices:
         raise InputError("--demo-prices", True, "either --prices FILE or --demo-prices, not both")
-    price_table = load_prices(Path(prices)) if prices is not None else (DEMO_PRICES if demo_prices else None)
+    outputs = output_paths(
+        {"--report": report, "--xlsx": xlsx, "--csv": csv_out}, {"LOG": log, "--policy": policy, "--prices": prices}
+    )
+    price_table = _prices(prices) if prices is not None else (DEMO_PRICES if demo_prices else None)
     if not Path(log).is_file():
         raise InputError("LOG", log, "an existing CSV file")
     result = audit(
@@ -90,9 +103,13 @@ def audit_command(
         cf = counterfactual(result, _policy(Path(policy)), prices=price_table, manifold_loss=manifold_loss)
         result = dataclasses.replace(result, counterfactual=cf)
     written = []
-    for path, writer in ((report, exports.write_html), (xlsx, exports.write_xlsx), (csv_out, exports.write_csv)):
-        if path is not None:
-            written.append(str(writer(result, Path(path))))
+    for flag, writer in (
+        ("--report", exports.write_html),
+        ("--xlsx", exports.write_xlsx),
+        ("--csv", exports.write_csv),
+    ):
+        if flag in outputs:
+            written.append(str(write_output(flag, outputs[flag], lambda p, w=writer: w(result, p))))
     if json_out:
         typer.echo(dumps(result.to_json()))
         return
