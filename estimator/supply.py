@@ -249,7 +249,10 @@ def _demand_week(
         whole_number(plan.per_day, f"{f}.per_day", 0, 100)
         whole_number(plan.rooms, f"{f}.rooms", 1, 50)
         days = work if plan.days_per_week is None else whole_number(plan.days_per_week, f"{f}.days_per_week", 0, 7)
-        path = named_file(plan.scenario, inv.base_dir, f"{f}.scenario", (".toml",))
+        if runner is _default_runner:  # the file is read: a .toml file beside the inventory
+            path = named_file(plan.scenario, inv.base_dir, f"{f}.scenario", (".toml",))
+        else:  # a stand-in runner gets the name as a label, nothing is read here
+            path = Path(inv.base_dir) / plan.scenario
         try:
             result = runner(str(path))
         except InputError as exc:  # an error inside the named scenario: say where it was named

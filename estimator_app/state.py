@@ -63,9 +63,9 @@ def _clean(value: Any) -> Any:
 def run_case(text: str) -> Any:
     """Engine result of a scenario's TOML text (cached on the text)."""
     from estimator.engine import simulate
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
-    return simulate(load_scenario(text))
+    return simulate(scenario_from_text(text))
 
 
 def current_result() -> Any:
@@ -111,12 +111,12 @@ def scenario_sidebar() -> None:
 
 def load(text: str) -> None:
     """Validate TOML text as a scenario and make it current (InputError if it is not one)."""
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
-    load_scenario(text)
+    scenario_from_text(text)
     try:
         doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:  # pragma: no cover - load_scenario has refused it already
+    except tomllib.TOMLDecodeError as exc:  # pragma: no cover - scenario_from_text has refused it already
         raise InputError("scenario file", "(file)", f"valid TOML ({exc})") from None
     set_document(doc, reset_widgets=True)
 

@@ -163,10 +163,10 @@ def test_exports_are_safe_and_readable():
 
 
 def test_saved_scenario_is_toml_the_engine_accepts(planner):
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
     doc = planner.session_state["scenario"]
-    scen = load_scenario(tomli_w.dumps(doc))
+    scen = scenario_from_text(tomli_w.dumps(doc))
     assert scen.patient.weight.to("kg").magnitude > 0
     assert tomllib.loads(tomli_w.dumps(doc))["agent"]["name"] == "sevoflurane"
 
@@ -323,13 +323,13 @@ def test_demand_forecast_mean_cases_follow_poisson_and_more_cases_raise_demand()
 def test_demo_documents_are_valid_inputs():
     from estimator.casemix import casemix_from_dict
     from estimator.scenario import scenario_from_dict
-    from estimator.supply import load_inventory
+    from estimator.supply import inventory_from_text
 
     scenario_from_dict(copy.deepcopy(demo.DEMO_SCENARIO))
     inline = demo.casemix()
     inline["case_types"] = [c for c in inline["case_types"] if "scenario" not in c]
     casemix_from_dict(inline)
-    load_inventory(tomli_w.dumps(demo.inventory()))
+    inventory_from_text(tomli_w.dumps(demo.inventory()))
     header = demo.audit_log_csv().splitlines()[0]
     assert header.startswith("case_id,time,oxygen_flow")
     assert json.dumps(demo.scenario())

@@ -31,14 +31,19 @@ from . import CAUTION, app
 from .outputs import output_paths, write_output
 
 
-def _policy(path: Path):
+def _as_option(exc: InputError, name: str, flag: str) -> InputError:
+    """An error about the whole file ``name`` names the option that gave it; a field keeps its path."""
+    whole = exc.field == name or exc.field.startswith(name + " ")
+    return InputError(flag, exc.value, exc.expected) if whole else exc
+
+
+def _policy(path: str):
     from ..audit_policy import load_policy
 
     try:
         return load_policy(path)
-    except InputError as exc:  # name the option the user typed
-        field = "--policy" if exc.field.split(" ")[0] == "policy" and "." not in exc.field else exc.field
-        raise InputError(field, exc.value, exc.expected) from None
+    except InputError as exc:
+        raise _as_option(exc, "policy", "--policy") from None
 
 
 def _prices(path: str):
@@ -46,9 +51,8 @@ def _prices(path: str):
 
     try:
         return load_prices(path)
-    except InputError as exc:  # name the option the user typed
-        field = "--prices" if exc.field.split(" ")[0] == "prices" and "." not in exc.field else exc.field
-        raise InputError(field, exc.value, exc.expected) from None
+    except InputError as exc:
+        raise _as_option(exc, "prices", "--prices") from None
 
 
 def _fmt(v: float, unit: str = "") -> str:
@@ -100,7 +104,7 @@ def audit_command(
     if policy is not None:
         from ..audit_policy import counterfactual
 
-        cf = counterfactual(result, _policy(Path(policy)), prices=price_table, manifold_loss=manifold_loss)
+        cf = counterfactual(result, _policy(policy), prices=price_table, manifold_loss=manifold_loss)
         result = dataclasses.replace(result, counterfactual=cf)
     written = []
     for flag, writer in (

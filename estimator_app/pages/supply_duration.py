@@ -164,16 +164,16 @@ def build(
 @st.cache_data(max_entries=32, show_spinner="Laying out the week and the stocks...")
 def run_supply(inventory_text: str, scenario_text: str) -> Any:
     """Supply report of an inventory; every case plan runs the planner's scenario."""
-    from estimator.supply import load_inventory, plan_supply
+    from estimator.supply import inventory_from_text, plan_supply
 
     def runner(path: str) -> Any:
         return state.run_case(scenario_text)
 
-    return plan_supply(load_inventory(inventory_text), runner=runner)
+    return plan_supply(inventory_from_text(inventory_text), runner=runner)
 
 
 def _upload() -> None:
-    from estimator.supply import load_inventory
+    from estimator.supply import inventory_from_text
 
     state.upload_toml(
         "Load an inventory (TOML)",
@@ -182,7 +182,7 @@ def _upload() -> None:
         "on the case planner page.",
         DOC,
         VERSION,
-        load_inventory,
+        inventory_from_text,
     )
 
 
