@@ -386,3 +386,12 @@ def test_inventory_unknown_key_uses_the_same_wording():
 
     err = error_of(inventory_from_text, "[[bottles]]\nagent = 'sevoflurane'\ncont = 3\n")
     assert err.field == "bottles[0].cont" and err.expected.startswith("no such key here")
+
+
+def test_safe_flow_threshold_follows_the_bare_number_rule(tmp_path, capsys):
+    f = tmp_path / "case.toml"
+    f.write_text(SCENARIO)
+    code, _, err = run(capsys, "safe-flow", str(f), "--threshold", "30")
+    assert code == 2 and "--threshold" in err and "30 %" in err
+    code, _, err = run(capsys, "safe-flow", str(f), "--threshold", "10 %")
+    assert code == 2 and "--threshold" in err and "21 to 100 %" in err
