@@ -168,7 +168,7 @@ def _loc(loc: tuple[Any, ...]) -> str:
 
 
 def _join(a: str, b: str) -> str:
-    return f"{a}.{b}" if a and b else (a or b)
+    return (a + b if b.startswith("[") else f"{a}.{b}") if a and b else (a or b)
 
 
 def _dig(value: Any, path: str) -> Any:

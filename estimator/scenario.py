@@ -41,6 +41,8 @@ from .contracts import as_path, check_scenario_suffix, input_error_from_validati
 from .errors import InputError
 from .fields import quantity as _quantity
 from .properties import AGENTS, gas
+from .site import ELEVATION_RANGE, PRESSURE_RANGE
+from .site import TEMPERATURE_RANGE as SITE_TEMPERATURE
 from .units import Q_, parse_quantity
 
 __all__ = [
@@ -58,6 +60,9 @@ Flow = _quantity("flow", 0.0, 15.0, "L/min", description="flowmeter flow")
 #: One case lasts at most a day (the engine's horizon; common practice, no source).
 Duration = _quantity("time", 0.0, 24 * 60.0, "min", description="phase duration")
 Fraction = _quantity("fraction", 0.0, 1.0, "dimensionless")
+#: Site elevation and measured ambient pressure: the ISO 2533 troposphere (estimator.site).
+Elevation = _quantity("length", *ELEVATION_RANGE, "m", description="site elevation above sea level")
+AmbientPressure = _quantity("pressure", *PRESSURE_RANGE, "kPa", description="measured absolute ambient pressure")
 
 
 class _Model(BaseModel):
@@ -115,9 +120,10 @@ class CircuitInput(_Model):
 class SiteInput(_Model):
     """``[site]``: elevation or ambient pressure, temperature, oxygen source."""
 
-    elevation: _quantity("length", -500.0, 11000.0, "m") | None = None
-    ambient_pressure: _quantity("pressure", 22.6, 108.5, "kPa") | None = None
-    temperature: _quantity("temperature", -20.0, 50.0, "degC") = Q_(20.0, "degC")
+    elevation: Elevation | None = None
+    ambient_pressure: AmbientPressure | None = None
+    # Room temperatures the site model accepts (estimator.site.TEMPERATURE_RANGE).
+    temperature: _quantity("temperature", *SITE_TEMPERATURE, "degC") = Q_(20.0, "degC")
     oxygen_source: Literal["cylinder", "pipeline", "concentrator"] = "cylinder"
     oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless") | None = None
     argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless") | None = None

@@ -43,6 +43,7 @@ from .cylinders import MAX_PRESSURE_BAR, TEMPERATURE_RANGE, compressed_cylinder,
 from .errors import InputError
 from .fields import QuantitySpec, quantity
 from .properties import AGENTS
+from .site import ELEVATION_RANGE, PRESSURE_RANGE
 from .units import Q_, check_range, parse_quantity
 
 GASES = ("oxygen", "air", "nitrous_oxide")
@@ -80,6 +81,28 @@ def _clock_check(value: Any) -> Any:
 _HOURS = QuantitySpec("time", 0.0, 24.0, "h", bare_unit="h", keep_text=True)
 #: A time of day: "08:30" (00:00 to 23:59) or hours after midnight, "8.5 h".
 Clock = Annotated[Value, BeforeValidator(_clock_check)]
+#: Concentrator product: an O2 fraction, or [flow, fraction] points of its curve (flows as for
+#: rated_flow); the curve's shape and the argon bound are checked with the rated flow (_purity_curve).
+_PURITY = QuantitySpec("fraction", 0.0, 1.0, "dimensionless", keep_text=True)
+_CURVE_FLOW = QuantitySpec("flow", 0.0, 100.0, "L/min", bare_unit="L/min", keep_text=True)
+
+
+def _purity_check(value: Any) -> Any:
+    if not isinstance(value, list):
+        return _PURITY.validate(value)
+    if len(value) < 2 or any(not isinstance(p, list) or len(p) != 2 for p in value):
+        raise ValueError(
+            "a list of [flow, purity] pairs, at least two, e.g. [['0 L/min', '95 %'], ['5 L/min', '90 %']]"
+        )
+    for i, (flow, fraction) in enumerate(value):
+        for j, (spec, item) in enumerate(((_CURVE_FLOW, flow), (_PURITY, fraction))):
+            try:
+                spec.parse(item)
+            except InputError as exc:
+                raise ValueError(f"[{i}][{j}]: {exc.expected}") from None
+    return value
+
+
 #: Hours of a day, 0 to 24 h.
 Hours = quantity("time", 0.0, 24.0, "h", bare_unit="h", keep_text=True, description="hours a day")
 #: Days of lead time or safety stock, 0 to 10 years (practical limit, no source).
@@ -133,7 +156,7 @@ class ConcentratorEntry(_Strict):
     hours_per_day: Hours = "24 h"
     start: Clock = "0 h"
     count: _whole(0, 100) = 1
-    purity: Value | list[list[Value]] | None = None
+    purity: Annotated[Value | list[list[Value]], BeforeValidator(_purity_check)] | None = None
 
 
 class PipelineEntry(_Strict):
@@ -192,8 +215,9 @@ class SupplyOptions(_Strict):
 
 
 class Site(_Strict):
-    ambient_pressure: Value | None = None
-    elevation: Value | None = None
+    # The ISO 2533 troposphere, as in the scenario contract (estimator.site).
+    ambient_pressure: quantity("pressure", *PRESSURE_RANGE, "kPa", bare_unit="kPa", keep_text=True) | None = None
+    elevation: quantity("length", *ELEVATION_RANGE, "m", bare_unit="m", keep_text=True) | None = None
 
 
 class Inventory(_Strict):

@@ -252,6 +252,21 @@ def test_prices_have_a_practical_range(price):
     assert err.field == "prices.oxygen_per_m3"
 
 
+@pytest.mark.parametrize(
+    "data,field",
+    [
+        ({"agent_bottle": 100, "bottle_volume": "banana"}, "prices.bottle_volume"),
+        ({"cylinders": {"oxygen": {"price": 10, "contents": "1e12 L"}}}, "prices.cylinders.oxygen.contents"),
+    ],
+)
+def test_price_quantities_are_checked_by_the_model(data, field):
+    from estimator.costs import PricesInput, parse_prices
+    from estimator.fields import quantity_spec
+
+    assert error_of(parse_prices, data).field == field
+    assert quantity_spec(PricesInput, "bottle_volume").unit == "mL"
+
+
 def test_a_large_price_in_a_many_digit_currency_is_accepted():
     from estimator.costs import parse_prices
 
@@ -271,6 +286,9 @@ def test_a_large_price_in_a_many_digit_currency_is_accepted():
         ('[demand]\nday_start = "7:75"\n', "demand.day_start"),
         ('[plan]\nlead_time = "1e9 day"\n', "plan.lead_time"),
         ('[absorbent]\nstock = "banana"\n', "absorbent.stock"),
+        ('[site]\nelevation = "20 km"\n', "site.elevation"),
+        (CONCENTRATOR + "purity = 93\n", "concentrators[0].purity"),
+        (CONCENTRATOR + 'purity = [["0 L/min", "x"], ["5 L/min", "90 %"]]\n', "concentrators[0].purity[0][1]"),
     ],
 )
 def test_inventory_values_are_checked_at_load(text, field):
