@@ -250,9 +250,12 @@ def input_error_from_validation(
     value = err.get("input")
     if kind == "extra_forbidden":
         keys = known_keys(model, loc[:-1]) if model is not None else []
-        expected = "no such key here (check the spelling"
-        expected += f"; the keys here are {', '.join(keys)})" if keys else "; see the README)"
-        return InputError(_join(prefix, field) or "input", value, expected)
+        where = f": {', '.join(keys)}" if keys else " (see the README)"
+        # the value of an unknown key is never shown: the key is the mistake, and a file that is not
+        # the expected kind (a file named inside another) must not have its contents echoed
+        return InputError(
+            _join(prefix, field) or "input", "(unknown key)", f"a key valid here{where}; check the spelling"
+        )
     if kind == "missing":
         return InputError(_join(prefix, field) or "input", "(missing)", _EXPECTED["missing"])
     if kind == "value_error" and ": " in msg and " " not in msg.split(": ", 1)[0]:

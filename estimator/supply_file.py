@@ -22,7 +22,7 @@ Examples
 >>> inventory_from_text('[[bottles]]\nagent = "sevoflurane"\ncont = 3')
 Traceback (most recent call last):
 ...
-estimator.errors.InputError: bottles[0].cont: got 3; expected no such key here (check the spelling; the keys here are agent, count, name, opened, volume)
+estimator.errors.InputError: bottles[0].cont: got '(unknown key)'; expected a key valid here: agent, count, name, opened, volume; check the spelling
 """
 
 from __future__ import annotations

@@ -156,6 +156,15 @@ def test_named_scenario_must_be_a_toml_file(tmp_path, name):
     assert "TOPSECRET" not in str(err)
 
 
+def test_a_named_toml_file_that_is_no_scenario_is_not_echoed(tmp_path):
+    from estimator.supply import load_inventory, plan_supply
+
+    secret = 'token = "TOPSECRET"\n[patient]\nweight = "70 kg"\npassword = "TOPSECRET"\n'
+    inv = _inventory(tmp_path, "settings.toml", secret)
+    err = error_of(plan_supply, load_inventory(inv), start="2026-03-02")
+    assert err.field.startswith("demand.cases[0].scenario") and "TOPSECRET" not in str(err)
+
+
 def test_case_and_supply_treat_a_non_toml_scenario_alike(tmp_path, capsys):
     f = tmp_path / "case.txt"
     f.write_text(SCENARIO)
@@ -396,14 +405,14 @@ def test_one_wording_for_unknown_keys(fn, arg, field):
 
     module, name = fn.split(":")
     err = error_of(getattr(importlib.import_module(module), name), arg)
-    assert err.field == field and err.expected.startswith("no such key here")
+    assert err.field == field and err.expected.startswith("a key valid here")
 
 
 def test_inventory_unknown_key_uses_the_same_wording():
     from estimator.supply import inventory_from_text
 
     err = error_of(inventory_from_text, "[[bottles]]\nagent = 'sevoflurane'\ncont = 3\n")
-    assert err.field == "bottles[0].cont" and err.expected.startswith("no such key here")
+    assert err.field == "bottles[0].cont" and err.expected.startswith("a key valid here")
 
 
 def test_safe_flow_threshold_follows_the_bare_number_rule(tmp_path, capsys):

@@ -70,7 +70,7 @@ def test_good_file_loads_and_fraction_phase_splits_flows():
     "mutate,field,fragment",
     [
         (lambda d: d["patient"].update(weight="700 kg"), "patient.weight", "0.5 to 300"),
-        (lambda d: d["patient"].update(wieght="70 kg"), "patient.wieght", "no such key"),
+        (lambda d: d["patient"].update(wieght="70 kg"), "patient.wieght", "check the spelling"),
         (lambda d: d["agent"].update(name="xenon"), "agent.name", "sevoflurane"),
         (lambda d: d["phases"][0].update(oxygen="6 L"), "phases[0].oxygen", "flow"),
         (lambda d: d["phases"][0].update(oxygen="-1 L/min"), "phases[0].oxygen", "0 to 15"),
