@@ -1,6 +1,7 @@
 """Scenario files: the TOML contract of one planned case, validated with pydantic.
 
-Every quantity is a string pint parses ("2 L/min", "70 kg", "2 %", "1 MAC"). Unknown keys are errors,
+Every quantity is a string pint parses ("2 L/min", "70 kg", "2 %", "1 MAC"); each is a field of
+:func:`estimator.fields.quantity` with its range and unit. Unknown keys are errors,
 so typos are caught; every error is an :class:`~estimator.errors.InputError` naming the field (as a
 dotted path such as ``phases[1].oxygen``), the value and the valid range.
 
@@ -8,9 +9,12 @@ A phase gives its carrier gas either as flows (``oxygen``, ``air``, ``nitrous_ox
 is 0) or as ``oxygen_fraction`` plus ``total_flow`` with ``balance = "air"`` or ``"nitrous_oxide"``,
 and exactly one of ``vaporizer`` (the dial, "2 %") or ``end_tidal_target`` ("1 MAC" or "2 %").
 
+:func:`load_scenario` reads a file (its argument is always a path); :func:`scenario_from_text` parses
+TOML text; :func:`scenario_from_dict` validates a parsed document.
+
 Examples
 --------
->>> s = load_scenario('''
+>>> s = scenario_from_text('''
 ... [patient]
 ... weight = "70 kg"
 ... [agent]
@@ -27,41 +31,38 @@ Examples
 
 from __future__ import annotations
 
-import tomllib
-from pathlib import Path
+import os
 from typing import Annotated, Any, Literal
 
 import pint
 from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, model_validator
 
-from .errors import InputError, read_text_file
+from .contracts import as_path, check_scenario_suffix, input_error_from_validation, read_toml, toml_from_text
+from .errors import InputError
+from .fields import quantity as _quantity
 from .properties import AGENTS, gas
-from .units import DIMENSIONS, Q_, parse_quantity
+from .site import ELEVATION_RANGE, PRESSURE_RANGE
+from .site import TEMPERATURE_RANGE as SITE_TEMPERATURE
+from .units import Q_, parse_quantity
+
+__all__ = [
+    "Scenario",
+    "input_error_from_validation",
+    "load_scenario",
+    "scenario_from_dict",
+    "scenario_from_text",
+]
 
 _AIR_O2 = gas("air").records["oxygen_fraction"].value
 
-
-def _quantity(dimension: str, low: float, high: float, unit: str, *, low_open: bool = False):
-    """A pydantic type: a pint Quantity of ``dimension`` within [low, high] ``unit``."""
-    example = DIMENSIONS[dimension][1]
-
-    def check(value: Any) -> pint.Quantity:
-        try:
-            q = parse_quantity(value, "", dimension)
-        except InputError as exc:
-            raise ValueError(exc.expected) from None
-        mag = q.to(unit).magnitude
-        if mag < low or mag > high or (low_open and mag <= low):
-            lo = f"above {low:g}" if low_open else f"{low:g}"
-            raise ValueError(f"{lo} to {high:g} {Q_(1, unit).units:~P} ({example})")
-        return q
-
-    return Annotated[pint.Quantity, BeforeValidator(check)]
-
-
-Flow = _quantity("flow", 0.0, 15.0, "L/min")
-Duration = _quantity("time", 0.0, 24 * 60.0, "min")
+#: A flowmeter tube per gas reads up to 15 L/min (common practice, no source), the engine's range.
+Flow = _quantity("flow", 0.0, 15.0, "L/min", description="flowmeter flow")
+#: One case lasts at most a day (the engine's horizon; common practice, no source).
+Duration = _quantity("time", 0.0, 24 * 60.0, "min", description="phase duration")
 Fraction = _quantity("fraction", 0.0, 1.0, "dimensionless")
+#: Site elevation and measured ambient pressure: the ISO 2533 troposphere (estimator.site).
+Elevation = _quantity("length", *ELEVATION_RANGE, "m", description="site elevation above sea level")
+AmbientPressure = _quantity("pressure", *PRESSURE_RANGE, "kPa", description="measured absolute ambient pressure")
 
 
 class _Model(BaseModel):
@@ -97,7 +98,7 @@ class AgentInput(_Model):
         if isinstance(data, dict) and "name" in data:
             name = str(data["name"]).strip().lower()
             if name not in AGENTS:
-                raise ValueError(f"name: one of {', '.join(sorted(AGENTS))} (got {data['name']!r})")
+                raise ValueError(f"name: one of {', '.join(sorted(AGENTS))}")
             data = {**data, "name": name}
         return data
 
@@ -119,9 +120,10 @@ class CircuitInput(_Model):
 class SiteInput(_Model):
     """``[site]``: elevation or ambient pressure, temperature, oxygen source."""
 
-    elevation: _quantity("length", -500.0, 11000.0, "m") | None = None
-    ambient_pressure: _quantity("pressure", 22.6, 108.5, "kPa") | None = None
-    temperature: _quantity("temperature", -20.0, 50.0, "degC") = Q_(20.0, "degC")
+    elevation: Elevation | None = None
+    ambient_pressure: AmbientPressure | None = None
+    # Room temperatures the site model accepts (estimator.site.TEMPERATURE_RANGE).
+    temperature: _quantity("temperature", *SITE_TEMPERATURE, "degC") = Q_(20.0, "degC")
     oxygen_source: Literal["cylinder", "pipeline", "concentrator"] = "cylinder"
     oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless") | None = None
     argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless") | None = None
@@ -220,6 +222,16 @@ class FlowFloorInput(_Model):
     scale: list[ScaleStep] | None = None
     policies: list[Literal["sevoflurane_us_label"]] = []
 
+    @model_validator(mode="after")
+    def _bands_in_order(self) -> FlowFloorInput:
+        tops = [b.up_to.to("L/min").magnitude for b in self.scale or []]
+        for i in range(1, len(tops)):
+            if tops[i] <= tops[i - 1]:
+                raise ValueError(
+                    f"scale[{i}].up_to: above the band before it ({tops[i - 1]:g} L/min); bands go up in flow"
+                )
+        return self
+
 
 class OutputInput(_Model):
     """``[output]``: time step of the reported series."""
@@ -250,51 +262,17 @@ class Scenario(_Model):
             raise ValueError("phases: a total duration above 0 min")
         if total > 24 * 60 + 1e-9:
             raise ValueError(f"phases: a total duration of at most 24 h (got {total:g} min)")
+        limit = self.agent.vaporizer_max or AGENTS[self.agent.name].vaporizer_max
+        for i, p in enumerate(self.phases):
+            if limit is not None and p.vaporizer is not None and p.vaporizer.to("").magnitude > limit.to("").magnitude:
+                top = limit.to("percent").magnitude
+                raise ValueError(f"phases[{i}].vaporizer: 0 to {top:g} % (the vaporizer maximum of {self.agent.name})")
         return self
 
     @property
     def duration(self) -> pint.Quantity:
         """Total duration of the phases [min]."""
         return Q_(sum(p.duration.to("min").magnitude for p in self.phases), "min")
-
-
-def _loc(loc: tuple[Any, ...]) -> str:
-    out = ""
-    for part in loc:
-        if isinstance(part, int):
-            out += f"[{part}]"
-        elif part not in ("function-before[check(), lambda]",) and not str(part).startswith(
-            ("function-", "lax-", "union[")
-        ):
-            out += ("." if out else "") + str(part)
-    return out
-
-
-def input_error_from_validation(exc: ValidationError, prefix: str = "") -> InputError:
-    """The first error of a pydantic ValidationError as an InputError (field, value, expected).
-
-    Model-level messages of the form ``"field: expected text"`` name their own field.
-    """
-    err = exc.errors(include_url=False)[0]
-    field = _loc(tuple(err.get("loc", ())))
-    msg = str(err.get("msg", "")).removeprefix("Value error, ")
-    value = err.get("input")
-    if err.get("type") == "extra_forbidden":
-        return InputError(_join(prefix, field), value, "no such key (check the spelling; see the README)")
-    if err.get("type") == "missing":
-        return InputError(_join(prefix, field), "(missing)", "a value: this key is required")
-    if ": " in msg and err.get("type") == "value_error" and " " not in msg.split(": ", 1)[0]:
-        sub, msg = msg.split(": ", 1)
-        field = _join(field, sub)
-        if isinstance(value, dict):
-            value = value.get(sub, value)
-    if isinstance(value, dict | list):
-        value = "(table)"
-    return InputError(_join(prefix, field), value, msg)
-
-
-def _join(a: str, b: str) -> str:
-    return f"{a}.{b}" if a and b else (a or b or "scenario")
 
 
 def scenario_from_dict(data: dict[str, Any]) -> Scenario:
@@ -307,7 +285,7 @@ def scenario_from_dict(data: dict[str, Any]) -> Scenario:
     try:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
-        raise input_error_from_validation(exc) from None
+        raise input_error_from_validation(exc, model=Scenario) from None
     if scenario.prices:
         from .costs import parse_prices
 
@@ -315,29 +293,46 @@ def scenario_from_dict(data: dict[str, Any]) -> Scenario:
     return scenario
 
 
-def load_scenario(source: str | Path) -> Scenario:
-    """Read a scenario from a TOML file path or TOML text.
+def scenario_from_text(text: str, name: str = "scenario") -> Scenario:
+    """Parse and validate a scenario from TOML text (never read as a path).
 
     Parameters
     ----------
-    source : str or pathlib.Path
-        A path to a ``.toml`` file, or the TOML text itself.
+    text : str
+        The TOML document.
+    name : str
+        How errors name the text (default ``"scenario"``).
 
     Raises
     ------
     InputError
-        On unreadable TOML or any invalid field.
+        On invalid TOML or any invalid field.
     """
-    text, name = _read(source)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(name, "(file)", f"valid TOML ({exc})") from None
-    return scenario_from_dict(data)
+    return scenario_from_dict(toml_from_text(text, name))
 
 
-def _read(source: str | Path) -> tuple[str, str]:
-    if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source and source.endswith(".toml")):
-        path = Path(source)
-        return read_text_file(path, "scenario", "an existing TOML file"), path.name
-    return str(source), "scenario"
+def load_scenario(path: str | os.PathLike[str]) -> Scenario:
+    """Read a scenario from a ``.toml`` file; the argument is always a path, never TOML text.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The scenario file; it must end in ``.toml`` (the same rule for ``lowflow case``,
+        ``safe-flow`` and scenarios named in an inventory).
+
+    Raises
+    ------
+    InputError
+        On a missing or unreadable file, invalid TOML or any invalid field.
+
+    Examples
+    --------
+    >>> load_scenario("[patient]\\nweight = '70 kg'")
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: scenario: got ...; expected a file path, not text (...scenario_from_text)
+    """
+    expected = "an existing scenario TOML file"
+    p = as_path(path, "scenario", expected)
+    check_scenario_suffix(p, "scenario")
+    return scenario_from_dict(read_toml(p, "scenario", expected))

@@ -163,10 +163,10 @@ def test_exports_are_safe_and_readable():
 
 
 def test_saved_scenario_is_toml_the_engine_accepts(planner):
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
     doc = planner.session_state["scenario"]
-    scen = load_scenario(tomli_w.dumps(doc))
+    scen = scenario_from_text(tomli_w.dumps(doc))
     assert scen.patient.weight.to("kg").magnitude > 0
     assert tomllib.loads(tomli_w.dumps(doc))["agent"]["name"] == "sevoflurane"
 

@@ -7,6 +7,7 @@ from pathlib import Path
 import typer
 
 from . import CAUTION, app
+from .outputs import output_paths, write_output
 
 
 @app.command("case")
@@ -20,9 +21,10 @@ def case(
     from ..jsonout import dumps
     from ..scenario import load_scenario
 
+    outputs = output_paths({"--csv": csv}, {"FILE": file})
     result = simulate(load_scenario(file))
-    if csv is not None:
-        result.series.to_csv(csv, index=False)
+    if "--csv" in outputs:
+        write_output("--csv", outputs["--csv"], lambda p: result.series.to_csv(p, index=False))
     if json_out:
         typer.echo(dumps(result.to_json()))
         return

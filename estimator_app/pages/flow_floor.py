@@ -30,9 +30,9 @@ def model() -> Any:
 @st.cache_data(max_entries=32, show_spinner="Searching the lowest safe flow, phase by phase...")
 def run_floor(text: str) -> Any:
     """Flow floor of a scenario's TOML text (cached on the text)."""
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
-    return model()(load_scenario(text))
+    return model()(scenario_from_text(text))
 
 
 def fields(fu: str, scale: float) -> list[tuple[int, str, Field]]:
