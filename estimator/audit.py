@@ -192,7 +192,7 @@ def audit(
 
     Parameters
     ----------
-    source : path, file object, CSV text or LogData
+    source : path, file object, bytes or LogData (CSV text: pass log_from_text(text))
     prices : Prices, optional
         Without prices the cost columns are left out (and say so).
     basis : str

@@ -8,7 +8,7 @@ years), sorted per case, ready for vectorised integration by :mod:`estimator.aud
 
 Examples
 --------
->>> log = read_log("case_id,time,oxygen_flow [mL/min],air_flow,nitrous_oxide_flow,agent,vaporizer_setting\\n"
+>>> log = log_from_text("case_id,time,oxygen_flow [mL/min],air_flow,nitrous_oxide_flow,agent,vaporizer_setting\\n"
 ...                "A,0,500,0,0,isoflurane,1\\nA,5,-1,0,0,isoflurane,1\\n")
 >>> log.rows, log.rejections
 ({'read': 2, 'used': 1, 'rejected': 1}, [(3, "oxygen_flow: got '-1' mL/min; expected 0 to 30 L/min")])
@@ -19,44 +19,20 @@ from __future__ import annotations
 import csv
 import io
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pandas as pd
-import pint
 
+from .audit_csv import REQUIRED, SPEC, _header, _rows, _source_text
 from .errors import InputError
 from .properties import AGENTS
-from .units import Q_, ureg
 
-REQUIRED = ("case_id", "time", "oxygen_flow", "air_flow", "nitrous_oxide_flow", "agent", "vaporizer_setting")
-OPTIONAL = ("end_tidal_agent", "inspired_oxygen", "room", "patient_weight", "patient_age")
-#: Column -> (kind, default unit, canonical unit, valid range in the canonical unit).
-SPEC: dict[str, tuple[str, str | None, str | None, tuple[float, float] | None]] = {
-    "case_id": ("text", None, None, None),
-    "time": ("time", "min", "min", None),
-    "oxygen_flow": ("flow", "L/min", "L/min", (0.0, 30.0)),
-    "air_flow": ("flow", "L/min", "L/min", (0.0, 30.0)),
-    "nitrous_oxide_flow": ("flow", "L/min", "L/min", (0.0, 30.0)),
-    "agent": ("text", None, None, None),
-    "vaporizer_setting": ("fraction", "%", "", (0.0, 1.0)),
-    "end_tidal_agent": ("fraction", "%", "", (0.0, 1.0)),
-    "inspired_oxygen": ("fraction", "%", "", (0.0, 1.0)),
-    "room": ("text", None, None, None),
-    "patient_weight": ("mass", "kg", "kg", (0.5, 300.0)),
-    "patient_age": ("age", "year", "year", (0.0, 120.0)),
-}
-DIMENSION = {"flow": "[length] ** 3 / [time]", "time": "[time]", "mass": "[mass]", "age": "[time]", "fraction": "[]"}
-EXAMPLE = {
-    "flow": "'L/min' or 'mL/min'",
-    "time": "'min', 's', 'h' or 'ISO 8601'",
-    "mass": "'kg' or 'lb'",
-    "age": "'year'",
-    "fraction": "'%' or '1' (a 0-1 fraction)",
-}
 NO_AGENT = ("", "none", "off")
 NO_DATE = "no date (elapsed-time log)"
+#: Largest elapsed time a numeric ``time`` may give [min] (about 1.9 years, longer than any case;
+#: a Unix time in seconds, about 1.7e9, lies far beyond it).
+MAX_ELAPSED_MIN = 1e6
 _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 
 
@@ -78,107 +54,29 @@ class LogData:
     warnings: tuple[tuple[str, str], ...] = ()
 
 
-def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
-    """Column names and the factor to the canonical unit (or 'iso' for time) of each column."""
-    names: list[str] = []
-    factors: dict[str, float | str] = {}
-    for cell in raw:
-        text = cell.strip().lstrip("\ufeff")
-        name, _, rest = text.partition("[")
-        name = name.strip().lower()
-        unit = rest.rstrip().removesuffix("]").strip() if rest else None
-        if rest and not rest.rstrip().endswith("]"):
-            raise InputError(
-                f"log column '{text}'",
-                text,
-                "a column name with its unit in square brackets, e.g. 'oxygen_flow [mL/min]'",
-            )
-        if name in names:
-            raise InputError(f"log column '{name}'", text, "each column once")
-        names.append(name)
-        if name not in SPEC:
-            continue
-        kind, default, canonical, _ = SPEC[name]
-        if kind == "text":
-            if unit:
-                raise InputError(f"log column '{name}'", unit, "no unit (a text column)")
-            continue
-        unit = unit or default
-        if kind == "time" and unit.lower().replace(" ", "") in ("iso8601", "iso"):
-            factors[name] = "iso"
-            continue
-        if kind == "fraction" and unit.lower() in ("1", "fraction", "dimensionless"):
-            factors[name] = 1.0
-            continue
-        try:
-            q = Q_(1.0, ureg.parse_units({"%": "percent", "years": "year", "y": "year"}.get(unit, unit)))
-        except (pint.errors.PintError, ValueError, AttributeError, TypeError, SyntaxError, KeyError):
-            raise InputError(f"log column '{name}'", unit, f"a known unit such as {EXAMPLE[kind]}") from None
-        if not q.check(DIMENSION[kind]):
-            raise InputError(f"log column '{name}'", unit, f"a unit of {kind} such as {EXAMPLE[kind]}")
-        factors[name] = float(q.to(canonical or "dimensionless").magnitude)
-    missing = [c for c in REQUIRED if c not in names]
-    if missing:
-        raise InputError(f"log column '{missing[0]}'", "missing", "a header with the columns " + ", ".join(REQUIRED))
-    return names, factors
+def _unit_of(raw: list[str], names: list[str], column: str) -> str:
+    cell = raw[names.index(column)]
+    return cell.partition("[")[2].rstrip().removesuffix("]").strip()
 
 
-def _is_file(text: str) -> bool:
-    """True for a path to an existing file; CSV text (however long) is not a path."""
-    try:
-        return Path(text).is_file()
-    except (OSError, ValueError):
-        return False
-
-
-def _open(source: Any) -> Any:
-    if isinstance(source, str) and ("\n" in source or "," in source) and not _is_file(source):
-        return io.StringIO(source.lstrip("\ufeff"))
-    if isinstance(source, str | Path):
-        if not _is_file(str(source)):
-            raise InputError("log", str(source), "an existing CSV file")
-        return open(source, encoding="utf-8-sig", newline="")  # noqa: SIM115 - closed by the caller
-    return io.StringIO(source.read().lstrip("\ufeff"))
-
-
-def _rows(handle: Any, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, list[tuple[int, str]]]:
-    """Data rows with a ``line`` column; numeric columns parsed by the C reader, rows of the wrong width
-    rejected (by a slower csv pass, only when the fast reader finds one)."""
-    text_cols = {i: str for i, n in enumerate(names) if n not in SPEC or SPEC[n][0] in ("text", "time")}
-    start = handle.tell()
-    try:
-        df = pd.read_csv(
-            handle,
-            header=None,
-            names=list(range(len(raw))),
-            dtype=text_cols,
-            na_values=[""],
-            keep_default_na=False,
-            skip_blank_lines=False,
-            skipinitialspace=True,
-            engine="c",
-            low_memory=False,
+def _varying(values: pd.Series, codes: np.ndarray, case_ids: Any, column: str, unit: str) -> list[tuple[str, str]]:
+    """A warning naming the cases whose rows give more than one value of a per-patient column."""
+    g = values.groupby(codes)
+    lo, hi = g.min().to_numpy(), g.max().to_numpy()
+    first = g.first().to_numpy()
+    varies = np.flatnonzero(np.isfinite(lo) & (hi > lo))
+    if not len(varies):
+        return []
+    shown = [f"{case_ids[i]!r} ({lo[i]:g}-{hi[i]:g} {unit}, first {first[i]:g} {unit} used)" for i in varies[:5]]
+    return [
+        (
+            "PATIENT_VALUE_VARIES",
+            f"{column}: {len(varies)} case(s) give more than one value: "
+            + "; ".join(shown)
+            + (" ..." if len(varies) > 5 else "")
+            + "; the first value of each case is used; check the log",
         )
-        df["line"] = np.arange(2, len(df) + 2)
-        return df, []
-    except pd.errors.ParserError:
-        handle.seek(start)
-    good, lines, bad = [], [], []
-    reader = csv.reader(handle, skipinitialspace=True)
-    last = 0  # physical lines read by the csv reader so far; the header is line 1
-    for row in reader:
-        line = 2 + last
-        last = reader.line_num
-        if len(row) == 0:
-            row = [""] * len(raw)
-        if len(row) != len(raw):
-            bad.append((line, f"{len(row)} fields where the header has {len(raw)}"))
-            continue
-        good.append(row)
-        lines.append(line)
-    df = pd.DataFrame(good, columns=list(range(len(raw))), dtype=str)
-    df["line"] = np.array(lines, dtype=int)
-    return df, bad
+    ]
 
 
 def _show(v: Any) -> str:
@@ -232,11 +130,13 @@ def _numeric(
 
 
 def read_log(source: Any) -> LogData:
-    """Read and validate an audit log.
+    """Read and validate an audit log from a file.
 
     Parameters
     ----------
-    source : path, file object or CSV text
+    source : str, os.PathLike, file object or bytes
+        A path (a string is always a path), an open file, or the bytes of an upload. CSV text goes
+        to :func:`log_from_text`.
 
     Returns
     -------
@@ -247,16 +147,30 @@ def read_log(source: Any) -> LogData:
     InputError
         For a file-level problem, naming the column.
     """
-    with _open(source) as handle:
-        try:
-            raw = next(csv.reader([handle.readline()]), [])
-            if not raw:
-                raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
-            names, factors = _header(raw)
-            df, bad_width = _rows(handle, raw, names)
-        except UnicodeDecodeError:
-            shown = str(source) if isinstance(source, str | Path) else "(upload)"
-            raise InputError("log", shown, "a CSV file in UTF-8 text") from None
+    return log_from_text(_source_text(source))
+
+
+def log_from_text(text: str) -> LogData:
+    """Read and validate an audit log given as CSV text (never read as a path).
+
+    Raises
+    ------
+    InputError
+        For a file-level problem, naming the column.
+    """
+    if not isinstance(text, str):
+        raise InputError("log", type(text).__name__, "CSV text (str)")
+    text = text.lstrip("\ufeff")
+    first = io.StringIO(text, newline="").readline()  # the header, ended by \n, \r\n or \r
+    rest = text[len(first) :]
+    try:
+        raw = next(csv.reader([first.rstrip("\r\n")]), []) if first.strip() else []
+    except csv.Error:
+        raise InputError("log", "(header row)", "a CSV header row with the columns " + ", ".join(REQUIRED)) from None
+    if not raw:
+        raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
+    names, factors = _header(raw)
+    df, bad_width = _rows(rest, raw, names)
     df.columns = [*names, "line"]
     unknown = [n for n in names if n not in SPEC]
     warnings: list[tuple[str, str]] = []
@@ -296,9 +210,31 @@ def read_log(source: Any) -> LogData:
         ttext,
     )
     t_factor = 1.0 if iso_only else float(factors["time"])
+    units_time = "ISO 8601" if iso_only else (_unit_of(raw, names, "time") or "min")
     epoch_min = ((ts - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(minutes=1)).to_numpy(dtype=float)
     is_ts = ts_ok
     t_abs = np.where(is_ts, epoch_min, t_num * t_factor)
+    far = ~is_ts & np.isfinite(t_abs) & (np.abs(t_abs) > MAX_ELAPSED_MIN)
+    if far.any():
+        r.add(
+            far,
+            lambda v: (
+                f"time: got {v!r} {units_time}; expected elapsed time within +-{MAX_ELAPSED_MIN:g} min (about "
+                "2 years): a Unix time in seconds? write ISO 8601 timestamps (time [ISO 8601])"
+            ),
+            ttext,
+        )
+        far_cases = sorted(set(case[far]))
+        warnings.append(
+            (
+                "TIME_NOT_ELAPSED",
+                f"time: {int(far.sum())} row(s) of case(s) "
+                + ", ".join(repr(c) for c in far_cases[:5])
+                + (" ..." if len(far_cases) > 5 else "")
+                + f" give elapsed times beyond {MAX_ELAPSED_MIN:g} min, more than any case lasts (Unix-epoch "
+                "seconds?); those rows were rejected",
+            )
+        )
 
     flows = {
         c: _numeric(df[c], c, r, float(factors[c]), units[c], True)
@@ -405,6 +341,7 @@ def read_log(source: Any) -> LogData:
             s[key] = opt[c][idx]
             if key in ("weight", "age"):
                 per_case[key] = s[key].groupby(codes).first().reindex(range(n_cases)).to_numpy()
+                warnings += _varying(s[key], codes, case_ids, c, SPEC[c][2])
                 s[key] = per_case[key][codes]
     case_is_ts = np.zeros(n_cases, dtype=bool)
     case_is_ts[codes] = is_ts[idx]

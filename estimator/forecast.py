@@ -20,8 +20,8 @@ References
 
 Examples
 --------
->>> from estimator.casemix import load_casemix
->>> mix = load_casemix('''
+>>> from estimator.casemix import casemix_from_text
+>>> mix = casemix_from_text('''
 ... weeks = 20
 ... seed = 3
 ... [[case_types]]
@@ -64,6 +64,7 @@ from .casemix import CaseMix, CylinderSize
 from .costs import cost_table
 from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, reference_molar_volume
 from .errors import InputError
+from .forecast_size import MAX_CASES, check_size
 from .properties import gas
 from .results import FIO2_ADVISORY, TARGET_BAND
 from .units import GAS_VOLUME_REFERENCE, Q_, parse_quantity
@@ -173,7 +174,12 @@ def _draw(mix: CaseMix, weeks: int, rng: np.random.Generator):
 
 
 def forecast(
-    mix: CaseMix, *, weeks: int | None = None, seed: int | None = None, progress: Callable[[float], None] | None = None
+    mix: CaseMix,
+    *,
+    weeks: int | None = None,
+    seed: int | None = None,
+    progress: Callable[[float], None] | None = None,
+    max_cases: int = MAX_CASES,
 ) -> ForecastResult:
     """Monte-Carlo weekly demand of a case mix.
 
@@ -187,6 +193,9 @@ def forecast(
         reported in the result so that the run can be repeated).
     progress : callable, optional
         Called with the fraction of cases done, from 0 to 1.
+    max_cases : int
+        Most expected cases to run (default :data:`estimator.forecast_size.MAX_CASES`, at most
+        :data:`~estimator.forecast_size.CASE_CEILING`); a larger forecast is refused before it runs.
 
     Returns
     -------
@@ -195,6 +204,7 @@ def forecast(
     weeks = mix.weeks if weeks is None else weeks
     if isinstance(weeks, bool) or not isinstance(weeks, int) or not 1 <= weeks <= 1040:
         raise InputError("weeks", weeks, "1 to 1040 weeks")
+    check_size(mix, weeks, max_cases)
     seed = mix.seed if seed is None else seed
     if seed is None:
         seed = int(np.random.SeedSequence().entropy % 2**32)

@@ -10,7 +10,9 @@ import pytest
 import scipy.constants
 from scipy.integrate import trapezoid
 
-from estimator.audit import age_mac, audit, flow_class
+from estimator.audit import age_mac, flow_class
+from estimator.audit import audit as audit_of
+from estimator.audit_log import log_from_text
 from estimator.audit_policy import counterfactual, parse_policy, policy_flows
 from estimator.costs import DEMO_PRICES
 from estimator.errors import InputError
@@ -21,6 +23,11 @@ HEADER = "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_s
 # Ideal-gas molar volume at the package reference (15 degC, 101.325 kPa), CODATA R via scipy.
 VM = scipy.constants.R * 288.15 / 101325.0 * 1000.0
 SEVO = {"molar_mass": 200.05, "density": 1.52}  # CRC; Biro 2014 (agents.toml)
+
+
+def audit(source, **kw):
+    """The audit of a log file (a Path) or of CSV text (a str in these tests is always CSV text)."""
+    return audit_of(log_from_text(source) if isinstance(source, str) else source, **kw)
 
 
 def _synthetic(rng: np.random.Generator, n_cases: int = 4) -> tuple[pd.DataFrame, dict]:

@@ -87,3 +87,36 @@ def test_errors_are_one_line_with_status_2(capsys, tmp_path):
     assert code == 2 and "weeks" in err
     code, _, err = _run(capsys, tmp_path / "none.toml")
     assert code == 2 and err.count("\n") == 1
+
+
+TEN_MILLION = """
+weeks = 1000
+[[case_types]]
+name = "every theatre in the country"
+per_week = 10000
+agent = "sevoflurane"
+duration = "240 min"
+weight_mean = "75 kg"
+"""
+
+
+def test_a_huge_forecast_is_refused_before_it_runs_with_an_estimate(capsys, tmp_path):
+    # Before: 10 million cases ran for about half an hour with no word. Now the expected count and
+    # run time are stated and the run is refused above the limit.
+    path = tmp_path / "huge.toml"
+    path.write_text(TEN_MILLION)
+    code, out, err = _run(capsys, path)
+    assert code == 2 and "forecast cases" in err and "10000000" in err and "--max-cases" in err
+    assert " min" in err  # the estimated run time
+    code, _, err = _run(capsys, path, "--max-cases", 10**9)
+    assert code == 2 and "--max-cases" in err
+
+
+def test_a_small_limit_refuses_and_a_long_run_announces_itself(capsys, monkeypatch):
+    from estimator import forecast_size
+
+    code, _, err = _run(capsys, MIX, "--weeks", 10, "--max-cases", 5)
+    assert code == 2 and "at most 5 expected cases" in err
+    monkeypatch.setattr(forecast_size, "CASE_HOURS_PER_SECOND", 1.0)  # as if the machine were slow
+    code, out, err = _run(capsys, MIX, "--weeks", 2, "--seed", 1, "--json")
+    assert code == 0 and err.startswith("Simulating about") and json.loads(out)["weeks"] == 2

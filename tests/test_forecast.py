@@ -11,7 +11,7 @@ from scipy import stats
 
 from estimator import batch, engine
 from estimator.carbon import case_carbon
-from estimator.casemix import Z90, Distribution, load_casemix, read_case_types_csv
+from estimator.casemix import Z90, Distribution, case_types_from_text, casemix_from_text, load_casemix
 from estimator.costs import case_cost
 from estimator.cylinders import compressed_cylinder
 from estimator.errors import InputError
@@ -60,7 +60,7 @@ def test_point_collapse_equals_single_cases_times_counts():
     # With every distribution a point and counts fixed, each week is exactly 4 x case A + 2 x case B
     # of the single-case engine (within the batch agreement), cost from estimator.costs and CO2e
     # from estimator.carbon of those engine totals.
-    mix = load_casemix(POINT)
+    mix = casemix_from_text(POINT)
     r = forecast(mix)
     refs = []
     for ct, n in zip(mix.case_types, (4, 2), strict=True):
@@ -86,7 +86,7 @@ def test_point_collapse_equals_single_cases_times_counts():
 
 
 def test_case_co2e_matches_carbon_module():
-    tpl = batch.case_template(load_casemix(POINT).case_types[1].template.scenario)
+    tpl = batch.case_template(casemix_from_text(POINT).case_types[1].template.scenario)
     tot = batch.run_batch(tpl, [64.0], [40.0], [40.0])
     q = {k: batch.Q_(tot[k][0], batch.TOTAL_UNITS[k]) for k in ("agent_liquid", "agent_uptake", "nitrous_oxide")}
     ref = case_carbon(q, "isoflurane", "ar5_gwp100", manifold_loss=0.5).total.to("kg").magnitude
@@ -108,8 +108,8 @@ weight_sd = "10 kg"
 
 
 def test_percentiles_ordered_and_grow_with_case_count():
-    small = forecast(load_casemix(SHORT.format(n=10)))
-    large = forecast(load_casemix(SHORT.format(n=20)))
+    small = forecast(casemix_from_text(SHORT.format(n=10)))
+    large = forecast(casemix_from_text(SHORT.format(n=20)))
     for key in ("oxygen", "air", "sevoflurane", "absorbent", "co2e", "cases"):
         for r in (small, large):
             s = r.items[key]
@@ -123,7 +123,7 @@ def test_poisson_counts():
     # the sample mean's standard error is sqrt(10/300) = 0.18; allow 4 SE. The sample variance of
     # a Poisson(10) over 300 weeks has a standard error of about sqrt(2 x 10^2 / 300) + ... = 0.85;
     # allow 4 SE as well.
-    r = forecast(load_casemix(SHORT.format(n=10)))
+    r = forecast(casemix_from_text(SHORT.format(n=10)))
     counts = r.weekly["cases"]
     assert abs(counts.mean() - 10.0) < 4 * math.sqrt(10.0 / 300)
     assert abs(counts.var(ddof=1) - 10.0) < 4 * 0.85
@@ -131,7 +131,7 @@ def test_poisson_counts():
 
 
 def test_reproducible_with_seed_and_progress():
-    mix = load_casemix(SHORT.format(n=5))
+    mix = casemix_from_text(SHORT.format(n=5))
     seen = []
     a = forecast(mix, weeks=30, progress=seen.append)
     b = forecast(mix, weeks=30)
@@ -139,7 +139,7 @@ def test_reproducible_with_seed_and_progress():
     np.testing.assert_array_equal(a.weekly["oxygen"], b.weekly["oxygen"])
     assert not np.array_equal(a.weekly["oxygen"], c.weekly["oxygen"])
     assert seen == sorted(seen) and seen[-1] == 1.0 and 0.0 <= seen[0]
-    fresh = load_casemix(SHORT.format(n=5).replace("seed = 4", ""))
+    fresh = casemix_from_text(SHORT.format(n=5).replace("seed = 4", ""))
     r = forecast(fresh, weeks=4)
     assert isinstance(r.seed, int)
     np.testing.assert_array_equal(forecast(fresh, weeks=4, seed=r.seed).weekly["air"], r.weekly["air"])
@@ -195,9 +195,9 @@ def test_csv_equals_toml(tmp_path):
     p = tmp_path / "mix.csv"
     p.write_text(text)
     from_csv = forecast(load_casemix(p), weeks=20, seed=4)
-    from_toml = forecast(load_casemix(SHORT.format(n=10)), weeks=20)
+    from_toml = forecast(casemix_from_text(SHORT.format(n=10)), weeks=20)
     np.testing.assert_array_equal(from_csv.weekly["sevoflurane"], from_toml.weekly["sevoflurane"])
-    assert read_case_types_csv("name,per_weekday,agent\nx,2;3,sevoflurane\n")[0].per_weekday == [2.0, 3.0]
+    assert case_types_from_text("name,per_weekday,agent\nx,2;3,sevoflurane\n")[0].per_weekday == [2.0, 3.0]
 
 
 def _row(**keys):
@@ -231,7 +231,7 @@ def _row(**keys):
 def test_bad_rows_name_the_row(row, field):
     text = _row() + "\n" + row
     with pytest.raises(InputError) as err:
-        load_casemix(text)
+        casemix_from_text(text)
     assert err.value.field == field
 
 
@@ -255,7 +255,7 @@ def test_top_level_errors():
         ("weeks = 3", "case_types"),
     ):
         with pytest.raises(InputError) as err:
-            load_casemix(text)
+            casemix_from_text(text)
         assert err.value.field == field
 
 
@@ -267,7 +267,7 @@ def test_summary_statistics_numpy_definition():
 
 
 def test_neonatal_point_patient_keeps_age_zero_and_warns():
-    mix = load_casemix(_row(weight_mean='"3.5 kg"', age_mean='"0 years"'))
+    mix = casemix_from_text(_row(weight_mean='"3.5 kg"', age_mean='"0 years"'))
     ct = mix.case_types[0]
     assert ct.age.kind == "point" and ct.age.loc == 0.0 and ct.weight.loc == 3.5
     codes = {c for c, _ in mix.warnings}
@@ -280,7 +280,7 @@ def test_empty_case_type_runs():
         + "\n"
         + _row(name='"y"', per_week="1", duration='"20 min"', duration_median=None, duration_p90=None)
     )
-    r = forecast(load_casemix(text), weeks=2, seed=0)
+    r = forecast(casemix_from_text(text), weeks=2, seed=0)
     assert r.cases[0]["simulated"] == 0 and r.cases[1]["simulated"] == int(r.weekly["cases"].sum())
 
 

@@ -353,9 +353,9 @@ def test_file_loaders_name_a_bad_path(tmp_path, name, suffix, problem):
 @FEW
 @given(st.one_of(toml_text, broken(CASEMIX, "=")))
 def test_casemix_loader_random_and_near_valid_text(text):
-    from estimator.casemix import load_casemix
+    from estimator.casemix import casemix_from_text
 
-    only_input_error(load_casemix, text)
+    only_input_error(casemix_from_text, text)
 
 
 # ------------------------------------------------------------------ audit log importer

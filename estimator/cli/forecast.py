@@ -6,7 +6,12 @@ from pathlib import Path
 
 import typer
 
+from ..errors import InputError
+from ..forecast_size import CASE_CEILING, MAX_CASES, check_size
 from . import CAUTION, app
+
+#: Forecasts estimated to run at least this long [s] say so (on stderr) before they start.
+ANNOUNCE_AFTER = 5.0
 
 _LABELS = {
     "cases": "cases",
@@ -25,13 +30,25 @@ def forecast(
     weeks: int | None = typer.Option(None, "--weeks", help="Weeks to simulate (default: the file's, else 52)."),
     seed: int | None = typer.Option(None, "--seed", help="Random seed, for a repeatable run."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
+    max_cases: int = typer.Option(
+        MAX_CASES,
+        "--max-cases",
+        help=f"Most expected cases to simulate (default {MAX_CASES:,}, at most {CASE_CEILING:,}); "
+        "a larger forecast is refused before it runs.",
+    ),
 ) -> None:
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
     from ..casemix import load_casemix
     from ..forecast import forecast as run
     from ..jsonout import dumps
 
-    result = run(load_casemix(file), weeks=weeks, seed=seed)
+    if not 1 <= max_cases <= CASE_CEILING:
+        raise InputError("--max-cases", max_cases, f"a whole number from 1 to {CASE_CEILING}")
+    mix = load_casemix(file)
+    size = check_size(mix, mix.weeks if weeks is None else weeks, max_cases)
+    if size.seconds >= ANNOUNCE_AFTER:
+        typer.echo(size.text(mix.weeks if weeks is None else weeks), err=True)
+    result = run(mix, weeks=weeks, seed=seed, max_cases=max_cases)
     typer.echo(dumps(result.to_json()) if json_out else summary(result))
 
 
