@@ -90,32 +90,45 @@ def folder(files: dict[str, str], planner_text: str | None = None) -> Iterator[P
 
 
 def load_scenario_text(text: str) -> Any:
-    """The scenario of TOML text, through the command line's loader."""
-    from estimator import scenario as contract
+    """The scenario of TOML text: :func:`estimator.scenario.scenario_from_text`, as ``lowflow case`` reads it."""
+    from estimator.scenario import scenario_from_text
 
-    loader = getattr(contract, "scenario_from_text", None)
-    return loader(text) if loader is not None else contract.load_scenario(text)
+    return scenario_from_text(text)
 
 
 def load_inventory_text(text: str, base_dir: Path | None = None) -> Any:
-    """The inventory of TOML text, through the command line's loader (unknown keys refused)."""
-    from estimator import supply_file as contract
+    """The inventory of TOML text: :func:`estimator.supply_file.inventory_from_text` (unknown keys refused)."""
+    from estimator.supply_file import inventory_from_text
 
-    loader = getattr(contract, "inventory_from_text", None)
-    if loader is not None:
-        return loader(text, base_dir=base_dir)
-    inv = contract.load_inventory(text)
-    return inv if base_dir is None else inv.model_copy(update={"base_dir": str(base_dir)})
+    return inventory_from_text(text, base_dir=base_dir)
 
 
 def load_casemix_text(text: str, base_dir: Path) -> Any:
-    """The case mix of TOML text, through the command line's loader; named files resolve in ``base_dir``."""
-    from estimator import casemix as contract
+    """The case mix of TOML text: :func:`estimator.casemix.casemix_from_text`; named files only inside ``base_dir``."""
+    from estimator.casemix import casemix_from_text
 
-    loader = getattr(contract, "casemix_from_text", None)
-    if loader is not None:
-        return loader(text, base_dir=base_dir)
-    return contract.casemix_from_dict(parse_toml(text, "casemix"), base_dir)
+    return casemix_from_text(text, base_dir, confine=True)
+
+
+def load_prices_text(text: str) -> Any:
+    """Prices of TOML text (:func:`estimator.costs.prices_from_text`, as ``--prices`` reads a file), or None."""
+    from estimator.costs import prices_from_text
+
+    return prices_from_text(text) if text else None
+
+
+def load_policy_text(text: str) -> Any:
+    """A low-flow policy of TOML text (:func:`estimator.audit_policy.policy_from_text`, as ``--policy``)."""
+    from estimator.audit_policy import policy_from_text
+
+    return policy_from_text(text)
+
+
+def load_log_text(text: str) -> Any:
+    """An audit log of CSV text (:func:`estimator.audit_log.log_from_text`), never taken for a path."""
+    from estimator.audit_log import log_from_text
+
+    return log_from_text(text)
 
 
 def check(kind: str, doc: dict[str, Any], files: dict[str, str], planner_text: str) -> None:

@@ -11,7 +11,7 @@ from __future__ import annotations
 import json
 import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import pandas as pd
@@ -78,26 +78,34 @@ class Field:
         return f"{number:g} {self.unit}" if self.dimension is not None else number
 
 
-def contract(model: Any, key: str, label: str, unit: str, dimension: str, **kwargs: Any) -> Field:
-    """A field whose default (and range and help, where the model states them) come from the contract model.
+def contract(model: Any, key: str, label: str, unit: str, **overrides: Any) -> Field:
+    """A field whose dimension, range, default and help come from the contract model, shown in ``unit``.
 
-    ``model.model_fields[key]`` gives the default (a pint quantity, shown in ``unit``); a range stated
-    in the field's ``json_schema_extra`` (``low``, ``high``, ``unit``) replaces the page's fallback.
+    The quantity spec of ``model.<key>`` (:func:`estimator.fields.quantity_spec`) gives the dimension,
+    the range (converted to ``unit``) and the help line; the model's default is shown for an absent key.
+    ``overrides`` fill in what a model does not state (a field that is not a typed quantity yet).
     """
+    from pydantic_core import PydanticUndefined
+
+    from estimator.fields import quantity_spec
     from estimator.units import Q_
 
-    info = model.model_fields[key]
     pint_unit = _PINT.get(unit, unit)
-    default = info.default
-    if hasattr(default, "to"):
-        kwargs.setdefault("default", float(default.to(pint_unit).magnitude))
-    extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
-    for bound in ("low", "high"):
-        if extra.get(bound) is not None:
-            kwargs[bound] = float(Q_(extra[bound], extra.get("unit", pint_unit)).to(pint_unit).magnitude)
-    if info.description and "help" not in kwargs:
-        kwargs["help"] = info.description
-    return Field(key, label, dimension=dimension, unit=unit, **kwargs)
+    spec = quantity_spec(model, key)
+    kwargs: dict[str, Any] = {}
+    if spec is not None:
+        kwargs["dimension"] = spec.dimension
+        kwargs["low"] = float(Q_(spec.low, spec.unit).to(pint_unit).magnitude)
+        kwargs["high"] = float(Q_(spec.high, spec.unit).to(pint_unit).magnitude)
+        if spec.description:
+            kwargs["help"] = spec.description
+    kwargs.update(overrides)
+    field = Field(key, label, unit=unit, **kwargs)
+    default = model.model_fields[key].default
+    if default is not None and default is not PydanticUndefined and "default" not in overrides:
+        shown = float(default.to(pint_unit).magnitude) if hasattr(default, "to") else field.shown(default)
+        field = replace(field, default=shown)
+    return field
 
 
 def _safe(fn: Callable[[], float]) -> float | None:

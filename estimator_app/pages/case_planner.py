@@ -34,17 +34,19 @@ TOTAL_ROWS = (  # key, label, unit shown
 
 
 def phase_fields(fu: str) -> list[Field]:
-    """Columns of the phase table (flows in ``fu``); other phase keys (total_flow, oxygen_fraction...) are kept."""
-    scale = 1000.0 if fu == "mL/min" else 1.0
-    flow = {"dimension": "flow", "unit": fu, "low": 0.0, "high": 15.0 * scale, "step": 0.05 * scale}
+    """Columns of the phase table (flows in ``fu``), ranges from the scenario contract; other phase keys
+    (total_flow, oxygen_fraction, balance...) are kept and shown read-only."""
+    from estimator.scenario import PhaseInput as P
+
+    step = 50.0 if fu == "mL/min" else 0.05
     return [
         Field("label", "phase", "text"),
-        Field("duration", "duration", dimension="time", unit="min", low=0.0, high=1440.0, step=1.0),
-        Field("oxygen", "O2", **flow),
-        Field("air", "air", **flow),
-        Field("nitrous_oxide", "N2O", **flow),
-        Field("vaporizer", "dial", dimension="fraction", unit="%", low=0.0, high=25.0, step=0.1),
-        Field("end_tidal_target", "end-tidal hold", dimension="mac", unit="MAC", low=0.0, high=3.0, step=0.05),
+        contract(P, "duration", "duration", "min", step=1.0),
+        contract(P, "oxygen", "O2", fu, step=step),
+        contract(P, "air", "air", fu, step=step),
+        contract(P, "nitrous_oxide", "N2O", fu, step=step),
+        contract(P, "vaporizer", "dial", "%", step=0.1),
+        contract(P, "end_tidal_target", "end-tidal hold", "MAC", dimension="mac", low=0.0, high=3.0, step=0.05),
     ]
 
 
@@ -62,18 +64,17 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
     c1, c2, c3, c4 = st.columns([1, 1, 1, 1.2])
     with c1:
         st.markdown("**Patient**")
-        high = 300.0 if mu == "kg" else 661.0
         number(
             st,
             patient,
-            contract(PatientInput, "weight", "Weight", mu, "mass", low=0.5, high=high, step=1.0),
+            contract(PatientInput, "weight", "Weight", mu, step=1.0),
             f"case.weight.{v}.{mu}",
             format="%.1f",
         )
         number(
             st,
             patient,
-            contract(PatientInput, "age", "Age", "years", "age", low=0.0, high=120.0, step=1.0),
+            contract(PatientInput, "age", "Age", "years", step=1.0),
             f"case.age.{v}",
             format="%.0f",
         )
@@ -91,13 +92,13 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
         number(
             st,
             circuit,
-            contract(CircuitInput, "volume", "Circuit volume", "L", "volume", low=0.5, high=15.0, step=0.5),
+            contract(CircuitInput, "volume", "Circuit volume", "L", step=0.5),
             f"case.volume.{v}",
         )
         number(
             st,
             circuit,
-            contract(CircuitInput, "leak", "Leak", fu, "flow", low=0.0, high=5.0 * scale, step=0.01 * scale),
+            contract(CircuitInput, "leak", "Leak", fu, step=0.01 * scale),
             f"case.leak.{v}.{fu}",
         )
     with c4:
@@ -105,9 +106,7 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
         number(
             st,
             circuit,
-            contract(
-                CircuitInput, "sample_flow", "Sample flow", fu, "flow", low=0.0, high=0.5 * scale, step=0.01 * scale
-            ),
+            contract(CircuitInput, "sample_flow", "Sample flow", fu, step=0.01 * scale),
             f"case.sample.{v}.{fu}",
         )
         returned = bool(circuit.get("sample_returned", CircuitInput.model_fields["sample_returned"].default))

@@ -44,37 +44,24 @@ def fields(fu: str, scale: float) -> list[tuple[int, str, Field]]:
         (
             0,
             "thr",
-            contract(
-                F, "threshold_inspired_oxygen", "Inspired O2 threshold", "%", "fraction", low=21.0, high=100.0, step=1.0
-            ),
+            contract(F, "threshold_inspired_oxygen", "Inspired O2 threshold", "%", step=1.0),
         ),
         (
             1,
             f"basal.{fu}",
-            contract(
-                F,
-                "basal_oxygen_flow",
-                "Machine basal O2 flow",
-                fu,
-                "flow",
-                low=0.0,
-                high=1.0 * scale,
-                step=0.05 * scale,
-            ),
+            contract(F, "basal_oxygen_flow", "Machine basal O2 flow", fu, step=0.05 * scale),
         ),
         (
             2,
             "reach",
-            contract(
-                F, "reach_within", "Reach the end-tidal target within", "min", "time", low=0.5, high=120.0, step=1.0
-            ),
+            contract(F, "reach_within", "Reach the end-tidal target within", "min", step=1.0),
         ),
         (
             3,
             "washto",
-            contract(F, "wash_out_to", "Wash out to", "MAC", "mac", low=0.05, high=1.0, step=0.05, help=wash),
+            contract(F, "wash_out_to", "Wash out to", "MAC", step=0.05, help=wash),
         ),
-        (3, "washin", contract(F, "wash_out_within", "Wash out within", "min", "time", low=0.5, high=120.0, step=1.0)),
+        (3, "washin", contract(F, "wash_out_within", "Wash out within", "min", step=1.0)),
     ]
 
 

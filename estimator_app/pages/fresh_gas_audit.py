@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import io
 import tempfile
 from pathlib import Path
 from typing import Any
@@ -23,31 +22,14 @@ SCENARIO_PRICES = "the scenario's [prices]"
 NO_PRICES = "no prices"
 
 
-def _prices(text: str) -> Any:
-    """Prices of TOML text through the command line's loader (``--prices``), or None for no text."""
-    from estimator import costs
-
-    if not text:
-        return None
-    loader = getattr(costs, "prices_from_text", None)
-    return loader(text) if loader is not None else costs.load_prices(text)
-
-
-def _policy(text: str) -> Any:
-    """The policy of TOML text, validated as the command line's ``--policy`` validates it."""
-    from estimator.audit_policy import parse_policy
-
-    return parse_policy(contracts.parse_toml(text, "--policy"))
-
-
 @st.cache_data(max_entries=16, show_spinner="Auditing the log...")
 def run_audit(text: str, prices_text: str, basis: str, quadrature: str, after: float) -> Any:
     """The audit of a log's text: the command line's ``audit`` call with the same options."""
     from estimator.audit import audit
 
     return audit(
-        io.StringIO(text),
-        prices=_prices(prices_text),
+        contracts.load_log_text(text),
+        prices=contracts.load_prices_text(prices_text),
         basis=basis,
         quadrature=quadrature,
         maintenance_after=f"{after:g} min",
@@ -61,7 +43,9 @@ def run_counterfactual(
     from estimator.audit_policy import counterfactual
 
     result = run_audit(text, prices_text, basis, quadrature, after)
-    return counterfactual(result, _policy(policy_text), prices=_prices(prices_text))
+    return counterfactual(
+        result, contracts.load_policy_text(policy_text), prices=contracts.load_prices_text(prices_text)
+    )
 
 
 def _source(label: str, kind: str, key: str, extra: tuple[str, ...], box: Any) -> tuple[str, str]:

@@ -16,12 +16,13 @@ import pandas as pd
 import streamlit as st
 
 from estimator.properties import AGENTS
+from estimator.supply_file import BottleEntry, ConcentratorEntry, CylinderEntry, PlanOptions
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import contracts, state
 from ..charts import show, time_course
 from ..common import downloads, show_warnings, unit
-from ..editing import Field, kept_view, number, table
+from ..editing import Field, contract, kept_view, number, table
 
 KIND = "inventory"
 GASES = ("oxygen", "air", "nitrous_oxide")
@@ -34,30 +35,31 @@ def _gauge(pu: str) -> Any:
 
 
 def cylinder_fields(pu: str, mu: str) -> list[Field]:
+    """Columns of the cylinder table: ranges, defaults and help from the inventory contract."""
     gauge = _gauge(pu)
     return [
         Field("name", "name", "text"),
         Field("gas", "gas", "select", options=GASES),
         Field("count", "count", "integer", low=0, high=10000),
-        Field("water_capacity", "water capacity", dimension="volume", unit="L", low=0.0, high=200.0),
-        Field("pressure", "pressure (gauge)", dimension="pressure", unit=pu, low=0.0, read=gauge),
-        Field("reserve_pressure", "change-out at", dimension="pressure", unit=pu, low=0.0, read=gauge),
-        Field("temperature", "temperature", dimension="temperature", unit="degC", low=-40.0, high=60.0),
-        Field("gross_weight", "gross weight", dimension="mass", unit=mu, low=0.0),
-        Field("tare_weight", "tare weight", dimension="mass", unit=mu, low=0.0),
+        contract(CylinderEntry, "water_capacity", "water capacity", "L"),
+        contract(CylinderEntry, "pressure", "pressure (gauge)", pu, low=0.0, read=gauge),
+        contract(CylinderEntry, "reserve_pressure", "change-out at", pu, low=0.0, read=gauge),
+        contract(CylinderEntry, "temperature", "temperature", "degC"),
+        contract(CylinderEntry, "gross_weight", "gross weight", mu),
+        contract(CylinderEntry, "tare_weight", "tare weight", mu),
     ]
 
 
 BOTTLE_FIELDS = [
     Field("agent", "agent", "select", options=tuple(sorted(AGENTS))),
     Field("count", "count", "integer", low=0, high=10000),
-    Field("volume", "volume", dimension="volume", unit="mL", low=0.0, high=1000.0),
-    Field("opened", "opened bottle left", dimension="volume", unit="mL", low=0.0, high=1000.0),
+    contract(BottleEntry, "volume", "volume", "mL"),
+    contract(BottleEntry, "opened", "opened bottle left", "mL"),
 ]
 CONCENTRATOR_FIELDS = [
     Field("name", "name", "text"),
-    Field("rated_flow", "rated flow", dimension="flow", unit="L/min", low=0.0, high=100.0),
-    Field("hours_per_day", "hours a day", dimension="time", unit="h", low=0.0, high=24.0),
+    contract(ConcentratorEntry, "rated_flow", "rated flow", "L/min"),
+    contract(ConcentratorEntry, "hours_per_day", "hours a day", "h"),
     Field("count", "count", "integer", low=0, high=100),
 ]
 
@@ -73,8 +75,8 @@ def case_fields(names: list[str]) -> list[Field]:
 
 
 PLAN = [
-    Field("lead_time", "Order lead time", dimension="time", unit="day", low=0.0, high=3650.0, step=1.0),
-    Field("safety_stock", "Safety stock", dimension="time", unit="day", low=0.0, high=3650.0, step=1.0),
+    contract(PlanOptions, "lead_time", "Order lead time", "day", step=1.0),
+    contract(PlanOptions, "safety_stock", "Safety stock", "day", step=1.0),
 ]
 WORK = Field("working_days_per_week", "Working days a week", "integer", low=0, high=7)
 
