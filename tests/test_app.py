@@ -8,51 +8,25 @@ in direction (more flow, more agent), the ISO standard atmosphere, and the packa
 from __future__ import annotations
 
 import io
-import json
 import sys
 import tomllib
 from pathlib import Path
 
 import pytest
 
-ROOT = Path(__file__).resolve().parents[1]
-if str(ROOT) not in sys.path:  # app.py runs from the repository root; estimator_app is not installed
-    sys.path.insert(0, str(ROOT))
+if str(Path(__file__).resolve().parents[1]) not in sys.path:  # app.py runs from the repository root
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 import tomli_w  # noqa: E402
+from app_helpers import ROOT, TIMEOUT, assert_clean, metric, number, page  # noqa: E402
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
 from estimator.cli import CAUTION  # noqa: E402
 from estimator_app import demo  # noqa: E402
 from estimator_app.common import MAX_UPLOAD_BYTES, csv_bytes, read_upload, xlsx_bytes  # noqa: E402
 
-#: First run of a page imports the engine and loads numba's compiled cache; allow for a slow runner.
-TIMEOUT = 60
-
 #: 1 lb = 0.45359237 kg exactly (International Yard and Pound Agreement, 1959).
 KG_PER_LB = 0.45359237
-
-
-def page(name: str, scenario: dict | None = None) -> AppTest:
-    """One page with the shared frame, run once."""
-    at = AppTest.from_string(f"from estimator_app.shell import page_main\npage_main({name!r})", default_timeout=TIMEOUT)
-    if scenario is not None:
-        at.session_state["scenario"] = scenario
-        at.session_state["scenario.version"] = 0
-    return at.run()
-
-
-def metric(at: AppTest, label: str) -> str:
-    return next(m.value for m in at.metric if m.label == label)
-
-
-def number(text: str) -> float:
-    return float(text.split()[0].replace(",", ""))
-
-
-def assert_clean(at: AppTest) -> None:
-    assert not at.exception, [e.value for e in at.exception]
-    assert not at.error, [e.value for e in at.error]
 
 
 def test_app_opens_on_the_demo_case_with_the_caution():
@@ -196,104 +170,6 @@ def test_flow_floor_page_less_time_to_wash_out_raises_the_emergence_floor():
     at.number_input(key="floor.washin.0").set_value(5.0).run()
     assert_clean(at)
     assert at.dataframe[0].value.iloc[-1]["flow floor [L/min]"] > emergence["flow floor [L/min]"]
-
-
-def edit_table(at: AppTest, key: str, edits: dict) -> AppTest:
-    """Send a data editor the edit a browser sends (AppTest has no data-editor API): the editor's
-    JSON state of edited, added and deleted rows, with the other widgets as they stand."""
-    el = next(e for e in at.dataframe if e.key == key)
-    states = at._tree.get_widget_states()
-    w = states.widgets.add()
-    w.id = el.proto.id
-    w.string_value = json.dumps({"edited_rows": {}, "added_rows": [], "deleted_rows": [], **edits})
-    return at._run(states, timeout=TIMEOUT)
-
-
-def test_supply_page_more_cases_fewer_days():
-    at = page("supply_duration")
-    assert_clean(at)
-    days = number(metric(at, "Days of supply"))
-    assert metric(at, "Bottleneck") != "none"
-    # Twice the cases a day draw the stocks down faster: fewer days (common practice, no source).
-    at = edit_table(at, "supply.cases.0", {"edited_rows": {"0": {"cases a day": 8}}})
-    assert_clean(at)
-    assert number(metric(at, "Days of supply")) < days
-
-
-def test_supply_inventory_upload_with_its_scenario_and_a_misspelt_key():
-    at = page("supply_duration")
-    inv, named = demo.document("highland_clinic_inventory.toml")
-    inv["bottles"][0]["count"] = 40  # plenty of agent: the bottleneck must be another item
-    scenario = [(n, t.encode(), "application/toml") for n, t in named.items()]
-    at.get("file_uploader")[0].set_value([("inv.toml", tomli_w.dumps(inv).encode(), "application/toml"), *scenario])
-    at.run()
-    assert_clean(at)
-    assert "isoflurane" not in metric(at, "Bottleneck").lower()
-    # The same refusal as the command line's loader, with the field named; the loaded inventory stays.
-    inv["cylinders"][0]["water_capacty"] = "50 L"
-    at.get("file_uploader")[0].set_value([("bad.toml", tomli_w.dumps(inv).encode(), "application/toml"), *scenario])
-    at.run()
-    assert any("water_capacty" in e.value for e in at.error)
-    assert "isoflurane" not in metric(at, "Bottleneck").lower()
-    # An inventory whose case plan names a file not given with it is refused, naming the file.
-    at.get("file_uploader")[0].set_value([("alone.toml", tomli_w.dumps(demo.inventory()).encode(), "text/plain")])
-    at.run()
-    assert any("highland_mobile_team.toml" in e.value for e in at.error)
-
-
-def test_supply_empty_concentrator_table_takes_a_typed_rated_flow():
-    # Issue 14 item 11: a row added to an empty "Oxygen concentrators" table, with a rated flow typed
-    # in, gave a traceback. An empty table's columns are number columns too; the value the browser
-    # sends as text is read as a number, and no traceback reaches the page.
-    at = AppTest.from_string(
-        "from estimator_app.shell import page_main\npage_main('supply_duration')", default_timeout=TIMEOUT
-    )
-    inv, named = demo.document("highland_clinic_inventory.toml")
-    del inv["concentrators"]
-    at.session_state["supply.doc"], at.session_state["supply.doc.files"] = inv, named
-    at.session_state["supply.version"] = 0
-    at.run()
-    assert_clean(at)
-    without = number(metric(at, "Days of supply"))
-    for typed in ("10", 10):
-        at = edit_table(at, "supply.conc.0", {"added_rows": [{"rated flow [L/min]": typed}]})
-        assert_clean(at)
-        # A 10 L/min concentrator (24 h a day by default) relieves the O2 cylinders: more days.
-        assert number(metric(at, "Days of supply")) > without
-
-
-@pytest.mark.parametrize("name", ["case_planner", "supply_duration", "demand_forecast", "flow_floor"])
-def test_every_numeric_editor_column_is_a_number_column(name):
-    # Issue 14 item 11: a column holding numbers (or a unit in its label) is a number column with a
-    # lower bound, whether its table starts empty or not, so the browser never sends text for it.
-    at = page(name)
-    assert_clean(at)
-    editors = [e for e in at.dataframe if e.key]
-    for editor in editors:
-        config = json.loads(editor.proto.columns)
-        for title, frame_dtype in editor.value.dtypes.items():
-            numeric = str(frame_dtype).startswith(("float", "int")) and title != "_row"
-            if numeric or "[" in title:
-                assert config[title]["type_config"]["type"] == "number", (editor.key, title)
-                assert "min_value" in config[title]["type_config"], (editor.key, title)
-
-
-def test_a_fault_in_a_page_is_one_line_never_a_traceback():
-    # Any exception that is not an InputError is caught by the page shell and shown as one short
-    # line; config.toml keeps error details off as a second guard.
-    at = AppTest.from_string(
-        "from estimator_app.shell import guarded\n"
-        "from estimator.errors import InputError\n"
-        "guarded(lambda: 1 / 0)\n"
-        "guarded(lambda: (_ for _ in ()).throw(InputError('cylinders[0].pressure', '-3 bar', '0 to 300 bar')))\n",
-        default_timeout=TIMEOUT,
-    ).run()
-    assert not at.exception
-    assert len(at.error) == 2
-    assert "ZeroDivisionError" in at.error[0].value and "Traceback" not in at.error[0].value
-    assert "cylinders[0].pressure" in at.error[1].value and "0 to 300 bar" in at.error[1].value
-    config = tomllib.loads((ROOT / ".streamlit" / "config.toml").read_text(encoding="utf-8"))
-    assert config["client"]["showErrorDetails"] is False
 
 
 def test_audit_page_reports_rejections_kpis_and_counterfactual():

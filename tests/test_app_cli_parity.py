@@ -22,7 +22,7 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:  # app.py runs from the repository root; estimator_app is not installed
     sys.path.insert(0, str(ROOT))
 
-from streamlit.runtime.media_file_manager import MediaFileManager  # noqa: E402
+from app_helpers import capture_saves  # noqa: E402
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
 from estimator.cli import main  # noqa: E402
@@ -44,17 +44,8 @@ def cli_json(*argv: str) -> dict:
 
 @pytest.fixture
 def saved(monkeypatch) -> dict[str, bytes]:
-    """Bytes of every download the app builds eagerly (the save buttons), by file name."""
-    files: dict[str, bytes] = {}
-    real = MediaFileManager.add
-
-    def spy(self, data, mimetype, coordinates, file_name=None, is_for_static_download=False):  # noqa: ANN001
-        if file_name is not None and isinstance(data, bytes):
-            files[file_name] = data
-        return real(self, data, mimetype, coordinates, file_name, is_for_static_download)
-
-    monkeypatch.setattr(MediaFileManager, "add", spy)
-    return files
+    """Bytes of every save button the app builds, by file name."""
+    return capture_saves(monkeypatch)
 
 
 def open_page(module: str, picker: str | None = None, name: str | None = None) -> AppTest:
