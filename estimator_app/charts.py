@@ -88,6 +88,20 @@ def time_course(
     }
 
 
+def histogram(values: Any, x_title: str, y_title: str, height: int = 240) -> dict[str, Any]:
+    """Vega-Lite spec: a histogram of ``values`` (at most 30 bins) with labelled axes."""
+    return {
+        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
+        "height": height,
+        "data": {"values": [{"v": float(x)} for x in values]},
+        "mark": {"type": "bar", "color": PALETTE[0]},
+        "encoding": {
+            "x": {"field": "v", "type": "quantitative", "bin": {"maxbins": 30}, "title": x_title},
+            "y": {"aggregate": "count", "type": "quantitative", "title": y_title},
+        },
+    }
+
+
 def bars(frame: pd.DataFrame, x: str, y: str, x_title: str, y_title: str, color: str = PALETTE[0]) -> alt.Chart:
     """A simple bar chart with labelled axes."""
     import altair as alt

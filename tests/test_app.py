@@ -296,15 +296,24 @@ def test_chart_specs_follow_the_vega_lite_schema():
     from altair.utils.schemapi import validate_jsonschema
     from altair.vegalite.v6.schema.core import load_schema
 
-    from estimator_app.charts import bars, time_course
+    from estimator_app.charts import bars, histogram, time_course
 
     frame = pd.DataFrame({"time [min]": np.arange(6.0), "a [%]": np.linspace(21, 60, 6), "b": np.nan})
     for spec in (
         time_course(frame, {"a [%]": "A", "b": "B"}, "y [%]", rule=30.0, rule_label="limit"),
         time_course(frame, {"a [%]": "A"}, "y", step=True, x="time [min]"),
+        time_course(
+            pd.DataFrame({"date": pd.date_range("2026-04-06", periods=3).date, "s": [100.0, 60.0, 10.0]}),
+            {"s": "stock"},
+            "stock [%]",
+            x="date",
+            x_type="temporal",
+        ),
+        histogram(np.arange(10.0), "oxygen a week [L]", "weeks"),
     ):
         validate_jsonschema(spec, load_schema())
-        assert spec["layer"][0]["encoding"]["x"]["title"] == "time [min]"
+        x = (spec["layer"][0] if "layer" in spec else spec)["encoding"]["x"]
+        assert x["title"] in ("time [min]", "date", "oxygen a week [L]")
     bars(pd.DataFrame({"k": ["x"], "v": [1.0]}), "k", "v", "kind", "value [mL]").to_dict()  # altair validates
 
 

@@ -15,7 +15,7 @@ from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import contracts, state
-from ..charts import PALETTE, show
+from ..charts import histogram, show
 from ..common import downloads, show_warnings, unit
 from ..editing import Field, kept_view, number, table
 
@@ -140,22 +140,6 @@ def inputs() -> dict[str, Any]:
     return doc
 
 
-def histogram(result: Any, item: str) -> dict[str, Any]:
-    unit_ = result.units.get(item, "")
-    title = f"{item.replace('_', ' ')} a week" + (f" [{unit_}]" if unit_ else "")
-    values = [{"v": float(x)} for x in result.weekly[item]]
-    return {
-        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
-        "height": 240,
-        "data": {"values": values},
-        "mark": {"type": "bar", "color": PALETTE[0]},
-        "encoding": {
-            "x": {"field": "v", "type": "quantitative", "bin": {"maxbins": 30}, "title": title},
-            "y": {"aggregate": "count", "type": "quantitative", "title": "weeks"},
-        },
-    }
-
-
 def outputs(result: Any) -> None:
     currency = unit("currency") or (result.cost or {}).get("currency", "")
     items = pd.DataFrame(
@@ -187,7 +171,9 @@ def outputs(result: Any) -> None:
         key="forecast.pick",
         format_func=lambda k: k.replace("_", " "),
     )
-    show(histogram(result, pick))
+    unit_ = result.units.get(pick, "")
+    title = f"{pick.replace('_', ' ')} a week" + (f" [{unit_}]" if unit_ else "")
+    show(histogram(result.weekly[pick], title, "weeks"))
     st.subheader("Orders")
     orders = pd.DataFrame(
         [

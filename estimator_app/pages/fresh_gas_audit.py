@@ -15,7 +15,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import contracts, demo, state
 from ..charts import bars, show
-from ..common import MAX_UPLOAD_BYTES, read_upload, show_error, show_warnings, unit
+from ..common import MAX_UPLOAD_BYTES, XLSX, download_row, read_upload, show_error, show_warnings, unit
 from ..editing import Field, number
 
 SCENARIO_PRICES = "the scenario's [prices]"
@@ -189,20 +189,12 @@ def render() -> None:
             doc["counterfactual"] = cf
         return dumps(doc).encode("utf-8")
 
-    c = st.columns(4)
-    opts = {"width": "stretch", "on_click": "ignore"}
-    c[0].download_button(
-        "Cases (CSV)", lambda: _file(result, "csv"), "audit_cases.csv", "text/csv", key="audit.csv", **opts
+    download_row(
+        [
+            ("Cases (CSV)", lambda: _file(result, "csv"), "audit_cases.csv", "text/csv", None),
+            ("Workbook (XLSX)", lambda: _file(result, "xlsx"), "audit.xlsx", XLSX, None),
+            ("Report (HTML)", lambda: _file(result, "html"), "audit_report.html", "text/html", None),
+            ("JSON", as_json, "audit.json", "application/json", None),
+        ],
+        "audit",
     )
-    c[1].download_button(
-        "Workbook (XLSX)",
-        lambda: _file(result, "xlsx"),
-        "audit.xlsx",
-        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-        key="audit.xlsx",
-        **opts,
-    )
-    c[2].download_button(
-        "Report (HTML)", lambda: _file(result, "html"), "audit_report.html", "text/html", key="audit.html", **opts
-    )
-    c[3].download_button("JSON", as_json, "audit.json", "application/json", key="audit.json", **opts)
