@@ -8,6 +8,7 @@ contract's range, whether the table starts empty or not.
 
 from __future__ import annotations
 
+import copy
 import json
 import math
 from collections.abc import Callable
@@ -219,9 +220,12 @@ def table(rows: list[dict[str, Any]], fields: list[Field], key: str) -> list[dic
 
     Rows may be added and deleted; a row keeps its other keys (shown read-only in the last column).
     """
-    seed_key = f"{key}.seed"
-    if seed_key not in st.session_state:
+    seed_key, rows_key = f"{key}.seed", f"{key}.rows"
+    if key not in st.session_state or seed_key not in st.session_state:
+        # A new editor (or one whose state Streamlit dropped when another page ran): start from the
+        # document as it stands, and keep those rows as the base the edits apply to.
         st.session_state[seed_key] = frame(rows, fields)
+        st.session_state[rows_key] = copy.deepcopy(rows)
     seed = st.session_state[seed_key]
     config = {f.title: column(f) for f in fields}
     config[KEPT] = st.column_config.TextColumn(
@@ -229,7 +233,7 @@ def table(rows: list[dict[str, Any]], fields: list[Field], key: str) -> list[dic
     )
     config[_ROW] = None  # hidden: which loaded row an edited row came from
     edited = st.data_editor(seed, key=key, num_rows="dynamic", hide_index=True, width="stretch", column_config=config)
-    return rows_back(edited, rows, fields, seed)
+    return rows_back(edited, st.session_state[rows_key], fields, seed)
 
 
 def rows_back(edited: pd.DataFrame, rows: list[dict[str, Any]], fields: list[Field], seed: pd.DataFrame) -> list[dict]:

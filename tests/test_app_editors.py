@@ -170,3 +170,17 @@ def test_scenario_upload_with_an_unknown_key_is_refused_as_the_cli_refuses_it():
     at.run()
     assert [e.value for e in at.error] == [f"Input not accepted: {cli.value}"]
     assert at.session_state["scenario"] == demo.scenario()
+
+
+def test_an_edit_undone_gives_the_file_back(saved):
+    # A cell changed and changed back is the loaded value again, written as it was read.
+    at = page("case_planner")
+    name = demo.DEFAULT["scenario"]
+    original = tomllib.loads((ROOT / "demo_cases" / name).read_text(encoding="utf-8"))
+    key = next(d.key for d in at.dataframe if d.key and d.key.startswith("case.phases"))
+    at = edit_table(at, key, {"edited_rows": {"1": {"O2 [L/min]": 0.5}}})
+    assert_clean(at)
+    assert tomllib.loads(saved[name].decode())["phases"][1]["oxygen"] == "0.5 L/min"
+    at = edit_table(at, key, {"edited_rows": {"1": {"O2 [L/min]": 0.3}}})
+    assert_clean(at)
+    assert tomllib.loads(saved[name].decode()) == original

@@ -137,6 +137,7 @@ def inputs() -> dict[str, Any]:
     if not doc["case_types"] and "case_types" not in loaded:
         del doc["case_types"]
     kept_view(doc, {"weeks", "seed", "cover", "case_types"})
+    state.set_document(doc, KIND)
     return doc
 
 

@@ -150,6 +150,7 @@ def inputs() -> dict[str, Any]:
     rest["plan"] = {k: val for k, val in plan.items() if k not in ("start", "lead_time", "safety_stock")}
     rest["demand"] = {k: val for k, val in demand.items() if k not in ("cases", "working_days_per_week")}
     kept_view({k: val for k, val in rest.items() if val != {}}, set())
+    state.set_document(doc, KIND)
     return doc
 
 
