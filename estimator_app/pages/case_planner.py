@@ -8,13 +8,12 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-from estimator.errors import InputError
 from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import state
 from ..charts import show, time_course
-from ..common import downloads, flow_factor, show_error, show_warnings, unit
+from ..common import downloads, flow_factor, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
 
 TOTAL_ROWS = (  # key, label, unit shown
@@ -145,24 +144,10 @@ def totals_frame(result: Any) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
-def case_cost(result: Any, doc: dict[str, Any]) -> dict[str, Any] | None:
-    """Cost of the case at the scenario's [prices], or None without prices."""
-    if not doc.get("prices"):
-        return None
-    from estimator.costs import case_cost as cost_of
-    from estimator.costs import parse_prices
-
-    return cost_of(result.totals, parse_prices(doc["prices"]), result.scenario.agent.name)
-
-
-def outputs(result: Any, doc: dict[str, Any]) -> None:
+def outputs(result: Any) -> None:
     t = result.totals
     fu = unit("flow")
-    try:
-        cost = case_cost(result, doc)
-    except InputError as exc:
-        show_error(exc)
-        cost = None
+    cost = result.cost  # the engine prices the case at the scenario's [prices], as for lowflow case
     currency = unit("currency") or (cost or {}).get("currency", "")
     st.subheader("Totals")
     m = st.columns(5)
@@ -245,14 +230,11 @@ def outputs(result: Any, doc: dict[str, Any]) -> None:
     with st.expander("All totals"):
         st.dataframe(totals, hide_index=True, width="stretch")
 
-    def document() -> dict[str, Any]:
-        return {**result.to_json(), "cost": cost}
-
     st.subheader("Download the results")
     downloads(
         "case_result",
         {"series": result.series, "totals": totals, "phases": phases},
-        document,
+        result.to_json,
         "case",
         title=f"Case plan: {result.scenario.title or result.scenario.agent.name}",
         notes=[
@@ -273,4 +255,4 @@ def render() -> None:
     state.set_document(new)
     result = state.current_result()
     if result is not None:
-        outputs(result, new)
+        outputs(result)

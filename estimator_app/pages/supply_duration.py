@@ -16,7 +16,7 @@ import pandas as pd
 import streamlit as st
 
 from estimator.properties import AGENTS
-from estimator.supply_file import BottleEntry, ConcentratorEntry, CylinderEntry, PlanOptions
+from estimator.supply_file import BottleEntry, ConcentratorEntry, ContinuousDemand, CylinderEntry, PlanOptions
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import contracts, state
@@ -74,6 +74,13 @@ def case_fields(names: list[str]) -> list[Field]:
     ]
 
 
+CONTINUOUS_FIELDS = [
+    Field("name", "name", "text"),
+    Field("gas", "gas", "select", options=GASES),
+    contract(ContinuousDemand, "flow", "flow", "L/min"),
+    contract(ContinuousDemand, "hours_per_day", "hours a day", "h"),
+    Field("days_per_week", "days a week", "integer", low=0, high=7, default=7),
+]
 PLAN = [
     contract(PlanOptions, "lead_time", "Order lead time", "day", step=1.0),
     contract(PlanOptions, "safety_stock", "Safety stock", "day", step=1.0),
@@ -129,6 +136,8 @@ def inputs() -> dict[str, Any]:
     st.markdown("**Case plans** - each runs the scenario file it names, given with the inventory")
     names = sorted({*state.files(KIND), *contracts.PLANNER_NAMES[:1], *contracts.referenced(KIND, loaded)})
     demand["cases"] = table(demand.get("cases", []), case_fields(names), f"supply.cases.{v}")
+    st.markdown("**Continuous use** - oxygen or air drawn through the day outside the cases (recovery, ventilators)")
+    demand["continuous"] = table(demand.get("continuous", []), CONTINUOUS_FIELDS, f"supply.cont.{v}")
     st.markdown(f"**Cylinders** - gauge pressure as read [{pu}]; nitrous oxide by weight [{mu}]")
     doc["cylinders"] = table(doc.get("cylinders", []), cylinder_fields(pu, mu), f"supply.cyl.{v}.{pu}.{mu}")
     a, b = st.columns(2)
@@ -144,11 +153,12 @@ def inputs() -> dict[str, Any]:
     for key in ("cylinders", "bottles", "concentrators"):
         if not doc[key] and key not in loaded:
             del doc[key]
-    if "cases" in demand and not demand["cases"] and "cases" not in loaded.get("demand", {}):
-        del demand["cases"]
+    for key in ("cases", "continuous"):
+        if not demand[key] and key not in loaded.get("demand", {}):
+            del demand[key]
     rest = {k: val for k, val in doc.items() if k not in ("cylinders", "bottles", "concentrators")}
     rest["plan"] = {k: val for k, val in plan.items() if k not in ("start", "lead_time", "safety_stock")}
-    rest["demand"] = {k: val for k, val in demand.items() if k not in ("cases", "working_days_per_week")}
+    rest["demand"] = {k: val for k, val in demand.items() if k not in ("cases", "continuous", "working_days_per_week")}
     kept_view({k: val for k, val in rest.items() if val != {}}, set())
     state.set_document(doc, KIND)
     return doc
