@@ -94,6 +94,7 @@ def load_demo(kind: str, name: str) -> None:
 
 def demo_picker(kind: str, box: Any = st) -> None:
     """A select box of the demo folder's files of ``kind``; choosing one loads it."""
+    document(kind)
     key = f"{_keys(kind)[0]}.demo"
     names = demo.files_of(kind)
     current = st.session_state.get(f"{_keys(kind)[0]}.name")
