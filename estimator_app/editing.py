@@ -170,12 +170,12 @@ def number(box: Any, doc: dict[str, Any], field: Field, key: str, **kwargs: Any)
 
 
 def kept_text(row: dict[str, Any], fields: list[Field]) -> str:
-    """The keys of a row that no column edits, as TOML-like ``key = value`` pairs."""
-    edited = {f.key for f in fields}
+    """The keys of a row that no column shows, as TOML-like ``key = value`` pairs."""
+    edited = {f.key: f for f in fields}
     parts = []
     for k, v in row.items():
-        if k in edited:
-            continue
+        if k in edited and (v is None or edited[k].shown(v) is not None):
+            continue  # its column shows it (a value the column cannot show, e.g. a target in %, is listed)
         try:
             parts.append(tomli_w.dumps({k: v}).strip())
         except TypeError:
