@@ -330,8 +330,8 @@ def test_policy_max_cases_has_a_range():
 
 def test_quantity_fields_carry_unit_range_and_description():
     from estimator.fields import quantity_spec, quantity_specs
+    from estimator.inventory_file import ConcentratorEntry
     from estimator.scenario import PatientInput, PhaseInput
-    from estimator.supply_file import ConcentratorEntry
 
     age = quantity_specs(PatientInput)["age"]
     assert (age.unit, age.low, age.high) == ("year", 0.0, 120.0)
