@@ -95,10 +95,11 @@ def test_every_contract_has_a_path_loader_and_a_text_parser(tmp_path, module, lo
     assert "TOPSECRET" not in str(error_of(getattr(mod, loader), secret))
 
 
-def test_text_errors_never_quote_the_text():
+@pytest.mark.parametrize("text", ['password = "TOPSECRET"\n[[concentrators]\n', "[a.TOPSECRET]\n[a.TOPSECRET]\n"])
+def test_text_errors_never_quote_the_text(text):
     from estimator.supply import inventory_from_text
 
-    err = error_of(inventory_from_text, 'password = "TOPSECRET"\n[[concentrators]\n')
+    err = error_of(inventory_from_text, text)
     assert "TOPSECRET" not in str(err) and err.field == "inventory"
 
 
