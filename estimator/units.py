@@ -118,7 +118,7 @@ def _to_quantity(value: Any, field: str, expected: str) -> pint.Quantity:
     try:
         magnitude = float(number)
         units = ureg.parse_units(_unit_text(unit)) if unit else ureg.dimensionless
-    except (pint.errors.PintError, ValueError, AttributeError, TypeError, SyntaxError, KeyError, AssertionError):
+    except Exception:  # noqa: BLE001 - pint's parser raises many kinds (TokenError, IndexError...) on odd text
         raise InputError(field, value, expected) from None
     return Q_(magnitude, units)
 

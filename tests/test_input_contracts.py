@@ -370,6 +370,11 @@ def test_gauge_marker_on_a_partial_pressure_is_explained():
     assert "[mass]" not in str(err) and "gauge" in err.expected
 
 
+@pytest.mark.parametrize("text", ["0{", "1 (", "2 L/(min", "3 ]"])
+def test_odd_unit_text_is_an_input_error(text):
+    assert scenario_error(lambda d: d["patient"].update(weight=text)).field == "patient.weight"
+
+
 def test_unknown_unit_kind_is_said_in_words():
     err = scenario_error(lambda d: d["phases"][0].update(oxygen="2 kg**2/m"))
     assert "[mass]" not in str(err) and err.field == "phases[0].oxygen"
