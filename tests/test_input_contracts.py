@@ -421,6 +421,13 @@ def test_inventory_unknown_key_uses_the_same_wording():
     assert err.field == "bottles[0].cont" and err.expected.startswith("a key valid here")
 
 
+def test_manifold_loss_follows_the_bare_number_rule_and_names_the_flag(log, capsys):
+    code, _, err = run(capsys, "audit", str(log), "--manifold-loss", "50")
+    assert code == 2 and "--manifold-loss" in err and "50 %" in err
+    code, _, _ = run(capsys, "audit", str(log), "--manifold-loss", "85 %")
+    assert code == 0
+
+
 def test_safe_flow_threshold_follows_the_bare_number_rule(tmp_path, capsys):
     f = tmp_path / "case.toml"
     f.write_text(SCENARIO)
