@@ -428,6 +428,21 @@ def test_manifold_loss_follows_the_bare_number_rule_and_names_the_flag(log, caps
     assert code == 0
 
 
+@pytest.mark.parametrize(
+    "args,flag",
+    [
+        (["supply", str(DATA / "inventory_backup.toml"), "--start", "2026-13-01"], "--start"),
+        (["forecast", str(DATA / "casemix_department.toml"), "--weeks", "0"], "--weeks"),
+        (["forecast", str(DATA / "casemix_department.toml"), "--seed", "-1"], "--seed"),
+        (["audit", str(DATA / "audit_two_rooms.csv"), "--maintenance-after", "1e300 min"], "--maintenance-after"),
+        (["audit", str(DATA / "audit_two_rooms.csv"), "--basis", "x"], "--basis"),
+    ],
+)
+def test_option_values_are_named_by_their_option(capsys, args, flag):
+    code, _, err = run(capsys, *args)
+    assert code == 2 and err.startswith(f"lowflow: error: {flag}:")
+
+
 def test_safe_flow_threshold_follows_the_bare_number_rule(tmp_path, capsys):
     f = tmp_path / "case.toml"
     f.write_text(SCENARIO)

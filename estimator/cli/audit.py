@@ -28,7 +28,16 @@ import typer
 from ..errors import InputError
 from ..jsonout import dumps
 from . import CAUTION, app
-from .outputs import output_paths, write_output
+from .outputs import option_names, output_paths, write_output
+
+#: Fields of the audit set by an option, named by the option in errors.
+_AUDIT_OPTIONS = {
+    "basis": "--basis",
+    "co2e_basis": "--basis",
+    "quadrature": "--quadrature",
+    "maintenance_after": "--maintenance-after",
+    "manifold_loss": "--manifold-loss",
+}
 
 
 def _as_option(exc: InputError, name: str, flag: str) -> InputError:
@@ -102,14 +111,15 @@ def audit_command(
     price_table = _prices(prices) if prices is not None else (DEMO_PRICES if demo_prices else None)
     if not Path(log).is_file():
         raise InputError("LOG", log, "an existing CSV file")
-    result = audit(
-        log,
-        prices=price_table,
-        basis=basis,
-        quadrature=quadrature,
-        maintenance_after=maintenance_after,
-        manifold_loss=manifold_loss,
-    )
+    with option_names(_AUDIT_OPTIONS):
+        result = audit(
+            log,
+            prices=price_table,
+            basis=basis,
+            quadrature=quadrature,
+            maintenance_after=maintenance_after,
+            manifold_loss=manifold_loss,
+        )
     if policy is not None:
         from ..audit_policy import counterfactual
 

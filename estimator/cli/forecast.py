@@ -7,6 +7,7 @@ from pathlib import Path
 import typer
 
 from . import CAUTION, app
+from .outputs import option_names
 
 _LABELS = {
     "cases": "cases",
@@ -31,7 +32,11 @@ def forecast(
     from ..forecast import forecast as run
     from ..jsonout import dumps
 
-    result = run(load_casemix(file), weeks=weeks, seed=seed)
+    mix = load_casemix(file)
+    with option_names(
+        {"weeks": "--weeks" if weeks is not None else None, "seed": "--seed" if seed is not None else None}
+    ):
+        result = run(mix, weeks=weeks, seed=seed)
     typer.echo(dumps(result.to_json()) if json_out else summary(result))
 
 
