@@ -375,6 +375,15 @@ def test_odd_unit_text_is_an_input_error(text):
     assert scenario_error(lambda d: d["patient"].update(weight=text)).field == "patient.weight"
 
 
+@pytest.mark.parametrize(
+    "weight",
+    [{"magnitude": 70, "units": "kg("}, {"magnitude": "x", "units": "kg"}, {"magnitude": [1, 2], "units": "kg"}],
+)
+def test_odd_json_quantities_are_input_errors(weight):
+    err = scenario_error(lambda d: d["patient"].update(weight=weight))
+    assert err.field == "patient.weight" and "could not convert" not in err.expected
+
+
 def test_unknown_unit_kind_is_said_in_words():
     err = scenario_error(lambda d: d["phases"][0].update(oxygen="2 kg**2/m"))
     assert "[mass]" not in str(err) and err.field == "phases[0].oxygen"
