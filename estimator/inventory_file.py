@@ -93,6 +93,19 @@ def _purity_check(value: Any) -> Any:
     return value
 
 
+def _iso_date(value: Any) -> date | None:
+    if value is None or (isinstance(value, date) and not hasattr(value, "hour")):
+        return value
+    try:
+        return date.fromisoformat(value.strip()) if isinstance(value, str) else _no_date()
+    except ValueError:
+        raise ValueError("a date such as 2026-03-02 (ISO 8601)") from None
+
+
+def _no_date() -> date:
+    raise ValueError("a date such as 2026-03-02 (ISO 8601)")
+
+
 #: Hours of a day, 0 to 24 h.
 Hours = quantity("time", 0.0, 24.0, "h", bare_unit="h", keep_text=True, description="hours a day")
 #: Days of lead time or safety stock, 0 to 10 years (practical limit, no source).
@@ -193,7 +206,7 @@ class Demand(_Strict):
 
 
 class PlanOptions(_Strict):
-    start: date | str | None = None
+    start: Annotated[date | None, BeforeValidator(_iso_date)] = None
     lead_time: Days = "0 day"
     safety_stock: Days = "0 day"
     table_days: _whole(1, 3650) = 365

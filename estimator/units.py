@@ -178,7 +178,9 @@ def _describe(q: pint.Quantity) -> str:
         if name == "age":
             continue
         if q.check(dim):
-            return "a dimensionless number" if name == "fraction" else f"a {name.replace('_', ' ')}"
+            return {"fraction": "a dimensionless number", "mac": "a MAC multiple"}.get(
+                name, f"a {name.replace('_', ' ')}"
+            )
     return f"'{unit_label(q.units)}', a unit of another kind"
 
 

@@ -297,6 +297,7 @@ def test_a_large_price_in_a_many_digit_currency_is_accepted():
         ('[plan]\nlead_time = "1e9 day"\n', "plan.lead_time"),
         ('[absorbent]\nstock = "banana"\n', "absorbent.stock"),
         ('[site]\nelevation = "20 km"\n', "site.elevation"),
+        ("[plan]\nstart = 70\n", "plan.start"),
         (CONCENTRATOR + "purity = 93\n", "concentrators[0].purity"),
         (CONCENTRATOR + 'purity = [["0 L/min", "x"], ["5 L/min", "90 %"]]\n', "concentrators[0].purity[0][1]"),
     ],
@@ -305,6 +306,13 @@ def test_inventory_values_are_checked_at_load(text, field):
     from estimator.supply import inventory_from_text
 
     assert error_of(inventory_from_text, text).field == field
+
+
+def test_a_json_quantity_is_accepted_in_an_inventory():
+    from estimator.supply import inventory_from_text
+
+    inv = inventory_from_text('[[concentrators]]\nrated_flow = { magnitude = 5, units = "L/min" }\n')
+    assert inv.concentrators[0].rated_flow == {"magnitude": 5, "units": "L/min"}
 
 
 def test_concentrator_start_accepts_a_proper_clock_time():
