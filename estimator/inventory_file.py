@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import os
 import re
-from datetime import date
+from datetime import date, datetime
 from pathlib import Path
 from typing import Annotated, Any
 
@@ -94,15 +94,14 @@ def _purity_check(value: Any) -> Any:
 
 
 def _iso_date(value: Any) -> date | None:
-    if value is None or (isinstance(value, date) and not hasattr(value, "hour")):
+    """``plan.start``: a TOML date or ISO 8601 text; a date with a time of day is refused."""
+    if value is None or (isinstance(value, date) and not isinstance(value, datetime)):
         return value
-    try:
-        return date.fromisoformat(value.strip()) if isinstance(value, str) else _no_date()
-    except ValueError:
-        raise ValueError("a date such as 2026-03-02 (ISO 8601)") from None
-
-
-def _no_date() -> date:
+    if isinstance(value, str):
+        try:
+            return date.fromisoformat(value.strip())
+        except ValueError:
+            pass
     raise ValueError("a date such as 2026-03-02 (ISO 8601)")
 
 
