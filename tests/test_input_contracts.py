@@ -2,39 +2,20 @@
 and error messages in the user's own units and words."""
 
 import copy
-import shutil
 from pathlib import Path
 
 import pytest
+from contract_helpers import SCENARIO, run
 
-from estimator.cli import main
 from estimator.errors import InputError
 
 DATA = Path(__file__).parent / "data"
-SCENARIO = """
-[patient]
-weight = "70 kg"
-[agent]
-name = "sevoflurane"
-[[phases]]
-duration = "10 min"
-oxygen = "1 L/min"
-air = "1 L/min"
-vaporizer = "2 %"
-"""
 BASE = {
     "patient": {"weight": "70 kg"},
     "agent": {"name": "sevoflurane"},
     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}],
 }
 CONCENTRATOR = '[[concentrators]]\nrated_flow = "5 L/min"\n'
-
-
-def run(capsys, *args):
-    with pytest.raises(SystemExit) as exc:
-        main(list(args))
-    out = capsys.readouterr()
-    return exc.value.code, out.out, out.err
 
 
 def error_of(fn, *args, **kwargs) -> InputError:
@@ -174,83 +155,6 @@ def test_case_and_supply_treat_a_non_toml_scenario_alike(tmp_path, capsys):
     inv = _inventory(tmp_path, "case.txt")
     code, _, err = run(capsys, "supply", str(inv), "--start", "2026-03-02")
     assert code == 2 and ".toml" in err and "demand.cases[0].scenario" in err
-
-
-# ------------------------------------------------------------------ items 7, 8: output paths
-@pytest.fixture
-def log(tmp_path):
-    path = tmp_path / "log.csv"
-    shutil.copy(DATA / "audit_two_rooms.csv", path)
-    return path
-
-
-def test_output_never_overwrites_an_input(log, capsys):
-    before = log.read_bytes()
-    code, _, err = run(capsys, "audit", str(log), "--csv", str(log))
-    assert code == 2 and "--csv" in err and "LOG" in err
-    assert log.read_bytes() == before
-
-
-def test_output_never_overwrites_an_input_by_another_spelling(log, capsys, monkeypatch):
-    monkeypatch.chdir(log.parent)
-    code, _, err = run(capsys, "audit", "log.csv", "--report", "./sub/../log.csv")
-    assert code == 2 and "--report" in err
-
-
-def test_two_outputs_to_one_file_refused(log, capsys, tmp_path):
-    out = tmp_path / "out.csv"
-    code, _, err = run(capsys, "audit", str(log), "--csv", str(out), "--report", str(out))
-    assert code == 2 and "--report" in err
-
-
-@pytest.mark.parametrize(
-    "flag,target",
-    [
-        ("--csv", "missing/folder/out.csv"),
-        ("--report", "/proc/version"),
-        ("--xlsx", "."),
-    ],
-)
-def test_bad_output_targets_exit_2_naming_the_flag(log, capsys, tmp_path, monkeypatch, flag, target):
-    monkeypatch.chdir(tmp_path)
-    code, _, err = run(capsys, "audit", str(log), flag, target)
-    assert code == 2 and flag in err and "internal error" not in err
-
-
-def test_case_csv_into_a_missing_folder_names_the_flag(tmp_path, capsys):
-    f = tmp_path / "case.toml"
-    f.write_text(SCENARIO)
-    code, _, err = run(capsys, "case", str(f), "--csv", str(tmp_path / "no" / "x.csv"))
-    assert code == 2 and "--csv" in err
-
-
-def test_case_csv_cannot_overwrite_its_scenario(tmp_path, capsys):
-    f = tmp_path / "case.toml"
-    f.write_text(SCENARIO)
-    code, _, err = run(capsys, "case", str(f), "--csv", str(f))
-    assert code == 2 and "--csv" in err
-    assert f.read_text() == SCENARIO
-
-
-@pytest.mark.parametrize("verb", ["case", "safe-flow", "supply"])
-def test_deeply_nested_toml_is_a_file_error(tmp_path, capsys, verb):
-    f = tmp_path / "deep.toml"
-    f.write_text("a = " + "[" * 5000)
-    code, _, err = run(capsys, verb, str(f))
-    assert code == 2 and "internal error" not in err and "deep.toml" in err
-
-
-@pytest.mark.parametrize("flag", ["--prices", "--policy"])
-def test_deeply_nested_prices_or_policy_name_the_flag(log, tmp_path, capsys, flag):
-    f = tmp_path / "deep.toml"
-    f.write_text("a = " + "[" * 5000)
-    code, _, err = run(capsys, "audit", str(log), flag, str(f))
-    assert code == 2 and flag in err and "internal error" not in err
-
-
-def test_an_unreadable_input_is_exit_2(tmp_path, capsys):
-    code, _, err = run(capsys, "case", str(tmp_path))  # a folder, not a file
-    assert code == 2 and "internal error" not in err
 
 
 # ------------------------------------------------------------------ item 9: ranges at load
@@ -436,34 +340,3 @@ def test_inventory_unknown_key_uses_the_same_wording():
 
     err = error_of(inventory_from_text, "[[bottles]]\nagent = 'sevoflurane'\ncont = 3\n")
     assert err.field == "bottles[0].cont" and err.expected.startswith("a key valid here")
-
-
-def test_manifold_loss_follows_the_bare_number_rule_and_names_the_flag(log, capsys):
-    code, _, err = run(capsys, "audit", str(log), "--manifold-loss", "50")
-    assert code == 2 and "--manifold-loss" in err and "50 %" in err
-    code, _, _ = run(capsys, "audit", str(log), "--manifold-loss", "85 %")
-    assert code == 0
-
-
-@pytest.mark.parametrize(
-    "args,flag",
-    [
-        (["supply", str(DATA / "inventory_backup.toml"), "--start", "2026-13-01"], "--start"),
-        (["forecast", str(DATA / "casemix_department.toml"), "--weeks", "0"], "--weeks"),
-        (["forecast", str(DATA / "casemix_department.toml"), "--seed", "-1"], "--seed"),
-        (["audit", str(DATA / "audit_two_rooms.csv"), "--maintenance-after", "1e300 min"], "--maintenance-after"),
-        (["audit", str(DATA / "audit_two_rooms.csv"), "--basis", "x"], "--basis"),
-    ],
-)
-def test_option_values_are_named_by_their_option(capsys, args, flag):
-    code, _, err = run(capsys, *args)
-    assert code == 2 and err.startswith(f"lowflow: error: {flag}:")
-
-
-def test_safe_flow_threshold_follows_the_bare_number_rule(tmp_path, capsys):
-    f = tmp_path / "case.toml"
-    f.write_text(SCENARIO)
-    code, _, err = run(capsys, "safe-flow", str(f), "--threshold", "30")
-    assert code == 2 and "--threshold" in err and "30 %" in err
-    code, _, err = run(capsys, "safe-flow", str(f), "--threshold", "10 %")
-    assert code == 2 and "--threshold" in err and "21 to 100 %" in err
