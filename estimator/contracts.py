@@ -18,6 +18,7 @@ estimator.errors.InputError: scenario: got '(TOML text)'; expected TOML whose ar
 from __future__ import annotations
 
 import os
+import re
 import tomllib
 from pathlib import Path
 from typing import Any
@@ -52,8 +53,13 @@ def toml_from_text(text: str, name: str) -> dict[str, Any]:
 
 
 def _toml_reason(exc: tomllib.TOMLDecodeError) -> str:
-    """tomllib's reason and place; its messages name the place, not the offending text."""
-    return str(exc).splitlines()[0][:200]
+    """tomllib's reason and place, with any key it quotes from the file left out.
+
+    >>> _toml_reason(tomllib.TOMLDecodeError("Cannot declare ('a', 'secret') twice (at line 2, column 10)"))
+    'Cannot declare a table twice (at line 2, column 10)'
+    """
+    text = str(exc).splitlines()[0][:200]
+    return re.sub(r"\((?:'[^']*'|\"[^\"]*\")(?:,\s*(?:'[^']*'|\"[^\"]*\"))*,?\)", "a table", text)
 
 
 def read_toml(path: str | os.PathLike[str], name: str, expected: str) -> dict[str, Any]:
@@ -173,7 +179,6 @@ def _join(a: str, b: str) -> str:
 
 def _dig(value: Any, path: str) -> Any:
     """The item at a dotted path such as ``phases[1].vaporizer`` inside parsed input."""
-    import re
 
     for key, index in re.findall(r"([^.\[\]]+)|\[(\d+)\]", path):
         if key and isinstance(value, dict):

@@ -149,14 +149,16 @@ def _per_ml(p: AgentPriceInput, where: str) -> float | None:
         )
     if bottle is not None:
         if p.bottle_volume is None:
-            raise InputError(f"{where}.bottle_volume", None, "a bottle volume such as '250 mL' beside agent_bottle")
+            raise InputError(
+                f"{where}.bottle_volume", "(missing)", "a bottle volume such as '250 mL' beside agent_bottle"
+            )
         vol = parse_quantity(p.bottle_volume, f"{where}.bottle_volume", "volume", default_unit="mL")
         check_range(
             vol, f"{where}.bottle_volume", Q_(1, "mL"), Q_(5000, "mL"), value=p.bottle_volume, low_inclusive=True
         )
         return bottle / vol.to("mL").magnitude
     if p.bottle_volume is not None:
-        raise InputError(f"{where}.agent_bottle", None, "a bottle price beside bottle_volume")
+        raise InputError(f"{where}.agent_bottle", "(missing)", "a bottle price beside bottle_volume")
     return per_ml
 
 

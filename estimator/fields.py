@@ -126,7 +126,7 @@ def quantity(
         ``Annotated[Quantity, BeforeValidator, QuantitySpec]``.
     """
     spec = QuantitySpec(dimension, float(low), float(high), unit, description, low_open, bare_unit, keep_text)
-    base = str | int | float if keep_text else pint.Quantity
+    base = Any if keep_text else pint.Quantity  # kept as given: checked above, parsed again downstream
     return Annotated[base, BeforeValidator(spec.validate), spec]
 
 

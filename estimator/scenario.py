@@ -72,16 +72,20 @@ class _Model(BaseModel):
 class PatientInput(_Model):
     """``[patient]``: weight required; age default 40 years; optional physiological overrides."""
 
-    weight: _quantity("mass", 0.5, 300.0, "kg")
-    age: _quantity("age", 0.0, 120.0, "year") = Q_(40.0, "year")
-    oxygen_consumption: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True) | None = None
-    carbon_dioxide_production: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True) | None = None
-    cardiac_output: _quantity("flow", 0.05, 30.0, "L/min") | None = None
-    alveolar_ventilation: _quantity("flow", 0.05, 40.0, "L/min") | None = None
-    minute_ventilation: _quantity("flow", 0.05, 50.0, "L/min") | None = None
-    frc: _quantity("volume", 0.02, 8.0, "L") | None = None
-    target_paco2: _quantity("pressure", 20.0, 80.0, "mmHg") = Q_(40.0, "mmHg")
-    respiratory_rate: _quantity("rate", 2.0, 80.0, "1/min") = Q_(12.0, "1/min")
+    # Ranges: practical limits of the physiology model (a preterm neonate to the heaviest adults;
+    # ages of the Mapleson 1996 fit and beyond), no source beyond common practice.
+    weight: _quantity("mass", 0.5, 300.0, "kg", description="body weight")
+    age: _quantity("age", 0.0, 120.0, "year", description="age") = Q_(40.0, "year")
+    # Overrides of the weight-scaled values: from neonatal to heavy exercise (common practice).
+    oxygen_consumption: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VO2") | None = None
+    carbon_dioxide_production: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VCO2") | None = None
+    cardiac_output: _quantity("flow", 0.05, 30.0, "L/min", description="cardiac output") | None = None
+    alveolar_ventilation: _quantity("flow", 0.05, 40.0, "L/min", description="alveolar ventilation") | None = None
+    minute_ventilation: _quantity("flow", 0.05, 50.0, "L/min", description="minute ventilation") | None = None
+    frc: _quantity("volume", 0.02, 8.0, "L", description="functional residual capacity") | None = None
+    # Target arterial CO2 partial pressure: deliberate hypo- to permissive hypercapnia.
+    target_paco2: _quantity("pressure", 20.0, 80.0, "mmHg", description="target PaCO2") = Q_(40.0, "mmHg")
+    respiratory_rate: _quantity("rate", 2.0, 80.0, "1/min", description="breaths a minute") = Q_(12.0, "1/min")
     initial: Literal["room_air", "preoxygenated"] = "room_air"
 
 
@@ -89,7 +93,8 @@ class AgentInput(_Model):
     """``[agent]``: name, optional vaporizer maximum and type."""
 
     name: str
-    vaporizer_max: _quantity("fraction", 0.001, 0.25, "dimensionless") | None = None
+    # Highest dial mark: every vaporizer in use reads at most 18 % (desflurane); 25 % bounds typos.
+    vaporizer_max: _quantity("fraction", 0.001, 0.25, "dimensionless", description="highest dial mark") | None = None
     vaporizer_type: Literal["variable_bypass", "heated_pressurised"] | None = None
 
     @model_validator(mode="before")
@@ -106,15 +111,19 @@ class AgentInput(_Model):
 class CircuitInput(_Model):
     """``[circuit]``: volume, leak, side-stream sample flow and whether it returns to the circuit."""
 
-    volume: _quantity("volume", 0.5, 15.0, "L") = Q_(6.0, "L")
-    leak: _quantity("flow", 0.0, 5.0, "L/min") = Q_(0.0, "L/min")
-    sample_flow: _quantity("flow", 0.0, 0.5, "L/min") = Q_(0.2, "L/min")
+    # Circle volumes from a paediatric circuit to a large adult one with bag (common practice).
+    volume: _quantity("volume", 0.5, 15.0, "L", description="circle system volume") = Q_(6.0, "L")
+    leak: _quantity("flow", 0.0, 5.0, "L/min", description="circuit leak") = Q_(0.0, "L/min")
+    # Side-stream gas monitors draw 50-250 mL/min (common practice, no source).
+    sample_flow: _quantity("flow", 0.0, 0.5, "L/min", description="side-stream sample flow") = Q_(0.2, "L/min")
     sample_returned: bool = True
     initial: Literal["room_air", "oxygen"] = "room_air"
     inspiratory_fraction: _quantity("fraction", 0.0, 0.8, "dimensionless") = Q_(1 / 3, "dimensionless")
     deficit_makeup: Literal["fresh_gas", "room_air"] = "fresh_gas"
-    absorbent_capacity: _quantity("volume", 1.0, 26.0, "L") = Q_(12.0, "L")
-    """Practical CO2 capacity per 100 g of absorbent (10-15 L; REFERENCES sec. 10)."""
+    # Up to 26 L, the theoretical capacity of soda lime per 100 g (estimator/data/supply.toml).
+    absorbent_capacity: _quantity("volume", 1.0, 26.0, "L", description="CO2 taken up per 100 g") = Q_(12.0, "L")
+    """Practical CO2 capacity per 100 g of absorbent (10-15 L; source ``absorbent_texts`` in
+    estimator/data/supply.toml)."""
 
 
 class SiteInput(_Model):
@@ -125,8 +134,10 @@ class SiteInput(_Model):
     # Room temperatures the site model accepts (estimator.site.TEMPERATURE_RANGE).
     temperature: _quantity("temperature", *SITE_TEMPERATURE, "degC") = Q_(20.0, "degC")
     oxygen_source: Literal["cylinder", "pipeline", "concentrator"] = "cylinder"
-    oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless") | None = None
-    argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless") | None = None
+    # Concentrator product is at least 82 % O2 by the ISO 80601-2-69 alarm limit (from memory); 80 %
+    # leaves room for a worn sieve. Argon stays in the product, up to a few percent.
+    oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless", description="O2 in the supply") | None = None
+    argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless", description="argon in the supply") | None = None
     flowmeter_readings: bool = False
     """Phase flows are readings of float flowmeters, each calibrated for its own gas at 20 degC and
     101.325 kPa; the engine converts them to true flows at the site (estimator.flowmeter)."""
@@ -139,10 +150,12 @@ class PhaseInput(_Model):
     oxygen: Flow | None = None
     air: Flow | None = None
     nitrous_oxide: Flow | None = None
-    oxygen_fraction: _quantity("fraction", 0.21, 1.0, "dimensionless") | None = None
+    # From air (21 %) to pure oxygen: a fresh gas below air is hypoxic.
+    oxygen_fraction: _quantity("fraction", 0.21, 1.0, "dimensionless", description="O2 in the fresh gas") | None = None
     total_flow: Flow | None = None
     balance: Literal["air", "nitrous_oxide"] | None = None
-    vaporizer: _quantity("fraction", 0.0, 0.25, "dimensionless") | None = None
+    # The dial: 0 to 25 % bounds every vaporizer; the agent's own highest mark is checked per phase.
+    vaporizer: _quantity("fraction", 0.0, 0.25, "dimensionless", description="vaporizer dial") | None = None
     end_tidal_target: Annotated[pint.Quantity, BeforeValidator(lambda v: _target(v))] | None = None
     label: str = ""
 

@@ -28,7 +28,16 @@ import typer
 from ..errors import InputError
 from ..jsonout import dumps
 from . import CAUTION, app
-from .outputs import output_paths, write_output
+from .outputs import option_names, output_paths, write_output
+
+#: Fields of the audit set by an option, named by the option in errors.
+_AUDIT_OPTIONS = {
+    "basis": "--basis",
+    "co2e_basis": "--basis",
+    "quadrature": "--quadrature",
+    "maintenance_after": "--maintenance-after",
+    "manifold_loss": "--manifold-loss",
+}
 
 
 def _as_option(exc: InputError, name: str, flag: str) -> InputError:
@@ -55,6 +64,14 @@ def _prices(path: str):
         raise _as_option(exc, "prices", "--prices") from None
 
 
+def _share(text: str, flag: str) -> float:
+    """A share 0 to below 1 from ``'85 %'`` or ``0.85`` (the bare-number rule of every fraction)."""
+    from ..units import check_range, parse_quantity
+
+    q = parse_quantity(text, flag, "fraction").to("")
+    return float(check_range(q, flag, 0.0, 0.999, value=text).magnitude)
+
+
 def _fmt(v: float, unit: str = "") -> str:
     return "n/a" if v is None or not math.isfinite(v) else f"{v:.4g}{(' ' + unit) if unit else ''}"
 
@@ -76,8 +93,8 @@ def audit_command(
     maintenance_after: str = typer.Option(
         "10 min", "--maintenance-after", help="Maintenance starts this long after a case's first sample."
     ),
-    manifold_loss: float = typer.Option(
-        0.0, "--manifold-loss", help="Share of piped N2O lost before use (0 for cylinders)."
+    manifold_loss: str = typer.Option(
+        "0", "--manifold-loss", help="Share of piped N2O lost before use, e.g. '85 %' or 0.85 (0 for cylinders)."
     ),
 ) -> None:
     """Fresh-gas audit: agent, gases, CO2e and cost per case, room and month, with KPIs."""
@@ -87,20 +104,22 @@ def audit_command(
 
     if prices is not None and demo_prices:
         raise InputError("--demo-prices", True, "either --prices FILE or --demo-prices, not both")
+    manifold_loss = _share(manifold_loss, "--manifold-loss")
     outputs = output_paths(
         {"--report": report, "--xlsx": xlsx, "--csv": csv_out}, {"LOG": log, "--policy": policy, "--prices": prices}
     )
     price_table = _prices(prices) if prices is not None else (DEMO_PRICES if demo_prices else None)
     if not Path(log).is_file():
         raise InputError("LOG", log, "an existing CSV file")
-    result = audit(
-        log,
-        prices=price_table,
-        basis=basis,
-        quadrature=quadrature,
-        maintenance_after=maintenance_after,
-        manifold_loss=manifold_loss,
-    )
+    with option_names(_AUDIT_OPTIONS):
+        result = audit(
+            log,
+            prices=price_table,
+            basis=basis,
+            quadrature=quadrature,
+            maintenance_after=maintenance_after,
+            manifold_loss=manifold_loss,
+        )
     if policy is not None:
         from ..audit_policy import counterfactual
 

@@ -1,4 +1,5 @@
-"""Output files of the ``lowflow`` verbs: one rule for every output flag (``--csv``, ``--report``...).
+"""Output files of the ``lowflow`` verbs: one rule for every output flag (``--csv``, ``--report``...),
+and errors about a value given on the command line named by its option.
 
 Examples
 --------
@@ -11,7 +12,8 @@ estimator.errors.InputError: --csv: got 'log.csv'; expected a file other than th
 from __future__ import annotations
 
 import os
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
@@ -79,3 +81,30 @@ def write_output(flag: str, path: Path, writer: Callable[[Path], Any]) -> Any:
         return writer(path)
     except OSError as exc:
         raise InputError(flag, str(path), f"a file that can be written ({exc.strerror or exc})") from None
+
+
+@contextmanager
+def option_names(mapping: dict[str, str | None]) -> Iterator[None]:
+    """Rename an :class:`InputError` about a field set by an option to that option.
+
+    Parameters
+    ----------
+    mapping : dict
+        Model field (``"weeks"``) -> the option that set it (``"--weeks"``), or ``None`` when the
+        option was not given (the value then came from the file, and the field keeps its name).
+
+    Examples
+    --------
+    >>> with option_names({"weeks": "--weeks"}):
+    ...     raise InputError("weeks", 0, "1 to 1040 weeks")
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: --weeks: got 0; expected 1 to 1040 weeks
+    """
+    try:
+        yield
+    except InputError as exc:
+        option = mapping.get(exc.field)
+        if option is None:
+            raise
+        raise InputError(option, exc.value, exc.expected) from None
