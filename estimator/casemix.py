@@ -59,6 +59,7 @@ from .casemix_draws import (
     weekly_count,
 )
 from .casemix_files import case_type_rows, reference_text, referenced_file
+from .casemix_orders import check_orders
 from .casemix_plan import inline_scenario
 from .casemix_schema import DEFAULT_BOTTLE, CaseMixInput, CaseTypeInput, CylinderSize, OrdersInput
 from .costs import Prices, parse_prices
@@ -293,6 +294,7 @@ def casemix_from_dict(data: dict[str, Any], base_dir: Path | str | None = None, 
         ct, n = case_type(row, where, sc)
         types.append(ct)
         notes += n
+    check_orders(raw.orders)
     prices = parse_prices(raw.prices) if raw.prices else None
     return CaseMix(
         raw.title, raw.weeks, raw.seed, cover, raw.co2e_basis, loss, tuple(types), prices, raw.orders, tuple(notes)
@@ -387,6 +389,7 @@ __all__ = [
     "case_types_from_text",
     "casemix_from_dict",
     "casemix_from_text",
+    "MAX_WEEKS",
     "load_casemix",
     "read_case_types_csv",
     "scenario_file",

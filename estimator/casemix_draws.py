@@ -14,7 +14,7 @@ range-checked here (:mod:`estimator.casemix` reads the file). The laws:
 References
 ----------
 .. [1] Johnson NL, Kotz S, Balakrishnan N. Continuous Univariate Distributions, vol. 1, 2nd ed.
-   Wiley 1994, ch. 13 (truncated normal) and ch. 14 (log-normal quantiles).
+   Wiley 1994, ch. 13 (truncated normal) and ch. 14 (log-normal quantiles); from memory.
 
 Examples
 --------
@@ -103,6 +103,8 @@ def quantity_in(value: Any, where: str, dim: str, unit: str, lo: float, hi: floa
 def normal_law(
     row: Any, key: str, where: str, dim: str, unit: str, limits: tuple[float, float], default: float
 ) -> Distribution:
+    """The weight or age law of a row (``key`` = ``weight`` or ``age``): a point, or a normal
+    truncated to ``[min, max]`` (default mean +- 3 SD within ``limits``), in ``unit``."""
     f = f"{where}.{key}"
     mean = quantity_in(getattr(row, f"{key}_mean"), f"{f}_mean", dim, unit, *limits)
     sd = quantity_in(getattr(row, f"{key}_sd"), f"{f}_sd", dim, unit, 0.0, limits[1]) or 0.0
@@ -126,6 +128,8 @@ def normal_law(
 
 
 def duration_law(row: Any, where: str, fallback: float | None) -> Distribution:
+    """The duration law of a row [min]: fixed, or log-normal from the median and P90, truncated;
+    ``fallback`` is the template's own length when the row gives none (a scenario file)."""
     lim = DURATION_LIMITS
     fixed = quantity_in(row.duration, f"{where}.duration", "time", "min", *lim)
     med = quantity_in(row.duration_median, f"{where}.duration_median", "time", "min", *lim)
@@ -155,6 +159,7 @@ def duration_law(row: Any, where: str, fallback: float | None) -> Distribution:
 
 
 def weekly_count(row: Any, where: str) -> float:
+    """Mean cases a week of a row (``per_week``, or the sum of ``per_weekday``), range-checked."""
     if (row.per_week is None) == (row.per_weekday is None):
         raise InputError(f"{where}.per_week", row.per_week, "exactly one of per_week or per_weekday")
     values = [row.per_week] if row.per_week is not None else list(row.per_weekday)

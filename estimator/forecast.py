@@ -60,14 +60,15 @@ from .carbon import (
     released_agent_mass,
     vapour_to_mass,
 )
-from .casemix import CaseMix, CylinderSize
+from .casemix import MAX_WEEKS, CaseMix
+from .casemix_orders import absorbent_pack_kg, bottle_ml, cylinder_usable
 from .costs import cost_table
-from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, reference_molar_volume
+from .cylinders import reference_molar_volume
 from .errors import InputError
 from .forecast_size import MAX_CASES, check_size
 from .properties import gas
 from .results import FIO2_ADVISORY, TARGET_BAND
-from .units import GAS_VOLUME_REFERENCE, Q_, parse_quantity
+from .units import GAS_VOLUME_REFERENCE, Q_
 
 STATISTICS = ("mean", "p50", "p95", "p99")
 #: Below this many weeks the P99 is flagged as rough (about 1 week in 100 lies above it).
@@ -187,7 +188,7 @@ def forecast(
     ----------
     mix : CaseMix
     weeks : int, optional
-        Weeks to simulate (default the file's ``weeks``), 1 to 1040.
+        Weeks to simulate (default the file's ``weeks``), 1 to :data:`~estimator.casemix.MAX_WEEKS` (1040).
     seed : int, optional
         Seed of the random generator (default the file's ``seed``; without either a fresh one,
         reported in the result so that the run can be repeated).
@@ -202,8 +203,8 @@ def forecast(
     ForecastResult
     """
     weeks = mix.weeks if weeks is None else weeks
-    if isinstance(weeks, bool) or not isinstance(weeks, int) or not 1 <= weeks <= 1040:
-        raise InputError("weeks", weeks, "1 to 1040 weeks")
+    if isinstance(weeks, bool) or not isinstance(weeks, int) or not 1 <= weeks <= MAX_WEEKS:
+        raise InputError("weeks", weeks, f"1 to {MAX_WEEKS} weeks")
     check_size(mix, weeks, max_cases)
     seed = mix.seed if seed is None else seed
     if seed is None:
@@ -293,7 +294,7 @@ def forecast(
         progress(1.0)
     elapsed = time.perf_counter() - t0
     for a in agents:
-        size = _bottle_ml(mix, a)
+        size = bottle_ml(mix.orders, a)
         weekly[f"{a}_bottles"] = weekly[a] / size
         units[f"{a}_bottles"] = ""
     items = {k: {s: Q_(v, units[k]) for s, v in summary_statistics(weekly[k]).items()} for k in units}
@@ -356,45 +357,6 @@ def _warnings(weeks: int, flag_rows: list, unpriced: set[str]) -> list[tuple[str
     return out
 
 
-def _bottle_ml(mix: CaseMix, agent: str) -> float:
-    o = mix.orders
-    value, where = (
-        (o.bottle_volumes[agent], f"orders.bottle_volumes.{agent}")
-        if agent in o.bottle_volumes
-        else (o.bottle_volume, "orders.bottle_volume")
-    )
-    q = parse_quantity(value, where, "volume", default_unit="mL").to("mL").magnitude
-    if not 1.0 <= q <= 5000.0:
-        raise InputError(where, value, "1 to 5000 mL")
-    return float(q)
-
-
-def cylinder_usable(size: CylinderSize, gas_name: str, where: str) -> pint.Quantity:
-    """Usable contents of one cylinder of a size, free gas at 15 degC and 101.325 kPa [L]
-    (:mod:`estimator.cylinders`: real-gas for compressed gases, by weight for nitrous oxide)."""
-    if gas_name == "nitrous_oxide":
-        if size.gross_weight is None or size.tare_weight is None:
-            raise InputError(
-                f"{where}.gross_weight", size.gross_weight, "gross_weight and tare_weight of a full cylinder"
-            )
-        c = nitrous_oxide_cylinder(
-            size.gross_weight,
-            size.tare_weight,
-            size.temperature,
-            reserve_weight=size.reserve_weight,
-            field_prefix=where,
-        )
-    else:
-        if size.water_capacity is None or size.pressure is None:
-            raise InputError(
-                f"{where}.water_capacity", size.water_capacity, "water_capacity and pressure of a full cylinder"
-            )
-        c = compressed_cylinder(
-            gas_name, size.water_capacity, size.pressure, size.temperature, size.reserve_pressure, field_prefix=where
-        )
-    return c.usable.to("L")
-
-
 def order_list(
     mix: CaseMix, weekly: dict[str, np.ndarray], units: dict[str, str], warns: list[tuple[str, str]]
 ) -> list[dict[str, Any]]:
@@ -415,12 +377,10 @@ def order_list(
         )
         out.append(_order(g, "cylinder", need, units[g], per, q))
     for a in [k for k in units if units[k] == "mL"]:
-        out.append(_order(a, "bottle", float(np.percentile(weekly[a], q)), "mL", _bottle_ml(mix, a), q))
+        out.append(_order(a, "bottle", float(np.percentile(weekly[a], q)), "mL", bottle_ml(mix.orders, a), q))
     if mix.orders.absorbent_pack is not None:
-        pack = parse_quantity(mix.orders.absorbent_pack, "orders.absorbent_pack", "mass", default_unit="kg").to("kg")
-        if not 0 < pack.magnitude <= 1000:
-            raise InputError("orders.absorbent_pack", mix.orders.absorbent_pack, "above 0 to 1000 kg")
-        out.append(_order("absorbent", "pack", float(np.percentile(weekly["absorbent"], q)), "kg", pack.magnitude, q))
+        pack = absorbent_pack_kg(mix.orders)
+        out.append(_order("absorbent", "pack", float(np.percentile(weekly["absorbent"], q)), "kg", pack, q))
     for o in out:
         if o["need"].magnitude > 0 and o["per_unit"].magnitude <= 0:
             warns.append(("ORDER_SIZE_EMPTY", f"{o['item']}: a {o['unit']} of that size holds nothing usable"))

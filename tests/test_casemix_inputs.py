@@ -270,3 +270,22 @@ def test_top_level_values_have_ranges(top, field):
     with pytest.raises(InputError) as err:
         casemix_from_text(top + "\n" + ROW)
     assert err.value.field == field
+
+
+@pytest.mark.parametrize(
+    "orders, field",
+    [
+        ('[orders.oxygen_cylinder]\nwater_capacity = "1e300 L"\npressure = "137 bar"', "water_capacity"),
+        ('[orders.air_cylinder]\nwater_capacity = "10 L"\npressure = "1e300 bar"', "pressure"),
+        ('[orders.nitrous_oxide_cylinder]\ngross_weight = "1e300 kg"\ntare_weight = "36 kg"', "gross_weight"),
+        ('[orders]\nbottle_volume = "1e300 mL"', "orders.bottle_volume"),
+        ('[orders.bottle_volumes]\nsevofluran = "250 mL"', "orders.bottle_volumes.sevofluran"),
+        ('[orders]\nabsorbent_pack = "1e300 kg"', "orders.absorbent_pack"),
+    ],
+)
+def test_order_sizes_are_checked_when_the_case_mix_loads(orders, field):
+    # Before: these passed the loader and failed only after every case had been simulated (or, a
+    # misspelt agent's bottle size, were ignored).
+    with pytest.raises(InputError) as err:
+        casemix_from_text(ROW + orders + "\n")
+    assert field in err.value.field

@@ -39,16 +39,18 @@ def forecast(
     ),
 ) -> None:
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
-    from ..casemix import load_casemix
+    from ..casemix import MAX_WEEKS, load_casemix
     from ..forecast import forecast as run
     from ..jsonout import dumps
 
     if not 1 <= max_cases <= CASE_CEILING:
         raise InputError("--max-cases", max_cases, f"a whole number from 1 to {CASE_CEILING}")
     mix = load_casemix(file)
-    size = check_size(mix, mix.weeks if weeks is None else weeks, max_cases)
-    if size.seconds >= ANNOUNCE_AFTER:
-        typer.echo(size.text(mix.weeks if weeks is None else weeks), err=True)
+    span = mix.weeks if weeks is None else weeks
+    if 1 <= span <= MAX_WEEKS:  # other week counts are refused by the forecast, naming --weeks
+        size = check_size(mix, span, max_cases)
+        if size.seconds >= ANNOUNCE_AFTER:
+            typer.echo(size.text(span), err=True)
     with option_names(
         {"weeks": "--weeks" if weeks is not None else None, "seed": "--seed" if seed is not None else None}
     ):
