@@ -97,8 +97,8 @@ def load_scenario_text(text: str) -> Any:
 
 
 def load_inventory_text(text: str, base_dir: Path | None = None) -> Any:
-    """The inventory of TOML text: :func:`estimator.supply_file.inventory_from_text` (unknown keys refused)."""
-    from estimator.supply_file import inventory_from_text
+    """The inventory of TOML text: :func:`estimator.inventory_file.inventory_from_text` (unknown keys refused)."""
+    from estimator.inventory_file import inventory_from_text
 
     return inventory_from_text(text, base_dir=base_dir)
 

@@ -15,8 +15,8 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from estimator.inventory_file import BottleEntry, ConcentratorEntry, ContinuousDemand, CylinderEntry, PlanOptions
 from estimator.properties import AGENTS
-from estimator.supply_file import BottleEntry, ConcentratorEntry, ContinuousDemand, CylinderEntry, PlanOptions
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import contracts, state
