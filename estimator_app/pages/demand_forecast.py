@@ -32,7 +32,7 @@ def case_fields(names: list[str], fu: str, mu: str) -> list[Field]:
     return [
         Field("name", "name", "text"),
         Field("per_week", "per week", low=0.0, high=1000.0),
-        Field("count", "count", "select", options=("poisson", "fixed")),
+        Field("count", "count", "select", options=("poisson", "fixed"), default="poisson"),
         Field("scenario", "scenario file", "select", options=tuple(names), help="Blank: the inline template"),
         Field("agent", "agent", "select", options=tuple(sorted(AGENTS))),
         Field("wash_in_flow", "wash-in flow", **flow),

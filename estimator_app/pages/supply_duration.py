@@ -70,7 +70,7 @@ def case_fields(names: list[str]) -> list[Field]:
         Field("scenario", "scenario file", "select", options=tuple(names)),
         Field("per_day", "cases a day", "integer", low=0, high=100),
         Field("days_per_week", "days a week", "integer", low=0, high=7),
-        Field("rooms", "rooms", "integer", low=1, high=50),
+        Field("rooms", "rooms", "integer", low=1, high=50, default=1),
     ]
 
 
