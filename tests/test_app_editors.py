@@ -184,3 +184,28 @@ def test_an_edit_undone_gives_the_file_back(saved):
     at = edit_table(at, key, {"edited_rows": {"1": {"O2 [L/min]": 0.3}}})
     assert_clean(at)
     assert tomllib.loads(saved[name].decode()) == original
+
+
+def test_forecast_upload_with_the_scenario_file_it_names():
+    # A case type naming a scenario file runs that file's case when the file is uploaded with the mix;
+    # a name outside the uploaded files (a path on the server) is refused, never opened.
+    scenario = (ROOT / "demo_cases" / "kestrel_lap_chole.toml").read_text(encoding="utf-8")
+    mix = {
+        "weeks": 2,
+        "seed": 1,
+        "case_types": [{"name": "lap chole", "per_week": 5, "count": "fixed", "scenario": "lap.toml"}],
+    }
+    at = page("demand_forecast")
+    files = [
+        ("mix.toml", tomli_w.dumps(mix).encode(), "application/toml"),
+        ("lap.toml", scenario.encode(), "text/plain"),
+    ]
+    at.file_uploader(key="forecast.upload").set_value(files)
+    at.run()
+    assert_clean(at)
+    assert metric(at, "Cases a week (mean)") == "5.0"
+    assert at.session_state["forecast.doc"] == mix
+    mix["case_types"][0]["scenario"] = "../../etc/lap.toml"
+    at.file_uploader(key="forecast.upload").set_value([("bad.toml", tomli_w.dumps(mix).encode(), "text/plain")])
+    at.run()
+    assert len(at.error) == 1 and "case_types[0].scenario" in at.error[0].value
