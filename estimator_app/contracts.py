@@ -131,6 +131,25 @@ def load_log_text(text: str) -> Any:
     return log_from_text(text)
 
 
+def case_scenarios(doc: dict[str, Any], files: dict[str, str], planner_text: str) -> dict[str, str]:
+    """Scenario text of every case plan of an inventory, by file name: a file given with the inventory,
+    else the planner's case for ``case planner``; InputError naming the plan for any other name."""
+    out = {}
+    for k, plan in enumerate(doc.get("demand", {}).get("cases", [])):
+        name = str(plan.get("scenario", "")) if isinstance(plan, dict) else ""
+        if name in files:
+            out[Path(name).name] = files[name]
+        elif name in PLANNER_NAMES:
+            out[Path(name).name] = planner_text
+        else:
+            raise InputError(
+                f"demand.cases[{k}].scenario",
+                name,
+                "a scenario file given with the inventory (or 'case planner' for the case planner's case)",
+            )
+    return out
+
+
 def check(kind: str, doc: dict[str, Any], files: dict[str, str], planner_text: str) -> None:
     """Run the command line's loader of ``kind`` on a document: InputError exactly where the CLI gives one."""
     text = toml_text(doc)
@@ -138,13 +157,7 @@ def check(kind: str, doc: dict[str, Any], files: dict[str, str], planner_text: s
         load_scenario_text(text)
     elif kind == "inventory":
         load_inventory_text(text)
-        missing = [n for n in referenced(kind, doc) if n not in files and n not in PLANNER_NAMES]
-        if missing:
-            raise InputError(
-                "demand.cases.scenario",
-                missing[0],
-                "a scenario file given alongside the inventory (or 'case planner' for the planner's case)",
-            )
+        case_scenarios(doc, files, planner_text)
     elif kind == "casemix":
         with folder(files, planner_text) as base:
             load_casemix_text(text, base)

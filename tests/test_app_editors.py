@@ -52,7 +52,7 @@ def test_supply_inventory_upload_with_its_scenario_and_a_misspelt_key():
     # An inventory whose case plan names a file not given with it is refused, naming the file.
     at.get("file_uploader")[0].set_value([("alone.toml", tomli_w.dumps(demo.inventory()).encode(), "text/plain")])
     at.run()
-    assert any("highland_mobile_team.toml" in e.value for e in at.error)
+    assert any("demand.cases[0].scenario" in e.value and "highland_mobile_team.toml" in e.value for e in at.error)
 
 
 def test_supply_empty_concentrator_table_takes_a_typed_rated_flow():

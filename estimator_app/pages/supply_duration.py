@@ -101,24 +101,6 @@ def run_supply(inventory_text: str, scenarios: tuple[tuple[str, str], ...]) -> A
     return plan_supply(contracts.load_inventory_text(inventory_text), runner=runner)
 
 
-def scenario_texts(doc: dict[str, Any], files: dict[str, str]) -> tuple[tuple[str, str], ...]:
-    """(name, TOML text) of every scenario the case plans name; the planner's case for its names."""
-    out = {}
-    for name in contracts.referenced(KIND, doc):
-        key = Path(name).name
-        if name in contracts.PLANNER_NAMES and name not in files:
-            out[key] = state.toml_text()
-        elif name in files:
-            out[key] = files[name]
-        else:
-            from estimator.errors import InputError
-
-            raise InputError(
-                "demand.cases.scenario", name, "a scenario file loaded with the inventory, or 'case planner'"
-            )
-    return tuple(sorted(out.items()))
-
-
 def inputs() -> dict[str, Any]:
     """The inventory as the editors now stand (untouched values as loaded, other keys kept)."""
     loaded = state.document(KIND)
@@ -235,5 +217,8 @@ def render() -> None:
     )
     doc = inputs()
     state.save_button(st, KIND, doc)
-    report = run_supply(contracts.toml_text(doc), scenario_texts(doc, state.files(KIND)))
+    report = run_supply(
+        contracts.toml_text(doc),
+        tuple(sorted(contracts.case_scenarios(doc, state.files(KIND), state.toml_text()).items())),
+    )
     outputs(report)
