@@ -33,6 +33,7 @@ Examples
 from __future__ import annotations
 
 import math
+import os
 from collections.abc import Callable
 from dataclasses import asdict, dataclass
 from typing import TYPE_CHECKING, Any
@@ -41,8 +42,10 @@ import numpy as np
 from pydantic import BaseModel, ConfigDict, ValidationError
 
 from . import carbon
+from .contracts import input_error_from_validation, read_toml, toml_from_text
 from .costs import Prices, case_cost
 from .errors import InputError
+from .fields import quantity
 from .units import GAS_VOLUME_REFERENCE, check_range, parse_quantity
 
 if TYPE_CHECKING:
@@ -50,20 +53,30 @@ if TYPE_CHECKING:
 
 #: The engine's flowmeter range per gas [L/min] (scenario contract).
 ENGINE_MAX_FLOW = 15.0
+#: Most cases re-run in one counterfactual: about a second each, so a day of computing (practical
+#: limit, no source).
+MAX_CASES = 100_000
 
 
 class PolicyInput(BaseModel):
     """The ``[policy]`` table of a policy file (``extra = "forbid"``)."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", arbitrary_types_allowed=True)
     name: str = "low-flow policy"
-    fresh_gas_flow: str = "0.5 L/min"
-    maintenance_after: str | None = None
-    minimum_oxygen_share: str = "60 %"
-    block: str = "15 min"
+    # The engine's flow range per gas, from 0.1 L/min (below any metered low-flow practice).
+    fresh_gas_flow: quantity(
+        "flow", 0.1, ENGINE_MAX_FLOW, "L/min", bare_unit="L/min", keep_text=True, description="policy fresh-gas flow"
+    ) = "0.5 L/min"
+    # Up to 10 h of recorded wash-in kept as recorded (longer than any induction; no source).
+    maintenance_after: quantity("time", 0.0, 600.0, "min", bare_unit="min", keep_text=True) | None = None
+    # 21 % (air) to 100 % oxygen.
+    minimum_oxygen_share: quantity("fraction", 0.21, 1.0, "dimensionless", keep_text=True) = "60 %"
+    # Blocks from 1 min (the log's resolution) to 2 h (practical limits, no source).
+    block: quantity("time", 1.0, 120.0, "min", bare_unit="min", keep_text=True) = "15 min"
     baseline: str = "recorded"
-    default_weight: str = "70 kg"
-    default_age: str = "40 years"
+    # The scenario contract's patient ranges.
+    default_weight: quantity("mass", 0.5, 300.0, "kg", bare_unit="kg", keep_text=True) = "70 kg"
+    default_age: quantity("age", 0.0, 120.0, "year", bare_unit="year", keep_text=True) = "40 years"
     max_cases: int | None = None
 
 
@@ -88,22 +101,15 @@ def parse_policy(data: dict[str, Any]) -> Policy:
     try:
         raw = PolicyInput.model_validate(data)
     except ValidationError as exc:
-        err = exc.errors()[0]
-        loc = "policy." + ".".join(str(x) for x in err["loc"])
-        expected = (
-            "one of the keys " + ", ".join(PolicyInput.model_fields)
-            if err["type"] == "extra_forbidden"
-            else err["msg"].lower()
-        )
-        raise InputError(loc, err.get("input"), expected) from None
+        raise input_error_from_validation(exc, "policy", PolicyInput) from None
 
     def q(value: str, field: str, dim: str, unit: str, lo: float, hi: float) -> float:
-        v = parse_quantity(value, f"policy.{field}", dim, default_unit=unit)
+        v = parse_quantity(value, f"policy.{field}", dim, default_unit=None if dim == "fraction" else unit)
         check_range(v.to(unit), f"policy.{field}", lo, hi, value=value)
         return float(v.to(unit).magnitude)
 
-    if raw.max_cases is not None and raw.max_cases < 1:
-        raise InputError("policy.max_cases", raw.max_cases, "a whole number of cases, 1 or more")
+    if raw.max_cases is not None and not 1 <= raw.max_cases <= MAX_CASES:
+        raise InputError("policy.max_cases", raw.max_cases, f"a whole number of cases, 1 to {MAX_CASES}")
     if raw.baseline not in ("recorded", "engine"):
         raise InputError("policy.baseline", raw.baseline, "recorded or engine")
     return Policy(
@@ -121,6 +127,22 @@ def parse_policy(data: dict[str, Any]) -> Policy:
         else q(raw.maintenance_after, "maintenance_after", "time", "min", 0.0, 600.0),
         max_cases=raw.max_cases,
     )
+
+
+def policy_from_text(text: str) -> Policy:
+    """Parse a policy from TOML text (a ``[policy]`` table, or its keys at the top level)."""
+    return parse_policy(toml_from_text(text, "policy"))
+
+
+def load_policy(path: str | os.PathLike[str]) -> Policy:
+    """Read a policy TOML file (always a path, never text).
+
+    >>> load_policy("no/such/policy.toml")
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: policy: got 'no/such/policy.toml'; expected an existing TOML policy file
+    """
+    return parse_policy(read_toml(path, "policy", "an existing TOML policy file"))
 
 
 def policy_flows(o2: float, air: float, n2o: float, policy: Policy) -> tuple[float, float, float]:

@@ -26,17 +26,18 @@ Examples
 from __future__ import annotations
 
 import math
-import tomllib
+import os
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from pathlib import Path
-from typing import Any
+from typing import Annotated, Any
 
 import pandas as pd
 import pint
-from pydantic import BaseModel, ConfigDict, ValidationError
+from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError
 
-from .errors import InputError, read_text_file
+from .contracts import input_error_from_validation, read_toml, toml_from_text
+from .errors import InputError
+from .fields import quantity
 from .properties import AGENTS
 from .units import Q_, check_range, parse_quantity
 
@@ -45,21 +46,41 @@ COST_KEYS = ("agent", "gases", "absorbent", "total")
 UNSPECIFIED_CURRENCY = "unspecified currency"
 
 
+#: Largest price of one unit (bottle, mL, m3, cylinder, kg). A 250 mL bottle costs about 10^7 in
+#: the currencies with the most digits per US dollar, so 10^9 leaves room for any currency label;
+#: a larger number is a typing slip (practical limit, no source).
+MAX_PRICE = 1e9
+_PRICE_TEXT = f"a price of 0 to {MAX_PRICE:.0e} (a plain number in the currency)"
+
+
+def _price(value: Any) -> float:
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise ValueError(_PRICE_TEXT)
+    if not (math.isfinite(value) and 0 <= value <= MAX_PRICE):
+        raise ValueError(_PRICE_TEXT)
+    return float(value)
+
+
+Price = Annotated[float, BeforeValidator(_price)]
+
+
 class AgentPriceInput(BaseModel):
     """Price of one agent: per bottle with its volume, or per mL."""
 
-    model_config = ConfigDict(extra="forbid")
-    agent_bottle: float | None = None
-    bottle_volume: str | None = None
-    agent_per_ml: float | None = None
+    model_config = ConfigDict(extra="forbid", arbitrary_types_allowed=True)
+    agent_bottle: Price | None = None
+    # Agent bottles hold 1 mL to 5 L (250 mL is usual; practical limits, no source).
+    bottle_volume: quantity("volume", 1.0, 5000.0, "mL", bare_unit="mL", keep_text=True) | None = None
+    agent_per_ml: Price | None = None
 
 
 class CylinderPriceInput(BaseModel):
     """Price of one cylinder of a gas and its free-gas contents (e.g. ``"680 L"``)."""
 
-    model_config = ConfigDict(extra="forbid")
-    price: float
-    contents: str
+    model_config = ConfigDict(extra="forbid", arbitrary_types_allowed=True)
+    price: Price
+    # Free gas of one cylinder: 1 L to 100 000 L (the largest bulk cylinders hold about 10 000 L).
+    contents: quantity("volume", 1.0, 100000.0, "L", bare_unit="L", keep_text=True)
 
 
 class PricesInput(AgentPriceInput):
@@ -72,10 +93,10 @@ class PricesInput(AgentPriceInput):
     """
 
     currency: str = UNSPECIFIED_CURRENCY
-    oxygen_per_m3: float | None = None
-    air_per_m3: float | None = None
-    nitrous_oxide_per_m3: float | None = None
-    absorbent_per_kg: float | None = None
+    oxygen_per_m3: Price | None = None
+    air_per_m3: Price | None = None
+    nitrous_oxide_per_m3: Price | None = None
+    absorbent_per_kg: Price | None = None
     agents: dict[str, AgentPriceInput] = {}
     cylinders: dict[str, CylinderPriceInput] = {}
     note: str = ""
@@ -128,14 +149,16 @@ def _per_ml(p: AgentPriceInput, where: str) -> float | None:
         )
     if bottle is not None:
         if p.bottle_volume is None:
-            raise InputError(f"{where}.bottle_volume", None, "a bottle volume such as '250 mL' beside agent_bottle")
+            raise InputError(
+                f"{where}.bottle_volume", "(missing)", "a bottle volume such as '250 mL' beside agent_bottle"
+            )
         vol = parse_quantity(p.bottle_volume, f"{where}.bottle_volume", "volume", default_unit="mL")
         check_range(
             vol, f"{where}.bottle_volume", Q_(1, "mL"), Q_(5000, "mL"), value=p.bottle_volume, low_inclusive=True
         )
         return bottle / vol.to("mL").magnitude
     if p.bottle_volume is not None:
-        raise InputError(f"{where}.agent_bottle", None, "a bottle price beside bottle_volume")
+        raise InputError(f"{where}.agent_bottle", "(missing)", "a bottle price beside bottle_volume")
     return per_ml
 
 
@@ -154,13 +177,7 @@ def parse_prices(data: Mapping[str, Any], where: str = "prices") -> Prices:
     try:
         raw = PricesInput.model_validate(dict(data))
     except ValidationError as exc:
-        err = exc.errors()[0]
-        loc = ".".join(str(x) for x in err["loc"])
-        value = err.get("input")
-        if err["type"] == "extra_forbidden":
-            allowed = ", ".join(PricesInput.model_fields)
-            raise InputError(f"{where}.{loc}", value, f"one of the keys {allowed}") from None
-        raise InputError(f"{where}.{loc}", value, err["msg"].lower()) from None
+        raise input_error_from_validation(exc, where, PricesInput) from None
     currency = raw.currency.strip()
     if not currency or len(currency) > 40 or any(c in currency for c in "\r\n\t"):
         raise InputError(f"{where}.currency", raw.currency, "a currency label of 1 to 40 characters")
@@ -196,22 +213,20 @@ def parse_prices(data: Mapping[str, Any], where: str = "prices") -> Prices:
     )
 
 
-def load_prices(source: str | Path) -> Prices:
-    """Read prices from a TOML file or text: its ``[prices]`` table, or the top level if none.
+def prices_from_text(text: str) -> Prices:
+    """Parse prices from TOML text: its ``[prices]`` table, or the top level if none.
 
-    >>> load_prices('[prices]\\ncurrency = "EUR"\\nair_per_m3 = 2.0').gas_per_litre["air"]
+    >>> prices_from_text('[prices]\\ncurrency = "EUR"\\nair_per_m3 = 2.0').gas_per_litre["air"]
     0.002
     """
-    path = (
-        Path(source)
-        if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source and "=" not in source)
-        else None
-    )
-    text = read_text_file(path, "prices", "an existing prices TOML file") if path is not None else str(source)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(str(path or "prices"), "TOML text", f"valid TOML ({exc})") from None
+    data = toml_from_text(text, "prices")
+    return parse_prices(data.get("prices", data))
+
+
+def load_prices(path: str | os.PathLike[str]) -> Prices:
+    """Read prices from a TOML file (always a path, never text): its ``[prices]`` table, or the top
+    level if none."""
+    data = read_toml(path, "prices", "an existing prices TOML file")
     return parse_prices(data.get("prices", data))
 
 

@@ -4,8 +4,8 @@ Each step is a small function; the hot loop is :func:`estimator.circuit.integrat
 
 Examples
 --------
->>> from estimator.scenario import load_scenario
->>> s = load_scenario('''
+>>> from estimator.scenario import scenario_from_text
+>>> s = scenario_from_text('''
 ... [patient]
 ... weight = "70 kg"
 ... [agent]

@@ -66,11 +66,14 @@ def read_text_file(path: str | os.PathLike[str], field: str, expected: str) -> s
     """
     shown = str(path)
     try:
-        raw = Path(path).read_bytes()
-    except (FileNotFoundError, IsADirectoryError, NotADirectoryError):
+        p = Path(path)
+        if not p.is_file():  # a folder, a device or a pipe is never read (it could block)
+            raise InputError(field, shown, expected)
+        raw = p.read_bytes()
+    except (FileNotFoundError, IsADirectoryError, NotADirectoryError, ValueError):
         raise InputError(field, shown, expected) from None
     except OSError as exc:
-        raise InputError(field, shown, f"{expected} that can be read ({exc.strerror})") from None
+        raise InputError(field, shown, f"{expected} that can be read ({exc.strerror or exc})") from None
     try:
         return raw.decode("utf-8-sig")
     except UnicodeDecodeError:

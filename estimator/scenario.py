@@ -1,6 +1,7 @@
 """Scenario files: the TOML contract of one planned case, validated with pydantic.
 
-Every quantity is a string pint parses ("2 L/min", "70 kg", "2 %", "1 MAC"). Unknown keys are errors,
+Every quantity is a string pint parses ("2 L/min", "70 kg", "2 %", "1 MAC"); each is a field of
+:func:`estimator.fields.quantity` with its range and unit. Unknown keys are errors,
 so typos are caught; every error is an :class:`~estimator.errors.InputError` naming the field (as a
 dotted path such as ``phases[1].oxygen``), the value and the valid range.
 
@@ -8,9 +9,12 @@ A phase gives its carrier gas either as flows (``oxygen``, ``air``, ``nitrous_ox
 is 0) or as ``oxygen_fraction`` plus ``total_flow`` with ``balance = "air"`` or ``"nitrous_oxide"``,
 and exactly one of ``vaporizer`` (the dial, "2 %") or ``end_tidal_target`` ("1 MAC" or "2 %").
 
+:func:`load_scenario` reads a file (its argument is always a path); :func:`scenario_from_text` parses
+TOML text; :func:`scenario_from_dict` validates a parsed document.
+
 Examples
 --------
->>> s = load_scenario('''
+>>> s = scenario_from_text('''
 ... [patient]
 ... weight = "70 kg"
 ... [agent]
@@ -27,8 +31,7 @@ Examples
 
 from __future__ import annotations
 
-import tomllib
-from pathlib import Path
+import os
 from typing import Annotated, Any, Literal
 
 import pint
@@ -36,34 +39,32 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, mo
 
 from . import limits as lim
 from .accounting import absorbent_capacity as _absorbent_capacity
-from .errors import InputError, read_text_file
+from .contracts import as_path, check_scenario_suffix, input_error_from_validation, read_toml, toml_from_text
+from .errors import InputError
+from .fields import quantity as _quantity
 from .properties import AGENTS, gas
-from .units import DIMENSIONS, Q_, parse_quantity
+from .site import ELEVATION_RANGE, PRESSURE_RANGE
+from .site import TEMPERATURE_RANGE as SITE_TEMPERATURE
+from .units import Q_, parse_quantity
+
+__all__ = [
+    "Scenario",
+    "input_error_from_validation",
+    "load_scenario",
+    "scenario_from_dict",
+    "scenario_from_text",
+]
 
 _AIR_O2 = gas("air").records["oxygen_fraction"].value
 
-
-def _quantity(dimension: str, low: float, high: float, unit: str, *, low_open: bool = False):
-    """A pydantic type: a pint Quantity of ``dimension`` within [low, high] ``unit``."""
-    example = DIMENSIONS[dimension][1]
-
-    def check(value: Any) -> pint.Quantity:
-        try:
-            q = parse_quantity(value, "", dimension)
-        except InputError as exc:
-            raise ValueError(exc.expected) from None
-        mag = q.to(unit).magnitude
-        if mag < low or mag > high or (low_open and mag <= low):
-            lo = f"above {low:g}" if low_open else f"{low:g}"
-            raise ValueError(f"{lo} to {high:g} {Q_(1, unit).units:~P} ({example})")
-        return q
-
-    return Annotated[pint.Quantity, BeforeValidator(check)]
-
-
-Flow = _quantity("flow", 0.0, 15.0, "L/min")
-Duration = _quantity("time", 0.0, 24 * 60.0, "min")
+#: A flowmeter tube per gas reads up to 15 L/min (common practice, no source), the engine's range.
+Flow = _quantity("flow", 0.0, 15.0, "L/min", description="flowmeter flow")
+#: One case lasts at most a day (the engine's horizon; common practice, no source).
+Duration = _quantity("time", 0.0, 24 * 60.0, "min", description="phase duration")
 Fraction = _quantity("fraction", 0.0, 1.0, "dimensionless")
+#: Site elevation and measured ambient pressure: the ISO 2533 troposphere (estimator.site).
+Elevation = _quantity("length", *ELEVATION_RANGE, "m", description="site elevation above sea level")
+AmbientPressure = _quantity("pressure", *PRESSURE_RANGE, "kPa", description="measured absolute ambient pressure")
 
 
 class _Model(BaseModel):
@@ -73,16 +74,20 @@ class _Model(BaseModel):
 class PatientInput(_Model):
     """``[patient]``: weight required; age default 40 years; optional physiological overrides."""
 
-    weight: _quantity("mass", 0.5, 300.0, "kg")
-    age: _quantity("age", 0.0, 120.0, "year") = Q_(40.0, "year")
-    oxygen_consumption: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True) | None = None
-    carbon_dioxide_production: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True) | None = None
-    cardiac_output: _quantity("flow", 0.05, 30.0, "L/min") | None = None
-    alveolar_ventilation: _quantity("flow", 0.05, 40.0, "L/min") | None = None
-    minute_ventilation: _quantity("flow", 0.05, 50.0, "L/min") | None = None
-    frc: _quantity("volume", 0.02, 8.0, "L") | None = None
-    target_paco2: _quantity("pressure", 20.0, 80.0, "mmHg") = Q_(40.0, "mmHg")
-    respiratory_rate: _quantity("rate", 2.0, 80.0, "1/min") = Q_(12.0, "1/min")
+    # Ranges: practical limits of the physiology model (a preterm neonate to the heaviest adults;
+    # ages of the Mapleson 1996 fit and beyond), no source beyond common practice.
+    weight: _quantity("mass", 0.5, 300.0, "kg", description="body weight")
+    age: _quantity("age", 0.0, 120.0, "year", description="age") = Q_(40.0, "year")
+    # Overrides of the weight-scaled values: from neonatal to heavy exercise (common practice).
+    oxygen_consumption: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VO2") | None = None
+    carbon_dioxide_production: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VCO2") | None = None
+    cardiac_output: _quantity("flow", 0.05, 30.0, "L/min", description="cardiac output") | None = None
+    alveolar_ventilation: _quantity("flow", 0.05, 40.0, "L/min", description="alveolar ventilation") | None = None
+    minute_ventilation: _quantity("flow", 0.05, 50.0, "L/min", description="minute ventilation") | None = None
+    frc: _quantity("volume", 0.02, 8.0, "L", description="functional residual capacity") | None = None
+    # Target arterial CO2 partial pressure: deliberate hypo- to permissive hypercapnia.
+    target_paco2: _quantity("pressure", 20.0, 80.0, "mmHg", description="target PaCO2") = Q_(40.0, "mmHg")
+    respiratory_rate: _quantity("rate", 2.0, 80.0, "1/min", description="breaths a minute") = Q_(12.0, "1/min")
     initial: Literal["room_air", "preoxygenated"] = "room_air"
 
 
@@ -90,7 +95,8 @@ class AgentInput(_Model):
     """``[agent]``: name, optional vaporizer maximum and type."""
 
     name: str
-    vaporizer_max: _quantity("fraction", 0.001, 0.25, "dimensionless") | None = None
+    # Highest dial mark: every vaporizer in use reads at most 18 % (desflurane); 25 % bounds typos.
+    vaporizer_max: _quantity("fraction", 0.001, 0.25, "dimensionless", description="highest dial mark") | None = None
     vaporizer_type: Literal["variable_bypass", "heated_pressurised"] | None = None
 
     @model_validator(mode="before")
@@ -99,7 +105,7 @@ class AgentInput(_Model):
         if isinstance(data, dict) and "name" in data:
             name = str(data["name"]).strip().lower()
             if name not in AGENTS:
-                raise ValueError(f"name: one of {', '.join(sorted(AGENTS))} (got {data['name']!r})")
+                raise ValueError(f"name: one of {', '.join(sorted(AGENTS))}")
             data = {**data, "name": name}
         return data
 
@@ -107,26 +113,34 @@ class AgentInput(_Model):
 class CircuitInput(_Model):
     """``[circuit]``: volume, leak, side-stream sample flow and whether it returns to the circuit."""
 
-    volume: _quantity("volume", 0.5, 15.0, "L") = Q_(6.0, "L")
-    leak: _quantity("flow", 0.0, 5.0, "L/min") = Q_(0.0, "L/min")
-    sample_flow: _quantity("flow", 0.0, 0.5, "L/min") = Q_(0.2, "L/min")
+    # Circle volumes from a paediatric circuit to a large adult one with bag (common practice).
+    volume: _quantity("volume", 0.5, 15.0, "L", description="circle system volume") = Q_(6.0, "L")
+    leak: _quantity("flow", 0.0, 5.0, "L/min", description="circuit leak") = Q_(0.0, "L/min")
+    # Side-stream gas monitors draw 50-250 mL/min (common practice, no source).
+    sample_flow: _quantity("flow", 0.0, 0.5, "L/min", description="side-stream sample flow") = Q_(0.2, "L/min")
     sample_returned: bool = True
     initial: Literal["room_air", "oxygen"] = "room_air"
     inspiratory_fraction: _quantity("fraction", 0.0, 0.8, "dimensionless") = Q_(1 / 3, "dimensionless")
     deficit_makeup: Literal["fresh_gas", "room_air"] = "fresh_gas"
-    absorbent_capacity: _quantity("volume", 1.0, 26.0, "L") = _absorbent_capacity()
+    # Up to 26 L, the theoretical capacity of soda lime per 100 g (estimator/data/supply.toml).
+    absorbent_capacity: _quantity("volume", 1.0, 26.0, "L", description="CO2 taken up per 100 g") = (
+        _absorbent_capacity()
+    )
     """Practical CO2 capacity per 100 g of absorbent (default: the package's one value, estimator.accounting)."""
 
 
 class SiteInput(_Model):
     """``[site]``: elevation or ambient pressure, temperature, oxygen source."""
 
-    elevation: _quantity("length", -500.0, 11000.0, "m") | None = None
-    ambient_pressure: _quantity("pressure", 22.6, 108.5, "kPa") | None = None
-    temperature: _quantity("temperature", -20.0, 50.0, "degC") = Q_(20.0, "degC")
+    elevation: Elevation | None = None
+    ambient_pressure: AmbientPressure | None = None
+    # Room temperatures the site model accepts (estimator.site.TEMPERATURE_RANGE).
+    temperature: _quantity("temperature", *SITE_TEMPERATURE, "degC") = Q_(20.0, "degC")
     oxygen_source: Literal["cylinder", "pipeline", "concentrator"] = "cylinder"
-    oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless") | None = None
-    argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless") | None = None
+    # Concentrator product is at least 82 % O2 by the ISO 80601-2-69 alarm limit (from memory); 80 %
+    # leaves room for a worn sieve. Argon stays in the product, up to a few percent.
+    oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless", description="O2 in the supply") | None = None
+    argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless", description="argon in the supply") | None = None
     flowmeter_readings: bool = False
     """Phase flows are readings of float flowmeters, each calibrated for its own gas at 20 degC and
     101.325 kPa; the engine converts them to true flows at the site (estimator.flowmeter)."""
@@ -139,10 +153,12 @@ class PhaseInput(_Model):
     oxygen: Flow | None = None
     air: Flow | None = None
     nitrous_oxide: Flow | None = None
-    oxygen_fraction: _quantity("fraction", 0.21, 1.0, "dimensionless") | None = None
+    # From air (21 %) to pure oxygen: a fresh gas below air is hypoxic.
+    oxygen_fraction: _quantity("fraction", 0.21, 1.0, "dimensionless", description="O2 in the fresh gas") | None = None
     total_flow: Flow | None = None
     balance: Literal["air", "nitrous_oxide"] | None = None
-    vaporizer: _quantity("fraction", 0.0, 0.25, "dimensionless") | None = None
+    # The dial: 0 to 25 % bounds every vaporizer; the agent's own highest mark is checked per phase.
+    vaporizer: _quantity("fraction", 0.0, 0.25, "dimensionless", description="vaporizer dial") | None = None
     end_tidal_target: Annotated[pint.Quantity, BeforeValidator(lambda v: _target(v))] | None = None
     label: str = ""
 
@@ -222,6 +238,16 @@ class FlowFloorInput(_Model):
     scale: list[ScaleStep] | None = None
     policies: list[Literal["sevoflurane_us_label"]] = []
 
+    @model_validator(mode="after")
+    def _bands_in_order(self) -> FlowFloorInput:
+        tops = [b.up_to.to("L/min").magnitude for b in self.scale or []]
+        for i in range(1, len(tops)):
+            if tops[i] <= tops[i - 1]:
+                raise ValueError(
+                    f"scale[{i}].up_to: above the band before it ({tops[i - 1]:g} L/min); bands go up in flow"
+                )
+        return self
+
 
 class OutputInput(_Model):
     """``[output]``: time step of the reported series."""
@@ -252,51 +278,17 @@ class Scenario(_Model):
             raise ValueError("phases: a total duration above 0 min")
         if total > 24 * 60 + 1e-9:
             raise ValueError(f"phases: a total duration of at most 24 h (got {total:g} min)")
+        limit = self.agent.vaporizer_max or AGENTS[self.agent.name].vaporizer_max
+        for i, p in enumerate(self.phases):
+            if limit is not None and p.vaporizer is not None and p.vaporizer.to("").magnitude > limit.to("").magnitude:
+                top = limit.to("percent").magnitude
+                raise ValueError(f"phases[{i}].vaporizer: 0 to {top:g} % (the vaporizer maximum of {self.agent.name})")
         return self
 
     @property
     def duration(self) -> pint.Quantity:
         """Total duration of the phases [min]."""
         return Q_(sum(p.duration.to("min").magnitude for p in self.phases), "min")
-
-
-def _loc(loc: tuple[Any, ...]) -> str:
-    out = ""
-    for part in loc:
-        if isinstance(part, int):
-            out += f"[{part}]"
-        elif part not in ("function-before[check(), lambda]",) and not str(part).startswith(
-            ("function-", "lax-", "union[")
-        ):
-            out += ("." if out else "") + str(part)
-    return out
-
-
-def input_error_from_validation(exc: ValidationError, prefix: str = "") -> InputError:
-    """The first error of a pydantic ValidationError as an InputError (field, value, expected).
-
-    Model-level messages of the form ``"field: expected text"`` name their own field.
-    """
-    err = exc.errors(include_url=False)[0]
-    field = _loc(tuple(err.get("loc", ())))
-    msg = str(err.get("msg", "")).removeprefix("Value error, ")
-    value = err.get("input")
-    if err.get("type") == "extra_forbidden":
-        return InputError(_join(prefix, field), value, "no such key (check the spelling; see the README)")
-    if err.get("type") == "missing":
-        return InputError(_join(prefix, field), "(missing)", "a value: this key is required")
-    if ": " in msg and err.get("type") == "value_error" and " " not in msg.split(": ", 1)[0]:
-        sub, msg = msg.split(": ", 1)
-        field = _join(field, sub)
-        if isinstance(value, dict):
-            value = value.get(sub, value)
-    if isinstance(value, dict | list):
-        value = "(table)"
-    return InputError(_join(prefix, field), value, msg)
-
-
-def _join(a: str, b: str) -> str:
-    return f"{a}.{b}" if a and b else (a or b or "scenario")
 
 
 def scenario_from_dict(data: dict[str, Any]) -> Scenario:
@@ -309,7 +301,7 @@ def scenario_from_dict(data: dict[str, Any]) -> Scenario:
     try:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
-        raise input_error_from_validation(exc) from None
+        raise input_error_from_validation(exc, model=Scenario) from None
     if scenario.prices:
         from .costs import parse_prices
 
@@ -317,29 +309,46 @@ def scenario_from_dict(data: dict[str, Any]) -> Scenario:
     return scenario
 
 
-def load_scenario(source: str | Path) -> Scenario:
-    """Read a scenario from a TOML file path or TOML text.
+def scenario_from_text(text: str, name: str = "scenario") -> Scenario:
+    """Parse and validate a scenario from TOML text (never read as a path).
 
     Parameters
     ----------
-    source : str or pathlib.Path
-        A path to a ``.toml`` file, or the TOML text itself.
+    text : str
+        The TOML document.
+    name : str
+        How errors name the text (default ``"scenario"``).
 
     Raises
     ------
     InputError
-        On unreadable TOML or any invalid field.
+        On invalid TOML or any invalid field.
     """
-    text, name = _read(source)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(name, "(file)", f"valid TOML ({exc})") from None
-    return scenario_from_dict(data)
+    return scenario_from_dict(toml_from_text(text, name))
 
 
-def _read(source: str | Path) -> tuple[str, str]:
-    if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source and source.endswith(".toml")):
-        path = Path(source)
-        return read_text_file(path, "scenario", "an existing TOML file"), path.name
-    return str(source), "scenario"
+def load_scenario(path: str | os.PathLike[str]) -> Scenario:
+    """Read a scenario from a ``.toml`` file; the argument is always a path, never TOML text.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The scenario file; it must end in ``.toml`` (the same rule for ``lowflow case``,
+        ``safe-flow`` and scenarios named in an inventory).
+
+    Raises
+    ------
+    InputError
+        On a missing or unreadable file, invalid TOML or any invalid field.
+
+    Examples
+    --------
+    >>> load_scenario("[patient]\\nweight = '70 kg'")
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: scenario: got ...; expected a file path, not text (...scenario_from_text)
+    """
+    expected = "an existing scenario TOML file"
+    p = as_path(path, "scenario", expected)
+    check_scenario_suffix(p, "scenario")
+    return scenario_from_dict(read_toml(p, "scenario", expected))

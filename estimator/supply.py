@@ -21,7 +21,7 @@ References
 
 Examples
 --------
->>> inv = load_inventory('''
+>>> inv = inventory_from_text('''
 ... [[cylinders]]
 ... name = "O2 A"
 ... gas = "oxygen"
@@ -51,6 +51,7 @@ import pandas as pd
 import pint
 
 from .accounting import absorbent_mass
+from .contracts import named_file
 from .cylinders import supply_data
 from .errors import InputError
 from .supply_file import (
@@ -64,6 +65,7 @@ from .supply_file import (
     add_interval,
     clock_minutes,
     gas_name,
+    inventory_from_text,
     load_inventory,
     minutes_per_day,
     parse_days,
@@ -80,7 +82,7 @@ from .units import (
     parse_quantity,
 )
 
-__all__ = ["Inventory", "SupplyItem", "SupplyReport", "load_inventory", "plan_supply"]
+__all__ = ["Inventory", "SupplyItem", "SupplyReport", "inventory_from_text", "load_inventory", "plan_supply"]
 
 
 @dataclass(frozen=True)
@@ -248,9 +250,15 @@ def _demand_week(
         whole_number(plan.per_day, f"{f}.per_day", 0, 100)
         whole_number(plan.rooms, f"{f}.rooms", 1, 50)
         days = work if plan.days_per_week is None else whole_number(plan.days_per_week, f"{f}.days_per_week", 0, 7)
-        path = Path(plan.scenario)
-        path = path if path.is_absolute() else Path(inv.base_dir) / path
-        result = runner(str(path))
+        if runner is _default_runner:  # the file is read: a .toml file beside the inventory
+            path = named_file(plan.scenario, inv.base_dir, f"{f}.scenario", (".toml",))
+        else:  # a stand-in runner gets the name as a label, nothing is read here
+            path = Path(inv.base_dir) / plan.scenario
+        try:
+            result = runner(str(path))
+        except InputError as exc:  # an error inside the named scenario: say where it was named
+            inner = "" if exc.field.split(" ")[0] == "scenario" else "." + exc.field
+            raise InputError(f"{f}.scenario{inner}", exc.value, exc.expected) from None
         duration, per_case = _case_need(result, plan, f)
         label = plan.name or Path(plan.scenario).stem
         warns.extend((c, f"case plan {label}: {m}") for c, m in getattr(result, "warnings", []))

@@ -1,218 +1,54 @@
-r"""The inventory file of ``lowflow supply``: its schema (unknown keys are errors), small parsers,
-and the stock tables turned into supplies (cylinder contents from :mod:`estimator.cylinders`).
-
-Every table is a pydantic model with ``extra="forbid"``, so a misspelt key is caught and reported
-with its place in the file (``cylinders[1].tare_wieght``) and the keys that are valid there.
-Quantities stay strings here; :mod:`estimator.supply` parses each with its field name.
+r"""Small parsers of the inventory's values, and the stock tables turned into supplies (cylinder
+contents from :mod:`estimator.cylinders`). The schema and loaders are in
+:mod:`estimator.inventory_file` (re-exported here).
 
 Examples
 --------
->>> inv = load_inventory('''
-... [[bottles]]
-... agent = "sevoflurane"
-... count = 3
-... ''')
->>> inv.bottles[0].count
-3
->>> load_inventory('[[bottles]]\nagent = "sevoflurane"\ncont = 3')
-Traceback (most recent call last):
-...
-estimator.errors.InputError: bottles[0].cont: got 3; expected a known key here: agent, count, name, opened, volume
+>>> clock_minutes("08:30", "demand.day_start")
+510
 """
 
 from __future__ import annotations
 
-import re
-import tomllib
 from dataclasses import dataclass, field
 from datetime import date
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pint
-from pydantic import BaseModel, ConfigDict, StrictBool, StrictInt, ValidationError
 
 from .accounting import absorbent_capacity
 from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, supply_data
-from .errors import InputError, read_text_file
+from .errors import InputError
+from .inventory_file import (
+    CLOCK,
+    GASES,
+    SOURCE_KINDS,
+    CasePlan,
+    ConcentratorEntry,
+    Inventory,
+    Site,
+    inventory_from_text,
+    load_inventory,
+)
 from .properties import AGENTS
 from .units import Q_, check_range, parse_quantity
 
-GASES = ("oxygen", "air", "nitrous_oxide")
-SOURCE_KINDS = ("pipelines", "concentrators", "cylinders")
+__all__ = [
+    "ARGON_PER_OXYGEN",
+    "GASES",
+    "SOURCE_KINDS",
+    "WEEK",
+    "CasePlan",
+    "Inventory",
+    "inventory_from_text",
+    "load_inventory",
+]
 
-Value = str | int | float
 WEEK = 7 * 1440  # minutes
 #: Argon to oxygen ratio of dry air (0.934 / 20.946 % by volume, CRC Handbook); a zeolite sieve
 #: does not separate argon from oxygen, so concentrator product keeps it (common practice, no source).
 ARGON_PER_OXYGEN = 0.00934 / 0.20946
-
-
-class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-
-class CylinderEntry(_Strict):
-    name: str | None = None
-    gas: str
-    count: StrictInt = 1
-    water_capacity: Value | None = None
-    pressure: Value | None = None
-    temperature: Value = "15 degC"
-    reserve_pressure: Value | None = None
-    service_pressure: Value | None = None
-    gross_weight: Value | None = None
-    tare_weight: Value | None = None
-    reserve_weight: Value | None = None
-
-
-class BottleEntry(_Strict):
-    name: str | None = None
-    agent: str
-    count: StrictInt = 0
-    volume: Value = "250 mL"
-    opened: Value | None = None
-
-
-class ConcentratorEntry(_Strict):
-    name: str | None = None
-    rated_flow: Value
-    hours_per_day: Value = "24 h"
-    start: Value = "0 h"
-    count: StrictInt = 1
-    purity: Value | list[list[Value]] | None = None
-
-
-class PipelineEntry(_Strict):
-    name: str | None = None
-    gas: str
-    available: StrictBool = True
-
-
-class AbsorbentEntry(_Strict):
-    name: str = "CO2 absorbent"
-    stock: Value
-    co2_per_100g: Value | None = None
-
-
-class CasePlan(_Strict):
-    name: str | None = None
-    scenario: str
-    per_day: StrictInt
-    days_per_week: StrictInt | None = None
-    rooms: StrictInt = 1
-    drive_gas: str = "none"
-    drive_multiplier: float | None = None
-    minute_ventilation: Value | None = None
-
-
-class ContinuousDemand(_Strict):
-    name: str | None = None
-    gas: str
-    flow: Value | None = None
-    minute_ventilation: Value | None = None
-    drive_multiplier: float | None = None
-    hours_per_day: Value = "24 h"
-    days_per_week: StrictInt = 7
-    start: Value = "8 h"
-
-
-class Demand(_Strict):
-    working_days_per_week: StrictInt = 5
-    day_start: Value = "8 h"
-    cases: list[CasePlan] = []
-    continuous: list[ContinuousDemand] = []
-
-
-class PlanOptions(_Strict):
-    start: date | str | None = None
-    lead_time: Value = "0 day"
-    safety_stock: Value = "0 day"
-    table_days: StrictInt = 365
-
-
-class SupplyOptions(_Strict):
-    priority: list[str] = list(SOURCE_KINDS)
-    ignore: list[str] = []
-
-
-class Site(_Strict):
-    ambient_pressure: Value | None = None
-    elevation: Value | None = None
-
-
-class Inventory(_Strict):
-    """The validated inventory file; ``base_dir`` resolves scenario paths."""
-
-    title: str = ""
-    site: Site = Site()
-    plan: PlanOptions = PlanOptions()
-    supply: SupplyOptions = SupplyOptions()
-    demand: Demand = Demand()
-    cylinders: list[CylinderEntry] = []
-    bottles: list[BottleEntry] = []
-    concentrators: list[ConcentratorEntry] = []
-    pipelines: list[PipelineEntry] = []
-    absorbent: AbsorbentEntry | None = None
-    base_dir: str = "."
-
-
-def _loc(loc: tuple[Any, ...]) -> str:
-    out = ""
-    for part in loc:
-        out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else str(part))
-    return out
-
-
-def _known_keys(loc: tuple[Any, ...]) -> list[str]:
-    model: Any = Inventory
-    for part in loc:
-        if isinstance(part, int):
-            continue
-        ann = model.model_fields[part].annotation
-        model = next(
-            (a for a in getattr(ann, "__args__", (ann,)) if isinstance(a, type) and issubclass(a, BaseModel)), None
-        )
-        if model is None:
-            for a in getattr(ann, "__args__", ()):
-                inner = getattr(a, "__args__", ())
-                model = next((i for i in inner if isinstance(i, type) and issubclass(i, BaseModel)), model)
-        if model is None:
-            return []
-    return sorted(k for k in model.model_fields if k != "base_dir")
-
-
-def load_inventory(source: str | Path) -> Inventory:
-    """Read and validate an inventory file (a path, or TOML text); unknown keys are errors.
-
-    Raises
-    ------
-    InputError
-        Naming the field (e.g. ``cylinders[1].tare_wieght``), the value and what is accepted.
-    """
-    text, base = str(source), "."
-    if isinstance(source, Path) or ("\n" not in text and "=" not in text):
-        path = Path(source)
-        text, base = read_text_file(path, "inventory", "an existing inventory TOML file"), str(path.parent)
-    try:
-        raw = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError("inventory", str(source)[:60], f"valid TOML ({exc})") from None
-    if "base_dir" in raw:
-        raise InputError("base_dir", raw["base_dir"], "no such key in an inventory file")
-    try:
-        return Inventory(**raw, base_dir=base)
-    except ValidationError as exc:
-        err = exc.errors()[0]
-        where = _loc(err["loc"])
-        if err["type"] == "extra_forbidden":
-            raise InputError(
-                where, err["input"], "a known key here: " + ", ".join(_known_keys(err["loc"][:-1]))
-            ) from None
-        if err["type"] == "missing":
-            raise InputError(where, "(missing)", "a value: this key is required") from None
-        raise InputError(where, err["input"], err["msg"].lower()) from None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -233,7 +69,9 @@ def minutes_per_day(value: Any, f: str) -> float:
 
 def clock_minutes(value: Any, f: str) -> float:
     """Time of day in minutes after midnight from ``"08:30"`` or ``"8.5 h"``."""
-    m = re.fullmatch(r"\s*(\d{1,2}):(\d{2})\s*", value) if isinstance(value, str) else None
+    m = CLOCK.fullmatch(value) if isinstance(value, str) else None
+    if m is not None and (int(m.group(1)) > 23 or int(m.group(2)) > 59):
+        raise InputError(f, value, "a time of day HH:MM, 00:00 to 23:59, or hours such as '8.5 h'")
     q = Q_(int(m.group(1)) * 60 + int(m.group(2)), "min") if m else parse_quantity(value, f, "time", "h")
     check_range(q.to("h"), f, Q_(0, "h"), Q_(24, "h"), value=value)
     return q.to("min").magnitude % 1440

@@ -105,6 +105,9 @@ def _to_quantity(value: Any, field: str, expected: str) -> pint.Quantity:
     if isinstance(value, int | float):
         return Q_(float(value), "dimensionless")
     if isinstance(value, dict) and set(value) == {"magnitude", "units"}:
+        mag = value["magnitude"]
+        if isinstance(mag, bool) or not isinstance(mag, int | float):
+            raise InputError(field, value, f"{expected} (a JSON quantity needs a number as its magnitude)")
         return quantity_from_json(value, field)
     if not isinstance(value, str):
         raise InputError(field, value, expected)
@@ -112,10 +115,14 @@ def _to_quantity(value: Any, field: str, expected: str) -> pint.Quantity:
     if not match:
         raise InputError(field, value, expected)
     number, unit = match.groups()
+    if _GAUGE.match(unit.strip()) or unit.strip().lower() in ("psig", "psia"):
+        raise InputError(
+            field, value, f"{expected}, without a gauge or absolute marker (those belong to cylinder pressures)"
+        )
     try:
         magnitude = float(number)
         units = ureg.parse_units(_unit_text(unit)) if unit else ureg.dimensionless
-    except (pint.errors.PintError, ValueError, AttributeError, TypeError, SyntaxError, KeyError, AssertionError):
+    except Exception:  # noqa: BLE001 - pint's parser raises many kinds (TokenError, IndexError...) on odd text
         raise InputError(field, value, expected) from None
     return Q_(magnitude, units)
 
@@ -155,8 +162,11 @@ def parse_quantity(value: Any, field: str, dimension: str, default_unit: str | N
     """
     dim, example = DIMENSIONS[dimension]
     q = _to_quantity(value, field, example)
-    if q.dimensionless and q.units == ureg.dimensionless and default_unit and not isinstance(value, pint.Quantity):
+    bare = q.units == ureg.dimensionless and not isinstance(value, pint.Quantity)
+    if bare and default_unit:
         q = Q_(q.magnitude, default_unit)
+    elif bare and dimension == "fraction" and math.isfinite(q.magnitude) and abs(q.magnitude) > 1:
+        raise InputError(field, value, f"a fraction: write '{q.magnitude:g} %' or {q.magnitude / 100:g} ({BARE_RULE})")
     if not math.isfinite(float(q.magnitude)):
         raise InputError(field, value, f"a finite value ({example})")
     if not q.check(dim):
@@ -169,8 +179,10 @@ def _describe(q: pint.Quantity) -> str:
         if name == "age":
             continue
         if q.check(dim):
-            return "a dimensionless number" if name == "fraction" else f"a {name.replace('_', ' ')}"
-    return f"units of {q.dimensionality}"
+            return {"fraction": "a dimensionless number", "mac": "a MAC multiple"}.get(
+                name, f"a {name.replace('_', ' ')}"
+            )
+    return f"'{unit_label(q.units)}', a unit of another kind"
 
 
 def check_range(
@@ -178,21 +190,75 @@ def check_range(
 ) -> pint.Quantity:
     """Check ``low <= q <= high`` (``low < q`` if not ``low_inclusive``) or raise InputError.
 
+    The range is stated in the unit the user typed, when the value came with one.
+
     Examples
     --------
     >>> check_range(Q_(5, "L/min"), "oxygen", Q_(0, "L/min"), Q_(15, "L/min")).magnitude
     5
+    >>> check_range(Q_(0.2, ""), "o2", 0.21, 1.0, value="20 %")
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: o2: got '20 %'; expected 21 to 100 %
     """
     lo = low if isinstance(low, pint.Quantity) else Q_(low, q.units)
     hi = high if isinstance(high, pint.Quantity) else Q_(high, q.units)
     mag = q.to(lo.units).magnitude
     ok_low = mag >= lo.magnitude if low_inclusive else mag > lo.magnitude
     if not (ok_low and mag <= hi.to(lo.units).magnitude):
-        lo_txt = f"{lo.magnitude:g}" if low_inclusive else f"above {lo.magnitude:g}"
+        unit = lo.units
         raise InputError(
-            field, value if value is not None else f"{q:~P}", f"{lo_txt} to {hi.to(lo.units).magnitude:g} {lo.units:~P}"
+            field,
+            value if value is not None else f"{q:~P}",
+            range_text(lo.magnitude, hi.to(unit).magnitude, unit, value, low_open=not low_inclusive),
         )
     return q
+
+
+#: How a bare number is read where a fraction is expected (the rule every contract and option shares).
+BARE_RULE = "a bare number is a fraction of 1: 0.7 means 70 %; write a percent with its sign, '70 %'"
+
+#: Unit symbols shown to users: pint's short forms that readers misread, and their common names.
+_LABELS = {"a": "years", "d": "days", "wk": "weeks", "l": "L", "ml": "mL", "dl": "dL", "kl": "kL", "MACh": "MAC h"}
+
+
+def unit_label(units: Any) -> str:
+    """A unit as users write it: ``years`` not ``a``, ``L/min`` not ``l/min``.
+
+    >>> unit_label(ureg.year), unit_label(ureg("mL/min").units), unit_label(ureg.percent)
+    ('years', 'mL/min', '%')
+    """
+    text = f"{ureg.Unit(units):~P}" if not isinstance(units, str) else units
+    return re.sub(r"[A-Za-z]+", lambda m: _LABELS.get(m.group(0), m.group(0)), text)
+
+
+def _typed_unit(value: Any, fallback: Any) -> Any:
+    """The unit of a user's string if it has the dimension of ``fallback``, else ``fallback``."""
+    if not isinstance(value, str) or isinstance(value, bool):
+        return fallback
+    match = _SPLIT.match(value)
+    if not match or not match.group(2):
+        return fallback
+    try:
+        units = ureg.parse_units(_unit_text(match.group(2)))
+    except Exception:  # noqa: BLE001 - any unparsable unit keeps the fallback
+        return fallback
+    return units if ureg.Quantity(1, units).check(ureg.Quantity(1, fallback).dimensionality) else fallback
+
+
+def range_text(low: float, high: float, unit: Any, value: Any = None, *, low_open: bool = False) -> str:
+    """``"0 to 120 years"``: a range in ``unit``, or in the unit of ``value`` when it has one.
+
+    >>> range_text(0.21, 1.0, "dimensionless", "20 %")
+    '21 to 100 %'
+    >>> range_text(0, 120, "year", "130 years")
+    '0 to 120 years'
+    """
+    units = ureg.Unit(unit) if isinstance(unit, str) else unit
+    shown = _typed_unit(value, units)
+    lo, hi = (float(Q_(x, units).to(shown).magnitude) for x in (low, high))
+    label = unit_label(shown)
+    return f"{'above ' if low_open else ''}{lo:.6g} to {hi:.6g}{' ' + label if label else ''}"
 
 
 @dataclass(frozen=True)
@@ -290,5 +356,5 @@ def quantity_from_json(data: dict[str, Any], field: str = "quantity") -> pint.Qu
     """
     try:
         return Q_(data["magnitude"], ureg.parse_units(data["units"]) if data["units"] else ureg.dimensionless)
-    except (KeyError, TypeError, pint.errors.PintError, ValueError, AttributeError) as exc:
-        raise InputError(field, data, "an object {'magnitude': number, 'units': 'pint unit string'}") from exc
+    except Exception:  # noqa: BLE001 - pint's parser raises many kinds on odd unit text
+        raise InputError(field, data, "an object {'magnitude': number, 'units': 'pint unit string'}") from None

@@ -24,6 +24,7 @@ def time_course(
     rule_label: str = "",
     step: bool = False,
     x: str = "time [min]",
+    x_type: str = "quantitative",
 ) -> dict[str, Any]:
     """Vega-Lite spec: lines of ``columns`` (frame column -> legend name) against column ``x``.
 
@@ -31,11 +32,13 @@ def time_course(
     costs about 30 ms a chart on every rerun; the tests validate these specs against the schema.
     """
     data = frame[[x, *columns]].rename(columns={x: "time", **columns})
+    if x_type == "temporal":  # dates as ISO text, which Vega-Lite parses
+        data["time"] = data["time"].astype(str)
     long = data.melt("time", var_name="series", value_name="value").dropna()
     line = {
         "mark": {"type": "line", "strokeWidth": 2.2, "interpolate": "step-after" if step else "linear"},
         "encoding": {
-            "x": {"field": "time", "type": "quantitative", "title": x},
+            "x": {"field": "time", "type": x_type, "title": x},
             "y": {"field": "value", "type": "quantitative", "title": y_title, "scale": {"zero": True}},
             "color": {
                 "field": "series",
@@ -45,7 +48,12 @@ def time_course(
                 "legend": {"orient": "top", "labelLimit": 260},
             },
             "tooltip": [
-                {"field": "time", "type": "quantitative", "title": x, "format": ".3g"},
+                {
+                    "field": "time",
+                    "type": x_type,
+                    "title": x,
+                    **({"format": ".3g"} if x_type == "quantitative" else {}),
+                },
                 {"field": "series", "type": "nominal"},
                 {"field": "value", "type": "quantitative", "title": y_title, "format": ".3g"},
             ],
@@ -77,6 +85,20 @@ def time_course(
         "height": height,
         "data": {"values": long.to_dict("records")},
         "layer": layers,
+    }
+
+
+def histogram(values: Any, x_title: str, y_title: str, height: int = 240) -> dict[str, Any]:
+    """Vega-Lite spec: a histogram of ``values`` (at most 30 bins) with labelled axes."""
+    return {
+        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
+        "height": height,
+        "data": {"values": [{"v": float(x)} for x in values]},
+        "mark": {"type": "bar", "color": PALETTE[0]},
+        "encoding": {
+            "x": {"field": "v", "type": "quantitative", "bin": {"maxbins": 30}, "title": x_title},
+            "y": {"aggregate": "count", "type": "quantitative", "title": y_title},
+        },
     }
 
 

@@ -174,47 +174,37 @@ def downloads(
         pairs = warning_pairs(warnings)
         return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes, warnings=pairs).encode("utf-8")
 
-    c1, c2, c3, c4 = st.columns(4)
-    c1.download_button(
-        "Download CSV",
-        lambda: csv_bytes(first),
-        f"{stem}.csv",
-        "text/csv",
-        key=f"{key}.csv",
-        icon=":material/table_view:",
-        width="stretch",
-        on_click="ignore",
+    download_row(
+        [
+            ("Download CSV", lambda: csv_bytes(first), f"{stem}.csv", "text/csv", ":material/table_view:"),
+            ("Download XLSX", lambda: xlsx_bytes(sheets), f"{stem}.xlsx", XLSX, ":material/grid_on:"),
+            ("Report (HTML)", as_html, f"{stem}.html", "text/html", ":material/description:"),
+            ("Download JSON", as_json, f"{stem}.json", "application/json", ":material/data_object:"),
+        ],
+        key,
     )
-    c2.download_button(
-        "Download XLSX",
-        lambda: xlsx_bytes(sheets),
-        f"{stem}.xlsx",
-        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-        key=f"{key}.xlsx",
-        icon=":material/grid_on:",
-        width="stretch",
-        on_click="ignore",
-    )
-    c3.download_button(
-        "Report (HTML)",
-        as_html,
-        f"{stem}.html",
-        "text/html",
-        key=f"{key}.html",
-        icon=":material/description:",
-        width="stretch",
-        on_click="ignore",
-    )
-    c4.download_button(
-        "Download JSON",
-        as_json,
-        f"{stem}.json",
-        "application/json",
-        key=f"{key}.json",
-        icon=":material/data_object:",
-        width="stretch",
-        on_click="ignore",
-    )
+
+
+XLSX = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"
+
+
+def download_row(buttons: list[tuple[str, Any, str, str, str | None]], key: str) -> None:
+    """One row of download buttons (label, bytes or a callable giving them, file name, MIME type, icon).
+
+    Callables run only when their button is pressed (deferred data), so reruns stay fast; the key of
+    each button is ``key`` and the file's extension.
+    """
+    for col, (label, data, name, mime, icon) in zip(st.columns(len(buttons)), buttons, strict=True):
+        col.download_button(
+            label,
+            data,
+            name,
+            mime,
+            key=f"{key}.{name.rsplit('.', 1)[-1]}",
+            icon=icon,
+            width="stretch",
+            on_click="ignore",
+        )
 
 
 def placeholder(what: str, module: str, detail: str) -> None:

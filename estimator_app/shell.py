@@ -8,8 +8,13 @@ from collections.abc import Callable
 
 import streamlit as st
 
+from estimator.errors import InputError
+
 from . import state, warmup
-from .common import caution, unit_selectors
+from .common import caution, show_error, unit_selectors
+
+#: The one line a page shows for a fault that is not an input error (details stay in the server log).
+FAULT = "This page could not finish: an internal error occurred ({name}). Your inputs are kept; please report it."
 
 #: (module, title, url path, icon); titles follow the naming table of the design notes.
 PAGES = (
@@ -25,19 +30,37 @@ PAGES = (
 
 def _renderer(module: str) -> Callable[[], None]:
     def run() -> None:
-        importlib.import_module(f"estimator_app.pages.{module}").render()
+        guarded(importlib.import_module(f"estimator_app.pages.{module}").render)
 
     run.__name__ = module
     return run
 
 
-def frame() -> None:
-    """Caution and sidebar, shared by every page."""
+def guarded(render: Callable[[], None]) -> None:
+    """Run a page; an input error is its one readable line, any other fault one short line, never a traceback.
+
+    Streamlit's own control flow (rerun, stop) derives from BaseException and passes through.
+    """
+    try:
+        render()
+    except InputError as exc:
+        show_error(exc)
+    except Exception as exc:  # noqa: BLE001 - the page shell is the last line before the user
+        import logging
+
+        logging.getLogger("estimator_app").exception("page fault")
+        st.error(FAULT.format(name=type(exc).__name__), icon=":material/error:")
+
+
+def frame() -> Callable[[], None]:
+    """Caution and sidebar, shared by every page; returns what to draw after the page (the save button)."""
     caution()
     st.sidebar.markdown("### lowflow estimator")
     st.sidebar.caption("Low-flow anaesthesia gas use, supply and cost")
     unit_selectors()
-    state.scenario_sidebar()
+    guarded(state.scenario_sidebar)
+    slot = st.sidebar.container()
+    return lambda: guarded(lambda: state.save_button(slot))
 
 
 def stamp(started: float) -> None:
@@ -54,8 +77,9 @@ def main() -> None:
         st.Page(_renderer(m), title=t, url_path=u, icon=i, default=(k == 0)) for k, (m, t, u, i) in enumerate(PAGES)
     ]
     nav = st.navigation(pages)
-    frame()
+    after = frame()
     nav.run()
+    after()  # the save button holds the scenario as the page left it: what is on screen
     stamp(started)
     warmup.start()  # after the first page is drawn, so it does not compete with it
 
@@ -63,5 +87,6 @@ def main() -> None:
 def page_main(module: str) -> None:
     """One page with the shared frame, without navigation (used by the page tests)."""
     st.set_page_config(page_title="lowflow estimator", layout="wide")
-    frame()
+    after = frame()
     _renderer(module)()
+    after()

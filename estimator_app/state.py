@@ -1,71 +1,170 @@
-"""The scenario the pages share, its TOML load and save, and the cached engine run.
+"""The documents the pages share (scenario, inventory, case mix), their load and save, and the cached case run.
 
-The scenario document (a plain dict in the TOML contract) lives in ``st.session_state["scenario"]``;
-``st.session_state["scenario.version"]`` counts loads, and the planner's widget keys carry it, so a
-loaded file resets the widgets to its values.
+Each document is the parsed TOML of one file, kept whole in ``st.session_state`` with the text of the
+files it names; a page edits it in place and hands it to the command line's loader
+(``estimator_app.contracts``). A load (upload or demo file) is accepted only if that loader accepts
+it, and bumps the document's version, which the pages' widget keys carry, so the widgets show it.
 """
 
 from __future__ import annotations
 
-import tomllib
+from pathlib import Path
 from typing import Any
 
 import streamlit as st
-import tomli_w
 
 from estimator.errors import InputError
 
-from . import demo
+from . import contracts, demo
 from .common import read_upload, show_error
 
-DOC = "scenario"
-VERSION = "scenario.version"
+#: kind -> (session key of the document, session key of its version, what users call it)
+KINDS = {
+    "scenario": ("scenario", "scenario.version", "scenario"),
+    "inventory": ("supply.doc", "supply.version", "inventory"),
+    "casemix": ("forecast.doc", "forecast.version", "case mix"),
+}
+DOC, VERSION = KINDS["scenario"][:2]
 
 
-def stored(key: str, version_key: str, factory: Any) -> dict[str, Any]:
-    """A document kept in session state under ``key``, made by ``factory()`` on first use."""
-    if key not in st.session_state:
-        st.session_state[key] = factory()
-        st.session_state[version_key] = 0
-    return st.session_state[key]
+def _keys(kind: str) -> tuple[str, str, str]:
+    doc_key, version_key, _ = KINDS[kind]
+    return doc_key, version_key, f"{doc_key}.files"
 
 
-def document() -> dict[str, Any]:
-    """The current scenario document (the demo case until the user changes it)."""
-    return stored(DOC, VERSION, demo.scenario)
+def document(kind: str = "scenario") -> dict[str, Any]:
+    """The current document of ``kind`` (the kind's demo file until the user loads another)."""
+    doc_key, version_key, files_key = _keys(kind)
+    if doc_key not in st.session_state:
+        name = demo.DEFAULT[kind]
+        doc, files = demo.document(name)
+        st.session_state[doc_key] = doc
+        st.session_state[files_key] = files
+        st.session_state[f"{doc_key}.name"] = name
+    st.session_state.setdefault(version_key, 0)
+    st.session_state.setdefault(files_key, {})
+    return st.session_state[doc_key]
 
 
-def version() -> int:
-    document()
-    return int(st.session_state[VERSION])
+def files(kind: str) -> dict[str, str]:
+    """Text of the files the document of ``kind`` names, by name."""
+    document(kind)
+    return st.session_state[_keys(kind)[2]]
 
 
-def set_document(doc: dict[str, Any], *, reset_widgets: bool = False) -> None:
-    st.session_state[DOC] = doc
-    if reset_widgets:
-        st.session_state[VERSION] = version() + 1
+def version(kind: str = "scenario") -> int:
+    document(kind)
+    return int(st.session_state[_keys(kind)[1]])
+
+
+def set_document(doc: dict[str, Any], kind: str = "scenario") -> None:
+    """The document as the page's widgets now stand (no widget reset)."""
+    document(kind)
+    st.session_state[_keys(kind)[0]] = doc
 
 
 def toml_text(doc: dict[str, Any] | None = None) -> str:
-    """TOML text of a scenario document (the cache key of the engine run)."""
-    return tomli_w.dumps(_clean(document() if doc is None else doc))
+    """TOML text of a scenario document (the current one by default; the cache key of the engine run)."""
+    return contracts.toml_text(document() if doc is None else doc)
 
 
-def _clean(value: Any) -> Any:
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items() if v is not None}
-    if isinstance(value, list):
-        return [_clean(v) for v in value]
-    return value
+def accept(kind: str, text: str, name: str, named: dict[str, str]) -> None:
+    """Make TOML text the current document of ``kind`` if the command line's loader accepts it."""
+    doc = contracts.parse_toml(text, KINDS[kind][2])
+    wanted = set(contracts.referenced(kind, doc))
+    given = {k: v for k, v in named.items() if k in wanted}
+    contracts.check(kind, doc, given, toml_text())
+    doc_key, version_key, files_key = _keys(kind)
+    document(kind)
+    st.session_state[doc_key] = doc
+    st.session_state[files_key] = given
+    st.session_state[f"{doc_key}.name"] = name
+    st.session_state[version_key] += 1
+
+
+def load(text: str) -> None:
+    """Validate TOML text as a scenario and make it current (InputError if it is not one)."""
+    accept("scenario", text, "scenario.toml", {})
+
+
+def load_demo(kind: str, name: str) -> None:
+    doc, named = demo.document(name)
+    accept(kind, contracts.toml_text(doc), name, named)
+
+
+def demo_picker(kind: str, box: Any = st) -> None:
+    """A select box of the demo folder's files of ``kind``; choosing one loads it."""
+    document(kind)
+    key = f"{_keys(kind)[0]}.demo"
+    names = demo.files_of(kind)
+    current = st.session_state.get(f"{_keys(kind)[0]}.name")
+
+    def chosen() -> None:
+        pick = st.session_state.get(key)
+        if pick:
+            try:
+                load_demo(kind, pick)
+            except InputError as exc:  # pragma: no cover - the demo files are tested
+                st.session_state[f"{key}.error"] = str(exc)
+
+    box.selectbox(
+        f"Demo {KINDS[kind][2]}",
+        names,
+        index=names.index(current) if current in names else None,
+        key=key,
+        on_change=chosen,
+        placeholder="Choose a demo file",
+        help="The invented demo files of the repository's demo_cases folder, as the command line reads them.",
+    )
+
+
+def upload(kind: str, label: str, key: str, help_text: str, box: Any = st) -> None:
+    """An upload of a document of ``kind`` with the files it names (parsed, validated, never run)."""
+    single = kind == "scenario"
+    up = box.file_uploader(
+        label,
+        type=["toml"] if single else ["toml", "csv"],
+        key=key,
+        help=help_text,
+        accept_multiple_files=not single,
+    )
+    ups = [] if up is None else [up] if single else list(up)
+    ident = tuple(u.file_id for u in ups)
+    if not ups or st.session_state.get(f"{key}.loaded_id") == ident:
+        return
+    st.session_state[f"{key}.loaded_id"] = ident
+    try:
+        texts = {u.name: read_upload(u, label) for u in ups}
+        main = _main_file(kind, texts)
+        accept(kind, texts[main], main, {k: v for k, v in texts.items() if k != main})
+        box.success(f"Loaded {main}")
+    except InputError as exc:
+        with box if box is not st else st.container():
+            show_error(exc)
+
+
+def _main_file(kind: str, texts: dict[str, str]) -> str:
+    """The uploaded document among the files it names: the one no other file names."""
+    if len(texts) == 1:
+        return next(iter(texts))
+    named = set()
+    for text in texts.values():
+        try:
+            named.update(contracts.referenced(kind, contracts.parse_toml(text, KINDS[kind][2])))
+        except InputError:
+            continue
+    roots = [n for n in texts if n not in named and n.lower().endswith(".toml")]
+    if len(roots) != 1:
+        raise InputError(KINDS[kind][2], ", ".join(texts), f"one {KINDS[kind][2]} file and the files it names")
+    return roots[0]
 
 
 @st.cache_data(max_entries=128, show_spinner="Running the circle-system model...")
 def run_case(text: str) -> Any:
-    """Engine result of a scenario's TOML text (cached on the text)."""
+    """Engine result of a scenario's TOML text (cached on the text): the command line's loader and engine."""
     from estimator.engine import simulate
-    from estimator.scenario import load_scenario
 
-    return simulate(load_scenario(text))
+    return simulate(contracts.load_scenario_text(text))
 
 
 def current_result() -> Any:
@@ -78,67 +177,28 @@ def current_result() -> Any:
 
 
 def scenario_sidebar() -> None:
-    """Sidebar: load a scenario TOML (parsed and validated, never executed) and save the current one."""
+    """Sidebar: a demo case or an uploaded scenario TOML (parsed and validated, never executed)."""
     st.sidebar.subheader("Scenario")
-    up = st.sidebar.file_uploader(
+    demo_picker("scenario", st.sidebar)
+    upload(
+        "scenario",
         "Load scenario (TOML)",
-        type=["toml"],
-        key="scenario.upload",
-        help="A scenario file as described in the README; at most 20 MB.",
+        "scenario.upload",
+        "A scenario file as in the README; at most 20 MB.",
+        st.sidebar,
     )
-    if up is not None and st.session_state.get("scenario.loaded_id") != up.file_id:
-        st.session_state["scenario.loaded_id"] = up.file_id
-        try:
-            load(read_upload(up, "scenario file"))
-            st.sidebar.success(f"Loaded {up.name}")
-        except InputError as exc:
-            with st.sidebar:
-                show_error(exc)
-    doc = document()
-    name = (doc.get("title") or "scenario").split(" - ")[0].strip().lower().replace(" ", "_")[:40] or "scenario"
-    st.sidebar.download_button(
-        "Save scenario (TOML)",
-        toml_text().encode("utf-8"),
-        f"{name}.toml",
+
+
+def save_button(box: Any, kind: str = "scenario", doc: dict[str, Any] | None = None) -> None:
+    """Save a document as it stands after the page ran (exactly what is on screen), under its loaded name."""
+    doc_key, _, label = KINDS[kind]
+    name = str(st.session_state.get(f"{doc_key}.name") or f"{kind}.toml")
+    box.download_button(
+        f"Save {label} (TOML)",
+        contracts.toml_text(document(kind) if doc is None else doc).encode("utf-8"),
+        name if name.endswith(".toml") else f"{Path(name).stem}.toml",
         "application/toml",
         icon=":material/save:",
-        width="stretch",
+        width="stretch" if kind == "scenario" else "content",
+        key=f"{doc_key}.save",
     )
-    if st.sidebar.button("Back to the demo case", icon=":material/restart_alt:", width="stretch"):
-        set_document(demo.scenario(), reset_widgets=True)
-        st.rerun()
-
-
-def load(text: str) -> None:
-    """Validate TOML text as a scenario and make it current (InputError if it is not one)."""
-    from estimator.scenario import load_scenario
-
-    load_scenario(text)
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:  # pragma: no cover - load_scenario has refused it already
-        raise InputError("scenario file", "(file)", f"valid TOML ({exc})") from None
-    set_document(doc, reset_widgets=True)
-
-
-def upload_toml(label: str, key: str, help_text: str, doc_key: str, version_key: str, validate: Any = None) -> None:
-    """A TOML upload that replaces the document under ``doc_key`` (parsed, validated, never run).
-
-    ``validate(text)`` raises InputError for a file that is TOML but not the expected document.
-    """
-    up = st.file_uploader(label, type=["toml"], key=key, help=help_text)
-    if up is None or st.session_state.get(f"{key}.loaded_id") == up.file_id:
-        return
-    st.session_state[f"{key}.loaded_id"] = up.file_id
-    try:
-        text = read_upload(up, label)
-        try:
-            doc = tomllib.loads(text)
-        except tomllib.TOMLDecodeError as exc:
-            raise InputError(label, up.name, f"valid TOML ({exc})") from None
-        if validate is not None:
-            validate(text)
-        st.session_state[doc_key] = doc
-        st.session_state[version_key] = st.session_state.get(version_key, 0) + 1
-    except InputError as exc:
-        show_error(exc)

@@ -251,9 +251,9 @@ def only_input_error(fn, *args) -> None:
 @FEW
 @given(toml_text)
 def test_scenario_loader_random_text(text):
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
-    only_input_error(load_scenario, text)
+    only_input_error(scenario_from_text, text)
 
 
 @FEW
@@ -268,10 +268,10 @@ def test_scenario_loader_random_tables(doc):
 @given(broken(SCENARIO, "="))
 def test_scenario_near_valid_files_load_and_run_or_say_why(text):
     from estimator.engine import simulate
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
     try:
-        sc = load_scenario(text)
+        sc = scenario_from_text(text)
     except InputError:
         return
     only_input_error(lambda: json.loads(dumps(simulate(sc).to_json())))
@@ -281,10 +281,10 @@ def test_scenario_near_valid_files_load_and_run_or_say_why(text):
 @FEW
 @given(st.one_of(toml_text, broken(INVENTORY, "=")))
 def test_inventory_loader_random_and_near_valid_text(text):
-    from estimator.supply import load_inventory, plan_supply
+    from estimator.supply import inventory_from_text, plan_supply
 
     try:
-        inv = load_inventory(text)
+        inv = inventory_from_text(text)
     except InputError:
         return
     only_input_error(lambda: dumps(plan_supply(inv, start="2026-03-02")))
@@ -295,13 +295,13 @@ def test_inventory_loader_random_and_near_valid_text(text):
 def test_inventory_loader_random_tables(doc):
     import tomli_w
 
-    from estimator.supply import load_inventory
+    from estimator.supply import inventory_from_text
 
     try:
         text = tomli_w.dumps(doc) + "\n"
     except (TypeError, ValueError):
         return  # not expressible in TOML (e.g. NaN keys); nothing a file could hold
-    only_input_error(load_inventory, text)
+    only_input_error(inventory_from_text, text)
 
 
 def _loaders():

@@ -10,7 +10,7 @@ from hypothesis import strategies as st
 
 from estimator.cli import main
 from estimator.errors import InputError
-from estimator.scenario import load_scenario, scenario_from_dict
+from estimator.scenario import scenario_from_dict, scenario_from_text
 
 GOOD = """
 title = "Harbourside test case (invented)"
@@ -57,7 +57,7 @@ def base(**phase):
 
 
 def test_good_file_loads_and_fraction_phase_splits_flows():
-    sc = load_scenario(GOOD)
+    sc = scenario_from_text(GOOD)
     o2, air, n2o = sc.phases[1].flows()
     # 50 % O2 in O2/air at 0.6 L/min: air = 0.6 (1 - 0.5) / (1 - 0.20946) (dry air O2 fraction,
     # CRC Handbook) and the O2 fraction of the mix is back to 0.5.
@@ -70,14 +70,14 @@ def test_good_file_loads_and_fraction_phase_splits_flows():
     "mutate,field,fragment",
     [
         (lambda d: d["patient"].update(weight="700 kg"), "patient.weight", "0.5 to 300"),
-        (lambda d: d["patient"].update(wieght="70 kg"), "patient.wieght", "no such key"),
+        (lambda d: d["patient"].update(wieght="70 kg"), "patient.wieght", "check the spelling"),
         (lambda d: d["agent"].update(name="xenon"), "agent.name", "sevoflurane"),
         (lambda d: d["phases"][0].update(oxygen="6 L"), "phases[0].oxygen", "flow"),
         (lambda d: d["phases"][0].update(oxygen="-1 L/min"), "phases[0].oxygen", "0 to 15"),
         (lambda d: d["phases"][0].update(end_tidal_target="1 MAC"), "phases[0].vaporizer", "exactly one"),
-        (lambda d: d["phases"][0].update(duration="30 h"), "phases[0].duration", "0 to 1440"),
+        (lambda d: d["phases"][0].update(duration="30 h"), "phases[0].duration", "0 to 24 h"),
         (lambda d: d.update(phases=[]), "phases", "at least one"),
-        (lambda d: d["phases"][0].update(vaporizer="30 %"), "phases[0].vaporizer", "0 to 0.25"),
+        (lambda d: d["phases"][0].update(vaporizer="30 %"), "phases[0].vaporizer", "0 to 25 %"),
     ],
 )
 def test_errors_name_field_value_and_range(mutate, field, fragment):

@@ -9,7 +9,7 @@ import pytest
 from CoolProp.CoolProp import PropsSI
 
 from estimator.errors import InputError
-from estimator.supply import load_inventory, plan_supply
+from estimator.supply import inventory_from_text, plan_supply
 from estimator.units import Q_
 
 START = "2026-03-02"  # a Monday
@@ -69,7 +69,9 @@ def usable_o2(bar, reserve=10.0):
 
 
 def test_runtime_is_usable_over_draw():
-    inv = load_inventory(O2.format(name="A", bar=137) + '[[demand.continuous]]\ngas = "oxygen"\nflow = "2 L/min"\n')
+    inv = inventory_from_text(
+        O2.format(name="A", bar=137) + '[[demand.continuous]]\ngas = "oxygen"\nflow = "2 L/min"\n'
+    )
     r = plan_supply(inv, start=START)
     item = r.items[0]
     # runtime = usable / draw, 2 L/min all day = 2880 L/day (definition of supply duration).
@@ -82,7 +84,7 @@ def test_runtime_is_usable_over_draw():
 def test_cylinders_of_one_gas_are_used_one_after_another():
     text = O2.format(name="A", bar=137) + O2.format(name="B", bar=200)
     text += '[[demand.continuous]]\ngas = "oxygen"\nflow = "0.5 L/min"\n'
-    r = plan_supply(load_inventory(text), start=START)
+    r = plan_supply(inventory_from_text(text), start=START)
     a, b = r.items[:2]
     assert a.runtime.magnitude == pytest.approx(usable_o2(137) / 720, rel=1e-9)
     assert b.runtime.magnitude == pytest.approx((usable_o2(137) + usable_o2(200)) / 720, rel=1e-9)
@@ -114,7 +116,7 @@ co2_per_100g = "12 L"
 ignore = ["air"]
 """
     )
-    r = plan_supply(load_inventory(text), start=START, runner=runner)
+    r = plan_supply(inventory_from_text(text), start=START, runner=runner)
     by = {i.name: i for i in r.items}
     iso = by["isoflurane bottles 2"]
     assert iso.status == "not used" and iso.runtime is None and iso.draw_per_day is None
@@ -143,7 +145,7 @@ per_day = 4
 [supply]
 ignore = ["oxygen", "air", "absorbent"]
 """
-    r = plan_supply(load_inventory(text), start=START, runner=runner)
+    r = plan_supply(inventory_from_text(text), start=START, runner=runner)
     # 1000 mL / 12 mL = 83.3 cases: 83 cases complete before the bottles are empty.
     assert r.cases_possible == 83
     days = r.days_of_supply.to("day").magnitude
@@ -153,7 +155,7 @@ ignore = ["oxygen", "air", "absorbent"]
 
 def test_no_stock_for_a_used_agent_fails_on_the_first_case():
     r = plan_supply(
-        load_inventory(
+        inventory_from_text(
             '[[demand.cases]]\nscenario = "x.toml"\nper_day = 1\n[supply]\nignore = ["oxygen", "air", "absorbent"]\n'
         ),
         start=START,
@@ -180,11 +182,11 @@ minute_ventilation = "6 L/min"
 ignore = ["sevoflurane", "air", "absorbent"]
 """
     )
-    r = plan_supply(load_inventory(text), start=START, runner=runner)
+    r = plan_supply(inventory_from_text(text), start=START, runner=runner)
     # Klemenzson and Perouansky 2004: bellows drive gas = multiplier x minute ventilation.
     assert r.items[0].draw_per_day.to("L/day").magnitude == pytest.approx(60 + 1.5 * 6 * 90)
     with pytest.raises(InputError) as err:
-        plan_supply(load_inventory(text.replace("1.5", "0.5")), start=START, runner=runner)
+        plan_supply(inventory_from_text(text.replace("1.5", "0.5")), start=START, runner=runner)
     assert err.value.field == "demand.cases[0].drive_multiplier"
 
 
@@ -202,7 +204,7 @@ gas = "oxygen"
 flow = "2 L/min"
 """
     )
-    r = plan_supply(load_inventory(text), start=START)
+    r = plan_supply(inventory_from_text(text), start=START)
     cyl, conc = r.items[0], r.items[1]
     # The concentrator covers 12 of 24 h: cylinders draw 2 L/min x 12 h = 1440 L/day.
     assert cyl.draw_per_day.to("L/day").magnitude == pytest.approx(1440, rel=1e-9)
@@ -226,7 +228,7 @@ gas = "oxygen"
 flow = "2 L/min"
 """
     )
-    r = plan_supply(load_inventory(text), start=START)
+    r = plan_supply(inventory_from_text(text), start=START)
     assert r.items[0].runtime.magnitude == pytest.approx(usable_o2(137) / 2880)
     assert r.bottleneck is None and r.days_of_supply is None
     assert {"STOCK_BACKED_UP", "NO_BOTTLENECK"} <= {c for c, _ in r.warnings}
@@ -241,11 +243,11 @@ purity = [["0 L/min", "95 %"], ["5 L/min", "85 %"]]
 gas = "oxygen"
 flow = "5 L/min"
 """
-    r = plan_supply(load_inventory(text), start=START)
+    r = plan_supply(inventory_from_text(text), start=START)
     # Ph. Eur. Oxygen (93 per cent): at least 90 % O2.
     assert any(c == "CONCENTRATOR_PURITY_LOW" for c, _ in r.warnings)
     with pytest.raises(InputError) as err:
-        plan_supply(load_inventory(text.replace('"5 L/min", "85 %"', '"4 L/min", "85 %"')), start=START)
+        plan_supply(inventory_from_text(text.replace('"5 L/min", "85 %"', '"4 L/min", "85 %"')), start=START)
     assert err.value.field == "concentrators[0].purity"
 
 
@@ -254,10 +256,10 @@ def test_pipeline_meets_demand_and_backup_is_not_used():
         O2.format(name="backup", bar=200) + '[[pipelines]]\ngas = "oxygen"\n'
         '[[demand.continuous]]\ngas = "oxygen"\nflow = "3 L/min"\n'
     )
-    r = plan_supply(load_inventory(text), start=START)
+    r = plan_supply(inventory_from_text(text), start=START)
     assert r.items[0].status == "not used" and r.bottleneck is None
     r2 = plan_supply(
-        load_inventory(text.replace('gas = "oxygen"\n[[demand', 'gas = "oxygen"\navailable = false\n[[demand')),
+        inventory_from_text(text.replace('gas = "oxygen"\n[[demand', 'gas = "oxygen"\navailable = false\n[[demand')),
         start=START,
     )
     assert r2.bottleneck == "backup"
@@ -284,14 +286,14 @@ def test_pipeline_meets_demand_and_backup_is_not_used():
 )
 def test_bad_input_names_the_field(text, field):
     with pytest.raises(InputError) as err:
-        plan_supply(load_inventory(text), start=None if "plan" in text else START)
+        plan_supply(inventory_from_text(text), start=None if "plan" in text else START)
     assert err.value.field == field
 
 
 def test_site_elevation_lowers_the_ambient_pressure():
     text = O2.format(name="A", bar=137)
-    low = plan_supply(load_inventory(text), start=START).items[0].usable
-    high = plan_supply(load_inventory('[site]\nambient_pressure = "70 kPa"\n' + text), start=START).items[0].usable
+    low = plan_supply(inventory_from_text(text), start=START).items[0].usable
+    high = plan_supply(inventory_from_text('[site]\nambient_pressure = "70 kPa"\n' + text), start=START).items[0].usable
 
     # The same gauge readings at 70 kPa ambient are 31.3 kPa less absolute pressure, both at the
     # reading and at the reserve (gauge + ambient), computed here from CoolProp directly.
@@ -300,13 +302,15 @@ def test_site_elevation_lowers_the_ambient_pressure():
 
     assert low.magnitude == pytest.approx(usable_o2(137), rel=1e-9)
     assert high.magnitude == pytest.approx(litres(137e5 + 70e3) - litres(10e5 + 70e3), rel=1e-9)
-    by_elevation = plan_supply(load_inventory('[site]\nelevation = "3000 m"\n' + text), start=START).items[0].usable
+    by_elevation = (
+        plan_supply(inventory_from_text('[site]\nelevation = "3000 m"\n' + text), start=START).items[0].usable
+    )
     assert by_elevation.magnitude != pytest.approx(low.magnitude, rel=1e-12)
 
 
 def test_json_keys():
     r = plan_supply(
-        load_inventory(O2.format(name="A", bar=137) + '[[demand.continuous]]\ngas = "oxygen"\nflow = "1 L/min"\n'),
+        inventory_from_text(O2.format(name="A", bar=137) + '[[demand.continuous]]\ngas = "oxygen"\nflow = "1 L/min"\n'),
         start=START,
     )
     j = r.to_json()

@@ -78,10 +78,12 @@ def main(argv: list[str] | None = None) -> None:
         fail(exc.format_message().replace("\n", " "))
     except typer.Abort:
         raise SystemExit(130) from None
-    except (FileNotFoundError, IsADirectoryError, PermissionError) as exc:
-        fail(f"{exc.filename}: {exc.strerror}")
+    except OSError as exc:
+        fail(f"{exc.filename or 'file'}: {exc.strerror or exc}")
     except UnicodeDecodeError:
         fail("input file: not UTF-8 text; expected a UTF-8 TOML or CSV file")
+    except RecursionError:
+        fail("input: nested too deeply (arrays or tables hundreds deep); expected a plain input file")
     except KeyboardInterrupt:
         raise SystemExit(130) from None
     except SystemExit:

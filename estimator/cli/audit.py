@@ -21,24 +21,55 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import tomllib
 from pathlib import Path
 
 import typer
 
-from ..errors import InputError, read_text_file
+from ..errors import InputError
 from ..jsonout import dumps
 from . import CAUTION, app
+from .outputs import option_names, output_paths, write_output
+
+#: Fields of the audit set by an option, named by the option in errors.
+_AUDIT_OPTIONS = {
+    "basis": "--basis",
+    "co2e_basis": "--basis",
+    "quadrature": "--quadrature",
+    "maintenance_after": "--maintenance-after",
+    "manifold_loss": "--manifold-loss",
+}
 
 
-def _policy(path: Path):
-    from ..audit_policy import parse_policy
+def _as_option(exc: InputError, name: str, flag: str) -> InputError:
+    """An error about the whole file ``name`` names the option that gave it; a field keeps its path."""
+    whole = exc.field == name or exc.field.startswith(name + " ")
+    return InputError(flag, exc.value, exc.expected) if whole else exc
+
+
+def _policy(path: str):
+    from ..audit_policy import load_policy
 
     try:
-        data = tomllib.loads(read_text_file(path, "--policy", "an existing TOML policy file"))
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError("--policy", str(path), f"a TOML policy file ({exc})") from None
-    return parse_policy(data)
+        return load_policy(path)
+    except InputError as exc:
+        raise _as_option(exc, "policy", "--policy") from None
+
+
+def _prices(path: str):
+    from ..costs import load_prices
+
+    try:
+        return load_prices(path)
+    except InputError as exc:
+        raise _as_option(exc, "prices", "--prices") from None
+
+
+def _share(text: str, flag: str) -> float:
+    """A share 0 to below 1 from ``'85 %'`` or ``0.85`` (the bare-number rule of every fraction)."""
+    from ..units import check_range, parse_quantity
+
+    q = parse_quantity(text, flag, "fraction").to("")
+    return float(check_range(q, flag, 0.0, 0.999, value=text).magnitude)
 
 
 def _fmt(v: float, unit: str = "") -> str:
@@ -62,37 +93,46 @@ def audit_command(
     maintenance_after: str = typer.Option(
         "10 min", "--maintenance-after", help="Maintenance starts this long after a case's first sample."
     ),
-    manifold_loss: float = typer.Option(
-        0.0, "--manifold-loss", help="Share of piped N2O lost before use (0 for cylinders)."
+    manifold_loss: str = typer.Option(
+        "0", "--manifold-loss", help="Share of piped N2O lost before use, e.g. '85 %' or 0.85 (0 for cylinders)."
     ),
 ) -> None:
     """Fresh-gas audit: agent, gases, CO2e and cost per case, room and month, with KPIs."""
     from .. import exports
     from ..audit import audit
-    from ..costs import DEMO_PRICES, load_prices
+    from ..costs import DEMO_PRICES
 
     if prices is not None and demo_prices:
         raise InputError("--demo-prices", True, "either --prices FILE or --demo-prices, not both")
-    price_table = load_prices(Path(prices)) if prices is not None else (DEMO_PRICES if demo_prices else None)
+    manifold_loss = _share(manifold_loss, "--manifold-loss")
+    outputs = output_paths(
+        {"--report": report, "--xlsx": xlsx, "--csv": csv_out}, {"LOG": log, "--policy": policy, "--prices": prices}
+    )
+    price_table = _prices(prices) if prices is not None else (DEMO_PRICES if demo_prices else None)
     if not Path(log).is_file():
         raise InputError("LOG", log, "an existing CSV file")
-    result = audit(
-        log,
-        prices=price_table,
-        basis=basis,
-        quadrature=quadrature,
-        maintenance_after=maintenance_after,
-        manifold_loss=manifold_loss,
-    )
+    with option_names(_AUDIT_OPTIONS):
+        result = audit(
+            log,
+            prices=price_table,
+            basis=basis,
+            quadrature=quadrature,
+            maintenance_after=maintenance_after,
+            manifold_loss=manifold_loss,
+        )
     if policy is not None:
         from ..audit_policy import counterfactual
 
-        cf = counterfactual(result, _policy(Path(policy)), prices=price_table, manifold_loss=manifold_loss)
+        cf = counterfactual(result, _policy(policy), prices=price_table, manifold_loss=manifold_loss)
         result = dataclasses.replace(result, counterfactual=cf)
     written = []
-    for path, writer in ((report, exports.write_html), (xlsx, exports.write_xlsx), (csv_out, exports.write_csv)):
-        if path is not None:
-            written.append(str(writer(result, Path(path))))
+    for flag, writer in (
+        ("--report", exports.write_html),
+        ("--xlsx", exports.write_xlsx),
+        ("--csv", exports.write_csv),
+    ):
+        if flag in outputs:
+            written.append(str(write_output(flag, outputs[flag], lambda p, w=writer: w(result, p))))
     if json_out:
         typer.echo(dumps(result.to_json()))
         return

@@ -7,6 +7,7 @@ from pathlib import Path
 import typer
 
 from . import CAUTION, app
+from .outputs import output_paths, write_output
 
 
 @app.command("case")
@@ -24,6 +25,7 @@ def case(
     from ..jsonout import dumps
     from ..scenario import load_scenario
 
+    outputs = output_paths({"--csv": csv}, {"FILE": file})
     scenario = load_scenario(file)
     result = simulate(scenario)
     band = None
@@ -31,8 +33,8 @@ def case(
         from ..spread import simulate_spread
 
         band = simulate_spread(scenario, spread, seed=seed)
-    if csv is not None:
-        result.series.to_csv(csv, index=False)
+    if "--csv" in outputs:
+        write_output("--csv", outputs["--csv"], lambda p: result.series.to_csv(p, index=False))
     if json_out:
         out = result.to_json()
         if band is not None:

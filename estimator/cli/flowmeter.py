@@ -18,12 +18,12 @@ from typing import Any
 
 import typer
 
-from ..errors import InputError
 from ..flowmeter import TrueFlow, true_flow
 from ..jsonout import dumps
 from ..site import site_from_inputs
 from ..units import parse_quantity
 from . import CAUTION, app
+from .outputs import option_names
 
 #: Model field names -> the option that sets them, so an error names what the user typed.
 _OPTIONS = {
@@ -63,7 +63,7 @@ def flowmeter_report(
     >>> r["regime"], round(r["true_flow_ambient"].magnitude, 6)
     ('turbulent', 5.0)
     """
-    try:
+    with option_names(_OPTIONS):
         site = site_from_inputs(elevation, ambient_pressure, temperature)
         r = true_flow(
             reading,
@@ -73,8 +73,6 @@ def flowmeter_report(
             purity=purity,
             back_pressure=back_pressure,
         )
-    except InputError as exc:
-        raise InputError(_OPTIONS.get(exc.field, exc.field), exc.value, exc.expected) from None
     return _document(
         r,
         parse_quantity(reading, "--reading", "flow", "L/min").to("L/min"),

@@ -9,6 +9,7 @@ import typer
 from ..errors import InputError
 from ..forecast_size import CASE_CEILING, MAX_CASES, check_size
 from . import CAUTION, app
+from .outputs import option_names
 
 #: Forecasts estimated to run at least this long [s] say so (on stderr) before they start.
 ANNOUNCE_AFTER = 5.0
@@ -53,7 +54,10 @@ def forecast(
         size = check_size(mix, span, max_cases)
         if size.seconds >= ANNOUNCE_AFTER:
             typer.echo(size.text(span), err=True)
-    result = run(mix, weeks=weeks, seed=seed, max_cases=max_cases, patient_spread=patient_spread)
+    with option_names(
+        {"weeks": "--weeks" if weeks is not None else None, "seed": "--seed" if seed is not None else None}
+    ):
+        result = run(mix, weeks=weeks, seed=seed, max_cases=max_cases, patient_spread=patient_spread)
     typer.echo(dumps(result.to_json()) if json_out else summary(result))
 
 

@@ -13,8 +13,8 @@ from . import CAUTION, app
 def safe_flow(
     file: Path = typer.Argument(..., help="Scenario TOML file; its [flow_floor] table holds the settings."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
-    threshold: float | None = typer.Option(
-        None, "--threshold", help="Inspired O2 threshold, 0.21 to 1 (default 0.30)."
+    threshold: str | None = typer.Option(
+        None, "--threshold", help="Inspired O2 threshold, '30 %' or 0.30 (21 to 100 %; default 30 %)."
     ),
     no_grid: bool = typer.Option(False, "--no-grid", help="Skip the floor on the time grid."),
 ) -> None:
@@ -22,8 +22,13 @@ def safe_flow(
     from ..jsonout import dumps
     from ..safety import flow_floor
     from ..scenario import load_scenario
+    from ..units import check_range, parse_quantity
 
-    result = flow_floor(load_scenario(file), threshold=threshold, grid=not no_grid)
+    level = None
+    if threshold is not None:  # the bare-number rule of every fraction: 0.3 is 30 %, 30 is refused
+        q = parse_quantity(threshold, "--threshold", "fraction")
+        level = float(check_range(q.to(""), "--threshold", 0.21, 1.0, value=threshold).magnitude)
+    result = flow_floor(load_scenario(file), threshold=level, grid=not no_grid)
     if json_out:
         typer.echo(dumps(result.to_json()))
         return

@@ -10,6 +10,7 @@ import typer
 from ..jsonout import dumps
 from ..supply import SupplyReport, load_inventory, plan_supply
 from . import CAUTION, app
+from .outputs import option_names
 
 
 def _amount(q) -> str:  # noqa: ANN001 - pint quantity or None
@@ -61,5 +62,7 @@ def supply(
     ] = None,
 ) -> None:
     """How long the stocks last, which runs out first (the bottleneck) and when to reorder."""
-    report = plan_supply(load_inventory(file), start=start)
+    inventory = load_inventory(file)
+    with option_names({"plan.start": "--start" if start is not None else None}):
+        report = plan_supply(inventory, start=start)
     typer.echo(dumps(report) if json_out else render(report))

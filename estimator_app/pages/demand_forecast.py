@@ -2,130 +2,63 @@
 
 from __future__ import annotations
 
-import importlib.util
-import math
-import tempfile
+import copy
 import threading
-import tomllib
 from collections import OrderedDict
 from collections.abc import Callable
-from pathlib import Path
 from typing import Any
 
 import pandas as pd
 import streamlit as st
-import tomli_w
 
-from estimator.errors import InputError
 from estimator.properties import AGENTS
-from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
+from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import demo, state
-from ..charts import PALETTE, show
-from ..common import (
-    downloads,
-    flow_factor,
-    placeholder,
-    show_error,
-    show_warnings,
-    unit,
-)
+from .. import contracts, state
+from ..charts import histogram, show
+from ..common import downloads, show_warnings, unit
+from ..editing import Field, kept_view, number, table
 
-DOC, VERSION = "forecast.doc", "forecast.version"
-PLANNER = "case planner"
-COLUMNS = [
-    "name",
-    "per week",
-    "count",
-    "template",
-    "agent",
-    "wash-in flow",
-    "wash-in [min]",
-    "maintenance flow",
-    "O2 [%]",
-    "target [MAC]",
-    "duration median [min]",
-    "duration P90 [min]",
-    "weight mean",
-    "weight SD",
+KIND = "casemix"
+INLINE = "(inline template)"
+
+
+def case_fields(names: list[str], fu: str, mu: str) -> list[Field]:
+    """Columns of the case-type table (flows in ``fu``, weights in ``mu``); other keys are kept."""
+    flow = {"dimension": "flow", "unit": fu, "low": 0.0, "high": 15.0 * (1000 if fu == "mL/min" else 1)}
+    minutes = {"dimension": "time", "unit": "min", "low": 0.0, "high": 1440.0}
+    mass = {"dimension": "mass", "unit": mu, "low": 0.0, "high": 300.0 if mu == "kg" else 661.0}
+    years = {"dimension": "age", "unit": "years", "low": 0.0, "high": 120.0}
+    return [
+        Field("name", "name", "text"),
+        Field("per_week", "per week", low=0.0, high=1000.0),
+        Field("count", "count", "select", options=("poisson", "fixed"), default="poisson"),
+        Field("scenario", "scenario file", "select", options=tuple(names), help="Blank: the inline template"),
+        Field("agent", "agent", "select", options=tuple(sorted(AGENTS))),
+        Field("wash_in_flow", "wash-in flow", **flow),
+        Field("wash_in_time", "wash-in", **minutes),
+        Field("maintenance_flow", "maintenance flow", **flow),
+        Field("oxygen_fraction", "O2", dimension="fraction", unit="%", low=21.0, high=100.0),
+        Field("balance", "balance", "select", options=("air", "nitrous_oxide")),
+        Field("end_tidal_target", "end-tidal target", dimension="mac", unit="MAC", low=0.0, high=3.0),
+        Field("duration_median", "duration median", **minutes),
+        Field("duration_p90", "duration P90", **minutes),
+        Field("weight_mean", "weight mean", **mass),
+        Field("weight_sd", "weight SD", **mass),
+        Field("weight_min", "weight min", **mass),
+        Field("weight_max", "weight max", **mass),
+        Field("age_mean", "age mean", **years),
+        Field("age_sd", "age SD", **years),
+        Field("age_min", "age min", **years),
+        Field("age_max", "age max", **years),
+    ]
+
+
+SETTINGS = [
+    Field("weeks", "Weeks to simulate", "integer", low=1, high=1040, default=52),
+    Field("seed", "Random seed", "integer", low=0, high=2**31 - 1, help="The same seed gives the same weeks"),
+    Field("cover", "Orders cover the percentile", dimension="fraction", unit="%", low=50.0, high=99.9, default=95.0),
 ]
-
-
-def available() -> bool:
-    return importlib.util.find_spec("estimator.forecast") is not None
-
-
-def _num(value: Any, dim: str, unit_: str) -> float | None:
-    if value is None:
-        return None
-    try:
-        return float(parse_quantity(value, "", dim, unit_).to(unit_).magnitude)
-    except InputError:
-        return None
-
-
-def case_frame(doc: dict[str, Any], ff: float, mu: str) -> pd.DataFrame:
-    rows = []
-    for c in doc.get("case_types", []):
-        planner = c.get("scenario") is not None
-        wf, mf = _num(c.get("wash_in_flow"), "flow", "L/min"), _num(c.get("maintenance_flow"), "flow", "L/min")
-        rows.append(
-            {
-                "name": c.get("name", ""),
-                "per week": c.get("per_week"),
-                "count": c.get("count", "poisson"),
-                "template": PLANNER if planner else "inline",
-                "agent": c.get("agent"),
-                "wash-in flow": None if wf is None else wf * ff,
-                "wash-in [min]": _num(c.get("wash_in_time"), "time", "min"),
-                "maintenance flow": None if mf is None else mf * ff,
-                "O2 [%]": _num(c.get("oxygen_fraction"), "fraction", "percent"),
-                "target [MAC]": _num(c.get("end_tidal_target"), "mac", "MAC"),
-                "duration median [min]": _num(c.get("duration_median") or c.get("duration"), "time", "min"),
-                "duration P90 [min]": _num(c.get("duration_p90"), "time", "min"),
-                "weight mean": _num(c.get("weight_mean"), "mass", mu),
-                "weight SD": _num(c.get("weight_sd"), "mass", mu),
-            }
-        )
-    return pd.DataFrame(rows, columns=COLUMNS)
-
-
-def _set(row: dict[str, Any], col: str) -> bool:
-    v = row.get(col)
-    return not (v is None or v == "" or (isinstance(v, float) and math.isnan(v)))
-
-
-def case_types(frame: pd.DataFrame, ff: float, mu: str) -> list[dict[str, Any]]:
-    """Case-mix rows from the editor; the planner's case is the template of rows marked so."""
-    out = []
-    for row in frame.to_dict("records"):
-        c: dict[str, Any] = {"name": str(row["name"] or "case type"), "count": row["count"] or "poisson"}
-        if _set(row, "per week"):
-            c["per_week"] = float(row["per week"])
-        if row["template"] == PLANNER:
-            c["scenario"] = "case_planner.toml"
-        else:
-            for col, key, fmt in (
-                ("agent", "agent", "{}"),
-                ("wash-in [min]", "wash_in_time", "{:g} min"),
-                ("O2 [%]", "oxygen_fraction", "{:g} %"),
-                ("target [MAC]", "end_tidal_target", "{:g} MAC"),
-            ):
-                if _set(row, col):
-                    c[key] = fmt.format(row[col])
-            for col, key in (("wash-in flow", "wash_in_flow"), ("maintenance flow", "maintenance_flow")):
-                if _set(row, col):
-                    c[key] = f"{row[col] / ff:g} L/min"
-        for col, key, u in (
-            ("duration median [min]", "duration_median", "min"),
-            ("duration P90 [min]", "duration_p90", "min"),
-            ("weight mean", "weight_mean", mu),
-            ("weight SD", "weight_sd", mu),
-        ):
-            if _set(row, col):
-                c[key] = f"{row[col]:g} {u}"
-        out.append(c)
-    return out
 
 
 #: Forecasts kept per server (the case mix and the planner's scenario as TOML text are the key).
@@ -138,27 +71,31 @@ def _kept() -> OrderedDict[tuple[str, str], Any]:
     return OrderedDict()
 
 
-def run_forecast(mix_text: str, scenario_text: str, progress: Callable[[float], None] | None = None) -> Any:
-    """Forecast of a case mix; every scenario file it names is the planner's case."""
-    from estimator.casemix import casemix_from_dict
+def run_forecast(
+    mix_text: str, named: tuple[tuple[str, str], ...], progress: Callable[[float], None] | None = None
+) -> Any:
+    """Forecast of a case mix: the command line's loader and forecast; named files are the ones given with it."""
     from estimator.forecast import forecast
 
-    data = tomllib.loads(mix_text)
-    with tempfile.TemporaryDirectory() as tmp:
-        for c in data.get("case_types", []):
-            if c.get("scenario"):
-                target = Path(tmp) / Path(str(c["scenario"])).name
-                target.write_text(scenario_text, encoding="utf-8")
-                c["scenario"] = target.name
-        return forecast(casemix_from_dict(data, base_dir=tmp), progress=progress)
+    files = dict(named)
+    with contracts.folder(files, files.get(contracts.PLANNER_NAMES[0])) as base:
+        return forecast(contracts.load_casemix_text(mix_text, base), progress=progress)
 
 
-def cached_forecast(mix_text: str, scenario_text: str) -> Any:
+def named_files(doc: dict[str, Any]) -> tuple[tuple[str, str], ...]:
+    """The files the case mix names, and the planner's case (for rows naming it), as a cache key."""
+    files = dict(state.files(KIND))
+    if any(n in contracts.PLANNER_NAMES for n in contracts.referenced(KIND, doc)):
+        files[contracts.PLANNER_NAMES[0]] = state.toml_text()
+    return tuple(sorted(files.items()))
+
+
+def cached_forecast(mix_text: str, named: tuple[tuple[str, str], ...]) -> Any:
     """The forecast from the server's store, or computed with a progress bar and kept.
 
     Not ``st.cache_data``: a cached function cannot draw the progress bar of its own run.
     """
-    store, key = _kept(), (mix_text, scenario_text)
+    store, key = _kept(), (mix_text, named)
     with _LOCK:
         if key in store:
             store.move_to_end(key)
@@ -173,7 +110,7 @@ def cached_forecast(mix_text: str, scenario_text: str) -> Any:
             bar.progress(percent / 100, text=f"Simulating the weeks: {percent} % of the cases")
 
     try:
-        result = run_forecast(mix_text, scenario_text, progress=report)
+        result = run_forecast(mix_text, named, progress=report)
     finally:
         bar.empty()
     with _LOCK:
@@ -183,81 +120,25 @@ def cached_forecast(mix_text: str, scenario_text: str) -> Any:
     return result
 
 
-def _upload() -> None:
-    state.upload_toml(
-        "Load a case mix (TOML)",
-        "forecast.upload",
-        "Case types as in the README; at most 20 MB. Scenario files it names run the case on the case planner page.",
-        DOC,
-        VERSION,
-    )
-
-
 def inputs() -> dict[str, Any]:
-    doc = state.stored(DOC, VERSION, demo.casemix)
-    v, fu, mu, ff = st.session_state[VERSION], unit("flow"), unit("mass"), flow_factor()
-    c1, c2, c3 = st.columns(3)
-    weeks = c1.number_input("Weeks to simulate", 1, 1040, int(doc.get("weeks", 52)), key=f"forecast.weeks.{v}")
-    seed = c2.number_input(
-        "Random seed",
-        0,
-        2**31 - 1,
-        int(doc.get("seed") or 1),
-        key=f"forecast.seed.{v}",
-        help="The same seed gives the same weeks",
-    )
-    cover = c3.number_input(
-        "Orders cover the percentile [%]",
-        50.0,
-        99.9,
-        _num(doc.get("cover", "95 %"), "fraction", "percent") or 95.0,
-        1.0,
-        key=f"forecast.cover.{v}",
-    )
+    """The case mix as the editors now stand (untouched values as loaded, other keys kept)."""
+    loaded = state.document(KIND)
+    doc = copy.deepcopy(loaded)
+    v, fu, mu = state.version(KIND), unit("flow"), unit("mass")
+    cols = st.columns(3)
+    for box, field in zip(cols, SETTINGS, strict=True):
+        number(box, doc, field, f"forecast.{field.key}.{v}")
     st.markdown(
-        f"**Case types** - flows in {fu}, weights in {mu}; a row whose template is *{PLANNER}* takes its "
-        "phases from the case planner page"
+        f"**Case types** - flows in {fu}, weights in {mu}; a row naming a scenario file takes its phases from "
+        "it (*case planner*: the case on the case planner page), otherwise from its inline template"
     )
-    seed_key = f"forecast.seed_frame.{v}.{fu}.{mu}"
-    if seed_key not in st.session_state:
-        st.session_state[seed_key] = case_frame(doc, ff, mu)
-    edited = st.data_editor(
-        st.session_state[seed_key],
-        key=f"forecast.types.{v}.{fu}.{mu}",
-        num_rows="dynamic",
-        hide_index=True,
-        width="stretch",
-        column_config={
-            "count": st.column_config.SelectboxColumn("count", options=["poisson", "fixed"]),
-            "template": st.column_config.SelectboxColumn("template", options=[PLANNER, "inline"], required=True),
-            "agent": st.column_config.SelectboxColumn("agent", options=sorted(AGENTS)),
-            "wash-in flow": st.column_config.NumberColumn(f"wash-in flow [{fu}]", min_value=0.0),
-            "maintenance flow": st.column_config.NumberColumn(f"maintenance flow [{fu}]", min_value=0.0),
-            "weight mean": st.column_config.NumberColumn(f"weight mean [{mu}]", min_value=0.0),
-            "weight SD": st.column_config.NumberColumn(f"weight SD [{mu}]", min_value=0.0),
-        },
-    )
-    new = {k: val for k, val in doc.items() if k not in ("case_types", "case_types_file")}
-    new.update(
-        {"weeks": int(weeks), "seed": int(seed), "cover": f"{cover:g} %", "case_types": case_types(edited, ff, mu)}
-    )
-    return new
-
-
-def histogram(result: Any, item: str) -> dict[str, Any]:
-    unit_ = result.units.get(item, "")
-    title = f"{item.replace('_', ' ')} a week" + (f" [{unit_}]" if unit_ else "")
-    values = [{"v": float(x)} for x in result.weekly[item]]
-    return {
-        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
-        "height": 240,
-        "data": {"values": values},
-        "mark": {"type": "bar", "color": PALETTE[0]},
-        "encoding": {
-            "x": {"field": "v", "type": "quantitative", "bin": {"maxbins": 30}, "title": title},
-            "y": {"aggregate": "count", "type": "quantitative", "title": "weeks"},
-        },
-    }
+    names = sorted({*state.files(KIND), contracts.PLANNER_NAMES[0], *contracts.referenced(KIND, loaded)})
+    doc["case_types"] = table(doc.get("case_types", []), case_fields(names, fu, mu), f"forecast.types.{v}.{fu}.{mu}")
+    if not doc["case_types"] and "case_types" not in loaded:
+        del doc["case_types"]
+    kept_view(doc, {"weeks", "seed", "cover", "case_types"})
+    state.set_document(doc, KIND)
+    return doc
 
 
 def outputs(result: Any) -> None:
@@ -291,7 +172,9 @@ def outputs(result: Any) -> None:
         key="forecast.pick",
         format_func=lambda k: k.replace("_", " "),
     )
-    show(histogram(result, pick))
+    unit_ = result.units.get(pick, "")
+    title = f"{pick.replace('_', ' ')} a week" + (f" [{unit_}]" if unit_ else "")
+    show(histogram(result.weekly[pick], title, "weeks"))
     st.subheader("Orders")
     orders = pd.DataFrame(
         [
@@ -328,22 +211,15 @@ def render() -> None:
         "A department's case mix: cylinders, bottles and absorbent a week with P50 and P95, and the order "
         "that covers a bad week."
     )
-    if not available():
-        placeholder(
-            "The demand forecast",
-            "estimator.forecast",
-            "It will draw weekly case counts from the case mix and report each item's weekly demand.",
-        )
-        return
-    _upload()
-    try:
-        doc = inputs()
-        text = tomli_w.dumps(doc)
-        result = cached_forecast(text, state.toml_text())
-    except InputError as exc:
-        show_error(exc)
-        return
-    st.download_button(
-        "Save case mix (TOML)", text.encode("utf-8"), "casemix.toml", "application/toml", icon=":material/save:"
+    c1, c2 = st.columns([1, 2])
+    state.demo_picker(KIND, c1)
+    state.upload(
+        KIND,
+        "Load a case mix (TOML) with the files it names",
+        "forecast.upload",
+        "Case types as in the README, and each scenario file or case-types CSV it names; at most 20 MB each.",
+        c2,
     )
-    outputs(result)
+    doc = inputs()
+    state.save_button(st, KIND, doc)
+    outputs(cached_forecast(contracts.toml_text(doc), named_files(doc)))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import copy
 import importlib
 from typing import Any
 
@@ -10,11 +11,12 @@ import pandas as pd
 import streamlit as st
 
 from estimator.errors import InputError
-from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
+from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import state
 from ..charts import PALETTE, show
 from ..common import downloads, flow_factor, placeholder, show_error, show_warnings, unit
+from ..editing import Field, contract, number
 
 
 def model() -> Any:
@@ -28,99 +30,59 @@ def model() -> Any:
 @st.cache_data(max_entries=32, show_spinner="Searching the lowest safe flow, phase by phase...")
 def run_floor(text: str) -> Any:
     """Flow floor of a scenario's TOML text (cached on the text)."""
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
 
-    return model()(load_scenario(text))
+    return model()(scenario_from_text(text))
 
 
-def settings(doc: dict[str, Any]) -> dict[str, Any]:
-    """The ``[flow_floor]`` table from the page's inputs (saved with the scenario)."""
-    ff_doc = dict(doc.get("flow_floor", {}))
-    v, fu, f = state.version(), unit("flow"), flow_factor()
+def fields(fu: str, scale: float) -> list[tuple[int, str, Field]]:
+    """(column, widget key, field) of the ``[flow_floor]`` keys the page edits; defaults from the contract."""
+    from estimator.scenario import FlowFloorInput as F
 
-    def cur(key: str, dim: str, u: str, default: float) -> float:
-        try:
-            return float(parse_quantity(ff_doc[key], key, dim).to(u).magnitude) if key in ff_doc else default
-        except InputError:
-            return default
-
-    #: (column, key in [flow_floor], label, dimension, unit shown, default, low, high, step, widget key, help)
-    inputs = (
+    wash = "Emergence (dial at 0, no N2O): end-tidal MAC to reach; about MAC-awake at 0.3"
+    return [
         (
             0,
-            "threshold_inspired_oxygen",
-            "Inspired O2 threshold [%]",
-            "fraction",
-            "percent",
-            30.0,
-            21.0,
-            100.0,
-            1.0,
             "thr",
-            None,
+            contract(F, "threshold_inspired_oxygen", "Inspired O2 threshold", "%", step=1.0),
         ),
         (
             1,
-            "basal_oxygen_flow",
-            f"Machine basal O2 flow [{fu}]",
-            "flow",
-            "L/min",
-            0.0,
-            0.0,
-            1.0,
-            0.05,
             f"basal.{fu}",
-            None,
+            contract(F, "basal_oxygen_flow", "Machine basal O2 flow", fu, step=0.05 * scale),
         ),
         (
             2,
-            "reach_within",
-            "Reach the end-tidal target within [min]",
-            "time",
-            "min",
-            15.0,
-            0.5,
-            120.0,
-            1.0,
             "reach",
-            None,
+            contract(F, "reach_within", "Reach the end-tidal target within", "min", step=1.0),
         ),
         (
             3,
-            "wash_out_to",
-            "Wash out to [MAC]",
-            "mac",
-            "MAC",
-            0.3,
-            0.05,
-            1.0,
-            0.05,
             "washto",
-            "Emergence (dial at 0, no N2O): end-tidal MAC to reach; about MAC-awake at 0.3",
+            contract(F, "wash_out_to", "Wash out to", "MAC", step=0.05, help=wash),
         ),
-        (3, "wash_out_within", "Wash out within [min]", "time", "min", 10.0, 0.5, 120.0, 1.0, "washin", None),
-    )
+        (3, "washin", contract(F, "wash_out_within", "Wash out within", "min", step=1.0)),
+    ]
+
+
+def settings(doc: dict[str, Any]) -> dict[str, Any]:
+    """The ``[flow_floor]`` table as the page's inputs now stand (untouched keys as loaded, saved with the scenario)."""
+    ff_doc = copy.deepcopy(doc.get("flow_floor", {}))
+    v, fu = state.version(), unit("flow")
     cols = st.columns(4)
-    values = {}
-    for col, key, label, dim, u, default, low, high, step, widget, tip in inputs:
-        scale = f if dim == "flow" else 1.0  # flows in the display unit
-        shown = cols[col].number_input(
-            label,
-            low * scale,
-            high * scale,
-            cur(key, dim, u, default) * scale,
-            step * scale,
-            key=f"floor.{widget}.{v}",
-            help=tip,
-        )
-        values[key] = f"{shown / scale:g} {'%' if u == 'percent' else u}"
+    for col, widget, field in fields(fu, flow_factor()):
+        number(cols[col], ff_doc, field, f"floor.{widget}.{v}")
+    policies = list(ff_doc.get("policies", []))
     label = cols[2].checkbox(
         "Sevoflurane US label rule",
-        "sevoflurane_us_label" in ff_doc.get("policies", []),
+        "sevoflurane_us_label" in policies,
         key=f"floor.label.{v}",
         help=">= 1 L/min; <= 2 MAC-hours at 1 to < 2 L/min",
     )
-    ff_doc.update({**values, "policies": ["sevoflurane_us_label"] if label else []})
+    if label != ("sevoflurane_us_label" in policies):
+        ff_doc["policies"] = (
+            [*policies, "sevoflurane_us_label"] if label else [p for p in policies if p != "sevoflurane_us_label"]
+        )
     return ff_doc
 
 
@@ -213,6 +175,8 @@ def render() -> None:
         return
     doc = dict(state.document())
     doc["flow_floor"] = settings(doc)
+    if not doc["flow_floor"] and "flow_floor" not in state.document():
+        del doc["flow_floor"]
     state.set_document(doc)
     try:
         result = run_floor(state.toml_text())

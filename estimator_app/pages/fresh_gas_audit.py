@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import io
 import tempfile
 from pathlib import Path
 from typing import Any
@@ -14,25 +13,23 @@ from estimator.errors import InputError
 from estimator.properties import CO2E_BASES
 from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import demo, state
+from .. import contracts, demo, state
 from ..charts import bars, show
-from ..common import MAX_UPLOAD_BYTES, read_upload, show_error, show_warnings, unit
+from ..common import MAX_UPLOAD_BYTES, XLSX, download_row, read_upload, show_error, show_warnings, unit
+from ..editing import Field, number
 
-
-def _prices() -> Any:
-    from estimator.costs import parse_prices
-
-    p = state.document().get("prices")
-    return parse_prices(p) if p else None
+SCENARIO_PRICES = "the scenario's [prices]"
+NO_PRICES = "no prices"
 
 
 @st.cache_data(max_entries=16, show_spinner="Auditing the log...")
-def run_audit(text: str, prices_key: str, basis: str, quadrature: str, after: float) -> Any:
+def run_audit(text: str, prices_text: str, basis: str, quadrature: str, after: float) -> Any:
+    """The audit of a log's text: the command line's ``audit`` call with the same options."""
     from estimator.audit import audit
 
     return audit(
-        io.StringIO(text),
-        prices=_prices() if prices_key else None,
+        contracts.load_log_text(text),
+        prices=contracts.load_prices_text(prices_text),
         basis=basis,
         quadrature=quadrature,
         maintenance_after=f"{after:g} min",
@@ -41,27 +38,43 @@ def run_audit(text: str, prices_key: str, basis: str, quadrature: str, after: fl
 
 @st.cache_data(max_entries=8, show_spinner="Re-running each case at the policy flow (engine)...")
 def run_counterfactual(
-    text: str, prices_key: str, basis: str, quadrature: str, after: float, policy_flow: float
+    text: str, prices_text: str, basis: str, quadrature: str, after: float, policy_text: str
 ) -> dict[str, Any]:
-    from estimator.audit_policy import counterfactual, parse_policy
+    from estimator.audit_policy import counterfactual
 
-    result = run_audit(text, prices_key, basis, quadrature, after)
+    result = run_audit(text, prices_text, basis, quadrature, after)
     return counterfactual(
-        result, parse_policy({"fresh_gas_flow": f"{policy_flow:g} L/min"}), prices=_prices() if prices_key else None
+        result, contracts.load_policy_text(policy_text), prices=contracts.load_prices_text(prices_text)
     )
 
 
-def _log_text() -> tuple[str, str]:
-    up = st.file_uploader(
-        "Fresh-gas log (CSV)",
-        type=["csv"],
-        key="audit.upload",
-        help=f"Header and units as in the README; at most {MAX_UPLOAD_BYTES // 2**20} MB.",
+def _source(label: str, kind: str, key: str, extra: tuple[str, ...], box: Any) -> tuple[str, str]:
+    """(name, text) of an input: an uploaded file, else the chosen demo file (or one of ``extra``)."""
+    options = [*extra, *demo.files_of(kind)]
+    default = demo.DEFAULT[kind]
+    choice = box.selectbox(label, options, index=options.index(default), key=f"{key}.demo")
+    up = box.file_uploader(
+        f"or upload {label.lower()}",
+        type=["csv"] if kind == "log" else ["toml"],
+        key=f"{key}.upload",
+        help=f"At most {MAX_UPLOAD_BYTES // 2**20} MB; parsed, never executed.",
     )
-    if up is None:
-        st.caption("No log loaded: showing an invented demo log of 8 cases in two theatres.")
-        return demo.audit_log_csv(), "demo log"
-    return read_upload(up, "audit log"), up.name
+    if up is not None:
+        return up.name, read_upload(up, label)
+    if choice in extra:
+        return choice, ""
+    return choice, demo.text(choice)
+
+
+def _prices_text(name: str, text: str) -> str:
+    if name == SCENARIO_PRICES:
+        p = state.document().get("prices")
+        return contracts.toml_text({"prices": p}) if p else ""
+    return text
+
+
+def _flow_field(fu: str, ff: float) -> Field:
+    return Field("fresh_gas_flow", "Policy fresh-gas flow", dimension="flow", unit=fu, low=0.1 * ff, high=15 * ff)
 
 
 def _file(result: Any, kind: str) -> bytes:
@@ -91,24 +104,16 @@ def render() -> None:
     )
     after = c3.number_input("Maintenance starts after [min]", 0.0, 600.0, 10.0, 1.0, key="audit.after")
     ff = 1000.0 if unit("flow") == "mL/min" else 1.0
-    policy = (
-        c4.number_input(
-            f"Policy fresh-gas flow [{unit('flow')}]",
-            0.1 * ff,
-            15.0 * ff,
-            0.5 * ff,
-            0.1 * ff,
-            key=f"audit.policy.{unit('flow')}",
-        )
-        / ff
-    )
-    try:
-        text, name = _log_text()
-        prices_key = state.toml_text({"p": state.document().get("prices") or {}})
-        result = run_audit(text, prices_key if state.document().get("prices") else "", basis, quad, after)
-    except InputError as exc:
-        show_error(exc)
-        return
+    c1, c2, c3 = st.columns(3)
+    name, text = _source("Fresh-gas log", "log", "audit.log", (), c1)
+    prices_name, prices_text = _source("Prices", "prices", "audit.prices", (NO_PRICES, SCENARIO_PRICES), c2)
+    policy_name, policy_text = _source("Low-flow policy", "policy", "audit.policy", (), c3)
+    prices_text = _prices_text(prices_name, prices_text)
+    policy_doc = contracts.parse_toml(policy_text, "--policy")
+    table_ = policy_doc.setdefault("policy", {}) if "policy" in policy_doc or not policy_doc else policy_doc
+    number(c4, table_, _flow_field(unit("flow"), ff), f"audit.policy.{policy_name}.{unit('flow')}")
+    policy_text = contracts.toml_text(policy_doc)
+    result = run_audit(text, prices_text, basis, quad, after)
     r = result.rows
     currency = unit("currency") or result.currency or ""
     st.subheader(f"{name}: {r['read']} rows read, {r['used']} used, {r['rejected']} rejected")
@@ -155,9 +160,7 @@ def render() -> None:
     cf = None
     if st.toggle("Run the counterfactual", key="audit.cf"):
         try:
-            cf = run_counterfactual(
-                text, prices_key if state.document().get("prices") else "", basis, quad, after, policy
-            )
+            cf = run_counterfactual(text, prices_text, basis, quad, after, policy_text)
         except InputError as exc:
             show_error(exc)
     if cf is not None:
@@ -186,20 +189,12 @@ def render() -> None:
             doc["counterfactual"] = cf
         return dumps(doc).encode("utf-8")
 
-    c = st.columns(4)
-    opts = {"width": "stretch", "on_click": "ignore"}
-    c[0].download_button(
-        "Cases (CSV)", lambda: _file(result, "csv"), "audit_cases.csv", "text/csv", key="audit.csv", **opts
+    download_row(
+        [
+            ("Cases (CSV)", lambda: _file(result, "csv"), "audit_cases.csv", "text/csv", None),
+            ("Workbook (XLSX)", lambda: _file(result, "xlsx"), "audit.xlsx", XLSX, None),
+            ("Report (HTML)", lambda: _file(result, "html"), "audit_report.html", "text/html", None),
+            ("JSON", as_json, "audit.json", "application/json", None),
+        ],
+        "audit",
     )
-    c[1].download_button(
-        "Workbook (XLSX)",
-        lambda: _file(result, "xlsx"),
-        "audit.xlsx",
-        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-        key="audit.xlsx",
-        **opts,
-    )
-    c[2].download_button(
-        "Report (HTML)", lambda: _file(result, "html"), "audit_report.html", "text/html", key="audit.html", **opts
-    )
-    c[3].download_button("JSON", as_json, "audit.json", "application/json", key="audit.json", **opts)

@@ -15,11 +15,14 @@ from estimator.units import GAS_VOLUME_REFERENCE, Q_
 from .. import state
 from ..charts import show, time_course
 from ..common import downloads, flow_factor, show_error, show_warnings, unit
+from ..editing import contract
 
 GAS_CHOICES = ("oxygen", "air", "nitrous_oxide", "concentrator")
 
 
 def site_inputs() -> Any:
+    """The site calculator's inputs; ranges, the temperature default and help from the scenario's [site] contract."""
+    from estimator.scenario import SiteInput
     from estimator.site import site_from_inputs
 
     pu = unit("pressure")
@@ -27,19 +30,18 @@ def site_inputs() -> Any:
     c1, c2, c3 = st.columns(3)
     how = c1.radio("Ambient pressure from", ("elevation", "measured pressure"), key="site.how", horizontal=True)
     if how == "elevation":
-        elev = c2.number_input("Elevation [m]", -500.0, 11000.0, 2400.0, 100.0, key="site.elevation")
+        e = contract(SiteInput, "elevation", "Elevation", "m")
+        elev = c2.number_input(e.title, e.low, e.high, 2400.0, 100.0, key="site.elevation", help=e.help)
         kwargs = {"elevation": f"{elev:g} m"}
     else:
         default = Q_(75.6, "kPa").to(pu).magnitude
+        b = contract(SiteInput, "ambient_pressure", "Barometric pressure", pu)
         p = c2.number_input(
-            f"Barometric pressure [{pu}] (absolute)",
-            0.0,
-            Q_(120, "kPa").to(pu).magnitude,
-            float(round(default, 2)),
-            key=f"site.pressure.{pu}",
+            f"{b.title} (absolute)", b.low, b.high, float(round(default, 2)), key=f"site.pressure.{pu}", help=b.help
         )
         kwargs = {"ambient_pressure": Q_(p, pu).to("kPa")}
-    temp = c3.number_input("Room temperature [degC]", -20.0, 50.0, 20.0, 1.0, key="site.temperature")
+    t = contract(SiteInput, "temperature", "Room temperature", "degC")
+    temp = c3.number_input(t.title, t.low, t.high, t.default, 1.0, key="site.temperature", help=t.help)
     site = site_from_inputs(temperature=f"{temp:g} degC", **kwargs)
     m = st.columns(3)
     m[0].metric("Ambient pressure", f"{site.ambient_pressure.to(pu).magnitude:.3g} {pu}", help=site.basis)

@@ -1,271 +1,149 @@
-"""Supply duration: how long a site's stocks last under its plan, the bottleneck and the reorder date."""
+"""Supply duration: how long a site's stocks last under its plan, the bottleneck and the reorder date.
+
+The page edits the loaded inventory in place (``estimator_app.editing``) and runs it through the
+command line's loader and ``plan_supply``; each case plan runs the scenario file it names, given with
+the inventory (or the case planner's case for ``scenario = "case planner"``).
+"""
 
 from __future__ import annotations
 
+import copy
 import datetime as dt
 from pathlib import Path
 from typing import Any
 
-import altair as alt
 import pandas as pd
 import streamlit as st
-import tomli_w
 
-from estimator.errors import InputError
+from estimator.inventory_file import BottleEntry, ConcentratorEntry, ContinuousDemand, CylinderEntry, PlanOptions
 from estimator.properties import AGENTS
-from estimator.units import GAS_VOLUME_REFERENCE, parse_quantity
+from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import demo, state
-from ..charts import PALETTE, show
-from ..common import downloads, show_error, show_warnings, unit
+from .. import contracts, state
+from ..charts import show, time_course
+from ..common import downloads, show_warnings, unit
+from ..editing import Field, contract, kept_view, number, table
 
-DOC, VERSION = "supply.doc", "supply.version"
-PLANNER = "case planner"
-
-
-def document() -> dict[str, Any]:
-    return state.stored(DOC, VERSION, demo.inventory)
+KIND = "inventory"
+GASES = ("oxygen", "air", "nitrous_oxide")
 
 
-def _num(value: Any, dim: str, unit_: str, default: float | None = None) -> float | None:
-    if value is None:
-        return default
-    try:
-        return float(parse_quantity(value, "", dim, unit_).to(unit_).magnitude)
-    except InputError:
-        return default
-
-
-def _pressure_gauge(value: Any, pu: str) -> float | None:
+def _gauge(pu: str) -> Any:
     from estimator.units import parse_pressure
 
-    if value is None:
-        return None
-    return float(parse_pressure(value, "pressure").gauge().to(pu).magnitude)
+    return lambda raw: parse_pressure(raw, "pressure").gauge().to(pu).magnitude
 
 
-def cylinder_frame(doc: dict[str, Any], pu: str, mu: str) -> pd.DataFrame:
-    rows = [
-        {
-            "name": c.get("name", ""),
-            "gas": c.get("gas", "oxygen"),
-            "count": int(c.get("count", 1)),
-            "water capacity [L]": _num(c.get("water_capacity"), "volume", "L"),
-            "pressure": _pressure_gauge(c.get("pressure"), pu),
-            "reserve": _pressure_gauge(c.get("reserve_pressure"), pu),
-            "gross weight": _num(c.get("gross_weight"), "mass", mu),
-            "tare weight": _num(c.get("tare_weight"), "mass", mu),
-        }
-        for c in doc.get("cylinders", [])
+def cylinder_fields(pu: str, mu: str) -> list[Field]:
+    """Columns of the cylinder table: ranges, defaults and help from the inventory contract."""
+    gauge = _gauge(pu)
+    return [
+        Field("name", "name", "text"),
+        Field("gas", "gas", "select", options=GASES),
+        Field("count", "count", "integer", low=0, high=10000),
+        contract(CylinderEntry, "water_capacity", "water capacity", "L"),
+        contract(CylinderEntry, "pressure", "pressure (gauge)", pu, low=0.0, read=gauge),
+        contract(CylinderEntry, "reserve_pressure", "change-out at", pu, low=0.0, read=gauge),
+        contract(CylinderEntry, "temperature", "temperature", "degC"),
+        contract(CylinderEntry, "gross_weight", "gross weight", mu),
+        contract(CylinderEntry, "tare_weight", "tare weight", mu),
     ]
-    return pd.DataFrame(
-        rows,
-        columns=["name", "gas", "count", "water capacity [L]", "pressure", "reserve", "gross weight", "tare weight"],
-    )
 
 
-def bottle_frame(doc: dict[str, Any]) -> pd.DataFrame:
-    rows = [
-        {
-            "agent": b.get("agent", "sevoflurane"),
-            "count": int(b.get("count", 0)),
-            "volume [mL]": _num(b.get("volume", "250 mL"), "volume", "mL"),
-            "opened bottle left [mL]": _num(b.get("opened"), "volume", "mL"),
-        }
-        for b in doc.get("bottles", [])
+BOTTLE_FIELDS = [
+    Field("agent", "agent", "select", options=tuple(sorted(AGENTS))),
+    Field("count", "count", "integer", low=0, high=10000),
+    contract(BottleEntry, "volume", "volume", "mL"),
+    contract(BottleEntry, "opened", "opened bottle left", "mL"),
+]
+CONCENTRATOR_FIELDS = [
+    Field("name", "name", "text"),
+    contract(ConcentratorEntry, "rated_flow", "rated flow", "L/min"),
+    contract(ConcentratorEntry, "hours_per_day", "hours a day", "h"),
+    Field("count", "count", "integer", low=0, high=100),
+]
+
+
+def case_fields(names: list[str]) -> list[Field]:
+    return [
+        Field("name", "name", "text"),
+        Field("scenario", "scenario file", "select", options=tuple(names)),
+        Field("per_day", "cases a day", "integer", low=0, high=100),
+        Field("days_per_week", "days a week", "integer", low=0, high=7),
+        Field("rooms", "rooms", "integer", low=1, high=50, default=1),
     ]
-    return pd.DataFrame(rows, columns=["agent", "count", "volume [mL]", "opened bottle left [mL]"])
 
 
-def concentrator_frame(doc: dict[str, Any]) -> pd.DataFrame:
-    rows = [
-        {
-            "name": c.get("name", ""),
-            "rated flow [L/min]": _num(c.get("rated_flow"), "flow", "L/min"),
-            "hours a day": _num(c.get("hours_per_day", "24 h"), "time", "h"),
-            "count": int(c.get("count", 1)),
-        }
-        for c in doc.get("concentrators", [])
-    ]
-    return pd.DataFrame(rows, columns=["name", "rated flow [L/min]", "hours a day", "count"])
-
-
-def _blank(v: Any) -> bool:
-    return v is None or (isinstance(v, float) and v != v) or v == ""
-
-
-def build(
-    doc: dict[str, Any],
-    cyl: pd.DataFrame,
-    bot: pd.DataFrame,
-    conc: pd.DataFrame,
-    pu: str,
-    mu: str,
-    extra: dict[str, Any],
-) -> dict[str, Any]:
-    """The inventory document from the editors; a blank required cell is an InputError naming it."""
-    new = {k: v for k, v in doc.items() if k not in ("cylinders", "bottles", "concentrators")}
-    cylinders = []
-    for i, r in enumerate(cyl.to_dict("records")):
-        c: dict[str, Any] = {"gas": r["gas"], "count": int(r["count"] if not _blank(r["count"]) else 1)}
-        if not _blank(r["name"]):
-            c["name"] = str(r["name"])
-        if not _blank(r["water capacity [L]"]):
-            c["water_capacity"] = f"{r['water capacity [L]']:g} L"
-        if r["gas"] == "nitrous_oxide":
-            for col, key in (("gross weight", "gross_weight"), ("tare weight", "tare_weight")):
-                if _blank(r[col]):
-                    raise InputError(f"cylinders[{i}].{key}", "(empty)", f"a weight in {mu} (N2O is counted by weight)")
-                c[key] = f"{r[col]:g} {mu}"
-        else:
-            if _blank(r["pressure"]):
-                raise InputError(f"cylinders[{i}].pressure", "(empty)", f"a gauge pressure in {pu}")
-            c["pressure"] = f"{r['pressure']:g} {pu}"
-            if not _blank(r["reserve"]):
-                c["reserve_pressure"] = f"{r['reserve']:g} {pu}"
-        cylinders.append(c)
-    bottles = []
-    for r in bot.to_dict("records"):
-        b = {
-            "agent": r["agent"],
-            "count": int(r["count"] if not _blank(r["count"]) else 0),
-            "volume": f"{r['volume [mL]'] if not _blank(r['volume [mL]']) else 250:g} mL",
-        }
-        if not _blank(r["opened bottle left [mL]"]):
-            b["opened"] = f"{r['opened bottle left [mL]']:g} mL"
-        bottles.append(b)
-    concs = []
-    for i, r in enumerate(conc.to_dict("records")):
-        if _blank(r["rated flow [L/min]"]):
-            raise InputError(f"concentrators[{i}].rated_flow", "(empty)", "a flow in L/min")
-        c = {
-            "rated_flow": f"{r['rated flow [L/min]']:g} L/min",
-            "hours_per_day": f"{r['hours a day'] if not _blank(r['hours a day']) else 24:g} h",
-            "count": int(r["count"] if not _blank(r["count"]) else 1),
-        }
-        if not _blank(r["name"]):
-            c["name"] = str(r["name"])
-        concs.append(c)
-    new.update({"cylinders": cylinders, "bottles": bottles, "concentrators": concs})
-    plan = dict(new.get("plan", {}))
-    plan.update(
-        {"start": extra["start"], "lead_time": f"{extra['lead']:g} days", "safety_stock": f"{extra['safety']:g} days"}
-    )
-    new["plan"] = plan
-    demand = dict(new.get("demand", {}))
-    demand["working_days_per_week"] = int(extra["days"])
-    cases = [dict(c) for c in demand.get("cases", [])] or [{"name": "planned case", "scenario": PLANNER, "per_day": 0}]
-    cases[0]["per_day"] = int(extra["per_day"])
-    demand["cases"] = cases
-    new["demand"] = demand
-    return {k: v for k, v in new.items() if v != []}
+CONTINUOUS_FIELDS = [
+    Field("name", "name", "text"),
+    Field("gas", "gas", "select", options=GASES),
+    contract(ContinuousDemand, "flow", "flow", "L/min"),
+    contract(ContinuousDemand, "hours_per_day", "hours a day", "h"),
+    Field("days_per_week", "days a week", "integer", low=0, high=7, default=7),
+]
+PLAN = [
+    contract(PlanOptions, "lead_time", "Order lead time", "day", step=1.0),
+    contract(PlanOptions, "safety_stock", "Safety stock", "day", step=1.0),
+]
+WORK = Field("working_days_per_week", "Working days a week", "integer", low=0, high=7)
 
 
 @st.cache_data(max_entries=32, show_spinner="Laying out the week and the stocks...")
-def run_supply(inventory_text: str, scenario_text: str) -> Any:
-    """Supply report of an inventory; every case plan runs the planner's scenario."""
-    from estimator.supply import load_inventory, plan_supply
+def run_supply(inventory_text: str, scenarios: tuple[tuple[str, str], ...]) -> Any:
+    """Supply report: the command line's loader and planner; each case plan runs the scenario it names."""
+    from estimator.supply import plan_supply
+
+    texts = dict(scenarios)
 
     def runner(path: str) -> Any:
-        return state.run_case(scenario_text)
+        return state.run_case(texts[Path(path).name])
 
-    return plan_supply(load_inventory(inventory_text), runner=runner)
-
-
-def _upload() -> None:
-    from estimator.supply import load_inventory
-
-    state.upload_toml(
-        "Load an inventory (TOML)",
-        "supply.upload",
-        "Stocks, sources and demand as in the README; at most 20 MB. Case plans in it run the case "
-        "on the case planner page.",
-        DOC,
-        VERSION,
-        load_inventory,
-    )
+    return plan_supply(contracts.load_inventory_text(inventory_text), runner=runner)
 
 
 def inputs() -> dict[str, Any]:
-    doc = document()
-    v, pu, mu = st.session_state[VERSION], unit("pressure"), unit("mass")
-    plan, demand = doc.get("plan", {}), doc.get("demand", {})
-    c1, c2, c3, c4, c5 = st.columns(5)
-    cases = demand.get("cases", [{}])
-    extra = {
-        "per_day": c1.number_input(
-            "Planned cases a day", 0, 100, int(cases[0].get("per_day", 4)) if cases else 4, key=f"supply.per_day.{v}"
-        ),
-        "days": c2.number_input(
-            "Working days a week", 0, 7, int(demand.get("working_days_per_week", 5)), key=f"supply.days.{v}"
-        ),
-        "start": c3.date_input("Start", _date(plan.get("start")), key=f"supply.start.{v}"),
-        "lead": c4.number_input(
-            "Order lead time [days]",
-            0.0,
-            365.0,
-            _num(plan.get("lead_time"), "time", "day", 0.0),
-            1.0,
-            key=f"supply.lead.{v}",
-        ),
-        "safety": c5.number_input(
-            "Safety stock [days]",
-            0.0,
-            365.0,
-            _num(plan.get("safety_stock"), "time", "day", 0.0),
-            1.0,
-            key=f"supply.safety.{v}",
-        ),
-    }
+    """The inventory as the editors now stand (untouched values as loaded, other keys kept)."""
+    loaded = state.document(KIND)
+    doc = copy.deepcopy(loaded)
+    v, pu, mu = state.version(KIND), unit("pressure"), unit("mass")
+    plan = doc.setdefault("plan", {})
+    demand = doc.setdefault("demand", {})
+    c1, c2, c3, c4 = st.columns(4)
+    number(c1, demand, WORK, f"supply.days.{v}")
+    start = c2.date_input("Start", plan.get("start"), key=f"supply.start.{v}", help="Blank: today")
+    if start != plan.get("start") and not (start is None and plan.get("start") is None):
+        plan["start"] = start if isinstance(start, dt.date) else plan.get("start")
+    number(c3, plan, PLAN[0], f"supply.lead.{v}")
+    number(c4, plan, PLAN[1], f"supply.safety.{v}")
+    st.markdown("**Case plans** - each runs the scenario file it names, given with the inventory")
+    names = sorted({*state.files(KIND), *contracts.PLANNER_NAMES[:1], *contracts.referenced(KIND, loaded)})
+    demand["cases"] = table(demand.get("cases", []), case_fields(names), f"supply.cases.{v}")
+    st.markdown("**Continuous use** - oxygen or air drawn through the day outside the cases (recovery, ventilators)")
+    demand["continuous"] = table(demand.get("continuous", []), CONTINUOUS_FIELDS, f"supply.cont.{v}")
     st.markdown(f"**Cylinders** - gauge pressure as read [{pu}]; nitrous oxide by weight [{mu}]")
-    seeds = st.session_state.setdefault(
-        f"supply.seeds.{v}.{pu}.{mu}",
-        {"cyl": cylinder_frame(doc, pu, mu), "bot": bottle_frame(doc), "conc": concentrator_frame(doc)},
-    )
-    cyl = st.data_editor(
-        seeds["cyl"],
-        key=f"supply.cyl.{v}.{pu}.{mu}",
-        num_rows="dynamic",
-        hide_index=True,
-        width="stretch",
-        column_config={
-            "gas": st.column_config.SelectboxColumn("gas", options=["oxygen", "air", "nitrous_oxide"], required=True),
-            "count": st.column_config.NumberColumn("count", min_value=0, step=1, required=True),
-            "pressure": st.column_config.NumberColumn(f"pressure [{pu}]", min_value=0.0),
-            "reserve": st.column_config.NumberColumn(f"change-out at [{pu}]", min_value=0.0),
-            "gross weight": st.column_config.NumberColumn(f"gross weight [{mu}]", min_value=0.0),
-            "tare weight": st.column_config.NumberColumn(f"tare weight [{mu}]", min_value=0.0),
-        },
-    )
+    doc["cylinders"] = table(doc.get("cylinders", []), cylinder_fields(pu, mu), f"supply.cyl.{v}.{pu}.{mu}")
     a, b = st.columns(2)
     with a:
         st.markdown("**Agent bottles**")
-        bot = st.data_editor(
-            seeds["bot"],
-            key=f"supply.bot.{v}",
-            num_rows="dynamic",
-            hide_index=True,
-            width="stretch",
-            column_config={
-                "agent": st.column_config.SelectboxColumn("agent", options=sorted(AGENTS), required=True),
-                "count": st.column_config.NumberColumn("count", min_value=0, step=1),
-            },
-        )
+        doc["bottles"] = table(doc.get("bottles", []), BOTTLE_FIELDS, f"supply.bot.{v}")
     with b:
         st.markdown("**Oxygen concentrators**")
-        conc = st.data_editor(
-            seeds["conc"], key=f"supply.conc.{v}", num_rows="dynamic", hide_index=True, width="stretch"
-        )
-    return build(doc, cyl, bot, conc, pu, mu, extra)
-
-
-def _date(value: Any) -> dt.date:
-    if isinstance(value, dt.date):
-        return value
-    try:
-        return dt.date.fromisoformat(str(value))
-    except ValueError:
-        return dt.date.today()
+        doc["concentrators"] = table(doc.get("concentrators", []), CONCENTRATOR_FIELDS, f"supply.conc.{v}")
+    for key, parent in (("plan", doc), ("demand", doc)):
+        if not parent[key] and key not in loaded:
+            del parent[key]
+    for key in ("cylinders", "bottles", "concentrators"):
+        if not doc[key] and key not in loaded:
+            del doc[key]
+    for key in ("cases", "continuous"):
+        if not demand[key] and key not in loaded.get("demand", {}):
+            del demand[key]
+    rest = {k: val for k, val in doc.items() if k not in ("cylinders", "bottles", "concentrators")}
+    rest["plan"] = {k: val for k, val in plan.items() if k not in ("start", "lead_time", "safety_stock")}
+    rest["demand"] = {k: val for k, val in demand.items() if k not in ("cases", "continuous", "working_days_per_week")}
+    kept_view({k: val for k, val in rest.items() if val != {}}, set())
+    state.set_document(doc, KIND)
+    return doc
 
 
 def outputs(report: Any) -> None:
@@ -296,26 +174,18 @@ def outputs(report: Any) -> None:
     dep = report.depletion
     cols = [c for c in dep.columns if c != "date"]
     if cols:
-        share = pd.DataFrame({"date": pd.to_datetime(dep["date"])})
+        share = pd.DataFrame({"date": pd.to_datetime(dep["date"]).dt.date})
+        labels = {}
         for c in cols:
-            start = float(dep[c].iloc[0])
-            share[c.rsplit(" [", 1)[0]] = 100 * dep[c] / start if start > 0 else 0.0
-        long = share.melt("date", var_name="item", value_name="remaining")
-        chart = (
-            alt.Chart(long)
-            .mark_line(strokeWidth=2.2, interpolate="step-after")
-            .encode(
-                x=alt.X("date:T", title="date"),
-                y=alt.Y("remaining:Q", title="stock remaining [% of start]"),
-                color=alt.Color(
-                    "item:N", title=None, scale=alt.Scale(range=list(PALETTE)), legend=alt.Legend(orient="top")
-                ),
-                tooltip=["item:N", alt.Tooltip("date:T"), alt.Tooltip("remaining:Q", format=".0f")],
-            )
-            .properties(height=280)
-        )
+            first = float(dep[c].iloc[0])
+            labels[c] = c.rsplit(" [", 1)[0]
+            share[c] = 100 * dep[c] / first if first > 0 else 0.0
         st.subheader("Depletion")
-        show(chart)
+        show(
+            time_course(
+                share, labels, "stock remaining [% of start]", height=280, step=True, x="date", x_type="temporal"
+            )
+        )
     st.subheader("Warnings")
     show_warnings(report.warnings, empty="No supply warnings.")
     downloads(
@@ -332,25 +202,23 @@ def outputs(report: Any) -> None:
 def render() -> None:
     st.title("Supply duration")
     st.caption(
-        "How many days the stocks last with the case on the planner page as the daily work, which one "
-        "runs out first (the bottleneck) and when to reorder."
+        "How many days the stocks last under the inventory's case plans and continuous use, which one runs "
+        "out first (the bottleneck) and when to reorder."
     )
-    _upload()
-    try:
-        doc = inputs()
-        text = tomli_w.dumps(doc)
-        st.session_state["supply.current"] = doc
-        report = run_supply(text, state.toml_text())
-    except InputError as exc:
-        show_error(exc)
-        return
-    plans = [c.get("scenario") for c in doc.get("demand", {}).get("cases", [])]
-    if any(Path(str(p)).name != PLANNER for p in plans):
-        st.info(
-            "Every case plan of this inventory runs the case on the case planner page (load its scenario there).",
-            icon=":material/info:",
-        )
-    st.download_button(
-        "Save inventory (TOML)", text.encode("utf-8"), "inventory.toml", "application/toml", icon=":material/save:"
+    c1, c2 = st.columns([1, 2])
+    state.demo_picker(KIND, c1)
+    state.upload(
+        KIND,
+        "Load an inventory (TOML) with the scenario files it names",
+        "supply.upload",
+        "Stocks, sources and demand as in the README, and each scenario file its case plans name; at most 20 MB "
+        "each. A case plan with scenario = 'case planner' runs the case on the case planner page.",
+        c2,
+    )
+    doc = inputs()
+    state.save_button(st, KIND, doc)
+    report = run_supply(
+        contracts.toml_text(doc),
+        tuple(sorted(contracts.case_scenarios(doc, state.files(KIND), state.toml_text()).items())),
     )
     outputs(report)

@@ -1,0 +1,165 @@
+"""One factory for the quantity fields of every TOML contract: dimension, unit, range and meaning as
+metadata a form can read, checked once where the file is parsed.
+
+``quantity("flow", 0, 15, "L/min", description=...)`` is a pydantic type: it parses ``"2 L/min"``
+(or a bare number in ``bare_unit``), refuses a wrong dimension or a value outside the range, and
+carries a :class:`QuantitySpec` that :func:`quantity_spec` reads back from the model, so an app can
+build a number input with its unit, limits and help text from the same source.
+
+Each range is chosen where the field is declared, with its reason beside it.
+
+Examples
+--------
+>>> from pydantic import BaseModel, ConfigDict
+>>> class Tank(BaseModel):
+...     model_config = ConfigDict(arbitrary_types_allowed=True)
+...     flow: quantity("flow", 0, 15, "L/min", description="oxygen flow")
+>>> Tank(flow="2 L/min").flow.to("mL/min").magnitude
+2000.0
+>>> s = quantity_spec(Tank, "flow")
+>>> s.unit, s.low, s.high, s.description
+('L/min', 0.0, 15.0, 'oxygen flow')
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Annotated, Any
+
+import pint
+from pydantic import BaseModel, BeforeValidator
+
+from .errors import InputError
+from .units import DIMENSIONS, parse_pressure, parse_quantity, range_text
+
+
+@dataclass(frozen=True)
+class QuantitySpec:
+    """What a quantity field accepts.
+
+    Attributes
+    ----------
+    dimension : str
+        A key of :data:`estimator.units.DIMENSIONS` (``"flow"``, ``"fraction"``...).
+    low, high : float
+        The accepted range in ``unit`` (inclusive; ``low`` exclusive if ``low_open``).
+    unit : str
+        Unit of the range, and the natural unit of a form widget.
+    description : str
+        One line of help text.
+    low_open : bool
+        ``low`` itself is refused.
+    bare_unit : str or None
+        Unit of a bare number; ``None``: a bare number is refused (a fraction reads it as 0 to 1).
+    keep_text : bool
+        Check the value but keep it as given (a pressure keeps its gauge or absolute marker).
+    """
+
+    dimension: str
+    low: float
+    high: float
+    unit: str
+    description: str = ""
+    low_open: bool = False
+    bare_unit: str | None = None
+    keep_text: bool = False
+
+    @property
+    def example(self) -> str:
+        """An example of an accepted value, for messages."""
+        return DIMENSIONS[self.dimension][1]
+
+    def parse(self, value: Any, field: str = "") -> pint.Quantity:
+        """``value`` as a Quantity within the range, or :class:`InputError` naming ``field``."""
+        if self.dimension == "pressure" and self.keep_text and isinstance(value, str):
+            q = parse_pressure(value, field).quantity
+        else:
+            q = parse_quantity(value, field, self.dimension, self.bare_unit)
+        mag = q.to(self.unit).magnitude
+        if mag < self.low or mag > self.high or (self.low_open and mag <= self.low):
+            shown = range_text(self.low, self.high, self.unit, value, low_open=self.low_open)
+            raise InputError(field, value, f"{shown} ({self.example})")
+        return q
+
+    def validate(self, value: Any) -> Any:
+        """The pydantic hook: the message (without field) becomes the error's expected text."""
+        try:
+            q = self.parse(value)
+        except InputError as exc:
+            raise ValueError(exc.expected) from None
+        return value if self.keep_text else q
+
+
+def quantity(
+    dimension: str,
+    low: float,
+    high: float,
+    unit: str,
+    *,
+    description: str = "",
+    low_open: bool = False,
+    bare_unit: str | None = None,
+    keep_text: bool = False,
+) -> Any:
+    """A pydantic field type: a pint Quantity of ``dimension`` within [low, high] ``unit``.
+
+    Parameters
+    ----------
+    dimension : str
+        Key of :data:`estimator.units.DIMENSIONS`.
+    low, high : float
+        Accepted range [unit].
+    unit : str
+        Unit of the range.
+    description : str
+        Help text, readable with :func:`quantity_spec`.
+    low_open : bool
+        Refuse ``low`` itself.
+    bare_unit : str, optional
+        Unit given to a bare number.
+    keep_text : bool
+        Return the value as given after checking it (for values parsed again downstream).
+
+    Returns
+    -------
+    typing.Annotated
+        ``Annotated[Quantity, BeforeValidator, QuantitySpec]``.
+    """
+    spec = QuantitySpec(dimension, float(low), float(high), unit, description, low_open, bare_unit, keep_text)
+    base = Any if keep_text else pint.Quantity  # kept as given: checked above, parsed again downstream
+    return Annotated[base, BeforeValidator(spec.validate), spec]
+
+
+def quantity_spec(model: type[BaseModel], name: str) -> QuantitySpec | None:
+    """The :class:`QuantitySpec` of field ``name`` of ``model`` (``None`` if not a quantity)."""
+    field = model.model_fields[name]
+    for item in field.metadata:
+        if isinstance(item, QuantitySpec):
+            return item
+    return _find(field.annotation)
+
+
+def _find(annotation: Any) -> QuantitySpec | None:
+    for item in getattr(annotation, "__metadata__", ()):
+        if isinstance(item, QuantitySpec):
+            return item
+    for arg in getattr(annotation, "__args__", ()):
+        found = _find(arg)
+        if found is not None:
+            return found
+    return None
+
+
+def quantity_specs(model: type[BaseModel]) -> dict[str, QuantitySpec]:
+    """Every quantity field of ``model`` with its spec.
+
+    >>> from estimator.scenario import PatientInput
+    >>> quantity_specs(PatientInput)["weight"].unit
+    'kg'
+    """
+    out = {}
+    for name in model.model_fields:
+        spec = quantity_spec(model, name)
+        if spec is not None:
+            out[name] = spec
+    return out

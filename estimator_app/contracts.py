@@ -1,0 +1,165 @@
+"""The app's door to the file contracts: the same loaders the command line uses, fed text, never paths.
+
+A page holds the parsed document (a plain dict in the TOML contract) and the text of every file that
+document names (scenario files of an inventory or a case mix, a case-types CSV). Before it runs, it
+hands the document to the loader of its contract here: the loader the ``lowflow`` verb calls, so an
+unknown key, a value out of range or a missing file gives the same InputError as on the command line.
+
+Files named inside a document are looked up only among the files the user gave alongside it (or the
+demo folder's files for a demo), by name; a name is never opened as a path on the server.
+"""
+
+from __future__ import annotations
+
+import tempfile
+import tomllib
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+import tomli_w
+
+from estimator.errors import InputError
+
+#: The demo inputs the app opens on: the repository's demo_cases/ folder (invented sites and cases).
+DEMO_DIR = Path(__file__).resolve().parents[1] / "demo_cases"
+
+#: A case plan or case type naming one of these runs the case on the case planner page.
+PLANNER_NAMES = ("case planner", "case_planner.toml")
+
+
+def toml_text(doc: dict[str, Any]) -> str:
+    """TOML text of a document (``None`` values dropped: TOML has no null)."""
+    return tomli_w.dumps(_clean(doc))
+
+
+def _clean(value: Any) -> Any:
+    if isinstance(value, dict):
+        return {k: _clean(v) for k, v in value.items() if v is not None}
+    if isinstance(value, list):
+        return [_clean(v) for v in value]
+    return value
+
+
+def parse_toml(text: str, field: str) -> dict[str, Any]:
+    """A TOML document from text; InputError naming ``field`` if it is not TOML."""
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(field, "(file)", f"valid TOML ({exc})") from None
+    except RecursionError:
+        raise InputError(field, "(file)", "TOML nested at most a few levels deep") from None
+
+
+def referenced(kind: str, doc: dict[str, Any]) -> list[str]:
+    """Names of the files a document refers to (scenario files, a case-types CSV)."""
+    if kind == "inventory":
+        rows = doc.get("demand", {}).get("cases", []) if isinstance(doc.get("demand"), dict) else []
+        names = [r.get("scenario") for r in rows if isinstance(r, dict)]
+    elif kind == "casemix":
+        names = [r.get("scenario") for r in doc.get("case_types", []) if isinstance(r, dict)]
+        names.append(doc.get("case_types_file"))
+    else:
+        names = []
+    return [str(n) for n in names if isinstance(n, str) and n]
+
+
+def demo_files(kind: str) -> dict[str, str]:
+    """Text of the demo folder's files that a demo of ``kind`` may name, by file name."""
+    return {p.name: p.read_text(encoding="utf-8") for p in sorted(DEMO_DIR.glob("*.toml")) if kind != "scenario"}
+
+
+@contextmanager
+def folder(files: dict[str, str], planner_text: str | None = None) -> Iterator[Path]:
+    """A private temporary folder holding ``files`` (name -> text) and the planner's case under its names.
+
+    The loaders resolve a file named in a document against this folder, as the command line resolves
+    it against the document's own folder; nothing else on the server is reachable through it.
+    """
+    with tempfile.TemporaryDirectory(prefix="lowflow-app-") as tmp:
+        base = Path(tmp)
+        if planner_text is not None:
+            for name in PLANNER_NAMES:
+                (base / name).write_text(planner_text, encoding="utf-8")
+        for name, text in files.items():
+            safe = Path(name).name
+            if safe and safe == name:
+                (base / safe).write_text(text, encoding="utf-8")
+        yield base
+
+
+def load_scenario_text(text: str) -> Any:
+    """The scenario of TOML text: :func:`estimator.scenario.scenario_from_text`, as ``lowflow case`` reads it."""
+    from estimator.scenario import scenario_from_text
+
+    return scenario_from_text(text)
+
+
+def load_inventory_text(text: str, base_dir: Path | None = None) -> Any:
+    """The inventory of TOML text: :func:`estimator.inventory_file.inventory_from_text` (unknown keys refused)."""
+    from estimator.inventory_file import inventory_from_text
+
+    return inventory_from_text(text, base_dir=base_dir)
+
+
+def load_casemix_text(text: str, base_dir: Path) -> Any:
+    """The case mix of TOML text: :func:`estimator.casemix.casemix_from_text`; named files only inside ``base_dir``."""
+    from estimator.casemix import casemix_from_text
+
+    return casemix_from_text(text, base_dir, confine=True)
+
+
+def load_prices_text(text: str) -> Any:
+    """Prices of TOML text (:func:`estimator.costs.prices_from_text`, as ``--prices`` reads a file), or None."""
+    from estimator.costs import prices_from_text
+
+    return prices_from_text(text) if text else None
+
+
+def load_policy_text(text: str) -> Any:
+    """A low-flow policy of TOML text (:func:`estimator.audit_policy.policy_from_text`, as ``--policy``)."""
+    from estimator.audit_policy import policy_from_text
+
+    return policy_from_text(text)
+
+
+def load_log_text(text: str) -> Any:
+    """An audit log of CSV text (:func:`estimator.audit_log.log_from_text`), never taken for a path."""
+    from estimator.audit_log import log_from_text
+
+    return log_from_text(text)
+
+
+def case_scenarios(doc: dict[str, Any], files: dict[str, str], planner_text: str) -> dict[str, str]:
+    """Scenario text of every case plan of an inventory, by file name: a file given with the inventory,
+    else the planner's case for ``case planner``; InputError naming the plan for any other name."""
+    out = {}
+    for k, plan in enumerate(doc.get("demand", {}).get("cases", [])):
+        name = str(plan.get("scenario", "")) if isinstance(plan, dict) else ""
+        if name in files:
+            out[Path(name).name] = files[name]
+        elif name in PLANNER_NAMES:
+            out[Path(name).name] = planner_text
+        else:
+            raise InputError(
+                f"demand.cases[{k}].scenario",
+                name,
+                "a scenario file given with the inventory (or 'case planner' for the case planner's case)",
+            )
+    return out
+
+
+def check(kind: str, doc: dict[str, Any], files: dict[str, str], planner_text: str) -> None:
+    """Run the command line's loader of ``kind`` on a document: InputError exactly where the CLI gives one."""
+    text = toml_text(doc)
+    if kind == "scenario":
+        load_scenario_text(text)
+    elif kind == "inventory":
+        load_inventory_text(text)
+        case_scenarios(doc, files, planner_text)
+    elif kind == "casemix":
+        with folder(files, planner_text) as base:
+            load_casemix_text(text, base)
+    else:  # pragma: no cover - a programming error
+        raise ValueError(kind)

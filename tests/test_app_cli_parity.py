@@ -1,0 +1,160 @@
+"""The app and the command line give the same headline numbers for every demo_cases/ file, and the app
+saves the file it loaded unchanged (the same parsed document).
+
+Each file is opened in the app the way a user opens it (the page's demo selector, AppTest) and run
+through ``lowflow <verb> FILE --json`` (``estimator.cli.main``). Numbers are compared as the app
+shows them: the command line's value formatted to the page's precision must give the same text. A
+consistency check between two faces of one engine, not a validation against a published source.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import io
+import json
+import sys
+import tomllib
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+if str(ROOT) not in sys.path:  # app.py runs from the repository root; estimator_app is not installed
+    sys.path.insert(0, str(ROOT))
+
+from app_helpers import capture_saves  # noqa: E402
+from streamlit.testing.v1 import AppTest  # noqa: E402
+
+from estimator.cli import main  # noqa: E402
+from estimator.units import Q_  # noqa: E402
+from estimator_app import demo  # noqa: E402
+
+DEMO = ROOT / "demo_cases"
+TIMEOUT = 300
+
+
+def cli_json(*argv: str) -> dict:
+    """``lowflow ARGV --json`` in-process: its parsed JSON document."""
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out), pytest.raises(SystemExit) as done:
+        main([*argv, "--json"])
+    assert done.value.code == 0, out.getvalue()[-500:]
+    return json.loads(out.getvalue())
+
+
+@pytest.fixture
+def saved(monkeypatch) -> dict[str, bytes]:
+    """Bytes of every save button the app builds, by file name."""
+    return capture_saves(monkeypatch)
+
+
+def open_page(module: str, picker: str | None = None, name: str | None = None) -> AppTest:
+    at = AppTest.from_string(
+        f"from estimator_app.shell import page_main\npage_main({module!r})", default_timeout=TIMEOUT
+    ).run()
+    if picker is not None:
+        at.selectbox(key=picker).set_value(name).run()
+    assert not at.exception, [e.value for e in at.exception]
+    assert not at.error, [e.value for e in at.error]
+    return at
+
+
+def metric(at: AppTest, label: str) -> str:
+    return next(m.value for m in at.metric if m.label.startswith(label))
+
+
+def mag(q: dict) -> float:
+    return float(q["magnitude"])
+
+
+@pytest.mark.parametrize("name", demo.files_of("scenario"))
+def test_case_planner_and_lowflow_case_agree(name, saved):
+    at = open_page("case_planner", "scenario.demo", name)
+    cli = cli_json("case", str(DEMO / name))
+    t = cli["totals"]
+    assert metric(at, "Liquid agent") == f"{mag(t['agent_liquid']):.1f} mL"
+    assert metric(at, "Oxygen") == f"{mag(t['oxygen']):.0f} L"
+    assert metric(at, "Air") == f"{mag(t['air']):.0f} L"
+    assert metric(at, "Nitrous oxide") == f"{mag(t['nitrous_oxide']):.0f} L"
+    assert metric(at, "MAC-hours") == f"{mag(t['mac_hours']):.2f}"
+    assert metric(at, "CO2e") == f"{mag(t['co2e']):.2f} kg"
+    assert metric(at, "Absorbent used") == f"{Q_(mag(t['absorbent']), t['absorbent']['units']).to('g').magnitude:.0f} g"
+    assert metric(at, "Lowest inspired O2") == f"{100 * mag(cli['minimum_inspired_oxygen']):.1f} %"
+    if cli["cost"]:
+        assert metric(at, "Cost") == f"{cli['cost']['total']:.2f}"
+    # Saving without an edit gives the file back: the same parsed document.
+    assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+
+
+def test_save_writes_exactly_what_is_on_screen(saved):
+    # Issue 16: the scenario saved held the state from one edit earlier (90 kg shown, 85 kg saved).
+    at = open_page("case_planner")
+    for kg in (85.0, 90.0):
+        at.number_input(key="case.weight.0.kg").set_value(kg).run()
+        doc = tomllib.loads(saved[demo.DEFAULT["scenario"]].decode())
+        assert doc["patient"]["weight"] == f"{kg:g} kg"
+    # Everything else is the file as loaded.
+    original = tomllib.loads((DEMO / demo.DEFAULT["scenario"]).read_text(encoding="utf-8"))
+    original["patient"]["weight"] = "90 kg"
+    assert doc == original
+
+
+@pytest.mark.parametrize("name", demo.files_of("inventory"))
+def test_supply_page_and_lowflow_supply_agree(name, saved):
+    at = open_page("supply_duration", "supply.doc.demo", name)
+    cli = cli_json("supply", str(DEMO / name))
+    assert metric(at, "Bottleneck") == (cli["bottleneck"] or "none")
+    assert metric(at, "Days of supply") == f"{mag(cli['days_of_supply']):.1f}"
+    assert metric(at, "Cases possible") == str(cli["cases_possible"])
+    assert metric(at, "Reorder by") == cli["reorder_by"]
+    # Every key of the file survives the page: concentrator start and purity, cylinder temperature
+    # and service pressure included.
+    assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+
+
+@pytest.mark.parametrize("name", demo.files_of("casemix"))
+def test_forecast_page_and_lowflow_forecast_agree(name, saved):
+    # The file's own weeks and seed: the same Monte Carlo draws, so the same weekly medians.
+    at = open_page("demand_forecast", "forecast.doc.demo", name)
+    cli = cli_json("forecast", str(DEMO / name))
+    items = next(d.value for d in at.dataframe if "p50" in d.value.columns)
+    app = dict(zip(items["item"], items["p50"], strict=True))
+    for key, stats in cli["items"].items():
+        assert app[key.replace("_", " ")] == pytest.approx(mag(stats["p50"]), rel=1e-12), key
+    assert metric(at, "Cases a week (mean)") == f"{mag(cli['items']['cases']['mean']):.1f}"
+    assert metric(at, "CO2e a week (P95)") == f"{mag(cli['items']['co2e']['p95']):.0f} kg"
+    assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+
+
+def test_audit_page_and_lowflow_audit_agree():
+    # The page opens on the demo log with the demo prices and the demo policy (their demo_cases files).
+    at = open_page("fresh_gas_audit")
+    assert at.selectbox(key="audit.log.demo").value == "kestrel_audit_log.csv"
+    assert at.selectbox(key="audit.prices.demo").value == "kestrel_prices.toml"
+    assert at.selectbox(key="audit.policy.demo").value == "kestrel_lowflow_policy.toml"
+    policy = tomllib.loads((DEMO / "kestrel_lowflow_policy.toml").read_text(encoding="utf-8"))["policy"]
+    flow = next(n for n in at.number_input if n.label.startswith("Policy fresh-gas flow"))
+    assert f"{flow.value:g} L/min" == policy["fresh_gas_flow"]
+    cli = cli_json("audit", str(DEMO / "kestrel_audit_log.csv"), "--prices", str(DEMO / "kestrel_prices.toml"))
+    t, k = cli["totals"], cli["kpis"]
+    assert list(at.dataframe[0].value["line"]) == [r["line"] for r in cli["rejections"]]
+    assert metric(at, "Cases") == str(t["cases"])
+    assert metric(at, "Liquid agent") == f"{mag(t['agent_liquid']):.0f} mL"
+    assert metric(at, "CO2e") == f"{mag(t['co2e']):.1f} kg"
+    assert metric(at, "Cost") == f"{t['cost']['total']:.2f}"
+    assert metric(at, "Mean maintenance flow") == f"{mag(k['mean_maintenance_flow']):.2f} L/min"
+    assert metric(at, "Maintenance time at <= 1 L/min") == f"{100 * k['maintenance_share_le_1']:.0f} %"
+    assert metric(at, "MAC-hours") == f"{mag(k['mac_hours']):.1f}"
+
+
+def test_every_demo_file_is_covered():
+    covered = {
+        *demo.files_of("scenario"),
+        *demo.files_of("inventory"),
+        *demo.files_of("casemix"),
+        "kestrel_audit_log.csv",
+        "kestrel_prices.toml",
+        "kestrel_lowflow_policy.toml",
+    }
+    inputs = {p.name for p in DEMO.iterdir() if p.suffix in (".toml", ".csv")}
+    assert inputs == covered
