@@ -30,10 +30,10 @@ _LABELS = {
 @st.cache_data(max_entries=32, show_spinner="Simulating patients drawn from published variation...")
 def run_spread(text: str, n: int, seed: int) -> Any:
     """Spread of a scenario's TOML text (cached on text, n and seed)."""
-    from estimator.scenario import load_scenario
+    from estimator.scenario import scenario_from_text
     from estimator.spread import simulate_spread
 
-    return simulate_spread(load_scenario(text), n, seed=seed)
+    return simulate_spread(scenario_from_text(text), n, seed=seed)
 
 
 def control() -> Any:
