@@ -255,6 +255,20 @@ _TABLE: tuple[tuple[str, str, str, str, bool], ...] = (
     ("PATIENT_DEFAULTS", "warning", "a policy default stood in for a missing patient value", "model", False),
     ("POLICY_CASE_WARNINGS", "warning", "the engine warned for some policy cases", "model", False),
     ("CASES_SKIPPED", "warning", "cases not re-run under the policy", "model", False),
+    (
+        "TIME_NOT_ELAPSED",
+        "warning",
+        "numeric log times beyond +-1,000,000 min (Unix seconds?): those rows rejected",
+        "model",
+        False,
+    ),
+    (
+        "PATIENT_VALUE_VARIES",
+        "warning",
+        "a case's rows give more than one patient weight or age (the first is used)",
+        "model",
+        False,
+    ),
 )
 
 #: Every code the package emits, by name.

@@ -160,9 +160,12 @@ SUPPLY_CASE = SimpleNamespace(
 
 
 def supply(text: str):
-    from estimator.supply import load_inventory, plan_supply
+    from estimator.inventory_file import inventory_from_text
+    from estimator.supply import plan_supply
 
-    return lambda: warning_codes(plan_supply(load_inventory(text), start=START, runner=lambda _: SUPPLY_CASE).warnings)
+    return lambda: warning_codes(
+        plan_supply(inventory_from_text(text), start=START, runner=lambda _: SUPPLY_CASE).warnings
+    )
 
 
 CASES_ONLY = '[[demand.cases]]\nscenario = "x.toml"\nper_day = 1\n'
@@ -190,10 +193,10 @@ FLOWS = 'wash_in_flow = "6 L/min"\nwash_in_time = "10 min"\nmaintenance_flow = "
 
 def forecast(body: str = FLOWS + PATIENT + 'duration = "60 min"', weeks: int = 3, tail: str = ""):
     """Warnings of a forecast of one case type (``body``: its keys)."""
-    from estimator.casemix import load_casemix
+    from estimator.casemix import casemix_from_text
     from estimator.forecast import forecast as run
 
-    return lambda: warning_codes(run(load_casemix(MIX.format(weeks=weeks, body=body, tail=tail))).warnings)
+    return lambda: warning_codes(run(casemix_from_text(MIX.format(weeks=weeks, body=body, tail=tail))).warnings)
 
 
 def maintenance(flows: str, duration: str = "60 min") -> str:
@@ -203,9 +206,9 @@ def maintenance(flows: str, duration: str = "60 min") -> str:
 
 def casemix(body: str):
     """Load-time warnings of a case mix of one case type."""
-    from estimator.casemix import load_casemix
+    from estimator.casemix import casemix_from_text
 
-    return lambda: warning_codes(load_casemix(MIX.format(weeks=3, body=body, tail="")).warnings)
+    return lambda: warning_codes(casemix_from_text(MIX.format(weeks=3, body=body, tail="")).warnings)
 
 
 # --- audit -----------------------------------------------------------------------------------------
@@ -213,16 +216,18 @@ def casemix(body: str):
 
 def audit(rows: str, header: str = AUDIT_HEADER, **kw):
     from estimator.audit import audit as run
+    from estimator.audit_log import log_from_text
 
-    return lambda: warning_codes(run(f"{header}\n{rows}", **kw).warnings)
+    return lambda: warning_codes(run(log_from_text(f"{header}\n{rows}"), **kw).warnings)
 
 
 def policy(rows: str, header: str, **kw):
     from estimator.audit import audit as run
+    from estimator.audit_log import log_from_text
     from estimator.audit_policy import counterfactual, parse_policy
 
     def go():
-        res = counterfactual(run(f"{header}\n{rows}"), parse_policy(kw))
+        res = counterfactual(run(log_from_text(f"{header}\n{rows}")), parse_policy(kw))
         out = warning_codes(res["warnings"])
         for c in res["cases"]:
             out |= warning_codes(c["warnings"])

@@ -9,14 +9,16 @@ from engine_helpers import scenario
 from estimator import batch
 from estimator.accounting import absorbent_capacity
 from estimator.audit import audit
+from estimator.audit_log import log_from_text
 from estimator.audit_policy import case_scenarios, counterfactual, engine_runner, parse_policy
 from estimator.carbon import case_carbon, released_co2e, totals_co2e
 from estimator.casemix import load_casemix
 from estimator.engine import simulate
 from estimator.forecast import case_co2e, forecast
+from estimator.inventory_file import inventory_from_text
 from estimator.properties import AGENTS, GASES
 from estimator.scenario import scenario_from_dict
-from estimator.supply import load_inventory, plan_supply
+from estimator.supply import plan_supply
 
 #: Batch against single-case engine (tests/test_batch.py): 1e-3 relative.
 AGREEMENT = 1e-3
@@ -97,7 +99,7 @@ def test_batch_and_forecast_count_as_the_case(case, tmp_path):
 
 def test_supply_draws_the_case_absorbent(case):
     # One case on each of the 5 working days: the absorbent drawn is 5/7 of a case a day.
-    inv = load_inventory(
+    inv = inventory_from_text(
         '[[demand.cases]]\nscenario = "x.toml"\nper_day = 1\n[absorbent]\nstock = "5 kg"\n'
         '[supply]\nignore = ["oxygen", "air", "nitrous_oxide", "sevoflurane"]\n'
     )
@@ -116,7 +118,7 @@ LOG = (
 
 def test_audit_counts_a_log_by_the_same_rule():
     # A log has no uptake: the same rule with the metabolised share taken of the delivered agent.
-    r = audit(LOG)
+    r = audit(log_from_text(LOG))
     row = r.cases.iloc[0]
     delivered = row["agent_liquid_ml"] * mag(AGENTS["sevoflurane"].liquid_density, "g/mL")
     want = released_co2e("sevoflurane", delivered_g=delivered, nitrous_oxide_l=row["nitrous_oxide_l"])
@@ -126,7 +128,7 @@ def test_audit_counts_a_log_by_the_same_rule():
 def test_policy_audit_counts_an_engine_case_as_the_case():
     # With an engine baseline both sides are engine runs, counted as the case counts itself.
     policy = parse_policy({"baseline": "engine", "fresh_gas_flow": "0.5 L/min", "block": "30 min"})
-    result = audit(LOG)
+    result = audit(log_from_text(LOG))
     cf = counterfactual(result, policy)
     doc = case_scenarios(result, policy)[0][0]["recorded"]
     want = engine_runner(doc).totals["co2e"].to("kg").magnitude
@@ -145,7 +147,7 @@ def test_audit_of_the_case_log_gives_the_case_amounts():
         "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting\n"
         "C,0,2,2,0,sevoflurane,3\nC,10,0.6,0,0.4,sevoflurane,2.5\nC,60,0.6,0,0.4,sevoflurane,2.5\n"
     )
-    row = audit(log).cases.iloc[0]
+    row = audit(log_from_text(log)).cases.iloc[0]
     assert row["agent_liquid_ml"] == pytest.approx(mag(t["agent_liquid"], "mL"), rel=1e-9)
     assert row["nitrous_oxide_l"] == pytest.approx(mag(t["nitrous_oxide"], "L"), rel=1e-9)
     delivered = mag(t["agent_liquid"], "mL") * mag(AGENTS["sevoflurane"].liquid_density, "g/mL")

@@ -141,7 +141,7 @@ PRODUCERS: dict[str, Callable[[], set[str]]] = {
     "DIAL_AT_MAXIMUM": case(
         "sevoflurane",
         {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "2 MAC"},
-        {"duration": "60 min", "oxygen": "0.3 L/min", "end_tidal_target": "2 MAC"},
+        {"duration": "60 min", "oxygen": "1 L/min", "end_tidal_target": "2 MAC"},
     ),
     "FLOWMETER_ACCURACY": case(
         "sevoflurane",
@@ -214,6 +214,10 @@ PRODUCERS: dict[str, Callable[[], set[str]]] = {
         block="30 min",
     ),
     "POLICY_CASE_WARNINGS": policy(SEVO_ROWS, FULL, fresh_gas_flow="0.2 L/min", block="30 min"),
+    "TIME_NOT_ELAPSED": audit("A,0,1,1,0,sevoflurane,2\nA,10,1,1,0,sevoflurane,2\nA,1700000000,1,1,0,sevoflurane,2\n"),
+    "PATIENT_VALUE_VARIES": audit(
+        "A,0,1,1,0,sevoflurane,2,70\nA,10,1,1,0,sevoflurane,2,80\n", AUDIT_HEADER + ",patient_weight"
+    ),
     "CASES_SKIPPED": policy("A,0,1,1,0,,0\nA,60,1,1,0,,0\n", AUDIT_HEADER, fresh_gas_flow="0.5 L/min", block="30 min"),
     # The same code from its other emitters ("CODE/emitter"): each emission is produced by a test.
     "INSPIRED_OXYGEN_LOW/flow floor": floor("sevoflurane", LOW_O2),
@@ -227,7 +231,7 @@ PRODUCERS: dict[str, Callable[[], set[str]]] = {
     "VOLUME_DEFICIT/flow floor": floor(
         "sevoflurane", {"duration": "30 min", "oxygen": "0.1 L/min", "vaporizer": "2 %"}
     ),
-    "VOLUME_DEFICIT/forecast": forecast(maintenance('maintenance_flow = "0.1 L/min"\n')),
+    "VOLUME_DEFICIT/forecast": forecast(maintenance('maintenance_flow = "0.1 L/min"\noxygen_fraction = "100 %"\n')),
     "TARGET_NOT_REACHED/flow floor": floor(
         "sevoflurane", {"duration": "10 min", "oxygen": "0.5 L/min", "end_tidal_target": "2 MAC"}
     ),
@@ -346,7 +350,7 @@ def test_every_code_literal_in_the_package_is_registered():
 
 
 #: Upper-snake names the documents show that are constants, not codes.
-NOT_CODES = {"CO2E_BASES", "GAS_VOLUME_REFERENCE"}
+NOT_CODES = {"CO2E_BASES", "GAS_VOLUME_REFERENCE", "P_QT", "P_VT", "P_DIFF", "P_DONOR"}
 
 
 def test_every_code_the_documents_name_is_registered():
