@@ -113,7 +113,9 @@ CLOSED_CIRCUIT_CV = 1.32 / 5.85
 @pytest.mark.parametrize(
     "name",
     [
-        pytest.param(n, marks=pytest.mark.xfail(strict=True, reason="known gap, issue 15 open: early uptake above Lowe"))
+        pytest.param(
+            n, marks=pytest.mark.xfail(strict=True, reason="known gap, issue 15 open: early uptake above Lowe")
+        )
         for n in ("sevoflurane", "isoflurane")
     ]
     + ["desflurane"],
