@@ -168,7 +168,7 @@ def render(rows: list[dict], when: str, command: str = COMMAND, consistency: lis
             "## Consistency: the code against itself",
             "",
             "Checks that compare the code with itself, not with the world: a formula re-evaluated by "
-            "hand, scipy or CoolProp on the same equations the code uses, a transcription of a table, the "
+            "hand, scipy or CoolProp on the same equations the code uses, a table copied from its source, the "
             "model against its own sea-level or reference run. They guard against slips, not against a "
             "wrong model.",
             "",
