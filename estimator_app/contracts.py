@@ -12,7 +12,6 @@ demo folder's files for a demo), by name; a name is never opened as a path on th
 from __future__ import annotations
 
 import tempfile
-import tomllib
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -20,6 +19,7 @@ from typing import Any
 
 import tomli_w
 
+from estimator.contracts import toml_from_text
 from estimator.errors import InputError
 
 #: The demo inputs the app opens on: the repository's demo_cases/ folder (invented sites and cases).
@@ -43,13 +43,12 @@ def _clean(value: Any) -> Any:
 
 
 def parse_toml(text: str, field: str) -> dict[str, Any]:
-    """A TOML document from text; InputError naming ``field`` if it is not TOML."""
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(field, "(file)", f"valid TOML ({exc})") from None
-    except RecursionError:
-        raise InputError(field, "(file)", "TOML nested at most a few levels deep") from None
+    """A TOML document from text; InputError naming ``field`` if it is not TOML.
+
+    The command line's one TOML reader (:func:`estimator.contracts.toml_from_text`), so an uploaded
+    file's error reads as the command line's and never quotes the file.
+    """
+    return toml_from_text(text, field)
 
 
 def referenced(kind: str, doc: dict[str, Any]) -> list[str]:
