@@ -141,7 +141,7 @@ PRODUCERS: dict[str, Callable[[], set[str]]] = {
     "DIAL_AT_MAXIMUM": case(
         "sevoflurane",
         {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "2 MAC"},
-        {"duration": "60 min", "oxygen": "1 L/min", "end_tidal_target": "2 MAC"},
+        {"duration": "60 min", "oxygen": "0.5 L/min", "end_tidal_target": "2 MAC"},
     ),
     "FLOWMETER_ACCURACY": case(
         "sevoflurane",

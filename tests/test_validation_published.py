@@ -7,9 +7,10 @@ scenario with the public API (``estimator.scenario_from_dict`` and ``estimator.s
 same quantity from the result and compares it with the band derived from the study's own
 between-patient spread (see the header of the data file). Every row is written to the validation
 report; the issue's named targets (Eger 1997 FI/FA at 8 h, Coetzee & Stewart 2002 desflurane
-end-tidal/fresh gas) are asserted row by row, the others together: at least 90 % of the rows with a
-published spread lie inside it. Nothing is fitted here; the model's parameters come from
-``estimator/data`` only.
+end-tidal/fresh gas) are asserted row by row, the others together: at least 90 % of the held-out rows
+with a published spread lie inside it. One model parameter, the intertissue diffusion clearance, was
+fitted to the studies named in the data file's ``fit_half`` (and nothing else); their rows are reported
+as the fit set and do not count as validation. Nothing is fitted here.
 """
 
 from __future__ import annotations
@@ -28,6 +29,8 @@ import estimator
 DATA = Path(__file__).parent / "data" / "published" / "studies.toml"
 TABLE = tomllib.loads(DATA.read_text(encoding="utf-8"))
 ROWS: list[dict[str, Any]] = [r for r in TABLE["rows"] if r.get("used", True)]
+#: Studies the intertissue clearance was fitted to (estimator/data/agents.toml, intertissue_rate).
+FIT_HALF = frozenset(TABLE["fit_half"])
 #: Share of the scored rows that must lie inside their published spread (issue 15).
 REQUIRED_SHARE = 0.90
 
@@ -146,6 +149,8 @@ def _record(row: dict[str, Any], outcome: dict[str, Any]) -> None:
     study = TABLE["studies"][row["study"]]
     b = outcome["band"]
     tolerance = "not scored (no spread reported)" if b is None else f"{b[0]:.4g} to {b[1]:.4g}: {b[2]}"
+    if row["study"] in FIT_HALF:
+        tolerance += " [fit set: the intertissue clearance was fitted to this study; not validation]"
     record(
         row["quantity"],
         outcome["value"],
@@ -162,10 +167,10 @@ def _record(row: dict[str, Any], outcome: dict[str, Any]) -> None:
 #: the day the model lands inside the published band the test reports it. Figures in docs/VALIDATION.md.
 KNOWN_GAP = pytest.mark.xfail(
     strict=True,
-    reason="known gap, issue 15 open: too little late uptake (Eger 1997 8-h FI/FA) and desflurane "
-    "end-tidal/fresh gas above 0.9 at 1 and 3 L/min after an hour",
+    reason="known gap, issue 15 open: too little late uptake (Eger 1997 8-h FI/FA, bounded by the published "
+    "tissue capacities: docs/MODEL_LATE_UPTAKE.md) and desflurane end-tidal/fresh gas above 0.9 at 3 L/min after an hour",
 )
-KNOWN_GAP_ROWS = {("eger1997", "FI/FA at 8 h"), ("coetzee2002", "3 L/min"), ("coetzee2002", "1 L/min")}
+KNOWN_GAP_ROWS = {("eger1997", "FI/FA at 8 h"), ("coetzee2002", "3 L/min")}
 
 
 def _param(row):
@@ -184,22 +189,27 @@ def test_published_row(row):
         assert lo <= outcome["value"] <= hi, (row["quantity"], outcome["value"], (lo, hi), how)
 
 
-@pytest.mark.xfail(strict=True, reason="known gap, issue 15 open: about 18-22 of 28 scored rows inside their spread")
+@pytest.mark.xfail(strict=True, reason="known gap, issue 15 open: 12 of 16 held-out scored rows inside their spread")
 def test_at_least_ninety_percent_of_rows_within_published_spread():
-    # Issue 15: at least 90 % of the rows with a published spread lie inside it.
-    outcomes = [evaluate(r) for r in ROWS]
-    scored = [o for o in outcomes if o["passed"] is not None]
-    inside = sum(o["passed"] for o in scored)
-    share = inside / len(scored)
+    # Issue 15: at least 90 % of the rows with a published spread lie inside it. Only the held-out
+    # rows count; the fit set is reported beside them.
+    counts = {}
+    for held_out in (True, False):
+        rows = [r for r in ROWS if (r["study"] not in FIT_HALF) == held_out]
+        scored = [o for o in (evaluate(r) for r in rows) if o["passed"] is not None]
+        counts[held_out] = (sum(o["passed"] for o in scored), len(scored))
+    fit_in, fit_n = counts[False]
+    inside, n = counts[True]
+    share = inside / n
     record(
-        "rows inside their published spread",
+        "held-out rows inside their published spread",
         share,
         f">= {REQUIRED_SHARE:.0%}",
         "tests/data/published/studies.toml",
-        f"{inside} of {len(scored)} scored rows",
+        f"{inside} of {n} held-out scored rows (fit set, not counted: {fit_in} of {fit_n})",
         share >= REQUIRED_SHARE,
     )
-    assert share >= REQUIRED_SHARE, f"{inside} of {len(scored)} rows inside their published spread"
+    assert share >= REQUIRED_SHARE, f"{inside} of {n} held-out rows inside their published spread"
 
 
 def test_table_covers_the_issue_scope():
