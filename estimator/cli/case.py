@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from ..totals_table import totals_rows
 from . import CAUTION, app
 from .outputs import output_paths, write_output
 
@@ -52,31 +53,18 @@ def summary(result, band=None) -> str:
         f"{sc.title or 'Case'}: {sc.agent.name}, {t['duration'].to('min').magnitude:.0f} min, "
         f"mean fresh-gas flow {t['mean_fresh_gas_flow'].to('L/min').magnitude:.2f} L/min"
     ]
-    rows = [
-        ("liquid agent", t["agent_liquid"].to("mL").magnitude, "mL"),
-        ("agent vapour delivered", t["agent_vapour"].to("L").magnitude, "L"),
-        ("  taken up by the patient", t["agent_uptake"].to("L").magnitude, "L"),
-        ("  vented", t["agent_vented"].to("L").magnitude, "L"),
-        ("oxygen", t["oxygen"].to("L").magnitude, "L"),
-        ("air", t["air"].to("L").magnitude, "L"),
-        ("nitrous oxide", t["nitrous_oxide"].to("L").magnitude, "L"),
-        ("CO2 absorbed", t["co2_absorbed"].to("L").magnitude, "L"),
-        ("absorbent used", t["absorbent"].to("g").magnitude, "g"),
-        ("MAC-hours", t["mac_hours"].to("MAC_hour").magnitude, ""),
-        ("CO2e (IPCC AR6 GWP100)", t["co2e"].to("kg").magnitude, "kg"),
-    ]
-    keys = {"liquid agent": "agent_liquid", "oxygen": "oxygen", "nitrous oxide": "nitrous_oxide"}
-    keys["CO2e (IPCC AR6 GWP100)"] = "co2e"
+    keys = {"agent_liquid", "oxygen", "nitrous_oxide", "co2e"}
     lines += [
-        f"  {name:<28}{value:10.2f} {unit}"
-        + (f"   ({band.band_text(keys[name])})" if band is not None and name in keys else "")
-        for name, value, unit in rows
+        f"  {r.label:<30}{r.value:10.2f} {r.unit}"
+        + (f"   ({band.band_text(r.key)})" if band is not None and r.key in keys else "")
+        for r in totals_rows(result)[:-2]
+        if r.key != "duration"
     ]
-    lines.append(f"  {'lowest inspired O2':<28}{100 * result.minimum_inspired_oxygen.magnitude:10.1f} %")
+    lines.append(f"  {'lowest inspired O2':<30}{100 * result.minimum_inspired_oxygen.magnitude:10.1f} %")
     if result.cost:
         cost = result.cost
         lines.append(
-            f"  {'cost':<28}{cost['total']:10.2f} {cost['currency']} (agent {cost['agent']:.2f}, "
+            f"  {'cost':<30}{cost['total']:10.2f} {cost['currency']} (agent {cost['agent']:.2f}, "
             f"gases {cost['gases']:.2f}, absorbent {cost['absorbent']:.2f})"
         )
     for ph in result.phases:

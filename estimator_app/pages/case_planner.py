@@ -9,27 +9,13 @@ import pandas as pd
 import streamlit as st
 
 from estimator.properties import AGENTS
+from estimator.totals_table import totals_rows
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import spread_view, state
 from ..charts import show, time_course
 from ..common import downloads, flow_factor, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
-
-TOTAL_ROWS = (  # key, label, unit shown
-    ("agent_liquid", "liquid agent", "mL"),
-    ("agent_vapour", "agent vapour delivered", "L"),
-    ("agent_uptake", "agent taken up by the patient", "L"),
-    ("agent_vented", "agent vented", "L"),
-    ("oxygen", "oxygen", "L"),
-    ("air", "air", "L"),
-    ("nitrous_oxide", "nitrous oxide", "L"),
-    ("co2_absorbed", "CO2 absorbed", "L"),
-    ("absorbent", "absorbent used", "g"),
-    ("mac_hours", "MAC-hours", "MAC_hour"),
-    ("co2e", "CO2e (IPCC AR6 GWP100)", "kg"),
-    ("duration", "duration", "min"),
-)
 
 
 def phase_fields(fu: str) -> list[Field]:
@@ -125,23 +111,9 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
 
 
 def totals_frame(result: Any) -> pd.DataFrame:
-    t = result.totals
-    rows = [
-        {"quantity": label, "value": float(t[k].to(u).magnitude), "unit": u.replace("MAC_hour", "MAC h")}
-        for k, label, u in TOTAL_ROWS
-        if k in t
-    ]
-    rows.append(
-        {
-            "quantity": "mean fresh-gas flow",
-            "value": float(t["mean_fresh_gas_flow"].to(unit("flow")).magnitude),
-            "unit": unit("flow"),
-        }
-    )
-    rows.append(
-        {"quantity": "lowest inspired O2", "value": 100 * float(result.minimum_inspired_oxygen.magnitude), "unit": "%"}
-    )
-    return pd.DataFrame(rows)
+    """The totals table of ``lowflow case`` (estimator.totals_table), flows in the display unit."""
+    rows = totals_rows(result, unit("flow"))
+    return pd.DataFrame([{"quantity": r.label, "value": r.value, "unit": r.unit} for r in rows])
 
 
 def outputs(result: Any) -> None:
