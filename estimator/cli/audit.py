@@ -26,7 +26,6 @@ from pathlib import Path
 import typer
 
 from ..errors import InputError
-from ..jsonout import dumps
 from . import CAUTION, app
 from .outputs import option_names, output_paths, write_output
 
@@ -134,6 +133,8 @@ def audit_command(
         if flag in outputs:
             written.append(str(write_output(flag, outputs[flag], lambda p, w=writer: w(result, p))))
     if json_out:
+        from ..jsonout import dumps
+
         typer.echo(dumps(result.to_json()))
         return
     _human(result, written)

@@ -14,16 +14,15 @@ true flow of oxygen at reading 10 L/min (tube calibrated for oxygen at 20 degC, 
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import typer
 
-from ..flowmeter import TrueFlow, true_flow
-from ..jsonout import dumps
-from ..site import site_from_inputs
-from ..units import parse_quantity
 from . import CAUTION, app
 from .outputs import option_names
+
+if TYPE_CHECKING:
+    from ..flowmeter import TrueFlow
 
 #: Model field names -> the option that sets them, so an error names what the user typed.
 _OPTIONS = {
@@ -63,6 +62,10 @@ def flowmeter_report(
     >>> r["regime"], round(r["true_flow_ambient"].magnitude, 6)
     ('turbulent', 5.0)
     """
+    from ..flowmeter import true_flow
+    from ..site import site_from_inputs
+    from ..units import parse_quantity
+
     with option_names(_OPTIONS):
         site = site_from_inputs(elevation, ambient_pressure, temperature)
         r = true_flow(
@@ -154,5 +157,7 @@ def flowmeter_command(
     json_out: bool = typer.Option(False, "--json", help="Print JSON (quantities as magnitude and units)."),
 ) -> None:
     """True flow behind a float-flowmeter reading at the site's pressure and temperature."""
+    from ..jsonout import dumps
+
     d = flowmeter_report(reading, calibrated_for, gas, elevation, ambient_pressure, temperature, purity, back_pressure)
     typer.echo(dumps(d) if json_out else _human(d))

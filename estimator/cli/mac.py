@@ -17,10 +17,6 @@ from typing import Any
 
 import typer
 
-from ..jsonout import dumps
-from ..mac import SOURCE, end_tidal_for_total_mac, mac_at_age, parse_fraction
-from ..site import site_from_inputs
-from ..units import Q_
 from . import CAUTION, app
 from .outputs import option_names
 
@@ -28,6 +24,8 @@ _FIELDS = {"age_field": "--age", "agent_field": "--agent", "pressure_field": "--
 
 
 def _site(elevation: Any, ambient_pressure: Any) -> Any:
+    from ..site import site_from_inputs
+
     # name the CLI option, not the scenario-file field
     with option_names({"site.elevation": "--elevation", "site.ambient_pressure": "--ambient-pressure"}):
         return site_from_inputs(elevation=elevation, ambient_pressure=ambient_pressure)
@@ -63,6 +61,9 @@ def mac_report(
     >>> r["mac"].to("percent").magnitude, r["end_tidal_for_total"] is None
     (1.17, True)
     """
+    from ..mac import SOURCE, end_tidal_for_total_mac, mac_at_age, parse_fraction
+    from ..units import Q_
+
     site = _site(elevation, ambient_pressure)
     pressure = site.ambient_pressure
     m = mac_at_age(agent, age, pressure, **_FIELDS)
@@ -140,5 +141,7 @@ def mac_command(
     json_out: bool = typer.Option(False, "--json", help="Print JSON (quantities as magnitude and units)."),
 ) -> None:
     """Age-corrected MAC (Mapleson 1996) and the end-tidal agent for a total MAC with nitrous oxide."""
+    from ..jsonout import dumps
+
     r = mac_report(agent, age, nitrous_oxide, total, ambient_pressure, elevation)
     typer.echo(dumps(r) if json_out else _human(r))

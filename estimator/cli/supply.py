@@ -3,14 +3,15 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 
-from ..jsonout import dumps
-from ..supply import SupplyReport, load_inventory, plan_supply
 from . import CAUTION, app
 from .outputs import option_names
+
+if TYPE_CHECKING:
+    from ..supply import SupplyReport
 
 
 def _amount(q) -> str:  # noqa: ANN001 - pint quantity or None
@@ -62,6 +63,9 @@ def supply(
     ] = None,
 ) -> None:
     """How long the stocks last, which runs out first (the bottleneck) and when to reorder."""
+    from ..jsonout import dumps
+    from ..supply import load_inventory, plan_supply
+
     inventory = load_inventory(file)
     with option_names({"plan.start": "--start" if start is not None else None}):
         report = plan_supply(inventory, start=start)
