@@ -39,12 +39,25 @@ import pint
 from .constants import REFERENCE_TEMPERATURE_C, STANDARD_PRESSURE_KPA
 from .errors import InputError
 
-ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=None)
-ureg.define("MAC = [anaesthetic_potency]")
-ureg.define("MAC_hour = MAC * hour = MACh")
-ureg.define("breath = [] = breaths")
-ureg.formatter.default_format = "~P"
-pint.set_application_registry(ureg)
+
+def _registry() -> pint.UnitRegistry:
+    """The package's own registry; pint's global application registry is left alone.
+
+    Pint's parsed definition files are cached in pint's user cache folder (about 0.1 s saved at every
+    start); where that folder cannot be used the registry is built without a cache.
+    """
+    try:
+        reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
+    except Exception:  # noqa: BLE001 - an unusable cache folder must never stop a run
+        reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=None)
+    reg.define("MAC = [anaesthetic_potency]")
+    reg.define("MAC_hour = MAC * hour = MACh")
+    reg.define("breath = [] = breaths")
+    reg.formatter.default_format = "~P"
+    return reg
+
+
+ureg = _registry()
 Q_ = ureg.Quantity
 Quantity = pint.Quantity
 

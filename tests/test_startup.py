@@ -23,3 +23,17 @@ def test_version_runs_without_the_numeric_stack():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     lines = out.strip().splitlines()
     assert lines[0].startswith("lowflow ") and len(lines) == 1, out
+
+
+def test_importing_the_package_leaves_pint_global_state_alone():
+    # A user's own pint quantities must keep working beside ours: no application registry is set
+    # and pint's default format is untouched (the app sets the registry in its own process only).
+    code = (
+        "import pint\nbefore = pint.get_application_registry().get()\n"
+        "import estimator, estimator.units, estimator.engine\n"
+        "after = pint.get_application_registry().get()\n"
+        "try:\n    after.Unit('MAC')\n    known = True\nexcept Exception:\n    known = False\n"
+        "print(before is after, known, after.formatter.default_format == before.formatter.default_format)"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["True", "False", "True"], out
