@@ -41,7 +41,7 @@ LAYERS: dict[str, tuple[str, ...]] = {
         "cylinders",
     ),
     "numerics": ("rkc",),
-    "accounting": ("accounting", "carbon", "costs"),
+    "accounts": ("accounting", "carbon", "costs"),
     "inputs": (
         "scenario",
         "inventory_file",
