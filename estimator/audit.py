@@ -68,7 +68,7 @@ from .costs import Prices, cost_table
 from .errors import InputError
 from .flow_classes import FLOW_CLASS_SOURCE, FLOW_CLASSES, flow_class
 from .limits import INSPIRED_OXYGEN_FLOOR
-from .mac import mapleson_factor
+from .mac_age import mapleson_factor
 from .properties import AGENTS, CO2E_BASES
 from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE, parse_quantity
 

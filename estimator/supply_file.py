@@ -1,5 +1,6 @@
-r"""Small parsers of the inventory's values, and the stock tables turned into supplies (cylinder
-contents from :mod:`estimator.cylinders`). The schema and loaders are in
+r"""Small parsers of the inventory's values, and its stock tables turned into supplies.
+
+Cylinder contents come from :mod:`estimator.cylinders`. The schema and loaders are in
 :mod:`estimator.inventory_file` (re-exported here).
 
 Examples
