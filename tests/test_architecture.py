@@ -155,6 +155,15 @@ def test_tarjan_finds_a_three_module_cycle_and_leaves_a_chain_alone():
     assert sorted(map(sorted, comps)) == [["a", "b", "c"], ["d"], ["e"]]
 
 
+def test_lazy_imports_count_and_type_checking_imports_do_not():
+    tree = ast.parse(
+        "from typing import TYPE_CHECKING\nif TYPE_CHECKING:\n    import a\nelse:\n    import b\n"
+        "def f():\n    import c\n"
+    )
+    names = sorted(alias.name for node in _imports(tree) if isinstance(node, ast.Import) for alias in node.names)
+    assert names == ["b", "c"]
+
+
 def test_relative_submodule_import_points_at_the_submodule():
     graph = import_graph()
     assert "estimator.carbon" in graph["estimator.audit"]  # `from . import carbon`
