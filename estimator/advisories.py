@@ -1,5 +1,6 @@
-"""Safety advisories for a planned case: each with a code, plain words, what to monitor, and
-deference to local practice.
+"""Safety advisories for a planned case, each with a code, plain words and what to monitor.
+
+Every advisory defers to local practice.
 
 References
 ----------

@@ -55,7 +55,6 @@ Examples
 
 from __future__ import annotations
 
-import dataclasses
 from typing import Any
 
 import numpy as np
@@ -63,26 +62,17 @@ import pandas as pd
 
 from . import carbon
 from .audit_log import LogData, read_log
+from .audit_report import AuditResult, group_table, kpi_summary, totals_of
 from .closed_form import vapour_per_liquid
 from .costs import Prices, cost_table
 from .errors import InputError
+from .flow_classes import FLOW_CLASS_SOURCE, FLOW_CLASSES, flow_class
 from .limits import INSPIRED_OXYGEN_FLOOR
-from .mac import mapleson_factor
+from .mac_age import mapleson_factor
 from .properties import AGENTS, CO2E_BASES
 from .units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE, parse_quantity
 
 QUADRATURES = ("hold", "trapezoid")
-#: Flow classes by fresh-gas flow [L/min], upper bounds inclusive (Brattwall et al. 2012, Table 1;
-#: Baum and Aitkenhead 1995 for low, minimal and metabolic flow).
-FLOW_CLASSES = (
-    ("metabolic", 0.25),
-    ("minimal", 0.5),
-    ("low", 1.0),
-    ("medium", 2.0),
-    ("high", 4.0),
-    ("very high", float("inf")),
-)
-FLOW_CLASS_SOURCE = "Baum and Aitkenhead 1995; Brattwall et al. 2012"
 #: Minimum inspired O2 at low flow (the registry's INSPIRED_OXYGEN_FLOOR, Baum and Aitkenhead 1995).
 MIN_INSPIRED_OXYGEN = INSPIRED_OXYGEN_FLOOR
 UNITS = {
@@ -96,19 +86,6 @@ UNITS = {
 }
 
 
-def flow_class(flow_l_min: Any) -> Any:
-    """Flow class name(s) of fresh-gas flow(s) [L/min] (Brattwall et al. 2012).
-
-    >>> flow_class(0.5), flow_class(0.51), flow_class(6.0)
-    ('minimal', 'low', 'very high')
-    """
-    names = np.array([n for n, _ in FLOW_CLASSES], dtype=object)
-    edges = np.array([b for _, b in FLOW_CLASSES[:-1]])
-    idx = np.searchsorted(edges, np.asarray(flow_l_min, dtype=float), side="left")
-    out = names[idx]
-    return out if np.ndim(out) else str(out)
-
-
 def age_mac(agent_name: str, age_years: Any) -> np.ndarray:
     """MAC [fraction] of an agent at an age (Mapleson 1996), vectorised over ages.
 
@@ -117,51 +94,6 @@ def age_mac(agent_name: str, age_years: Any) -> np.ndarray:
     """
     mac40 = AGENTS[agent_name].mac40.to("dimensionless").magnitude
     return mac40 * np.asarray(mapleson_factor(np.asarray(age_years, dtype=float)))
-
-
-@dataclasses.dataclass(frozen=True)
-class AuditResult:
-    """Fresh-gas audit of a log.
-
-    Attributes
-    ----------
-    rows : dict
-        ``read``, ``used``, ``rejected``.
-    rejections : list of (line, reason)
-    cases, rooms, months : DataFrame
-        One row per case / room / month; units in column-name suffixes (``_ml``, ``_l``, ``_min``,
-        ``_kg`` CO2e, ``_l_min``) and costs in the currency of ``currency``.
-    totals, kpis : dict of plain floats (units in the key suffix)
-    basis : str
-    quadrature : str
-    currency : str or None
-    samples : DataFrame
-        The samples used, sorted per case (``case``, ``t_min`` from case start, flows in L/min,
-        ``setting``, ``end_tidal``, fractions 0-1), for the counterfactual.
-    notes, warnings : tuples
-    counterfactual : dict or None
-    """
-
-    rows: dict[str, int]
-    rejections: list[tuple[int, str]]
-    cases: pd.DataFrame
-    rooms: pd.DataFrame
-    months: pd.DataFrame
-    totals: dict[str, float]
-    kpis: dict[str, Any]
-    basis: str
-    quadrature: str
-    currency: str | None
-    samples: pd.DataFrame
-    notes: tuple[str, ...] = ()
-    warnings: tuple[tuple[str, str], ...] = ()
-    counterfactual: dict[str, Any] | None = None
-
-    def to_json(self) -> dict[str, Any]:
-        """JSON document of the audit (see the README for the keys)."""
-        from .audit_report import audit_json
-
-        return audit_json(self)
 
 
 def _weights(t: np.ndarray, same_next: np.ndarray, rule: str) -> tuple[np.ndarray, np.ndarray]:
@@ -348,8 +280,6 @@ def audit(
                 + ", ".join(map(str, cases.loc[single, "case_id"].head(10))),
             )
         )
-
-    from .audit_report import group_table, kpi_summary, totals_of
 
     notes = (
         f"quadrature: {quadrature} ({'sample and hold, left-rectangle rule' if quadrature == 'hold' else 'trapezoid rule'})",

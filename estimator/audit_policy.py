@@ -18,7 +18,8 @@ than one agent, or with flows beyond the engine's range are skipped and listed w
 engine takes about a second per case; ``max_cases`` re-runs only the first N cases (the rest are
 listed as skipped, and the savings are those of the cases re-run, never scaled up).
 
-The engine is called through ``runner`` (a callable taking the scenario as a dict and returning an
+The policy file (its TOML contract and the flows it sets) is :mod:`estimator.policy_file`,
+re-exported here. The engine is called through ``runner`` (a callable taking the scenario as a dict and returning an
 object with ``.totals`` and ``.warnings``), so a stand-in can take its place in tests.
 
 Examples
@@ -33,137 +34,29 @@ Examples
 from __future__ import annotations
 
 import math
-import os
 from collections.abc import Callable
-from dataclasses import asdict, dataclass
+from dataclasses import asdict
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
-from pydantic import BaseModel, ConfigDict, ValidationError
 
 from . import carbon
-from .contracts import input_error_from_validation, read_toml, toml_from_text
 from .costs import Prices, case_cost
 from .errors import InputError
-from .fields import quantity
-from .units import GAS_VOLUME_REFERENCE, check_range, parse_quantity
+from .policy_file import (
+    ENGINE_MAX_FLOW,
+    MAX_CASES,
+    Policy,
+    PolicyInput,
+    load_policy,
+    parse_policy,
+    policy_flows,
+    policy_from_text,
+)
+from .units import GAS_VOLUME_REFERENCE
 
 if TYPE_CHECKING:
-    from .audit import AuditResult
-
-#: The engine's flowmeter range per gas [L/min] (scenario contract).
-ENGINE_MAX_FLOW = 15.0
-#: Most cases re-run in one counterfactual: about a second each, so a day of computing (practical
-#: limit, no source).
-MAX_CASES = 100_000
-
-
-class PolicyInput(BaseModel):
-    """The ``[policy]`` table of a policy file (``extra = "forbid"``)."""
-
-    model_config = ConfigDict(extra="forbid", arbitrary_types_allowed=True)
-    name: str = "low-flow policy"
-    # The engine's flow range per gas, from 0.1 L/min (below any metered low-flow practice).
-    fresh_gas_flow: quantity(
-        "flow", 0.1, ENGINE_MAX_FLOW, "L/min", bare_unit="L/min", keep_text=True, description="policy fresh-gas flow"
-    ) = "0.5 L/min"
-    # Up to 10 h of recorded wash-in kept as recorded (longer than any induction; no source).
-    maintenance_after: quantity("time", 0.0, 600.0, "min", bare_unit="min", keep_text=True) | None = None
-    # 21 % (air) to 100 % oxygen.
-    minimum_oxygen_share: quantity("fraction", 0.21, 1.0, "dimensionless", keep_text=True) = "60 %"
-    # Blocks from 1 min (the log's resolution) to 2 h (practical limits, no source).
-    block: quantity("time", 1.0, 120.0, "min", bare_unit="min", keep_text=True) = "15 min"
-    baseline: str = "recorded"
-    # The scenario contract's patient ranges.
-    default_weight: quantity("mass", 0.5, 300.0, "kg", bare_unit="kg", keep_text=True) = "70 kg"
-    default_age: quantity("age", 0.0, 120.0, "year", bare_unit="year", keep_text=True) = "40 years"
-    max_cases: int | None = None
-
-
-@dataclass(frozen=True)
-class Policy:
-    """A validated policy: flows [L/min], times [min], shares 0-1, weight [kg], age [years]."""
-
-    name: str
-    fresh_gas_flow: float
-    minimum_oxygen_share: float
-    block: float
-    baseline: str
-    default_weight: float
-    default_age: float
-    maintenance_after: float | None = None
-    max_cases: int | None = None
-
-
-def parse_policy(data: dict[str, Any]) -> Policy:
-    """Validate a ``[policy]`` mapping (or a whole policy document with a ``policy`` table)."""
-    data = data.get("policy", data)
-    try:
-        raw = PolicyInput.model_validate(data)
-    except ValidationError as exc:
-        raise input_error_from_validation(exc, "policy", PolicyInput) from None
-
-    def q(value: str, field: str, dim: str, unit: str, lo: float, hi: float) -> float:
-        v = parse_quantity(value, f"policy.{field}", dim, default_unit=None if dim == "fraction" else unit)
-        check_range(v.to(unit), f"policy.{field}", lo, hi, value=value)
-        return float(v.to(unit).magnitude)
-
-    if raw.max_cases is not None and not 1 <= raw.max_cases <= MAX_CASES:
-        raise InputError("policy.max_cases", raw.max_cases, f"a whole number of cases, 1 to {MAX_CASES}")
-    if raw.baseline not in ("recorded", "engine"):
-        raise InputError("policy.baseline", raw.baseline, "recorded or engine")
-    return Policy(
-        name=raw.name,
-        fresh_gas_flow=q(raw.fresh_gas_flow, "fresh_gas_flow", "flow", "L/min", 0.1, ENGINE_MAX_FLOW),
-        minimum_oxygen_share=q(
-            raw.minimum_oxygen_share, "minimum_oxygen_share", "fraction", "dimensionless", 0.21, 1.0
-        ),
-        block=q(raw.block, "block", "time", "min", 1.0, 120.0),
-        baseline=raw.baseline,
-        default_weight=q(raw.default_weight, "default_weight", "mass", "kg", 0.5, 300.0),
-        default_age=q(raw.default_age, "default_age", "age", "year", 0.0, 120.0),
-        maintenance_after=None
-        if raw.maintenance_after is None
-        else q(raw.maintenance_after, "maintenance_after", "time", "min", 0.0, 600.0),
-        max_cases=raw.max_cases,
-    )
-
-
-def policy_from_text(text: str) -> Policy:
-    """Parse a policy from TOML text (a ``[policy]`` table, or its keys at the top level)."""
-    return parse_policy(toml_from_text(text, "policy"))
-
-
-def load_policy(path: str | os.PathLike[str]) -> Policy:
-    """Read a policy TOML file (always a path, never text).
-
-    >>> load_policy("no/such/policy.toml")
-    Traceback (most recent call last):
-    ...
-    estimator.errors.InputError: policy: got 'no/such/policy.toml'; expected an existing TOML policy file
-    """
-    return parse_policy(read_toml(path, "policy", "an existing TOML policy file"))
-
-
-def policy_flows(o2: float, air: float, n2o: float, policy: Policy) -> tuple[float, float, float]:
-    """Scale a recorded mix to the policy flow and keep O2 at or above the policy's minimum share.
-
-    A recorded total at or below the policy flow is returned unchanged.
-    """
-    total = o2 + air + n2o
-    if total <= policy.fresh_gas_flow or total <= 0:
-        return o2, air, n2o
-    k = policy.fresh_gas_flow / total
-    o2, air, n2o = o2 * k, air * k, n2o * k
-    deficit = policy.minimum_oxygen_share * policy.fresh_gas_flow - o2
-    if deficit > 0:
-        take = min(deficit, air)
-        air -= take
-        o2 += take
-        take = min(deficit - take, n2o)
-        n2o -= take
-        o2 += take
-    return o2, air, n2o
+    from .audit_report import AuditResult
 
 
 def _blocks(t0: float, t1: float, length: float) -> list[tuple[float, float]]:
@@ -399,3 +292,18 @@ def counterfactual(
         "gas_volume_reference": GAS_VOLUME_REFERENCE,
         "warnings": warnings,
     }
+
+
+__all__ = [
+    "ENGINE_MAX_FLOW",
+    "MAX_CASES",
+    "Policy",
+    "PolicyInput",
+    "case_scenarios",
+    "counterfactual",
+    "engine_runner",
+    "load_policy",
+    "parse_policy",
+    "policy_flows",
+    "policy_from_text",
+]

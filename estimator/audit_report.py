@@ -1,6 +1,6 @@
-"""Summaries of a fresh-gas audit: totals, KPIs, room and month tables, and the JSON document.
+"""Summaries of a fresh-gas audit: the result record, totals, KPIs, room and month tables, and JSON.
 
-Everything here works on the per-case table of :func:`estimator.audit.audit` (plain floats, units
+:class:`AuditResult` is the record :func:`estimator.audit.audit` returns. Everything here works on the per-case table of :func:`estimator.audit.audit` (plain floats, units
 in the column-name suffix) so that large logs stay fast; quantities appear only in the JSON, as
 ``{"magnitude", "units"}``, and every CO2e figure also carries its ``basis``.
 
@@ -18,17 +18,16 @@ Examples
 
 from __future__ import annotations
 
+import dataclasses
 import math
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from .flow_classes import FLOW_CLASS_SOURCE, FLOW_CLASSES, flow_class
 from .properties import CO2E_BASES
 from .units import GAS_VOLUME_REFERENCE
-
-if TYPE_CHECKING:
-    from .audit import AuditResult
 
 SUM_COLUMNS = (
     "duration_min",
@@ -54,6 +53,49 @@ UNIT_OF_SUFFIX = (
     ("_l", "liter"),
     ("_year", "year"),
 )
+
+
+@dataclasses.dataclass(frozen=True)
+class AuditResult:
+    """Fresh-gas audit of a log.
+
+    Attributes
+    ----------
+    rows : dict
+        ``read``, ``used``, ``rejected``.
+    rejections : list of (line, reason)
+    cases, rooms, months : DataFrame
+        One row per case / room / month; units in column-name suffixes (``_ml``, ``_l``, ``_min``,
+        ``_kg`` CO2e, ``_l_min``) and costs in the currency of ``currency``.
+    totals, kpis : dict of plain floats (units in the key suffix)
+    basis : str
+    quadrature : str
+    currency : str or None
+    samples : DataFrame
+        The samples used, sorted per case (``case``, ``t_min`` from case start, flows in L/min,
+        ``setting``, ``end_tidal``, fractions 0-1), for the counterfactual.
+    notes, warnings : tuples
+    counterfactual : dict or None
+    """
+
+    rows: dict[str, int]
+    rejections: list[tuple[int, str]]
+    cases: pd.DataFrame
+    rooms: pd.DataFrame
+    months: pd.DataFrame
+    totals: dict[str, float]
+    kpis: dict[str, Any]
+    basis: str
+    quadrature: str
+    currency: str | None
+    samples: pd.DataFrame
+    notes: tuple[str, ...] = ()
+    warnings: tuple[tuple[str, str], ...] = ()
+    counterfactual: dict[str, Any] | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        """JSON document of the audit (see the README for the keys)."""
+        return audit_json(self)
 
 
 def _pooled(df: pd.DataFrame, column: str) -> float:
@@ -106,8 +148,6 @@ def totals_of(cases: pd.DataFrame) -> dict[str, float]:
 
 def kpi_summary(cases: pd.DataFrame, class_time: np.ndarray, after: float) -> dict[str, Any]:
     """Pooled KPIs over all cases: maintenance flow, low-flow shares, flow classes, MAC-hours."""
-    from .audit import FLOW_CLASS_SOURCE, FLOW_CLASSES, flow_class
-
     total = float(class_time.sum())
     mean = _pooled(cases, "mean_maintenance_flow_l_min") if len(cases) else math.nan
     mh = cases["mac_hours"].to_numpy() if len(cases) else np.zeros(0)

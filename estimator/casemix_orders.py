@@ -21,7 +21,7 @@ from typing import Any
 
 import pint
 
-from .cylinders import compressed_cylinder, nitrous_oxide_cylinder
+from .cylinder_entry import cylinder_from_fields
 from .errors import InputError
 from .properties import AGENTS
 from .units import parse_quantity
@@ -58,27 +58,7 @@ def absorbent_pack_kg(orders: Any) -> float:
 def cylinder_usable(size: Any, gas_name: str, where: str) -> pint.Quantity:
     """Usable contents of one cylinder of a size, free gas at 15 degC and 101.325 kPa [L]
     (:mod:`estimator.cylinders`: real-gas for compressed gases, by weight for nitrous oxide)."""
-    if gas_name == "nitrous_oxide":
-        if size.gross_weight is None or size.tare_weight is None:
-            raise InputError(
-                f"{where}.gross_weight", size.gross_weight, "gross_weight and tare_weight of a full cylinder"
-            )
-        c = nitrous_oxide_cylinder(
-            size.gross_weight,
-            size.tare_weight,
-            size.temperature,
-            reserve_weight=size.reserve_weight,
-            field_prefix=where,
-        )
-    else:
-        if size.water_capacity is None or size.pressure is None:
-            raise InputError(
-                f"{where}.water_capacity", size.water_capacity, "water_capacity and pressure of a full cylinder"
-            )
-        c = compressed_cylinder(
-            gas_name, size.water_capacity, size.pressure, size.temperature, size.reserve_pressure, field_prefix=where
-        )
-    return c.usable.to("L")
+    return cylinder_from_fields(size, gas_name, where).usable.to("L")
 
 
 def check_orders(orders: Any) -> None:

@@ -1,5 +1,7 @@
-"""Shared machinery of every TOML input contract: one reader, one way to name a file inside a file,
-and one converter from pydantic's errors to :class:`~estimator.errors.InputError`.
+"""Shared machinery of every TOML input contract: reader, file references and error conversion.
+
+One reader, one way to name a file inside a file, and one converter from pydantic's errors to
+:class:`~estimator.errors.InputError`.
 
 Text is never a path. A loader takes a path (``str`` or ``os.PathLike``) and reads that file; a
 ``*_from_text`` function parses text. Which one runs is decided by the function called, never by

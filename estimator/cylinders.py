@@ -14,11 +14,12 @@ law (CoolProp density) and a warning says so.
 
 References
 ----------
-.. [1] Bell IH, Wronski J, Quoilin S, Lemort V. Pure and pseudo-pure fluid thermophysical property
-   evaluation and the open-source thermophysical property library CoolProp. Ind Eng Chem Res
-   2014;53:2498-508 (equations of state of Schmidt and Wagner 1985 for oxygen, Lemmon et al. 2000
-   for air, Span and Wagner 2003 for nitrous oxide).
+.. [1] Bell IH et al. Ind Eng Chem Res 2014;53:2498-508 (CoolProp; the equations of state are
+   listed in :mod:`estimator.real_gas`).
 .. [2] ISO 13769, gas cylinders - stamp marking (water capacity and working pressure at 15 degC).
+
+The real-gas properties are in :mod:`estimator.real_gas` and the supply data file is read by
+:mod:`estimator.supply_values`; both are re-exported here.
 
 Examples
 --------
@@ -31,18 +32,33 @@ True
 
 from __future__ import annotations
 
-import tomllib
-from dataclasses import dataclass, field
-from functools import cache
-from importlib import resources
 from typing import Any
 
 import pint
 
-from .constants import GAS_CONSTANT
+from .cylinder_state import (
+    COMPRESSED_GASES,
+    MAX_PRESSURE_BAR,
+    TEMPERATURE_RANGE,
+    CylinderContents,
+    cylinder_count,
+    cylinder_temperature,
+)
 from .errors import InputError
 from .limits import NITROUS_OXIDE_GAUGE_SHARE
-from .properties import CONFIDENCE_CODES, DataError
+from .real_gas import (
+    COOLPROP_FLUIDS,
+    compressibility,
+    critical_temperature,
+    fluid_name,
+    free_gas,
+    litres_per_kg,
+    molar_density,
+    props_si,
+    reference_molar_volume,
+    vapour_pressure,
+)
+from .supply_values import supply_data
 from .units import (
     Q_,
     REFERENCE_PRESSURE,
@@ -52,190 +68,6 @@ from .units import (
     parse_pressure,
     parse_quantity,
 )
-
-#: CoolProp fluid names of the gases a cylinder may hold.
-COOLPROP_FLUIDS = {"oxygen": "Oxygen", "air": "Air", "nitrous_oxide": "NitrousOxide"}
-COMPRESSED_GASES = ("oxygen", "air")
-#: Molar gas constant [J/(mol K)] (CODATA 2018, exact in the 2019 SI).
-#: Cylinder temperatures accepted [degC]: the service range of medical gas cylinders, -40 to 65 degC
-#: (common practice, no source); outside it the reading is rejected, not extrapolated.
-TEMPERATURE_RANGE = (-40.0, 65.0)
-#: Largest gauge pressure accepted without a stated service pressure [bar]: 300 bar is the highest
-#: working pressure of medical cylinders in use (common practice, no source).
-MAX_PRESSURE_BAR = 300.0
-
-
-@cache
-def supply_data() -> dict[str, dict[str, Any]]:
-    """Values of ``estimator/data/supply.toml`` (section -> key -> value), each checked for a source.
-
-    Raises
-    ------
-    DataError
-        On a value without a known source or a valid confidence code.
-
-    Examples
-    --------
-    >>> supply_data()["ventilator"]["drive_multiplier"]
-    2.0
-    """
-    text = resources.files("estimator").joinpath("data/supply.toml").read_text(encoding="utf-8")
-    raw = tomllib.loads(text)
-    sources = raw.pop("sources")
-    out: dict[str, dict[str, Any]] = {}
-    for section, values in raw.items():
-        out[section] = {}
-        for key, rec in values.items():
-            if (
-                not isinstance(rec, dict)
-                or rec.get("source") not in sources
-                or rec.get("confidence") not in CONFIDENCE_CODES
-                or "value" not in rec
-            ):
-                raise DataError(f"supply.toml [{section}].{key}: needs value, a known source and a confidence code")
-            out[section][key] = rec["value"]
-    return out
-
-
-def _cp() -> Any:
-    """CoolProp's PropsSI, imported lazily so that the app starts fast."""
-    from CoolProp.CoolProp import PropsSI
-
-    return PropsSI
-
-
-def _fluid(gas: str, field_name: str = "gas") -> str:
-    key = str(gas).strip().lower()
-    if key not in COOLPROP_FLUIDS:
-        raise InputError(field_name, gas, "one of " + ", ".join(COOLPROP_FLUIDS))
-    return COOLPROP_FLUIDS[key]
-
-
-def reference_molar_volume() -> pint.Quantity:
-    """Ideal molar volume at the package reference, R T_ref / p_ref [L/mol].
-
-    >>> round(reference_molar_volume().to("L/mol").magnitude, 3)
-    23.645
-    """
-    t = REFERENCE_TEMPERATURE.to("K").magnitude
-    p = REFERENCE_PRESSURE.to("Pa").magnitude
-    return Q_(GAS_CONSTANT * t / p * 1000.0, "L/mol")
-
-
-def molar_density(gas: str, temperature: pint.Quantity, pressure: pint.Quantity) -> pint.Quantity:
-    """Real-gas molar density from CoolProp at a temperature and an *absolute* pressure [mol/L].
-
-    >>> round(molar_density("oxygen", Q_(15, "degC"), Q_(1, "atm")).to("mol/L").magnitude, 4)
-    0.0423
-    """
-    rho = _cp()("Dmolar", "T", temperature.to("K").magnitude, "P", pressure.to("Pa").magnitude, _fluid(gas))
-    return Q_(rho / 1000.0, "mol/L")
-
-
-def compressibility(gas: str, temperature: pint.Quantity, pressure: pint.Quantity) -> float:
-    """Compressibility factor Z = p / (rho R T) from CoolProp (absolute pressure).
-
-    >>> round(compressibility("air", Q_(15, "degC"), Q_(300, "bar")), 3)
-    1.101
-    """
-    rho = molar_density(gas, temperature, pressure).to("mol/m^3").magnitude
-    return pressure.to("Pa").magnitude / (rho * GAS_CONSTANT * temperature.to("K").magnitude)
-
-
-def vapour_pressure(gas: str, temperature: pint.Quantity) -> pint.Quantity | None:
-    """Saturation (vapour) pressure from CoolProp, or None above the critical temperature [kPa].
-
-    >>> round(vapour_pressure("nitrous_oxide", Q_(20, "degC")).to("bar").magnitude, 1)
-    50.5
-    >>> vapour_pressure("nitrous_oxide", Q_(40, "degC")) is None
-    True
-    """
-    t = temperature.to("K").magnitude
-    if t >= critical_temperature(gas).to("K").magnitude:
-        return None
-    return Q_(_cp()("P", "T", t, "Q", 0, _fluid(gas)) / 1000.0, "kPa")
-
-
-def critical_temperature(gas: str) -> pint.Quantity:
-    """Critical temperature from CoolProp [K] (nitrous oxide about 309.5 K, 36.4 degC)."""
-    return Q_(_cp()("Tcrit", "", 0, "", 0, _fluid(gas)), "K")
-
-
-def litres_per_kg(
-    gas: str,
-    temperature: pint.Quantity = REFERENCE_TEMPERATURE,
-    pressure: pint.Quantity = REFERENCE_PRESSURE,
-    real_gas: bool = False,
-) -> pint.Quantity:
-    """Free-gas volume of one kilogram [L/kg].
-
-    With ``real_gas=False`` (the package convention, used for all contents) the volume is the ideal
-    molar volume at (``temperature``, ``pressure``) over the molar mass; with ``real_gas=True`` it is
-    1 kg over CoolProp's real-gas mass density at that state (nitrous oxide at 1 atm: Z about 0.994).
-
-    >>> round(litres_per_kg("nitrous_oxide").to("L/kg").magnitude)
-    537
-    >>> round(litres_per_kg("nitrous_oxide", real_gas=True).to("L/kg").magnitude)
-    534
-    """
-    molar_mass = _cp()("M", "", 0, "", 0, _fluid(gas))  # kg/mol
-    if real_gas:
-        rho = molar_density(gas, temperature, pressure).to("mol/L").magnitude
-        return Q_(1.0 / (molar_mass * rho), "L/kg")
-    vm = GAS_CONSTANT * temperature.to("K").magnitude / pressure.to("Pa").magnitude * 1000.0
-    return Q_(vm / molar_mass, "L/kg")
-
-
-def free_gas(moles: pint.Quantity) -> pint.Quantity:
-    """Moles as free gas at the package reference [L]."""
-    return (moles * reference_molar_volume()).to("L")
-
-
-@dataclass(frozen=True)
-class CylinderContents:
-    """Contents of one cylinder entry (``count`` identical cylinders).
-
-    Attributes
-    ----------
-    gas : str
-    count : int
-    contents : pint.Quantity [L] free gas in one cylinder now
-    usable : pint.Quantity [L] free gas of all ``count`` cylinders above the change-out reserve
-    compressibility : float or None
-        Z at the cylinder state (compressed gases, or nitrous oxide above its critical temperature).
-    ideal_contents : pint.Quantity or None [L], ideal-gas figure for one cylinder (compressed gases)
-    pressure : pint.Quantity or None [kPa] absolute: the reading (compressed) or the pressure the
-        contents imply (nitrous oxide)
-    vapour_pressure : pint.Quantity or None [kPa] (nitrous oxide below its critical temperature)
-    phase : str
-        ``"gas"``, ``"liquid and vapour"``, ``"vapour only"`` or ``"supercritical"``.
-    warnings : tuple of (code, message)
-    """
-
-    gas: str
-    count: int
-    contents: pint.Quantity
-    usable: pint.Quantity
-    compressibility: float | None = None
-    ideal_contents: pint.Quantity | None = None
-    pressure: pint.Quantity | None = None
-    vapour_pressure: pint.Quantity | None = None
-    net_weight: pint.Quantity | None = None
-    phase: str = "gas"
-    warnings: tuple[tuple[str, str], ...] = field(default=())
-
-
-def _temperature(value: Any, field_name: str) -> pint.Quantity:
-    t = parse_quantity(value, field_name, "temperature", default_unit="degC")
-    lo, hi = TEMPERATURE_RANGE
-    check_range(t.to("degC"), field_name, Q_(lo, "degC"), Q_(hi, "degC"), value=value)
-    return t.to("K")
-
-
-def _count(value: Any, field_name: str) -> int:
-    if isinstance(value, bool) or not isinstance(value, int) or value < 0:
-        raise InputError(field_name, value, "a whole number of cylinders, 0 or more")
-    return value
 
 
 def compressed_cylinder(
@@ -286,10 +118,10 @@ def compressed_cylinder(
             f"{f}.gas", gas, "oxygen or air for a cylinder counted by pressure (nitrous_oxide is counted by weight)"
         )
     gas = str(gas).strip().lower()
-    n = _count(count, f"{f}.count")
+    n = cylinder_count(count, f"{f}.count")
     wc = parse_quantity(water_capacity, f"{f}.water_capacity", "volume", default_unit="L")
     check_range(wc.to("L"), f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False, value=water_capacity)
-    t = _temperature(temperature, f"{f}.temperature")
+    t = cylinder_temperature(temperature, f"{f}.temperature")
     hi_bar = MAX_PRESSURE_BAR
     notes: list[tuple[str, str]] = []
     if service_pressure is not None:
@@ -310,7 +142,7 @@ def compressed_cylinder(
     rho = molar_density(gas, t, p_abs)
     if service_pressure is not None:
         settled = Q_(
-            _cp()(
+            props_si()(
                 "P",
                 "T",
                 REFERENCE_TEMPERATURE.to("K").magnitude,
@@ -419,16 +251,16 @@ def nitrous_oxide_cylinder(
     ('liquid and vapour', 45)
     """
     f = field_prefix
-    n = _count(count, f"{f}.count")
+    n = cylinder_count(count, f"{f}.count")
     gross = parse_quantity(gross_weight, f"{f}.gross_weight", "mass", default_unit="kg").to("kg")
     check_range(gross, f"{f}.gross_weight", Q_(0, "kg"), Q_(200, "kg"), low_inclusive=False, value=gross_weight)
     tare = parse_quantity(tare_weight, f"{f}.tare_weight", "mass", default_unit="kg").to("kg")
     check_range(tare, f"{f}.tare_weight", Q_(0, "kg"), gross, low_inclusive=False, value=tare_weight)
-    t = _temperature(temperature, f"{f}.temperature")
+    t = cylinder_temperature(temperature, f"{f}.temperature")
     net = gross - tare
     notes: list[tuple[str, str]] = []
     fluid = COOLPROP_FLUIDS["nitrous_oxide"]
-    molar_mass = Q_(_cp()("M", "", 0, "", 0, fluid), "kg/mol")
+    molar_mass = Q_(props_si()("M", "", 0, "", 0, fluid), "kg/mol")
     tc = critical_temperature("nitrous_oxide")
     p_sat = vapour_pressure("nitrous_oxide", t)
     phase = "liquid and vapour" if p_sat is not None else "supercritical"
@@ -440,11 +272,11 @@ def nitrous_oxide_cylinder(
         check_range(wc, f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False, value=water_capacity)
         density = (net / wc).to("kg/m^3").magnitude
         if p_sat is not None:
-            vapour_density = _cp()("D", "T", t.magnitude, "Q", 1, fluid)
+            vapour_density = props_si()("D", "T", t.magnitude, "Q", 1, fluid)
             if density < vapour_density:
                 phase = "vapour only"
         if phase != "liquid and vapour":
-            p_state = Q_(_cp()("P", "T", t.magnitude, "D", max(density, 1e-6), fluid) / 1000.0, "kPa")
+            p_state = Q_(props_si()("P", "T", t.magnitude, "D", max(density, 1e-6), fluid) / 1000.0, "kPa")
             z = compressibility("nitrous_oxide", t, p_state)
         ratio = Q_(supply_data()["nitrous_oxide"]["filling_ratio"]).to("kg/L").magnitude
         if (net / wc).to("kg/L").magnitude > ratio:
@@ -483,7 +315,7 @@ def nitrous_oxide_cylinder(
         check_range(reserve, f"{f}.reserve_weight", Q_(0, "kg"), Q_(200, "kg"), value=reserve_weight)
     residual = Q_(0.0, "kg")
     if wc is not None:  # the gas left at ambient pressure cannot be delivered
-        residual = Q_(_cp()("D", "T", t.magnitude, "P", ambient_pressure.to("Pa").magnitude, fluid), "kg/m^3") * wc
+        residual = Q_(props_si()("D", "T", t.magnitude, "P", ambient_pressure.to("Pa").magnitude, fluid), "kg/m^3") * wc
     keep = max(reserve, residual.to("kg"))
     usable_mass = max(net - keep, Q_(0.0, "kg"))
     if usable_mass.magnitude == 0:
@@ -501,3 +333,26 @@ def nitrous_oxide_cylinder(
         phase=phase,
         warnings=tuple(notes),
     )
+
+
+__all__ = [
+    "COMPRESSED_GASES",
+    "COOLPROP_FLUIDS",
+    "MAX_PRESSURE_BAR",
+    "TEMPERATURE_RANGE",
+    "CylinderContents",
+    "cylinder_count",
+    "cylinder_temperature",
+    "compressed_cylinder",
+    "compressibility",
+    "critical_temperature",
+    "fluid_name",
+    "free_gas",
+    "litres_per_kg",
+    "molar_density",
+    "nitrous_oxide_cylinder",
+    "props_si",
+    "reference_molar_volume",
+    "supply_data",
+    "vapour_pressure",
+]

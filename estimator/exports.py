@@ -35,7 +35,7 @@ from .properties import CO2E_BASES
 from .units import GAS_VOLUME_REFERENCE
 
 if TYPE_CHECKING:
-    from .audit import AuditResult
+    from .audit_report import AuditResult
 
 FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
 SUFFIX_UNITS = (

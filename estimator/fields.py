@@ -1,5 +1,7 @@
-"""One factory for the quantity fields of every TOML contract: dimension, unit, range and meaning as
-metadata a form can read, checked once where the file is parsed.
+"""One factory for the quantity fields of every TOML contract.
+
+Dimension, unit, range and meaning are metadata a form can read, checked once where the file is
+parsed.
 
 ``quantity("flow", 0, 15, "L/min", description=...)`` is a pydantic type: it parses ``"2 L/min"``
 (or a bare number in ``bare_unit``), refuses a wrong dimension or a value outside the range, and

@@ -35,7 +35,7 @@ from typing import Annotated, Any
 from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, StrictBool, StrictInt, ValidationError
 
 from .contracts import input_error_from_validation, read_toml, toml_from_text
-from .cylinders import MAX_PRESSURE_BAR, TEMPERATURE_RANGE
+from .cylinder_state import MAX_PRESSURE_BAR, TEMPERATURE_RANGE
 from .errors import InputError
 from .fields import QuantitySpec, quantity
 from .site import ELEVATION_RANGE, PRESSURE_RANGE

@@ -1,5 +1,6 @@
-r"""Small parsers of the inventory's values, and the stock tables turned into supplies (cylinder
-contents from :mod:`estimator.cylinders`). The schema and loaders are in
+r"""Small parsers of the inventory's values, and its stock tables turned into supplies.
+
+Cylinder contents come from :mod:`estimator.cylinders`. The schema and loaders are in
 :mod:`estimator.inventory_file` (re-exported here).
 
 Examples
@@ -18,7 +19,8 @@ import numpy as np
 import pint
 
 from .accounting import absorbent_capacity
-from .cylinders import compressed_cylinder, nitrous_oxide_cylinder, supply_data
+from .cylinder_entry import cylinder_from_fields
+from .cylinders import supply_data
 from .errors import InputError
 from .inventory_file import (
     CLOCK,
@@ -191,41 +193,15 @@ def read_stocks(
         f = f"cylinders[{k}]"
         g = gas_name(c.gas, f"{f}.gas")
         if g == "nitrous_oxide":
-            for key in ("gross_weight", "tare_weight"):
-                if getattr(c, key) is None:
-                    raise InputError(
-                        f"{f}.{key}", "(missing)", "a mass such as '8.5 kg' (nitrous oxide is counted by weight)"
-                    )
-            res = nitrous_oxide_cylinder(
-                c.gross_weight,
-                c.tare_weight,
-                c.temperature,
-                count=c.count,
-                water_capacity=c.water_capacity,
-                pressure=c.pressure,
-                reserve_weight=c.reserve_weight,
-                ambient_pressure=ambient,
-                field_prefix=f,
-            )
+            options = {"water_capacity": c.water_capacity, "pressure": c.pressure}
         else:
-            for key in ("water_capacity", "pressure"):
-                if getattr(c, key) is None:
-                    raise InputError(f"{f}.{key}", "(missing)", "a value: required for a compressed-gas cylinder")
-            if c.gross_weight is not None or c.tare_weight is not None:
+            given = c.water_capacity is not None and c.pressure is not None  # a missing one is named first
+            if given and (c.gross_weight is not None or c.tare_weight is not None):
                 raise InputError(
                     f"{f}.gross_weight", c.gross_weight, "no weights for oxygen or air (counted by pressure)"
                 )
-            res = compressed_cylinder(
-                g,
-                c.water_capacity,
-                c.pressure,
-                c.temperature,
-                c.reserve_pressure,
-                count=c.count,
-                service_pressure=c.service_pressure,
-                ambient_pressure=ambient,
-                field_prefix=f,
-            )
+            options = {"service_pressure": c.service_pressure}
+        res = cylinder_from_fields(c, g, f, count=c.count, ambient_pressure=ambient, **options)
         name = _unique(c.name or f"{g.replace('_', ' ')} cylinders {k + 1}", names, f)
         warns.extend((code, msg.replace(f + ":", f"{name}:")) for code, msg in res.warnings)
         details = {"count": res.count, "contents_per_cylinder": res.contents, "phase": res.phase}

@@ -1,5 +1,8 @@
-"""Patient spread on the case planner: a control for the number of patients, P5-P95 beside the totals
-and a shaded P5-P95 band on the time-course charts (``estimator.spread.simulate_spread``)."""
+"""Patient spread on the case planner: patient count, P5-P95 totals and bands on the charts.
+
+A control for the number of patients, P5-P95 beside the totals and a shaded P5-P95 band on the
+time-course charts (``estimator.spread.simulate_spread``).
+"""
 
 from __future__ import annotations
 

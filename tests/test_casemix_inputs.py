@@ -289,3 +289,26 @@ def test_order_sizes_are_checked_when_the_case_mix_loads(orders, field):
     with pytest.raises(InputError) as err:
         casemix_from_text(ROW + orders + "\n")
     assert field in err.value.field
+
+
+@pytest.mark.parametrize(
+    "orders, field",
+    [
+        ('[orders.oxygen_cylinder]\nwater_capacity = "10 L"', "orders.oxygen_cylinder.pressure"),
+        ('[orders.nitrous_oxide_cylinder]\ngross_weight = "8.5 kg"', "orders.nitrous_oxide_cylinder.tare_weight"),
+    ],
+)
+def test_a_missing_cylinder_field_is_named_as_the_inventory_names_it(orders, field, tmp_path):
+    # One check of the required cylinder fields (estimator.cylinder_entry) for orders and inventory.
+    from estimator.supply import inventory_from_text, plan_supply
+
+    with pytest.raises(InputError) as err:
+        casemix_from_text(ROW + orders + "\n")
+    assert (err.value.field, err.value.value) == (field, "(missing)")
+    gas = field.split(".")[1].removesuffix("_cylinder")
+    key = orders.split("\n")[1]
+    inv = inventory_from_text(f'[[cylinders]]\ngas = "{gas}"\n{key}\n')
+    with pytest.raises(InputError) as err_inv:
+        plan_supply(inv, start="2026-03-02")
+    assert err_inv.value.field == "cylinders[0]." + field.rsplit(".", 1)[1]
+    assert err_inv.value.expected == err.value.expected

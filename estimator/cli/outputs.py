@@ -1,5 +1,7 @@
-"""Output files of the ``lowflow`` verbs: one rule for every output flag (``--csv``, ``--report``...),
-and errors about a value given on the command line named by its option.
+"""Output files of the ``lowflow`` verbs and errors about command-line values, named by option.
+
+One rule serves every output flag (``--csv``, ``--report``...), and an error about a value given
+on the command line is named by its option.
 
 Examples
 --------
