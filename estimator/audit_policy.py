@@ -15,8 +15,10 @@ itself (``baseline = "recorded"``) or the engine run on the recorded flows (``"e
 cancels model bias. CO2e of both sides uses the audit's rule (metabolised share of delivered
 agent), so the difference is the agent not delivered. Cases without an end-tidal agent, with more
 than one agent, or with flows beyond the engine's range are skipped and listed with the reason. The
-engine takes about a second per case; ``max_cases`` re-runs only the first N cases (the rest are
-listed as skipped, and the savings are those of the cases re-run, never scaled up).
+engine re-runs every case by default, at about 25-30 ms of CPU per case (the demo's 452 cases in
+about 12 s on one core); ``max_cases`` re-runs only the first N cases (the rest are listed as skipped,
+and the savings are those of the cases re-run, never scaled up). ``progress(done, total)`` is called
+after each case, for a progress bar.
 
 The policy file (its TOML contract and the flows it sets) is :mod:`estimator.policy_file`,
 re-exported here. The engine is called through ``runner`` (a callable taking the scenario as a dict and returning an
@@ -205,6 +207,7 @@ def counterfactual(
     prices: Prices | None = None,
     runner: Callable[[dict[str, Any]], Any] | None = None,
     manifold_loss: float = 0.0,
+    progress: Callable[[int, int], None] | None = None,
 ) -> dict[str, Any]:
     """Savings of a low-flow policy over the audited cases (JSON-ready dict, see module doc)."""
     from .units import Q_
@@ -220,7 +223,9 @@ def counterfactual(
             for b in built[policy.max_cases :]
         ]
         built = built[: policy.max_cases]
-    for item in built:
+    for done, item in enumerate(built, start=1):
+        if progress is not None:
+            progress(done - 1, len(built))
         try:
             res_p = run(item["policy"])
             res_b = run(item["recorded"]) if policy.baseline == "engine" else None
@@ -273,6 +278,8 @@ def counterfactual(
     savings = {k: sums["baseline"][k] - sums["policy"][k] for k in keys}
     currency = prices.currency if prices is not None else None
     share = {k: (savings[k] / sums["baseline"][k] if sums["baseline"][k] > 0 else None) for k in keys}
+    if progress is not None:
+        progress(len(built), len(built))
     return {
         "policy": asdict(policy),
         "baseline": policy.baseline,

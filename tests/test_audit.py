@@ -295,3 +295,23 @@ def test_nitrous_oxide_only_case():
     expected = 180.0 / VM * 44.013 / 1000 * 273
     assert r.cases["co2e_kg"].iloc[0] == pytest.approx(expected, rel=1e-4)
     assert r.cases["agent_liquid_ml"].iloc[0] == 0.0
+
+
+def test_counterfactual_reports_progress_for_every_case():
+    # Every case is re-run by default; progress(done, total) runs from 0 to the number re-run.
+    calls = []
+    r = audit(DATA / "audit_two_rooms.csv")
+    cf = counterfactual(r, parse_policy({}), runner=_stand_in, progress=lambda d, t: calls.append((d, t)))
+    n = cf["totals"]["cases"]
+    assert n >= 2 and calls[0] == (0, n) and calls[-1] == (n, n)
+    assert [d for d, _ in calls] == sorted(d for d, _ in calls)
+
+
+def test_cli_progress_is_silent_when_piped(capsys):
+    # A progress line is drawn only on a terminal: captured or piped stderr stays empty.
+    from estimator.cli.outputs import terminal_progress
+
+    show = terminal_progress("re-running")
+    show(0, 3)
+    show(3, 3)
+    assert capsys.readouterr().err == ""

@@ -578,7 +578,8 @@ def test_audit_headline(audit):
     k = audit["kpis"]
     assert mag(k, "mean_maintenance_flow") == pytest.approx(1.145, rel=PIN)
     saved = mag(audit["counterfactual"]["totals"]["savings"], "agent_liquid")
-    assert saved == pytest.approx(72.46, rel=PIN)
+    assert saved == pytest.approx(2232, rel=PIN)
+    assert audit["counterfactual"]["totals"]["cases"] == 452  # every case re-run by default
 
 
 def test_audit_liquid_matches_dion_on_the_log(demo_dir, audit):

@@ -27,7 +27,7 @@ import typer
 
 from ..errors import InputError
 from . import CAUTION, app
-from .outputs import option_names, output_paths, write_output
+from .outputs import option_names, output_paths, terminal_progress, write_output
 
 #: Fields of the audit set by an option, named by the option in errors.
 _AUDIT_OPTIONS = {
@@ -122,7 +122,13 @@ def audit_command(
     if policy is not None:
         from ..audit_policy import counterfactual
 
-        cf = counterfactual(result, _policy(policy), prices=price_table, manifold_loss=manifold_loss)
+        cf = counterfactual(
+            result,
+            _policy(policy),
+            prices=price_table,
+            manifold_loss=manifold_loss,
+            progress=terminal_progress("re-running cases at the policy flow"),
+        )
         result = dataclasses.replace(result, counterfactual=cf)
     written = []
     for flag, writer in (

@@ -110,3 +110,21 @@ def option_names(mapping: dict[str, str | None]) -> Iterator[None]:
         if option is None:
             raise
         raise InputError(option, exc.value, exc.expected) from None
+
+
+def terminal_progress(label: str) -> Callable[[int, int], None]:
+    """A ``progress(done, total)`` callback drawing one line on stderr, only when stderr is a terminal.
+
+    Piped or captured output (scripts, tests, ``--json > file``) stays clean.
+    """
+    import sys
+
+    if not sys.stderr.isatty():
+        return lambda done, total: None
+
+    def show(done: int, total: int) -> None:
+        end = "\n" if done >= total else ""
+        sys.stderr.write(f"\r{label}: {done} of {total}{end}")
+        sys.stderr.flush()
+
+    return show
