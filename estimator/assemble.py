@@ -52,7 +52,7 @@ def _content(y: np.ndarray, base: np.ndarray) -> tuple[np.ndarray, np.ndarray, n
 
 @dataclass(frozen=True)
 class Segment:
-    """One integrated phase, as the engine hands it over.
+    """One integrated phase: a phase of the engine's case, or a trial run of the flow floor.
 
     Attributes
     ----------

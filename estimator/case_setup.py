@@ -100,6 +100,17 @@ class CaseSetup:
         """Parameter vector of any phase (a trial setting of the flow floor) on this case's base."""
         return phase_parameters(self.base, self.scenario, phase, self.site)
 
+    def phase_setup(self, phase: PhaseInput, start: float, duration: float, index: int = -1) -> PhaseSetup:
+        """Set-up of any phase run from ``start`` for ``duration`` [min] (a trial of the flow floor)."""
+        return _phase_setup(self.scenario, self.base, self.site, phase, index, start, duration)
+
+
+def _phase_setup(
+    scenario: Scenario, base: np.ndarray, site: SiteState, phase: PhaseInput, index: int, start: float, duration: float
+) -> PhaseSetup:
+    flows = true_flows(scenario, phase, site)
+    return PhaseSetup(index, phase, start, duration, flows, phase_parameters(base, scenario, phase, site, flows))
+
 
 def prepare(
     scenario: Scenario,
@@ -141,9 +152,7 @@ def prepare(
         dur = phase.duration.to("min").magnitude
         if dur <= 0.0 and not every_phase:
             continue
-        flows = true_flows(scenario, phase, site)
-        p = phase_parameters(base, scenario, phase, site, flows)
-        phases.append(PhaseSetup(index, phase, t0, dur, flows, p))
+        phases.append(_phase_setup(scenario, base, site, phase, index, t0, dur))
         t0 += dur
     initial = initial_state(scenario, base, site)
     interval = scenario.output.interval.to("min").magnitude

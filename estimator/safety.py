@@ -43,7 +43,8 @@ import numpy as np
 
 from . import circuit as c
 from . import engine
-from .case_setup import phase_times, prepare
+from .assemble import Segment
+from .case_setup import prepare
 from .dopri5 import integrate_phase
 from .floor_settings import (  # noqa: F401 (settable_values, round_up, DEFAULT_SCALE, settings_from re-exported)
     DEFAULT_SCALE,
@@ -131,20 +132,21 @@ class Planner:
         self.atol = engine.absolute_tolerance()
         self.amb = self.case.mmol_per_litre
 
-    def run(self, phase: PhaseInput, y: np.ndarray, t0: float, t1: float, step: float = CHECK_INTERVAL):
-        """States and derived flows from ``t0`` to ``t1`` for ``phase`` starting at state ``y``."""
-        p = self.case.parameters(phase)
-        times = phase_times(t0, t1 - t0, step)
-        ys, stats, _ = integrate_phase(y, p, times, 1e-6, self.atol, 0.0, 10**6)
+    def run(self, phase: PhaseInput, y: np.ndarray, t0: float, t1: float, step: float = CHECK_INTERVAL) -> Segment:
+        """States and derived flows every ``step`` from ``t0`` to ``t1`` for ``phase`` starting at state ``y``."""
+        ph = self.case.phase_setup(phase, t0, t1 - t0)
+        times = ph.times(step)
+        ys, stats, _ = integrate_phase(y, ph.parameters, times, 1e-6, self.atol, 0.0, 10**6)
         if stats[0] < 0:
             raise RuntimeError("the circuit model failed to integrate a trial segment")
-        return times, ys, c.derived_series(ys, p), p
+        return Segment(ph, times, ys, c.derived_series(ys, ph.parameters), stats)
 
     def check(self, phase: PhaseInput, flows, y, t0, t_phase0, t1, mac_before: float = 0.0) -> Check:
         """Run ``flows`` from ``t0`` to the phase end ``t1`` and test every limit."""
         trial = with_flows(phase, flows)
         failed = static_failures(flows, self.st, self.sc.agent.name)
-        times, ys, ws, p = self.run(trial, y, t0, t1)
+        seg = self.run(trial, y, t0, t1)
+        times, ys, ws, p = seg.times, seg.states, seg.derived, seg.phase.parameters
         judged = times >= SETTLE
         fio2 = ws[judged, c.W_FI + c.O2] if judged.any() else ws[-1:, c.W_FI + c.O2]
         margins: dict[str, Any] = {
@@ -342,7 +344,8 @@ def _grid(pl: Planner, scenario: Scenario, live) -> list[dict[str, Any]]:
     out, y, t = [], pl.y0.copy(), 0.0
     for _, ph in live:
         dur = ph.duration.to("min").magnitude
-        times, ys, _, _ = pl.run(ph, y, t, t + dur, pl.st.grid)
+        seg = pl.run(ph, y, t, t + dur, pl.st.grid)
+        times, ys = seg.times, seg.states
         for tg, yg in zip(times[:-1], ys[:-1], strict=True):
             res = pl.floor(ph, yg, tg, t, t + dur)
             out.append(
