@@ -1,4 +1,4 @@
-"""Masses from the volumes the engine, logs and files report, the absorbent a CO2 load takes, and case totals.
+"""Accounting of gas and liquid: volumes to masses, CO2 to absorbent, and running totals to case totals.
 
 The carbon tally (:mod:`estimator.carbon`), the case, the batch, the forecast, the supply planner
 and the audit convert gas and liquid volumes to masses, and absorbed CO2 to absorbent mass, with

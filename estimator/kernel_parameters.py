@@ -18,8 +18,8 @@ Examples
 >>> site = site_state(s)
 >>> base = base_parameters(s, patient_from_scenario(s), site)
 >>> p = phase_parameters(base, s, s.phases[0], site)
->>> p[c.P_MODE] == c.MODE_DIAL, round(float(p[c.P_UFIXED]), 4), base.shape == (c.NP,)
-(np.True_, 0.02, True)
+>>> bool(p[c.P_MODE] == c.MODE_DIAL), round(float(p[c.P_UFIXED]), 4), base.shape == (c.NP,)
+(True, 0.02, True)
 """
 
 from __future__ import annotations
