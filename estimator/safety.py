@@ -86,6 +86,16 @@ class Check:
     mac_minutes: float = 0.0
 
 
+@dataclass(frozen=True)
+class Floor:
+    """Floor of a phase from one time: settable flows (None: none passes), their check, binding limits, next below."""
+
+    flows: tuple[float, float, float] | None
+    check: Check | None
+    binding: list[str]
+    below: tuple[float, float, float] | None = None
+
+
 @dataclass
 class FloorResult:
     """Result of :func:`flow_floor`; ``to_json`` gives the ``lowflow safe-flow`` contract."""
@@ -198,11 +208,11 @@ class Planner:
                 failed.append("LABEL_SEVOFLURANE_US")
         return Check(sorted(set(failed), key=LIMITS.index), margins, ys[-1].copy(), mac_min)
 
-    def floor(self, phase, y, t0, t_phase0, t1, mac_before=0.0) -> dict[str, Any]:
+    def floor(self, phase, y, t0, t_phase0, t1, mac_before=0.0) -> Floor:
         """Bisection for the lowest candidate of ``phase`` at which every limit holds from ``t0``."""
         cands = candidates(phase, self.st)
         if not cands:
-            return {"flows": None, "check": None, "binding": ["NO_FRESH_GAS"], "below": None}
+            return Floor(None, None, ["NO_FRESH_GAS"])
         cache: dict[int, Check] = {}
 
         def test(i: int) -> Check:
@@ -212,7 +222,7 @@ class Planner:
 
         hi = len(cands) - 1
         if test(hi).failed:
-            return {"flows": None, "check": test(hi), "binding": test(hi).failed, "below": None}
+            return Floor(None, test(hi), test(hi).failed)
         lo = -1  # invariant: cands[lo] fails (or lo = -1), cands[hi] passes
         while hi - lo > 1:
             mid = (lo + hi) // 2
@@ -221,7 +231,7 @@ class Planner:
             else:
                 hi = mid
         binding = test(lo).failed if lo >= 0 else ["FLOWMETER_MINIMUM"]
-        return {"flows": cands[hi], "check": test(hi), "binding": binding, "below": cands[lo] if lo >= 0 else None}
+        return Floor(cands[hi], test(hi), binding, cands[lo] if lo >= 0 else None)
 
 
 def _flow_dict(flows) -> dict[str, Any]:
@@ -290,25 +300,25 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
         dur = ph.duration.to("min").magnitude
         res = pl.floor(ph, y, t, t, t + dur, mac_low)
         planned = tuple(q.to("L/min").magnitude for q in ph.flows())
-        chosen = res["flows"] or planned
-        chk = res["check"] if res["flows"] else pl.check(ph, chosen, y, t, t, t + dur, mac_low)
+        chosen = res.flows or planned
+        chk = res.check if res.flows else pl.check(ph, chosen, y, t, t, t + dur, mac_low)
         total = float(sum(chosen))
         entry = {
             "index": i,
             "label": ph.label or _phase_label(n, len(live)),
             "start": Q_(t, "min"),
             "end": Q_(t + dur, "min"),
-            "floor": Q_(total, "L/min") if res["flows"] else None,
-            "flows": _flow_dict(chosen) if res["flows"] else None,
-            "binding": res["binding"][0] if res["binding"] else None,
-            "binding_all": res["binding"],
-            "binding_text": LIMIT_TEXT.get(res["binding"][0], "") if res["binding"] else "",
-            "margins": {k: v for k, v in (chk.margins if chk else {}).items() if k not in res["binding"]},
+            "floor": Q_(total, "L/min") if res.flows else None,
+            "flows": _flow_dict(chosen) if res.flows else None,
+            "binding": res.binding[0] if res.binding else None,
+            "binding_all": res.binding,
+            "binding_text": LIMIT_TEXT.get(res.binding[0], "") if res.binding else "",
+            "margins": {k: v for k, v in (chk.margins if chk else {}).items() if k not in res.binding},
             "planned_total": Q_(float(sum(planned)), "L/min"),
-            "flow_class": f"{flow_class(total)} flow ({FLOW_CLASS_SOURCE})" if res["flows"] else None,
+            "flow_class": f"{flow_class(total)} flow ({FLOW_CLASS_SOURCE})" if res.flows else None,
             "lowest_oxygen_flow": None,
         }
-        if res["flows"]:
+        if res.flows:
             o2min = lowest_oxygen_flow(pl, ph, chosen, y, t, t + dur, mac_low)
             entry["lowest_oxygen_flow"] = Q_(o2min, "L/min") if o2min is not None else None
             new_phases[i] = with_flows(ph, chosen)
@@ -321,7 +331,7 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
                 "duration": Q_(dur, "min"),
                 "total": Q_(total, "L/min"),
                 **_flow_dict(chosen),
-                "settable": bool(res["flows"]),
+                "settable": bool(res.flows),
             }
         )
         if total < LABEL_MIDDLE_FLOW - 1e-9:
@@ -351,8 +361,8 @@ def _grid(pl: Planner, scenario: Scenario, live) -> list[dict[str, Any]]:
             out.append(
                 {
                     "time": Q_(float(tg), "min"),
-                    "floor": Q_(float(sum(res["flows"])), "L/min") if res["flows"] else None,
-                    "binding": res["binding"][0] if res["binding"] else None,
+                    "floor": Q_(float(sum(res.flows)), "L/min") if res.flows else None,
+                    "binding": res.binding[0] if res.binding else None,
                 }
             )
         y, t = ys[-1].copy(), t + dur
