@@ -1,32 +1,30 @@
-"""From integrated states to a :class:`~estimator.results.CaseResult`: series, totals, warnings.
+"""From integrated segments to a :class:`~estimator.results.CaseResult`: series, totals, warnings.
 
-The engine integrates each phase with :mod:`estimator.circuit`; this module reads the raw states and
-derived flows back into what users read (pint totals, a series with units in its column names, the
-phase reports and the warnings), and keeps the per-species mass balance for
-:meth:`~estimator.results.CaseResult.mass_balance`.
+The engine integrates each phase of a :class:`~estimator.case_setup.CaseSetup` and hands over one
+typed :class:`Segment` per phase; this module reads the raw states and derived flows back into what
+users read (pint totals, a series with units in its column names, the phase reports and the
+warnings), and keeps the per-species mass balance for
+:meth:`~estimator.results.CaseResult.mass_balance`. The totals are formed by
+:func:`estimator.accounting.totals_from_deltas`, as in the batch.
 """
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from . import circuit as c
-from .accounting import absorbent_mass
+from .accounting import DELTA_TOTAL_UNITS, fresh_gas_litres, totals_from_deltas
 from .carbon import totals_co2e
-from .constants import GAS_CONSTANT
+from .case_setup import CaseSetup, PhaseSetup
+from .kernel_parameters import vaporizer_type
 from .limits import HYPOXIC_FRACTION
 from .properties import agent as agent_properties
-from .properties import gas
 from .results import FIO2_ADVISORY, P_H2O, SETTLE, TARGET_BAND, CaseResult, litres_per_mmol
 from .units import GAS_VOLUME_REFERENCE, Q_
-
-if TYPE_CHECKING:
-    from .engine import SiteState
-    from .physiology import Patient
-    from .scenario import Scenario
 
 _NAMES = {
     c.O2: "oxygen",
@@ -52,40 +50,60 @@ def _content(y: np.ndarray, base: np.ndarray) -> tuple[np.ndarray, np.ndarray, n
     return circ, lung, body
 
 
-def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np.ndarray, chunks: list) -> CaseResult:
-    """Assemble totals, series and warnings from the integrated phases."""
-    amb = site.ambient_pressure_kpa / (GAS_CONSTANT * site.temperature_k) * 1000.0  # mmol / ambient L
+@dataclass(frozen=True)
+class Segment:
+    """One integrated phase: a phase of the engine's case, or a trial run of the flow floor.
+
+    Attributes
+    ----------
+    phase : PhaseSetup
+        The phase's set-up (index, true flows, parameter vector).
+    times : float64[m] [min]
+        Output times, from the phase start to its end.
+    states : float64[m, NY]
+        States at ``times`` (layout of :mod:`estimator.circuit`).
+    derived : float64[m, NW]
+        Flows and fractions at ``times`` (:func:`estimator.circuit.derived_series`).
+    stats : int64[3]
+        Accepted steps, rejected steps, right-hand-side evaluations.
+    """
+
+    phase: PhaseSetup
+    times: np.ndarray
+    states: np.ndarray
+    derived: np.ndarray
+    stats: np.ndarray
+
+    @property
+    def makeup(self) -> float:
+        """Deficit make-up gas over the phase, agent excluded [mmol]."""
+        ys = self.states
+        return sum(ys[-1, c.Y_MAKEUP + s] - ys[0, c.Y_MAKEUP + s] for s in range(c.NS) if s != c.AGENT)
+
+
+def build_result(case: CaseSetup, segments: list[Segment]) -> CaseResult:
+    """Assemble totals, series and warnings from the integrated phases of ``case``."""
+    scenario, patient, site, base = case.scenario, case.patient, case.site, case.base
+    amb = case.mmol_per_litre
     lpm = litres_per_mmol()
     ag = agent_properties(scenario.agent.name)
-    kind_bypass = (
-        scenario.agent.vaporizer_type or ("heated_pressurised" if ag.name == "desflurane" else "variable_bypass")
-    ) == "variable_bypass"
+    kind_bypass = vaporizer_type(scenario) == "variable_bypass"
     from .mac import parse_age
 
     frames, phases, warns = [], [], list(patient.warnings) + parse_age(patient.age)[1] + list(site.warnings)
-    o2_l = air_l = n2o_l = 0.0
-    y_first = chunks[0][2][0]
     steps = {"accepted": 0, "rejected": 0, "evaluations": 0}
-    for index, times, ys, ws, p, stats in chunks:
+    for seg in segments:
+        index, times, ys, ws, p, stats = (
+            seg.phase.index,
+            seg.times,
+            seg.states,
+            seg.derived,
+            seg.phase.parameters,
+            seg.stats,
+        )
         steps["accepted"] += int(stats[0])
         steps["rejected"] += int(stats[1])
         steps["evaluations"] += int(stats[2])
-        phase = scenario.phases[index]
-        from .engine import true_flows
-
-        o2, air, n2o = true_flows(scenario, phase, site)
-        dur = times[-1] - times[0]
-        carrier = o2 + air + n2o
-        mk = sum(ys[-1, c.Y_MAKEUP + s] - ys[0, c.Y_MAKEUP + s] for s in range(c.NS) if s != c.AGENT)
-        extra = (mk / amb) if p[c.P_MAKEUP_AIR] == 0.0 and carrier > 0 else 0.0
-        for flow, acc in ((o2, "o2"), (air, "air"), (n2o, "n2o")):
-            vol = flow * dur + (extra * flow / carrier if carrier > 0 else 0.0)
-            if acc == "o2":
-                o2_l += vol
-            elif acc == "air":
-                air_l += vol
-            else:
-                n2o_l += vol
         u = ws[:, c.W_U]
         dial = u * site.ambient_pressure_kpa / 101.325 if kind_bypass else u
         cols: dict[str, Any] = {"time [min]": times, "phase": np.full(times.shape, index)}
@@ -120,8 +138,14 @@ def build_result(scenario: Scenario, patient: Patient, site: SiteState, base: np
             info.update(_hold_report(index, times, ws, p, warns))
         phases.append(info)
     series = pd.DataFrame({k: np.concatenate([f[k] for f in frames]) for k in frames[0]})
-    y0, y1 = y_first, chunks[-1][2][-1]
-    totals, balance = _totals(scenario, ag, base, y0, y1, amb, lpm, (o2_l, air_l, n2o_l))
+    gas_l = fresh_gas_litres(
+        np.array([[seg.times[-1] - seg.times[0] for seg in segments]]),
+        [seg.phase.true_flows for seg in segments],
+        np.array([[seg.makeup for seg in segments]]),
+        amb,
+        base[c.P_MAKEUP_AIR] != 0.0,
+    )[0]
+    totals, balance = _totals(case, segments[0].states[0], segments[-1].states[-1], gas_l)
     fio2 = series["inspired_oxygen [%]"].to_numpy() / 100
     judged = series["time [min]"].to_numpy() >= SETTLE
     if not judged.any():  # a case shorter than the settling minute: judge its last sample
@@ -203,7 +227,9 @@ def _hold_report(index: int, times: np.ndarray, ws: np.ndarray, p: np.ndarray, w
     return out
 
 
-def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
+def _totals(case: CaseSetup, y0: np.ndarray, y1: np.ndarray, gas_l: np.ndarray) -> tuple[dict, dict]:
+    """Totals (pint, the ``totals`` of the JSON contract) and the per-species mass balance [mmol]."""
+    scenario, base, amb, lpm = case.scenario, case.base, case.mmol_per_litre, litres_per_mmol()
     d = y1 - y0
     circ0, lung0, body0 = _content(y0, base)
     circ1, lung1, body1 = _content(y1, base)
@@ -222,37 +248,33 @@ def _totals(scenario, ag, base, y0, y1, amb, lpm, gas_l):
             "consumed": d[c.Y_O2CONS] if s == c.O2 else 0.0,
             "body_tracked": s in c.BODY or s == c.O2,
         }
-    agent_mmol = d[c.Y_FGIN + c.AGENT] + d[c.Y_MAKEUP + c.AGENT]
-    mw = ag.molar_mass.to("g/mol").magnitude
-    liquid_ml = agent_mmol / 1000 * mw / ag.liquid_density.to("g/mL").magnitude
+    cap = scenario.circuit.absorbent_capacity.to("L").magnitude  # L CO2 per 100 g
+    shared = totals_from_deltas(c.running_totals(d), gas_l, amb, scenario.agent.name, cap)
+    q = {k: Q_(v, DELTA_TOTAL_UNITS[k]) for k, v in shared.items()}
     duration = scenario.duration.to("min").magnitude
     fg_mmol = sum(d[c.Y_FGIN + s] for s in range(c.NS))
-    n2o_mmol = d[c.Y_FGIN + c.N2O] + d[c.Y_MAKEUP + c.N2O]
-    n2o_g = n2o_mmol / 1000 * gas("nitrous_oxide").molar_mass.to("g/mol").magnitude
-    co2_l = d[c.Y_CO2ABS] * lpm
-    cap = scenario.circuit.absorbent_capacity.to("L").magnitude  # L CO2 per 100 g
     totals = {
         "duration": Q_(duration, "min"),
-        "agent_liquid": Q_(liquid_ml, "mL"),
-        "agent_vapour": Q_(agent_mmol * lpm, "L"),
-        "agent_uptake": Q_(d[c.Y_UPTAKE + c.AGENT] * lpm, "L"),
+        "agent_liquid": q["agent_liquid"],
+        "agent_vapour": q["agent_vapour"],
+        "agent_uptake": q["agent_uptake"],
         "agent_vented": Q_(d[c.Y_VENT + c.AGENT] * lpm, "L"),
         "agent_leaked": Q_((d[c.Y_LEAK + c.AGENT] + d[c.Y_SAMPLE + c.AGENT]) * lpm, "L"),
-        "agent_metabolised": Q_(d[c.Y_METAB] * lpm, "L"),
+        "agent_metabolised": q["agent_metabolised"],
         "agent_in_circuit": Q_(base[c.P_NC] * y1[c.Y_FC + c.AGENT] * lpm, "L"),
         "agent_in_lungs": Q_(base[c.P_NL] * y1[c.Y_FA + c.AGENT] * lpm, "L"),
         "agent_in_body": Q_(body1[c.AGENT] * lpm, "L"),
-        "oxygen": Q_(gas_l[0] * amb * lpm, "L"),
-        "air": Q_(gas_l[1] * amb * lpm, "L"),
-        "nitrous_oxide": Q_(gas_l[2] * amb * lpm, "L"),
-        "nitrous_oxide_mass": Q_(n2o_g, "g"),
+        "oxygen": q["oxygen"],
+        "air": q["air"],
+        "nitrous_oxide": q["nitrous_oxide"],
+        "nitrous_oxide_mass": q["nitrous_oxide_mass"],
         "oxygen_consumed": Q_(d[c.Y_O2CONS] * lpm, "L"),
-        "co2_absorbed": Q_(co2_l, "L"),
-        "absorbent": Q_(float(absorbent_mass(co2_l, cap)), "g"),
+        "co2_absorbed": q["co2_absorbed"],
+        "absorbent": Q_(float(shared["absorbent"]), "g"),
         "co2e": Q_(0.0, "kg"),
-        "mac_hours": Q_(d[c.Y_MACMIN] / 60.0, "MAC_hour"),
+        "mac_hours": q["mac_hours"],
         "mean_fresh_gas_flow": Q_(fg_mmol / amb / duration, "L/min"),
-        "volume_deficit": Q_(sum(d[c.Y_MAKEUP + s] for s in range(c.NS)) / amb, "L"),
+        "volume_deficit": q["volume_deficit"],
     }
     totals["co2e"] = Q_(float(totals_co2e(totals, scenario.agent.name)["co2e_kg"]), "kg")  # the one CO2e rule
     return totals, balance

@@ -9,8 +9,10 @@ method whose step is set by accuracy rather than by the fastest time constant.
 
 Patient parameters are assembled without pint per case: every entry of a phase's parameter
 vector is ``c + a kg**0.75 + b kg`` in body mass (the Brody power laws and volumes per kg of
-:mod:`estimator.physiology`), fitted exactly from :func:`estimator.engine.phase_parameters` at
-three weights and verified at four more; the MAC entries scale with Mapleson's age factor.
+:mod:`estimator.physiology`), fitted exactly from the one case set-up
+(:func:`estimator.case_setup.prepare`) at three weights and verified at four more; the MAC entries
+scale with Mapleson's age factor. The totals are formed by
+:func:`estimator.accounting.totals_from_deltas`, as in the single case.
 
 References
 ----------
@@ -38,12 +40,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import circuit as c
-from . import engine
-from .accounting import absorbent_mass
+from .accounting import DELTA_TOTAL_UNITS, fresh_gas_litres, litres_per_mmol, totals_from_deltas  # noqa: F401 (litres_per_mmol re-exported)
+from .case_setup import CaseSetup, initial_state, prepare
+from .case_site import SiteState, site_state
 from .mac import mapleson_factor
-from .properties import agent as agent_properties
-from .properties import gas
-from .results import litres_per_mmol
 from .rkc import NCORE, integrate_cases
 from .scenario import Scenario
 from .units import Q_
@@ -65,23 +65,7 @@ CHECK_WEIGHTS = (0.5, 18.0, 110.0, 300.0)
 #: Entries of the parameter vector that depend on age (through Mapleson's factor).
 AGE_ENTRIES = (c.P_MAC_AGENT, c.P_MAC_N2O)
 #: Output columns of :func:`run_batch` and their units.
-TOTAL_UNITS = {
-    "duration": "min",
-    "agent_liquid": "mL",
-    "agent_vapour": "L",
-    "agent_uptake": "L",
-    "agent_metabolised": "L",
-    "oxygen": "L",
-    "air": "L",
-    "nitrous_oxide": "L",
-    "nitrous_oxide_mass": "g",
-    "co2_absorbed": "L",
-    "absorbent": "g",
-    "mac_hours": "MAC_hour",
-    "volume_deficit": "L",
-    "minimum_inspired_oxygen": "",
-    "final_mac_ratio": "",
-}
+TOTAL_UNITS = {"duration": "min", **DELTA_TOTAL_UNITS, "minimum_inspired_oxygen": "", "final_mac_ratio": ""}
 
 
 # --- a scenario as a template for many patients ----------------------------------------------------
@@ -102,7 +86,7 @@ class CaseTemplate:
     """
 
     scenario: Scenario
-    site: engine.SiteState
+    site: SiteState
     coefficients: np.ndarray
     reference_age: float
     initial: np.ndarray | None
@@ -121,11 +105,15 @@ def _scenario_at(scenario: Scenario, weight: float, age: float) -> Scenario:
     return scenario.model_copy(update={"patient": pt})
 
 
-def _engine_parameters(scenario: Scenario, site: engine.SiteState, weight: float, age: float):
-    sc = _scenario_at(scenario, weight, age)
-    base = engine.base_parameters(sc, engine.patient_from_scenario(sc), site)
-    phases = np.array([engine.phase_parameters(base, sc, ph, site) for ph in sc.phases])
-    return phases, engine.initial_state(sc, base, site)
+def _setup(scenario: Scenario, site: SiteState, weight: float, age: float) -> CaseSetup:
+    """The one case set-up of a patient of ``weight`` [kg] and ``age`` [year], every phase kept."""
+    return prepare(_scenario_at(scenario, weight, age), site=site, every_phase=True)
+
+
+def _engine_parameters(scenario: Scenario, site: SiteState, weight: float, age: float):
+    """Phase parameters (k, NP) and initial state of one patient, from the one case set-up."""
+    case = _setup(scenario, site, weight, age)
+    return np.array([ph.parameters for ph in case.phases]), case.initial
 
 
 def case_template(scenario: Scenario) -> CaseTemplate:
@@ -137,9 +125,10 @@ def case_template(scenario: Scenario) -> CaseTemplate:
         If the engine's parameters are no longer ``c + a kg**0.75 + b kg`` (checked at seven
         weights to 1e-9 relative) or depend on age other than through the MAC entries.
     """
-    site = engine.site_state(scenario)
+    site = site_state(scenario)
     age = float(scenario.patient.age.to("year").magnitude)
-    runs = [_engine_parameters(scenario, site, wt, age) for wt in FIT_WEIGHTS + CHECK_WEIGHTS]
+    cases = [_setup(scenario, site, wt, age) for wt in FIT_WEIGHTS + CHECK_WEIGHTS]
+    runs = [(np.array([ph.parameters for ph in case.phases]), case.initial) for case in cases]
     basis = np.array([[1.0, wt**0.75, wt] for wt in FIT_WEIGHTS])
     fit = np.stack([r[0] for r in runs[:3]])  # (3, k, NP)
     coef = np.linalg.solve(basis, fit.reshape(3, -1)).reshape(fit.shape)
@@ -158,8 +147,8 @@ def case_template(scenario: Scenario) -> CaseTemplate:
     younger[:, list(AGE_ENTRIES)] *= mapleson_factor(age + 30.0) / mapleson_factor(age)
     if not np.allclose(older, younger, rtol=1e-12, atol=0.0):
         raise RuntimeError("phase parameters depend on age other than through the Mapleson factor of MAC")
-    flows = np.array([engine.true_flows(scenario, ph, site) for ph in scenario.phases])
-    durations = np.array([ph.duration.to("min").magnitude for ph in scenario.phases])
+    flows = np.array([ph.true_flows for ph in cases[0].phases])
+    durations = np.array([ph.duration for ph in cases[0].phases])
     return CaseTemplate(
         scenario, site, coef, age, initial, durations, flows, scenario.circuit.deficit_makeup == "room_air"
     )
@@ -208,7 +197,7 @@ def parameters(template: CaseTemplate, weights: np.ndarray, ages: np.ndarray) ->
 def _initial_states(template: CaseTemplate, params: np.ndarray) -> np.ndarray:
     if template.initial is not None:
         return np.broadcast_to(template.initial, (params.shape[0], c.NY)).copy()
-    return np.array([engine.initial_state(template.scenario, p[0], template.site) for p in params])
+    return np.array([initial_state(template.scenario, p[0], template.site) for p in params])
 
 
 def absolute_tolerance() -> np.ndarray:
@@ -290,35 +279,8 @@ def run_batch(
 
 def _totals(template, p0, y0, y1, d, mk, total) -> dict[str, np.ndarray]:
     """Totals as :func:`estimator.assemble.build_result` forms them, for many cases at once."""
-    site = template.site
-    amb = site.ambient_pressure_kpa / (engine.R_GAS * site.temperature_k) * 1000.0  # mmol per ambient L
-    lpm = litres_per_mmol()
-    ag = agent_properties(template.scenario.agent.name)
-    dy = y1 - y0
-    flows = template.true_flows  # (k, 3)
-    carrier = flows.sum(axis=1)  # (k,)
-    share = np.divide(flows, carrier[:, None], out=np.zeros_like(flows), where=carrier[:, None] > 0)
-    extra = np.zeros_like(mk) if template.makeup_air else mk / amb
-    gas_l = d @ flows + extra @ share  # (n, 3) ambient litres
-    agent_mmol = dy[:, c.Y_FGIN + c.AGENT] + dy[:, c.Y_MAKEUP + c.AGENT]
-    co2_l = dy[:, c.Y_CO2ABS] * lpm
-    cap = template.scenario.circuit.absorbent_capacity.to("L").magnitude
-    n2o_mmol = dy[:, c.Y_FGIN + c.N2O] + dy[:, c.Y_MAKEUP + c.N2O]
-    return {
-        "duration": total.copy(),
-        "agent_liquid": agent_mmol
-        / 1000
-        * ag.molar_mass.to("g/mol").magnitude
-        / ag.liquid_density.to("g/mL").magnitude,
-        "agent_vapour": agent_mmol * lpm,
-        "agent_uptake": dy[:, c.Y_UPTAKE + c.AGENT] * lpm,
-        "agent_metabolised": dy[:, c.Y_METAB] * lpm,
-        "oxygen": gas_l[:, 0] * amb * lpm,
-        "air": gas_l[:, 1] * amb * lpm,
-        "nitrous_oxide": gas_l[:, 2] * amb * lpm,
-        "nitrous_oxide_mass": n2o_mmol / 1000 * gas("nitrous_oxide").molar_mass.to("g/mol").magnitude,
-        "co2_absorbed": co2_l,
-        "absorbent": absorbent_mass(co2_l, cap),
-        "mac_hours": dy[:, c.Y_MACMIN] / 60.0,
-        "volume_deficit": dy[:, c.Y_MAKEUP : c.Y_MAKEUP + c.NS].sum(axis=1) / amb,
-    }
+    sc = template.scenario
+    amb = template.site.mmol_per_litre
+    gas_l = fresh_gas_litres(d, template.true_flows, mk, amb, template.makeup_air)  # (n, 3) ambient litres
+    cap = sc.circuit.absorbent_capacity.to("L").magnitude
+    return {"duration": total.copy(), **totals_from_deltas(c.running_totals(y1 - y0), gas_l, amb, sc.agent.name, cap)}

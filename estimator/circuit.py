@@ -1,10 +1,13 @@
-"""The circle-system compartment model: state layout, right-hand side and its integrator.
+"""The circle-system compartment model: state and parameter layout, and the right-hand side (physics only).
 
-This module is the hot loop. It works in plain floats in fixed internal units: amounts in mmol,
-time in min, flows in mmol/min, blood and tissue volumes in L, and every gas, blood or tissue
-concentration as an *equivalent dry alveolar fraction* F (partial pressure divided by the dry
-alveolar pressure, Pb - PH2O). The engine (:mod:`estimator.engine`) converts pint quantities into
-the parameter vector once per phase and converts the results back.
+This module is the hot loop's physics; the integrators are :mod:`estimator.dopri5` (one case) and
+:mod:`estimator.rkc` (the batch). It has no package imports, so it can be loaded on its own with
+the compiler switched off (the plain-Python speed reference of the benchmarks). It works in plain
+floats in fixed internal units: amounts in mmol, time in min, flows in mmol/min, blood and tissue
+volumes in L, and every gas, blood or tissue concentration as an *equivalent dry alveolar
+fraction* F (partial pressure divided by the dry alveolar pressure, Pb - PH2O). The parameter
+vectors come from :mod:`estimator.case_setup` (once per phase), the results are read back by
+:mod:`estimator.assemble`.
 
 Model
 -----
@@ -33,21 +36,19 @@ with an air-entrainment valve and whenever no fresh gas flows at all), which the
 separately; the make-up gas enters the balance of every species, so the fractions sum to 1. A
 vaporizer with no carrier gas delivers nothing.
 
-Integrator: Dormand-Prince 5(4) with an embedded error estimate and a PI step-size controller
-(Hairer, Norsett and Wanner, Solving ODEs I, 2nd ed. 1993, sec. II.4-5). Runge-Kutta methods keep
-every linear invariant exactly, so the species mass balances hold to rounding error.
+Every species enters and leaves through explicit flows (running totals in the state), so an
+integrator that keeps linear invariants (any Runge-Kutta method) closes the species mass balances to
+rounding error.
 
 References
 ----------
 .. [1] Eger EI II. Anesthetic Uptake and Action. Williams & Wilkins 1974.
 .. [2] Mapleson WW. An electric analogue for uptake and exchange of inert gases and other agents.
    J Appl Physiol 1963;18:197-204.
-.. [3] Dormand JR, Prince PJ. A family of embedded Runge-Kutta formulae. J Comput Appl Math
-   1980;6:19-26.
-.. [4] Levitt DG. Heterogeneity of human adipose blood flow. BMC Clin Pharmacol 2007;7:1.
-.. [5] Perl W, Lesser GT, Steele JM. The kinetics of distribution of the fat-soluble inert gas
+.. [3] Levitt DG. Heterogeneity of human adipose blood flow. BMC Clin Pharmacol 2007;7:1.
+.. [4] Perl W, Lesser GT, Steele JM. The kinetics of distribution of the fat-soluble inert gas
    cyclopropane in the body. Biophys J 1960;1:111-35 (journal, year and pages from memory).
-.. [6] Eger EI II, Saidman LJ. Illustrations of inhaled anesthetic uptake, including intertissue
+.. [5] Eger EI II, Saidman LJ. Illustrations of inhaled anesthetic uptake, including intertissue
    diffusion to and from fat. Anesth Analg 2005;100:1020-33.
 """
 
@@ -326,136 +327,6 @@ def rhs(y, p, w, dy):
     dy[Y_MACMIN] = w[W_MAC]
 
 
-# Dormand-Prince 5(4) tableau (Dormand and Prince 1980; Hairer et al. 1993, Table II.5.2).
-_C = np.array([0.0, 1 / 5, 3 / 10, 4 / 5, 8 / 9, 1.0, 1.0])
-_A = np.array(
-    [
-        [0, 0, 0, 0, 0, 0],
-        [1 / 5, 0, 0, 0, 0, 0],
-        [3 / 40, 9 / 40, 0, 0, 0, 0],
-        [44 / 45, -56 / 15, 32 / 9, 0, 0, 0],
-        [19372 / 6561, -25360 / 2187, 64448 / 6561, -212 / 729, 0, 0],
-        [9017 / 3168, -355 / 33, 46732 / 5247, 49 / 176, -5103 / 18656, 0],
-        [35 / 384, 0, 500 / 1113, 125 / 192, -2187 / 6784, 11 / 84],
-    ]
-)
-#: Fifth-order weights minus embedded fourth-order weights.
-_E = np.array([71 / 57600, 0.0, -71 / 16695, 71 / 1920, -17253 / 339200, 22 / 525, -1 / 40])
-
-
-@_jit
-def integrate_phase(y0, p, t_out, rtol, atol, h0, max_steps):
-    """Integrate one phase from ``t_out[0]`` to ``t_out[-1]``, landing exactly on every ``t_out``.
-
-    Parameters
-    ----------
-    y0 : float64[NY]
-        State at ``t_out[0]``.
-    p : float64[NP]
-        Parameters of the phase.
-    t_out : float64[m]
-        Increasing output times [min]; the first is the start of the phase.
-    rtol, atol : float
-        Relative tolerance and absolute-tolerance vector (float64[NY]).
-    h0 : float
-        First step to try [min] (the last accepted step of the previous phase, or 0 to choose).
-    max_steps : int
-        Safety limit on accepted plus rejected steps.
-
-    Returns
-    -------
-    ys : float64[m, NY]
-        States at ``t_out``.
-    stats : int64[3]
-        Accepted steps, rejected steps, right-hand-side evaluations (negative accepted = failure).
-    h : float
-        Last step size.
-    """
-    m = t_out.shape[0]
-    ys = np.empty((m, NY))
-    ys[0] = y0
-    stats = np.zeros(3, dtype=np.int64)
-    w = np.empty(NW)
-    k = np.empty((7, NY))
-    y = y0.copy()
-    ytmp = np.empty(NY)
-    t = t_out[0]
-    rhs(y, p, w, k[0])
-    stats[2] += 1
-    span = t_out[m - 1] - t_out[0]
-    h = h0
-    if h <= 0.0:
-        # Hairer's starting-step heuristic, reduced to its first estimate.
-        d0 = 0.0
-        d1 = 0.0
-        for i in range(NY):
-            sc = atol[i] + rtol * abs(y[i])
-            d0 += (y[i] / sc) ** 2
-            d1 += (k[0, i] / sc) ** 2
-        d0 = math.sqrt(d0 / NY)
-        d1 = math.sqrt(d1 / NY)
-        h = 0.01 * d0 / d1 if d0 > 1e-5 and d1 > 1e-5 else 1e-4
-        h = min(h, 0.1)
-    err_old = 1e-4
-    h_prop = h
-    j = 1
-    steps = 0
-    tiny = 1e-12 * max(1.0, span)
-    while j < m:
-        if steps >= max_steps:
-            stats[0] = -stats[0] - 1
-            return ys, stats, h_prop
-        steps += 1
-        t_next = t_out[j]
-        h = h_prop
-        last = False
-        if t + h >= t_next - tiny:
-            h = t_next - t
-            last = True
-        for s in range(1, 7):
-            for i in range(NY):
-                acc = y[i]
-                for r in range(s):
-                    acc += h * _A[s, r] * k[r, i]
-                ytmp[i] = acc
-            rhs(ytmp, p, w, k[s])
-        stats[2] += 6
-        # The 7th stage is evaluated at the 5th-order solution (first same as last).
-        err = 0.0
-        for i in range(NY):
-            e = 0.0
-            for r in range(7):
-                e += _E[r] * k[r, i]
-            e *= h
-            sc = atol[i] + rtol * max(abs(y[i]), abs(ytmp[i]))
-            err += (e / sc) ** 2
-        err = math.sqrt(err / NY)
-        if err <= 1.0:
-            t = t_next if last else t + h
-            for i in range(NY):
-                y[i] = ytmp[i]
-                k[0, i] = k[6, i]
-            stats[0] += 1
-            if last:
-                ys[j] = y
-                j += 1
-            # PI step-size control (Hairer et al. 1993, sec. IV.2, alpha 0.7/5, beta 0.4/5)
-            fac = 0.9 * err ** (-0.7 / 5) * err_old ** (0.4 / 5) if err > 0.0 else 5.0
-            fac = min(5.0, max(0.2, fac))
-            err_old = max(err, 1e-4)
-            if last:
-                h_prop = min(h_prop, h * fac) if fac < 1.0 else h_prop
-            else:
-                h_prop = h * fac
-        else:
-            stats[1] += 1
-            h_prop = h * max(0.2, 0.9 * err ** (-1 / 5))
-            if h_prop < 1e-12:
-                stats[0] = -stats[0] - 1
-                return ys, stats, h_prop
-    return ys, stats, h_prop
-
-
 @_jit
 def derived_series(ys, p):
     """Flows and fractions (``W_*`` layout) at every stored state, shape (m, NW)."""
@@ -466,3 +337,22 @@ def derived_series(ys, p):
         flows(ys[i], p, w)
         out[i] = w
     return out
+
+
+def running_totals(d):
+    """What the running totals grew by, for a state difference ``d = y_end - y_start``.
+
+    ``d`` has shape (NY,) for one case or (n, NY) for many; amounts [mmol] (``makeup``: all
+    species), ``mac_minutes`` [MAC x min]. Plain Python: the layout's reading for the totals
+    (:func:`estimator.accounting.totals_from_deltas`).
+    """
+    t = d.T
+    return {
+        "agent_delivered": t[Y_FGIN + AGENT] + t[Y_MAKEUP + AGENT],
+        "agent_uptake": t[Y_UPTAKE + AGENT],
+        "agent_metabolised": t[Y_METAB],
+        "nitrous_oxide_delivered": t[Y_FGIN + N2O] + t[Y_MAKEUP + N2O],
+        "co2_absorbed": t[Y_CO2ABS],
+        "makeup": t[Y_MAKEUP : Y_MAKEUP + NS].sum(axis=0),
+        "mac_minutes": t[Y_MACMIN],
+    }

@@ -15,7 +15,8 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 import pint
 
-from .constants import MOLAR_VOLUME_REFERENCE, WATER_VAPOUR_37C_KPA
+from .accounting import litres_per_mmol  # noqa: F401 (re-exported)
+from .constants import WATER_VAPOUR_37C_KPA
 from .limits import INSPIRED_OXYGEN_FLOOR, TARGET_BAND  # noqa: F401 (TARGET_BAND re-exported)
 from .properties import CO2E_BASES
 from .units import GAS_VOLUME_REFERENCE
@@ -62,11 +63,6 @@ SERIES_UNITS = {
     "co2_to_absorbent": "mL/min",
     "agent_liquid_cumulative": "mL",
 }
-
-
-def litres_per_mmol() -> float:
-    """Free-gas litres at the package reference (15 degC, 101.325 kPa) per mmol, ideal gas."""
-    return MOLAR_VOLUME_REFERENCE / 1000.0
 
 
 @dataclass

@@ -36,7 +36,6 @@ References
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -44,10 +43,21 @@ import numpy as np
 
 from . import circuit as c
 from . import engine
-from .errors import InputError
+from .assemble import Segment
+from .case_setup import prepare
+from .dopri5 import integrate_phase
+from .floor_settings import (  # noqa: F401 (settable_values, round_up, DEFAULT_SCALE, settings_from re-exported)
+    DEFAULT_SCALE,
+    Settings,
+    candidates,
+    round_up,
+    settable_values,
+    settings_from,
+    static_failures,
+    with_flows,
+)
 from .limits import (
     CODES,
-    HYPOXIC_FRACTION,
     LABEL_MAC_HOURS,
     LABEL_MIDDLE_FLOW,
     LABEL_MINIMUM_FLOW,
@@ -62,27 +72,8 @@ from .units import Q_
 LIMITS = tuple(k for k in codes_of("binding") if k not in ("FLOWMETER_MINIMUM", "NO_FRESH_GAS"))
 #: Plain words for each binding code (the ``limits`` key of the JSON), from the registry.
 LIMIT_TEXT = {k: CODES[k].meaning for k in (*LIMITS, "FLOWMETER_MINIMUM")}
-#: Default flowmeter scale: 0.1 L/min steps up to 1 L/min, 0.5 L/min above (common practice, from
-#: memory, no source).
-DEFAULT_SCALE = ((1.0, 0.1), (15.0, 0.5))
 CHECK_INTERVAL = 1.0  # [min] resolution of the limit checks
 from .results import SETTLE  # noqa: E402  inspired O2 is judged from this case time on [min]
-
-
-@dataclass(frozen=True)
-class Settings:
-    """Plain-number settings of the flow floor (from the scenario's ``[flow_floor]`` table)."""
-
-    threshold: float
-    reach_within: float
-    wash_out_to: float
-    wash_out_within: float
-    basal_o2: float
-    min_o2_share: float
-    max_flow: float
-    grid: float
-    scale: np.ndarray
-    policies: tuple[str, ...]
 
 
 @dataclass
@@ -93,6 +84,16 @@ class Check:
     margins: dict[str, Any]
     end_state: np.ndarray | None = None
     mac_minutes: float = 0.0
+
+
+@dataclass(frozen=True)
+class Floor:
+    """Floor of a phase from one time: settable flows (None: none passes), their check, binding limits, next below."""
+
+    flows: tuple[float, float, float] | None
+    check: Check | None
+    binding: list[str]
+    below: tuple[float, float, float] | None = None
 
 
 @dataclass
@@ -127,148 +128,35 @@ class FloorResult:
         )
 
 
-def settings_from(scenario: Scenario, threshold: float | None = None) -> Settings:
-    """Checked plain-number settings; the scale is the sorted list of settable flows [L/min]."""
-    ff = scenario.flow_floor
-    thr = ff.threshold_inspired_oxygen.to("").magnitude if threshold is None else float(threshold)
-    if not HYPOXIC_FRACTION <= thr <= 1.0:
-        raise InputError("flow_floor.threshold_inspired_oxygen", thr, "0.21 to 1 (never below room air)")
-    if ff.threshold_basis == "partial_pressure":
-        from .site import fraction_for_sea_level_threshold
-
-        ambient = engine.site_state(scenario).ambient_pressure_kpa
-        at_site = float(fraction_for_sea_level_threshold(thr, Q_(ambient, "kPa")))
-        if at_site > 1.0:
-            raise InputError(
-                "flow_floor.threshold_inspired_oxygen",
-                thr,
-                f"a PiO2 reachable at {ambient:.1f} kPa (even 100 % O2 gives less)",
-            )
-        thr = at_site
-    bands = (
-        [(b.up_to.to("L/min").magnitude, b.step.to("L/min").magnitude) for b in ff.scale]
-        if ff.scale
-        else list(DEFAULT_SCALE)
-    )
-    return Settings(
-        thr,
-        ff.reach_within.to("min").magnitude,
-        ff.wash_out_to.to("MAC").magnitude,
-        ff.wash_out_within.to("min").magnitude,
-        ff.basal_oxygen_flow.to("L/min").magnitude,
-        ff.minimum_oxygen_share.to("").magnitude,
-        ff.maximum_flow.to("L/min").magnitude,
-        ff.grid_interval.to("min").magnitude,
-        settable_values(bands),
-        tuple(ff.policies),
-    )
-
-
-def settable_values(bands: list[tuple[float, float]]) -> np.ndarray:
-    """Every settable flow of a scale given as (up_to, step) bands [L/min], ascending.
-
-    >>> settable_values([(1.0, 0.1), (3.0, 0.5)]).round(2).tolist()
-    [0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0, 1.5, 2.0, 2.5, 3.0]
-    """
-    values, low = [], 0.0
-    for i, (up, step) in enumerate(sorted(bands)):
-        if up <= low or step <= 0:
-            raise InputError(
-                f"flow_floor.scale[{i}]",
-                f"up_to {up:g}, step {step:g}",
-                "bands with increasing up_to and a step above 0",
-            )
-        n = int(math.floor((up - low) / step + 1e-9))
-        values += [round(low + k * step, 9) for k in range(1, n + 1)]
-        low = values[-1] if values else up
-    return np.array(values)
-
-
-def round_up(flow: float, scale: np.ndarray) -> float | None:
-    """The smallest settable value at or above ``flow`` (None above the scale's top).
-
-    >>> round_up(0.33, settable_values([(1.0, 0.1), (15.0, 0.5)]))
-    0.4
-    """
-    if flow <= 0:
-        return 0.0
-    i = int(np.searchsorted(scale, flow - 1e-9))
-    return float(scale[i]) if i < len(scale) else None
-
-
-def candidates(phase: PhaseInput, st: Settings) -> list[tuple[float, float, float]]:
-    """Settable (O2, air, N2O) flows keeping the phase's proportions, ascending in total."""
-    flows = np.array([q.to("L/min").magnitude for q in phase.flows()])
-    total = flows.sum()
-    if total <= 0:
-        return []
-    share = flows / total
-    seen, out = set(), []
-    for t in st.scale:
-        f = tuple(round_up(t * s, st.scale) if s > 0 else 0.0 for s in share)
-        if None in f or f in seen:
-            continue
-        seen.add(f)
-        out.append(f)
-    return sorted(out, key=lambda f: (sum(f), f))
-
-
-def _with_flows(phase: PhaseInput, flows: tuple[float, float, float]) -> PhaseInput:
-    o2, air, n2o = (Q_(v, "L/min") for v in flows)
-    return phase.model_copy(
-        update={
-            "oxygen": o2,
-            "air": air,
-            "nitrous_oxide": n2o,
-            "oxygen_fraction": None,
-            "total_flow": None,
-            "balance": None,
-        }
-    )
-
-
-def static_failures(flows: tuple[float, float, float], st: Settings, agent_name: str) -> list[str]:
-    """Limits that need no simulation: basal O2, O2 share with N2O, flowmeter range, label minimum."""
-    o2, air, n2o = flows
-    out = []
-    if o2 < st.basal_o2 - 1e-9:
-        out.append("BASAL_O2")
-    if n2o > 0 and o2 / (o2 + n2o) < st.min_o2_share - 1e-9:
-        out.append("O2_PROPORTION")
-    if max(flows) > st.max_flow + 1e-9:
-        out.append("FLOWMETER_RANGE")
-    if "sevoflurane_us_label" in st.policies and agent_name == "sevoflurane" and sum(flows) < LABEL_MINIMUM_FLOW - 1e-9:
-        out.append("LABEL_SEVOFLURANE_US")
-    return out
-
-
 class Planner:
     """Runs trial segments of a scenario on the circuit kernel (no pint in the loop)."""
 
     def __init__(self, scenario: Scenario, st: Settings):
         self.sc = scenario
         self.st = st
-        self.patient = engine.patient_from_scenario(scenario)
-        self.site = engine.site_state(scenario)
-        self.base = engine.base_parameters(scenario, self.patient, self.site)
-        self.y0 = engine.initial_state(scenario, self.base, self.site)
+        self.case = prepare(scenario)
+        self.patient = self.case.patient
+        self.site = self.case.site
+        self.base = self.case.base
+        self.y0 = self.case.initial
         self.atol = engine.absolute_tolerance()
-        self.amb = self.site.ambient_pressure_kpa / (engine.R_GAS * self.site.temperature_k) * 1000.0
+        self.amb = self.case.mmol_per_litre
 
-    def run(self, phase: PhaseInput, y: np.ndarray, t0: float, t1: float, step: float = CHECK_INTERVAL):
-        """States and derived flows from ``t0`` to ``t1`` for ``phase`` starting at state ``y``."""
-        p = engine.phase_parameters(self.base, self.sc, phase, self.site)
-        times = engine.phase_times(t0, t1 - t0, step)
-        ys, stats, _ = c.integrate_phase(y, p, times, 1e-6, self.atol, 0.0, 10**6)
+    def run(self, phase: PhaseInput, y: np.ndarray, t0: float, t1: float, step: float = CHECK_INTERVAL) -> Segment:
+        """States and derived flows every ``step`` from ``t0`` to ``t1`` for ``phase`` starting at state ``y``."""
+        ph = self.case.phase_setup(phase, t0, t1 - t0)
+        times = ph.times(step)
+        ys, stats, _ = integrate_phase(y, ph.parameters, times, 1e-6, self.atol, 0.0, 10**6)
         if stats[0] < 0:
             raise RuntimeError("the circuit model failed to integrate a trial segment")
-        return times, ys, c.derived_series(ys, p), p
+        return Segment(ph, times, ys, c.derived_series(ys, ph.parameters), stats)
 
     def check(self, phase: PhaseInput, flows, y, t0, t_phase0, t1, mac_before: float = 0.0) -> Check:
         """Run ``flows`` from ``t0`` to the phase end ``t1`` and test every limit."""
-        trial = _with_flows(phase, flows)
+        trial = with_flows(phase, flows)
         failed = static_failures(flows, self.st, self.sc.agent.name)
-        times, ys, ws, p = self.run(trial, y, t0, t1)
+        seg = self.run(trial, y, t0, t1)
+        times, ys, ws, p = seg.times, seg.states, seg.derived, seg.phase.parameters
         judged = times >= SETTLE
         fio2 = ws[judged, c.W_FI + c.O2] if judged.any() else ws[-1:, c.W_FI + c.O2]
         margins: dict[str, Any] = {
@@ -320,11 +208,11 @@ class Planner:
                 failed.append("LABEL_SEVOFLURANE_US")
         return Check(sorted(set(failed), key=LIMITS.index), margins, ys[-1].copy(), mac_min)
 
-    def floor(self, phase, y, t0, t_phase0, t1, mac_before=0.0) -> dict[str, Any]:
+    def floor(self, phase, y, t0, t_phase0, t1, mac_before=0.0) -> Floor:
         """Bisection for the lowest candidate of ``phase`` at which every limit holds from ``t0``."""
         cands = candidates(phase, self.st)
         if not cands:
-            return {"flows": None, "check": None, "binding": ["NO_FRESH_GAS"], "below": None}
+            return Floor(None, None, ["NO_FRESH_GAS"])
         cache: dict[int, Check] = {}
 
         def test(i: int) -> Check:
@@ -334,7 +222,7 @@ class Planner:
 
         hi = len(cands) - 1
         if test(hi).failed:
-            return {"flows": None, "check": test(hi), "binding": test(hi).failed, "below": None}
+            return Floor(None, test(hi), test(hi).failed)
         lo = -1  # invariant: cands[lo] fails (or lo = -1), cands[hi] passes
         while hi - lo > 1:
             mid = (lo + hi) // 2
@@ -343,7 +231,7 @@ class Planner:
             else:
                 hi = mid
         binding = test(lo).failed if lo >= 0 else ["FLOWMETER_MINIMUM"]
-        return {"flows": cands[hi], "check": test(hi), "binding": binding, "below": cands[lo] if lo >= 0 else None}
+        return Floor(cands[hi], test(hi), binding, cands[lo] if lo >= 0 else None)
 
 
 def _flow_dict(flows) -> dict[str, Any]:
@@ -403,7 +291,7 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
 
     st = settings_from(scenario, threshold)
     pl = Planner(scenario, st)
-    plan = engine.simulate(scenario)
+    plan = engine.simulate_setup(pl.case)
     phases_out, schedule, grid_out = [], [], []
     y, t, mac_low = pl.y0.copy(), 0.0, 0.0
     live = [(i, ph) for i, ph in enumerate(scenario.phases) if ph.duration.to("min").magnitude > 0]
@@ -412,28 +300,28 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
         dur = ph.duration.to("min").magnitude
         res = pl.floor(ph, y, t, t, t + dur, mac_low)
         planned = tuple(q.to("L/min").magnitude for q in ph.flows())
-        chosen = res["flows"] or planned
-        chk = res["check"] if res["flows"] else pl.check(ph, chosen, y, t, t, t + dur, mac_low)
+        chosen = res.flows or planned
+        chk = res.check if res.flows else pl.check(ph, chosen, y, t, t, t + dur, mac_low)
         total = float(sum(chosen))
         entry = {
             "index": i,
             "label": ph.label or _phase_label(n, len(live)),
             "start": Q_(t, "min"),
             "end": Q_(t + dur, "min"),
-            "floor": Q_(total, "L/min") if res["flows"] else None,
-            "flows": _flow_dict(chosen) if res["flows"] else None,
-            "binding": res["binding"][0] if res["binding"] else None,
-            "binding_all": res["binding"],
-            "binding_text": LIMIT_TEXT.get(res["binding"][0], "") if res["binding"] else "",
-            "margins": {k: v for k, v in (chk.margins if chk else {}).items() if k not in res["binding"]},
+            "floor": Q_(total, "L/min") if res.flows else None,
+            "flows": _flow_dict(chosen) if res.flows else None,
+            "binding": res.binding[0] if res.binding else None,
+            "binding_all": res.binding,
+            "binding_text": LIMIT_TEXT.get(res.binding[0], "") if res.binding else "",
+            "margins": {k: v for k, v in (chk.margins if chk else {}).items() if k not in res.binding},
             "planned_total": Q_(float(sum(planned)), "L/min"),
-            "flow_class": f"{flow_class(total)} flow ({FLOW_CLASS_SOURCE})" if res["flows"] else None,
+            "flow_class": f"{flow_class(total)} flow ({FLOW_CLASS_SOURCE})" if res.flows else None,
             "lowest_oxygen_flow": None,
         }
-        if res["flows"]:
+        if res.flows:
             o2min = lowest_oxygen_flow(pl, ph, chosen, y, t, t + dur, mac_low)
             entry["lowest_oxygen_flow"] = Q_(o2min, "L/min") if o2min is not None else None
-            new_phases[i] = _with_flows(ph, chosen)
+            new_phases[i] = with_flows(ph, chosen)
         phases_out.append(entry)
         schedule.append(
             {
@@ -443,7 +331,7 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
                 "duration": Q_(dur, "min"),
                 "total": Q_(total, "L/min"),
                 **_flow_dict(chosen),
-                "settable": bool(res["flows"]),
+                "settable": bool(res.flows),
             }
         )
         if total < LABEL_MIDDLE_FLOW - 1e-9:
@@ -466,14 +354,15 @@ def _grid(pl: Planner, scenario: Scenario, live) -> list[dict[str, Any]]:
     out, y, t = [], pl.y0.copy(), 0.0
     for _, ph in live:
         dur = ph.duration.to("min").magnitude
-        times, ys, _, _ = pl.run(ph, y, t, t + dur, pl.st.grid)
+        seg = pl.run(ph, y, t, t + dur, pl.st.grid)
+        times, ys = seg.times, seg.states
         for tg, yg in zip(times[:-1], ys[:-1], strict=True):
             res = pl.floor(ph, yg, tg, t, t + dur)
             out.append(
                 {
                     "time": Q_(float(tg), "min"),
-                    "floor": Q_(float(sum(res["flows"])), "L/min") if res["flows"] else None,
-                    "binding": res["binding"][0] if res["binding"] else None,
+                    "floor": Q_(float(sum(res.flows)), "L/min") if res.flows else None,
+                    "binding": res.binding[0] if res.binding else None,
                 }
             )
         y, t = ys[-1].copy(), t + dur

@@ -232,7 +232,7 @@ def test_non_absorbing_test_lung_washes_in_with_volume_over_flow():
     y0 = engine.initial_state(sc, base, site)
     y0[c.Y_FA : c.Y_FA + c.NS] = y0[c.Y_FC : c.Y_FC + c.NS]
     times = np.linspace(0, 20, 41)
-    ys, stats, _ = c.integrate_phase(y0, p, times, 1e-9, engine.absolute_tolerance(), 0.0, 10**6)
+    ys, stats, _ = engine.integrate_phase(y0, p, times, 1e-9, engine.absolute_tolerance(), 0.0, 10**6)
     assert stats[0] > 0
     amount = base[c.P_NC] * ys[:, c.Y_FC + c.AGENT] + base[c.P_NL] * ys[:, c.Y_FA + c.AGENT]
     total = base[c.P_NC] + base[c.P_NL]
