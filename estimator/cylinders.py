@@ -54,8 +54,11 @@ from .real_gas import (
     free_gas,
     litres_per_kg,
     molar_density,
+    molar_mass,
+    pressure_at,
     props_si,
     reference_molar_volume,
+    saturated_density,
     vapour_pressure,
 )
 from .supply_values import supply_data
@@ -141,17 +144,7 @@ def compressed_cylinder(
     check_range(p_gauge, f"{f}.pressure", Q_(0, "bar"), Q_(MAX_PRESSURE_BAR, "bar"), value=pressure)
     rho = molar_density(gas, t, p_abs)
     if service_pressure is not None:
-        settled = Q_(
-            props_si()(
-                "P",
-                "T",
-                REFERENCE_TEMPERATURE.to("K").magnitude,
-                "Dmolar",
-                rho.to("mol/m^3").magnitude,
-                COOLPROP_FLUIDS[gas],
-            ),
-            "Pa",
-        )
+        settled = pressure_at(gas, REFERENCE_TEMPERATURE, rho)
         settled_gauge = (settled - ambient_pressure).to("bar").magnitude
         if settled_gauge > hi_bar * (1 + 1e-6):
             raise InputError(
@@ -259,8 +252,7 @@ def nitrous_oxide_cylinder(
     t = cylinder_temperature(temperature, f"{f}.temperature")
     net = gross - tare
     notes: list[tuple[str, str]] = []
-    fluid = COOLPROP_FLUIDS["nitrous_oxide"]
-    molar_mass = Q_(props_si()("M", "", 0, "", 0, fluid), "kg/mol")
+    m = molar_mass("nitrous_oxide")
     tc = critical_temperature("nitrous_oxide")
     p_sat = vapour_pressure("nitrous_oxide", t)
     phase = "liquid and vapour" if p_sat is not None else "supercritical"
@@ -272,11 +264,11 @@ def nitrous_oxide_cylinder(
         check_range(wc, f"{f}.water_capacity", Q_(0, "L"), Q_(100, "L"), low_inclusive=False, value=water_capacity)
         density = (net / wc).to("kg/m^3").magnitude
         if p_sat is not None:
-            vapour_density = props_si()("D", "T", t.magnitude, "Q", 1, fluid)
+            vapour_density = (saturated_density("nitrous_oxide", t, "vapour") * m).to("kg/m^3").magnitude
             if density < vapour_density:
                 phase = "vapour only"
         if phase != "liquid and vapour":
-            p_state = Q_(props_si()("P", "T", t.magnitude, "D", max(density, 1e-6), fluid) / 1000.0, "kPa")
+            p_state = pressure_at("nitrous_oxide", t, Q_(max(density, 1e-6), "kg/m^3") / m)
             z = compressibility("nitrous_oxide", t, p_state)
         ratio = Q_(supply_data()["nitrous_oxide"]["filling_ratio"]).to("kg/L").magnitude
         if (net / wc).to("kg/L").magnitude > ratio:
@@ -315,17 +307,17 @@ def nitrous_oxide_cylinder(
         check_range(reserve, f"{f}.reserve_weight", Q_(0, "kg"), Q_(200, "kg"), value=reserve_weight)
     residual = Q_(0.0, "kg")
     if wc is not None:  # the gas left at ambient pressure cannot be delivered
-        residual = Q_(props_si()("D", "T", t.magnitude, "P", ambient_pressure.to("Pa").magnitude, fluid), "kg/m^3") * wc
+        residual = molar_density("nitrous_oxide", t, ambient_pressure) * m * wc
     keep = max(reserve, residual.to("kg"))
     usable_mass = max(net - keep, Q_(0.0, "kg"))
     if usable_mass.magnitude == 0:
         notes.append(("BELOW_RESERVE", f"{f}: net weight is at or below the reserve; nothing usable is counted"))
-    contents = free_gas(net / molar_mass)
+    contents = free_gas(net / m)
     return CylinderContents(
         gas="nitrous_oxide",
         count=n,
         contents=contents,
-        usable=(free_gas(usable_mass / molar_mass) * n).to("L"),
+        usable=(free_gas(usable_mass / m) * n).to("L"),
         compressibility=z,
         pressure=p_state,
         vapour_pressure=p_sat,

@@ -187,10 +187,16 @@ def pure_gas_properties(name: str, t: float, p: float) -> tuple[float, float, fl
     >>> round(rho, 3), round(mu * 1e6, 2)
     (1.331, 20.27)
     """
-    import CoolProp.CoolProp as CP  # lazy: keeps the app start fast
+    from .real_gas import props_si  # CoolProp, imported lazily: keeps the app start fast
+    from .real_gas_table import table_flow_gas
 
     fluid = COOLPROP_NAMES[name]
-    rho = CP.PropsSI("D", "T", t, "P", p, fluid)
+    tabulated = table_flow_gas(name, t, p)  # CoolProp values tabulated (1e-6); None outside the table
+    if tabulated is not None:
+        z, mu_table, molar_mass = tabulated
+        rho = p * molar_mass / (z * GAS_CONSTANT * t)
+    else:
+        rho, mu_table, molar_mass = props_si()("D", "T", t, "P", p, fluid), None, props_si()("M", fluid)
     if f"lennard_jones.{name}" in _data():  # CoolProp has no viscosity model for it
         lj = f"lennard_jones.{name}"
         mu = chapman_enskog_viscosity(
@@ -199,9 +205,11 @@ def pure_gas_properties(name: str, t: float, p: float) -> tuple[float, float, fl
             data_value(lj, "epsilon_over_k", "K"),
             data_value(lj, "molar_mass", "g/mol"),
         )
+    elif mu_table is not None:
+        mu = mu_table
     else:
-        mu = CP.PropsSI("V", "T", t, "P", p, fluid)
-    return rho, mu, CP.PropsSI("M", fluid)
+        mu = props_si()("V", "T", t, "P", p, fluid)
+    return rho, mu, molar_mass
 
 
 def wilke_viscosity(x: Any, mu: Any, m: Any) -> float:

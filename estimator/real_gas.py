@@ -2,7 +2,10 @@
 
 Oxygen, medical air and nitrous oxide by CoolProp's reference equations of state; amounts are
 reported as free gas at the package reference (15 degC, 101.325 kPa): litres = moles x R T_ref / p_ref.
-CoolProp is imported on first use, so that the app starts fast.
+States inside the table of :mod:`estimator.real_gas_table` (-45 to +70 degC; oxygen and air up to
+325 bar absolute, nitrous oxide gas up to 6 bar and its two-phase range) are interpolated from
+CoolProp values (within 1e-6 relative); any other state asks CoolProp itself, imported on first use,
+so that the CLI and the app start fast.
 
 References
 ----------
@@ -25,6 +28,7 @@ import pint
 
 from .constants import GAS_CONSTANT
 from .errors import InputError
+from .real_gas_table import table_constant, table_pressure, table_saturation, table_z
 from .units import Q_, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
 
 #: CoolProp fluid names of the gases a cylinder may hold.
@@ -50,6 +54,16 @@ def fluid_name(gas: str, field_name: str = "gas") -> str:
     return COOLPROP_FLUIDS[key]
 
 
+def gas_key(gas: str, field_name: str = "gas") -> str:
+    """The package's key of a cylinder gas (lower case); an InputError for any other gas.
+
+    >>> gas_key(" Oxygen ")
+    'oxygen'
+    """
+    fluid_name(gas, field_name)
+    return str(gas).strip().lower()
+
+
 def reference_molar_volume() -> pint.Quantity:
     """Ideal molar volume at the package reference, R T_ref / p_ref [L/mol].
 
@@ -67,8 +81,26 @@ def molar_density(gas: str, temperature: pint.Quantity, pressure: pint.Quantity)
     >>> round(molar_density("oxygen", Q_(15, "degC"), Q_(1, "atm")).to("mol/L").magnitude, 4)
     0.0423
     """
-    rho = props_si()("Dmolar", "T", temperature.to("K").magnitude, "P", pressure.to("Pa").magnitude, fluid_name(gas))
+    fluid = fluid_name(gas)
+    t, p = temperature.to("K").magnitude, pressure.to("Pa").magnitude
+    z = table_z(gas_key(gas), t, p)
+    rho = props_si()("Dmolar", "T", t, "P", p, fluid) if z is None else p / (z * GAS_CONSTANT * t)
     return Q_(rho / 1000.0, "mol/L")
+
+
+def pressure_at(gas: str, temperature: pint.Quantity, density: pint.Quantity) -> pint.Quantity:
+    """Absolute pressure of a gas at a temperature and a molar density [kPa] (single phase).
+
+    >>> rho = molar_density("oxygen", Q_(40, "degC"), Q_(200, "bar"))
+    >>> round(pressure_at("oxygen", Q_(40, "degC"), rho).to("bar").magnitude, 6)
+    200.0
+    """
+    fluid = fluid_name(gas)
+    t, rho = temperature.to("K").magnitude, density.to("mol/m^3").magnitude
+    p = table_pressure(gas_key(gas), t, rho)
+    if p is None:
+        p = props_si()("P", "T", t, "Dmolar", rho, fluid)
+    return Q_(p / 1000.0, "kPa")
 
 
 def compressibility(gas: str, temperature: pint.Quantity, pressure: pint.Quantity) -> float:
@@ -92,12 +124,36 @@ def vapour_pressure(gas: str, temperature: pint.Quantity) -> pint.Quantity | Non
     t = temperature.to("K").magnitude
     if t >= critical_temperature(gas).to("K").magnitude:
         return None
-    return Q_(props_si()("P", "T", t, "Q", 0, fluid_name(gas)) / 1000.0, "kPa")
+    sat = table_saturation(gas_key(gas), t)
+    p = props_si()("P", "T", t, "Q", 0, fluid_name(gas)) if sat is None else sat[0]
+    return Q_(p / 1000.0, "kPa")
+
+
+def saturated_density(gas: str, temperature: pint.Quantity, phase: str) -> pint.Quantity:
+    """Molar density of the saturated ``"liquid"`` or ``"vapour"`` below the critical temperature [mol/L].
+
+    >>> round(saturated_density("nitrous_oxide", Q_(20, "degC"), "vapour").to("mol/L").magnitude, 3)
+    3.59
+    """
+    quality = {"liquid": 0, "vapour": 1}[phase]
+    t = temperature.to("K").magnitude
+    sat = table_saturation(gas_key(gas), t)
+    rho = props_si()("Dmolar", "T", t, "Q", quality, fluid_name(gas)) if sat is None else sat[1 + quality]
+    return Q_(rho / 1000.0, "mol/L")
 
 
 def critical_temperature(gas: str) -> pint.Quantity:
-    """Critical temperature from CoolProp [K] (nitrous oxide about 309.5 K, 36.4 degC)."""
-    return Q_(props_si()("Tcrit", "", 0, "", 0, fluid_name(gas)), "K")
+    """Critical temperature from CoolProp (tabulated) [K] (nitrous oxide about 309.5 K, 36.4 degC)."""
+    return Q_(table_constant(gas_key(gas), "critical_temperature"), "K")
+
+
+def molar_mass(gas: str) -> pint.Quantity:
+    """Molar mass from CoolProp (tabulated) [kg/mol].
+
+    >>> round(molar_mass("nitrous_oxide").to("g/mol").magnitude, 3)
+    44.013
+    """
+    return Q_(table_constant(gas_key(gas), "molar_mass"), "kg/mol")
 
 
 def litres_per_kg(
@@ -117,12 +173,12 @@ def litres_per_kg(
     >>> round(litres_per_kg("nitrous_oxide", real_gas=True).to("L/kg").magnitude)
     534
     """
-    molar_mass = props_si()("M", "", 0, "", 0, fluid_name(gas))  # kg/mol
+    m = molar_mass(gas).to("kg/mol").magnitude
     if real_gas:
         rho = molar_density(gas, temperature, pressure).to("mol/L").magnitude
-        return Q_(1.0 / (molar_mass * rho), "L/kg")
+        return Q_(1.0 / (m * rho), "L/kg")
     vm = GAS_CONSTANT * temperature.to("K").magnitude / pressure.to("Pa").magnitude * 1000.0
-    return Q_(vm / molar_mass, "L/kg")
+    return Q_(vm / m, "L/kg")
 
 
 def free_gas(moles: pint.Quantity) -> pint.Quantity:

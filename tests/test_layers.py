@@ -41,6 +41,7 @@ LAYERS: dict[str, tuple[str, ...]] = {
         "cylinders",
         "cylinder_state",
         "real_gas",
+        "real_gas_table",
         "supply_values",
         "liquid_agent",
         "mac_age",

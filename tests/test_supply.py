@@ -9,6 +9,7 @@ import pytest
 from CoolProp.CoolProp import PropsSI
 
 from estimator.errors import InputError
+from estimator.real_gas_table import TABLE_TOLERANCE
 from estimator.supply import inventory_from_text, plan_supply
 from estimator.units import Q_
 
@@ -75,8 +76,8 @@ def test_runtime_is_usable_over_draw():
     r = plan_supply(inv, start=START)
     item = r.items[0]
     # runtime = usable / draw, 2 L/min all day = 2880 L/day (definition of supply duration).
-    assert item.usable.to("L").magnitude == pytest.approx(usable_o2(137), rel=1e-9)
-    assert item.runtime.to("day").magnitude == pytest.approx(usable_o2(137) / 2880, rel=1e-9)
+    assert item.usable.to("L").magnitude == pytest.approx(usable_o2(137), rel=TABLE_TOLERANCE)
+    assert item.runtime.to("day").magnitude == pytest.approx(usable_o2(137) / 2880, rel=TABLE_TOLERANCE)
     assert r.bottleneck == "A" and r.days_of_supply == item.runtime
     assert any(c == "SUPPLY_UNDER_ONE_DAY" for c, _ in r.warnings)  # 0.47 days: said, not silent
 
@@ -86,8 +87,8 @@ def test_cylinders_of_one_gas_are_used_one_after_another():
     text += '[[demand.continuous]]\ngas = "oxygen"\nflow = "0.5 L/min"\n'
     r = plan_supply(inventory_from_text(text), start=START)
     a, b = r.items[:2]
-    assert a.runtime.magnitude == pytest.approx(usable_o2(137) / 720, rel=1e-9)
-    assert b.runtime.magnitude == pytest.approx((usable_o2(137) + usable_o2(200)) / 720, rel=1e-9)
+    assert a.runtime.magnitude == pytest.approx(usable_o2(137) / 720, rel=TABLE_TOLERANCE)
+    assert b.runtime.magnitude == pytest.approx((usable_o2(137) + usable_o2(200)) / 720, rel=TABLE_TOLERANCE)
     assert r.bottleneck == "B"  # the supply fails when its last cylinder is empty
     # depletion table: one row a day, never rising, first row the usable amount.
     col = r.depletion["A [L]"].to_numpy()
@@ -300,8 +301,8 @@ def test_site_elevation_lowers_the_ambient_pressure():
     def litres(p_pa):
         return PropsSI("Dmolar", "T", 288.15, "P", p_pa, "Oxygen") * 0.010 * 8.314462618 * 288.15 / 101325 * 1000
 
-    assert low.magnitude == pytest.approx(usable_o2(137), rel=1e-9)
-    assert high.magnitude == pytest.approx(litres(137e5 + 70e3) - litres(10e5 + 70e3), rel=1e-9)
+    assert low.magnitude == pytest.approx(usable_o2(137), rel=TABLE_TOLERANCE)
+    assert high.magnitude == pytest.approx(litres(137e5 + 70e3) - litres(10e5 + 70e3), rel=TABLE_TOLERANCE)
     by_elevation = (
         plan_supply(inventory_from_text('[site]\nelevation = "3000 m"\n' + text), start=START).items[0].usable
     )
