@@ -2,7 +2,7 @@
 
 Generates an invented log (5000 cases of 200 samples each, 30 s apart, ISO 8601 timestamps,
 three agents, four rooms, end-tidal agent and patient age present), writes it to a temporary CSV,
-then times ``estimator.audit.audit`` from reading the file to the per-case, room and month tables
+then times ``estimator.planning.audit.audit`` from reading the file to the per-case, room and month tables
 and KPIs. The target is 10 s on a 2-core machine.
 
 Run: ``uv run python benchmarks/bench_audit.py [rows]``.
@@ -52,8 +52,8 @@ def synthetic_log(rows: int = 1_000_000, per_case: int = 200, seed: int = 7) -> 
 
 
 def main(rows: int = 1_000_000) -> float:
-    from estimator.audit import audit
-    from estimator.costs import DEMO_PRICES
+    from estimator.accounts.costs import DEMO_PRICES
+    from estimator.planning.audit import audit
 
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "log.csv"

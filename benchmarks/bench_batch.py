@@ -11,7 +11,7 @@ The case: 4 hours, 10 min at 6 L/min then 0.5 L/min of O2/air, end-tidal hold 1 
   handful of cases timed and divided, against the 250x target;
 * the peak memory growth of 100,000 cases against 1 GB (``resource.getrusage`` peak RSS, and
   tracemalloc's peak of the Python-side arrays);
-* the largest relative deviation of the totals from :func:`estimator.engine.simulate` over a few
+* the largest relative deviation of the totals from :func:`estimator.simulation.engine.simulate` over a few
   cases, against the 1e-3 target.
 """
 
@@ -33,8 +33,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from bench_case import CASE, plain_python_model  # noqa: E402
 
-from estimator import batch, engine  # noqa: E402
-from estimator.scenario import scenario_from_dict  # noqa: E402
+from estimator import engine  # noqa: E402
+from estimator.inputs.scenario import scenario_from_dict  # noqa: E402
+from estimator.simulation import batch
 
 
 def peak_rss_mb() -> float:
@@ -45,8 +46,8 @@ def peak_rss_mb() -> float:
 FIRST_CALL = """
 import time
 import numpy as np
-from estimator import batch
-from estimator.scenario import scenario_from_dict
+from estimator.simulation import batch
+from estimator.inputs.scenario import scenario_from_dict
 from bench_case import CASE
 t = time.perf_counter()
 template = batch.case_template(scenario_from_dict(CASE))

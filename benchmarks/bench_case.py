@@ -24,9 +24,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from estimator import circuit as c  # noqa: E402
 from estimator import engine  # noqa: E402
-from estimator.scenario import scenario_from_dict  # noqa: E402
+from estimator.inputs.scenario import scenario_from_dict  # noqa: E402
+from estimator.physics import circuit as c  # noqa: E402
 
 CASE = {
     "title": "benchmark: 4 h, 10 min at 6 L/min then 0.5 L/min, end-tidal hold 1 MAC",
@@ -73,7 +73,7 @@ def main() -> None:
         ),
         np.max(np.abs(ours_fio2 - ref_series[:, c.W_FI + c.O2]) / ref_series[:, c.W_FI + c.O2]),
     )
-    from estimator.results import litres_per_mmol
+    from estimator.simulation.results import litres_per_mmol
 
     ref_vapour = ref_y[c.Y_FGIN + c.AGENT] * litres_per_mmol()
     ref_co2 = ref_y[c.Y_CO2ABS] * litres_per_mmol()

@@ -18,8 +18,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from bench_case import CASE  # noqa: E402
 
 from estimator import engine  # noqa: E402
-from estimator.safety import flow_floor  # noqa: E402
-from estimator.scenario import scenario_from_dict  # noqa: E402
+from estimator.inputs.scenario import scenario_from_dict  # noqa: E402
+from estimator.planning.safety import flow_floor  # noqa: E402
 
 
 def main() -> None:

@@ -1,6 +1,6 @@
 """Benchmark of the patient spread (run: ``uv run python benchmarks/bench_spread.py``).
 
-Times :func:`estimator.spread.simulate_spread` with 100 patients on three demo plans (after one warm
+Times :func:`estimator.simulation.spread.simulate_spread` with 100 patients on three demo plans (after one warm
 run, so numba's compiled model is loaded), the single case it repeats, and the demand forecast of the
 demo case mix with and without ``patient_spread``. Prints the machine's load average beside the
 figures: on the shared 2-core machine the times scale with it.
@@ -16,11 +16,11 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from estimator.casemix import load_casemix  # noqa: E402
-from estimator.engine import simulate  # noqa: E402
-from estimator.forecast import forecast  # noqa: E402
-from estimator.scenario import load_scenario  # noqa: E402
-from estimator.spread import simulate_spread  # noqa: E402
+from estimator.inputs.scenario import load_scenario  # noqa: E402
+from estimator.planning.casemix import load_casemix  # noqa: E402
+from estimator.planning.forecast import forecast  # noqa: E402
+from estimator.simulation.engine import simulate  # noqa: E402
+from estimator.simulation.spread import simulate_spread  # noqa: E402
 
 PLANS = ("kestrel_lap_chole.toml", "kestrel_desflurane_bariatric.toml", "kestrel_nitrous_dental.toml")
 N = 100

@@ -17,9 +17,11 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from estimator import engine, physiology, properties  # noqa: E402
-from estimator.closed_form import lowe_cumulative_uptake  # noqa: E402
-from estimator.scenario import scenario_from_dict  # noqa: E402
+from estimator import properties  # noqa: E402
+from estimator.inputs.scenario import scenario_from_dict  # noqa: E402
+from estimator.physics import physiology
+from estimator.physics.closed_form import lowe_cumulative_uptake  # noqa: E402
+from estimator.simulation import engine
 from estimator.units import Q_  # noqa: E402
 
 #: Yasuda 1991 (abstract): inspired fraction, FA/FI at 30 min and FA/FA0 after 5 min, mean and SD.

@@ -4,7 +4,7 @@ Usage (from the repository root)::
 
     uv run python docs/make_real_gas_table.py
 
-The table lets :mod:`estimator.real_gas` answer the states a cylinder inventory normally has
+The table lets :mod:`estimator.physics.real_gas` answer the states a cylinder inventory normally has
 without importing CoolProp (about 1.5 s of start-up); states outside the table still go to CoolProp.
 It holds, for each cylinder gas, the compressibility factor Z = p / (rho R T) (R the package's CODATA 2018
 gas constant, rho CoolProp's molar density) on a uniform grid of temperature and absolute pressure,
@@ -12,9 +12,9 @@ and for nitrous oxide the logarithms of the saturation pressure and of the satur
 vapour molar densities on a uniform grid of s = (1 - T/Tc)^(1/3) from the lowest table temperature
 up to the critical point (s = 0, where the critical pressure and density are stored). The cube root
 makes the densities smooth near the critical point, where they vary as (Tc - T)^beta. For the gases
-of :mod:`estimator.gas_mixtures` (flowmeter tubes) it holds Z and, where CoolProp has a viscosity
+of :mod:`estimator.physics.gas_mixtures` (flowmeter tubes) it holds Z and, where CoolProp has a viscosity
 model, the viscosity at tube pressures (up to 1.5 bar). Interpolation
-(:mod:`estimator.real_gas_table`) is cubic in each variable; its error against CoolProp, measured by
+(:mod:`estimator.physics.real_gas_table`) is cubic in each variable; its error against CoolProp, measured by
 tests/test_real_gas_table.py, is below 1e-6 relative. The CoolProp version that made the table is
 stored in it (``coolprop_version``); re-run this script after a CoolProp upgrade.
 
@@ -32,8 +32,8 @@ import numpy as np
 from CoolProp.CoolProp import PropsSI
 
 from estimator.constants import GAS_CONSTANT
-from estimator.gas_mixtures import COOLPROP_NAMES
-from estimator.real_gas import COOLPROP_FLUIDS
+from estimator.physics.gas_mixtures import COOLPROP_NAMES
+from estimator.physics.real_gas import COOLPROP_FLUIDS
 
 ROOT = Path(__file__).resolve().parent.parent
 OUT = ROOT / "estimator" / "data" / "real_gas_table.npz"
@@ -99,7 +99,7 @@ def saturation_grid(fluid: str) -> tuple[np.ndarray, np.ndarray]:
 
 
 def build() -> dict[str, np.ndarray]:
-    """All arrays of the table, keyed as :mod:`estimator.real_gas_table` reads them."""
+    """All arrays of the table, keyed as :mod:`estimator.physics.real_gas_table` reads them."""
     data: dict[str, np.ndarray] = {
         "coolprop_version": np.array(CoolProp.__version__),
         "gas_constant": np.array(GAS_CONSTANT),

@@ -36,11 +36,11 @@ from typing import Any
 __version__ = "0.1.0"
 
 _LAZY = {
-    "load_scenario": ("estimator.scenario", "load_scenario"),
-    "scenario_from_text": ("estimator.scenario", "scenario_from_text"),
-    "scenario_from_dict": ("estimator.scenario", "scenario_from_dict"),
-    "flow_floor": ("estimator.safety", "flow_floor"),
-    "simulate_spread": ("estimator.spread", "simulate_spread"),
+    "load_scenario": ("estimator.inputs.scenario", "load_scenario"),
+    "scenario_from_text": ("estimator.inputs.scenario", "scenario_from_text"),
+    "scenario_from_dict": ("estimator.inputs.scenario", "scenario_from_dict"),
+    "flow_floor": ("estimator.planning.safety", "flow_floor"),
+    "simulate_spread": ("estimator.simulation.spread", "simulate_spread"),
     "InputError": ("estimator.errors", "InputError"),
 }
 
@@ -48,7 +48,7 @@ __all__ = ["__version__", "simulate", *_LAZY]
 
 
 def simulate(scenario: Any, **options: Any) -> Any:
-    """Run one case through the engine (:func:`estimator.engine.simulate`).
+    """Run one case through the engine (:func:`estimator.simulation.engine.simulate`).
 
     Parameters
     ----------
@@ -62,9 +62,9 @@ def simulate(scenario: Any, **options: Any) -> Any:
     -------
     CaseResult
     """
-    from .engine import simulate as run
     from .errors import InputError
-    from .scenario import Scenario, scenario_from_dict
+    from .inputs.scenario import Scenario, scenario_from_dict
+    from .simulation.engine import simulate as run
 
     if isinstance(scenario, dict):
         scenario = scenario_from_dict(scenario)

@@ -155,7 +155,7 @@ def _find(annotation: Any) -> QuantitySpec | None:
 def quantity_specs(model: type[BaseModel]) -> dict[str, QuantitySpec]:
     """Every quantity field of ``model`` with its spec.
 
-    >>> from estimator.scenario import PatientInput
+    >>> from estimator.inputs.scenario import PatientInput
     >>> quantity_specs(PatientInput)["weight"].unit
     'kg'
     """

@@ -99,7 +99,7 @@ def xlsx_bytes(sheets: dict[str, pd.DataFrame]) -> bytes:
     """An XLSX workbook with one sheet per frame; text cells are stored as text, never formulas."""
     from openpyxl import Workbook
 
-    from estimator.exports import neutralise
+    from estimator.planning.exports import neutralise
 
     wb = Workbook()
     wb.remove(wb.active)
@@ -118,7 +118,7 @@ def xlsx_bytes(sheets: dict[str, pd.DataFrame]) -> bytes:
 
 
 def _cell(v: Any) -> Any:
-    from estimator.exports import neutralise
+    from estimator.planning.exports import neutralise
 
     if v is None or (isinstance(v, float) and v != v):
         return None
@@ -133,7 +133,7 @@ def csv_bytes(frame: pd.DataFrame) -> bytes:
     """CSV (UTF-8) of a frame with text cells neutralised against spreadsheet formulas."""
     import pandas as pd
 
-    from estimator.exports import neutralise
+    from estimator.planning.exports import neutralise
 
     safe = frame.copy()
     for col in safe.columns:
@@ -169,7 +169,7 @@ def downloads(
         return text.encode("utf-8")
 
     def as_html() -> bytes:
-        from estimator.exports import tables_report_html
+        from estimator.planning.exports import tables_report_html
 
         pairs = warning_pairs(warnings)
         return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes, warnings=pairs).encode("utf-8")

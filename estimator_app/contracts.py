@@ -89,43 +89,43 @@ def folder(files: dict[str, str], planner_text: str | None = None) -> Iterator[P
 
 
 def load_scenario_text(text: str) -> Any:
-    """The scenario of TOML text: :func:`estimator.scenario.scenario_from_text`, as ``lowflow case`` reads it."""
-    from estimator.scenario import scenario_from_text
+    """The scenario of TOML text: :func:`estimator.inputs.scenario.scenario_from_text`, as ``lowflow case`` reads it."""
+    from estimator.inputs.scenario import scenario_from_text
 
     return scenario_from_text(text)
 
 
 def load_inventory_text(text: str, base_dir: Path | None = None) -> Any:
-    """The inventory of TOML text: :func:`estimator.inventory_file.inventory_from_text` (unknown keys refused)."""
-    from estimator.inventory_file import inventory_from_text
+    """The inventory of TOML text: :func:`estimator.inputs.inventory_file.inventory_from_text` (unknown keys refused)."""
+    from estimator.inputs.inventory_file import inventory_from_text
 
     return inventory_from_text(text, base_dir=base_dir)
 
 
 def load_casemix_text(text: str, base_dir: Path) -> Any:
-    """The case mix of TOML text: :func:`estimator.casemix.casemix_from_text`; named files only inside ``base_dir``."""
-    from estimator.casemix import casemix_from_text
+    """The case mix of TOML text: :func:`estimator.planning.casemix.casemix_from_text`; named files only inside ``base_dir``."""
+    from estimator.planning.casemix import casemix_from_text
 
     return casemix_from_text(text, base_dir, confine=True)
 
 
 def load_prices_text(text: str) -> Any:
-    """Prices of TOML text (:func:`estimator.costs.prices_from_text`, as ``--prices`` reads a file), or None."""
-    from estimator.costs import prices_from_text
+    """Prices of TOML text (:func:`estimator.accounts.costs.prices_from_text`, as ``--prices`` reads a file), or None."""
+    from estimator.accounts.costs import prices_from_text
 
     return prices_from_text(text) if text else None
 
 
 def load_policy_text(text: str) -> Any:
-    """A low-flow policy of TOML text (:func:`estimator.audit_policy.policy_from_text`, as ``--policy``)."""
-    from estimator.audit_policy import policy_from_text
+    """A low-flow policy of TOML text (:func:`estimator.planning.audit_policy.policy_from_text`, as ``--policy``)."""
+    from estimator.planning.audit_policy import policy_from_text
 
     return policy_from_text(text)
 
 
 def load_log_text(text: str) -> Any:
-    """An audit log of CSV text (:func:`estimator.audit_log.log_from_text`), never taken for a path."""
-    from estimator.audit_log import log_from_text
+    """An audit log of CSV text (:func:`estimator.inputs.audit_log.log_from_text`), never taken for a path."""
+    from estimator.inputs.audit_log import log_from_text
 
     return log_from_text(text)
 

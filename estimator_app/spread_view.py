@@ -1,7 +1,7 @@
 """Patient spread on the case planner: patient count, P5-P95 totals and bands on the charts.
 
 A control for the number of patients, P5-P95 beside the totals and a shaded P5-P95 band on the
-time-course charts (``estimator.spread.simulate_spread``).
+time-course charts (``estimator.simulation.spread.simulate_spread``).
 """
 
 from __future__ import annotations
@@ -33,8 +33,8 @@ _LABELS = {
 @st.cache_data(max_entries=32, show_spinner="Simulating patients drawn from published variation...")
 def run_spread(text: str, n: int, seed: int) -> Any:
     """Spread of a scenario's TOML text (cached on text, n and seed)."""
-    from estimator.scenario import scenario_from_text
-    from estimator.spread import simulate_spread
+    from estimator.inputs.scenario import scenario_from_text
+    from estimator.simulation.spread import simulate_spread
 
     return simulate_spread(scenario_from_text(text), n, seed=seed)
 
@@ -62,7 +62,7 @@ def control() -> Any:
 
 def totals_table(band: Any) -> pd.DataFrame:
     """P5, P50 and P95 of the four totals with a spread."""
-    from estimator.spread import SPREAD_TOTALS
+    from estimator.simulation.spread import SPREAD_TOTALS
 
     rows = []
     for key, unit in SPREAD_TOTALS.items():
@@ -91,7 +91,7 @@ def show_totals(band: Any) -> None:
 def distributions_table(agent: str) -> pd.DataFrame:
     """The factors drawn for each patient: CV, source and confidence (estimator/data/spread.toml)."""
     from estimator.properties import CONFIDENCE_CODES
-    from estimator.spread import distributions, sources
+    from estimator.simulation.spread import distributions, sources
 
     return pd.DataFrame(
         [

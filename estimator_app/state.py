@@ -162,7 +162,7 @@ def _main_file(kind: str, texts: dict[str, str]) -> str:
 @st.cache_data(max_entries=128, show_spinner="Running the circle-system model...")
 def run_case(text: str) -> Any:
     """Engine result of a scenario's TOML text (cached on the text): the command line's loader and engine."""
-    from estimator.engine import simulate
+    from estimator.simulation.engine import simulate
 
     return simulate(contracts.load_scenario_text(text))
 

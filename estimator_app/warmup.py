@@ -14,8 +14,8 @@ _started = threading.Event()
 
 def _load() -> None:
     try:
-        from estimator.engine import simulate
-        from estimator.scenario import scenario_from_dict
+        from estimator.inputs.scenario import scenario_from_dict
+        from estimator.simulation.engine import simulate
 
         from . import demo
 

@@ -38,7 +38,7 @@ def case(agent: str, *phases: dict, **tables) -> Callable[[], set[str]]:
     """Codes of a simulated case."""
 
     def run():
-        from estimator.engine import simulate
+        from estimator.simulation.engine import simulate
 
         return warning_codes(simulate(scenario(agent, list(phases), **tables)).warnings)
 
@@ -49,7 +49,7 @@ def floor(agent: str, *phases: dict, **tables) -> Callable[[], set[str]]:
     """Advisories and binding limits (every phase's ``binding_all``) of a flow floor."""
 
     def run():
-        from estimator.safety import flow_floor
+        from estimator.planning.safety import flow_floor
 
         res = flow_floor(scenario(agent, list(phases), **tables), grid=False)
         out = warning_codes(res.warnings)
@@ -74,20 +74,20 @@ EMERGENCE = (
 
 
 def site(**kw):
-    from estimator.site import site_from_inputs
+    from estimator.physics.site import site_from_inputs
 
     return lambda: warning_codes(site_from_inputs(**kw).warnings)
 
 
 def pio2(fio2, threshold, kpa):
-    from estimator.site import check_inspired_oxygen
+    from estimator.physics.site import check_inspired_oxygen
 
     return lambda: warning_codes(check_inspired_oxygen(fio2, threshold, Q_(kpa, "kPa")))
 
 
 def dial(target, kpa, agent="sevoflurane", kind="variable_bypass"):
-    from estimator.mac import mac_at_age
-    from estimator.vaporizer import dial_for_target
+    from estimator.physics.mac import mac_at_age
+    from estimator.physics.vaporizer import dial_for_target
 
     def run():
         mac = mac_at_age(agent, "40 years").mac
@@ -97,45 +97,45 @@ def dial(target, kpa, agent="sevoflurane", kind="variable_bypass"):
 
 
 def total(agent, mac, age, n2o):
-    from estimator.mac import end_tidal_for_total_mac
+    from estimator.physics.mac import end_tidal_for_total_mac
 
     return lambda: warning_codes(end_tidal_for_total_mac(agent, mac, age, n2o).warnings)
 
 
 def flowmeter(reading, cal, use):
-    from estimator.flowmeter import true_flow
-    from estimator.site import site_from_inputs
+    from estimator.physics.flowmeter import true_flow
+    from estimator.physics.site import site_from_inputs
 
     return lambda: warning_codes(true_flow(reading, cal, use, site_from_inputs()).warnings)
 
 
 def closed(fn: str, *args, **kw):
-    from estimator import closed_form
+    from estimator.physics import closed_form
 
     return lambda: warning_codes(getattr(closed_form, fn)(*args, **kw).warnings)
 
 
 def patient(weight):
-    from estimator.physiology import patient_parameters
+    from estimator.physics.physiology import patient_parameters
 
     return lambda: warning_codes(patient_parameters(weight, "40 years").warnings)
 
 
 def carbon_supply(absorbent_g):
-    from estimator.carbon import case_carbon
+    from estimator.accounts.carbon import case_carbon
 
     totals = {"agent_liquid": Q_(10, "mL"), "oxygen": Q_(100, "L"), "absorbent": Q_(absorbent_g, "g")}
     return lambda: warning_codes(case_carbon(totals, "sevoflurane", supply=True).warnings)
 
 
 def o2_cylinder(pressure, reserve):
-    from estimator.cylinders import compressed_cylinder
+    from estimator.physics.cylinders import compressed_cylinder
 
     return lambda: warning_codes(compressed_cylinder("oxygen", "10 L", pressure, reserve_pressure=reserve).warnings)
 
 
 def n2o_cylinder(gross, tare, temperature="15 degC", **kw):
-    from estimator.cylinders import nitrous_oxide_cylinder
+    from estimator.physics.cylinders import nitrous_oxide_cylinder
 
     return lambda: warning_codes(nitrous_oxide_cylinder(gross, tare, temperature, **kw).warnings)
 
@@ -160,8 +160,8 @@ SUPPLY_CASE = SimpleNamespace(
 
 
 def supply(text: str):
-    from estimator.inventory_file import inventory_from_text
-    from estimator.supply import plan_supply
+    from estimator.inputs.inventory_file import inventory_from_text
+    from estimator.planning.supply import plan_supply
 
     return lambda: warning_codes(
         plan_supply(inventory_from_text(text), start=START, runner=lambda _: SUPPLY_CASE).warnings
@@ -193,8 +193,8 @@ FLOWS = 'wash_in_flow = "6 L/min"\nwash_in_time = "10 min"\nmaintenance_flow = "
 
 def forecast(body: str = FLOWS + PATIENT + 'duration = "60 min"', weeks: int = 3, tail: str = ""):
     """Warnings of a forecast of one case type (``body``: its keys)."""
-    from estimator.casemix import casemix_from_text
-    from estimator.forecast import forecast as run
+    from estimator.planning.casemix import casemix_from_text
+    from estimator.planning.forecast import forecast as run
 
     return lambda: warning_codes(run(casemix_from_text(MIX.format(weeks=weeks, body=body, tail=tail))).warnings)
 
@@ -206,7 +206,7 @@ def maintenance(flows: str, duration: str = "60 min") -> str:
 
 def casemix(body: str):
     """Load-time warnings of a case mix of one case type."""
-    from estimator.casemix import casemix_from_text
+    from estimator.planning.casemix import casemix_from_text
 
     return lambda: warning_codes(casemix_from_text(MIX.format(weeks=3, body=body, tail="")).warnings)
 
@@ -215,16 +215,16 @@ def casemix(body: str):
 
 
 def audit(rows: str, header: str = AUDIT_HEADER, **kw):
-    from estimator.audit import audit as run
-    from estimator.audit_log import log_from_text
+    from estimator.inputs.audit_log import log_from_text
+    from estimator.planning.audit import audit as run
 
     return lambda: warning_codes(run(log_from_text(f"{header}\n{rows}"), **kw).warnings)
 
 
 def policy(rows: str, header: str, **kw):
-    from estimator.audit import audit as run
-    from estimator.audit_log import log_from_text
-    from estimator.audit_policy import counterfactual, parse_policy
+    from estimator.inputs.audit_log import log_from_text
+    from estimator.planning.audit import audit as run
+    from estimator.planning.audit_policy import counterfactual, parse_policy
 
     def go():
         res = counterfactual(run(log_from_text(f"{header}\n{rows}")), parse_policy(kw))

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from estimator.engine import simulate
-from estimator.scenario import scenario_from_dict
+from estimator.inputs.scenario import scenario_from_dict
+from estimator.simulation.engine import simulate
 
 
 def scenario(agent: str = "sevoflurane", phases: list[dict[str, Any]] | None = None, **tables: Any):

@@ -6,19 +6,19 @@ from __future__ import annotations
 import pytest
 from engine_helpers import scenario
 
-from estimator import batch
-from estimator.accounting import absorbent_capacity
-from estimator.audit import audit
-from estimator.audit_log import log_from_text
-from estimator.audit_policy import case_scenarios, counterfactual, engine_runner, parse_policy
-from estimator.carbon import case_carbon, released_co2e, totals_co2e
-from estimator.casemix import load_casemix
-from estimator.engine import simulate
-from estimator.forecast import case_co2e, forecast
-from estimator.inventory_file import inventory_from_text
+from estimator.accounts.accounting import absorbent_capacity
+from estimator.accounts.carbon import case_carbon, released_co2e, totals_co2e
+from estimator.inputs.audit_log import log_from_text
+from estimator.inputs.inventory_file import inventory_from_text
+from estimator.inputs.scenario import scenario_from_dict
+from estimator.planning.audit import audit
+from estimator.planning.audit_policy import case_scenarios, counterfactual, engine_runner, parse_policy
+from estimator.planning.casemix import load_casemix
+from estimator.planning.forecast import case_co2e, forecast
+from estimator.planning.supply import plan_supply
 from estimator.properties import AGENTS, GASES
-from estimator.scenario import scenario_from_dict
-from estimator.supply import plan_supply
+from estimator.simulation import batch
+from estimator.simulation.engine import simulate
 
 #: Batch against single-case engine (tests/test_batch.py): 1e-3 relative.
 AGREEMENT = 1e-3

@@ -137,7 +137,7 @@ def test_exports_are_safe_and_readable():
 
 
 def test_saved_scenario_is_toml_the_engine_accepts(planner):
-    from estimator.scenario import scenario_from_text
+    from estimator.inputs.scenario import scenario_from_text
 
     doc = planner.session_state["scenario"]
     scen = scenario_from_text(tomli_w.dumps(doc))
@@ -332,7 +332,7 @@ def test_every_page_offers_csv_xlsx_html_and_json(name):
 
 def test_demand_forecast_draws_a_progress_bar_while_it_runs(monkeypatch):
     # Issue contract: the Monte Carlo shows a progress bar. The batch engine's progress callback
-    # (estimator.forecast.forecast(progress=...)) drives it; it ends at 100 % and is then cleared.
+    # (estimator.planning.forecast.forecast(progress=...)) drives it; it ends at 100 % and is then cleared.
     import estimator_app.pages.demand_forecast as page_module
 
     seen = []

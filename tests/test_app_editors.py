@@ -124,8 +124,8 @@ def test_forecast_keeps_every_key_and_writes_only_the_edit(saved):
 
 
 def test_forecast_upload_refuses_a_misspelt_key_as_the_cli_does():
-    from estimator.casemix import casemix_from_text
     from estimator.errors import InputError
+    from estimator.planning.casemix import casemix_from_text
 
     at = page("demand_forecast")
     mix = demo.casemix()
@@ -158,7 +158,7 @@ def test_planner_keeps_a_phase_given_by_oxygen_fraction_and_total_flow(saved):
 
 def test_scenario_upload_with_an_unknown_key_is_refused_as_the_cli_refuses_it():
     from estimator.errors import InputError
-    from estimator.scenario import scenario_from_text
+    from estimator.inputs.scenario import scenario_from_text
 
     doc = demo.scenario()
     doc["circuit"]["volum"] = "5 L"

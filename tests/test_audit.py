@@ -10,12 +10,12 @@ import pytest
 import scipy.constants
 from scipy.integrate import trapezoid
 
-from estimator.audit import age_mac, flow_class
-from estimator.audit import audit as audit_of
-from estimator.audit_log import log_from_text
-from estimator.audit_policy import counterfactual, parse_policy, policy_flows
-from estimator.costs import DEMO_PRICES
+from estimator.accounts.costs import DEMO_PRICES
 from estimator.errors import InputError
+from estimator.inputs.audit_log import log_from_text
+from estimator.planning.audit import age_mac, flow_class
+from estimator.planning.audit import audit as audit_of
+from estimator.planning.audit_policy import counterfactual, parse_policy, policy_flows
 from estimator.units import Q_
 
 DATA = Path(__file__).parent / "data"

@@ -9,10 +9,10 @@ from pathlib import Path
 
 import pytest
 
-from estimator.audit import audit
-from estimator.audit_log import MAX_ELAPSED_MIN, log_from_text, read_log
 from estimator.cli import main
 from estimator.errors import InputError
+from estimator.inputs.audit_log import MAX_ELAPSED_MIN, log_from_text, read_log
+from estimator.planning.audit import audit
 
 HEADER = "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,room,patient_weight"
 GOOD = "A,{t},1,1,0,sevoflurane,2,theatre 1,70"

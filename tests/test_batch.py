@@ -1,7 +1,7 @@
 """Batch engine: agreement with the single-case engine, with scipy, and with linear algebra.
 
 The batch engine (RKC2 at a loose tolerance) must reproduce the single-case engine
-(estimator.engine.simulate, DOPRI5 at rtol 1e-8, itself checked against published wash-in and
+(estimator.simulation.engine.simulate, DOPRI5 at rtol 1e-8, itself checked against published wash-in and
 uptake data in test_engine_world.py) within 1e-3 relative on every total, the target of the
 demand forecast: a department's weekly order is rounded to whole cylinders and bottles, so 0.1 %
 is far inside the rounding.
@@ -15,10 +15,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 
-from estimator import batch, engine, rkc
-from estimator import circuit as c
-from estimator.assemble import _content
-from estimator.scenario import scenario_from_dict
+from estimator.inputs.scenario import scenario_from_dict
+from estimator.numerics import rkc
+from estimator.physics import circuit as c
+from estimator.simulation import batch, engine
+from estimator.simulation.assemble import _content
 
 #: Agreement target of the batch engine with the single-case engine (see the module docstring).
 AGREEMENT = 1e-3

@@ -7,7 +7,7 @@ import pytest
 import scipy.constants
 from validation import record
 
-from estimator import carbon
+from estimator.accounts import carbon
 from estimator.errors import InputError
 from estimator.units import Q_
 

@@ -10,19 +10,19 @@ import numpy as np
 import pytest
 import tomli_w
 
-from estimator.batch import run_batch
-from estimator.casemix import (
+from estimator.cli import main
+from estimator.errors import InputError
+from estimator.inputs.scenario import Scenario
+from estimator.planning.casemix import (
     CaseTypeInput,
     case_type,
     casemix_from_dict,
     casemix_from_text,
     load_casemix,
 )
-from estimator.casemix_plan import THRESHOLD
-from estimator.cli import main
-from estimator.errors import InputError
-from estimator.results import FIO2_ADVISORY
-from estimator.scenario import Scenario
+from estimator.planning.casemix_plan import THRESHOLD
+from estimator.simulation.batch import run_batch
+from estimator.simulation.results import FIO2_ADVISORY
 
 ROOT = Path(__file__).parent.parent
 DATA = Path(__file__).parent / "data"
@@ -299,8 +299,8 @@ def test_order_sizes_are_checked_when_the_case_mix_loads(orders, field):
     ],
 )
 def test_a_missing_cylinder_field_is_named_as_the_inventory_names_it(orders, field, tmp_path):
-    # One check of the required cylinder fields (estimator.cylinder_entry) for orders and inventory.
-    from estimator.supply import inventory_from_text, plan_supply
+    # One check of the required cylinder fields (estimator.inputs.cylinder_entry) for orders and inventory.
+    from estimator.planning.supply import inventory_from_text, plan_supply
 
     with pytest.raises(InputError) as err:
         casemix_from_text(ROW + orders + "\n")

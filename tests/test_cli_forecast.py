@@ -113,7 +113,7 @@ def test_a_huge_forecast_is_refused_before_it_runs_with_an_estimate(capsys, tmp_
 
 
 def test_a_small_limit_refuses_and_a_long_run_announces_itself(capsys, monkeypatch):
-    from estimator import forecast_size
+    from estimator.planning import forecast_size
 
     code, _, err = _run(capsys, MIX, "--weeks", 10, "--max-cases", 5)
     assert code == 2 and "at most 5 expected cases" in err

@@ -6,7 +6,8 @@ import scipy.constants
 from scipy.integrate import quad
 from validation import record
 
-from estimator.closed_form import (
+from estimator.errors import InputError
+from estimator.physics.closed_form import (
     dion_cost,
     dion_liquid_volume,
     liquid_volume_at,
@@ -21,7 +22,6 @@ from estimator.closed_form import (
     vaporizer_vapour_output,
     vapour_per_liquid,
 )
-from estimator.errors import InputError
 from estimator.units import Q_
 
 # --- Lowe square-root-of-time ------------------------------------------------------------------

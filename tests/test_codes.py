@@ -405,9 +405,9 @@ def test_floor_keeps_its_limits(name):
     # through the case engine (its own integration at rtol 1e-8, every integrator step, not the
     # planner's 1-min checks), keeps inspired O2 at or above the threshold from the settling minute
     # on, has no volume deficit, and keeps the machine limits (O2 share with N2O, basal O2, label).
-    from estimator.engine import simulate
-    from estimator.results import SETTLE
-    from estimator.safety import flow_floor
+    from estimator.planning.safety import flow_floor
+    from estimator.simulation.engine import simulate
+    from estimator.simulation.results import SETTLE
 
     agent, phases, settings = FLOOR_PLANS[name]
     site = {"elevation": "3000 m"} if "3000 m" in name else {}

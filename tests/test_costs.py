@@ -4,7 +4,7 @@ arithmetic of the trade (per bottle, per m3, per cylinder)."""
 import pandas as pd
 import pytest
 
-from estimator.costs import (
+from estimator.accounts.costs import (
     DEMO_PRICES,
     case_cost,
     compare_costs,

@@ -4,15 +4,15 @@ import pytest
 from CoolProp.CoolProp import PropsSI
 from validation import record
 
-from estimator.cylinders import (
+from estimator.errors import InputError
+from estimator.physics.cylinders import (
     compressed_cylinder,
     compressibility,
     litres_per_kg,
     nitrous_oxide_cylinder,
     vapour_pressure,
 )
-from estimator.errors import InputError
-from estimator.real_gas_table import TABLE_TOLERANCE
+from estimator.physics.real_gas_table import TABLE_TOLERANCE
 from estimator.units import Q_
 
 R = 8.314462618  # J/(mol K), CODATA 2018 (exact in the 2019 SI)

@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from engine_helpers import run, scenario
 
-from estimator import batch
+from estimator.simulation import batch
 
 NO_FLOW = {"duration": "30 min", "oxygen": "0 L/min", "air": "0 L/min", "vaporizer": "2 %"}
 WASH = {"duration": "10 min", "oxygen": "2 L/min", "air": "2 L/min", "vaporizer": "2 %"}
@@ -82,6 +82,6 @@ def test_batch_engine_agrees_without_fresh_gas():
 
 
 def run_single(template, weight, age):
-    from estimator.engine import simulate
+    from estimator.simulation.engine import simulate
 
     return simulate(batch.single_case_scenario(template, weight, age, 40.0)).totals

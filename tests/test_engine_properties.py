@@ -8,7 +8,7 @@ from engine_helpers import run
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from estimator import circuit as c
+from estimator.physics import circuit as c
 
 FAST = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
@@ -169,7 +169,7 @@ def test_state_layout_is_consistent():
     assert c.Y_UPTAKE + c.NS == c.NY
     assert c.P_LAMBDA_T + c.NB * c.NT == c.P_AIR
     # The kernel's fixed diffusion pairs are the physiology's fat-next-to-lean compartments.
-    from estimator.physiology import COMPARTMENTS, DIFFUSION_DONOR
+    from estimator.physics.physiology import COMPARTMENTS, DIFFUSION_DONOR
 
     assert len(COMPARTMENTS) == c.NT
     pairs = {(COMPARTMENTS.index(f), COMPARTMENTS.index(lean)) for f, lean in DIFFUSION_DONOR.items()}

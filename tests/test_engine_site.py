@@ -6,10 +6,10 @@ import pytest
 from engine_helpers import at_times, run, scenario
 from validation import record
 
-from estimator.safety import flow_floor
+from estimator.planning.safety import flow_floor
 
 HIGH = {"elevation": "3000 m"}
-#: ISO 2533 standard atmosphere at 3000 m geometric elevation [kPa] (estimator.site, tested there).
+#: ISO 2533 standard atmosphere at 3000 m geometric elevation [kPa] (estimator.physics.site, tested there).
 P_3000 = 70.12
 
 
@@ -79,7 +79,7 @@ def test_desflurane_type_vaporizer_needs_its_dial_raised_at_altitude():
 
 def test_flowmeter_readings_become_true_flows():
     # An O2 tube at 3000 m reads low in its turbulent range: true flow about sqrt(p0/p) = 1.20 times the
-    # reading at 6 L/min (density correction; Hagen-Poiseuille/orifice limits, estimator.flowmeter).
+    # reading at 6 L/min (density correction; Hagen-Poiseuille/orifice limits, estimator.physics.flowmeter).
     ph = [{"duration": "60 min", "oxygen": "6 L/min", "vaporizer": "0 %"}]
     as_true = run("sevoflurane", ph, site=HIGH)
     as_read = run("sevoflurane", ph, site={**HIGH, "flowmeter_readings": True})

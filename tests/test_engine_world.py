@@ -9,9 +9,9 @@ import pytest
 from engine_helpers import at_times, run, scenario
 from validation import record
 
-from estimator import circuit as c
-from estimator.engine import R_GAS, simulate
+from estimator.physics import circuit as c
 from estimator.properties import agent
+from estimator.simulation.engine import R_GAS, simulate
 
 AGENTS = ("desflurane", "sevoflurane", "isoflurane", "halothane")
 
@@ -215,7 +215,7 @@ def test_non_absorbing_test_lung_washes_in_with_volume_over_flow():
     # well-mixed-tank law (common practice, no source; derivable from a mass balance). We switch off
     # blood flow and metabolism in the parameter vector and compare the fitted time constant with
     # V / FGF within 2 % (the lung mixes with the circuit at 6 L/min, not instantly).
-    from estimator import engine
+    from estimator.simulation import engine
 
     sc = scenario(
         "sevoflurane",
@@ -271,7 +271,7 @@ def test_steady_state_inspired_oxygen_matches_derived_balance():
     o2_in = 0.5 * amb + 0.5 * amb * 0.20946
     n2_in = 0.5 * amb * (1 - 0.20946)
     ratio = (o2_in - vo2) / n2_in
-    from estimator.engine import P_H2O_BODY, T_BODY
+    from estimator.simulation.engine import P_H2O_BODY, T_BODY
 
     ca = (101.325 - P_H2O_BODY) / (R_GAS * T_BODY) * 1000
     vi = r.patient.minute_ventilation.to("L/min").magnitude * ca
@@ -354,7 +354,7 @@ def test_volume_deficit_is_flagged_and_counted():
 def test_reference_solve_agrees_to_1e6():
     # Numerical check against scipy's DOP853 at rtol 1e-12 on the same right-hand side (scipy is the
     # reference library; the series and totals must agree within 1e-6 relative).
-    from estimator import engine
+    from estimator.simulation import engine
 
     sc = scenario(
         "sevoflurane",
@@ -368,7 +368,7 @@ def test_reference_solve_agrees_to_1e6():
     ref_et = derived[:, c.W_FET + c.AGENT] * 100
     np.testing.assert_allclose(ours.series["end_tidal_agent [%]"].to_numpy(), ref_et, rtol=1e-6, atol=1e-9)
     agent_ref = ref_y[c.Y_FGIN + c.AGENT]
-    from estimator.results import litres_per_mmol
+    from estimator.simulation.results import litres_per_mmol
 
     vap = ours.totals["agent_vapour"].to("L").magnitude
     record(

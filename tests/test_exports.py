@@ -7,9 +7,9 @@ from pathlib import Path
 
 import pytest
 
-from estimator.audit import audit
-from estimator.costs import DEMO_PRICES
-from estimator.exports import neutralise, report_html, svg_bars, write_csv, write_html, write_xlsx
+from estimator.accounts.costs import DEMO_PRICES
+from estimator.planning.audit import audit
+from estimator.planning.exports import neutralise, report_html, svg_bars, write_csv, write_html, write_xlsx
 
 DATA = Path(__file__).parent / "data"
 
@@ -100,7 +100,7 @@ def test_tables_report_escapes_everything_and_carries_the_caution():
     import pandas as pd
 
     from estimator.caution import CAUTION
-    from estimator.exports import tables_report_html
+    from estimator.planning.exports import tables_report_html
 
     evil = "<script>alert(1)</script>"
     page = tables_report_html(

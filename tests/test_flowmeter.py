@@ -10,8 +10,8 @@ from hypothesis import strategies as st
 from validation import record
 
 from estimator.errors import InputError
-from estimator.flowmeter import FlowmeterGeometry, annulus_flow, true_flow
-from estimator.gas_mixtures import (
+from estimator.physics.flowmeter import FlowmeterGeometry, annulus_flow, true_flow
+from estimator.physics.gas_mixtures import (
     chapman_enskog_viscosity,
     concentrator_composition,
     load_records,
@@ -20,8 +20,8 @@ from estimator.gas_mixtures import (
     resolve_gas,
     wilke_viscosity,
 )
+from estimator.physics.site import site_from_inputs
 from estimator.properties import DataError
-from estimator.site import site_from_inputs
 from estimator.units import Q_
 
 SEA = site_from_inputs()

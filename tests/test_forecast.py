@@ -9,13 +9,13 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from estimator import batch, engine
-from estimator.carbon import case_carbon
-from estimator.casemix import Z90, Distribution, case_types_from_text, casemix_from_text, load_casemix
-from estimator.costs import case_cost
-from estimator.cylinders import compressed_cylinder
+from estimator.accounts.carbon import case_carbon
+from estimator.accounts.costs import case_cost
 from estimator.errors import InputError
-from estimator.forecast import case_co2e, forecast, summary_statistics
+from estimator.physics.cylinders import compressed_cylinder
+from estimator.planning.casemix import Z90, Distribution, case_types_from_text, casemix_from_text, load_casemix
+from estimator.planning.forecast import case_co2e, forecast, summary_statistics
+from estimator.simulation import batch, engine
 
 DATA = Path(__file__).parent / "data"
 #: Batch against single-case engine (tests/test_batch.py): 1e-3 relative.
@@ -58,8 +58,8 @@ agent_per_ml = 0.3
 
 def test_point_collapse_equals_single_cases_times_counts():
     # With every distribution a point and counts fixed, each week is exactly 4 x case A + 2 x case B
-    # of the single-case engine (within the batch agreement), cost from estimator.costs and CO2e
-    # from estimator.carbon of those engine totals.
+    # of the single-case engine (within the batch agreement), cost from estimator.accounts.costs and CO2e
+    # from estimator.accounts.carbon of those engine totals.
     mix = casemix_from_text(POINT)
     r = forecast(mix)
     refs = []

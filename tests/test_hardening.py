@@ -251,7 +251,7 @@ def only_input_error(fn, *args) -> None:
 @FEW
 @given(toml_text)
 def test_scenario_loader_random_text(text):
-    from estimator.scenario import scenario_from_text
+    from estimator.inputs.scenario import scenario_from_text
 
     only_input_error(scenario_from_text, text)
 
@@ -259,7 +259,7 @@ def test_scenario_loader_random_text(text):
 @FEW
 @given(documents)
 def test_scenario_loader_random_tables(doc):
-    from estimator.scenario import scenario_from_dict
+    from estimator.inputs.scenario import scenario_from_dict
 
     only_input_error(scenario_from_dict, doc)
 
@@ -267,8 +267,8 @@ def test_scenario_loader_random_tables(doc):
 @FEW
 @given(broken(SCENARIO, "="))
 def test_scenario_near_valid_files_load_and_run_or_say_why(text):
-    from estimator.engine import simulate
-    from estimator.scenario import scenario_from_text
+    from estimator.inputs.scenario import scenario_from_text
+    from estimator.simulation.engine import simulate
 
     try:
         sc = scenario_from_text(text)
@@ -281,7 +281,7 @@ def test_scenario_near_valid_files_load_and_run_or_say_why(text):
 @FEW
 @given(st.one_of(toml_text, broken(INVENTORY, "=")))
 def test_inventory_loader_random_and_near_valid_text(text):
-    from estimator.supply import inventory_from_text, plan_supply
+    from estimator.planning.supply import inventory_from_text, plan_supply
 
     try:
         inv = inventory_from_text(text)
@@ -295,7 +295,7 @@ def test_inventory_loader_random_and_near_valid_text(text):
 def test_inventory_loader_random_tables(doc):
     import tomli_w
 
-    from estimator.supply import inventory_from_text
+    from estimator.planning.supply import inventory_from_text
 
     try:
         text = tomli_w.dumps(doc) + "\n"
@@ -305,11 +305,11 @@ def test_inventory_loader_random_tables(doc):
 
 
 def _loaders():
-    from estimator.audit import audit
-    from estimator.casemix import load_casemix, read_case_types_csv
-    from estimator.costs import load_prices
-    from estimator.scenario import load_scenario
-    from estimator.supply import load_inventory
+    from estimator.accounts.costs import load_prices
+    from estimator.inputs.scenario import load_scenario
+    from estimator.planning.audit import audit
+    from estimator.planning.casemix import load_casemix, read_case_types_csv
+    from estimator.planning.supply import load_inventory
 
     return {
         "scenario": load_scenario,
@@ -353,7 +353,7 @@ def test_file_loaders_name_a_bad_path(tmp_path, name, suffix, problem):
 @FEW
 @given(st.one_of(toml_text, broken(CASEMIX, "=")))
 def test_casemix_loader_random_and_near_valid_text(text):
-    from estimator.casemix import casemix_from_text
+    from estimator.planning.casemix import casemix_from_text
 
     only_input_error(casemix_from_text, text)
 
@@ -362,7 +362,7 @@ def test_casemix_loader_random_and_near_valid_text(text):
 @FEW
 @given(st.one_of(broken(AUDIT, ","), st.text(TEXT, max_size=200).map(lambda s: "case_id,time\n" + s + "\n")))
 def test_audit_log_random_and_near_valid_rows(text):
-    from estimator.audit import audit
+    from estimator.planning.audit import audit
 
     only_input_error(lambda: dumps(audit(io.StringIO(text)).to_json()))
 
@@ -620,7 +620,7 @@ def test_random_valid_cases_give_finite_json(agent_name, o2, air, n2o, kg):
     # Any valid input gives a JSON document without NaN, and the flow floor and its JSON likewise.
     from engine_helpers import scenario
 
-    from estimator.safety import flow_floor
+    from estimator.planning.safety import flow_floor
 
     phases = [
         {
@@ -632,7 +632,7 @@ def test_random_valid_cases_give_finite_json(agent_name, o2, air, n2o, kg):
         }
     ]
     sc = scenario(agent_name, phases, patient={"weight": f"{kg:.2f} kg"})
-    from estimator.engine import simulate
+    from estimator.simulation.engine import simulate
 
     finite_json(simulate(sc))
     finite_json(flow_floor(sc, grid=False))

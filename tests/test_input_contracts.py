@@ -25,7 +25,7 @@ def error_of(fn, *args, **kwargs) -> InputError:
 
 
 def scenario_error(mutate) -> InputError:
-    from estimator.scenario import scenario_from_dict
+    from estimator.inputs.scenario import scenario_from_dict
 
     doc = copy.deepcopy(BASE)
     mutate(doc)
@@ -34,7 +34,7 @@ def scenario_error(mutate) -> InputError:
 
 # ------------------------------------------------------------------ item 1: text is never a path
 def test_scenario_text_naming_a_file_is_not_read(tmp_path):
-    from estimator.scenario import scenario_from_text
+    from estimator.inputs.scenario import scenario_from_text
 
     secret = tmp_path / "secret.toml"
     secret.write_text('password = "TOPSECRET"\n')
@@ -43,7 +43,7 @@ def test_scenario_text_naming_a_file_is_not_read(tmp_path):
 
 
 def test_load_scenario_takes_a_path_and_refuses_text(tmp_path):
-    from estimator.scenario import load_scenario, scenario_from_text
+    from estimator.inputs.scenario import load_scenario, scenario_from_text
 
     f = tmp_path / "case.toml"
     f.write_text(SCENARIO)
@@ -56,9 +56,19 @@ def test_load_scenario_takes_a_path_and_refuses_text(tmp_path):
 @pytest.mark.parametrize(
     "module,loader,parser,text",
     [
-        ("estimator.supply", "load_inventory", "inventory_from_text", CONCENTRATOR),
-        ("estimator.costs", "load_prices", "prices_from_text", '[prices]\ncurrency = "EUR"\nair_per_m3 = 2.0\n'),
-        ("estimator.audit_policy", "load_policy", "policy_from_text", '[policy]\nfresh_gas_flow = "1 L/min"\n'),
+        ("estimator.planning.supply", "load_inventory", "inventory_from_text", CONCENTRATOR),
+        (
+            "estimator.accounts.costs",
+            "load_prices",
+            "prices_from_text",
+            '[prices]\ncurrency = "EUR"\nair_per_m3 = 2.0\n',
+        ),
+        (
+            "estimator.planning.audit_policy",
+            "load_policy",
+            "policy_from_text",
+            '[policy]\nfresh_gas_flow = "1 L/min"\n',
+        ),
     ],
 )
 def test_every_contract_has_a_path_loader_and_a_text_parser(tmp_path, module, loader, parser, text):
@@ -78,7 +88,7 @@ def test_every_contract_has_a_path_loader_and_a_text_parser(tmp_path, module, lo
 
 @pytest.mark.parametrize("text", ['password = "TOPSECRET"\n[[concentrators]\n', "[a.TOPSECRET]\n[a.TOPSECRET]\n"])
 def test_text_errors_never_quote_the_text(text):
-    from estimator.supply import inventory_from_text
+    from estimator.planning.supply import inventory_from_text
 
     err = error_of(inventory_from_text, text)
     assert "TOPSECRET" not in str(err) and err.field == "inventory"
@@ -112,7 +122,7 @@ def _inventory(tmp_path, scenario_name, scenario_text=SCENARIO):
 
 
 def test_named_scenario_resolves_beside_the_inventory(tmp_path, monkeypatch):
-    from estimator.supply import load_inventory, plan_supply
+    from estimator.planning.supply import load_inventory, plan_supply
 
     inv = _inventory(tmp_path, "case.toml")
     monkeypatch.chdir(tmp_path)  # a different folder from the inventory's
@@ -121,7 +131,7 @@ def test_named_scenario_resolves_beside_the_inventory(tmp_path, monkeypatch):
 
 
 def test_named_scenario_error_carries_its_place_in_the_inventory(tmp_path):
-    from estimator.supply import load_inventory, plan_supply
+    from estimator.planning.supply import load_inventory, plan_supply
 
     inv = _inventory(tmp_path, "case.toml", SCENARIO.replace('oxygen = "1 L/min"', 'oxygen = "6 L"'))
     err = error_of(plan_supply, load_inventory(inv), start="2026-03-02")
@@ -130,7 +140,7 @@ def test_named_scenario_error_carries_its_place_in_the_inventory(tmp_path):
 
 @pytest.mark.parametrize("name", ["case.txt", "passwd"])
 def test_named_scenario_must_be_a_toml_file(tmp_path, name):
-    from estimator.supply import load_inventory, plan_supply
+    from estimator.planning.supply import load_inventory, plan_supply
 
     inv = _inventory(tmp_path, name, 'root = "x:0:0:TOPSECRET"\n')
     err = error_of(plan_supply, load_inventory(inv), start="2026-03-02")
@@ -139,7 +149,7 @@ def test_named_scenario_must_be_a_toml_file(tmp_path, name):
 
 
 def test_a_named_toml_file_that_is_no_scenario_is_not_echoed(tmp_path):
-    from estimator.supply import load_inventory, plan_supply
+    from estimator.planning.supply import load_inventory, plan_supply
 
     secret = 'token = "TOPSECRET"\n[patient]\nweight = "70 kg"\npassword = "TOPSECRET"\n'
     inv = _inventory(tmp_path, "settings.toml", secret)
@@ -160,7 +170,7 @@ def test_case_and_supply_treat_a_non_toml_scenario_alike(tmp_path, capsys):
 # ------------------------------------------------------------------ item 9: ranges at load
 @pytest.mark.parametrize("price", [1e308, -1.0, True, "5"])
 def test_prices_have_a_practical_range(price):
-    from estimator.costs import parse_prices
+    from estimator.accounts.costs import parse_prices
 
     err = error_of(parse_prices, {"currency": "EUR", "oxygen_per_m3": price})
     assert err.field == "prices.oxygen_per_m3"
@@ -174,7 +184,7 @@ def test_prices_have_a_practical_range(price):
     ],
 )
 def test_price_quantities_are_checked_by_the_model(data, field):
-    from estimator.costs import PricesInput, parse_prices
+    from estimator.accounts.costs import PricesInput, parse_prices
     from estimator.fields import quantity_spec
 
     assert error_of(parse_prices, data).field == field
@@ -182,7 +192,7 @@ def test_price_quantities_are_checked_by_the_model(data, field):
 
 
 def test_a_large_price_in_a_many_digit_currency_is_accepted():
-    from estimator.costs import parse_prices
+    from estimator.accounts.costs import parse_prices
 
     assert parse_prices({"agent_bottle": 5_000_000, "bottle_volume": "250 mL"}).agent_per_ml == 20_000
 
@@ -207,20 +217,20 @@ def test_a_large_price_in_a_many_digit_currency_is_accepted():
     ],
 )
 def test_inventory_values_are_checked_at_load(text, field):
-    from estimator.supply import inventory_from_text
+    from estimator.planning.supply import inventory_from_text
 
     assert error_of(inventory_from_text, text).field == field
 
 
 def test_a_json_quantity_is_accepted_in_an_inventory():
-    from estimator.supply import inventory_from_text
+    from estimator.planning.supply import inventory_from_text
 
     inv = inventory_from_text('[[concentrators]]\nrated_flow = { magnitude = 5, units = "L/min" }\n')
     assert inv.concentrators[0].rated_flow == {"magnitude": 5, "units": "L/min"}
 
 
 def test_concentrator_start_accepts_a_proper_clock_time():
-    from estimator.supply import inventory_from_text
+    from estimator.planning.supply import inventory_from_text
 
     assert inventory_from_text(CONCENTRATOR + 'start = "23:59"\n').concentrators[0].start == "23:59"
 
@@ -235,7 +245,7 @@ def test_flow_floor_scale_bands_must_rise():
 
 
 def test_policy_max_cases_has_a_range():
-    from estimator.audit_policy import parse_policy
+    from estimator.planning.audit_policy import parse_policy
 
     assert error_of(parse_policy, {"max_cases": 10**12}).field == "policy.max_cases"
     assert error_of(parse_policy, {"fresh_gas_flow": "banana"}).field == "policy.fresh_gas_flow"
@@ -243,8 +253,8 @@ def test_policy_max_cases_has_a_range():
 
 def test_quantity_fields_carry_unit_range_and_description():
     from estimator.fields import quantity_spec, quantity_specs
-    from estimator.inventory_file import ConcentratorEntry
-    from estimator.scenario import PatientInput, PhaseInput
+    from estimator.inputs.inventory_file import ConcentratorEntry
+    from estimator.inputs.scenario import PatientInput, PhaseInput
 
     age = quantity_specs(PatientInput)["age"]
     assert (age.unit, age.low, age.high) == ("year", 0.0, 120.0)
@@ -322,9 +332,9 @@ def test_vaporizer_beyond_the_agent_maximum_names_the_phase():
 @pytest.mark.parametrize(
     "fn,arg,field",
     [
-        ("estimator.scenario:scenario_from_dict", {**BASE, "colour": 1}, "colour"),
-        ("estimator.costs:parse_prices", {"colour": 1}, "prices.colour"),
-        ("estimator.audit_policy:parse_policy", {"colour": 1}, "policy.colour"),
+        ("estimator.inputs.scenario:scenario_from_dict", {**BASE, "colour": 1}, "colour"),
+        ("estimator.accounts.costs:parse_prices", {"colour": 1}, "prices.colour"),
+        ("estimator.planning.audit_policy:parse_policy", {"colour": 1}, "policy.colour"),
     ],
 )
 def test_one_wording_for_unknown_keys(fn, arg, field):
@@ -336,7 +346,7 @@ def test_one_wording_for_unknown_keys(fn, arg, field):
 
 
 def test_inventory_unknown_key_uses_the_same_wording():
-    from estimator.supply import inventory_from_text
+    from estimator.planning.supply import inventory_from_text
 
     err = error_of(inventory_from_text, "[[bottles]]\nagent = 'sevoflurane'\ncont = 3\n")
     assert err.field == "bottles[0].cont" and err.expected.startswith("a key valid here")

@@ -1,9 +1,11 @@
-"""The package's layers: imports flow one way, from faces down to the base (a consistency check).
+"""The package's layers: one folder a layer, imports flow one way, faces down to the base.
 
-Every module of ``estimator`` and ``estimator_app`` belongs to one layer of :data:`LAYERS`; a module
-may import (at run time, anywhere in the module) only from its own layer or a layer below it.
-Imports under ``if TYPE_CHECKING:`` are annotations only and do not count. The same picture, drawn,
-is in DEVELOPERS.md ("Architecture"). A new module must be given a layer here.
+A consistency check of the layout (not validation). Every module of ``estimator`` and
+``estimator_app`` belongs to one layer: its folder (``estimator/physics/...``), the base (the
+modules listed in :data:`BASE`, at the top of the package) or the faces (the command line, the API
+entry points and the app). A module may import, at run time and anywhere in the module, only from
+its own layer or a layer below it; imports under ``if TYPE_CHECKING:`` are annotations only and do
+not count. The same picture, drawn, is in DEVELOPERS.md ("Architecture").
 """
 
 from __future__ import annotations
@@ -15,98 +17,30 @@ import pytest
 
 ROOT = Path(__file__).resolve().parent.parent
 
-#: Layers from the bottom up; each lists module names relative to the ``estimator`` package
-#: (``cli*`` for the command line, ``app:*`` for estimator_app).
-LAYERS: dict[str, tuple[str, ...]] = {
-    "base": (
-        "constants",
-        "errors",
-        "caution",
-        "limits",
-        "units",
-        "jsonout",
-        "contracts",
-        "fields",
-        "properties",
-    ),
-    "physics": (
-        "physiology",
-        "site",
-        "gas_mixtures",
-        "vaporizer",
-        "flowmeter",
-        "mac",
-        "closed_form",
-        "circuit",
-        "cylinders",
-        "cylinder_state",
-        "real_gas",
-        "real_gas_table",
-        "supply_values",
-        "liquid_agent",
-        "mac_age",
-    ),
-    "numerics": ("rkc", "dopri5"),
-    "accounts": ("accounting", "carbon", "costs"),
-    "inputs": (
-        "scenario",
-        "inventory_file",
-        "supply_file",
-        "casemix_schema",
-        "casemix_files",
-        "casemix_draws",
-        "casemix_orders",
-        "audit_csv",
-        "audit_log",
-        "cylinder_entry",
-        "policy_file",
-    ),
-    "simulation": (
-        "case_site",
-        "kernel_parameters",
-        "case_setup",
-        "engine",
-        "assemble",
-        "results",
-        "batch",
-        "spread",
-        "totals_table",
-    ),
-    "planning": (
-        "safety",
-        "advisories",
-        "supply",
-        "casemix",
-        "casemix_plan",
-        "forecast",
-        "forecast_size",
-        "audit",
-        "audit_report",
-        "audit_policy",
-        "exports",
-        "flow_classes",
-        "floor_settings",
-        "supply_report",
-        "supply_demand",
-        "supply_allocate",
-    ),
-    "faces": ("__init__", "__main__", "cli*", "app:*"),
-}
+#: Layers from the bottom up; each but the base and the faces is a folder of ``estimator``.
+LAYERS = ("base", "physics", "numerics", "accounts", "inputs", "simulation", "planning", "faces")
+#: The base: modules every layer may use, at the top of the package (a new one must be named here).
+BASE = ("constants", "errors", "caution", "limits", "units", "jsonout", "contracts", "fields", "properties")
+#: Face modules of the package itself (the app's modules are faces too).
+FACES = ("__init__", "__main__", "cli")
 
 
-def _layer_of(module: str) -> int:
-    for rank, (_, members) in enumerate(LAYERS.items()):
-        for m in members:
-            if m == module or (m.endswith("*") and module.startswith(m[:-1])):
-                return rank
+def layer_of(module: str) -> str:
+    """Layer of a module named relative to ``estimator`` (``app:`` prefix for estimator_app)."""
+    head = module.split(".")[0]
+    if module.startswith("app:") or head in FACES:
+        return "faces"
+    if head in LAYERS:
+        return head
+    if module in BASE:
+        return "base"
     raise KeyError(module)
 
 
 def _modules() -> dict[str, Path]:
     found = {}
     for path in sorted((ROOT / "estimator").rglob("*.py")):
-        rel = path.relative_to(ROOT / "estimator").with_suffix("")
-        parts = list(rel.parts)
+        parts = list(path.relative_to(ROOT / "estimator").with_suffix("").parts)
         if parts[-1] == "__init__" and len(parts) > 1:
             parts = parts[:-1]
         found[".".join(parts)] = path
@@ -116,7 +50,7 @@ def _modules() -> dict[str, Path]:
 
 
 def _imports(path: Path) -> set[str]:
-    """``estimator`` modules imported at run time by the file (relative to the package)."""
+    """``estimator`` modules and packages imported at run time by the file (relative to ``estimator``)."""
     tree = ast.parse(path.read_text(encoding="utf-8"))
     skip = set()
     for node in ast.walk(tree):
@@ -138,36 +72,35 @@ def _imports(path: Path) -> set[str]:
             names = [a.name for a in node.names]
         else:
             continue
-        for name in names:
-            if name.startswith("estimator.") and not name.startswith("estimator_app"):
-                out.add(name[len("estimator.") :])
+        out.update(n[len("estimator.") :] for n in names if n.startswith("estimator."))
     return out
 
 
 MODULES = _modules()
 
 
-def test_every_module_has_a_layer():
-    missing = [m for m in MODULES if not _has_layer(m)]
-    assert not missing, f"give these modules a layer in tests/test_layers.py: {missing}"
-
-
-def _has_layer(module: str) -> bool:
+def _known(module: str) -> bool:
     try:
-        _layer_of(module)
+        layer_of(module)
     except KeyError:
         return False
     return True
 
 
-@pytest.mark.parametrize("module", sorted(m for m in MODULES if _has_layer(m)))
+def test_every_module_has_a_layer():
+    missing = [m for m in MODULES if not _known(m)]
+    assert not missing, f"put these modules in a layer folder, or name them in BASE: {missing}"
+
+
+@pytest.mark.parametrize("module", sorted(m for m in MODULES if _known(m)))
 def test_imports_flow_down(module):
-    rank = _layer_of(module)
-    names = list(LAYERS)
-    upward = []
-    for target in sorted(_imports(MODULES[module])):
-        if target not in MODULES:  # a name imported from a module, not a module
-            continue
-        if _layer_of(target) > rank:
-            upward.append(f"{target} ({names[_layer_of(target)]})")
-    assert not upward, f"{module} ({names[rank]}) imports from a layer above: {upward}"
+    rank = LAYERS.index(layer_of(module))
+    upward = sorted(
+        f"{t} ({layer_of(t)})" for t in _imports(MODULES[module]) if t in MODULES and LAYERS.index(layer_of(t)) > rank
+    )
+    assert not upward, f"{module} ({LAYERS[rank]}) imports from a layer above: {upward}"
+
+
+def test_layer_folders_exist():
+    for layer in LAYERS[1:-1]:
+        assert (ROOT / "estimator" / layer / "__init__.py").is_file(), layer

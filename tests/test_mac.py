@@ -9,7 +9,7 @@ from hypothesis import strategies as st
 from validation import record
 
 from estimator.errors import InputError
-from estimator.mac import (
+from estimator.physics.mac import (
     end_tidal_for_total_mac,
     mac_at_age,
     mac_at_pressure,

@@ -4,7 +4,7 @@ import pytest
 from validation import record
 
 from estimator.errors import InputError
-from estimator.physiology import (
+from estimator.physics.physiology import (
     alveolar_ventilation,
     brody_carbon_dioxide_production,
     brody_cardiac_output,
@@ -166,7 +166,7 @@ def test_fat_compartments_keep_eger_fat_group_and_levitt_flows():
     # The split keeps Eger's 14.5 L and 6 % of cardiac output for the fat as a whole (Eger 1974), and
     # the two perfused fat compartments carry Levitt's (2007) flows per kg, 0.074 and 0.014 L/min.
     # Round-off only.
-    from estimator.physiology import COMPARTMENTS
+    from estimator.physics.physiology import COMPARTMENTS
 
     p = patient_parameters(70)
     fat = [t for t in COMPARTMENTS if t.startswith("fat")]

@@ -16,10 +16,10 @@ import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
 
-from estimator import real_gas
 from estimator.constants import GAS_CONSTANT
-from estimator.gas_mixtures import COOLPROP_NAMES, pure_gas_properties
-from estimator.real_gas import (
+from estimator.physics import real_gas
+from estimator.physics.gas_mixtures import COOLPROP_NAMES, pure_gas_properties
+from estimator.physics.real_gas import (
     COOLPROP_FLUIDS,
     compressibility,
     molar_density,
@@ -28,7 +28,7 @@ from estimator.real_gas import (
     saturated_density,
     vapour_pressure,
 )
-from estimator.real_gas_table import (
+from estimator.physics.real_gas_table import (
     TABLE_TOLERANCE,
     coolprop_version,
     table,

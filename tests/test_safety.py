@@ -12,9 +12,9 @@ from hypothesis import strategies as st
 from validation import record
 
 from estimator.cli import main
-from estimator.engine import P_H2O_BODY, R_GAS, T_BODY
 from estimator.errors import InputError
-from estimator.safety import flow_floor, settable_values
+from estimator.planning.safety import flow_floor, settable_values
+from estimator.simulation.engine import P_H2O_BODY, R_GAS, T_BODY
 
 FEW = settings(max_examples=6, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 FINE_SCALE = [{"up_to": "15 L/min", "step": "0.01 L/min"}]
@@ -52,7 +52,7 @@ def test_floor_matches_derived_steady_state_oxygen_balance():
         patient={"weight": "70 kg", "initial": "preoxygenated"},
     )
     res = flow_floor(sc, grid=False)
-    from estimator.engine import patient_from_scenario
+    from estimator.simulation.engine import patient_from_scenario
 
     pt = patient_from_scenario(sc)
     amb = 101.325 / (R_GAS * 293.15) * 1000
@@ -84,7 +84,7 @@ def test_floor_never_below_metabolic_flow():
         flow_floor={"threshold_inspired_oxygen": "0.25", "scale": FINE_SCALE},
     )
     res = flow_floor(sc, grid=False)
-    from estimator.engine import simulate
+    from estimator.simulation.engine import simulate
 
     plan = simulate(sc)
     s = plan.series
@@ -313,7 +313,7 @@ def test_wash_out_at_the_floor_holds_in_the_case_engine():
     # The recommended schedule, run through the single-case engine, reaches 0.3 MAC end-tidal within
     # 10 min of the start of emergence (the limit's own definition; engine and planner share the model
     # but not the code path: a settable-flow schedule, re-simulated at rtol 1e-8).
-    from estimator.engine import simulate
+    from estimator.simulation.engine import simulate
 
     res = flow_floor(_emergence_case())
     schedule = [dict(p) for p in EMERGENCE_PLAN]

@@ -10,7 +10,7 @@ from hypothesis import strategies as st
 
 from estimator.cli import main
 from estimator.errors import InputError
-from estimator.scenario import scenario_from_dict, scenario_from_text
+from estimator.inputs.scenario import scenario_from_dict, scenario_from_text
 
 GOOD = """
 title = "Harbourside test case (invented)"
@@ -90,7 +90,7 @@ def test_errors_name_field_value_and_range(mutate, field, fragment):
 
 def test_site_pressure_must_fit_elevation():
     # ISO 2533 gives 70.1 kPa at 3000 m; 101 kPa there is an inconsistent pair.
-    from estimator.engine import simulate
+    from estimator.simulation.engine import simulate
 
     with pytest.raises(InputError) as err:
         simulate(scenario_from_dict({**base(), "site": {"elevation": "3000 m", "ambient_pressure": "101 kPa"}}))
@@ -99,7 +99,7 @@ def test_site_pressure_must_fit_elevation():
 
 def test_vaporizer_above_agent_maximum_is_an_error():
     # Sevoflurane vaporizers stop at 8 % (common practice, no source).
-    from estimator.engine import simulate
+    from estimator.simulation.engine import simulate
 
     with pytest.raises(InputError, match="vaporizer maximum"):
         simulate(scenario_from_dict(base(vaporizer="9 %")))

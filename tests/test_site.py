@@ -7,7 +7,7 @@ from hypothesis import strategies as st
 from validation import record
 
 from estimator.errors import InputError
-from estimator.site import (
+from estimator.physics.site import (
     check_inspired_oxygen,
     fraction_for_sea_level_threshold,
     inspired_oxygen_partial_pressure,

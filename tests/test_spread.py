@@ -1,4 +1,4 @@
-"""Patient spread (estimator.spread): draws, percentiles, JSON, CLI, forecast option, and one check of
+"""Patient spread (estimator.simulation.spread): draws, percentiles, JSON, CLI, forecast option, and one check of
 the spread of agent use against a published closed-circuit study."""
 
 from __future__ import annotations
@@ -10,13 +10,13 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from estimator import circuit as c
-from estimator.batch import case_template, run_batch
 from estimator.cli import main
-from estimator.engine import base_parameters, patient_from_scenario, simulate, site_state
 from estimator.errors import InputError
-from estimator.scenario import scenario_from_dict
-from estimator.spread import (
+from estimator.inputs.scenario import scenario_from_dict
+from estimator.physics import circuit as c
+from estimator.simulation.batch import case_template, run_batch
+from estimator.simulation.engine import base_parameters, patient_from_scenario, simulate, site_state
+from estimator.simulation.spread import (
     FACTORS,
     SPREAD_TOTALS,
     apply_factors,
@@ -191,8 +191,8 @@ def test_cli_spread_json_and_text(capsys):
 
 
 def test_forecast_patient_spread_is_an_option(tmp_path):
-    from estimator.casemix import load_casemix
-    from estimator.forecast import forecast
+    from estimator.planning.casemix import load_casemix
+    from estimator.planning.forecast import forecast
 
     mix = load_casemix(DEMO / "kestrel_case_mix.toml")
     off = forecast(mix, weeks=8, seed=1)

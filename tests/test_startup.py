@@ -30,7 +30,7 @@ def test_importing_the_package_leaves_pint_global_state_alone():
     # and pint's default format is untouched (the app sets the registry in its own process only).
     code = (
         "import pint\nbefore = pint.get_application_registry().get()\n"
-        "import estimator, estimator.units, estimator.engine\n"
+        "import estimator, estimator.units, estimator.simulation.engine\n"
         "after = pint.get_application_registry().get()\n"
         "try:\n    after.Unit('MAC')\n    known = True\nexcept Exception:\n    known = False\n"
         "print(before is after, known, after.formatter.default_format == before.formatter.default_format)"

@@ -9,8 +9,8 @@ import pytest
 from CoolProp.CoolProp import PropsSI
 
 from estimator.errors import InputError
-from estimator.real_gas_table import TABLE_TOLERANCE
-from estimator.supply import inventory_from_text, plan_supply
+from estimator.physics.real_gas_table import TABLE_TOLERANCE
+from estimator.planning.supply import inventory_from_text, plan_supply
 from estimator.units import Q_
 
 START = "2026-03-02"  # a Monday

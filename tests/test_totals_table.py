@@ -7,9 +7,9 @@ from pathlib import Path
 import pytest
 
 from estimator.cli.case import summary
-from estimator.engine import simulate
-from estimator.scenario import load_scenario
-from estimator.totals_table import TOTAL_ROWS, totals_rows
+from estimator.inputs.scenario import load_scenario
+from estimator.simulation.engine import simulate
+from estimator.simulation.totals_table import TOTAL_ROWS, totals_rows
 
 DEMO = Path(__file__).resolve().parent.parent / "demo_cases" / "kestrel_lap_chole.toml"
 

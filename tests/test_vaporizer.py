@@ -9,9 +9,9 @@ from hypothesis import strategies as st
 from validation import record
 
 from estimator.errors import InputError
+from estimator.physics.vaporizer import delivered_fraction, dial_for_target, mac_fraction_at_site
 from estimator.properties import agent
 from estimator.units import Q_
-from estimator.vaporizer import delivered_fraction, dial_for_target, mac_fraction_at_site
 
 P0 = Q_(101.325, "kPa")
 P3000 = Q_(70.121, "kPa")  # ISO 2533 at 3000 m geometric (tests/test_site.py)

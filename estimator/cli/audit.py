@@ -4,7 +4,7 @@ Examples
 --------
 >>> import contextlib, io, pathlib, tempfile
 >>> from estimator.cli import main
->>> from estimator.audit_log import REQUIRED
+>>> from estimator.inputs.audit_log import REQUIRED
 >>> log = pathlib.Path(tempfile.mkdtemp()) / "log.csv"
 >>> _ = log.write_text(",".join(REQUIRED) + "\\nA,0,1,1,0,sevoflurane,2\\nA,60,1,1,0,sevoflurane,2\\n")
 >>> out = io.StringIO()
@@ -46,7 +46,7 @@ def _as_option(exc: InputError, name: str, flag: str) -> InputError:
 
 
 def _policy(path: str):
-    from ..audit_policy import load_policy
+    from ..planning.audit_policy import load_policy
 
     try:
         return load_policy(path)
@@ -55,7 +55,7 @@ def _policy(path: str):
 
 
 def _prices(path: str):
-    from ..costs import load_prices
+    from ..accounts.costs import load_prices
 
     try:
         return load_prices(path)
@@ -97,9 +97,9 @@ def audit_command(
     ),
 ) -> None:
     """Fresh-gas audit: agent, gases, CO2e and cost per case, room and month, with KPIs."""
-    from .. import exports
-    from ..audit import audit
-    from ..costs import DEMO_PRICES
+    from ..accounts.costs import DEMO_PRICES
+    from ..planning import exports
+    from ..planning.audit import audit
 
     if prices is not None and demo_prices:
         raise InputError("--demo-prices", True, "either --prices FILE or --demo-prices, not both")
@@ -120,7 +120,7 @@ def audit_command(
             manifold_loss=manifold_loss,
         )
     if policy is not None:
-        from ..audit_policy import counterfactual
+        from ..planning.audit_policy import counterfactual
 
         cf = counterfactual(
             result,

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import typer
 
-from ..totals_table import totals_rows
+from ..simulation.totals_table import totals_rows
 from . import CAUTION, app
 from .outputs import output_paths, write_output
 
@@ -22,16 +22,16 @@ def case(
     seed: int | None = typer.Option(None, "--seed", help="Seed of the patient draws (--spread); reported in the JSON."),
 ) -> None:
     """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
-    from ..engine import simulate
+    from ..inputs.scenario import load_scenario
     from ..jsonout import dumps
-    from ..scenario import load_scenario
+    from ..simulation.engine import simulate
 
     outputs = output_paths({"--csv": csv}, {"FILE": file})
     scenario = load_scenario(file)
     result = simulate(scenario)
     band = None
     if spread:
-        from ..spread import simulate_spread
+        from ..simulation.spread import simulate_spread
 
         band = simulate_spread(scenario, spread, seed=seed)
     if "--csv" in outputs:
@@ -46,7 +46,7 @@ def case(
 
 
 def summary(result, band=None) -> str:
-    """Readable summary of a :class:`~estimator.results.CaseResult`."""
+    """Readable summary of a :class:`~estimator.simulation.results.CaseResult`."""
     t = result.totals
     sc = result.scenario
     lines = [

@@ -22,7 +22,7 @@ from . import CAUTION, app
 from .outputs import option_names
 
 if TYPE_CHECKING:
-    from ..flowmeter import TrueFlow
+    from ..physics.flowmeter import TrueFlow
 
 #: Model field names -> the option that sets them, so an error names what the user typed.
 _OPTIONS = {
@@ -62,8 +62,8 @@ def flowmeter_report(
     >>> r["regime"], round(r["true_flow_ambient"].magnitude, 6)
     ('turbulent', 5.0)
     """
-    from ..flowmeter import true_flow
-    from ..site import site_from_inputs
+    from ..physics.flowmeter import true_flow
+    from ..physics.site import site_from_inputs
     from ..units import parse_quantity
 
     with option_names(_OPTIONS):

@@ -7,7 +7,7 @@ from pathlib import Path
 import typer
 
 from ..errors import InputError
-from ..forecast_size import CASE_CEILING, MAX_CASES, check_size
+from ..planning.forecast_size import CASE_CEILING, MAX_CASES, check_size
 from . import CAUTION, app
 from .outputs import option_names
 
@@ -42,9 +42,9 @@ def forecast(
     ),
 ) -> None:
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
-    from ..casemix import MAX_WEEKS, load_casemix
-    from ..forecast import forecast as run
     from ..jsonout import dumps
+    from ..planning.casemix import MAX_WEEKS, load_casemix
+    from ..planning.forecast import forecast as run
 
     if not 1 <= max_cases <= CASE_CEILING:
         raise InputError("--max-cases", max_cases, f"a whole number from 1 to {CASE_CEILING}")
@@ -67,7 +67,7 @@ def _fmt(q) -> str:
 
 
 def summary(result) -> str:
-    """Readable summary of a :class:`~estimator.forecast.ForecastResult`."""
+    """Readable summary of a :class:`~estimator.planning.forecast.ForecastResult`."""
     lines = [
         f"Demand forecast{': ' + result.title if result.title else ''} - {result.weeks} simulated weeks, "
         f"seed {result.seed}, {result.solver['cases']} cases"

@@ -24,7 +24,7 @@ _FIELDS = {"age_field": "--age", "agent_field": "--agent", "pressure_field": "--
 
 
 def _site(elevation: Any, ambient_pressure: Any) -> Any:
-    from ..site import site_from_inputs
+    from ..physics.site import site_from_inputs
 
     # name the CLI option, not the scenario-file field
     with option_names({"site.elevation": "--elevation", "site.ambient_pressure": "--ambient-pressure"}):
@@ -61,7 +61,7 @@ def mac_report(
     >>> r["mac"].to("percent").magnitude, r["end_tidal_for_total"] is None
     (1.17, True)
     """
-    from ..mac import SOURCE, end_tidal_for_total_mac, mac_at_age, parse_fraction
+    from ..physics.mac import SOURCE, end_tidal_for_total_mac, mac_at_age, parse_fraction
     from ..units import Q_
 
     site = _site(elevation, ambient_pressure)

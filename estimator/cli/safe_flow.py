@@ -19,9 +19,9 @@ def safe_flow(
     no_grid: bool = typer.Option(False, "--no-grid", help="Skip the floor on the time grid."),
 ) -> None:
     """Lowest safe fresh-gas flow per phase and over time, what limits it, and a settable schedule."""
+    from ..inputs.scenario import load_scenario
     from ..jsonout import dumps
-    from ..safety import flow_floor
-    from ..scenario import load_scenario
+    from ..planning.safety import flow_floor
     from ..units import check_range, parse_quantity
 
     level = None

@@ -11,7 +11,7 @@ from . import CAUTION, app
 from .outputs import option_names
 
 if TYPE_CHECKING:
-    from ..supply import SupplyReport
+    from ..planning.supply import SupplyReport
 
 
 def _amount(q) -> str:  # noqa: ANN001 - pint quantity or None
@@ -28,7 +28,7 @@ def _runtime(item) -> str:  # noqa: ANN001
 
 
 def render(report: SupplyReport) -> str:
-    """Readable text of a :class:`~estimator.supply.SupplyReport`, ending with the caution."""
+    """Readable text of a :class:`~estimator.planning.supply.SupplyReport`, ending with the caution."""
     lines = [f"Supply duration{': ' + report.title if report.title else ''} (from {report.start.isoformat()})", ""]
     header = f"{'item':<28} {'kind':<12} {'usable':>16} {'draw a day':>16} {'lasts':>12}"
     lines += [header, "-" * len(header)]
@@ -64,7 +64,7 @@ def supply(
 ) -> None:
     """How long the stocks last, which runs out first (the bottleneck) and when to reorder."""
     from ..jsonout import dumps
-    from ..supply import load_inventory, plan_supply
+    from ..planning.supply import load_inventory, plan_supply
 
     inventory = load_inventory(file)
     with option_names({"plan.start": "--start" if start is not None else None}):

@@ -1,4 +1,4 @@
-"""Case planner: one planned case through the circle-system model (``estimator.engine.simulate``)."""
+"""Case planner: one planned case through the circle-system model (``estimator.simulation.engine.simulate``)."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ import pandas as pd
 import streamlit as st
 
 from estimator.properties import AGENTS
-from estimator.totals_table import totals_rows
+from estimator.simulation.totals_table import totals_rows
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import spread_view, state
@@ -21,7 +21,7 @@ from ..editing import Field, contract, kept_view, number, table
 def phase_fields(fu: str) -> list[Field]:
     """Columns of the phase table (flows in ``fu``), ranges from the scenario contract; other phase keys
     (total_flow, oxygen_fraction, balance...) are kept and shown read-only."""
-    from estimator.scenario import PhaseInput as P
+    from estimator.inputs.scenario import PhaseInput as P
 
     step = 50.0 if fu == "mL/min" else 0.05
     return [
@@ -37,7 +37,7 @@ def phase_fields(fu: str) -> list[Field]:
 
 def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
     """The planner's inputs; returns the scenario as the widgets now stand (other keys kept as loaded)."""
-    from estimator.scenario import CircuitInput, PatientInput
+    from estimator.inputs.scenario import CircuitInput, PatientInput
 
     v, fu, mu = state.version(), unit("flow"), unit("mass")
     scale = 1000.0 if fu == "mL/min" else 1.0
@@ -111,7 +111,7 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
 
 
 def totals_frame(result: Any) -> pd.DataFrame:
-    """The totals table of ``lowflow case`` (estimator.totals_table), flows in the display unit."""
+    """The totals table of ``lowflow case`` (estimator.simulation.totals_table), flows in the display unit."""
     rows = totals_rows(result, unit("flow"))
     return pd.DataFrame([{"quantity": r.label, "value": r.value, "unit": r.unit} for r in rows])
 

@@ -1,4 +1,4 @@
-"""Demand forecast: Monte-Carlo weekly demand of a department's case mix (``estimator.forecast``)."""
+"""Demand forecast: Monte-Carlo weekly demand of a department's case mix (``estimator.planning.forecast``)."""
 
 from __future__ import annotations
 
@@ -75,7 +75,7 @@ def run_forecast(
     mix_text: str, named: tuple[tuple[str, str], ...], progress: Callable[[float], None] | None = None
 ) -> Any:
     """Forecast of a case mix: the command line's loader and forecast; named files are the ones given with it."""
-    from estimator.forecast import forecast
+    from estimator.planning.forecast import forecast
 
     files = dict(named)
     with contracts.folder(files, files.get(contracts.PLANNER_NAMES[0])) as base:

@@ -1,4 +1,4 @@
-"""Flow floor: the lowest safe fresh-gas flow over the planned case (``estimator.safety.flow_floor``)."""
+"""Flow floor: the lowest safe fresh-gas flow over the planned case (``estimator.planning.safety.flow_floor``)."""
 
 from __future__ import annotations
 
@@ -20,9 +20,9 @@ from ..editing import Field, contract, number
 
 
 def model() -> Any:
-    """``estimator.safety.flow_floor`` if the package has it, else None."""
+    """``estimator.planning.safety.flow_floor`` if the package has it, else None."""
     try:
-        return getattr(importlib.import_module("estimator.safety"), "flow_floor", None)
+        return getattr(importlib.import_module("estimator.planning.safety"), "flow_floor", None)
     except ImportError:
         return None
 
@@ -30,14 +30,14 @@ def model() -> Any:
 @st.cache_data(max_entries=32, show_spinner="Searching the lowest safe flow, phase by phase...")
 def run_floor(text: str) -> Any:
     """Flow floor of a scenario's TOML text (cached on the text)."""
-    from estimator.scenario import scenario_from_text
+    from estimator.inputs.scenario import scenario_from_text
 
     return model()(scenario_from_text(text))
 
 
 def fields(fu: str, scale: float) -> list[tuple[int, str, Field]]:
     """(column, widget key, field) of the ``[flow_floor]`` keys the page edits; defaults from the contract."""
-    from estimator.scenario import FlowFloorInput as F
+    from estimator.inputs.scenario import FlowFloorInput as F
 
     wash = "Emergence (dial at 0, no N2O): end-tidal MAC to reach; about MAC-awake at 0.3"
     return [
@@ -168,7 +168,7 @@ def render() -> None:
     if model() is None:
         placeholder(
             "The flow floor",
-            "estimator.safety",
+            "estimator.planning.safety",
             "It will search the lowest fresh-gas flow at each moment that keeps inspired O2 above the "
             "threshold, keeps the bag full and lets the vaporizer hold the end-tidal target.",
         )

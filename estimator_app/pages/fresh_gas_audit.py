@@ -25,7 +25,7 @@ NO_PRICES = "no prices"
 @st.cache_data(max_entries=16, show_spinner="Auditing the log...")
 def run_audit(text: str, prices_text: str, basis: str, quadrature: str, after: float) -> Any:
     """The audit of a log's text: the command line's ``audit`` call with the same options."""
-    from estimator.audit import audit
+    from estimator.planning.audit import audit
 
     return audit(
         contracts.load_log_text(text),
@@ -40,7 +40,7 @@ def run_audit(text: str, prices_text: str, basis: str, quadrature: str, after: f
 def run_counterfactual(
     text: str, prices_text: str, basis: str, quadrature: str, after: float, policy_text: str
 ) -> dict[str, Any]:
-    from estimator.audit_policy import counterfactual
+    from estimator.planning.audit_policy import counterfactual
 
     result = run_audit(text, prices_text, basis, quadrature, after)
     return counterfactual(
@@ -79,7 +79,7 @@ def _flow_field(fu: str, ff: float) -> Field:
 
 def _file(result: Any, kind: str) -> bytes:
     """One export of the audit, built when its button is pressed."""
-    from estimator.exports import report_html, write_csv, write_xlsx
+    from estimator.planning.exports import report_html, write_csv, write_xlsx
 
     if kind == "html":
         return report_html(result, "Fresh-gas audit").encode("utf-8")

@@ -22,8 +22,8 @@ GAS_CHOICES = ("oxygen", "air", "nitrous_oxide", "concentrator")
 
 def site_inputs() -> Any:
     """The site calculator's inputs; ranges, the temperature default and help from the scenario's [site] contract."""
-    from estimator.scenario import SiteInput
-    from estimator.site import site_from_inputs
+    from estimator.inputs.scenario import SiteInput
+    from estimator.physics.site import site_from_inputs
 
     pu = unit("pressure")
     st.subheader("Site")
@@ -46,7 +46,7 @@ def site_inputs() -> Any:
     m = st.columns(3)
     m[0].metric("Ambient pressure", f"{site.ambient_pressure.to(pu).magnitude:.3g} {pu}", help=site.basis)
     m[1].metric("Pressure altitude", f"{site.pressure_altitude.to('m').magnitude:,.0f} m")
-    from estimator.site import inspired_oxygen_partial_pressure
+    from estimator.physics.site import inspired_oxygen_partial_pressure
 
     pio2 = inspired_oxygen_partial_pressure(0.21, site.ambient_pressure)
     m[2].metric(
@@ -59,7 +59,7 @@ def site_inputs() -> Any:
 
 
 def flowmeter_section(site: Any) -> dict[str, Any]:
-    from estimator.flowmeter import true_flow
+    from estimator.physics.flowmeter import true_flow
 
     fu, ff = unit("flow"), flow_factor()
     st.subheader("True flow behind a flowmeter reading")
@@ -113,9 +113,9 @@ def flowmeter_section(site: Any) -> dict[str, Any]:
 
 
 def vaporizer_section(site: Any) -> dict[str, Any]:
-    from estimator.mac import mac_at_age
+    from estimator.physics.mac import mac_at_age
+    from estimator.physics.vaporizer import KINDS, delivered_fraction, dial_for_target
     from estimator.units import parse_quantity
-    from estimator.vaporizer import KINDS, delivered_fraction, dial_for_target
 
     st.subheader("Vaporizer at the site")
     doc = state.document()

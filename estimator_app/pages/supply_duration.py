@@ -15,7 +15,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-from estimator.inventory_file import BottleEntry, ConcentratorEntry, ContinuousDemand, CylinderEntry, PlanOptions
+from estimator.inputs.inventory_file import BottleEntry, ConcentratorEntry, ContinuousDemand, CylinderEntry, PlanOptions
 from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE
 
@@ -91,7 +91,7 @@ WORK = Field("working_days_per_week", "Working days a week", "integer", low=0, h
 @st.cache_data(max_entries=32, show_spinner="Laying out the week and the stocks...")
 def run_supply(inventory_text: str, scenarios: tuple[tuple[str, str], ...]) -> Any:
     """Supply report: the command line's loader and planner; each case plan runs the scenario it names."""
-    from estimator.supply import plan_supply
+    from estimator.planning.supply import plan_supply
 
     texts = dict(scenarios)
 

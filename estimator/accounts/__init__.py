@@ -1,0 +1,1 @@
+"""One accounting: volumes to masses, absorbent, CO2e on its bases, cost."""

@@ -1,0 +1,1 @@
+"""Input contracts: every file format parsed and validated once into typed objects."""

@@ -1,0 +1,1 @@
+"""One case set-up, the engines (single case, batch, patient spread) and their results."""
