@@ -1,4 +1,4 @@
-"""Benchmark of the app's first render and of a rerun (run: ``uv run python benchmarks/bench_app.py``).
+"""Benchmark of the app's first render and of a rerun (run: ``uv run python benchmarks/bench_app.py [--quick]``).
 
 For each of ``--runs`` cold servers (a fresh ``streamlit run app.py`` process; numba's on-disk cache
 is warm, as after the first run on any machine; the libraries' bytecode compiled at install, as
@@ -74,7 +74,10 @@ def _rerun_seconds(page) -> float:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--runs", type=int, default=3, help="cold servers to start (default 3)")
+    parser.add_argument("--quick", action="store_true", help="one cold server, no uncounted first start (CI)")
     args = parser.parse_args()
+    if args.quick:
+        args.runs = 1
     chromium = shutil.which("chromium")
     if chromium is None:
         raise SystemExit("chromium is not on the PATH (Debian: apt-get install chromium)")
@@ -84,11 +87,12 @@ def main() -> None:
     # the kernels (10-20 s once, not what a user meets again).
     with sync_playwright() as p:
         browser = p.chromium.launch(executable_path=chromium, args=app_server.FLAGS, headless=True)
-        first = _one_run(browser)
+        first = None if args.quick else _one_run(browser)
         runs = [_one_run(browser) for _ in range(args.runs)]
         browser.close()
     caution, totals, rerun, command = (statistics.median(x) for x in zip(*runs, strict=True))
-    print(f"first start (not counted): caution {first[0]:5.2f} s, totals {first[1]:5.2f} s")
+    if first is not None:
+        print(f"first start (not counted): caution {first[0]:5.2f} s, totals {first[1]:5.2f} s")
     print(f"cold servers: {args.runs}, {os.cpu_count()} cores")
     for k, (a, b, c, d) in enumerate(runs, 1):
         print(

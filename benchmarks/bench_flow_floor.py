@@ -1,8 +1,10 @@
-"""Benchmark of the flow floor (run: ``uv run python benchmarks/bench_flow_floor.py``).
+"""Benchmark of the flow floor (run: ``uv run python benchmarks/bench_flow_floor.py [--quick]``).
 
-Times the flow floor of the 4-hour plan of ``bench_case.py`` (per phase, on the 5-min grid, with
-the recommended schedule re-simulated) and prints it against the 1 s target and as a ratio to one
-engine run measured in the same process.
+Times (CPU, ``time.process_time``) the flow floor of the 4-hour plan of ``bench_case.py`` (per phase,
+on the 5-min grid, with the recommended schedule re-simulated) against the 1 s target and as a ratio
+to one engine run of the same plan measured in the same process (the baseline: what one plain run of
+the case costs); then the same plan lengthened to 24 hours, and the ratio of the two floors (target:
+within 7x, about linear in case length). ``--quick``: a 40-min and an 80-min plan, one repeat.
 """
 
 from __future__ import annotations
@@ -17,32 +19,50 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from bench_case import CASE  # noqa: E402
 
-from estimator import engine  # noqa: E402
 from estimator.inputs.scenario import scenario_from_dict  # noqa: E402
 from estimator.planning.safety import flow_floor  # noqa: E402
+from estimator.simulation import engine  # noqa: E402
 
 
-def main() -> None:
-    sc = scenario_from_dict(CASE)
+def plan(minutes: float) -> dict:
+    """The benchmark plan with its maintenance phase set so the case lasts ``minutes``."""
+    first = CASE["phases"][0]
+    rest = {**CASE["phases"][1], "duration": f"{minutes - 10:g} min"}
+    return {**CASE, "phases": [first, rest]}
+
+
+def cpu(fn, repeat: int) -> tuple[float, object]:
+    times, out = [], None
+    for _ in range(repeat):
+        t = time.process_time()
+        out = fn()
+        times.append(time.process_time() - t)
+    return statistics.median(times), out
+
+
+def main(quick: bool = False) -> None:
+    short, long = (40.0, 80.0) if quick else (240.0, 1440.0)
+    repeat = 1 if quick else 3
+    sc = scenario_from_dict(plan(short))
     engine.simulate(sc)
     flow_floor(sc)
-    runs = []
-    for _ in range(10):
-        t = time.perf_counter()
-        engine.simulate(sc)
-        runs.append(time.perf_counter() - t)
-    single = statistics.median(runs)
-    floors = []
-    for _ in range(5):
-        t = time.perf_counter()
-        res = flow_floor(sc)
-        floors.append(time.perf_counter() - t)
-    median = statistics.median(floors)
-    print(f"plan: {CASE['title']}")
-    print(f"flow floor median            {median:7.3f} s   target <= 1 s   ratio to target {median / 1.0:6.3f}")
-    print(f"engine single run            {1e3 * single:7.2f} ms  flow floor = {median / single:6.1f} engine runs")
+    single, _ = cpu(lambda: engine.simulate(sc), 3 if quick else 10)
+    median, res = cpu(lambda: flow_floor(sc), repeat)
+    sc_long = scenario_from_dict(plan(long))
+    t_long, res_long = cpu(lambda: flow_floor(sc_long), 1)
+    print(f"plan: {CASE['title']} ({short:g} min; then {long:g} min)")
+    print(
+        f"flow floor, {short:g} min plan       {median:7.3f} s CPU"
+        + ("" if quick else f"   target <= 1 s   ratio to target {median / 1.0:6.3f}")
+    )
+    print(f"baseline: one engine run     {1e3 * single:7.2f} ms CPU  flow floor = {median / single:6.1f} engine runs")
+    print(
+        f"flow floor, {long:g} min plan     {t_long:7.3f} s CPU   ratio to the {short:g} min plan "
+        f"{t_long / median:5.2f} (length ratio {long / short:g}; target within 7x for 24 h / 4 h)"
+    )
     print(f"grid points {len(res.grid)}, schedule: {res.schedule_text}")
+    print(f"grid points {len(res_long.grid)} ({long:g} min)")
 
 
 if __name__ == "__main__":
-    main()
+    main(quick="--quick" in sys.argv[1:])

@@ -1,0 +1,47 @@
+"""Every benchmark runs to the end in its quick mode, so none can rot (no timed assertions).
+
+Each script prints its figures and their ratios to the baseline measured in the same run; here only
+that it finishes, exits 0 and prints them is checked. The figures themselves are read by people.
+"""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+BENCH = Path(__file__).resolve().parent.parent / "benchmarks"
+
+#: script -> a phrase its output must contain.
+QUICK = {
+    "bench_case.py": "engine speed-up",
+    "bench_batch.py": "batch speed-up",
+    "bench_flow_floor.py": "ratio to the",
+    "bench_spread.py": "ratio to the run without spread",
+}
+
+
+@pytest.mark.parametrize("script", sorted(QUICK))
+def test_benchmark_quick_mode_runs(script):
+    run = subprocess.run(
+        [sys.executable, str(BENCH / script), "--quick"], capture_output=True, text=True, timeout=600, cwd=BENCH.parent
+    )
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert QUICK[script] in run.stdout, run.stdout
+
+
+@pytest.mark.skipif(shutil.which("chromium") is None, reason="the app benchmark drives Debian's chromium")
+def test_app_benchmark_quick_mode_runs():
+    pytest.importorskip("playwright")
+    run = subprocess.run(
+        [sys.executable, str(BENCH / "bench_app.py"), "--quick"],
+        capture_output=True,
+        text=True,
+        timeout=600,
+        cwd=BENCH.parent,
+    )
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert "rerun after one input" in run.stdout, run.stdout
