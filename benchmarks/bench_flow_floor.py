@@ -9,15 +9,13 @@ within 7x, about linear in case length). ``--quick``: a 40-min and an 80-min pla
 
 from __future__ import annotations
 
-import statistics
 import sys
-import time
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench_case import CASE  # noqa: E402
+from bench_case import CASE, cpu  # noqa: E402
 
 from estimator.inputs.scenario import scenario_from_dict  # noqa: E402
 from estimator.planning.safety import flow_floor  # noqa: E402
@@ -29,15 +27,6 @@ def plan(minutes: float) -> dict:
     first = CASE["phases"][0]
     rest = {**CASE["phases"][1], "duration": f"{minutes - 10:g} min"}
     return {**CASE, "phases": [first, rest]}
-
-
-def cpu(fn, repeat: int) -> tuple[float, object]:
-    times, out = [], None
-    for _ in range(repeat):
-        t = time.process_time()
-        out = fn()
-        times.append(time.process_time() - t)
-    return statistics.median(times), out
 
 
 def main(quick: bool = False) -> None:
