@@ -161,12 +161,14 @@ def downloads(
     first = next(iter(sheets.values()))
 
     def as_json() -> bytes:
-        from estimator.jsonout import dumps
+        from estimator.caution import stamp
+        from estimator.jsonout import dumps, jsonable
 
         doc = document() if callable(document) else document
-        text = doc if isinstance(doc, str) else dumps(doc)
-        json.loads(text)  # a malformed document is a bug: fail here, not in the user's tools
-        return text.encode("utf-8")
+        doc = json.loads(doc) if isinstance(doc, str) else jsonable(doc)  # malformed: a bug, fail here
+        if not isinstance(doc, dict):
+            doc = {"result": doc}
+        return dumps(stamp(doc, f"lowflow app: {stem.replace('_', ' ')}")).encode("utf-8")
 
     def as_html() -> bytes:
         from estimator.planning.exports import tables_report_html

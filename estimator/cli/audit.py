@@ -27,7 +27,7 @@ import typer
 
 from ..errors import InputError
 from . import CAUTION, app
-from .outputs import option_names, output_paths, terminal_progress, write_output
+from .outputs import json_text, option_names, output_paths, terminal_progress, write_output
 
 #: Fields of the audit set by an option, named by the option in errors.
 _AUDIT_OPTIONS = {
@@ -139,9 +139,8 @@ def audit_command(
         if flag in outputs:
             written.append(str(write_output(flag, outputs[flag], lambda p, w=writer: w(result, p))))
     if json_out:
-        from ..jsonout import dumps
-
-        typer.echo(dumps(result.to_json()))
+        files = {"LOG": log, "--policy": policy, "--prices": prices}
+        typer.echo(json_text(result.to_json(), "audit", files))
         return
     _human(result, written)
 

@@ -8,7 +8,7 @@ import typer
 
 from ..simulation.totals_table import totals_rows
 from . import CAUTION, app
-from .outputs import output_paths, write_output
+from .outputs import json_text, output_paths, write_output
 
 
 @app.command("case")
@@ -23,7 +23,6 @@ def case(
 ) -> None:
     """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
     from ..inputs.scenario import load_scenario
-    from ..jsonout import dumps
     from ..simulation.engine import simulate
 
     outputs = output_paths({"--csv": csv}, {"FILE": file})
@@ -40,7 +39,7 @@ def case(
         out = result.to_json()
         if band is not None:
             out["spread"] = band.to_json()
-        typer.echo(dumps(out))
+        typer.echo(json_text(out, "case", {"FILE": file}))
         return
     typer.echo(summary(result, band))
 

@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any
 import typer
 
 from . import CAUTION, app
-from .outputs import option_names
+from .outputs import json_text, option_names
 
 if TYPE_CHECKING:
     from ..physics.flowmeter import TrueFlow
@@ -157,7 +157,6 @@ def flowmeter_command(
     json_out: bool = typer.Option(False, "--json", help="Print JSON (quantities as magnitude and units)."),
 ) -> None:
     """True flow behind a float-flowmeter reading at the site's pressure and temperature."""
-    from ..jsonout import dumps
 
     d = flowmeter_report(reading, calibrated_for, gas, elevation, ambient_pressure, temperature, purity, back_pressure)
-    typer.echo(dumps(d) if json_out else _human(d))
+    typer.echo(json_text(d, "flowmeter") if json_out else _human(d))

@@ -9,7 +9,7 @@ import typer
 from ..errors import InputError
 from ..planning.forecast_size import CASE_CEILING, MAX_CASES, check_size
 from . import CAUTION, app
-from .outputs import option_names
+from .outputs import json_text, option_names
 
 #: Forecasts estimated to run at least this long [s] say so (on stderr) before they start.
 ANNOUNCE_AFTER = 5.0
@@ -42,7 +42,6 @@ def forecast(
     ),
 ) -> None:
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
-    from ..jsonout import dumps
     from ..planning.casemix import MAX_WEEKS, load_casemix
     from ..planning.forecast import forecast as run
 
@@ -58,7 +57,7 @@ def forecast(
         {"weeks": "--weeks" if weeks is not None else None, "seed": "--seed" if seed is not None else None}
     ):
         result = run(mix, weeks=weeks, seed=seed, max_cases=max_cases, patient_spread=patient_spread)
-    typer.echo(dumps(result.to_json()) if json_out else summary(result))
+    typer.echo(json_text(result.to_json(), "forecast", {"FILE": file}) if json_out else summary(result))
 
 
 def _fmt(q) -> str:

@@ -18,7 +18,7 @@ from typing import Any
 import typer
 
 from . import CAUTION, app
-from .outputs import option_names
+from .outputs import json_text, option_names
 
 _FIELDS = {"age_field": "--age", "agent_field": "--agent", "pressure_field": "--ambient-pressure"}
 
@@ -141,7 +141,6 @@ def mac_command(
     json_out: bool = typer.Option(False, "--json", help="Print JSON (quantities as magnitude and units)."),
 ) -> None:
     """Age-corrected MAC (Mapleson 1996) and the end-tidal agent for a total MAC with nitrous oxide."""
-    from ..jsonout import dumps
 
     r = mac_report(agent, age, nitrous_oxide, total, ambient_pressure, elevation)
-    typer.echo(dumps(r) if json_out else _human(r))
+    typer.echo(json_text(r, "mac") if json_out else _human(r))

@@ -7,6 +7,7 @@ from pathlib import Path
 import typer
 
 from . import CAUTION, app
+from .outputs import json_text
 
 
 @app.command("safe-flow")
@@ -20,7 +21,6 @@ def safe_flow(
 ) -> None:
     """Lowest safe fresh-gas flow per phase and over time, what limits it, and a settable schedule."""
     from ..inputs.scenario import load_scenario
-    from ..jsonout import dumps
     from ..planning.safety import flow_floor
     from ..units import check_range, parse_quantity
 
@@ -30,7 +30,7 @@ def safe_flow(
         level = float(check_range(q.to(""), "--threshold", 0.21, 1.0, value=threshold).magnitude)
     result = flow_floor(load_scenario(file), threshold=level, grid=not no_grid)
     if json_out:
-        typer.echo(dumps(result.to_json()))
+        typer.echo(json_text(result.to_json(), "safe-flow", {"FILE": file}))
         return
     lines = [f"Flow floor (inspired O2 threshold {100 * result.settings.threshold:.0f} %):"]
     for ph in result.phases:

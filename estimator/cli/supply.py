@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING, Annotated
 import typer
 
 from . import CAUTION, app
-from .outputs import option_names
+from .outputs import json_text, option_names
 
 if TYPE_CHECKING:
     from ..planning.supply import SupplyReport
@@ -63,10 +63,9 @@ def supply(
     ] = None,
 ) -> None:
     """How long the stocks last, which runs out first (the bottleneck) and when to reorder."""
-    from ..jsonout import dumps
     from ..planning.supply import load_inventory, plan_supply
 
     inventory = load_inventory(file)
     with option_names({"plan.start": "--start" if start is not None else None}):
         report = plan_supply(inventory, start=start)
-    typer.echo(dumps(report) if json_out else render(report))
+    typer.echo(json_text(report, "supply", {"FILE": file}) if json_out else render(report))
