@@ -91,6 +91,11 @@ TRUNCATED_SHARE = 0.01
 #: Weights [kg] over which the physiological power laws are taken as validated (adult and
 #: older-child clinical use; Lowe and Ernst 1981 applied Brody's law to adults and children).
 VALIDATED_WEIGHT = (10.0, 150.0)
+#: Outside this range [kg] a weight is refused as not a human patient (a preterm neonate to the
+#: heaviest adults; common practice, no source). One range for the scenario, the API and case mixes.
+SANE_WEIGHT = (0.5, 300.0)
+#: Ages [year] accepted anywhere a patient's age is read (common practice, no source).
+SANE_AGE = (0.0, 120.0)
 #: Youngest age [year] of Mapleson's age correction of MAC (Mapleson 1996).
 MAPLESON_VALID_FROM = 1.0
 #: Beyond this time [min] the square-root laws are flagged (our choice: 4 h).

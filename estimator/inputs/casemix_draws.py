@@ -34,6 +34,7 @@ import numpy as np
 from scipy.special import ndtr, ndtri
 
 from ..errors import InputError
+from ..limits import SANE_AGE
 from ..units import Q_, check_range, parse_quantity
 
 #: z of the 90th percentile of the standard normal (scipy.special.ndtri(0.9)).
@@ -41,7 +42,7 @@ Z90 = float(ndtri(0.9))
 #: Durations the model accepts [min] (a scenario lasts at most 24 h).
 DURATION_LIMITS = (1.0, 24 * 60.0)
 #: Ages a case type may draw [year] (the scenario's patient age range).
-AGE_LIMITS = (0.0, 120.0)
+AGE_LIMITS = SANE_AGE
 #: Most cases a week of one case type (a practical limit: a busy suite of 50 theatres runs a few
 #: thousand cases a week; common practice, no source).
 MAX_PER_WEEK = 10000.0

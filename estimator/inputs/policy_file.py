@@ -24,6 +24,7 @@ from pydantic import BaseModel, ConfigDict, ValidationError
 from ..contracts import input_error_from_validation, read_toml, toml_from_text
 from ..errors import InputError
 from ..fields import quantity
+from ..limits import SANE_AGE
 from ..units import check_range, parse_quantity
 
 #: The engine's flowmeter range per gas [L/min] (scenario contract).
@@ -51,7 +52,7 @@ class PolicyInput(BaseModel):
     baseline: str = "recorded"
     # The scenario contract's patient ranges.
     default_weight: quantity("mass", 0.5, 300.0, "kg", bare_unit="kg", keep_text=True) = "70 kg"
-    default_age: quantity("age", 0.0, 120.0, "year", bare_unit="year", keep_text=True) = "40 years"
+    default_age: quantity("age", *SANE_AGE, "year", bare_unit="year", keep_text=True) = "40 years"
     max_cases: int | None = None
 
 
@@ -96,7 +97,7 @@ def parse_policy(data: dict[str, Any]) -> Policy:
         block=q(raw.block, "block", "time", "min", 1.0, 120.0),
         baseline=raw.baseline,
         default_weight=q(raw.default_weight, "default_weight", "mass", "kg", 0.5, 300.0),
-        default_age=q(raw.default_age, "default_age", "age", "year", 0.0, 120.0),
+        default_age=q(raw.default_age, "default_age", "age", "year", *SANE_AGE),
         maintenance_after=None
         if raw.maintenance_after is None
         else q(raw.maintenance_after, "maintenance_after", "time", "min", 0.0, 600.0),

@@ -76,8 +76,8 @@ class PatientInput(_Model):
 
     # Ranges: practical limits of the physiology model (a preterm neonate to the heaviest adults;
     # ages of the Mapleson 1996 fit and beyond), no source beyond common practice.
-    weight: _quantity("mass", 0.5, 300.0, "kg", description="body weight")
-    age: _quantity("age", 0.0, 120.0, "year", description="age") = Q_(40.0, "year")
+    weight: _quantity("mass", *lim.SANE_WEIGHT, "kg", description="body weight")
+    age: _quantity("age", *lim.SANE_AGE, "year", description="age") = Q_(40.0, "year")
     # Overrides of the weight-scaled values: from neonatal to heavy exercise (common practice).
     oxygen_consumption: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VO2") | None = None
     carbon_dioxide_production: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VCO2") | None = None

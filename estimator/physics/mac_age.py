@@ -25,7 +25,7 @@ import numpy as np
 import pint
 
 from ..errors import InputError
-from ..limits import MAPLESON_VALID_FROM
+from ..limits import MAPLESON_VALID_FROM, SANE_AGE
 from ..properties import Species, agent, gas
 from ..units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
 from .site import site_from_inputs
@@ -35,7 +35,7 @@ MAPLESON_SLOPE = 0.00269
 #: Reference age of the tabulated MAC values [year] (Mapleson 1996, Table 2).
 MAPLESON_REFERENCE_AGE = 40.0
 #: Ages [year] accepted at all.
-AGE_RANGE = (0.0, 120.0)
+AGE_RANGE = SANE_AGE
 Warning = tuple[str, str]
 
 

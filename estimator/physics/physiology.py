@@ -32,7 +32,7 @@ from typing import Any
 import pint
 
 from ..errors import InputError
-from ..limits import VALIDATED_WEIGHT
+from ..limits import SANE_AGE, SANE_WEIGHT, VALIDATED_WEIGHT
 from ..properties import TISSUES, physiology_value
 from ..units import Q_, check_range, parse_quantity
 
@@ -43,8 +43,6 @@ BRODY_CARDIAC_OUTPUT = 2.0
 #: Alveolar ventilation equation constant (L/min BTPS x mmHg per mL/min STPD), West.
 ALVEOLAR_CONSTANT = 0.863
 
-#: Outside this range [kg] a weight is rejected as not a human patient.
-SANE_WEIGHT = (0.5, 300.0)
 
 #: Tissue groups of the 70 kg reference adult: volume [L] and share of cardiac output
 #: (Eger EI II, Anesthetic Uptake and Action, 1974; from memory). Vessel-poor group: no perfusion.
@@ -263,7 +261,7 @@ def patient_parameters(
     w = parse_quantity(weight, "patient.weight", "mass", default_unit="kg")
     check_range(w, "patient.weight", Q_(SANE_WEIGHT[0], "kg"), Q_(SANE_WEIGHT[1], "kg"), value=weight)
     a = parse_quantity(age, "patient.age", "age", default_unit="year")
-    check_range(a, "patient.age", Q_(0, "year"), Q_(120, "year"), value=age)
+    check_range(a, "patient.age", Q_(SANE_AGE[0], "year"), Q_(SANE_AGE[1], "year"), value=age)
     kg = w.to("kg").magnitude
     notes: list[tuple[str, str]] = []
     if not VALIDATED_WEIGHT[0] <= kg <= VALIDATED_WEIGHT[1]:
