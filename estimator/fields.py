@@ -29,7 +29,7 @@ from dataclasses import dataclass
 from typing import Annotated, Any
 
 import pint
-from pydantic import BaseModel, BeforeValidator
+from pydantic import BaseModel, BeforeValidator, WithJsonSchema
 
 from .errors import InputError
 from .units import DIMENSIONS, parse_pressure, parse_quantity, range_text
@@ -83,6 +83,26 @@ class QuantitySpec:
             raise InputError(field, value, f"{shown} ({self.example})")
         return q
 
+    def json_schema(self) -> dict[str, Any]:
+        """The field in JSON Schema: a text with a unit (or a bare number where one is read), with the
+        dimension, unit and range as ``x-`` keys and in the description, for editors and other programs.
+
+        >>> QuantitySpec("flow", 0.0, 15.0, "L/min", "oxygen flow").json_schema()["x-range"]
+        [0.0, 15.0]
+        """
+        shown = range_text(self.low, self.high, self.unit, f"{self.high:g} {self.unit}", low_open=self.low_open)
+        text = {"type": "string", "examples": [self.example]}
+        kinds = [text] if self.bare_unit is None and self.dimension != "fraction" else [text, {"type": "number"}]
+        described = f"{self.description}: " if self.description else ""
+        return {
+            "anyOf": kinds,
+            "description": f"{described}{self.dimension}, {shown}",
+            "x-dimension": self.dimension,
+            "x-unit": self.unit,
+            "x-range": [self.low, self.high],
+            "x-low-open": self.low_open,
+        }
+
     def validate(self, value: Any) -> Any:
         """The pydantic hook: the message (without field) becomes the error's expected text."""
         try:
@@ -129,7 +149,7 @@ def quantity(
     """
     spec = QuantitySpec(dimension, float(low), float(high), unit, description, low_open, bare_unit, keep_text)
     base = Any if keep_text else pint.Quantity  # kept as given: checked above, parsed again downstream
-    return Annotated[base, BeforeValidator(spec.validate), spec]
+    return Annotated[base, BeforeValidator(spec.validate), WithJsonSchema(spec.json_schema()), spec]
 
 
 def quantity_spec(model: type[BaseModel], name: str) -> QuantitySpec | None:

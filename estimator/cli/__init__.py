@@ -27,7 +27,7 @@ app = typer.Typer(
     rich_markup_mode=None,
 )
 
-_VERBS: tuple[str, ...] = ("mac", "case", "safe_flow", "flowmeter", "supply", "audit", "forecast")
+_VERBS: tuple[str, ...] = ("mac", "case", "safe_flow", "flowmeter", "supply", "audit", "forecast", "schema")
 
 
 def _version(value: bool) -> None:

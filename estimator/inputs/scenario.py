@@ -35,7 +35,7 @@ import os
 from typing import Annotated, Any, Literal
 
 import pint
-from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, model_validator
+from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, WithJsonSchema, model_validator
 
 from .. import limits as lim
 from ..accounts.accounting import absorbent_capacity as _absorbent_capacity
@@ -159,7 +159,20 @@ class PhaseInput(_Model):
     balance: Literal["air", "nitrous_oxide"] | None = None
     # The dial: 0 to 25 % bounds every vaporizer; the agent's own highest mark is checked per phase.
     vaporizer: _quantity("fraction", 0.0, 0.25, "dimensionless", description="vaporizer dial") | None = None
-    end_tidal_target: Annotated[pint.Quantity, BeforeValidator(lambda v: _target(v))] | None = None
+    end_tidal_target: (
+        Annotated[
+            pint.Quantity,
+            BeforeValidator(lambda v: _target(v)),
+            WithJsonSchema(
+                {
+                    "type": "string",
+                    "examples": ["1 MAC", "2 %"],
+                    "description": "end-tidal agent to hold: above 0 to 3 MAC, or a fraction above 0 to 20 %",
+                }
+            ),
+        ]
+        | None
+    ) = None
     label: str = ""
 
     @model_validator(mode="after")

@@ -1,0 +1,19 @@
+"""``lowflow schema KIND``: print the JSON Schema of an input file format."""
+
+from __future__ import annotations
+
+import typer
+
+from . import app
+
+
+@app.command("schema")
+def schema(
+    kind: str = typer.Argument(..., help="scenario, inventory, case-mix, prices or policy."),
+) -> None:
+    """The JSON Schema (draft 2020-12) of an input file, for editors and other programs."""
+    import json
+
+    from ..inputs.schemas import json_schema
+
+    typer.echo(json.dumps(json_schema(kind), indent=2))
