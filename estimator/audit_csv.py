@@ -152,6 +152,7 @@ class Chunk:
     block: bytes | None = None
     nbytes: int = 0
     _raw: dict[int, pd.Series] = field(default_factory=dict)
+    _text: pd.DataFrame | None = None
 
     def raw(self, j: int) -> pd.Series:
         """The text of column ``j`` as written, stripped ("" for an empty cell)."""
@@ -160,8 +161,10 @@ class Chunk:
             if isinstance(col.dtype, pd.CategoricalDtype):
                 col = col.astype(object)
             elif self.block is not None and not isinstance(col.dtype, pd.StringDtype):  # read as numbers
-                k = self.frame.shape[1]
-                col = pd.read_csv(io.BytesIO(self.block), names=range(k), usecols=[j], dtype=object, **_OPTIONS)[j]
+                if self._text is None:
+                    k = self.frame.shape[1]
+                    self._text = pd.read_csv(io.BytesIO(self.block), names=range(k), dtype=object, **_OPTIONS)
+                col = self._text[j]
             if not isinstance(col.dtype, pd.StringDtype):
                 col = col.where(col.notna(), "").astype(str)
             self._raw[j] = col.fillna("").str.strip()
@@ -169,13 +172,21 @@ class Chunk:
 
 
 def _fast(block: bytes, k: int, dtypes: dict[int, str]) -> pd.DataFrame | None:
-    """The block read by the C reader, or None where its records and lines differ or a row is too wide."""
+    """The block read by the C reader, or None where its records and lines differ or a row is too wide.
+
+    The C reader refuses a later row wider than the header, but takes the extra cells of a first
+    row for an index: the first line's cells are counted with the csv module first.
+    """
+    ends = [i for i in (block.find(b"\n"), block.find(b"\r")) if i >= 0]
+    try:
+        first = next(csv.reader([block[: min(ends, default=len(block))].decode("utf-8")]), [])
+    except csv.Error:
+        return None
+    if len(first) > k:
+        return None
     try:
         df = pd.read_csv(io.BytesIO(block), names=range(k), dtype=dtypes, **_OPTIONS)
     except (pd.errors.ParserError, ValueError, OverflowError):
-        return None
-    index = df.index  # a first row wider than the header would become the index
-    if not (isinstance(index, pd.RangeIndex) and index.start == 0 and index.step == 1):
         return None
     return df if len(df) == _lines_in(block) else None
 

@@ -269,7 +269,8 @@ def _check(chunk: Chunk, st: RowState) -> tuple[np.ndarray, dict[str, np.ndarray
         raw_t,
     )
     t_factor = 1.0 if ctx.iso_only else float(ctx.factors["time"])
-    t_abs = np.where(is_ts, epoch, t_num * t_factor)
+    with np.errstate(over="ignore"):
+        t_abs = np.where(is_ts, epoch, t_num * t_factor)
     far = ~is_ts & ~np.isnan(t_abs) & (np.abs(t_abs) > MAX_ELAPSED_MIN)  # an overflow to inf is far too
     if far.any():
         r.add(
