@@ -30,7 +30,9 @@ HEADER = (
 def _log() -> str:
     rows = [HEADER]
     for k in range(40):
-        rows.append(f"E1,{k * 2.5},{500 + 10 * k},0.5,0,sevoflurane,{2 + k % 3 * 0.1:.1f},1.5,North 1,{70 + k // 30},50,")
+        rows.append(
+            f"E1,{k * 2.5},{500 + 10 * k},0.5,0,sevoflurane,{2 + k % 3 * 0.1:.1f},1.5,North 1,{70 + k // 30},50,"
+        )
         minute = f"{k // 2:02d}:{k % 2 * 30:02d}"
         rows.append(f"T2,2025-03-0{1 + k // 20}T07:{minute}Z,1000,1,0,isoflurane,1.2,1.0,South 2,82,61,x")
         rows.append(f" E3 ,{k},800,1.2,0.5,Desflurane,5,,,,,")
@@ -57,7 +59,12 @@ def _same(a, b) -> None:
     assert a.rows == b.rows
     assert a.rejections == b.rejections
     assert a.warnings == b.warnings
-    assert (a.case_ids, a.case_start, a.case_room, a.case_month) == (b.case_ids, b.case_start, b.case_room, b.case_month)
+    assert (a.case_ids, a.case_start, a.case_room, a.case_month) == (
+        b.case_ids,
+        b.case_start,
+        b.case_room,
+        b.case_month,
+    )
     assert a.agent_names == b.agent_names and a.units == b.units
     np.testing.assert_array_equal(a.case_weight, b.case_weight)
     np.testing.assert_array_equal(a.case_age, b.case_age)
