@@ -175,8 +175,8 @@ class RowState:
         rows = len(chunk.lines) + len(chunk.bad)
         if not self.kept:
             capacity = rows
-            if self.size_hint and chunk.nbytes and rows:
-                capacity = int(self.size_hint / chunk.nbytes * rows * 1.02) + 1024
+            if self.size_hint and chunk.nbytes and rows:  # a row used has 7 cells and 6 commas at least
+                capacity = min(int(self.size_hint / chunk.nbytes * rows * 1.02), self.size_hint // 14) + 1024
             self.kept = {name: Column(KEPT[name], capacity) for name in cols}
         self.read += rows
         self.rejections += chunk.bad
