@@ -29,7 +29,7 @@ import numpy as np
 import pandas as pd
 
 from .audit_csv import REQUIRED, SPEC, _header, chunks, header_cells, split_header
-from .audit_rows import MAX_ELAPSED_MIN, NO_AGENT, Context, RowState
+from .audit_rows import MAX_ELAPSED_MIN, NO_AGENT, US_PER_MIN, Context, RowState
 from .audit_source import BLOCK_BYTES, LogSource
 from .errors import InputError
 
@@ -161,6 +161,19 @@ def _varying(
     ]
 
 
+def _start_labels(start: np.ndarray, is_ts: np.ndarray) -> tuple[list[str | None], list[str]]:
+    """ISO 8601 start (UTC, to the microsecond) and month of each case; None and NO_DATE for elapsed times.
+
+    >>> _start_labels(np.array([29_012_100.5, 3.0]), np.array([True, False]))
+    (['2025-02-28T07:00:30+00:00', None], ['2025-02', 'no date (elapsed-time log)'])
+    """
+    us = np.where(is_ts, np.round(np.where(is_ts, start, 0.0) * US_PER_MIN), 0.0).astype(np.int64)
+    text = np.datetime_as_string(us.astype("datetime64[us]"), unit="us").tolist()
+    starts = [(t.removesuffix(".000000") + "+00:00") if k else None for t, k in zip(text, is_ts.tolist(), strict=True)]
+    months = [t[:7] if k else NO_DATE for t, k in zip(text, is_ts.tolist(), strict=True)]
+    return starts, months
+
+
 def _assemble(st: RowState, warnings: list[tuple[str, str]]) -> LogData:
     """The rows used, sorted per case by time, with per-case labels and the warnings of the whole log."""
     names = st.ctx.names
@@ -254,13 +267,13 @@ def _assemble(st: RowState, warnings: list[tuple[str, str]]) -> LogData:
         case_room = [st.rooms.labels[int(x)] if x == x else "unassigned" for x in first_room]
     else:
         case_room = ["unassigned"] * n_cases
-    start_ts = pd.to_datetime(np.where(case_is_ts, start, 0.0) * 6e7, unit="us", utc=True)
+    case_start, case_month = _start_labels(start, case_is_ts)
     return LogData(
         samples=samples,
         case_ids=[str(c) for c in case_ids],
-        case_start=[ts.isoformat() if k else None for ts, k in zip(start_ts, case_is_ts, strict=True)],
+        case_start=case_start,
         case_room=case_room,
-        case_month=[ts.strftime("%Y-%m") if k else NO_DATE for ts, k in zip(start_ts, case_is_ts, strict=True)],
+        case_month=case_month,
         case_weight=per_case.get("weight", np.full(n_cases, np.nan)),
         case_age=per_case.get("age", np.full(n_cases, np.nan)),
         agent_names=agent_names,

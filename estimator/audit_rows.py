@@ -32,7 +32,7 @@ NO_AGENT = ("", "none", "off")
 MAX_ELAPSED_MIN = 1e6
 _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 #: Microseconds per minute (timestamps are kept as minutes since 1970-01-01 UTC).
-_US_PER_MIN = 6e7
+US_PER_MIN = 6e7
 
 
 class Vocab:
@@ -51,7 +51,10 @@ class Vocab:
 
     def lut(self, labels: Any) -> np.ndarray:
         """Global codes of a chunk's labels, then the code of an empty cell (local code -1)."""
-        return np.array([self.code(str(x).strip()) for x in labels] + [0], dtype=np.int32)
+        texts = [str(x).strip() for x in pd.Index(labels).tolist()]
+        get = self._code.get
+        codes = [get(t) for t in texts]
+        return np.array([self.code(t) if c is None else c for t, c in zip(texts, codes, strict=True)] + [0], np.int32)
 
     def codes(self, col: pd.Series) -> np.ndarray:
         """Global code of every cell of a text column (categories or text)."""
@@ -241,7 +244,7 @@ def _times(chunk: Chunk, j: int, ctx: Context) -> tuple[np.ndarray, np.ndarray, 
         ts = pd.to_datetime(text.where(need_ts, None), format="ISO8601", utc=True, errors="coerce")
         ok = ts.notna().to_numpy()
         us = ts.dt.tz_convert(None).to_numpy().astype("datetime64[us]").view(np.int64)
-        epoch[ok] = us[ok] / _US_PER_MIN
+        epoch[ok] = us[ok] / US_PER_MIN
     return t_num, epoch, empty
 
 

@@ -115,3 +115,14 @@ def test_audit_totals_do_not_depend_on_the_block_size():
         part = audit(log_from_text(LOG, block_bytes=size))
         pd.testing.assert_frame_equal(part.cases, whole.cases, check_exact=True)
         assert part.totals == whole.totals and part.warnings == whole.warnings
+
+
+def test_a_case_after_2262_keeps_its_start():
+    # Starts are formatted from microseconds (datetime64[us], +-290 000 years), not nanoseconds,
+    # whose range ends in 2262.
+    log = log_from_text(
+        "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting\n"
+        "F,2300-01-01T08:00:00Z,1,1,0,sevoflurane,2\nF,2300-01-01T08:30:00.25Z,1,1,0,sevoflurane,2\n"
+    )
+    assert log.case_start == ["2300-01-01T08:00:00+00:00"] and log.case_month == ["2300-01"]
+    assert log.samples["t_min"].tolist() == pytest.approx([0.0, 30.0 + 0.25 / 60], abs=1e-6)  # float minutes since 1970
