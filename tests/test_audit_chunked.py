@@ -126,3 +126,20 @@ def test_a_case_after_2262_keeps_its_start():
     )
     assert log.case_start == ["2300-01-01T08:00:00+00:00"] and log.case_month == ["2300-01"]
     assert log.samples["t_min"].tolist() == pytest.approx([0.0, 30.0 + 0.25 / 60], abs=1e-6)  # float minutes since 1970
+
+
+@pytest.mark.parametrize("first_cell", ["A", "0"])
+def test_a_first_row_wider_than_the_header_is_refused_not_shifted(first_cell):
+    # The C reader takes the extra cells of a first row for an index (also when the ids are
+    # 0, 1, ... and the index looks like a plain row count); such a row is refused like any other.
+    head = "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting"
+    log = log_from_text(f"{head}\n{first_cell},0,1,1,0,sevoflurane,2,surplus\n1,5,1,1,0,sevoflurane,2\n")
+    assert log.rejections == [(2, "8 fields where the header has 7")]
+    assert log.case_ids == ["1"] and log.samples["oxygen"].tolist() == [1.0]
+
+
+def test_carriage_return_line_ends_around_a_quoted_newline():
+    # Lines end in \r; the quoted room holds a \n: the bad row starts on physical line 4.
+    head = "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,room"
+    log = log_from_text(f'{head}\rA,0,1,1,0,sevoflurane,2,"North\n1"\rA,x,1,1,0,sevoflurane,2,N\r')
+    assert [line for line, _ in log.rejections] == [4] and log.rows["used"] == 1
