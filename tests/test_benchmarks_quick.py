@@ -45,3 +45,18 @@ def test_app_benchmark_quick_mode_runs():
     )
     assert run.returncode == 0, run.stderr[-2000:]
     assert "rerun after one input" in run.stdout, run.stdout
+
+
+def test_bench_audit_quick_prints_its_figures():
+    import re
+
+    run = subprocess.run(
+        [sys.executable, str(BENCH / "bench_audit.py"), "--quick"], capture_output=True, text=True, timeout=300
+    )
+    assert run.returncode == 0, run.stderr
+    out = run.stdout
+    assert "20000 rows" in out and "peak RSS" in out and "tracemalloc" in out
+    for kind in ("baseline", "read", "audit"):
+        row = re.search(rf"^{kind} +([0-9.]+)s +([0-9.]+) +(\S+ B/row|n/a)", out, re.MULTILINE)
+        assert row, out
+    assert re.search(r"^baseline +[0-9.]+s +1\.00 ", out, re.MULTILINE)  # ratios are to the baseline

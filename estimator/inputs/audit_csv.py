@@ -1,35 +1,35 @@
-r"""The CSV layer of the audit log: the source by type, the header and its units, the rows.
+r"""The CSV layer of the audit log: the header and its units, and the rows of each block.
 
-A log arrives as a path (a string is always a path), an open file, or the bytes of an upload;
-CSV text is never taken for a path. The header names the columns, each with an optional unit in
-square brackets. Rows carry the physical line they start on (the header is line 1), counted the
-same by the fast C reader and by the csv module: a quoted cell spanning lines moves later rows.
-A row with fewer cells than the header reads the missing trailing cells as empty (a missing
-required cell then rejects the row as empty); a row with more cells is rejected.
+The header names the columns, each with an optional unit in square brackets. The rows are read
+block by block (:mod:`estimator.audit_source`); each row carries the physical line it starts on (the
+header is line 1), counted the same by the fast C reader and by the csv module: a quoted cell
+spanning lines moves later rows. A block goes to the C reader when it reads one record a line and no
+row has more cells than the header; otherwise the csv module reads it (continuing into the next
+block while a record is open). A row with fewer cells than the header reads the missing trailing
+cells as empty (a missing required cell then rejects the row as empty); a row with more cells is
+rejected.
 
 Examples
 --------
->>> _physical_lines("a\nb\n"), _physical_lines("a\nb")
-(2, 2)
->>> df, bad = _rows('A,"x\ny"\nB,z,extra\nC,w\n', ["id", "room"], ["id", "room"])
->>> df["line"].tolist(), bad
-([2, 5], [(4, '3 fields where the header has 2')])
+>>> split_header(b"case_id,time\r\nA,0\n")
+('case_id,time', b'A,0\n')
+>>> [(c.lines.tolist(), c.bad) for c in chunks(iter([b'A,"x\ny"\nB,z,extra\nC,w\n']), ["id", "room"], {})]
+[([2, 5], [(4, '3 fields where the header has 2')])]
 """
 
 from __future__ import annotations
 
 import csv
 import io
-import os
-import stat
-from pathlib import Path
+from collections.abc import Iterator
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import pandas as pd
 import pint
 
-from ..errors import InputError, read_text_file
+from ..errors import InputError
 from ..units import Q_, ureg
 
 REQUIRED = ("case_id", "time", "oxygen_flow", "air_flow", "nitrous_oxide_flow", "agent", "vaporizer_setting")
@@ -104,83 +104,151 @@ def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
     return names, factors
 
 
-def _source_text(source: Any) -> str:
-    """The CSV text of a log given as a path, a file object, or bytes (an upload), chosen by type."""
-    if isinstance(source, bytes | bytearray | memoryview):
-        return _decode(bytes(source), "(upload)")
-    if isinstance(source, str | os.PathLike):
-        if isinstance(source, str) and "\n" in source:
-            raise InputError("log", "(text)", "a path to a CSV file; pass CSV text to log_from_text")
-        try:
-            regular = stat.S_ISREG(Path(source).stat().st_mode)
-        except (OSError, ValueError):
-            regular = False
-        if not regular:
-            raise InputError("log", str(source), "an existing CSV file")
-        return read_text_file(source, "log", "an existing CSV file")
-    if hasattr(source, "read"):
-        data = source.read()
-        return _decode(data, "(upload)") if isinstance(data, bytes) else str(data).lstrip("\ufeff")
-    raise InputError("log", type(source).__name__, "a path, a file object or the bytes of a CSV file")
+def split_header(block: bytes) -> tuple[str, bytes]:
+    """The first line of a log's first block (without its line end) and the rest of the block."""
+    ends = [i for i in (block.find(b"\n"), block.find(b"\r")) if i >= 0]
+    if not ends:
+        return block.decode("utf-8"), b""
+    i = min(ends)
+    return block[:i].decode("utf-8"), block[i + (2 if block[i : i + 2] == b"\r\n" else 1) :]
 
 
-def _decode(data: bytes, shown: str) -> str:
+def header_cells(first: str) -> list[str]:
+    """The cells of the header line (an empty list for a blank line)."""
     try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError("log", shown, "a CSV file in UTF-8 text") from None
+        return next(csv.reader([first]), []) if first.strip() else []
+    except csv.Error:
+        raise InputError("log", "(header row)", "a CSV header row with the columns " + ", ".join(REQUIRED)) from None
 
 
-def _physical_lines(text: str) -> int:
-    """Lines of text as a CSV reader counts them (a last line without a newline counts)."""
-    return text.count("\n") + (1 if text and not text.endswith("\n") else 0)
+def _lines_in(block: bytes) -> int:
+    """Physical lines of a block (``\\n``, ``\\r\\n`` or ``\\r`` end a line; a last line without one counts)."""
+    n = block.count(b"\n") + block.count(b"\r") - block.count(b"\r\n")
+    return n + (1 if block and block[-1:] not in (b"\n", b"\r") else 0)
 
 
-def _rows(text: str, raw: list[str], names: list[str]) -> tuple[pd.DataFrame, list[tuple[int, str]]]:
-    """Data rows with a ``line`` column (the physical line a row starts on; the header is line 1).
+_OPTIONS: dict[str, Any] = {
+    "header": None,
+    "na_values": [""],
+    "keep_default_na": False,
+    "skip_blank_lines": False,
+    "skipinitialspace": True,
+    "engine": "c",
+    "low_memory": False,
+}
 
-    Numeric columns are parsed by the C reader; when a row has more cells than the header, or a
-    quoted cell spans lines (records and lines then differ), a slower csv pass numbers the lines.
-    Either way a row with fewer cells than the header reads its missing trailing cells as empty,
-    and a row with more is rejected.
+
+@dataclass
+class Chunk:
+    """Rows of one block: cells by column position, the physical line of each row, rows refused whole.
+
+    Text columns come as categories (or text), numbers as numbers where the C reader could read the
+    whole column of the block as numbers, else as text.
     """
-    text_cols = {i: str for i, n in enumerate(names) if n not in SPEC or SPEC[n][0] in ("text", "time")}
+
+    frame: pd.DataFrame
+    lines: np.ndarray
+    bad: list[tuple[int, str]]
+    block: bytes | None = None
+    nbytes: int = 0
+    _raw: dict[int, pd.Series] = field(default_factory=dict)
+    _text: pd.DataFrame | None = None
+
+    def raw(self, j: int) -> pd.Series:
+        """The text of column ``j`` as written, stripped ("" for an empty cell)."""
+        if j not in self._raw:
+            col = self.frame[j]
+            if isinstance(col.dtype, pd.CategoricalDtype):
+                col = col.astype(object)
+            elif self.block is not None and not isinstance(col.dtype, pd.StringDtype):  # read as numbers
+                if self._text is None:
+                    k = self.frame.shape[1]
+                    self._text = pd.read_csv(io.BytesIO(self.block), names=range(k), dtype=object, **_OPTIONS)
+                col = self._text[j]
+            if not isinstance(col.dtype, pd.StringDtype):
+                col = col.where(col.notna(), "").astype(str)
+            self._raw[j] = col.fillna("").str.strip()
+        return self._raw[j]
+
+
+def _fast(block: bytes, k: int, dtypes: dict[int, str]) -> pd.DataFrame | None:
+    """The block read by the C reader, or None where its records and lines differ or a row is too wide.
+
+    The C reader refuses a later row wider than the header, but takes the extra cells of a first
+    row for an index: the first line's cells are counted with the csv module first.
+    """
+    ends = [i for i in (block.find(b"\n"), block.find(b"\r")) if i >= 0]
     try:
-        df = pd.read_csv(
-            io.StringIO(text),
-            header=None,
-            names=list(range(len(raw))),
-            dtype=text_cols,
-            na_values=[""],
-            keep_default_na=False,
-            skip_blank_lines=False,
-            skipinitialspace=True,
-            engine="c",
-            low_memory=False,
-        )
-        if len(df) == _physical_lines(text):  # one record per line: the line is the record's
-            df["line"] = np.arange(2, len(df) + 2)
-            return df, []
-    except pd.errors.EmptyDataError:
-        df = pd.DataFrame(columns=list(range(len(raw))), dtype=str)
-        df["line"] = np.zeros(0, dtype=int)
-        return df, []
-    except pd.errors.ParserError:
-        pass
+        first = next(csv.reader([block[: min(ends, default=len(block))].decode("utf-8")]), [])
+    except csv.Error:
+        return None
+    if len(first) > k:
+        return None
+    try:
+        df = pd.read_csv(io.BytesIO(block), names=range(k), dtype=dtypes, **_OPTIONS)
+    except (pd.errors.ParserError, ValueError, OverflowError):
+        return None
+    return df if len(df) == _lines_in(block) else None
+
+
+class _Lines:
+    """Lines of a block for the csv module, pulling later blocks while a record is still open."""
+
+    def __init__(self, block: bytes, more: Iterator[bytes]) -> None:
+        self.available = 0
+        self._it = self._gen(block, more)
+
+    def _gen(self, block: bytes | None, more: Iterator[bytes]) -> Iterator[str]:
+        while block is not None:
+            lines = io.StringIO(block.decode("utf-8"), newline="").readlines()
+            self.available += len(lines)
+            yield from lines
+            block = next(more, None)
+
+    def __iter__(self) -> Iterator[str]:
+        return self._it
+
+
+def _slow(block: bytes, more: Iterator[bytes], first: int, k: int) -> tuple[Chunk, int, bool]:
+    """The block read by the csv module: the chunk, the lines read, and whether reading must stop."""
+    feed = _Lines(block, more)
+    reader = csv.reader(feed, skipinitialspace=True)
     good, lines, bad = [], [], []
-    reader = csv.reader(io.StringIO(text, newline=""), skipinitialspace=True)
-    last = 0  # physical lines read by the csv reader so far; the header is line 1
+    last = 0  # physical lines read so far in this block
+    stop = False
     try:
         for row in reader:
-            line = 2 + last
+            line = first + last
             last = reader.line_num
-            if len(row) > len(raw):
-                bad.append((line, f"{len(row)} fields where the header has {len(raw)}"))
-                continue
-            good.append(row + [""] * (len(raw) - len(row)))
-            lines.append(line)
+            if len(row) > k:
+                bad.append((line, f"{len(row)} fields where the header has {k}"))
+            else:
+                good.append(row + [""] * (k - len(row)))
+                lines.append(line)
+            if last >= feed.available:
+                break
     except csv.Error as exc:
-        bad.append((2 + last, f"unreadable CSV from this line on ({exc})"))
-    df = pd.DataFrame(good, columns=list(range(len(raw))), dtype=str)
-    df["line"] = np.array(lines, dtype=int)
-    return df, bad
+        bad.append((first + last, f"unreadable CSV from this line on ({exc})"))
+        stop = True
+    frame = pd.DataFrame(good, columns=range(k), dtype=str) if good else pd.DataFrame(columns=range(k), dtype=str)
+    return Chunk(frame, np.array(lines, dtype=np.int64), bad), last, stop
+
+
+def chunks(blocks: Iterator[bytes], raw: list[str], dtypes: dict[int, str]) -> Iterator[Chunk]:
+    """The rows of the blocks after the header, chunk by chunk, each row with its physical line."""
+    k = len(raw)
+    line = 2
+    for block in blocks:
+        if not block:
+            continue
+        df = _fast(block, k, dtypes)
+        if df is not None:
+            yield Chunk(df, np.arange(line, line + len(df), dtype=np.int64), [], block, len(block))
+            line += len(df)
+            continue
+        chunk, read, stop = _slow(block, blocks, line, k)
+        chunk.nbytes = len(block)
+        yield chunk
+        line += read
+        if stop:
+            return

@@ -4,7 +4,12 @@ The header names the columns, each with an optional unit in square brackets; fil
 (missing required column, duplicated or unknown-unit column) raise :class:`InputError` naming the
 column. Row problems reject the row with its line number and reason; nothing is dropped silently.
 The accepted rows come back as plain floats in fixed units (minutes, L/min, fractions 0-1, kg,
-years), sorted per case, ready for vectorised integration by :mod:`estimator.planning.audit`.
+years), sorted per case, ready for vectorised integration by :mod:`estimator.audit`.
+
+The log is read in blocks of about ``block_bytes`` [bytes] (:mod:`estimator.audit_source`), so a log
+larger than memory is never held whole: each block's rows are checked (:mod:`estimator.audit_rows`)
+and only the rows used are kept, as codes and floats. Rows read, used and rejected, line numbers,
+messages and results are the same whatever the block size.
 
 Examples
 --------
@@ -16,8 +21,7 @@ Examples
 
 from __future__ import annotations
 
-import csv
-import io
+import itertools
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -25,15 +29,12 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
-from ..properties import AGENTS
-from .audit_csv import REQUIRED, SPEC, _header, _rows, _source_text
+from .audit_csv import REQUIRED, SPEC, _header, chunks, header_cells, split_header
+from .audit_rows import MAX_ELAPSED_MIN, NO_AGENT, US_PER_MIN, Context, RowState
+from .audit_source import BLOCK_BYTES, LogSource
 
-NO_AGENT = ("", "none", "off")
 NO_DATE = "no date (elapsed-time log)"
-#: Largest elapsed time a numeric ``time`` may give [min] (about 1.9 years, longer than any case;
-#: a Unix time in seconds, about 1.7e9, lies far beyond it).
-MAX_ELAPSED_MIN = 1e6
-_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
+__all__ = ["MAX_ELAPSED_MIN", "NO_AGENT", "NO_DATE", "REQUIRED", "LogData", "log_from_text", "read_log"]
 
 
 @dataclass(frozen=True)
@@ -54,16 +55,97 @@ class LogData:
     warnings: tuple[tuple[str, str], ...] = ()
 
 
-def _unit_of(raw: list[str], names: list[str], column: str) -> str:
-    cell = raw[names.index(column)]
-    return cell.partition("[")[2].rstrip().removesuffix("]").strip()
+def read_log(source: Any, *, block_bytes: int = BLOCK_BYTES) -> LogData:
+    """Read and validate an audit log from a file.
+
+    Parameters
+    ----------
+    source : str, os.PathLike, file object or bytes
+        A path (a string is always a path), an open file, or the bytes of an upload. CSV text goes
+        to :func:`log_from_text`.
+    block_bytes : int
+        Bytes read at a time [bytes]; the result does not depend on it.
+
+    Returns
+    -------
+    LogData
+
+    Raises
+    ------
+    InputError
+        For a file-level problem, naming the column.
+    """
+    return _read(LogSource.of(source, block_bytes))
 
 
-def _varying(values: pd.Series, codes: np.ndarray, case_ids: Any, column: str, unit: str) -> list[tuple[str, str]]:
+def log_from_text(text: str, *, block_bytes: int = BLOCK_BYTES) -> LogData:
+    """Read and validate an audit log given as CSV text (never read as a path).
+
+    Raises
+    ------
+    InputError
+        For a file-level problem, naming the column.
+    """
+    if not isinstance(text, str):
+        raise InputError("log", type(text).__name__, "CSV text (str)")
+    return _read(LogSource.of_text(text, block_bytes))
+
+
+def _read(src: LogSource) -> LogData:
+    blocks = src.blocks()
+    try:
+        first, rest = split_header(next(blocks, b""))
+        raw = header_cells(first)
+        if not raw:
+            raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
+        names, factors = _header(raw)
+    except InputError:
+        for _ in blocks:  # a later block that is not UTF-8 is refused first, as when read whole
+            pass
+        raise
+    warnings: list[tuple[str, str]] = []
+    unknown = [n for n in names if n not in SPEC]
+    if unknown:
+        warnings.append(("UNUSED_COLUMNS", "columns not used by the audit: " + ", ".join(unknown)))
+    units = {
+        c: cell.partition("[")[2].rstrip().removesuffix("]").strip() or str(SPEC[c][1])
+        for c, cell in zip(names, raw, strict=True)
+        if c in SPEC and SPEC[c][0] != "text"
+    }
+    iso = factors.get("time") == "iso"
+    ctx = Context(names, factors, units, "ISO 8601" if iso else units["time"])
+    dtypes = {j: "category" for j, c in enumerate(names) if c not in SPEC or SPEC[c][0] == "text"}
+    if iso:
+        dtypes[names.index("time")] = "str"
+    state = RowState(ctx, size_hint=src.size)
+    for chunk in chunks(itertools.chain([rest], blocks), raw, dtypes):
+        state.add(chunk)
+    return _assemble(state, warnings)
+
+
+def _blocks_of(codes: np.ndarray) -> np.ndarray:
+    """First row of each case in rows sorted by case."""
+    return np.flatnonzero(np.r_[True, codes[1:] != codes[:-1]]) if len(codes) else np.zeros(0, dtype=np.intp)
+
+
+def _first_valid(values: np.ndarray, codes: np.ndarray, n_cases: int) -> np.ndarray:
+    """Per case (rows sorted by case), the first value that is not NaN (NaN if none)."""
+    out = np.full(n_cases, np.nan)
+    valid = np.flatnonzero(~np.isnan(values))
+    firsts = valid[_blocks_of(codes[valid])]
+    out[codes[firsts]] = values[firsts]
+    return out
+
+
+def _varying(
+    values: np.ndarray, codes: np.ndarray, first: np.ndarray, case_ids: list[str], column: str, unit: str
+) -> list[tuple[str, str]]:
     """A warning naming the cases whose rows give more than one value of a per-patient column."""
-    g = values.groupby(codes)
-    lo, hi = g.min().to_numpy(), g.max().to_numpy()
-    first = g.first().to_numpy()
+    starts = _blocks_of(codes)
+    if not len(starts):
+        return []
+    with np.errstate(invalid="ignore"):
+        lo, hi = np.fmin.reduceat(values, starts), np.fmax.reduceat(values, starts)
     varies = np.flatnonzero(np.isfinite(lo) & (hi > lo))
     if not len(varies):
         return []
@@ -79,290 +161,124 @@ def _varying(values: pd.Series, codes: np.ndarray, case_ids: Any, column: str, u
     ]
 
 
-def _show(v: Any) -> str:
-    return f"{v:g}" if isinstance(v, float | np.floating) else str(v).strip()
+def _start_labels(start: np.ndarray, is_ts: np.ndarray) -> tuple[list[str | None], list[str]]:
+    """ISO 8601 start (UTC, to the microsecond) and month of each case; None and NO_DATE for elapsed times.
 
-
-def _empty(col: pd.Series) -> np.ndarray:
-    if pd.api.types.is_numeric_dtype(col):
-        return col.isna().to_numpy()
-    return (col.isna() | (col.fillna("").str.strip() == "")).to_numpy()
-
-
-class _Reasons:
-    """Collects rejection reasons per row index; loops only over the bad rows."""
-
-    def __init__(self, n: int) -> None:
-        self.bad = np.zeros(n, dtype=bool)
-        self.skip = np.zeros(n, dtype=bool)
-        self.text: dict[int, list[str]] = {}
-
-    def add(self, mask: np.ndarray, message: Any, raw: pd.Series | None = None) -> None:
-        idx = np.flatnonzero(mask & ~self.skip)
-        self.bad[idx] = True
-        for i in idx:
-            msg = message(_show(raw.iat[i])) if callable(message) else message
-            self.text.setdefault(int(i), []).append(msg)
-
-
-def _numeric(
-    col: pd.Series, name: str, reasons: _Reasons, factor: float, unit_label: str, required: bool
-) -> np.ndarray:
-    empty = _empty(col)
-    if pd.api.types.is_numeric_dtype(col):
-        values = col.to_numpy(dtype=float, copy=True)
-    else:
-        values = pd.to_numeric(col.where(~empty, None), errors="coerce").to_numpy(dtype=float, copy=True)
-    bad_number = ~empty & ~np.isfinite(values)
-    if required:
-        reasons.add(empty, f"{name}: empty")
-    reasons.add(bad_number, lambda v: f"{name}: got {v!r}; expected a number ({unit_label})", col)
-    rng = SPEC[name][3]
-    out = values * factor
-    if rng is not None:
-        lo, hi = rng
-        outside = np.isfinite(out) & ((out < lo) | (out > hi))
-        canonical = SPEC[name][2] or "fraction"
-        shown = f"{lo * 100:g} to {hi * 100:g} %" if canonical == "fraction" else f"{lo:g} to {hi:g} {canonical}"
-        reasons.add(outside, lambda v: f"{name}: got {v!r} {unit_label}; expected {shown}", col)
-    out[empty | bad_number] = np.nan
-    return out
-
-
-def read_log(source: Any) -> LogData:
-    """Read and validate an audit log from a file.
-
-    Parameters
-    ----------
-    source : str, os.PathLike, file object or bytes
-        A path (a string is always a path), an open file, or the bytes of an upload. CSV text goes
-        to :func:`log_from_text`.
-
-    Returns
-    -------
-    LogData
-
-    Raises
-    ------
-    InputError
-        For a file-level problem, naming the column.
+    >>> _start_labels(np.array([29_012_100.5, 3.0]), np.array([True, False]))
+    (['2025-02-28T07:00:30+00:00', None], ['2025-02', 'no date (elapsed-time log)'])
     """
-    return log_from_text(_source_text(source))
+    us = np.where(is_ts, np.round(np.where(is_ts, start, 0.0) * US_PER_MIN), 0.0).astype(np.int64)
+    text = np.datetime_as_string(us.astype("datetime64[us]"), unit="us").tolist()
+    starts = [(t.removesuffix(".000000") + "+00:00") if k else None for t, k in zip(text, is_ts.tolist(), strict=True)]
+    months = [t[:7] if k else NO_DATE for t, k in zip(text, is_ts.tolist(), strict=True)]
+    return starts, months
 
 
-def log_from_text(text: str) -> LogData:
-    """Read and validate an audit log given as CSV text (never read as a path).
-
-    Raises
-    ------
-    InputError
-        For a file-level problem, naming the column.
-    """
-    if not isinstance(text, str):
-        raise InputError("log", type(text).__name__, "CSV text (str)")
-    text = text.lstrip("\ufeff")
-    first = io.StringIO(text, newline="").readline()  # the header, ended by \n, \r\n or \r
-    rest = text[len(first) :]
-    try:
-        raw = next(csv.reader([first.rstrip("\r\n")]), []) if first.strip() else []
-    except csv.Error:
-        raise InputError("log", "(header row)", "a CSV header row with the columns " + ", ".join(REQUIRED)) from None
-    if not raw:
-        raise InputError("log", "empty file", "a CSV header with the columns " + ", ".join(REQUIRED))
-    names, factors = _header(raw)
-    df, bad_width = _rows(rest, raw, names)
-    df.columns = [*names, "line"]
-    unknown = [n for n in names if n not in SPEC]
-    warnings: list[tuple[str, str]] = []
-    if unknown:
-        warnings.append(("UNUSED_COLUMNS", "columns not used by the audit: " + ", ".join(unknown)))
-    n = len(df)
-    r = _Reasons(n)
-    blank = np.all(np.stack([_empty(df[c]) for c in names]), axis=0) if n else np.zeros(0, bool)
-    r.add(blank, "empty line")
-    r.skip = blank
-    text = {c: df[c].fillna("").astype(str).str.strip() for c in ("case_id", "agent", "room", "time") if c in names}
-    case = text["case_id"]
-    r.add((case == "").to_numpy(), "case_id: empty")
-    units: dict[str, str] = {}
-    for c, cell in zip(names, raw, strict=True):
-        if c in SPEC and SPEC[c][0] != "text":
-            units[c] = cell.partition("[")[2].rstrip().removesuffix("]").strip() or str(SPEC[c][1])
-
-    # Time: elapsed number in the header unit, or an ISO 8601 timestamp.
-    ttext = text["time"]
-    t_empty = (ttext == "").to_numpy()
-    r.add(t_empty, "time: empty")
-    iso_only = factors.get("time") == "iso"
-    t_num = np.full(n, np.nan)
-    if not iso_only:
-        number = ttext.str.fullmatch(_NUMBER).fillna(False).to_numpy(dtype=bool)
-        if number.any():
-            t_num[number] = pd.to_numeric(ttext[number], errors="coerce").to_numpy(dtype=float)
-        t_num[~np.isfinite(t_num)] = np.nan
-    # A plain number is always elapsed time (never read as a year); the rest may be timestamps.
-    need_ts = np.isnan(t_num) & ~t_empty
-    ts = pd.to_datetime(ttext.where(need_ts, None), format="ISO8601", utc=True, errors="coerce")
-    ts_ok = ts.notna().to_numpy()
-    r.add(
-        ~t_empty & ~ts_ok & np.isnan(t_num),
-        lambda v: f"time: got {v!r}; expected elapsed time (a number) or an ISO 8601 timestamp",
-        ttext,
-    )
-    t_factor = 1.0 if iso_only else float(factors["time"])
-    units_time = "ISO 8601" if iso_only else (_unit_of(raw, names, "time") or "min")
-    epoch_min = ((ts - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(minutes=1)).to_numpy(dtype=float)
-    is_ts = ts_ok
-    t_abs = np.where(is_ts, epoch_min, t_num * t_factor)
-    far = ~is_ts & np.isfinite(t_abs) & (np.abs(t_abs) > MAX_ELAPSED_MIN)
-    if far.any():
-        r.add(
-            far,
-            lambda v: (
-                f"time: got {v!r} {units_time}; expected elapsed time within +-{MAX_ELAPSED_MIN:g} min (about "
-                "2 years): a Unix time in seconds? write ISO 8601 timestamps (time [ISO 8601])"
-            ),
-            ttext,
-        )
-        far_cases = sorted(set(case[far]))
+def _assemble(st: RowState, warnings: list[tuple[str, str]]) -> LogData:
+    """The rows used, sorted per case by time, with per-case labels and the warnings of the whole log."""
+    names = st.ctx.names
+    rejections = sorted(st.rejections)
+    if st.far_rows:
+        far_cases = sorted(st.far_cases)
         warnings.append(
             (
                 "TIME_NOT_ELAPSED",
-                f"time: {int(far.sum())} row(s) of case(s) "
+                f"time: {st.far_rows} row(s) of case(s) "
                 + ", ".join(repr(c) for c in far_cases[:5])
                 + (" ..." if len(far_cases) > 5 else "")
                 + f" give elapsed times beyond {MAX_ELAPSED_MIN:g} min, more than any case lasts (Unix-epoch "
                 "seconds?); those rows were rejected",
             )
         )
-
-    flows = {
-        c: _numeric(df[c], c, r, float(factors[c]), units[c], True)
-        for c in ("oxygen_flow", "air_flow", "nitrous_oxide_flow")
-    }
-    setting = _numeric(
-        df["vaporizer_setting"],
-        "vaporizer_setting",
-        r,
-        float(factors["vaporizer_setting"]),
-        units["vaporizer_setting"],
-        True,
-    )
-    agent_s = text["agent"].str.lower()
-    agent_codes, agent_uniques = pd.factorize(agent_s)
-    agent_uniques = [str(a) for a in agent_uniques]
-    known = np.isin(agent_codes, [i for i, a in enumerate(agent_uniques) if a in AGENTS])
-    none = np.isin(agent_codes, [i for i, a in enumerate(agent_uniques) if a in NO_AGENT])
-    r.add(
-        ~known & ~none,
-        lambda v: f"agent: got {v!r}; expected one of " + ", ".join(sorted(AGENTS)) + " (empty for none)",
-        text["agent"],
-    )
-    r.add(none & (setting > 0), "agent: empty while vaporizer_setting is above 0")
-    top = (
-        np.array(
-            [AGENTS[a].vaporizer_max.to("dimensionless").magnitude if a in AGENTS else 1.0 for a in agent_uniques]
-        )[agent_codes]
-        if n
-        else np.zeros(0)
-    )
-    for name in sorted({a for a in agent_uniques if a in AGENTS}):
-        mx = AGENTS[name].vaporizer_max.to("dimensionless").magnitude
-        r.add(
-            (agent_s == name).to_numpy() & (setting > top) & (setting < 1.0),
-            f"vaporizer_setting: above the {name} vaporizer's maximum dial {mx * 100:g} %",
-        )
-    r.add(setting >= 1.0, "vaporizer_setting: must be below 100 %")
-    opt = {
-        c: _numeric(df[c], c, r, float(factors[c]), units[c], False)
-        for c in ("end_tidal_agent", "inspired_oxygen", "patient_weight", "patient_age")
-        if c in names
-    }
-
-    codes_all, uniques = pd.factorize(case)
-    # A case keeps one kind of time: the kind of its first valid row; rows of the other kind are rejected.
-    valid_t = ~r.bad & np.isfinite(t_abs)
-    first_kind = pd.Series(np.where(valid_t, is_ts, np.nan)).groupby(codes_all).transform("first").to_numpy()
-    mixed = valid_t & (is_ts != (first_kind == 1))
-    r.add(mixed, lambda v: f"time: got {v!r}; this case mixes elapsed times and timestamps (first kind kept)", ttext)
-
-    ok = ~r.bad
-    rejections = sorted([(int(df["line"].iat[i]), "; ".join(m)) for i, m in r.text.items()] + bad_width)
-    rows = {"read": n + len(bad_width), "used": int(ok.sum()), "rejected": len(rejections)}
-    idx = np.flatnonzero(ok)
-    codes, case_ids = pd.factorize(case.iloc[idx])
-    t_used = t_abs[idx]
-    lines = df["line"].to_numpy()[idx]
-    file_order_t = pd.Series(t_used).groupby(codes).diff().to_numpy()
-    if (file_order_t < 0).any():
+    codes = st.column("case")
+    uniques = pd.unique(codes)  # cases numbered as they first appear among the rows used
+    lut = np.zeros(len(st.cases.labels), dtype=np.int32)
+    lut[uniques] = np.arange(len(uniques), dtype=np.int32)
+    np.take(lut, codes, out=codes)
+    case_ids = [st.cases.labels[u] for u in uniques]
+    rows = {"read": st.read, "used": len(codes), "rejected": len(rejections)}
+    t_used = st.column("t_abs")
+    same = codes[1:] == codes[:-1]
+    contiguous = bool(np.all(codes[1:] >= codes[:-1]))  # each case in one run of rows
+    if contiguous:
+        step = (t_used[1:] - t_used[:-1])[same]
+    else:
+        step = pd.Series(t_used).groupby(codes).diff().to_numpy()
+    back, repeat = int((step < 0).sum()), int((step == 0).sum())
+    del step, same
+    if back:
         warnings.append(
-            (
-                "TIME_NOT_ORDERED",
-                f"{int((file_order_t < 0).sum())} sample(s) out of time order within "
-                "their case: samples were sorted by time",
-            )
+            ("TIME_NOT_ORDERED", f"{back} sample(s) out of time order within their case: samples were sorted by time")
         )
-    if (file_order_t == 0).any():
+    if repeat:
         warnings.append(
             (
                 "DUPLICATE_TIME",
-                f"{int((file_order_t == 0).sum())} sample(s) repeat the time of the "
-                "previous sample of their case: the later one holds",
+                f"{repeat} sample(s) repeat the time of the previous sample of their case: the later one holds",
             )
         )
-    order = np.lexsort((lines, t_used, codes))
-    idx, codes, t_used = idx[order], codes[order], t_used[order]
+    lines = st.column("line")
+    order = None if contiguous and not back else np.lexsort((lines, t_used, codes))
+
+    def take(values: np.ndarray) -> np.ndarray:
+        return values if order is None else values[order]
+
+    codes, t_used, lines = take(codes), take(t_used), take(lines)
     n_cases = len(case_ids)
     start = np.full(n_cases, np.inf)
-    np.minimum.at(start, codes, t_used)
-    used_agents = np.unique(agent_codes[idx])
-    agent_names = ["", *sorted({agent_uniques[i] for i in used_agents if agent_uniques[i] not in NO_AGENT})]
-    remap = np.array([agent_names.index(a) if a in agent_names else 0 for a in agent_uniques] or [0])
-    s = pd.DataFrame(
-        {
-            "case": codes,
-            "line": df["line"].to_numpy()[idx],
-            "t_min": t_used - start[codes],
-            "oxygen": flows["oxygen_flow"][idx],
-            "air": flows["air_flow"][idx],
-            "nitrous_oxide": flows["nitrous_oxide_flow"][idx],
-            "setting": setting[idx],
-            "agent_code": remap[agent_codes[idx]],
-        }
-    )
-    per_case = {}
+    firsts = _blocks_of(codes)
+    start[codes[firsts]] = t_used[firsts]  # sorted by time within the case: its first row starts it
+    case_is_ts = np.zeros(n_cases, dtype=bool)
+    case_is_ts[codes[firsts]] = take(st.column("is_ts"))[firsts]
+    agent = take(st.column("agent"))
+    lower = [a.lower() for a in st.agents.labels]
+    agent_names = ["", *sorted({lower[i] for i in np.unique(agent) if lower[i] not in NO_AGENT})]
+    remap = np.array([agent_names.index(a) if a in agent_names else 0 for a in lower], dtype=np.int8)
+    t_used -= start[codes]
+    cols: dict[str, np.ndarray] = {"case": codes, "line": lines, "t_min": t_used}
+    for c, key in (
+        ("oxygen_flow", "oxygen"),
+        ("air_flow", "air"),
+        ("nitrous_oxide_flow", "nitrous_oxide"),
+        ("vaporizer_setting", "setting"),
+    ):
+        cols[key] = take(st.column(c))
+    cols["agent_code"] = remap[agent]
+    del agent
+    per_case: dict[str, np.ndarray] = {}
     for c, key in (
         ("end_tidal_agent", "end_tidal"),
         ("inspired_oxygen", "min_inspired_oxygen"),
         ("patient_weight", "weight"),
         ("patient_age", "age"),
     ):
-        if c in opt:
-            s[key] = opt[c][idx]
+        if c in names:
+            values = take(st.column(c))
             if key in ("weight", "age"):
-                per_case[key] = s[key].groupby(codes).first().reindex(range(n_cases)).to_numpy()
-                warnings += _varying(s[key], codes, case_ids, c, SPEC[c][2])
-                s[key] = per_case[key][codes]
-    case_is_ts = np.zeros(n_cases, dtype=bool)
-    case_is_ts[codes] = is_ts[idx]
-    start_ts = pd.to_datetime(np.where(case_is_ts, start, 0.0) * 6e7, unit="us", utc=True)
-    room = (
-        text["room"].iloc[idx].reset_index(drop=True)
-        if "room" in names
-        else pd.Series(np.full(len(idx), "", dtype=object))
-    )
-    room_case = room.where(room != "").groupby(codes).first().reindex(range(n_cases)).fillna("unassigned")
+                per_case[key] = _first_valid(values, codes, n_cases)
+                warnings += _varying(values, codes, per_case[key], case_ids, c, str(SPEC[c][2]))
+                values = per_case[key][codes]
+            cols[key] = values
+    samples = pd.DataFrame(cols, copy=False)
+    if "room" in names:
+        room = take(st.column("room")).astype(float)
+        room[room == 0] = np.nan
+        first_room = _first_valid(room, codes, n_cases)
+        case_room = [st.rooms.labels[int(x)] if x == x else "unassigned" for x in first_room]
+    else:
+        case_room = ["unassigned"] * n_cases
+    case_start, case_month = _start_labels(start, case_is_ts)
     return LogData(
-        samples=s,
+        samples=samples,
         case_ids=[str(c) for c in case_ids],
-        case_start=[ts.isoformat() if k else None for ts, k in zip(start_ts, case_is_ts, strict=True)],
-        case_room=room_case.tolist(),
-        case_month=[ts.strftime("%Y-%m") if k else NO_DATE for ts, k in zip(start_ts, case_is_ts, strict=True)],
+        case_start=case_start,
+        case_room=case_room,
+        case_month=case_month,
         case_weight=per_case.get("weight", np.full(n_cases, np.nan)),
         case_age=per_case.get("age", np.full(n_cases, np.nan)),
         agent_names=agent_names,
         rows=rows,
         rejections=rejections,
-        units=units,
+        units=st.ctx.units,
         warnings=tuple(warnings),
     )
