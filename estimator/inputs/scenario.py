@@ -35,7 +35,15 @@ import os
 from typing import Annotated, Any, Literal
 
 import pint
-from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError, WithJsonSchema, model_validator
+from pydantic import (
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    PrivateAttr,
+    ValidationError,
+    WithJsonSchema,
+    model_validator,
+)
 
 from .. import limits as lim
 from ..accounts.accounting import absorbent_capacity as _absorbent_capacity
@@ -281,6 +289,7 @@ class Scenario(_Model):
     output: OutputInput = OutputInput()
     flow_floor: FlowFloorInput = FlowFloorInput()
     notes: str = ""
+    _price_table: Any = PrivateAttr(default=None)
 
     @model_validator(mode="after")
     def _phases(self) -> Scenario:
@@ -303,6 +312,17 @@ class Scenario(_Model):
         """Total duration of the phases [min]."""
         return Q_(sum(p.duration.to("min").magnitude for p in self.phases), "min")
 
+    @property
+    def price_table(self) -> Any:
+        """The ``[prices]`` table read once into :class:`~estimator.accounts.prices.Prices` (None without)."""
+        if not self.prices:
+            return None
+        if self._price_table is None:
+            from ..accounts.prices import parse_prices
+
+            self._price_table = parse_prices(self.prices)  # raises InputError naming prices.<key>
+        return self._price_table
+
 
 def scenario_from_dict(data: dict[str, Any]) -> Scenario:
     """Validate a parsed scenario document.
@@ -315,10 +335,7 @@ def scenario_from_dict(data: dict[str, Any]) -> Scenario:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
         raise input_error_from_validation(exc, model=Scenario) from None
-    if scenario.prices:
-        from ..accounts.costs import parse_prices
-
-        parse_prices(scenario.prices)  # raises InputError naming prices.<key>
+    scenario.price_table  # noqa: B018 - read (and checked) once at load
     return scenario
 
 

@@ -114,9 +114,9 @@ def simulate_setup(case: CaseSetup, *, rtol: float = RTOL) -> CaseResult:
         y = ys[-1].copy()
     result = build_result(case, segments)
     if scenario.prices:
-        from ..accounts.costs import case_cost, parse_prices
+        from ..accounts.costs import case_cost
 
-        result.cost = case_cost(result.totals, parse_prices(scenario.prices), scenario.agent.name)
+        result.cost = case_cost(result.totals, scenario.price_table, scenario.agent.name)
     return result
 
 
