@@ -9,7 +9,7 @@ import typer
 from ..errors import InputError
 from ..planning.forecast_size import CASE_CEILING, MAX_CASES, check_size
 from . import CAUTION, app
-from .outputs import json_text, option_names
+from .outputs import json_text, option_names, terminal_progress
 
 #: Forecasts estimated to run at least this long [s] say so (on stderr) before they start.
 ANNOUNCE_AFTER = 5.0
@@ -56,7 +56,15 @@ def forecast(
     with option_names(
         {"weeks": "--weeks" if weeks is not None else None, "seed": "--seed" if seed is not None else None}
     ):
-        result = run(mix, weeks=weeks, seed=seed, max_cases=max_cases, patient_spread=patient_spread)
+        show = terminal_progress("simulating the weeks (per cent)")
+        result = run(
+            mix,
+            weeks=weeks,
+            seed=seed,
+            max_cases=max_cases,
+            patient_spread=patient_spread,
+            progress=lambda share: show(round(100 * share), 100),
+        )
     typer.echo(json_text(result.to_json(), "forecast", {"FILE": file}) if json_out else summary(result))
 
 
