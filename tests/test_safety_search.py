@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 
 from estimator.inputs.scenario import load_scenario, scenario_from_dict
-from estimator.planning import safety
+from estimator.planning import floor_settings, safety
 
 DEMOS = Path(__file__).resolve().parents[1] / "demo_cases"
 PLANS = ("kestrel_lap_chole", "kestrel_nitrous_dental", "highland_mobile_team", "kestrel_desflurane_bariatric")
@@ -80,7 +80,7 @@ def test_early_stop_search_equals_plain_bisection_and_passes_only_whole_trials(n
     for tr in trials:
         if not tr.failed:  # never accepted before its phase end
             assert tr.done and tr.n == len(tr.times) and tr.times[-1] == pytest.approx(tr.win.t1)
-    assert all(tr.done for tr in trials if tr in tr.pl.passed)
+    assert all(tr.done and not tr.failed for tr in trials if tr in tr.passed)
     stopped = [tr for tr in trials if not tr.done]
     assert all(tr.failed for tr in stopped)  # a trial stops early only on a failure
     assert stopped, "the early stop was never used"
@@ -88,8 +88,8 @@ def test_early_stop_search_equals_plain_bisection_and_passes_only_whole_trials(n
 
 @pytest.mark.parametrize(("name", "sc"), _plans()[:3] + _plans()[-1:], ids=[n for n, _ in _plans()[:3]] + ["n2o"])
 def test_a_failure_on_part_of_a_run_is_a_failure_of_the_whole_run(name, sc, monkeypatch):
-    monkeypatch.setattr(safety, "FIRST_CHUNK", 1)  # judge the run after every minute
-    monkeypatch.setattr(safety, "CHUNK_GROWTH", 1)
+    monkeypatch.setattr(floor_settings, "FIRST_CHUNK", 1)  # judge the run after every minute
+    monkeypatch.setattr(floor_settings, "CHUNK_GROWTH", 1)
     pl = safety.Planner(sc, safety.settings_from(sc))
     y, t, seen = pl.y0.copy(), 0.0, set()
     for ph in sc.phases:

@@ -218,13 +218,13 @@ def judge(times, ys, ws, p, flows, st: Settings, agent: str, win: Window, final:
     failed = static_failures(flows, st, agent)
     judged = times >= SETTLE
     fio2 = ws[judged, c.W_FI + c.O2] if judged.any() else ws[-1:, c.W_FI + c.O2]
-    out = {}
+    out: dict[str, tuple[float, str]] = {}  # margins as (value, unit); quantities only if asked for
     if amb is not None:
         out = {
-            "INSPIRED_O2": Q_(float(fio2.min() - st.threshold), "dimensionless"),
-            "GAS_BALANCE": Q_(float(ws[:, c.W_EX].min() / amb), "L/min"),
-            "BASAL_O2": Q_(flows[0] - st.basal_o2, "L/min"),
-            "FLOWMETER_RANGE": Q_(st.max_flow - max(flows), "L/min"),
+            "INSPIRED_O2": (float(fio2.min() - st.threshold), "dimensionless"),
+            "GAS_BALANCE": (float(ws[:, c.W_EX].min() / amb), "L/min"),
+            "BASAL_O2": (flows[0] - st.basal_o2, "L/min"),
+            "FLOWMETER_RANGE": (st.max_flow - max(flows), "L/min"),
         }
     if fio2.min() < st.threshold - 1e-9 and (final or judged.any()):
         failed.append("INSPIRED_O2")
@@ -238,15 +238,15 @@ def judge(times, ys, ws, p, flows, st: Settings, agent: str, win: Window, final:
         if not ok.any() or times[int(np.argmax(ok))] > deadline + 1e-9:
             if final or past > deadline + 1e-9:
                 failed.append("TARGET_REACH")
-            out["TARGET_REACH"] = Q_(float("nan"), "min")
+            out["TARGET_REACH"] = (float("nan"), "min")
         else:
             i = int(np.argmax(ok))
-            out["TARGET_REACH"] = Q_(float(deadline - times[i]), "min")
+            out["TARGET_REACH"] = (float(deadline - times[i]), "min")
             after = slice(i, None)
             pinned = (u[after] >= p[c.P_UMAX] * (1 - 1e-9)) & ~ok[after]
             if pinned.any():
                 failed.append("TARGET_HOLD")
-            out["TARGET_HOLD"] = Q_(float(100 * (p[c.P_UMAX] - u[after].max())), "percent")
+            out["TARGET_HOLD"] = (float(100 * (p[c.P_UMAX] - u[after].max())), "percent")
     elif p[c.P_UFIXED] == 0.0 and p[c.P_CARRIER + c.N2O] == 0.0 and ws[0, c.W_MAC] > st.wash_out_to + 1e-9:
         # emergence: dial off, no N2O delivered, and agent (or N2O) left to wash out
         mac = ws[:, c.W_MAC]
@@ -257,20 +257,21 @@ def judge(times, ys, ws, p, flows, st: Settings, agent: str, win: Window, final:
         if reached is None or times[reached] > deadline + 1e-9 or not kept:
             if final or reached is not None or past > deadline + 1e-9:
                 failed.append("WASH_OUT")
-            out["WASH_OUT"] = Q_(float("nan"), "min")
+            out["WASH_OUT"] = (float("nan"), "min")
         else:
-            out["WASH_OUT"] = Q_(float(deadline - times[reached]), "min")
+            out["WASH_OUT"] = (float(deadline - times[reached]), "min")
     mac_min = float(ys[-1, c.Y_MACMIN] - ys[0, c.Y_MACMIN])
     if "sevoflurane_us_label" in st.policies and agent == "sevoflurane":
         total = sum(flows)
         mid = total < LABEL_MIDDLE_FLOW - 1e-9
         used = win.mac_before + (mac_min / 60 if mid else 0.0)
         out["LABEL_SEVOFLURANE_US"] = (
-            Q_(LABEL_MAC_HOURS - used, "MAC_hour") if mid else Q_(total - LABEL_MINIMUM_FLOW, "L/min")
+            (LABEL_MAC_HOURS - used, "MAC_hour") if mid else (total - LABEL_MINIMUM_FLOW, "L/min")
         )
         if mid and used > LABEL_MAC_HOURS + 1e-9 and "LABEL_SEVOFLURANE_US" not in failed:
             failed.append("LABEL_SEVOFLURANE_US")
-    return sorted(set(failed), key=LIMITS.index), (out if amb is not None else None), mac_min
+    margins = {k: Q_(v, unit) for k, (v, unit) in out.items()} if amb is not None else None
+    return sorted(set(failed), key=LIMITS.index), margins, mac_min
 
 
 @dataclass
