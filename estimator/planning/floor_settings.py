@@ -291,16 +291,8 @@ class Trial:
     verdict does not depend on how far it was taken; a trial is only passed once run to the end.
     """
 
-    def __init__(self, p: np.ndarray, flows, y: np.ndarray, win: Window, st: Settings, agent: str, atol, passed: list):
-        self.p, self.flows, self.win, self.st, self.agent, self.atol, self.passed = (
-            p,
-            flows,
-            win,
-            st,
-            agent,
-            atol,
-            passed,
-        )
+    def __init__(self, p: np.ndarray, flows, y: np.ndarray, win: Window, st: Settings, agent: str, atol):
+        self.p, self.flows, self.win, self.st, self.agent, self.atol = p, flows, win, st, agent, atol
         self.times = phase_times(win.t0, win.t1 - win.t0, CHECK_INTERVAL)
         self.ends = np.stack([y, y])  # first and latest state
         self.ws = np.empty((len(self.times), c.NW))  # derived flows at the check times run so far
@@ -308,6 +300,7 @@ class Trial:
         self.n, self.h, self.size = 1, 0.0, FIRST_CHUNK
         self.done = len(self.times) == 1
         self.failed: list[str] = []  # failures no later point can undo (all failures once done)
+        self.accepted = False  # passed: only ever set once run to the phase end
         self._judge()
 
     def _advance(self) -> None:
@@ -335,8 +328,7 @@ class Trial:
                 return True
             self._advance()
             self._judge()
-        if not self.failed and self not in self.passed:
-            self.passed.append(self)
+        self.accepted = not self.failed
         return bool(self.failed)
 
     def check(self, amb: float) -> Check:

@@ -127,7 +127,6 @@ class Planner:
         self.amb = self.case.mmol_per_litre
         self.agent = scenario.agent.name
         self.search = search  # "stop": a failing trial stops at its first certain failure; "bisect": runs to the end
-        self.passed: list[Trial] = []  # every trial passed (each run to its phase end)
         self._parameters: dict[tuple, tuple[PhaseInput, np.ndarray]] = {}
 
     def candidates(self, phase: PhaseInput) -> list[tuple[float, float, float]]:
@@ -156,7 +155,7 @@ class Planner:
     def trial(self, phase: PhaseInput, flows, y, t0, t_phase0, t1, mac_before: float = 0.0) -> Trial:
         """A trial of ``flows`` from ``t0`` to the phase end ``t1`` (not yet run)."""
         win = Window(t0, t_phase0, t1, mac_before)
-        return Trial(self.parameters(phase, flows), flows, y, win, self.st, self.agent, self.atol, self.passed)
+        return Trial(self.parameters(phase, flows), flows, y, win, self.st, self.agent, self.atol)
 
     def check(self, phase: PhaseInput, flows, y, t0, t_phase0, t1, mac_before: float = 0.0) -> Check:
         """Run ``flows`` from ``t0`` to the phase end ``t1`` and test every limit."""
