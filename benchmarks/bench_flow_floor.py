@@ -4,7 +4,9 @@ Times (CPU, ``time.process_time``) the flow floor of the 4-hour plan of ``bench_
 on the 5-min grid, with the recommended schedule re-simulated) against the 1 s target and as a ratio
 to one engine run of the same plan measured in the same process (the baseline: what one plain run of
 the case costs); then the same plan lengthened to 24 hours, and the ratio of the two floors (target:
-within 7x, about linear in case length). ``--quick``: a 40-min and an 80-min plan, one repeat.
+within 7x, about linear in case length). Also the trial-minutes integrated in each floor, all and
+those of trials passed (a passed trial always runs to its phase end, so these grow with the square of
+the case length). ``--quick``: a 40-min and an 80-min plan, one repeat.
 """
 
 from __future__ import annotations
@@ -18,6 +20,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from bench_case import CASE, cpu  # noqa: E402
 
 from estimator.inputs.scenario import scenario_from_dict  # noqa: E402
+from estimator.planning import safety  # noqa: E402
 from estimator.planning.safety import flow_floor  # noqa: E402
 from estimator.simulation import engine  # noqa: E402
 
@@ -27,6 +30,24 @@ def plan(minutes: float) -> dict:
     first = CASE["phases"][0]
     rest = {**CASE["phases"][1], "duration": f"{minutes - 10:g} min"}
     return {**CASE, "phases": [first, rest]}
+
+
+def trial_minutes(sc) -> tuple[float, float]:
+    """Minutes integrated by the trials of one flow floor of ``sc``: all trials, and the passed ones."""
+    made = []
+
+    class Counting(safety.Planner):
+        def trial(self, *args, **kwargs):
+            made.append(super().trial(*args, **kwargs))
+            return made[-1]
+
+    real, safety.Planner = safety.Planner, Counting
+    try:
+        flow_floor(sc)
+    finally:
+        safety.Planner = real
+    run = [float(t.times[t.n - 1] - t.times[0]) for t in made]
+    return sum(run), sum(r for r, t in zip(run, made, strict=True) if not t.failed)
 
 
 def main(quick: bool = False) -> None:
@@ -51,6 +72,11 @@ def main(quick: bool = False) -> None:
     )
     print(f"grid points {len(res.grid)}, schedule: {res.schedule_text}")
     print(f"grid points {len(res_long.grid)} ({long:g} min)")
+    (a, a_ok), (b, b_ok) = trial_minutes(sc), trial_minutes(sc_long)
+    print(
+        f"trial-minutes integrated: {a:,.0f} ({a_ok:,.0f} in passed trials), then {b:,.0f} ({b_ok:,.0f}); "
+        f"ratio {b / a:.1f} ({b_ok / a_ok:.1f})"
+    )
 
 
 if __name__ == "__main__":

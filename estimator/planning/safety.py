@@ -22,9 +22,13 @@ which every limit holds from the start to the end of the phase:
 Phases are taken in order: each phase's floor starts from the state the previous phase left *at its
 floor*, so the floors together form the recommended schedule. On a time grid (default 5 min) the
 floor at time t answers "from t, how low may I go until the phase ends?" on the user's own plan.
-Limits are monotone in flow (more flow: more O2, less deficit, faster wash-in), so each floor is
+Limits are monotone in total flow (more flow: less deficit, faster wash-in), so each floor is
 found by bisection over the settable candidates; the binding limit is the one that fails at the
-next setting below the floor.
+next setting below the floor. Inspired O2 is not always monotone along the candidates: rounding to
+the scale can add N2O or air at the same O2 flow, so a setting may fail above one that passes. The
+floor is therefore never taken from a neighbouring grid point's floor (that could report a lower
+floor than the bisection, with a failing setting above it); a failing trial is stopped at its first
+failure no later minute can undo, a passing one always runs to the phase end.
 
 References
 ----------
@@ -42,48 +46,28 @@ from typing import Any
 import numpy as np
 
 from ..inputs.scenario import PhaseInput, Scenario
-from ..limits import (
-    CODES,
-    LABEL_MAC_HOURS,
-    LABEL_MIDDLE_FLOW,
-    LABEL_MINIMUM_FLOW,
-    TARGET_BAND,
-    codes_of,
-)
+from ..limits import LABEL_MIDDLE_FLOW
 from ..numerics.dopri5 import integrate_phase
 from ..physics import circuit as c
 from ..simulation import engine
 from ..simulation.assemble import Segment
 from ..simulation.case_setup import prepare
 from ..units import Q_
-from .floor_settings import (  # noqa: F401 (settable_values, round_up, DEFAULT_SCALE, settings_from re-exported)
+from .floor_settings import (  # noqa: F401 (re-exported: the scale helpers, settings_from, Check, CHECK_INTERVAL)
+    CHECK_INTERVAL,
     DEFAULT_SCALE,
+    LIMIT_TEXT,
+    LIMITS,
+    Check,
     Settings,
+    Trial,
+    Window,
     candidates,
     round_up,
     settable_values,
     settings_from,
-    static_failures,
     with_flows,
 )
-
-#: The binding limits in the order they are reported (the registry's binding codes, less the two
-#: that only name why no limit failed: the scale's lowest setting and a phase without fresh gas).
-LIMITS = tuple(k for k in codes_of("binding") if k not in ("FLOWMETER_MINIMUM", "NO_FRESH_GAS"))
-#: Plain words for each binding code (the ``limits`` key of the JSON), from the registry.
-LIMIT_TEXT = {k: CODES[k].meaning for k in (*LIMITS, "FLOWMETER_MINIMUM")}
-CHECK_INTERVAL = 1.0  # [min] resolution of the limit checks
-from ..simulation.results import SETTLE  # noqa: E402  inspired O2 is judged from this case time on [min]
-
-
-@dataclass
-class Check:
-    """Outcome of one trial run: failed limits and the margin left on each limit."""
-
-    failed: list[str]
-    margins: dict[str, Any]
-    end_state: np.ndarray | None = None
-    mac_minutes: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -131,7 +115,7 @@ class FloorResult:
 class Planner:
     """Runs trial segments of a scenario on the circuit kernel (no pint in the loop)."""
 
-    def __init__(self, scenario: Scenario, st: Settings):
+    def __init__(self, scenario: Scenario, st: Settings, search: str = "stop"):
         self.sc = scenario
         self.st = st
         self.case = prepare(scenario)
@@ -141,6 +125,23 @@ class Planner:
         self.y0 = self.case.initial
         self.atol = engine.absolute_tolerance()
         self.amb = self.case.mmol_per_litre
+        self.agent = scenario.agent.name
+        self.search = search  # "stop": a failing trial stops at its first certain failure; "bisect": runs to the end
+        self._parameters: dict[tuple, tuple[PhaseInput, np.ndarray]] = {}
+
+    def candidates(self, phase: PhaseInput) -> list[tuple[float, float, float]]:
+        """Settable candidates of ``phase`` (:func:`~estimator.planning.floor_settings.candidates`), listed once."""
+        key = ("candidates", id(phase))
+        if key not in self._parameters:
+            self._parameters[key] = (phase, candidates(phase, self.st))
+        return self._parameters[key][1]
+
+    def parameters(self, phase: PhaseInput, flows) -> np.ndarray:
+        """Kernel parameters of ``phase`` at settable ``flows`` (set up once per phase and flows)."""
+        key = (id(phase), *flows)
+        if key not in self._parameters:  # the phase is kept with its entry, so its id stays its own
+            self._parameters[key] = (phase, self.case.phase_setup(with_flows(phase, flows), 0.0, 0.0).parameters)
+        return self._parameters[key][1]
 
     def run(self, phase: PhaseInput, y: np.ndarray, t0: float, t1: float, step: float = CHECK_INTERVAL) -> Segment:
         """States and derived flows every ``step`` from ``t0`` to ``t1`` for ``phase`` starting at state ``y``."""
@@ -151,87 +152,56 @@ class Planner:
             raise RuntimeError("the circuit model failed to integrate a trial segment")
         return Segment(ph, times, ys, c.derived_series(ys, ph.parameters), stats)
 
+    def trial(self, phase: PhaseInput, flows, y, t0, t_phase0, t1, mac_before: float = 0.0) -> Trial:
+        """A trial of ``flows`` from ``t0`` to the phase end ``t1`` (not yet run)."""
+        win = Window(t0, t_phase0, t1, mac_before)
+        return Trial(self.parameters(phase, flows), flows, y, win, self.st, self.agent, self.atol)
+
     def check(self, phase: PhaseInput, flows, y, t0, t_phase0, t1, mac_before: float = 0.0) -> Check:
         """Run ``flows`` from ``t0`` to the phase end ``t1`` and test every limit."""
-        trial = with_flows(phase, flows)
-        failed = static_failures(flows, self.st, self.sc.agent.name)
-        seg = self.run(trial, y, t0, t1)
-        times, ys, ws, p = seg.times, seg.states, seg.derived, seg.phase.parameters
-        judged = times >= SETTLE
-        fio2 = ws[judged, c.W_FI + c.O2] if judged.any() else ws[-1:, c.W_FI + c.O2]
-        margins: dict[str, Any] = {
-            "INSPIRED_O2": Q_(float(fio2.min() - self.st.threshold), "dimensionless"),
-            "GAS_BALANCE": Q_(float(ws[:, c.W_EX].min() / self.amb), "L/min"),
-            "BASAL_O2": Q_(flows[0] - self.st.basal_o2, "L/min"),
-            "FLOWMETER_RANGE": Q_(self.st.max_flow - max(flows), "L/min"),
-        }
-        if fio2.min() < self.st.threshold - 1e-9:
-            failed.append("INSPIRED_O2")
-        if ws[:, c.W_MAKEUP].max() > 1e-9:
-            failed.append("GAS_BALANCE")
-        if p[c.P_MODE] == c.MODE_HOLD:
-            et, tgt, u = ws[:, c.W_FET + c.AGENT], ws[:, c.W_TARGET], ws[:, c.W_U]
-            ok = et >= (1 - TARGET_BAND) * tgt
-            deadline = max(t_phase0 + self.st.reach_within, t0)
-            if not ok.any() or times[int(np.argmax(ok))] > deadline + 1e-9:
-                failed.append("TARGET_REACH")
-                margins["TARGET_REACH"] = Q_(float("nan"), "min")
-            else:
-                i = int(np.argmax(ok))
-                margins["TARGET_REACH"] = Q_(float(deadline - times[i]), "min")
-                after = slice(i, None)
-                pinned = (u[after] >= p[c.P_UMAX] * (1 - 1e-9)) & ~ok[after]
-                if pinned.any():
-                    failed.append("TARGET_HOLD")
-                margins["TARGET_HOLD"] = Q_(float(100 * (p[c.P_UMAX] - u[after].max())), "percent")
-        elif p[c.P_UFIXED] == 0.0 and p[c.P_CARRIER + c.N2O] == 0.0 and ws[0, c.W_MAC] > self.st.wash_out_to + 1e-9:
-            # emergence: dial off, no N2O delivered, and agent (or N2O) left to wash out
-            mac = ws[:, c.W_MAC]
-            deadline = max(min(t_phase0 + self.st.wash_out_within, t1), t0)
-            low = mac <= self.st.wash_out_to + 1e-9
-            reached = int(np.argmax(low)) if low.any() else None
-            kept = reached is not None and bool(low[reached:].all())
-            if reached is None or times[reached] > deadline + 1e-9 or not kept:
-                failed.append("WASH_OUT")
-                margins["WASH_OUT"] = Q_(float("nan"), "min")
-            else:
-                margins["WASH_OUT"] = Q_(float(deadline - times[reached]), "min")
-        mac_min = float(ys[-1, c.Y_MACMIN] - ys[0, c.Y_MACMIN])
-        if "sevoflurane_us_label" in self.st.policies and self.sc.agent.name == "sevoflurane":
-            total = sum(flows)
-            mid = total < LABEL_MIDDLE_FLOW - 1e-9
-            used = mac_before + (mac_min / 60 if mid else 0.0)
-            margins["LABEL_SEVOFLURANE_US"] = (
-                Q_(LABEL_MAC_HOURS - used, "MAC_hour") if mid else Q_(total - LABEL_MINIMUM_FLOW, "L/min")
-            )
-            if mid and used > LABEL_MAC_HOURS + 1e-9 and "LABEL_SEVOFLURANE_US" not in failed:
-                failed.append("LABEL_SEVOFLURANE_US")
-        return Check(sorted(set(failed), key=LIMITS.index), margins, ys[-1].copy(), mac_min)
+        return self.trial(phase, flows, y, t0, t_phase0, t1, mac_before).check(self.amb)
 
-    def floor(self, phase, y, t0, t_phase0, t1, mac_before=0.0) -> Floor:
-        """Bisection for the lowest candidate of ``phase`` at which every limit holds from ``t0``."""
-        cands = candidates(phase, self.st)
+    def floor(self, phase, y, t0, t_phase0, t1, mac_before=0.0, *, need: str = "all") -> Floor:
+        """The lowest candidate of ``phase`` at which every limit holds from ``t0``.
+
+        Bisection over the candidates; a failing trial stops at its first certain failure (with the
+        ``"bisect"`` search every trial runs to the phase end: the same verdicts, the same floor).
+        ``need="first"``: only the first binding limit is wanted (the grid), and no check is kept.
+        """
+        cands = self.candidates(phase)
         if not cands:
             return Floor(None, None, ["NO_FRESH_GAS"])
-        cache: dict[int, Check] = {}
+        cache: dict[int, Trial] = {}
+        plain = self.search == "bisect"
 
-        def test(i: int) -> Check:
+        def test(i: int) -> Trial:
             if i not in cache:
-                cache[i] = self.check(phase, cands[i], y, t0, t_phase0, t1, mac_before)
+                cache[i] = self.trial(phase, cands[i], y, t0, t_phase0, t1, mac_before)
             return cache[i]
 
+        def fails(i: int) -> bool:
+            return test(i).fails(None if plain else "any")
+
         hi = len(cands) - 1
-        if test(hi).failed:
-            return Floor(None, test(hi), test(hi).failed)
+        if fails(hi):
+            test(hi).fails(None if need == "all" else "first")
+            return Floor(None, test(hi).check(self.amb) if need == "all" else None, test(hi).failed)
         lo = -1  # invariant: cands[lo] fails (or lo = -1), cands[hi] passes
         while hi - lo > 1:
             mid = (lo + hi) // 2
-            if test(mid).failed:
+            if fails(mid):
                 lo = mid
             else:
                 hi = mid
+        return self._floor(cands, test, lo, hi, need)
+
+    def _floor(self, cands, test, lo: int, hi: int, need: str) -> Floor:
+        if lo >= 0:
+            test(lo).fails(None if need == "all" else "first")
         binding = test(lo).failed if lo >= 0 else ["FLOWMETER_MINIMUM"]
-        return Floor(cands[hi], test(hi), binding, cands[lo] if lo >= 0 else None)
+        return Floor(
+            cands[hi], test(hi).check(self.amb) if need == "all" else None, binding, cands[lo] if lo >= 0 else None
+        )
 
 
 def _flow_dict(flows) -> dict[str, Any]:
@@ -255,11 +225,11 @@ def lowest_oxygen_flow(pl: Planner, phase: PhaseInput, flows, y, t0, t1, mac_bef
     lo, hi = -1, len(opts) - 1
     while hi >= 0 and opts[hi][0] < o2 - 1e-9:
         hi -= 1
-    if hi < 0 or pl.check(phase, opts[hi], y, t0, t0, t1, mac_before).failed:
+    if hi < 0 or pl.trial(phase, opts[hi], y, t0, t0, t1, mac_before).fails():
         return None
     while hi - lo > 1:
         mid = (lo + hi) // 2
-        if pl.check(phase, opts[mid], y, t0, t0, t1, mac_before).failed:
+        if pl.trial(phase, opts[mid], y, t0, t0, t1, mac_before).fails():
             lo = mid
         else:
             hi = mid
@@ -270,7 +240,9 @@ def _phase_label(i: int, n: int) -> str:
     return "wash-in" if i == 0 and n > 1 else ("maintenance" if i == n - 1 else f"phase {i}")
 
 
-def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool = True) -> FloorResult:
+def flow_floor(
+    scenario: Scenario, *, threshold: float | None = None, grid: bool = True, _search: str = "stop"
+) -> FloorResult:
     """The flow floor of every phase, the floor on a time grid, and a recommended settable schedule.
 
     Parameters
@@ -290,7 +262,7 @@ def flow_floor(scenario: Scenario, *, threshold: float | None = None, grid: bool
     from .audit import FLOW_CLASS_SOURCE, flow_class
 
     st = settings_from(scenario, threshold)
-    pl = Planner(scenario, st)
+    pl = Planner(scenario, st, _search)
     plan = engine.simulate_setup(pl.case)
     phases_out, schedule, grid_out = [], [], []
     y, t, mac_low = pl.y0.copy(), 0.0, 0.0
@@ -357,7 +329,7 @@ def _grid(pl: Planner, scenario: Scenario, live) -> list[dict[str, Any]]:
         seg = pl.run(ph, y, t, t + dur, pl.st.grid)
         times, ys = seg.times, seg.states
         for tg, yg in zip(times[:-1], ys[:-1], strict=True):
-            res = pl.floor(ph, yg, tg, t, t + dur)
+            res = pl.floor(ph, yg, tg, t, t + dur, need="first")
             out.append(
                 {
                     "time": Q_(float(tg), "min"),
