@@ -200,6 +200,13 @@ _TABLE: tuple[tuple[str, str, str, str, bool], ...] = (
         True,
     ),
     ("PIO2_THRESHOLD_UNREACHABLE", "warning", "no O2 fraction reaches the sea-level PiO2 at the site", "West", True),
+    (
+        "SETTING_ABOVE_FLOOR_FAILS",
+        "warning",
+        "a settable mix above the floor breaks a limit (less O2 in the mix)",
+        "model",
+        True,
+    ),
     ("DIAL_UNREACHABLE", "warning", "the vaporizer cannot deliver the fraction asked for", "model", False),
     ("DIAL_ABOVE_VAPORIZER_MAX", "warning", "the dial needed is above the vaporizer maximum", "model", False),
     ("AGE_BELOW_MAPLESON_RANGE", "warning", "age below 1 year, outside Mapleson's fit", "Mapleson 1996", False),

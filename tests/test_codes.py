@@ -239,6 +239,12 @@ PRODUCERS: dict[str, Callable[[], set[str]]] = {
         'wash_in_flow = "1 L/min"\nwash_in_time = "5 min"\nmaintenance_flow = "0.5 L/min"\n'
         'end_tidal_target = "2 MAC"\n' + PATIENT + 'duration = "15 min"'
     ),
+    # A higher settable total with more N2O at the same O2 flow lowers inspired O2 (floor's mix passes).
+    "SETTING_ABOVE_FLOOR_FAILS": floor(
+        "isoflurane",
+        {"duration": "10 min", "oxygen": "2 L/min", "nitrous_oxide": "4 L/min", "end_tidal_target": "1 MAC"},
+        {"duration": "50 min", "oxygen": "0.4 L/min", "nitrous_oxide": "0.6 L/min", "end_tidal_target": "1 MAC"},
+    ),
     "DIAL_AT_MAXIMUM/flow floor": floor(
         "sevoflurane",
         {"duration": "10 min", "oxygen": "6 L/min", "end_tidal_target": "2 MAC"},
@@ -294,6 +300,10 @@ SAFE: dict[str, Callable[[], set[str]]] = {
         flow_floor={"policies": ["sevoflurane_us_label"]},
     ),
     "NO_SAFE_FLOOR": floor("sevoflurane", *EMERGENCE[:2]),
+    # O2 and air at a low total: no settable mix above the floor breaks a limit here.
+    "SETTING_ABOVE_FLOOR_FAILS": floor(
+        "isoflurane", {"duration": "60 min", "oxygen": "0.5 L/min", "air": "0.5 L/min", "end_tidal_target": "1 MAC"}
+    ),
     "PIO2_BELOW_SEA_LEVEL_THRESHOLD": pio2(0.50, 0.30, 70.0),
     "PIO2_THRESHOLD_UNREACHABLE": pio2(0.50, 0.30, 70.0),
     "OXYGEN_BELOW_AIR": total("sevoflurane", 1.5, "40 years", "50 %"),

@@ -125,3 +125,24 @@ def test_verdicts_are_not_monotone_so_a_neighbours_floor_is_no_shortcut():
     assert verdict == {(1.0, 0.0, 1.5): True, (1.5, 0.0, 2.0): False, (1.5, 0.0, 2.5): True}
     grid = {g["time"].to("min").magnitude: g["floor"].to("L/min").magnitude for g in safety.flow_floor(sc).grid}
     assert grid[45.0] == pytest.approx(3.5) and grid[50.0] == pytest.approx(4.5)
+
+
+def test_mixes_reported_above_the_floor_really_fail():
+    # The floor holds; each settable mix reported as failing above it has a higher total and breaks a
+    # limit when run to the phase end (so "any setting above the floor is safe" is never implied wrongly).
+    from estimator.inputs.scenario import load_scenario
+    from estimator.planning.floor_settings import settings_from
+    from estimator.planning.safety import Planner, failing_above, flow_floor
+
+    sc = load_scenario(Path(__file__).resolve().parent.parent / "demo_cases" / "kestrel_nitrous_dental.toml")
+    res = flow_floor(sc, grid=False)
+    first = res.phases[0]
+    assert first["failing_above"], "the demo's wash-in has a failing mix above its floor"
+    pl = Planner(sc, settings_from(sc, None))
+    ph = sc.phases[first["index"]]
+    dur = ph.duration.to("min").magnitude
+    floor = tuple(first["flows"][k].to("L/min").magnitude for k in ("oxygen", "air", "nitrous_oxide"))
+    assert not pl.check(ph, floor, pl.y0, 0.0, 0.0, dur).failed
+    for mix in failing_above(pl, ph, floor, pl.y0, 0.0, dur):
+        assert sum(mix) > sum(floor) and pl.check(ph, mix, pl.y0, 0.0, 0.0, dur).failed
+    assert any("SETTING_ABOVE_FLOOR_FAILS" == c for c, _ in res.warnings)

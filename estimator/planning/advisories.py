@@ -57,6 +57,20 @@ def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[s
                 f"bellows empties. Watch the reservoir bag, tidal volume and airway pressure. {LOCAL}",
             )
         )
+    for f in floors:
+        bad = f.get("failing_above") or []
+        if bad and f.get("floor") is not None:
+            first = bad[0]
+            mix = ", ".join(f"{k.replace('_', ' ')} {v.to('L/min').magnitude:g}" for k, v in first.items())
+            out.append(
+                (
+                    "SETTING_ABOVE_FLOOR_FAILS",
+                    f"{f['label']}: the floor is {f['floor'].to('L/min').magnitude:g} L/min, but "
+                    f"{len(bad)} settable mix(es) above it break a limit, the lowest {mix} L/min: a higher "
+                    "total with less O2 in the mix can lower inspired O2. Keep at least the floor's O2 flow "
+                    f"and O2 share. {LOCAL}",
+                )
+            )
     if codes & {"TARGET_NOT_REACHED"}:
         out.append(
             (

@@ -236,6 +236,24 @@ def lowest_oxygen_flow(pl: Planner, phase: PhaseInput, flows, y, t0, t1, mac_bef
     return opts[hi][0]
 
 
+def failing_above(pl: Planner, phase: PhaseInput, floor, y, t0, t1, mac_before=0.0) -> list[tuple]:
+    """Settable mixes above the floor's total that break a limit from ``t0`` to the phase end.
+
+    The floor is found by bisection, which takes the limits as monotone in the total flow; rounding
+    each gas to the flowmeter scale can give a higher total with a smaller O2 share (more air or N2O
+    at the same O2), which can lower inspired O2. Every candidate above the floor with a smaller O2
+    share than the floor's is run to the phase end (the others hold at least the floor's O2 share
+    and flow), and those that fail are returned, lowest total first.
+    """
+    cands = pl.candidates(phase)
+    share = floor[0] / max(sum(floor), 1e-12)
+    total = sum(floor)
+    risky = [f for f in cands if sum(f) > total + 1e-9 and f[0] / max(sum(f), 1e-12) < share - 1e-9]
+    return sorted(
+        (f for f in risky if pl.trial(phase, f, y, t0, t0, t1, mac_before).fails("any")), key=lambda f: sum(f)
+    )
+
+
 def _phase_label(i: int, n: int) -> str:
     return "wash-in" if i == 0 and n > 1 else ("maintenance" if i == n - 1 else f"phase {i}")
 
@@ -289,8 +307,10 @@ def flow_floor(
             "planned_total": Q_(float(sum(planned)), "L/min"),
             "flow_class": f"{flow_class(total)} flow ({FLOW_CLASS_SOURCE})" if res.flows else None,
             "lowest_oxygen_flow": None,
+            "failing_above": [],
         }
         if res.flows:
+            entry["failing_above"] = [_flow_dict(f) for f in failing_above(pl, ph, res.flows, y, t, t + dur, mac_low)]
             o2min = lowest_oxygen_flow(pl, ph, chosen, y, t, t + dur, mac_low)
             entry["lowest_oxygen_flow"] = Q_(o2min, "L/min") if o2min is not None else None
             new_phases[i] = with_flows(ph, chosen)
