@@ -37,3 +37,21 @@ def test_importing_the_package_leaves_pint_global_state_alone():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.split() == ["True", "False", "True"], out
+
+
+def test_first_compile_is_announced_on_a_terminal_only(monkeypatch, capsys):
+    # The first run compiles the model for 10-20 s: said on a terminal, never in piped output.
+    from pathlib import Path
+
+    from estimator.cli import outputs
+
+    monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
+    monkeypatch.setattr(sys.stderr, "isatty", lambda: True)
+    monkeypatch.setattr(Path, "glob", lambda self, pattern: iter(()))  # an empty cache
+    outputs.announce_first_compile(["case", "x.toml"])
+    assert "compiling the model once" in capsys.readouterr().err
+    outputs.announce_first_compile(["mac", "--agent", "sevoflurane"])  # no model run: silent
+    assert capsys.readouterr().err == ""
+    monkeypatch.setattr(sys.stderr, "isatty", lambda: False)
+    outputs.announce_first_compile(["case", "x.toml"])  # piped: silent
+    assert capsys.readouterr().err == ""

@@ -62,6 +62,9 @@ def main(argv: list[str] | None = None) -> None:
     except ImportError:  # pragma: no cover - older typer uses click itself
         from click import exceptions as click_exc
 
+    from .outputs import announce_first_compile
+
+    announce_first_compile(sys.argv[1:] if argv is None else argv)
     try:
         rv = app(args=argv, standalone_mode=False)
     except InputError as exc:

@@ -143,3 +143,22 @@ def json_text(result: Any, verb: str, files: dict[str, Path | str | None] | None
         doc = {"result": doc}
     inputs = {Path(p).name: Path(p).read_bytes() for p in (files or {}).values() if p is not None}
     return json.dumps(stamp(doc, f"lowflow {verb}", inputs), indent=2, allow_nan=False)
+
+
+#: Verbs that run the compiled model.
+ENGINE_VERBS = frozenset({"case", "safe-flow", "supply", "forecast", "audit"})
+
+
+def announce_first_compile(argv: list[str]) -> None:
+    """Say so on a terminal when the compiled model is not cached yet (the first run compiles it,
+    10-20 s, without another word otherwise); silent when piped, when cached, or for other verbs."""
+    import os
+    import sys
+
+    verb = next((a for a in argv if not a.startswith("-")), None)
+    if verb not in ENGINE_VERBS or not sys.stderr.isatty() or os.environ.get("NUMBA_CACHE_DIR"):
+        return
+    here = Path(__file__).resolve().parent.parent / "numerics" / "__pycache__"
+    if not any(here.glob("dopri5.integrate_phase-*.nbi")):
+        sys.stderr.write("lowflow: compiling the model once (10-20 s; later runs load it from the cache)...\n")
+        sys.stderr.flush()
