@@ -22,8 +22,17 @@ import tomli_w
 from estimator.contracts import toml_from_text
 from estimator.errors import InputError
 
-#: The demo inputs the app opens on: the repository's demo_cases/ folder (invented sites and cases).
-DEMO_DIR = Path(__file__).resolve().parents[1] / "demo_cases"
+
+def _shipped(*parts: str) -> Path:
+    """A file or folder of the checkout (``demo_cases``, ``docs``), or its copy inside the installed
+    package (the wheel carries both under ``estimator_app/``)."""
+    here = Path(__file__).resolve().parent
+    checkout = here.parent.joinpath(*parts)
+    return checkout if checkout.exists() else here.joinpath(*parts)
+
+
+#: The demo inputs the app opens on: the demo_cases/ folder (invented sites and cases).
+DEMO_DIR = _shipped("demo_cases")
 
 #: A case plan or case type naming one of these runs the case on the case planner page.
 PLANNER_NAMES = ("case planner", "case_planner.toml")

@@ -11,6 +11,7 @@ from estimator.properties import CONFIDENCE_CODES, source_table
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from ..common import downloads
+from ..contracts import _shipped
 
 REFERENCES = (
     "Lowe HJ, Ernst EA. The Quantitative Practice of Anesthesia. Williams & Wilkins, 1981 (Brody scaling, "
@@ -66,7 +67,7 @@ LIMITS = (
 
 
 #: The validation report, generated from the test suite by ``uv run python docs/make_validation.py``.
-VALIDATION_REPORT = Path(__file__).resolve().parents[2] / "docs" / "VALIDATION.md"
+VALIDATION_REPORT = _shipped("docs", "VALIDATION.md")
 
 
 def validation_table(path: Path = VALIDATION_REPORT) -> tuple[pd.DataFrame, str] | None:

@@ -1,0 +1,8 @@
+"""Entry script of the Streamlit app (``streamlit run``), as installed with the ``app`` extra.
+
+``lowflow app`` runs this file; in a checkout, ``uv run streamlit run app.py`` does the same.
+"""
+
+from estimator_app.shell import main
+
+main()
