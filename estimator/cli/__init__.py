@@ -61,6 +61,8 @@ def main(argv: list[str] | None = None) -> None:
         from typer._click import exceptions as click_exc  # typer >= 0.20 vendors click
     except ImportError:  # pragma: no cover - older typer uses click itself
         from click import exceptions as click_exc
+    # click < 8.2 has no NoArgsIsHelpError (it prints the help and exits 0 itself); () matches nothing.
+    no_args_is_help = getattr(click_exc, "NoArgsIsHelpError", ())
 
     from .outputs import announce_first_compile
 
@@ -69,7 +71,7 @@ def main(argv: list[str] | None = None) -> None:
         rv = app(args=argv, standalone_mode=False)
     except InputError as exc:
         fail(str(exc))
-    except click_exc.NoArgsIsHelpError as exc:
+    except no_args_is_help as exc:
         typer.echo(exc.ctx.get_help() if exc.ctx is not None else "lowflow --help")
         raise SystemExit(0) from None
     except click_exc.UsageError as exc:

@@ -154,6 +154,39 @@ class SiteInput(_Model):
     101.325 kPa; the engine converts them to true flows at the site (estimator.physics.flowmeter)."""
 
 
+def _target(value: Any) -> pint.Quantity:
+    """An end-tidal hold target: a MAC multiple (above 0 to 3 MAC) or a fraction (above 0 to 20 %)."""
+    try:
+        q = parse_quantity(value, "", "mac")
+        if not 0.0 < q.magnitude <= 3.0:
+            raise ValueError("above 0 to 3 MAC, or a fraction such as '2 %'")
+        return q
+    except InputError:
+        pass
+    try:
+        q = parse_quantity(value, "", "fraction")
+    except InputError:
+        raise ValueError("a target such as '1 MAC' or '2 %'") from None
+    if not 0.0 < q.to("").magnitude <= 0.2:
+        raise ValueError("above 0 to 20 % (or a MAC multiple such as '1 MAC')")
+    return q
+
+
+#: Defined above the model that uses it: pydantic 2.6 evaluates the string annotation in a copy of the
+#: module namespace taken when the class is built, so a validator defined below is not found.
+Target = Annotated[
+    pint.Quantity,
+    BeforeValidator(_target),
+    WithJsonSchema(
+        {
+            "type": "string",
+            "examples": ["1 MAC", "2 %"],
+            "description": "end-tidal agent to hold: above 0 to 3 MAC, or a fraction above 0 to 20 %",
+        }
+    ),
+]
+
+
 class PhaseInput(_Model):
     """``[[phases]]``: duration, carrier gas, and a dial or an end-tidal hold target."""
 
@@ -167,20 +200,7 @@ class PhaseInput(_Model):
     balance: Literal["air", "nitrous_oxide"] | None = None
     # The dial: 0 to 25 % bounds every vaporizer; the agent's own highest mark is checked per phase.
     vaporizer: _quantity("fraction", 0.0, 0.25, "dimensionless", description="vaporizer dial") | None = None
-    end_tidal_target: (
-        Annotated[
-            pint.Quantity,
-            BeforeValidator(lambda v: _target(v)),
-            WithJsonSchema(
-                {
-                    "type": "string",
-                    "examples": ["1 MAC", "2 %"],
-                    "description": "end-tidal agent to hold: above 0 to 3 MAC, or a fraction above 0 to 20 %",
-                }
-            ),
-        ]
-        | None
-    ) = None
+    end_tidal_target: Target | None = None
     label: str = ""
 
     @model_validator(mode="after")
@@ -216,23 +236,6 @@ class PhaseInput(_Model):
             air = total * (1.0 - f) / (1.0 - _AIR_O2)
             return total - air, air, zero
         return total * f, zero, total * (1.0 - f)
-
-
-def _target(value: Any) -> pint.Quantity:
-    try:
-        q = parse_quantity(value, "", "mac")
-        if not 0.0 < q.magnitude <= 3.0:
-            raise ValueError("above 0 to 3 MAC, or a fraction such as '2 %'")
-        return q
-    except InputError:
-        pass
-    try:
-        q = parse_quantity(value, "", "fraction")
-    except InputError:
-        raise ValueError("a target such as '1 MAC' or '2 %'") from None
-    if not 0.0 < q.to("").magnitude <= 0.2:
-        raise ValueError("above 0 to 20 % (or a MAC multiple such as '1 MAC')")
-    return q
 
 
 class ScaleStep(_Model):

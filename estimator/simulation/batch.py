@@ -39,7 +39,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..accounts.accounting import DELTA_TOTAL_UNITS, fresh_gas_litres, litres_per_mmol, totals_from_deltas  # noqa: F401 (litres_per_mmol re-exported)
+from ..accounts.accounting import (  # noqa: F401 (litres_per_mmol re-exported)
+    DELTA_TOTAL_UNITS,
+    fresh_gas_litres,
+    litres_per_mmol,
+    totals_from_deltas,
+)
 from ..inputs.scenario import Scenario
 from ..numerics.rkc import NCORE, integrate_cases
 from ..physics import circuit as c
