@@ -1,0 +1,47 @@
+"""The package users install: the app is an extra, the wheel carries what the app reads (consistency)."""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+import tomllib
+import zipfile
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+PYPROJECT = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))
+
+
+def test_the_checkouts_dev_group_carries_the_app_extra_with_the_same_bounds():
+    app = set(PYPROJECT["project"]["optional-dependencies"]["app"])
+    assert app <= set(PYPROJECT["dependency-groups"]["dev"])
+    base = " ".join(PYPROJECT["project"]["dependencies"])
+    assert "streamlit" not in base and "altair" not in base  # the command line and API need none of it
+
+
+@pytest.fixture(scope="module")
+def wheel(tmp_path_factory) -> zipfile.ZipFile:
+    uv = shutil.which("uv")
+    if uv is None:
+        pytest.skip("uv builds the wheel")
+    out = tmp_path_factory.mktemp("dist")
+    subprocess.run([uv, "build", "--wheel", "-o", str(out), "-q"], cwd=ROOT, check=True, timeout=300)
+    return zipfile.ZipFile(next(out.glob("*.whl")))
+
+
+def test_wheel_carries_the_app_and_what_it_reads(wheel):
+    names = set(wheel.namelist())
+    assert {"estimator_app/run.py", "estimator_app/shell.py", "estimator/py.typed"} <= names
+    assert {"estimator_app/docs/VALIDATION.md", "estimator_app/.streamlit/config.toml"} <= names
+    demo = {p.name for p in (ROOT / "demo_cases").glob("*.toml")}
+    assert demo <= {Path(n).name for n in names if n.startswith("estimator_app/demo_cases/")}
+    assert "estimator/data/real_gas_table.npz" in names
+
+
+def test_streamlit_is_required_only_by_the_app_extra(wheel):
+    meta = next(n for n in wheel.namelist() if n.endswith(".dist-info/METADATA"))
+    lines = [ln for ln in wheel.read(meta).decode().splitlines() if ln.startswith("Requires-Dist")]
+    streamlit = [ln for ln in lines if "streamlit" in ln]
+    assert streamlit and all("extra == 'app'" in ln for ln in streamlit)
