@@ -22,7 +22,7 @@ app = typer.Typer(
     name="lowflow",
     help="Low-flow anaesthesia gas-consumption and cost estimator. " + CAUTION,
     no_args_is_help=True,
-    add_completion=False,
+    add_completion=True,
     pretty_exceptions_enable=False,
     rich_markup_mode=None,
 )
