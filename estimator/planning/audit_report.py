@@ -26,7 +26,7 @@ import numpy as np
 import pandas as pd
 
 from ..properties import CO2E_BASES
-from ..units import GAS_VOLUME_REFERENCE
+from ..units import GAS_VOLUME_REFERENCE, ureg
 from .flow_classes import FLOW_CLASS_SOURCE, FLOW_CLASSES, flow_class
 
 SUM_COLUMNS = (
@@ -45,14 +45,17 @@ SUM_COLUMNS = (
     "cost_total",
     "maintenance_time_min",
 )
-UNIT_OF_SUFFIX = (
-    ("_l_min", "liter / minute"),
-    ("_kg", "kilogram"),
-    ("_ml", "milliliter"),
-    ("_min", "minute"),
-    ("_l", "liter"),
+#: The unit a column's name ends in (the one table for JSON, exports and the app), longest first.
+SUFFIX_UNITS = (
+    ("_l_min", "L/min"),
+    ("_kg", "kg"),
+    ("_ml", "mL"),
+    ("_min", "min"),
+    ("_l", "L"),
     ("_year", "year"),
 )
+#: The same units in pint's long names, as the JSON documents write them ("liter / minute").
+UNIT_OF_SUFFIX = tuple((suffix, f"{ureg.Unit(unit):D}") for suffix, unit in SUFFIX_UNITS)
 
 
 @dataclasses.dataclass(frozen=True)

@@ -33,19 +33,12 @@ import pandas as pd
 
 from ..properties import CO2E_BASES
 from ..units import GAS_VOLUME_REFERENCE
+from .audit_report import SUFFIX_UNITS
 
 if TYPE_CHECKING:
     from .audit_report import AuditResult
 
 FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
-SUFFIX_UNITS = (
-    ("_l_min", "L/min"),
-    ("_kg", "kg CO2e"),
-    ("_ml", "mL"),
-    ("_min", "min"),
-    ("_l", "L"),
-    ("_year", "years"),
-)
 
 
 def neutralise(value: Any) -> Any:
@@ -79,11 +72,9 @@ def _header(column: str, basis_label: str, currency: str | None) -> str:
     for suffix, unit in SUFFIX_UNITS:
         if column.endswith(suffix):
             name = column[: -len(suffix)].replace("_", " ")
-            if unit == "kg CO2e" and name.startswith("co2e"):
-                return f"{name.replace('co2e', 'CO2e')} [{unit}, {basis_label}]"
-            if unit == "kg CO2e":
-                unit = "kg"
-            return f"{name} [{unit}]"
+            if unit == "kg" and name.startswith("co2e"):
+                return f"{name.replace('co2e', 'CO2e')} [kg CO2e, {basis_label}]"
+            return f"{name} [{'years' if unit == 'year' else unit}]"
     return column.replace("_", " ")
 
 
