@@ -66,6 +66,9 @@ def summary(result, band=None) -> str:
             f"  {'cost':<30}{cost['total']:10.2f} {cost['currency']} (agent {cost['agent']:.2f}, "
             f"gases {cost['gases']:.2f}, absorbent {cost['absorbent']:.2f})"
         )
+    from ..simulation.dial_schedule import dial_schedule, dial_text
+
+    lines += [f"  {line}" for line in dial_text(dial_schedule(result.series, result.phases))]
     for ph in result.phases:
         if ph.get("mode") == "end_tidal_hold":
             reached = ph.get("target_reached")

@@ -115,8 +115,9 @@ class CaseResult:
         return out
 
     def to_json(self) -> dict[str, Any]:
-        """The ``lowflow case --json`` contract (DESIGN.md)."""
+        """The ``lowflow case --json`` contract (README, "lowflow case")."""
         from ..jsonout import jsonable
+        from .dial_schedule import dial_schedule
 
         s = self.series
         units = {k: v for k, v in SERIES_UNITS.items()}
@@ -133,6 +134,7 @@ class CaseResult:
                 "cost": self.cost,
                 "warnings": [{"code": code, "message": msg} for code, msg in self.warnings],
                 "phases": self.phases,
+                "dial_schedule": dial_schedule(self.series, self.phases),
                 "series": series,
                 "gas_volume_reference": GAS_VOLUME_REFERENCE,
                 "flow_reference": self.flow_reference,

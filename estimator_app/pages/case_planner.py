@@ -9,6 +9,7 @@ import pandas as pd
 import streamlit as st
 
 from estimator.properties import AGENTS
+from estimator.simulation.dial_schedule import dial_schedule, dial_text
 from estimator.simulation.totals_table import totals_rows
 from estimator.units import GAS_VOLUME_REFERENCE
 
@@ -116,6 +117,21 @@ def totals_frame(result: Any) -> pd.DataFrame:
     return pd.DataFrame([{"quantity": r.label, "value": r.value, "unit": r.unit} for r in rows])
 
 
+def dial_frame(result: Any) -> pd.DataFrame | None:
+    """The dial of each end-tidal hold phase every 10 min (estimator.simulation.dial_schedule), or None."""
+    rows = [
+        {
+            "phase": d["index"],
+            "time [min]": r["time"],
+            "dial [%]": round(r["dial"], 2),
+            "end-tidal [%]": round(r["end_tidal"], 2),
+        }
+        for d in dial_schedule(result.series, result.phases)
+        for r in d["table"]
+    ]
+    return pd.DataFrame(rows) if rows else None
+
+
 def outputs(result: Any) -> None:
     t = result.totals
     fu = unit("flow")
@@ -202,6 +218,11 @@ def outputs(result: Any) -> None:
     totals = totals_frame(result)
     with st.expander("All totals"):
         st.dataframe(totals, hide_index=True, width="stretch")
+    dials = dial_frame(result)
+    if dials is not None:
+        st.subheader("Vaporizer dial of the end-tidal holds")
+        st.caption(" ".join(dial_text(dial_schedule(result.series, result.phases))))
+        st.dataframe(dials, hide_index=True, width="stretch")
 
     st.subheader("Download the results")
     downloads(
