@@ -24,6 +24,7 @@ def test_every_json_output_carries_the_caution_and_its_provenance(tmp_path):
         "audit": ["audit", str(demo / "kestrel_audit_log.csv")],
         "mac": ["mac", "--agent", "sevoflurane", "--age", "40"],
         "flowmeter": ["flowmeter", "--reading", "2 L/min", "--calibrated-for", "oxygen"],
+        "compare": ["compare", str(demo / "kestrel_lap_chole.toml"), str(demo / "kestrel_nitrous_dental.toml")],
     }
     for verb, argv in runs.items():
         out = CliRunner().invoke(app, [*argv, "--json"])

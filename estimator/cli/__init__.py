@@ -27,7 +27,18 @@ app = typer.Typer(
     rich_markup_mode=None,
 )
 
-_VERBS: tuple[str, ...] = ("mac", "case", "safe_flow", "flowmeter", "supply", "audit", "forecast", "schema", "app_verb")
+_VERBS: tuple[str, ...] = (
+    "mac",
+    "case",
+    "safe_flow",
+    "flowmeter",
+    "supply",
+    "audit",
+    "forecast",
+    "schema",
+    "compare",
+    "app_verb",
+)
 
 
 def _version(value: bool) -> None:
