@@ -127,11 +127,10 @@ _jit = numba.njit(cache=True, fastmath=False, nogil=True)
 
 
 @_jit
-def _flows_at(u, y, p, w):
-    """Fill ``w`` with the flows and fractions for a given delivered agent fraction ``u``."""
+def _lungs(y, p, w):
+    """Fill the flows that do not depend on the dial (uptake, expired ventilation, metabolism); net uptake."""
     ca = p[P_CA]
     q = p[P_Q]
-    # lung uptake
     for s in range(NS):
         w[W_UPT + s] = 0.0
     for b in range(NB):
@@ -145,47 +144,69 @@ def _flows_at(u, y, p, w):
     unet = 0.0
     for s in range(NS):
         unet += w[W_UPT + s]
-    va = p[P_VA]
-    vdalv = p[P_VDALV]
-    vd = vdalv + p[P_VDANAT]
-    vi = va + vd
-    va_out = va - unet
-    w[W_VAOUT] = va_out
-    # fresh gas
-    carrier = 0.0
-    for s in range(NS):
-        carrier += p[P_CARRIER + s]
+    w[W_VAOUT] = p[P_VA] - unet
+    w[W_METAB] = p[P_EH] * p[P_QH] * p[P_LAMBDA + 2] * ca * y[Y_BODY + NBODYSTATE * 2 + 2]
+    return unet
+
+
+@_jit
+def _fresh_gas(u, carrier, p):
+    """Fresh-gas flow, its part inhaled directly, that part's share of the inspired gas, and the inspired flow."""
+    vi = p[P_VA] + (p[P_VDALV] + p[P_VDANAT])
     fgf = carrier / (1.0 - u) if carrier > 0.0 else 0.0
     direct = min(fgf * p[P_FINSP], vi)
-    alpha = direct / vi
+    return fgf, direct, direct / vi, vi
+
+
+@_jit
+def _fresh_fraction(s, u, fgf, p):
+    """Fraction of species ``s`` in the fresh gas (the agent at ``u``)."""
+    return u if s == AGENT else (p[P_CARRIER + s] / fgf if fgf > 0.0 else 0.0)
+
+
+@_jit
+def _mixed(va_out, fa, v_dead, fi, total):
+    """Fraction of alveolar gas mixed with dead-space (inspired) gas: mixed-expired or end-tidal."""
+    return (va_out * fa + v_dead * fi) / total
+
+
+@_jit
+def _returned(needed, fe_co2, e_out):
+    """Circuit volume balance: absorber inflow, spill, make-up and exhaust for the gas the circuit needs back."""
+    absorber = needed / (1.0 - fe_co2)
+    if absorber < 0.0:
+        return 0.0, -needed, 0.0, e_out
+    if absorber > e_out:
+        return e_out, 0.0, needed - e_out * (1.0 - fe_co2), 0.0
+    return absorber, 0.0, 0.0, e_out - absorber
+
+
+@_jit
+def _target(fet_n2o, p):
+    """End-tidal agent fraction of the hold target (a MAC target counts the N2O's share)."""
+    if p[P_TARGET_MAC] > 0.0:
+        return max(0.0, (p[P_TARGET_MAC] - fet_n2o / p[P_MAC_N2O]) * p[P_MAC_AGENT])
+    return p[P_TARGET_FRAC]
+
+
+@_jit
+def _flows_at(u, y, p, w, carrier, unet):
+    """Fill ``w`` with the flows and fractions at a delivered agent fraction ``u`` (after :func:`_lungs`)."""
+    va_out = w[W_VAOUT]
+    vdalv = p[P_VDALV]
+    vd = vdalv + p[P_VDANAT]
+    fgf, direct, alpha, vi = _fresh_gas(u, carrier, p)
     w[W_U] = u
     w[W_FGF] = fgf
     w[W_DIRECT] = direct
-    for s in range(NS):
-        ffg = u if s == AGENT else (p[P_CARRIER + s] / fgf if fgf > 0.0 else 0.0)
-        w[W_FI + s] = alpha * ffg + (1.0 - alpha) * y[Y_FC + s]
     e_out = vi - unet
     for s in range(NS):
-        fi = w[W_FI + s]
-        fa = y[Y_FA + s]
-        w[W_FE + s] = (va_out * fa + vd * fi) / e_out
-        w[W_FET + s] = (va_out * fa + vdalv * fi) / (va_out + vdalv)
-    # circuit volume balance: what the circuit must receive back through the absorber
-    needed = vi + p[P_LEAK] + p[P_SAMPLE] - fgf
+        fi = alpha * _fresh_fraction(s, u, fgf, p) + (1.0 - alpha) * y[Y_FC + s]
+        w[W_FI + s] = fi
+        w[W_FE + s] = _mixed(va_out, y[Y_FA + s], vd, fi, e_out)
+        w[W_FET + s] = _mixed(va_out, y[Y_FA + s], vdalv, fi, va_out + vdalv)
     fe_co2 = w[W_FE + CO2]
-    absorber = needed / (1.0 - fe_co2)
-    spill = 0.0
-    makeup = 0.0
-    if absorber < 0.0:
-        absorber = 0.0
-        spill = -needed
-        ex = e_out
-    elif absorber > e_out:
-        absorber = e_out
-        ex = 0.0
-        makeup = needed - e_out * (1.0 - fe_co2)
-    else:
-        ex = e_out - absorber
+    absorber, spill, makeup, ex = _returned(vi + p[P_LEAK] + p[P_SAMPLE] - fgf, fe_co2, e_out)
     w[W_ABS] = absorber
     w[W_SPILL] = spill
     w[W_MAKEUP] = makeup
@@ -193,69 +214,155 @@ def _flows_at(u, y, p, w):
     w[W_CO2ABS] = absorber * fe_co2
     w[W_OUTC] = vi - direct + p[P_LEAK] + p[P_SAMPLE] + spill
     mac_a = p[P_MAC_AGENT]
-    mac_n = p[P_MAC_N2O]
-    w[W_MAC] = (w[W_FET + AGENT] / mac_a if mac_a > 0.0 else 0.0) + w[W_FET + N2O] / mac_n
-    if p[P_TARGET_MAC] > 0.0:
-        w[W_TARGET] = max(0.0, (p[P_TARGET_MAC] - w[W_FET + N2O] / mac_n) * mac_a)
-    else:
-        w[W_TARGET] = p[P_TARGET_FRAC]
-    w[W_METAB] = p[P_EH] * p[P_QH] * p[P_LAMBDA + 2] * ca * y[Y_BODY + NBODYSTATE * 2 + 2]
+    w[W_MAC] = (w[W_FET + AGENT] / mac_a if mac_a > 0.0 else 0.0) + w[W_FET + N2O] / p[P_MAC_N2O]
+    w[W_TARGET] = _target(w[W_FET + N2O], p)
+
+
+#: Convergence of the hold dial: a secant step |du| <= HOLD_ATOL + HOLD_RTOL u ends the solve, after at
+#: most HOLD_MAXIT steps (numerical choices, no source; the residual is then far below the step).
+HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-10, 1e-13, 16
 
 
 @_jit
-def _hold_dial(y, p, w):
-    """Delivered agent fraction that steers the end-tidal agent to the hold target.
+def _hold_dial(y, p, w, carrier, unet):
+    """Delivered agent fraction that steers the end-tidal agent to the hold target (after :func:`_lungs`).
 
-    A model-based tracking law: the lung balance gives the inspired fraction that moves the
-    alveolar fraction toward the target with time constant ``tau_L``; the circuit balance gives the
-    fresh-gas agent fraction that moves the inspired fraction there with time constant ``tau_C``.
-    Solved by fixed-point iteration on the fresh-gas flow (the agent adds to it), then capped at
-    zero and the vaporizer maximum.
+    A model-based tracking law: the lung balance gives the inspired fraction ``fi_star`` that moves
+    the alveolar fraction toward the target with time constant ``tau_L``; the circuit balance gives
+    the fresh-gas agent fraction ``law(u)`` that moves the inspired fraction there with time constant
+    ``tau_C``. The flows depend on ``u`` itself (the agent adds to the fresh-gas flow), so the dial is
+    the root of ``min(max(law(u), 0), umax) - u`` on [0, umax] (>= 0 at 0, <= 0 at umax): secant steps
+    from the fixed-point step at 0, kept inside the bracket by bisection; the best point is
+    returned if the step cap is reached. Per trial only the flows the law reads are recomputed.
     """
     umax = p[P_UMAX]
-    u = 0.0
-    for _ in range(4):
-        _flows_at(u, y, p, w)
-        target = w[W_TARGET]
-        va_out = w[W_VAOUT]
-        vdalv = p[P_VDALV]
-        fa = y[Y_FA + AGENT]
-        fi = w[W_FI + AGENT]
-        fa_star = ((va_out + vdalv) * target - vdalv * fi) / va_out
-        fi_star = (p[P_NL] * (fa_star - fa) / p[P_TAU_L] + va_out * fa + w[W_UPT + AGENT]) / p[P_VA]
-        vi = p[P_VA] + p[P_VDALV] + p[P_VDANAT]
-        alpha = w[W_DIRECT] / vi
+    va, vdalv, va_out, fc = p[P_VA], p[P_VDALV], w[W_VAOUT], y[Y_FC + AGENT]
+    vd = vdalv + p[P_VDANAT]
+    vi_ = va + vd
+    e_out = vi_ - unet
+    leaks = p[P_LEAK] + p[P_SAMPLE]
+    nc_t = p[P_NC] / p[P_TAU_C]
+    # lung balance: fi_star = c0 + c1 target - c2 fi (end-tidal at the target after tau_L)
+    k = p[P_NL] / p[P_TAU_L] / va
+    c0 = (va_out * y[Y_FA + AGENT] + w[W_UPT + AGENT]) / va - k * y[Y_FA + AGENT]
+    c1 = k * (va_out + vdalv) / va_out
+    c2 = k * vdalv / va_out
+
+    def residual(u):
+        fgf, direct, alpha, vi = _fresh_gas(u, carrier, p)
+        keep = 1.0 - alpha
+        fi = alpha * u + keep * fc
+        fi_co2 = alpha * _fresh_fraction(CO2, u, fgf, p) + keep * y[Y_FC + CO2]
+        fe_co2 = _mixed(va_out, y[Y_FA + CO2], vd, fi_co2, e_out)
+        absorber, spill, makeup, _ = _returned(vi + leaks - fgf, fe_co2, e_out)
+        fet_n2o = 0.0
+        if p[P_TARGET_MAC] > 0.0:
+            fi_n2o = alpha * _fresh_fraction(N2O, u, fgf, p) + keep * y[Y_FC + N2O]
+            fet_n2o = _mixed(va_out, y[Y_FA + N2O], vdalv, fi_n2o, va_out + vdalv)
+        fi_star = c0 + c1 * _target(fet_n2o, p) - c2 * fi
         if alpha > 0.999:
-            unew = fi_star
+            law = fi_star
         else:
-            fc = y[Y_FC + AGENT]
-            rest = w[W_ABS] * w[W_FE + AGENT] - w[W_OUTC] * fc
-            nc_t = p[P_NC] / p[P_TAU_C]
-            gain = (w[W_FGF] - w[W_DIRECT]) + w[W_MAKEUP] * (1.0 - p[P_MAKEUP_AIR]) + nc_t * alpha / (1.0 - alpha)
-            demand = nc_t * (fi_star / (1.0 - alpha) - fc) - rest
-            if gain > 1e-12:
-                unew = demand / gain
-            else:
-                # no fresh gas reaches the circuit, so the dial cannot act: it saturates in the
-                # direction the target asks for (and the unreached target is reported)
-                unew = umax if demand > 0.0 else 0.0
-        u = min(max(unew, 0.0), umax)
-    return u
+            rest = absorber * _mixed(va_out, y[Y_FA + AGENT], vd, fi, e_out) - (vi - direct + leaks + spill) * fc
+            gain = (fgf - direct) + makeup * (1.0 - p[P_MAKEUP_AIR]) + nc_t * alpha / keep
+            demand = nc_t * (fi_star / keep - fc) - rest
+            # no fresh gas reaches the circuit, so the dial cannot act: it saturates in the direction
+            # the target asks for (and the unreached target is reported)
+            law = demand / gain if gain > 1e-12 else (umax if demand > 0.0 else 0.0)
+        return min(max(law, 0.0), umax) - u
+
+    # fast path: Newton in x = u / (1 - u), in which the fresh-gas flow, the direct share and every
+    # inspired, expired and end-tidal fraction are linear (the agent adds to the carrier flow)
+    kf = p[P_FINSP]
+    a = kf * carrier / vi_
+    fcc, fa = y[Y_FC + CO2], y[Y_FA + AGENT]
+    e0 = (va_out * y[Y_FA + CO2] + vd * (a * p[P_CARRIER + CO2] / carrier + fcc)) / e_out
+    e1 = -vd * a * fcc / e_out
+    a0 = (va_out * fa + vd * (fc - a)) / e_out
+    a1 = vd * a * (1.0 - fc) / e_out
+    t0, t1 = p[P_TARGET_FRAC], 0.0
+    if p[P_TARGET_MAC] > 0.0:
+        fcn, vet = y[Y_FC + N2O], va_out + vdalv
+        m0 = (va_out * y[Y_FA + N2O] + vdalv * (a * p[P_CARRIER + N2O] / carrier + fcn)) / vet
+        t0 = (p[P_TARGET_MAC] - m0 / p[P_MAC_N2O]) * p[P_MAC_AGENT]
+        t1 = vdalv * a * fcn / vet / p[P_MAC_N2O] * p[P_MAC_AGENT]
+    s0 = c0 + c1 * t0 - c2 * (fc - a)
+    s1 = c1 * t1 - c2 * a * (1.0 - fc)
+    air_gain, n_back, cf = 1.0 - p[P_MAKEUP_AIR], vi_ + leaks, (1.0 - kf) * carrier
+    x, ok = 0.0, False
+    for _ in range(HOLD_MAXIT):
+        v = 1.0 + x
+        u = x / v
+        keep = 1.0 - a * v
+        needed = n_back - carrier * v
+        dco2 = 1.0 - e0 - e1 * v
+        absorber = needed / dco2
+        d_abs = (absorber * e1 - carrier) / dco2
+        spill = d_spill = makeup = d_makeup = 0.0
+        if absorber < 0.0:
+            absorber = d_abs = 0.0
+            spill, d_spill = -needed, carrier
+        elif absorber > e_out:
+            absorber, d_abs = e_out, 0.0
+            makeup, d_makeup = needed - e_out * dco2, e_out * e1 - carrier
+        fe = a0 + a1 * v
+        rest = absorber * fe - (n_back - kf * carrier * v + spill) * fc
+        d_rest = d_abs * fe + absorber * a1 - (d_spill - kf * carrier) * fc
+        gk = (cf * v + air_gain * makeup) * keep + nc_t * a * v  # gain x keep
+        d_gk = cf * (keep - a * v) + air_gain * (d_makeup * keep - a * makeup) + nc_t * a
+        dk = nc_t * (s0 + s1 * v - fc * keep) - rest * keep  # demand x keep
+        d_dk = nc_t * (s1 + fc * a) - d_rest * keep + a * rest
+        step = (u * gk - dk) / (gk / (v * v) + u * d_gk - d_dk)
+        x -= step
+        if abs(step) <= (HOLD_ATOL + HOLD_RTOL * u) * v * v:
+            ok = keep > 0.001 and gk > 1e-12 * keep and (t0 + t1 * v >= 0.0 or p[P_TARGET_MAC] <= 0.0)
+            break
+    u = x / (1.0 + x)
+    if ok and 0.0 < u < umax:
+        return u
+    u0, r0 = 0.0, residual(0.0)
+    if r0 <= 0.0:
+        return 0.0
+    u1 = r0  # the fixed-point step from 0
+    r1 = residual(u1)
+    lo, hi, hi_tried = 0.0, umax, u1 >= umax
+    best, best_r = u1, abs(r1)
+    for _ in range(HOLD_MAXIT):
+        if r1 == 0.0:
+            return u1
+        if r1 > 0.0:
+            lo = u1
+        else:
+            hi, hi_tried = u1, True
+        un = u1 - r1 * (u1 - u0) / (r1 - r0) if r1 != r0 else hi
+        if un >= hi and not hi_tried:
+            un, hi_tried = hi, True  # the root may sit at the cap
+        elif not lo < un < hi:
+            un = 0.5 * (lo + hi)
+        elif abs(un - u1) <= HOLD_ATOL + HOLD_RTOL * un:
+            return un
+        u0, r0 = u1, r1
+        u1 = un
+        r1 = residual(u1)
+        if abs(r1) < best_r:
+            best, best_r = u1, abs(r1)
+    return best
 
 
 @_jit
 def flows(y, p, w):
     """Derived flows and fractions of a state (fills ``w``; see the ``W_*`` layout)."""
+    unet = _lungs(y, p, w)
     carrier = 0.0
     for s in range(NS):
         carrier += p[P_CARRIER + s]
     if carrier <= 0.0:
         u = 0.0  # a vaporizer with no carrier gas through it delivers nothing
     elif p[P_MODE] == MODE_HOLD:
-        u = _hold_dial(y, p, w)
+        u = _hold_dial(y, p, w, carrier, unet)
     else:
         u = p[P_UFIXED]
-    _flows_at(u, y, p, w)
+    _flows_at(u, y, p, w, carrier, unet)
 
 
 @_jit
@@ -279,7 +386,7 @@ def rhs(y, p, w, dy):
     # gas flows at all (the circuit then draws room air through its negative-pressure relief)
     room_air = p[P_MAKEUP_AIR] > 0.0 or fgf <= 0.0
     for s in range(NS):
-        ffg = u if s == AGENT else (p[P_CARRIER + s] / fgf if fgf > 0.0 else 0.0)
+        ffg = _fresh_fraction(s, u, fgf, p)
         fmk = p[P_AIR + s] if room_air else ffg
         fc = y[Y_FC + s]
         fe = w[W_FE + s]
