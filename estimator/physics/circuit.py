@@ -1,44 +1,41 @@
 """The circle-system compartment model: state and parameter layout, and the right-hand side (physics only).
 
 This module is the hot loop's physics; the integrators are :mod:`estimator.numerics.dopri5` (one case) and
-:mod:`estimator.numerics.rkc` (the batch). It has no package imports, so it can be loaded on its own with
-the compiler switched off (the plain-Python speed reference of the benchmarks). It works in plain
-floats in fixed internal units: amounts in mmol, time in min, flows in mmol/min, blood and tissue
-volumes in L, and every gas, blood or tissue concentration as an *equivalent dry alveolar
-fraction* F (partial pressure divided by the dry alveolar pressure, Pb - PH2O). The parameter
-vectors come from :mod:`estimator.simulation.case_setup` (once per phase), the results are read back by
-:mod:`estimator.simulation.assemble`.
+:mod:`estimator.numerics.rkc` (the batch). It has no package imports, so it can be loaded on its own with the
+compiler switched off (the plain-Python speed reference of the benchmarks). It works in plain floats in fixed
+internal units: amounts in mmol, time in min, flows in mmol/min, blood and tissue volumes in L, and every gas, blood
+or tissue concentration as an *equivalent dry alveolar fraction* F (partial pressure divided by the dry alveolar
+pressure, Pb - PH2O). The parameter vectors come from :mod:`estimator.simulation.case_setup` (once per phase), the
+results are read back by :mod:`estimator.simulation.assemble`.
 
 Model
 -----
-Six species (O2, CO2, N2, N2O, the volatile agent, argon) in two gas compartments of constant size,
-and, for the four inert or anaesthetic species, six blood and tissue compartments:
+Six species (O2, CO2, N2, N2O, the volatile agent, argon) in two gas compartments of constant size, and, for the
+four inert or anaesthetic species, six blood and tissue compartments:
 
-* circle circuit (well mixed, ``n_c`` mmol): fresh gas not drawn straight into the inspiratory limb,
-  expired gas that passed the absorber (all CO2 removed), deficit make-up gas; leaves as the part of
-  the inspired gas not supplied directly by fresh gas, as leak and as unreturned sample gas;
-* lungs (FRC, ``n_L`` mmol dry gas): inspired alveolar ventilation in, expired alveolar ventilation
-  out (inspired minus net uptake: the concentration and second-gas effects follow), blood uptake;
-* arterial and mixed-venous blood, and the vessel-rich, muscle, fat and vessel-poor groups,
-  perfusion-limited (Eger 1974; Mapleson 1963), with hepatic metabolism of the agent from the
-  venous outflow of the vessel-rich group; fat in two compartments of high and low blood flow
-  per kg (Levitt 2007), and fat next to the vessel-rich organs and to muscle that takes up agent
-  by intertissue diffusion from them (Perl, Lesser and Steele 1960; Eger and Saidman 2005);
+* circle circuit (well mixed, ``n_c`` mmol): fresh gas not drawn straight into the inspiratory limb, expired gas
+  that passed the absorber (all CO2 removed), deficit make-up gas; leaves as the part of the inspired gas not
+  supplied directly by fresh gas, as leak and as unreturned sample gas;
+* lungs (FRC, ``n_L`` mmol dry gas): inspired alveolar ventilation in, expired alveolar ventilation out (inspired
+  minus net uptake: the concentration and second-gas effects follow), blood uptake;
+* arterial and mixed-venous blood, and the vessel-rich, muscle, fat and vessel-poor groups, perfusion-limited (Eger
+  1974; Mapleson 1963), with hepatic metabolism of the agent from the venous outflow of the vessel-rich group; fat
+  in two compartments of high and low blood flow per kg (Levitt 2007), and fat next to the vessel-rich organs and to
+  muscle that takes up agent by intertissue diffusion from them (Perl, Lesser and Steele 1960; Eger and Saidman
+  2005);
 * O2 is consumed and CO2 produced at the patient's metabolic rates (Brody scaling).
 
-Circle layout: the exhaust (APL or spill) valve vents mixed expired gas *before* the absorber, so at
-high fresh-gas flow much exhaled CO2 leaves unabsorbed. Fresh gas enters the inspiratory limb: the
-share of it that flows during inspiration (``f_insp``) is inhaled directly, the rest fills the
-circuit. Where the circuit would need more gas than the expired limb returns (fresh gas below net
-uptake plus leak plus unreturned sample flow) the bag empties: the shortfall is recorded as a
-volume deficit and made good by make-up gas (fresh-gas composition, or room air for ventilators
-with an air-entrainment valve and whenever no fresh gas flows at all), which the totals count
-separately; the make-up gas enters the balance of every species, so the fractions sum to 1. A
-vaporizer with no carrier gas delivers nothing.
+Circle layout: the exhaust (APL or spill) valve vents mixed expired gas *before* the absorber, so at high fresh-gas
+flow much exhaled CO2 leaves unabsorbed. Fresh gas enters the inspiratory limb: the share of it that flows during
+inspiration (``f_insp``) is inhaled directly, the rest fills the circuit. Where the circuit would need more gas than
+the expired limb returns (fresh gas below net uptake plus leak plus unreturned sample flow) the bag empties: the
+shortfall is recorded as a volume deficit and made good by make-up gas (fresh-gas composition, or room air for
+ventilators with an air-entrainment valve and whenever no fresh gas flows at all), which the totals count
+separately; the make-up gas enters the balance of every species, so the fractions sum to 1. A vaporizer with no
+carrier gas delivers nothing.
 
-Every species enters and leaves through explicit flows (running totals in the state), so an
-integrator that keeps linear invariants (any Runge-Kutta method) closes the species mass balances to
-rounding error.
+Every species enters and leaves through explicit flows (running totals in the state), so an integrator that keeps
+linear invariants (any Runge-Kutta method) closes the species mass balances to rounding error.
 
 References
 ----------
@@ -66,15 +63,14 @@ SPECIES = ("oxygen", "carbon_dioxide", "nitrogen", "nitrous_oxide", "agent", "ar
 #: Species carried in blood and tissues, in body-state order.
 BODY = (N2, N2O, AGENT, AR)
 NB = 4
-#: Tissue compartments (names and order: estimator.physics.physiology.COMPARTMENTS): vessel-rich, muscle,
-#: well- and poorly perfused fat, vessel-poor (unperfused), and the fat next to the vessel-rich
-#: organs and next to muscle, which takes up agent only by intertissue diffusion from that tissue.
+#: Tissue compartments (names and order: estimator.physics.physiology.COMPARTMENTS): vessel-rich, muscle, well- and
+#: poorly perfused fat, vessel-poor (unperfused), and the fat next to the vessel-rich organs and next to muscle, which
+#: takes up agent only by intertissue diffusion from that tissue.
 NT = 7
-#: Intertissue diffusion pairs (tissue indices): fat next to the vessel-rich organs (5) from the
-#: vessel-rich group (0), intermuscular fat (6) from muscle (1). ``P_DIFF`` of the receiving fat
-#: holds the clearance; ``P_DONOR`` records the donor for reports and checks.
-DIFFUSION_TO = (5, 6)
-DIFFUSION_FROM = (0, 1)
+#: Intertissue diffusion pairs (tissue indices): fat next to the vessel-rich organs (5) from the vessel-rich group
+#: (0), intermuscular fat (6) from muscle (1). ``P_DIFF`` of the receiving fat holds the clearance; ``P_DONOR``
+#: records the donor for reports and checks.
+DIFFUSION_TO, DIFFUSION_FROM = (5, 6), (0, 1)
 
 # --- state layout --------------------------------------------------------------------------------
 Y_FC = 0  # circuit fractions [6]
@@ -119,8 +115,8 @@ W_ABS, W_SPILL, W_OUTC, W_METAB, W_VAOUT = 32, 33, 34, 35, 36
 NW = 37
 
 MODE_DIAL, MODE_HOLD = 0.0, 1.0
-#: O2 fraction scale of the hypoxic limiter of O2 uptake (keeps amounts non-negative when a
-#: circuit runs out of O2; at any FA,O2 above 0.05 the limiter is exactly 1 to 1e-4).
+#: O2 fraction scale of the hypoxic limiter of O2 uptake (keeps amounts non-negative when a circuit runs out of O2;
+#: at any FA,O2 above 0.05 the limiter is exactly 1 to 1e-4).
 O2_LIMIT_SCALE = 0.005
 
 _jit = numba.njit(cache=True, fastmath=False, nogil=True)
@@ -129,8 +125,7 @@ _jit = numba.njit(cache=True, fastmath=False, nogil=True)
 @_jit
 def _lungs(y, p, w):
     """Fill the flows that do not depend on the dial (uptake, expired ventilation, metabolism); net uptake."""
-    ca = p[P_CA]
-    q = p[P_Q]
+    ca, q = p[P_CA], p[P_Q]
     for s in range(NS):
         w[W_UPT + s] = 0.0
     for b in range(NB):
@@ -139,8 +134,7 @@ def _lungs(y, p, w):
         w[W_UPT + s] = q * p[P_LAMBDA + b] * ca * (y[Y_FA + s] - pv)
     fo2 = y[Y_FA + O2]
     lim = 1.0 - math.exp(-fo2 / O2_LIMIT_SCALE) if fo2 > 0.0 else 0.0
-    w[W_UPT + O2] = p[P_VO2] * lim
-    w[W_UPT + CO2] = -p[P_VCO2]
+    w[W_UPT + O2], w[W_UPT + CO2] = p[P_VO2] * lim, -p[P_VCO2]
     unet = 0.0
     for s in range(NS):
         unet += w[W_UPT + s]
@@ -192,13 +186,10 @@ def _target(fet_n2o, p):
 @_jit
 def _flows_at(u, y, p, w, carrier, unet):
     """Fill ``w`` with the flows and fractions at a delivered agent fraction ``u`` (after :func:`_lungs`)."""
-    va_out = w[W_VAOUT]
-    vdalv = p[P_VDALV]
+    va_out, vdalv = w[W_VAOUT], p[P_VDALV]
     vd = vdalv + p[P_VDANAT]
     fgf, direct, alpha, vi = _fresh_gas(u, carrier, p)
-    w[W_U] = u
-    w[W_FGF] = fgf
-    w[W_DIRECT] = direct
+    w[W_U], w[W_FGF], w[W_DIRECT] = u, fgf, direct
     e_out = vi - unet
     for s in range(NS):
         fi = alpha * _fresh_fraction(s, u, fgf, p) + (1.0 - alpha) * y[Y_FC + s]
@@ -207,46 +198,70 @@ def _flows_at(u, y, p, w, carrier, unet):
         w[W_FET + s] = _mixed(va_out, y[Y_FA + s], vdalv, fi, va_out + vdalv)
     fe_co2 = w[W_FE + CO2]
     absorber, spill, makeup, ex = _returned(vi + p[P_LEAK] + p[P_SAMPLE] - fgf, fe_co2, e_out)
-    w[W_ABS] = absorber
-    w[W_SPILL] = spill
-    w[W_MAKEUP] = makeup
-    w[W_EX] = ex + spill
-    w[W_CO2ABS] = absorber * fe_co2
+    w[W_ABS], w[W_SPILL], w[W_MAKEUP], w[W_EX], w[W_CO2ABS] = absorber, spill, makeup, ex + spill, absorber * fe_co2
     w[W_OUTC] = vi - direct + p[P_LEAK] + p[P_SAMPLE] + spill
     mac_a = p[P_MAC_AGENT]
     w[W_MAC] = (w[W_FET + AGENT] / mac_a if mac_a > 0.0 else 0.0) + w[W_FET + N2O] / p[P_MAC_N2O]
     w[W_TARGET] = _target(w[W_FET + N2O], p)
 
 
-#: Convergence of the hold dial: a secant step |du| <= HOLD_ATOL + HOLD_RTOL u ends the solve, after at
-#: most HOLD_MAXIT steps (numerical choices, no source; the residual is then far below the step).
-HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-10, 1e-13, 16
+#: Convergence of the hold dial: a Newton step |du|, or else the residual, <= HOLD_ATOL + HOLD_RTOL u, within
+#: HOLD_MAXIT trials (numerical choices, no source; Newton converges quadratically, so the result is exact).
+HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-12, 1e-16, 60
 
 
 @_jit
 def _hold_dial(y, p, w, carrier, unet):
     """Delivered agent fraction that steers the end-tidal agent to the hold target (after :func:`_lungs`).
 
-    A model-based tracking law: the lung balance gives the inspired fraction ``fi_star`` that moves
-    the alveolar fraction toward the target with time constant ``tau_L``; the circuit balance gives
-    the fresh-gas agent fraction ``law(u)`` that moves the inspired fraction there with time constant
-    ``tau_C``. The flows depend on ``u`` itself (the agent adds to the fresh-gas flow), so the dial is
-    the root of ``min(max(law(u), 0), umax) - u`` on [0, umax] (>= 0 at 0, <= 0 at umax): secant steps
-    from the fixed-point step at 0, kept inside the bracket by bisection; the best point is
-    returned if the step cap is reached. Per trial only the flows the law reads are recomputed.
+    A model-based tracking law: the lung balance gives the inspired fraction ``fi_star`` that moves the alveolar
+    fraction toward the target with time constant ``tau_L``; the circuit balance gives the fresh-gas agent fraction
+    ``law(u)`` that moves the inspired fraction there with time constant ``tau_C``. The flows depend on ``u`` itself
+    (the agent adds to the fresh-gas flow), so the dial is the root of ``min(max(law(u), 0), umax) - u`` on [0, umax]
+    (>= 0 at 0, <= 0 at umax). Solved by Newton steps in ``x = u / (1 - u)``, in which the fresh-gas flow and every
+    inspired, expired and end-tidal fraction are linear; where that root is not inside (0, umax), or another branch
+    of the law holds there, by the Illinois method on the bracket [0, umax].
     """
-    umax = p[P_UMAX]
-    va, vdalv, va_out, fc = p[P_VA], p[P_VDALV], w[W_VAOUT], y[Y_FC + AGENT]
-    vd = vdalv + p[P_VDANAT]
-    vi_ = va + vd
-    e_out = vi_ - unet
-    leaks = p[P_LEAK] + p[P_SAMPLE]
-    nc_t = p[P_NC] / p[P_TAU_C]
-    # lung balance: fi_star = c0 + c1 target - c2 fi (end-tidal at the target after tau_L)
-    k = p[P_NL] / p[P_TAU_L] / va
-    c0 = (va_out * y[Y_FA + AGENT] + w[W_UPT + AGENT]) / va - k * y[Y_FA + AGENT]
-    c1 = k * (va_out + vdalv) / va_out
-    c2 = k * vdalv / va_out
+    umax, va, vdalv, va_out, fc, fa = p[P_UMAX], p[P_VA], p[P_VDALV], w[W_VAOUT], y[Y_FC + AGENT], y[Y_FA + AGENT]
+    vd, nc_t, k = vdalv + p[P_VDANAT], p[P_NC] / p[P_TAU_C], p[P_NL] / p[P_TAU_L] / va
+    e_out, leaks, kf = va + vd - unet, p[P_LEAK] + p[P_SAMPLE], p[P_FINSP]
+    # lung balance: fi_star = c0 + c1 target - c2 fi (the end-tidal reaches the target after tau_L)
+    c0, c1, c2 = (va_out * fa + w[W_UPT + AGENT]) / va - k * fa, k * (va_out + vdalv) / va_out, k * vdalv / va_out
+    # linear in v = 1 + x: fresh-gas flow carrier v, direct share a v, fe_co2, fe_agent, target, fi_star
+    a = kf * carrier / (va + vd)
+    e0 = (va_out * y[Y_FA + CO2] + vd * (a * p[P_CARRIER + CO2] / carrier + y[Y_FC + CO2])) / e_out
+    e1, a0, a1 = -vd * a * y[Y_FC + CO2] / e_out, (va_out * fa + vd * (fc - a)) / e_out, vd * a * (1.0 - fc) / e_out
+    t0, t1 = p[P_TARGET_FRAC], 0.0
+    if p[P_TARGET_MAC] > 0.0:
+        fcn, vet, mac = y[Y_FC + N2O], va_out + vdalv, p[P_MAC_AGENT] / p[P_MAC_N2O]
+        fet0 = (va_out * y[Y_FA + N2O] + vdalv * (a * p[P_CARRIER + N2O] / carrier + fcn)) / vet
+        t0, t1 = p[P_TARGET_MAC] * p[P_MAC_AGENT] - mac * fet0, mac * vdalv * a * fcn / vet
+    s0, s1 = c0 + c1 * t0 - c2 * (fc - a), c1 * t1 - c2 * a * (1.0 - fc)
+    air_gain, n_back, cf = 1.0 - p[P_MAKEUP_AIR], va + vd + leaks, (1.0 - kf) * carrier
+    x = 0.0
+    for _ in range(HOLD_MAXIT):
+        v = 1.0 + x
+        u, keep, needed, dco2 = x / v, 1.0 - a * v, n_back - carrier * v, 1.0 - e0 - e1 * v
+        absorber, spill, makeup = needed / dco2, 0.0, 0.0
+        d_abs, d_spill, d_makeup = (absorber * e1 - carrier) / dco2, 0.0, 0.0  # d/dv
+        if absorber < 0.0:
+            absorber, d_abs, spill, d_spill = 0.0, 0.0, -needed, carrier
+        elif absorber > e_out:
+            absorber, d_abs, makeup, d_makeup = e_out, 0.0, needed - e_out * dco2, e_out * e1 - carrier
+        fe = a0 + a1 * v
+        rest = absorber * fe - (n_back - kf * carrier * v + spill) * fc
+        d_rest = d_abs * fe + absorber * a1 - (d_spill - kf * carrier) * fc
+        gk = (cf * v + air_gain * makeup) * keep + nc_t * a * v  # gain x keep
+        d_gk = cf * (keep - a * v) + air_gain * (d_makeup * keep - a * makeup) + nc_t * a
+        dk = nc_t * (s0 + s1 * v - fc * keep) - rest * keep  # demand x keep
+        step = (u * gk - dk) / (gk / (v * v) + u * d_gk - nc_t * (s1 + fc * a) + d_rest * keep - a * rest)
+        x -= step
+        if not abs(step) > (HOLD_ATOL + HOLD_RTOL * u) * v * v:  # converged (or not a number)
+            u = x / (1.0 + x)
+            in_branch = a * v <= 0.999 and gk > 1e-12 * keep and (p[P_TARGET_MAC] <= 0.0 or t0 + t1 * v >= 0.0)
+            if in_branch and 0.0 < u < umax:
+                return u
+            break
 
     def residual(u):
         fgf, direct, alpha, vi = _fresh_gas(u, carrier, p)
@@ -255,98 +270,31 @@ def _hold_dial(y, p, w, carrier, unet):
         fi_co2 = alpha * _fresh_fraction(CO2, u, fgf, p) + keep * y[Y_FC + CO2]
         fe_co2 = _mixed(va_out, y[Y_FA + CO2], vd, fi_co2, e_out)
         absorber, spill, makeup, _ = _returned(vi + leaks - fgf, fe_co2, e_out)
-        fet_n2o = 0.0
-        if p[P_TARGET_MAC] > 0.0:
-            fi_n2o = alpha * _fresh_fraction(N2O, u, fgf, p) + keep * y[Y_FC + N2O]
-            fet_n2o = _mixed(va_out, y[Y_FA + N2O], vdalv, fi_n2o, va_out + vdalv)
-        fi_star = c0 + c1 * _target(fet_n2o, p) - c2 * fi
-        if alpha > 0.999:
-            law = fi_star
-        else:
-            rest = absorber * _mixed(va_out, y[Y_FA + AGENT], vd, fi, e_out) - (vi - direct + leaks + spill) * fc
-            gain = (fgf - direct) + makeup * (1.0 - p[P_MAKEUP_AIR]) + nc_t * alpha / keep
+        fi_n2o = alpha * _fresh_fraction(N2O, u, fgf, p) + keep * y[Y_FC + N2O]
+        fi_star = c0 + c1 * _target(_mixed(va_out, y[Y_FA + N2O], vdalv, fi_n2o, va_out + vdalv), p) - c2 * fi
+        law = fi_star
+        if alpha <= 0.999:
+            rest = absorber * _mixed(va_out, fa, vd, fi, e_out) - (vi - direct + leaks + spill) * fc
+            gain = (fgf - direct) + makeup * air_gain + nc_t * alpha / keep
             demand = nc_t * (fi_star / keep - fc) - rest
             # no fresh gas reaches the circuit, so the dial cannot act: it saturates in the direction
             # the target asks for (and the unreached target is reported)
             law = demand / gain if gain > 1e-12 else (umax if demand > 0.0 else 0.0)
         return min(max(law, 0.0), umax) - u
 
-    # fast path: Newton in x = u / (1 - u), in which the fresh-gas flow, the direct share and every
-    # inspired, expired and end-tidal fraction are linear (the agent adds to the carrier flow)
-    kf = p[P_FINSP]
-    a = kf * carrier / vi_
-    fcc, fa = y[Y_FC + CO2], y[Y_FA + AGENT]
-    e0 = (va_out * y[Y_FA + CO2] + vd * (a * p[P_CARRIER + CO2] / carrier + fcc)) / e_out
-    e1 = -vd * a * fcc / e_out
-    a0 = (va_out * fa + vd * (fc - a)) / e_out
-    a1 = vd * a * (1.0 - fc) / e_out
-    t0, t1 = p[P_TARGET_FRAC], 0.0
-    if p[P_TARGET_MAC] > 0.0:
-        fcn, vet = y[Y_FC + N2O], va_out + vdalv
-        m0 = (va_out * y[Y_FA + N2O] + vdalv * (a * p[P_CARRIER + N2O] / carrier + fcn)) / vet
-        t0 = (p[P_TARGET_MAC] - m0 / p[P_MAC_N2O]) * p[P_MAC_AGENT]
-        t1 = vdalv * a * fcn / vet / p[P_MAC_N2O] * p[P_MAC_AGENT]
-    s0 = c0 + c1 * t0 - c2 * (fc - a)
-    s1 = c1 * t1 - c2 * a * (1.0 - fc)
-    air_gain, n_back, cf = 1.0 - p[P_MAKEUP_AIR], vi_ + leaks, (1.0 - kf) * carrier
-    x, ok = 0.0, False
+    lo, hi, r_lo, r_hi, side = 0.0, umax, residual(0.0), residual(umax), 0
+    if r_lo <= 0.0 or r_hi >= 0.0:
+        return 0.0 if r_lo <= 0.0 else umax
     for _ in range(HOLD_MAXIT):
-        v = 1.0 + x
-        u = x / v
-        keep = 1.0 - a * v
-        needed = n_back - carrier * v
-        dco2 = 1.0 - e0 - e1 * v
-        absorber = needed / dco2
-        d_abs = (absorber * e1 - carrier) / dco2
-        spill = d_spill = makeup = d_makeup = 0.0
-        if absorber < 0.0:
-            absorber = d_abs = 0.0
-            spill, d_spill = -needed, carrier
-        elif absorber > e_out:
-            absorber, d_abs = e_out, 0.0
-            makeup, d_makeup = needed - e_out * dco2, e_out * e1 - carrier
-        fe = a0 + a1 * v
-        rest = absorber * fe - (n_back - kf * carrier * v + spill) * fc
-        d_rest = d_abs * fe + absorber * a1 - (d_spill - kf * carrier) * fc
-        gk = (cf * v + air_gain * makeup) * keep + nc_t * a * v  # gain x keep
-        d_gk = cf * (keep - a * v) + air_gain * (d_makeup * keep - a * makeup) + nc_t * a
-        dk = nc_t * (s0 + s1 * v - fc * keep) - rest * keep  # demand x keep
-        d_dk = nc_t * (s1 + fc * a) - d_rest * keep + a * rest
-        step = (u * gk - dk) / (gk / (v * v) + u * d_gk - d_dk)
-        x -= step
-        if abs(step) <= (HOLD_ATOL + HOLD_RTOL * u) * v * v:
-            ok = keep > 0.001 and gk > 1e-12 * keep and (t0 + t1 * v >= 0.0 or p[P_TARGET_MAC] <= 0.0)
+        u = (lo * r_hi - hi * r_lo) / (r_hi - r_lo)
+        r = residual(u)
+        if abs(r) <= HOLD_ATOL + HOLD_RTOL * u:
             break
-    u = x / (1.0 + x)
-    if ok and 0.0 < u < umax:
-        return u
-    u0, r0 = 0.0, residual(0.0)
-    if r0 <= 0.0:
-        return 0.0
-    u1 = r0  # the fixed-point step from 0
-    r1 = residual(u1)
-    lo, hi, hi_tried = 0.0, umax, u1 >= umax
-    best, best_r = u1, abs(r1)
-    for _ in range(HOLD_MAXIT):
-        if r1 == 0.0:
-            return u1
-        if r1 > 0.0:
-            lo = u1
+        if r > 0.0:
+            lo, r_lo, r_hi, side = u, r, 0.5 * r_hi if side > 0 else r_hi, 1
         else:
-            hi, hi_tried = u1, True
-        un = u1 - r1 * (u1 - u0) / (r1 - r0) if r1 != r0 else hi
-        if un >= hi and not hi_tried:
-            un, hi_tried = hi, True  # the root may sit at the cap
-        elif not lo < un < hi:
-            un = 0.5 * (lo + hi)
-        elif abs(un - u1) <= HOLD_ATOL + HOLD_RTOL * un:
-            return un
-        u0, r0 = u1, r1
-        u1 = un
-        r1 = residual(u1)
-        if abs(r1) < best_r:
-            best, best_r = u1, abs(r1)
-    return best
+            hi, r_hi, r_lo, side = u, r, 0.5 * r_lo if side < 0 else r_lo, -1
+    return u
 
 
 @_jit
@@ -369,19 +317,9 @@ def flows(y, p, w):
 def rhs(y, p, w, dy):
     """Time derivative of the state ``y`` into ``dy`` (``w`` is scratch for the flows)."""
     flows(y, p, w)
-    fgf = w[W_FGF]
-    direct = w[W_DIRECT]
-    makeup = w[W_MAKEUP]
-    absorber = w[W_ABS]
-    spill = w[W_SPILL]
-    out_c = w[W_OUTC]
-    va = p[P_VA]
-    va_out = w[W_VAOUT]
-    leak = p[P_LEAK]
-    sample = p[P_SAMPLE]
-    u = w[W_U]
-    inv_nc = 1.0 / p[P_NC]
-    inv_nl = 1.0 / p[P_NL]
+    fgf, direct, makeup, absorber, spill, out_c = w[W_FGF], w[W_DIRECT], w[W_MAKEUP], w[W_ABS], w[W_SPILL], w[W_OUTC]
+    va, va_out, leak, sample, u = p[P_VA], w[W_VAOUT], p[P_LEAK], p[P_SAMPLE], w[W_U]
+    inv_nc, inv_nl = 1.0 / p[P_NC], 1.0 / p[P_NL]
     # make-up gas: fresh-gas composition, or room air with an air-entrainment valve or when no fresh
     # gas flows at all (the circuit then draws room air through its negative-pressure relief)
     room_air = p[P_MAKEUP_AIR] > 0.0 or fgf <= 0.0
@@ -428,10 +366,7 @@ def rhs(y, p, w, dy):
             cap = p[P_VT + k] * p[lam + k]
             dy[base + 2 + k] = dy[base + 2 + k] / cap if cap > 0.0 else 0.0
         dy[base + 1] = (venous_in - q * pv) / p[P_VVEN]
-    dy[Y_CO2ABS] = w[W_CO2ABS]
-    dy[Y_METAB] = w[W_METAB]
-    dy[Y_O2CONS] = w[W_UPT + O2]
-    dy[Y_MACMIN] = w[W_MAC]
+    dy[Y_CO2ABS], dy[Y_METAB], dy[Y_O2CONS], dy[Y_MACMIN] = w[W_CO2ABS], w[W_METAB], w[W_UPT + O2], w[W_MAC]
 
 
 @_jit
