@@ -241,20 +241,21 @@ def _hold_dial(y, p, w, carrier, unet):
     x = 0.0
     for _ in range(HOLD_MAXIT):
         v = 1.0 + x
-        u, keep, needed, dco2 = x / v, 1.0 - a * v, n_back - carrier * v, 1.0 - e0 - e1 * v
-        absorber, spill, makeup = needed / dco2, 0.0, 0.0
-        d_abs, d_spill, d_makeup = (absorber * e1 - carrier) / dco2, 0.0, 0.0  # d/dv
+        inv_v, inv_d = 1.0 / v, 1.0 / (1.0 - e0 - e1 * v)  # 1 / (1 - fe_co2)
+        u, keep, needed = x * inv_v, 1.0 - a * v, n_back - carrier * v
+        absorber, spill, makeup = needed * inv_d, 0.0, 0.0
+        d_abs, d_spill, d_makeup = (absorber * e1 - carrier) * inv_d, 0.0, 0.0  # d/dv
         if absorber < 0.0:
             absorber, d_abs, spill, d_spill = 0.0, 0.0, -needed, carrier
         elif absorber > e_out:
-            absorber, d_abs, makeup, d_makeup = e_out, 0.0, needed - e_out * dco2, e_out * e1 - carrier
+            absorber, d_abs, makeup, d_makeup = e_out, 0.0, needed - e_out * (1.0 - e0 - e1 * v), e_out * e1 - carrier
         fe = a0 + a1 * v
         rest = absorber * fe - (n_back - kf * carrier * v + spill) * fc
         d_rest = d_abs * fe + absorber * a1 - (d_spill - kf * carrier) * fc
         gk = (cf * v + air_gain * makeup) * keep + nc_t * a * v  # gain x keep
         d_gk = cf * (keep - a * v) + air_gain * (d_makeup * keep - a * makeup) + nc_t * a
         dk = nc_t * (s0 + s1 * v - fc * keep) - rest * keep  # demand x keep
-        step = (u * gk - dk) / (gk / (v * v) + u * d_gk - nc_t * (s1 + fc * a) + d_rest * keep - a * rest)
+        step = (u * gk - dk) / (gk * inv_v * inv_v + u * d_gk - nc_t * (s1 + fc * a) + d_rest * keep - a * rest)
         x -= step
         if not abs(step) > (HOLD_ATOL + HOLD_RTOL * u) * v * v:  # converged (or not a number)
             u = x / (1.0 + x)
@@ -342,8 +343,7 @@ def rhs(y, p, w, dy):
     q = p[P_Q]
     for b in range(NB):
         base = Y_BODY + NBODYSTATE * b
-        pa = y[base]
-        pv = y[base + 1]
+        pa, pv = y[base], y[base + 1]
         fa = y[Y_FA + (N2, N2O, AGENT, AR)[b]]
         dy[base] = q * (fa - pa) / p[P_VART]
         lam = P_LAMBDA_T + NT * b
@@ -357,8 +357,7 @@ def rhs(y, p, w, dy):
             venous_in -= p[P_EH] * p[P_QH] * y[base + 2]  # hepatic clearance from the vrg outflow
         # intertissue diffusion from a lean tissue to the fat next to it (Perl et al. 1960)
         for i in range(2):
-            k = DIFFUSION_TO[i]
-            j = DIFFUSION_FROM[i]
+            k, j = DIFFUSION_TO[i], DIFFUSION_FROM[i]
             flux = p[P_DIFF + k] * p[lam + j] * (y[base + 2 + j] - y[base + 2 + k])
             dy[base + 2 + k] += flux
             dy[base + 2 + j] -= flux
