@@ -205,9 +205,9 @@ def _flows_at(u, y, p, w, carrier, unet):
     w[W_TARGET] = _target(w[W_FET + N2O], p)
 
 
-#: Convergence of the hold dial: a Newton step |du|, or else the residual, <= HOLD_ATOL + HOLD_RTOL u, within
-#: HOLD_MAXIT trials (numerical choices, no source; Newton converges quadratically, so the result is exact).
-HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-12, 1e-16, 60
+#: Convergence of the hold dial: a Newton step |du| <= HOLD_ATOL + HOLD_STEP u (the error after it is about its
+#: square), else the residual <= HOLD_ATOL + HOLD_RTOL u, within HOLD_MAXIT trials (numerical choices, no source).
+HOLD_STEP, HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-10, 1e-12, 1e-16, 60
 
 
 @_jit
@@ -223,41 +223,42 @@ def _hold_dial(y, p, w, carrier, unet):
     of the law holds there, by the Illinois method on the bracket [0, umax].
     """
     umax, va, vdalv, va_out, fc, fa = p[P_UMAX], p[P_VA], p[P_VDALV], w[W_VAOUT], y[Y_FC + AGENT], y[Y_FA + AGENT]
-    vd, nc_t, k = vdalv + p[P_VDANAT], p[P_NC] / p[P_TAU_C], p[P_NL] / p[P_TAU_L] / va
+    vd, nc_t, k = vdalv + p[P_VDANAT], p[P_NC] / p[P_TAU_C], p[P_NL] / (p[P_TAU_L] * va)
     e_out, leaks, kf = va + vd - unet, p[P_LEAK] + p[P_SAMPLE], p[P_FINSP]
+    inv_e, ka, kv = 1.0 / e_out, k / va_out, kf / (va + vd)
     # lung balance: fi_star = c0 + c1 target - c2 fi (the end-tidal reaches the target after tau_L)
-    c0, c1, c2 = (va_out * fa + w[W_UPT + AGENT]) / va - k * fa, k * (va_out + vdalv) / va_out, k * vdalv / va_out
+    c0, c1, c2 = (va_out * fa + w[W_UPT + AGENT]) / va - k * fa, ka * (va_out + vdalv), ka * vdalv
     # linear in v = 1 + x: fresh-gas flow carrier v, direct share a v, fe_co2, fe_agent, target, fi_star
-    a = kf * carrier / (va + vd)
-    e0 = (va_out * y[Y_FA + CO2] + vd * (a * p[P_CARRIER + CO2] / carrier + y[Y_FC + CO2])) / e_out
-    e1, a0, a1 = -vd * a * y[Y_FC + CO2] / e_out, (va_out * fa + vd * (fc - a)) / e_out, vd * a * (1.0 - fc) / e_out
+    a = kv * carrier
+    e0 = (va_out * y[Y_FA + CO2] + vd * (kv * p[P_CARRIER + CO2] + y[Y_FC + CO2])) * inv_e
+    e1, a0, a1 = -vd * a * y[Y_FC + CO2] * inv_e, (va_out * fa + vd * (fc - a)) * inv_e, vd * a * (1.0 - fc) * inv_e
     t0, t1 = p[P_TARGET_FRAC], 0.0
     if p[P_TARGET_MAC] > 0.0:
-        fcn, vet, mac = y[Y_FC + N2O], va_out + vdalv, p[P_MAC_AGENT] / p[P_MAC_N2O]
-        fet0 = (va_out * y[Y_FA + N2O] + vdalv * (a * p[P_CARRIER + N2O] / carrier + fcn)) / vet
-        t0, t1 = p[P_TARGET_MAC] * p[P_MAC_AGENT] - mac * fet0, mac * vdalv * a * fcn / vet
+        fcn, inv_et, mac = y[Y_FC + N2O], 1.0 / (va_out + vdalv), p[P_MAC_AGENT] / p[P_MAC_N2O]
+        fet0 = (va_out * y[Y_FA + N2O] + vdalv * (kv * p[P_CARRIER + N2O] + fcn)) * inv_et
+        t0, t1 = p[P_TARGET_MAC] * p[P_MAC_AGENT] - mac * fet0, mac * vdalv * a * fcn * inv_et
     s0, s1 = c0 + c1 * t0 - c2 * (fc - a), c1 * t1 - c2 * a * (1.0 - fc)
     air_gain, n_back, cf = 1.0 - p[P_MAKEUP_AIR], va + vd + leaks, (1.0 - kf) * carrier
     x = 0.0
     for _ in range(HOLD_MAXIT):
         v = 1.0 + x
-        inv_v, inv_d = 1.0 / v, 1.0 / (1.0 - e0 - e1 * v)  # 1 / (1 - fe_co2)
-        u, keep, needed = x * inv_v, 1.0 - a * v, n_back - carrier * v
+        inv_d, keep, needed = 1.0 / (1.0 - e0 - e1 * v), 1.0 - a * v, n_back - carrier * v  # 1 / (1 - fe_co2)
         absorber, spill, makeup = needed * inv_d, 0.0, 0.0
         d_abs, d_spill, d_makeup = (absorber * e1 - carrier) * inv_d, 0.0, 0.0  # d/dv
         if absorber < 0.0:
             absorber, d_abs, spill, d_spill = 0.0, 0.0, -needed, carrier
         elif absorber > e_out:
             absorber, d_abs, makeup, d_makeup = e_out, 0.0, needed - e_out * (1.0 - e0 - e1 * v), e_out * e1 - carrier
-        fe = a0 + a1 * v
-        rest = absorber * fe - (n_back - kf * carrier * v + spill) * fc
-        d_rest = d_abs * fe + absorber * a1 - (d_spill - kf * carrier) * fc
+        rest = absorber * (a0 + a1 * v) - (n_back - kf * carrier * v + spill) * fc
+        d_rest = d_abs * (a0 + a1 * v) + absorber * a1 - (d_spill - kf * carrier) * fc
         gk = (cf * v + air_gain * makeup) * keep + nc_t * a * v  # gain x keep
         d_gk = cf * (keep - a * v) + air_gain * (d_makeup * keep - a * makeup) + nc_t * a
         dk = nc_t * (s0 + s1 * v - fc * keep) - rest * keep  # demand x keep
-        step = (u * gk - dk) / (gk * inv_v * inv_v + u * d_gk - nc_t * (s1 + fc * a) + d_rest * keep - a * rest)
-        x -= step
-        if not abs(step) > (HOLD_ATOL + HOLD_RTOL * u) * v * v:  # converged (or not a number)
+        inv_v, d_dk = 1.0 / v, nc_t * (s1 + fc * a) - d_rest * keep + a * rest
+        # Newton on u - law(u), law = dk / gk (keep cancels), in x (d/dx = d/dv), times gk^2
+        step = (x * inv_v * gk - dk) * gk / (inv_v * inv_v * gk * gk - d_dk * gk + dk * d_gk)
+        x, s = x - step, abs(step)
+        if not s > (HOLD_ATOL * v + HOLD_STEP * x) * v:
             u = x / (1.0 + x)
             in_branch = a * v <= 0.999 and gk > 1e-12 * keep and (p[P_TARGET_MAC] <= 0.0 or t0 + t1 * v >= 0.0)
             if in_branch and 0.0 < u < umax:
