@@ -256,7 +256,8 @@ def _hold_dial(y, p, w, carrier, unet):
         dk = nc_t * (s0 + s1 * v - fc * keep) - rest * keep  # demand x keep
         inv_v, d_dk = 1.0 / v, nc_t * (s1 + fc * a) - d_rest * keep + a * rest
         # Newton on u - law(u), law = dk / gk (keep cancels), in x (d/dx = d/dv), times gk^2
-        step = (x * inv_v * gk - dk) * gk / (inv_v * inv_v * gk * gk - d_dk * gk + dk * d_gk)
+        den = inv_v * inv_v * gk * gk - d_dk * gk + dk * d_gk
+        step = (x * inv_v * gk - dk) * gk / den if den != 0.0 else math.nan
         x, s = x - step, abs(step)
         if not s > (HOLD_ATOL * v + HOLD_STEP * x) * v:
             u = x / (1.0 + x)
@@ -264,11 +265,12 @@ def _hold_dial(y, p, w, carrier, unet):
             if in_branch and 0.0 < u < umax:
                 return u
             break
+        if not -0.5 < x < 1e6:  # far from any dial setting: the bracketed method takes over
+            break
 
     def residual(u):
         fgf, direct, alpha, vi = _fresh_gas(u, carrier, p)
-        keep = 1.0 - alpha
-        fi = alpha * u + keep * fc
+        keep, fi = 1.0 - alpha, alpha * u + (1.0 - alpha) * fc
         fi_co2 = alpha * _fresh_fraction(CO2, u, fgf, p) + keep * y[Y_FC + CO2]
         fe_co2 = _mixed(va_out, y[Y_FA + CO2], vd, fi_co2, e_out)
         absorber, spill, makeup, _ = _returned(vi + leaks - fgf, fe_co2, e_out)
@@ -279,8 +281,7 @@ def _hold_dial(y, p, w, carrier, unet):
             rest = absorber * _mixed(va_out, fa, vd, fi, e_out) - (vi - direct + leaks + spill) * fc
             gain = (fgf - direct) + makeup * air_gain + nc_t * alpha / keep
             demand = nc_t * (fi_star / keep - fc) - rest
-            # no fresh gas reaches the circuit, so the dial cannot act: it saturates in the direction
-            # the target asks for (and the unreached target is reported)
+            # no gain: no fresh gas reaches the circuit, the dial saturates toward the target (the miss is reported)
             law = demand / gain if gain > 1e-12 else (umax if demand > 0.0 else 0.0)
         return min(max(law, 0.0), umax) - u
 
@@ -321,7 +322,7 @@ def rhs(y, p, w, dy):
     flows(y, p, w)
     fgf, direct, makeup, absorber, spill, out_c = w[W_FGF], w[W_DIRECT], w[W_MAKEUP], w[W_ABS], w[W_SPILL], w[W_OUTC]
     va, va_out, leak, sample, u = p[P_VA], w[W_VAOUT], p[P_LEAK], p[P_SAMPLE], w[W_U]
-    inv_nc, inv_nl = 1.0 / p[P_NC], 1.0 / p[P_NL]
+    inv_nc, inv_nl, q = 1.0 / p[P_NC], 1.0 / p[P_NL], p[P_Q]
     # make-up gas: fresh-gas composition, or room air with an air-entrainment valve or when no fresh
     # gas flows at all (the circuit then draws room air through its negative-pressure relief)
     room_air = p[P_MAKEUP_AIR] > 0.0 or fgf <= 0.0
@@ -341,7 +342,6 @@ def rhs(y, p, w, dy):
         dy[Y_SAMPLE + s] = sample * fc
         dy[Y_MAKEUP + s] = makeup * fmk
         dy[Y_UPTAKE + s] = w[W_UPT + s]
-    q = p[P_Q]
     for b in range(NB):
         base = Y_BODY + NBODYSTATE * b
         pa, pv = y[base], y[base + 1]
