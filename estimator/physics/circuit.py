@@ -1,44 +1,41 @@
 """The circle-system compartment model: state and parameter layout, and the right-hand side (physics only).
 
 This module is the hot loop's physics; the integrators are :mod:`estimator.numerics.dopri5` (one case) and
-:mod:`estimator.numerics.rkc` (the batch). It has no package imports, so it can be loaded on its own with
-the compiler switched off (the plain-Python speed reference of the benchmarks). It works in plain
-floats in fixed internal units: amounts in mmol, time in min, flows in mmol/min, blood and tissue
-volumes in L, and every gas, blood or tissue concentration as an *equivalent dry alveolar
-fraction* F (partial pressure divided by the dry alveolar pressure, Pb - PH2O). The parameter
-vectors come from :mod:`estimator.simulation.case_setup` (once per phase), the results are read back by
-:mod:`estimator.simulation.assemble`.
+:mod:`estimator.numerics.rkc` (the batch). It has no package imports, so it can be loaded on its own with the
+compiler switched off (the plain-Python speed reference of the benchmarks). It works in plain floats in fixed
+internal units: amounts in mmol, time in min, flows in mmol/min, blood and tissue volumes in L, and every gas, blood
+or tissue concentration as an *equivalent dry alveolar fraction* F (partial pressure divided by the dry alveolar
+pressure, Pb - PH2O). The parameter vectors come from :mod:`estimator.simulation.case_setup` (once per phase), the
+results are read back by :mod:`estimator.simulation.assemble`.
 
 Model
 -----
-Six species (O2, CO2, N2, N2O, the volatile agent, argon) in two gas compartments of constant size,
-and, for the four inert or anaesthetic species, six blood and tissue compartments:
+Six species (O2, CO2, N2, N2O, the volatile agent, argon) in two gas compartments of constant size, and, for the
+four inert or anaesthetic species, six blood and tissue compartments:
 
-* circle circuit (well mixed, ``n_c`` mmol): fresh gas not drawn straight into the inspiratory limb,
-  expired gas that passed the absorber (all CO2 removed), deficit make-up gas; leaves as the part of
-  the inspired gas not supplied directly by fresh gas, as leak and as unreturned sample gas;
-* lungs (FRC, ``n_L`` mmol dry gas): inspired alveolar ventilation in, expired alveolar ventilation
-  out (inspired minus net uptake: the concentration and second-gas effects follow), blood uptake;
-* arterial and mixed-venous blood, and the vessel-rich, muscle, fat and vessel-poor groups,
-  perfusion-limited (Eger 1974; Mapleson 1963), with hepatic metabolism of the agent from the
-  venous outflow of the vessel-rich group; fat in two compartments of high and low blood flow
-  per kg (Levitt 2007), and fat next to the vessel-rich organs and to muscle that takes up agent
-  by intertissue diffusion from them (Perl, Lesser and Steele 1960; Eger and Saidman 2005);
+* circle circuit (well mixed, ``n_c`` mmol): fresh gas not drawn straight into the inspiratory limb, expired gas
+  that passed the absorber (all CO2 removed), deficit make-up gas; leaves as the part of the inspired gas not
+  supplied directly by fresh gas, as leak and as unreturned sample gas;
+* lungs (FRC, ``n_L`` mmol dry gas): inspired alveolar ventilation in, expired alveolar ventilation out (inspired
+  minus net uptake: the concentration and second-gas effects follow), blood uptake;
+* arterial and mixed-venous blood, and the vessel-rich, muscle, fat and vessel-poor groups, perfusion-limited (Eger
+  1974; Mapleson 1963), with hepatic metabolism of the agent from the venous outflow of the vessel-rich group; fat
+  in two compartments of high and low blood flow per kg (Levitt 2007), and fat next to the vessel-rich organs and to
+  muscle that takes up agent by intertissue diffusion from them (Perl, Lesser and Steele 1960; Eger and Saidman
+  2005);
 * O2 is consumed and CO2 produced at the patient's metabolic rates (Brody scaling).
 
-Circle layout: the exhaust (APL or spill) valve vents mixed expired gas *before* the absorber, so at
-high fresh-gas flow much exhaled CO2 leaves unabsorbed. Fresh gas enters the inspiratory limb: the
-share of it that flows during inspiration (``f_insp``) is inhaled directly, the rest fills the
-circuit. Where the circuit would need more gas than the expired limb returns (fresh gas below net
-uptake plus leak plus unreturned sample flow) the bag empties: the shortfall is recorded as a
-volume deficit and made good by make-up gas (fresh-gas composition, or room air for ventilators
-with an air-entrainment valve and whenever no fresh gas flows at all), which the totals count
-separately; the make-up gas enters the balance of every species, so the fractions sum to 1. A
-vaporizer with no carrier gas delivers nothing.
+Circle layout: the exhaust (APL or spill) valve vents mixed expired gas *before* the absorber, so at high fresh-gas
+flow much exhaled CO2 leaves unabsorbed. Fresh gas enters the inspiratory limb: the share of it that flows during
+inspiration (``f_insp``) is inhaled directly, the rest fills the circuit. Where the circuit would need more gas than
+the expired limb returns (fresh gas below net uptake plus leak plus unreturned sample flow) the bag empties: the
+shortfall is recorded as a volume deficit and made good by make-up gas (fresh-gas composition, or room air for
+ventilators with an air-entrainment valve and whenever no fresh gas flows at all), which the totals count
+separately; the make-up gas enters the balance of every species, so the fractions sum to 1. A vaporizer with no
+carrier gas delivers nothing.
 
-Every species enters and leaves through explicit flows (running totals in the state), so an
-integrator that keeps linear invariants (any Runge-Kutta method) closes the species mass balances to
-rounding error.
+Every species enters and leaves through explicit flows (running totals in the state), so an integrator that keeps
+linear invariants (any Runge-Kutta method) closes the species mass balances to rounding error.
 
 References
 ----------
@@ -66,15 +63,14 @@ SPECIES = ("oxygen", "carbon_dioxide", "nitrogen", "nitrous_oxide", "agent", "ar
 #: Species carried in blood and tissues, in body-state order.
 BODY = (N2, N2O, AGENT, AR)
 NB = 4
-#: Tissue compartments (names and order: estimator.physics.physiology.COMPARTMENTS): vessel-rich, muscle,
-#: well- and poorly perfused fat, vessel-poor (unperfused), and the fat next to the vessel-rich
-#: organs and next to muscle, which takes up agent only by intertissue diffusion from that tissue.
+#: Tissue compartments (names and order: estimator.physics.physiology.COMPARTMENTS): vessel-rich, muscle, well- and
+#: poorly perfused fat, vessel-poor (unperfused), and the fat next to the vessel-rich organs and next to muscle, which
+#: takes up agent only by intertissue diffusion from that tissue.
 NT = 7
-#: Intertissue diffusion pairs (tissue indices): fat next to the vessel-rich organs (5) from the
-#: vessel-rich group (0), intermuscular fat (6) from muscle (1). ``P_DIFF`` of the receiving fat
-#: holds the clearance; ``P_DONOR`` records the donor for reports and checks.
-DIFFUSION_TO = (5, 6)
-DIFFUSION_FROM = (0, 1)
+#: Intertissue diffusion pairs (tissue indices): fat next to the vessel-rich organs (5) from the vessel-rich group
+#: (0), intermuscular fat (6) from muscle (1). ``P_DIFF`` of the receiving fat holds the clearance; ``P_DONOR``
+#: records the donor for reports and checks.
+DIFFUSION_TO, DIFFUSION_FROM = (5, 6), (0, 1)
 
 # --- state layout --------------------------------------------------------------------------------
 Y_FC = 0  # circuit fractions [6]
@@ -119,19 +115,17 @@ W_ABS, W_SPILL, W_OUTC, W_METAB, W_VAOUT = 32, 33, 34, 35, 36
 NW = 37
 
 MODE_DIAL, MODE_HOLD = 0.0, 1.0
-#: O2 fraction scale of the hypoxic limiter of O2 uptake (keeps amounts non-negative when a
-#: circuit runs out of O2; at any FA,O2 above 0.05 the limiter is exactly 1 to 1e-4).
+#: O2 fraction scale of the hypoxic limiter of O2 uptake (keeps amounts non-negative when a circuit runs out of O2;
+#: at any FA,O2 above 0.05 the limiter is exactly 1 to 1e-4).
 O2_LIMIT_SCALE = 0.005
 
 _jit = numba.njit(cache=True, fastmath=False, nogil=True)
 
 
 @_jit
-def _flows_at(u, y, p, w):
-    """Fill ``w`` with the flows and fractions for a given delivered agent fraction ``u``."""
-    ca = p[P_CA]
-    q = p[P_Q]
-    # lung uptake
+def _lungs(y, p, w):
+    """Fill the flows that do not depend on the dial (uptake, expired ventilation, metabolism); net uptake."""
+    ca, q = p[P_CA], p[P_Q]
     for s in range(NS):
         w[W_UPT + s] = 0.0
     for b in range(NB):
@@ -140,146 +134,200 @@ def _flows_at(u, y, p, w):
         w[W_UPT + s] = q * p[P_LAMBDA + b] * ca * (y[Y_FA + s] - pv)
     fo2 = y[Y_FA + O2]
     lim = 1.0 - math.exp(-fo2 / O2_LIMIT_SCALE) if fo2 > 0.0 else 0.0
-    w[W_UPT + O2] = p[P_VO2] * lim
-    w[W_UPT + CO2] = -p[P_VCO2]
+    w[W_UPT + O2], w[W_UPT + CO2] = p[P_VO2] * lim, -p[P_VCO2]
     unet = 0.0
     for s in range(NS):
         unet += w[W_UPT + s]
-    va = p[P_VA]
-    vdalv = p[P_VDALV]
-    vd = vdalv + p[P_VDANAT]
-    vi = va + vd
-    va_out = va - unet
-    w[W_VAOUT] = va_out
-    # fresh gas
-    carrier = 0.0
-    for s in range(NS):
-        carrier += p[P_CARRIER + s]
-    fgf = carrier / (1.0 - u) if carrier > 0.0 else 0.0
-    direct = min(fgf * p[P_FINSP], vi)
-    alpha = direct / vi
-    w[W_U] = u
-    w[W_FGF] = fgf
-    w[W_DIRECT] = direct
-    for s in range(NS):
-        ffg = u if s == AGENT else (p[P_CARRIER + s] / fgf if fgf > 0.0 else 0.0)
-        w[W_FI + s] = alpha * ffg + (1.0 - alpha) * y[Y_FC + s]
-    e_out = vi - unet
-    for s in range(NS):
-        fi = w[W_FI + s]
-        fa = y[Y_FA + s]
-        w[W_FE + s] = (va_out * fa + vd * fi) / e_out
-        w[W_FET + s] = (va_out * fa + vdalv * fi) / (va_out + vdalv)
-    # circuit volume balance: what the circuit must receive back through the absorber
-    needed = vi + p[P_LEAK] + p[P_SAMPLE] - fgf
-    fe_co2 = w[W_FE + CO2]
-    absorber = needed / (1.0 - fe_co2)
-    spill = 0.0
-    makeup = 0.0
-    if absorber < 0.0:
-        absorber = 0.0
-        spill = -needed
-        ex = e_out
-    elif absorber > e_out:
-        absorber = e_out
-        ex = 0.0
-        makeup = needed - e_out * (1.0 - fe_co2)
-    else:
-        ex = e_out - absorber
-    w[W_ABS] = absorber
-    w[W_SPILL] = spill
-    w[W_MAKEUP] = makeup
-    w[W_EX] = ex + spill
-    w[W_CO2ABS] = absorber * fe_co2
-    w[W_OUTC] = vi - direct + p[P_LEAK] + p[P_SAMPLE] + spill
-    mac_a = p[P_MAC_AGENT]
-    mac_n = p[P_MAC_N2O]
-    w[W_MAC] = (w[W_FET + AGENT] / mac_a if mac_a > 0.0 else 0.0) + w[W_FET + N2O] / mac_n
-    if p[P_TARGET_MAC] > 0.0:
-        w[W_TARGET] = max(0.0, (p[P_TARGET_MAC] - w[W_FET + N2O] / mac_n) * mac_a)
-    else:
-        w[W_TARGET] = p[P_TARGET_FRAC]
+    w[W_VAOUT] = p[P_VA] - unet
     w[W_METAB] = p[P_EH] * p[P_QH] * p[P_LAMBDA + 2] * ca * y[Y_BODY + NBODYSTATE * 2 + 2]
+    return unet
 
 
 @_jit
-def _hold_dial(y, p, w):
-    """Delivered agent fraction that steers the end-tidal agent to the hold target.
+def _fresh_gas(u, carrier, p):
+    """Fresh-gas flow, its part inhaled directly, that part's share of the inspired gas, and the inspired flow."""
+    vi = p[P_VA] + (p[P_VDALV] + p[P_VDANAT])
+    fgf = carrier / (1.0 - u) if carrier > 0.0 else 0.0
+    direct = min(fgf * p[P_FINSP], vi)
+    return fgf, direct, direct / vi, vi
 
-    A model-based tracking law: the lung balance gives the inspired fraction that moves the
-    alveolar fraction toward the target with time constant ``tau_L``; the circuit balance gives the
-    fresh-gas agent fraction that moves the inspired fraction there with time constant ``tau_C``.
-    Solved by fixed-point iteration on the fresh-gas flow (the agent adds to it), then capped at
-    zero and the vaporizer maximum.
+
+@_jit
+def _fresh_fraction(s, u, fgf, p):
+    """Fraction of species ``s`` in the fresh gas (the agent at ``u``)."""
+    return u if s == AGENT else (p[P_CARRIER + s] / fgf if fgf > 0.0 else 0.0)
+
+
+@_jit
+def _mixed(va_out, fa, v_dead, fi, total):
+    """Fraction of alveolar gas mixed with dead-space (inspired) gas: mixed-expired or end-tidal."""
+    return (va_out * fa + v_dead * fi) / total
+
+
+@_jit
+def _returned(needed, fe_co2, e_out):
+    """Circuit volume balance: absorber inflow, spill, make-up and exhaust for the gas the circuit needs back."""
+    absorber = needed / (1.0 - fe_co2)
+    if absorber < 0.0:
+        return 0.0, -needed, 0.0, e_out
+    if absorber > e_out:
+        return e_out, 0.0, needed - e_out * (1.0 - fe_co2), 0.0
+    return absorber, 0.0, 0.0, e_out - absorber
+
+
+@_jit
+def _target(fet_n2o, p):
+    """End-tidal agent fraction of the hold target (a MAC target counts the N2O's share)."""
+    if p[P_TARGET_MAC] > 0.0:
+        return max(0.0, (p[P_TARGET_MAC] - fet_n2o / p[P_MAC_N2O]) * p[P_MAC_AGENT])
+    return p[P_TARGET_FRAC]
+
+
+@_jit
+def _flows_at(u, y, p, w, carrier, unet):
+    """Fill ``w`` with the flows and fractions at a delivered agent fraction ``u`` (after :func:`_lungs`)."""
+    va_out, vdalv = w[W_VAOUT], p[P_VDALV]
+    vd = vdalv + p[P_VDANAT]
+    fgf, direct, alpha, vi = _fresh_gas(u, carrier, p)
+    w[W_U], w[W_FGF], w[W_DIRECT] = u, fgf, direct
+    e_out = vi - unet
+    for s in range(NS):
+        fi = alpha * _fresh_fraction(s, u, fgf, p) + (1.0 - alpha) * y[Y_FC + s]
+        w[W_FI + s] = fi
+        w[W_FE + s] = _mixed(va_out, y[Y_FA + s], vd, fi, e_out)
+        w[W_FET + s] = _mixed(va_out, y[Y_FA + s], vdalv, fi, va_out + vdalv)
+    fe_co2 = w[W_FE + CO2]
+    absorber, spill, makeup, ex = _returned(vi + p[P_LEAK] + p[P_SAMPLE] - fgf, fe_co2, e_out)
+    w[W_ABS], w[W_SPILL], w[W_MAKEUP], w[W_EX], w[W_CO2ABS] = absorber, spill, makeup, ex + spill, absorber * fe_co2
+    w[W_OUTC] = vi - direct + p[P_LEAK] + p[P_SAMPLE] + spill
+    mac_a = p[P_MAC_AGENT]
+    w[W_MAC] = (w[W_FET + AGENT] / mac_a if mac_a > 0.0 else 0.0) + w[W_FET + N2O] / p[P_MAC_N2O]
+    w[W_TARGET] = _target(w[W_FET + N2O], p)
+
+
+#: Convergence of the hold dial: a Newton step |du| <= HOLD_ATOL + HOLD_STEP u (the error after it is about its
+#: square), else the residual <= HOLD_ATOL + HOLD_RTOL u, within HOLD_MAXIT trials (numerical choices, no source).
+HOLD_STEP, HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-10, 1e-12, 1e-16, 60
+
+
+@_jit
+def _hold_dial(y, p, w, carrier, unet):
+    """Delivered agent fraction that steers the end-tidal agent to the hold target (after :func:`_lungs`).
+
+    A model-based tracking law: the lung balance gives the inspired fraction ``fi_star`` that moves the alveolar
+    fraction toward the target with time constant ``tau_L``; the circuit balance gives the fresh-gas agent fraction
+    ``law(u)`` that moves the inspired fraction there with time constant ``tau_C``. The flows depend on ``u`` itself
+    (the agent adds to the fresh-gas flow), so the dial is the root of ``min(max(law(u), 0), umax) - u`` on [0, umax]
+    (>= 0 at 0, <= 0 at umax). Solved by Newton steps in ``x = u / (1 - u)``, in which the fresh-gas flow and every
+    inspired, expired and end-tidal fraction are linear; where that root is not inside (0, umax), or another branch
+    of the law holds there, by the Illinois method on the bracket [0, umax].
     """
-    umax = p[P_UMAX]
-    u = 0.0
-    for _ in range(4):
-        _flows_at(u, y, p, w)
-        target = w[W_TARGET]
-        va_out = w[W_VAOUT]
-        vdalv = p[P_VDALV]
-        fa = y[Y_FA + AGENT]
-        fi = w[W_FI + AGENT]
-        fa_star = ((va_out + vdalv) * target - vdalv * fi) / va_out
-        fi_star = (p[P_NL] * (fa_star - fa) / p[P_TAU_L] + va_out * fa + w[W_UPT + AGENT]) / p[P_VA]
-        vi = p[P_VA] + p[P_VDALV] + p[P_VDANAT]
-        alpha = w[W_DIRECT] / vi
-        if alpha > 0.999:
-            unew = fi_star
+    umax, va, vdalv, va_out, fc, fa = p[P_UMAX], p[P_VA], p[P_VDALV], w[W_VAOUT], y[Y_FC + AGENT], y[Y_FA + AGENT]
+    vd, nc_t, k = vdalv + p[P_VDANAT], p[P_NC] / p[P_TAU_C], p[P_NL] / (p[P_TAU_L] * va)
+    e_out, leaks, kf = va + vd - unet, p[P_LEAK] + p[P_SAMPLE], p[P_FINSP]
+    inv_e, ka, kv = 1.0 / e_out, k / va_out, kf / (va + vd)
+    # lung balance: fi_star = c0 + c1 target - c2 fi (the end-tidal reaches the target after tau_L)
+    c0, c1, c2 = (va_out * fa + w[W_UPT + AGENT]) / va - k * fa, ka * (va_out + vdalv), ka * vdalv
+    # linear in v = 1 + x: fresh-gas flow carrier v, direct share a v, fe_co2, fe_agent, target, fi_star
+    a = kv * carrier
+    e0 = (va_out * y[Y_FA + CO2] + vd * (kv * p[P_CARRIER + CO2] + y[Y_FC + CO2])) * inv_e
+    e1, a0, a1 = -vd * a * y[Y_FC + CO2] * inv_e, (va_out * fa + vd * (fc - a)) * inv_e, vd * a * (1.0 - fc) * inv_e
+    t0, t1 = p[P_TARGET_FRAC], 0.0
+    if p[P_TARGET_MAC] > 0.0:
+        fcn, inv_et, mac = y[Y_FC + N2O], 1.0 / (va_out + vdalv), p[P_MAC_AGENT] / p[P_MAC_N2O]
+        fet0 = (va_out * y[Y_FA + N2O] + vdalv * (kv * p[P_CARRIER + N2O] + fcn)) * inv_et
+        t0, t1 = p[P_TARGET_MAC] * p[P_MAC_AGENT] - mac * fet0, mac * vdalv * a * fcn * inv_et
+    s0, s1 = c0 + c1 * t0 - c2 * (fc - a), c1 * t1 - c2 * a * (1.0 - fc)
+    air_gain, n_back, cf = 1.0 - p[P_MAKEUP_AIR], va + vd + leaks, (1.0 - kf) * carrier
+    x = 0.0
+    for _ in range(HOLD_MAXIT):
+        v = 1.0 + x
+        inv_d, keep, needed = 1.0 / (1.0 - e0 - e1 * v), 1.0 - a * v, n_back - carrier * v  # 1 / (1 - fe_co2)
+        absorber, spill, makeup = needed * inv_d, 0.0, 0.0
+        d_abs, d_spill, d_makeup = (absorber * e1 - carrier) * inv_d, 0.0, 0.0  # d/dv
+        if absorber < 0.0:
+            absorber, d_abs, spill, d_spill = 0.0, 0.0, -needed, carrier
+        elif absorber > e_out:
+            absorber, d_abs, makeup, d_makeup = e_out, 0.0, needed - e_out * (1.0 - e0 - e1 * v), e_out * e1 - carrier
+        rest = absorber * (a0 + a1 * v) - (n_back - kf * carrier * v + spill) * fc
+        d_rest = d_abs * (a0 + a1 * v) + absorber * a1 - (d_spill - kf * carrier) * fc
+        gk = (cf * v + air_gain * makeup) * keep + nc_t * a * v  # gain x keep
+        d_gk = cf * (keep - a * v) + air_gain * (d_makeup * keep - a * makeup) + nc_t * a
+        dk = nc_t * (s0 + s1 * v - fc * keep) - rest * keep  # demand x keep
+        inv_v, d_dk = 1.0 / v, nc_t * (s1 + fc * a) - d_rest * keep + a * rest
+        # Newton on u - law(u), law = dk / gk (keep cancels), in x (d/dx = d/dv), times gk^2
+        den = inv_v * inv_v * gk * gk - d_dk * gk + dk * d_gk
+        step = (x * inv_v * gk - dk) * gk / den if den != 0.0 else math.nan
+        x, s = x - step, abs(step)
+        if not s > (HOLD_ATOL * v + HOLD_STEP * x) * v:
+            u = x / (1.0 + x)
+            in_branch = a * v <= 0.999 and gk > 1e-12 * keep and (p[P_TARGET_MAC] <= 0.0 or t0 + t1 * v >= 0.0)
+            if in_branch and 0.0 < u < umax:
+                return u
+            break
+        if not -0.5 < x < 1e6:  # far from any dial setting: the bracketed method takes over
+            break
+
+    def residual(u):
+        fgf, direct, alpha, vi = _fresh_gas(u, carrier, p)
+        keep, fi = 1.0 - alpha, alpha * u + (1.0 - alpha) * fc
+        fi_co2 = alpha * _fresh_fraction(CO2, u, fgf, p) + keep * y[Y_FC + CO2]
+        fe_co2 = _mixed(va_out, y[Y_FA + CO2], vd, fi_co2, e_out)
+        absorber, spill, makeup, _ = _returned(vi + leaks - fgf, fe_co2, e_out)
+        fi_n2o = alpha * _fresh_fraction(N2O, u, fgf, p) + keep * y[Y_FC + N2O]
+        fi_star = c0 + c1 * _target(_mixed(va_out, y[Y_FA + N2O], vdalv, fi_n2o, va_out + vdalv), p) - c2 * fi
+        law = fi_star
+        if alpha <= 0.999:
+            rest = absorber * _mixed(va_out, fa, vd, fi, e_out) - (vi - direct + leaks + spill) * fc
+            gain = (fgf - direct) + makeup * air_gain + nc_t * alpha / keep
+            demand = nc_t * (fi_star / keep - fc) - rest
+            # no gain: no fresh gas reaches the circuit, the dial saturates toward the target (the miss is reported)
+            law = demand / gain if gain > 1e-12 else (umax if demand > 0.0 else 0.0)
+        return min(max(law, 0.0), umax) - u
+
+    lo, hi, r_lo, r_hi, side = 0.0, umax, residual(0.0), residual(umax), 0
+    if r_lo <= 0.0 or r_hi >= 0.0:
+        return 0.0 if r_lo <= 0.0 else umax
+    for _ in range(HOLD_MAXIT):
+        u = (lo * r_hi - hi * r_lo) / (r_hi - r_lo)
+        r = residual(u)
+        if abs(r) <= HOLD_ATOL + HOLD_RTOL * u:
+            break
+        if r > 0.0:
+            lo, r_lo, r_hi, side = u, r, 0.5 * r_hi if side > 0 else r_hi, 1
         else:
-            fc = y[Y_FC + AGENT]
-            rest = w[W_ABS] * w[W_FE + AGENT] - w[W_OUTC] * fc
-            nc_t = p[P_NC] / p[P_TAU_C]
-            gain = (w[W_FGF] - w[W_DIRECT]) + w[W_MAKEUP] * (1.0 - p[P_MAKEUP_AIR]) + nc_t * alpha / (1.0 - alpha)
-            demand = nc_t * (fi_star / (1.0 - alpha) - fc) - rest
-            if gain > 1e-12:
-                unew = demand / gain
-            else:
-                # no fresh gas reaches the circuit, so the dial cannot act: it saturates in the
-                # direction the target asks for (and the unreached target is reported)
-                unew = umax if demand > 0.0 else 0.0
-        u = min(max(unew, 0.0), umax)
+            hi, r_hi, r_lo, side = u, r, 0.5 * r_lo if side < 0 else r_lo, -1
     return u
 
 
 @_jit
 def flows(y, p, w):
     """Derived flows and fractions of a state (fills ``w``; see the ``W_*`` layout)."""
+    unet = _lungs(y, p, w)
     carrier = 0.0
     for s in range(NS):
         carrier += p[P_CARRIER + s]
     if carrier <= 0.0:
         u = 0.0  # a vaporizer with no carrier gas through it delivers nothing
     elif p[P_MODE] == MODE_HOLD:
-        u = _hold_dial(y, p, w)
+        u = _hold_dial(y, p, w, carrier, unet)
     else:
         u = p[P_UFIXED]
-    _flows_at(u, y, p, w)
+    _flows_at(u, y, p, w, carrier, unet)
 
 
 @_jit
 def rhs(y, p, w, dy):
     """Time derivative of the state ``y`` into ``dy`` (``w`` is scratch for the flows)."""
     flows(y, p, w)
-    fgf = w[W_FGF]
-    direct = w[W_DIRECT]
-    makeup = w[W_MAKEUP]
-    absorber = w[W_ABS]
-    spill = w[W_SPILL]
-    out_c = w[W_OUTC]
-    va = p[P_VA]
-    va_out = w[W_VAOUT]
-    leak = p[P_LEAK]
-    sample = p[P_SAMPLE]
-    u = w[W_U]
-    inv_nc = 1.0 / p[P_NC]
-    inv_nl = 1.0 / p[P_NL]
+    fgf, direct, makeup, absorber, spill, out_c = w[W_FGF], w[W_DIRECT], w[W_MAKEUP], w[W_ABS], w[W_SPILL], w[W_OUTC]
+    va, va_out, leak, sample, u = p[P_VA], w[W_VAOUT], p[P_LEAK], p[P_SAMPLE], w[W_U]
+    inv_nc, inv_nl, q = 1.0 / p[P_NC], 1.0 / p[P_NL], p[P_Q]
     # make-up gas: fresh-gas composition, or room air with an air-entrainment valve or when no fresh
     # gas flows at all (the circuit then draws room air through its negative-pressure relief)
     room_air = p[P_MAKEUP_AIR] > 0.0 or fgf <= 0.0
     for s in range(NS):
-        ffg = u if s == AGENT else (p[P_CARRIER + s] / fgf if fgf > 0.0 else 0.0)
+        ffg = _fresh_fraction(s, u, fgf, p)
         fmk = p[P_AIR + s] if room_air else ffg
         fc = y[Y_FC + s]
         fe = w[W_FE + s]
@@ -294,11 +342,9 @@ def rhs(y, p, w, dy):
         dy[Y_SAMPLE + s] = sample * fc
         dy[Y_MAKEUP + s] = makeup * fmk
         dy[Y_UPTAKE + s] = w[W_UPT + s]
-    q = p[P_Q]
     for b in range(NB):
         base = Y_BODY + NBODYSTATE * b
-        pa = y[base]
-        pv = y[base + 1]
+        pa, pv = y[base], y[base + 1]
         fa = y[Y_FA + (N2, N2O, AGENT, AR)[b]]
         dy[base] = q * (fa - pa) / p[P_VART]
         lam = P_LAMBDA_T + NT * b
@@ -312,8 +358,7 @@ def rhs(y, p, w, dy):
             venous_in -= p[P_EH] * p[P_QH] * y[base + 2]  # hepatic clearance from the vrg outflow
         # intertissue diffusion from a lean tissue to the fat next to it (Perl et al. 1960)
         for i in range(2):
-            k = DIFFUSION_TO[i]
-            j = DIFFUSION_FROM[i]
+            k, j = DIFFUSION_TO[i], DIFFUSION_FROM[i]
             flux = p[P_DIFF + k] * p[lam + j] * (y[base + 2 + j] - y[base + 2 + k])
             dy[base + 2 + k] += flux
             dy[base + 2 + j] -= flux
@@ -321,10 +366,7 @@ def rhs(y, p, w, dy):
             cap = p[P_VT + k] * p[lam + k]
             dy[base + 2 + k] = dy[base + 2 + k] / cap if cap > 0.0 else 0.0
         dy[base + 1] = (venous_in - q * pv) / p[P_VVEN]
-    dy[Y_CO2ABS] = w[W_CO2ABS]
-    dy[Y_METAB] = w[W_METAB]
-    dy[Y_O2CONS] = w[W_UPT + O2]
-    dy[Y_MACMIN] = w[W_MAC]
+    dy[Y_CO2ABS], dy[Y_METAB], dy[Y_O2CONS], dy[Y_MACMIN] = w[W_CO2ABS], w[W_METAB], w[W_UPT + O2], w[W_MAC]
 
 
 @_jit
