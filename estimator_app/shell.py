@@ -20,6 +20,7 @@ FAULT = "This page could not finish: an internal error occurred ({name}). Your i
 PAGES = (
     ("case_planner", "Case planner", "case-planner", ":material/monitor_heart:"),
     ("flow_floor", "Flow floor", "flow-floor", ":material/vertical_align_bottom:"),
+    ("compare_plans", "Compare plans", "compare-plans", ":material/compare_arrows:"),
     ("supply_duration", "Supply duration", "supply-duration", ":material/inventory_2:"),
     ("demand_forecast", "Demand forecast", "demand-forecast", ":material/query_stats:"),
     ("fresh_gas_audit", "Fresh-gas audit", "fresh-gas-audit", ":material/fact_check:"),

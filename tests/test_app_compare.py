@@ -1,0 +1,28 @@
+"""The Compare plans page gives the numbers `lowflow compare` gives for the same plans (AppTest)."""
+
+from __future__ import annotations
+
+import pytest
+
+pytest.importorskip("streamlit")
+
+from app_helpers import assert_clean, page  # noqa: E402
+
+
+def test_compare_page_matches_the_cli_and_offers_downloads():
+    from estimator.inputs.scenario import scenario_from_text
+    from estimator.planning.compare import compare_results
+    from estimator.simulation.engine import simulate
+    from estimator_app import demo
+    from estimator_app.pages.compare_plans import PLANNER, frame, texts
+
+    at = page("compare_plans", demo.scenario())
+    assert_clean(at)
+    chosen = at.multiselect[0].value
+    assert chosen[0] == PLANNER and len(chosen) == 2
+    shown = at.dataframe[0].value
+    want = frame(compare_results({n: simulate(scenario_from_text(t)) for n, t in texts(chosen).items()}))
+    assert list(shown["quantity"]) == list(want["quantity"])
+    assert shown[chosen[1]].tolist() == want[chosen[1]].tolist()
+    labels = {b.label for b in at.get("download_button")}
+    assert {"Download CSV", "Download XLSX", "Report (HTML)", "Download JSON"} <= labels
