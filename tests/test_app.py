@@ -145,18 +145,23 @@ def test_saved_scenario_is_toml_the_engine_accepts(planner):
     assert tomllib.loads(tomli_w.dumps(doc))["agent"]["name"] == "sevoflurane"
 
 
+def floor_table(at):
+    """The flow floor page's per-phase table (the recommended schedule's table comes before it)."""
+    return next(d.value for d in at.dataframe if "flow floor [L/min]" in d.value.columns)
+
+
 def test_flow_floor_page_and_a_stricter_threshold():
     at = page("flow_floor")
     assert_clean(at)
     assert at.warning[0].value == CAUTION
-    table = at.dataframe[0].value
+    table = floor_table(at)
     floor = table["flow floor [L/min]"].to_numpy()
     planned = table["planned [L/min]"].to_numpy()
     assert (floor <= planned + 1e-9).all()  # the demo plan is safe, so its floor is at or below it
     # A stricter inspired-O2 limit can only keep or raise each floor (the limit is monotone in flow).
     at.number_input(key="floor.thr.0").set_value(50.0).run()
     assert_clean(at)
-    strict = at.dataframe[0].value["flow floor [L/min]"].to_numpy()
+    strict = floor_table(at)["flow floor [L/min]"].to_numpy()
     assert (strict >= floor - 1e-9).all() and (strict > floor + 1e-9).any()
 
 
@@ -164,12 +169,12 @@ def test_flow_floor_page_less_time_to_wash_out_raises_the_emergence_floor():
     # The demo's emergence (dial at 0) is bound by the wash-out limit; less time for it needs more
     # fresh gas (a well-mixed circuit washes out faster at higher flow, common practice).
     at = page("flow_floor")
-    table = at.dataframe[0].value
+    table = floor_table(at)
     emergence = table.iloc[-1]
     assert emergence["binding limit"] == "WASH_OUT"
     at.number_input(key="floor.washin.0").set_value(5.0).run()
     assert_clean(at)
-    assert at.dataframe[0].value.iloc[-1]["flow floor [L/min]"] > emergence["flow floor [L/min]"]
+    assert floor_table(at).iloc[-1]["flow floor [L/min]"] > emergence["flow floor [L/min]"]
 
 
 def test_audit_page_reports_rejections_kpis_and_counterfactual():

@@ -113,6 +113,60 @@ def phase_table(result: Any) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
+#: Totals shown for the recommended schedule: key, label, unit, digits, help.
+USE_METRICS = (
+    ("agent_liquid", "Liquid agent", "mL", 1, None),
+    ("oxygen", "Oxygen", "L", 0, GAS_VOLUME_REFERENCE),
+    ("co2e", "CO2e", "kg", 2, "IPCC AR6 GWP100"),
+)
+
+
+def use_metric(cmp_: dict[str, Any], key: str, label: str, u: str, digits: int) -> tuple[str, str, str]:
+    """(label, value at the schedule, change against the plan: "saved" or "extra") of one total."""
+    used = cmp_["recommended"][key].to(u).magnitude
+    saved = cmp_["saving"][key].to(u).magnitude
+    change = f"{abs(saved):.{digits}f} {u} {'saved' if saved >= 0 else 'extra'} vs plan"
+    return f"{label} at the schedule", f"{used:.{digits}f} {u}", change
+
+
+def schedule_table(result: Any) -> pd.DataFrame:
+    """The recommended schedule, one row a phase, flows in the display unit."""
+    fu, f = unit("flow"), flow_factor()
+    return pd.DataFrame(
+        [
+            {
+                "phase": s["label"],
+                "from [min]": round(s["start"].to("min").magnitude, 1),
+                "for [min]": round(s["duration"].to("min").magnitude, 1),
+                f"total [{fu}]": round(s["total"].to("L/min").magnitude * f, 3),
+                f"O2 [{fu}]": round(s["oxygen"].to("L/min").magnitude * f, 3),
+                f"air [{fu}]": round(s["air"].to("L/min").magnitude * f, 3),
+                f"N2O [{fu}]": round(s["nitrous_oxide"].to("L/min").magnitude * f, 3),
+                "settable": "yes" if s["settable"] else "no: planned flows kept",
+            }
+            for s in result.schedule
+        ]
+    )
+
+
+def applied(doc: dict[str, Any], schedule: list[dict[str, Any]]) -> dict[str, Any]:
+    """The scenario document with each settable phase's flows set to the schedule's (other keys kept)."""
+    out = copy.deepcopy(doc)
+    for s in schedule:
+        if not s["settable"]:
+            continue
+        phase = out["phases"][s["index"]]
+        for key in ("total_flow", "oxygen_fraction", "balance"):  # the flows below replace these forms
+            phase.pop(key, None)
+        for gas in ("oxygen", "air", "nitrous_oxide"):
+            litres = s[gas].to("L/min").magnitude
+            if litres > 0:
+                phase[gas] = f"{litres:g} L/min"
+            else:
+                phase.pop(gas, None)
+    return out
+
+
 def chart(result: Any, plan: Any) -> alt.Chart:
     fu, f = unit("flow"), flow_factor()
     planned = pd.DataFrame(
@@ -196,9 +250,17 @@ def render() -> None:
         f"{mean_rec - mean_plan:+.{2 if fu == 'L/min' else 0}f} {fu} vs plan",
         delta_color="off",
     )
-    m[1].metric("Liquid agent saved", f"{cmp_['saving']['agent_liquid'].to('mL').magnitude:.1f} mL")
-    m[2].metric("Oxygen saved", f"{cmp_['saving']['oxygen'].to('L').magnitude:.0f} L", help=GAS_VOLUME_REFERENCE)
-    m[3].metric("CO2e saved", f"{cmp_['saving']['co2e'].to('kg').magnitude:.2f} kg", help="IPCC AR6 GWP100")
+    for col, (key, label, u, digits, help_text) in zip(m[1:], USE_METRICS, strict=True):
+        col.metric(*use_metric(cmp_, key, label, u, digits), delta_color="off", help=help_text)
+    st.dataframe(schedule_table(result), hide_index=True, width="stretch")
+    if st.button(
+        "Use this schedule on the case planner",
+        key="floor.apply",
+        help="Replaces each settable phase's flows by the recommended ones (other keys kept); save the plan to keep it.",
+        icon=":material/input:",
+    ):
+        state.set_document(applied(state.document(), result.schedule))
+        st.success("The case planner now uses the recommended schedule.", icon=":material/check:")
     st.subheader("Lowest safe flow per phase")
     table = phase_table(result)
     st.dataframe(table, hide_index=True, width="stretch")
