@@ -86,11 +86,27 @@ def warning_pairs(warnings: Any) -> list[tuple[str, str]]:
     return [(w["code"], w["message"]) if isinstance(w, dict) else tuple(w) for w in warnings or ()]
 
 
+#: Start of the text of a warning shown in red: a clinical safety limit of the registry is at stake.
+SAFETY_PREFIX = "Safety:"
+
+
 def show_warnings(warnings: Any, empty: str | None = None) -> None:
-    """Model warnings as (code, message) pairs, or dicts with code and message."""
-    items = warning_pairs(warnings)
+    """Model warnings as (code, message) pairs, or dicts with code and message, each once.
+
+    The title is the code's plain meaning from :mod:`estimator.limits`, the code follows in the text
+    (and in every file). A clinical safety code (``Code.safety``, such as an inspired O2 below its
+    threshold) is shown in red, every other warning in amber: the same on every page.
+    """
+    from estimator.limits import CODES
+
+    items = list(dict.fromkeys(warning_pairs(warnings)))
     for code, message in items:
-        st.warning(f"**{code}** - {message}", icon=":material/report:")
+        entry = CODES.get(code)
+        title = entry.meaning[:1].upper() + entry.meaning[1:] if entry else code
+        if entry is not None and entry.safety:
+            st.error(f"{SAFETY_PREFIX} **{title}** - {message} (`{code}`)", icon=":material/emergency_home:")
+        else:
+            st.warning(f"**{title}** - {message} (`{code}`)", icon=":material/report:")
     if not items and empty:
         st.success(empty, icon=":material/check_circle:")
 

@@ -26,3 +26,20 @@ def test_compare_page_matches_the_cli_and_offers_downloads():
     assert shown[chosen[1]].tolist() == want[chosen[1]].tolist()
     labels = {b.label for b in at.get("download_button")}
     assert {"Download CSV", "Download XLSX", "Report (HTML)", "Download JSON"} <= labels
+
+
+def test_a_safety_warning_is_red_and_other_warnings_amber():
+    # Severity that matches risk: an inspired O2 below the threshold (a safety code of the registry)
+    # in red with its plain meaning first and the code after; the same warning shown once.
+    from streamlit.testing.v1 import AppTest
+
+    script = (
+        "from estimator_app.common import show_warnings\n"
+        "show_warnings([('INSPIRED_OXYGEN_LOW', 'falls to 25 %'), ('INSPIRED_OXYGEN_LOW', 'falls to 25 %'),"
+        " ('FLOWMETER_ACCURACY', 'readings within 2.5 %')])\n"
+    )
+    at = AppTest.from_string(script).run()
+    assert (
+        len(at.error) == 1 and at.error[0].value.startswith("Safety:") and "`INSPIRED_OXYGEN_LOW`" in at.error[0].value
+    )
+    assert len(at.warning) == 1 and "`FLOWMETER_ACCURACY`" in at.warning[0].value
