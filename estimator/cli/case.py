@@ -16,6 +16,9 @@ def case(
     file: Path = typer.Argument(..., help="Scenario TOML file (see the README)."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
     csv: Path | None = typer.Option(None, "--csv", help="Write the time series to this CSV file."),
+    report: Path | None = typer.Option(
+        None, "--report", help="Write a printable case plan (HTML: phases and dial, flow floor, totals, warnings)."
+    ),
     spread: int = typer.Option(
         0, "--spread", help="Also simulate N patients drawn from published between-patient variation (0 = off)."
     ),
@@ -25,7 +28,7 @@ def case(
     from ..inputs.scenario import load_scenario
     from ..simulation.engine import simulate
 
-    outputs = output_paths({"--csv": csv}, {"FILE": file})
+    outputs = output_paths({"--csv": csv, "--report": report}, {"FILE": file})
     scenario = load_scenario(file)
     result = simulate(scenario)
     band = None
@@ -35,6 +38,12 @@ def case(
         band = simulate_spread(scenario, spread, seed=seed)
     if "--csv" in outputs:
         write_output("--csv", outputs["--csv"], lambda p: result.series.to_csv(p, index=False))
+    if "--report" in outputs:
+        from ..planning.case_plan import case_plan_html
+        from ..planning.safety import flow_floor
+
+        page = case_plan_html(result, flow_floor(scenario, grid=False), band)
+        write_output("--report", outputs["--report"], lambda p: p.write_text(page, encoding="utf-8"))
     if json_out:
         out = result.to_json()
         if band is not None:

@@ -15,7 +15,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import spread_view, state
 from ..charts import show, time_course
-from ..common import downloads, flow_factor, show_warnings, unit
+from ..common import download_row, downloads, flow_factor, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
 
 
@@ -115,6 +115,14 @@ def totals_frame(result: Any) -> pd.DataFrame:
     """The totals table of ``lowflow case`` (estimator.simulation.totals_table), flows in the display unit."""
     rows = totals_rows(result, unit("flow"))
     return pd.DataFrame([{"quantity": r.label, "value": r.value, "unit": r.unit} for r in rows])
+
+
+def case_plan(result: Any) -> bytes:
+    """The printable plan of ``lowflow case --report`` (built when the button is pressed)."""
+    from estimator.planning.case_plan import case_plan_html
+    from estimator.planning.safety import flow_floor
+
+    return case_plan_html(result, flow_floor(result.scenario, grid=False)).encode("utf-8")
 
 
 def dial_frame(result: Any) -> pd.DataFrame | None:
@@ -225,6 +233,18 @@ def outputs(result: Any) -> None:
         st.dataframe(dials, hide_index=True, width="stretch")
 
     st.subheader("Download the results")
+    download_row(
+        [
+            (
+                "Case plan (printable HTML)",
+                lambda: case_plan(result),
+                "case_plan.html",
+                "text/html",
+                ":material/print:",
+            )
+        ],
+        "case.plan",
+    )
     downloads(
         "case_result",
         {"series": result.series, "totals": totals, "phases": phases},

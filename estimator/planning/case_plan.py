@@ -1,0 +1,116 @@
+"""A printable case plan: one self-contained HTML page that leads with what the anaesthetist sets.
+
+Order: the phases with their flows and the vaporizer dial (start, typical, end), the flow floor of
+each phase and what limits it, the totals (with P5-P95 when a patient spread was run), the warnings
+and the monitoring advice, then the dial every 10 minutes. Every text is escaped; the page carries
+the clinical caution (:func:`estimator.planning.exports.tables_report_html`).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pandas as pd
+
+from ..simulation.dial_schedule import dial_schedule
+from ..simulation.totals_table import totals_rows
+from .exports import tables_report_html
+
+#: What the page says about monitoring, whatever the plan (the caution of the tool, made concrete).
+MONITORING = (
+    "Monitor inspired O2 continuously with its low alarm set at or above the plan's threshold, and "
+    "end-tidal agent with its alarms; watch the reservoir bag, tidal volume and airway pressure at low "
+    "flow. Follow local practice and the agent's local labelling."
+)
+
+
+def _flows(phase: Any) -> tuple[float, float, float]:
+    return tuple(float(q.to("L/min").magnitude) for q in phase.flows())
+
+
+def plan_tables(result: Any, floor: Any | None = None, band: Any | None = None) -> dict[str, pd.DataFrame]:
+    """The plan's tables in the order the page shows them (see the module doc)."""
+    sc = result.scenario
+    dials = {d["index"]: d for d in dial_schedule(result.series, result.phases)}
+    phases = []
+    for rep, ph in zip(result.phases, sc.phases, strict=False):
+        o2, air, n2o = _flows(ph)
+        d = dials.get(rep["index"])
+        if d is not None:
+            dial = f"hold {ph.end_tidal_target:~P}: {d['dial_start']:.2f} % -> typical {d['dial_median']:.2f} % -> {d['dial_end']:.2f} %"
+        else:
+            dial = f"fixed {ph.vaporizer.to('percent').magnitude:g} %" if ph.vaporizer is not None else "-"
+        phases.append(
+            {
+                "phase": ph.label or f"phase {rep['index']}",
+                "from [min]": round(float(rep["start"].to("min").magnitude), 1),
+                "to [min]": round(float(rep["end"].to("min").magnitude), 1),
+                "O2 [L/min]": round(o2, 3),
+                "air [L/min]": round(air, 3),
+                "N2O [L/min]": round(n2o, 3),
+                "vaporizer dial": dial,
+            }
+        )
+    tables = {"Phases, flows and the vaporizer dial": pd.DataFrame(phases)}
+    if floor is not None:
+        tables["Flow floor of each phase"] = pd.DataFrame(
+            [
+                {
+                    "phase": p["label"],
+                    "floor [L/min]": None if p["floor"] is None else round(float(p["floor"].to("L/min").magnitude), 2),
+                    "limited by": p["binding"] or "-",
+                    "why": p["binding_text"],
+                }
+                for p in floor.phases
+            ]
+        )
+    rows = []
+    keyed = {"agent_liquid", "oxygen", "nitrous_oxide", "co2e"}
+    for r in totals_rows(result):
+        row = {"quantity": r.label, "value": round(r.value, 2), "unit": r.unit}
+        if band is not None:
+            row["P5-P95 over patients"] = band.band_text(r.key) if r.key in keyed else ""
+        rows.append(row)
+    tables["Totals"] = pd.DataFrame(rows)
+    tables["Dial every 10 min"] = pd.DataFrame(
+        [
+            {
+                "phase": d["index"],
+                "time [min]": r["time"],
+                "dial [%]": round(r["dial"], 2),
+                "end-tidal [%]": round(r["end_tidal"], 2),
+            }
+            for d in dials.values()
+            for r in d["table"]
+        ]
+    )
+    return tables
+
+
+def case_plan_html(result: Any, floor: Any | None = None, band: Any | None = None) -> str:
+    """The printable plan of a simulated case (and its flow floor, and patient spread, if given).
+
+    Examples
+    --------
+    >>> import estimator
+    >>> sc = estimator.scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "20 min", "oxygen": "1 L/min", "air": "1 L/min", "end_tidal_target": "1 MAC"}]})
+    >>> page = case_plan_html(estimator.simulate(sc))
+    >>> page.index("Phases, flows") < page.index("Totals") < page.index("Dial every 10 min")
+    True
+    """
+    sc = result.scenario
+    warnings = list(result.warnings) + (
+        [] if floor is None else [w for w in floor.warnings if w not in result.warnings]
+    )
+    notes = [
+        f"{sc.title or 'Case plan'}: {sc.agent.name}, {result.totals['duration'].to('min').magnitude:.0f} min, "
+        f"patient {sc.patient.weight.to('kg').magnitude:g} kg, {sc.patient.age.to('year').magnitude:g} years.",
+        MONITORING,
+    ]
+    if floor is not None:
+        notes.append(f"Recommended settable schedule: {floor.schedule_text}.")
+    notes.append("Gas litres: free gas at 15 degC and 101.325 kPa; flows as a flowmeter at the site shows them.")
+    return tables_report_html(
+        f"Case plan: {sc.title or sc.agent.name}", plan_tables(result, floor, band), notes=notes, warnings=warnings
+    )
