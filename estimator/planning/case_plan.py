@@ -12,7 +12,7 @@ from typing import Any
 
 import pandas as pd
 
-from ..simulation.dial_schedule import dial_schedule
+from ..simulation.dial_schedule import dial_schedule, dial_table
 from ..simulation.totals_table import totals_rows
 from .exports import tables_report_html
 
@@ -72,18 +72,7 @@ def plan_tables(result: Any, floor: Any | None = None, band: Any | None = None) 
             row["P5-P95 over patients"] = band.band_text(r.key) if r.key in keyed else ""
         rows.append(row)
     tables["Totals"] = pd.DataFrame(rows)
-    tables["Dial every 10 min"] = pd.DataFrame(
-        [
-            {
-                "phase": d["index"],
-                "time [min]": r["time"],
-                "dial [%]": round(r["dial"], 2),
-                "end-tidal [%]": round(r["end_tidal"], 2),
-            }
-            for d in dials.values()
-            for r in d["table"]
-        ]
-    )
+    tables["Dial every 10 min"] = dial_table(list(dials.values()))
     return tables
 
 

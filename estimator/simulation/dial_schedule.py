@@ -76,6 +76,28 @@ def dial_schedule(series: pd.DataFrame, phases: list[dict[str, Any]], step: floa
     return out
 
 
+def dial_table(schedule: list[dict[str, Any]]) -> pd.DataFrame:
+    """The rows of every hold phase's table as one frame: phase, time [min], dial [%], end-tidal [%].
+
+    >>> t = dial_table([{"index": 1, "table": [{"time": 8.0, "dial": 4.016, "end_tidal": 1.733}]}])
+    >>> list(t.columns), t["dial [%]"].tolist(), t["end-tidal [%]"].tolist()
+    (['phase', 'time [min]', 'dial [%]', 'end-tidal [%]'], [4.02], [1.73])
+    """
+    return pd.DataFrame(
+        [
+            {
+                "phase": d["index"],
+                "time [min]": r["time"],
+                "dial [%]": round(r["dial"], 2),
+                "end-tidal [%]": round(r["end_tidal"], 2),
+            }
+            for d in schedule
+            for r in d["table"]
+        ],
+        columns=["phase", "time [min]", "dial [%]", "end-tidal [%]"],
+    )
+
+
 def _minutes(value: Any) -> float:
     return float(value.to("min").magnitude) if hasattr(value, "to") else float(value)
 

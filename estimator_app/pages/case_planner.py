@@ -9,7 +9,7 @@ import pandas as pd
 import streamlit as st
 
 from estimator.properties import AGENTS
-from estimator.simulation.dial_schedule import dial_schedule, dial_text
+from estimator.simulation.dial_schedule import dial_schedule, dial_table, dial_text
 from estimator.simulation.totals_table import totals_rows
 from estimator.units import GAS_VOLUME_REFERENCE
 
@@ -127,17 +127,8 @@ def case_plan(result: Any) -> bytes:
 
 def dial_frame(result: Any) -> pd.DataFrame | None:
     """The dial of each end-tidal hold phase every 10 min (estimator.simulation.dial_schedule), or None."""
-    rows = [
-        {
-            "phase": d["index"],
-            "time [min]": r["time"],
-            "dial [%]": round(r["dial"], 2),
-            "end-tidal [%]": round(r["end_tidal"], 2),
-        }
-        for d in dial_schedule(result.series, result.phases)
-        for r in d["table"]
-    ]
-    return pd.DataFrame(rows) if rows else None
+    table = dial_table(dial_schedule(result.series, result.phases))
+    return table if len(table) else None
 
 
 def outputs(result: Any) -> None:
@@ -226,11 +217,11 @@ def outputs(result: Any) -> None:
     totals = totals_frame(result)
     with st.expander("All totals"):
         st.dataframe(totals, hide_index=True, width="stretch")
-    dials = dial_frame(result)
-    if dials is not None:
+    schedule = dial_schedule(result.series, result.phases)
+    if schedule:
         st.subheader("Vaporizer dial of the end-tidal holds")
-        st.caption(" ".join(dial_text(dial_schedule(result.series, result.phases))))
-        st.dataframe(dials, hide_index=True, width="stretch")
+        st.caption(" ".join(dial_text(schedule)))
+        st.dataframe(dial_table(schedule), hide_index=True, width="stretch")
 
     st.subheader("Download the results")
     download_row(
