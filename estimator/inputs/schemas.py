@@ -21,15 +21,20 @@ import pint
 from pydantic import BaseModel
 from pydantic.json_schema import GenerateJsonSchema
 
+from ..accounts.prices import PricesInput
 from ..errors import InputError
+from .casemix_schema import CaseMixInput
+from .inventory_file import Inventory
+from .policy_file import PolicyInput
+from .scenario import Scenario
 
 #: File kind -> (model of the file or of its table, name of the table the file may wrap it in).
-KINDS: dict[str, tuple[str, str | None]] = {
-    "scenario": ("estimator.inputs.scenario:Scenario", None),
-    "inventory": ("estimator.inputs.inventory_file:Inventory", None),
-    "case-mix": ("estimator.inputs.casemix_schema:CaseMixInput", None),
-    "prices": ("estimator.accounts.prices:PricesInput", "prices"),
-    "policy": ("estimator.inputs.policy_file:PolicyInput", "policy"),
+KINDS: dict[str, tuple[type[BaseModel], str | None]] = {
+    "scenario": (Scenario, None),
+    "inventory": (Inventory, None),
+    "case-mix": (CaseMixInput, None),
+    "prices": (PricesInput, "prices"),
+    "policy": (PolicyInput, "policy"),
 }
 DRAFT = "https://json-schema.org/draft/2020-12/schema"
 
@@ -45,19 +50,12 @@ class _TextDefaults(GenerateJsonSchema):
         return super().encode_default(dft)
 
 
-def _model(path: str) -> type[BaseModel]:
-    import importlib
-
-    module, name = path.split(":")
-    return getattr(importlib.import_module(module), name)
-
-
 def json_schema(kind: str) -> dict[str, Any]:
     """The JSON Schema (draft 2020-12) of one input file kind (a key of :data:`KINDS`)."""
     if kind not in KINDS:
         raise InputError("schema kind", kind, "one of " + ", ".join(KINDS))
-    path, table = KINDS[kind]
-    body = _model(path).model_json_schema(schema_generator=_TextDefaults)
+    model, table = KINDS[kind]
+    body = model.model_json_schema(schema_generator=_TextDefaults)
     title = f"lowflow-estimator {kind} file"
     if table is None:
         return {"$schema": DRAFT, "title": title, **{k: v for k, v in body.items() if k != "title"}}
