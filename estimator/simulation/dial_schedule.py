@@ -12,7 +12,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-#: Spacing of the rows of the table [min] (one setting every 10 minutes is what a hand can follow).
+#: Spacing of the rows of the table [min]: one setting every 10 minutes is what a hand can follow
+#: (common practice, no source).
 STEP_MIN = 10.0
 
 
