@@ -143,6 +143,8 @@ def n2o_cylinder(gross, tare, temperature="15 degC", **kw):
 # --- supply ----------------------------------------------------------------------------------------
 
 O2_CYL = '[[cylinders]]\nname = "A"\ngas = "oxygen"\nwater_capacity = "10 L"\npressure = "{bar} bar"\nreserve_pressure = "10 bar"\n'
+#: Stand-in for an engine result (the interface the supply planner uses: totals, warnings, scenario),
+#: shared by tests/test_codes.py and tests/test_supply.py.
 SUPPLY_CASE = SimpleNamespace(
     totals={
         "duration": Q_(90, "min"),

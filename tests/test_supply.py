@@ -1,17 +1,15 @@
 """Supply duration: runtimes, bottleneck, demand layout, sources by priority, bad input."""
 
-from dataclasses import dataclass, field
 from datetime import date
-from types import SimpleNamespace
 
 import numpy as np
 import pytest
+from code_inputs import SUPPLY_CASE as CASE
 from CoolProp.CoolProp import PropsSI
 
 from estimator.errors import InputError
 from estimator.physics.real_gas_table import TABLE_TOLERANCE
 from estimator.planning.supply import inventory_from_text, plan_supply
-from estimator.units import Q_
 
 START = "2026-03-02"  # a Monday
 O2 = """
@@ -22,31 +20,6 @@ water_capacity = "10 L"
 pressure = "{bar} bar"
 reserve_pressure = "10 bar"
 """
-
-
-@dataclass
-class StandIn:
-    """Stand-in for an engine result: the interface of the engine API (totals, warnings, scenario)."""
-
-    totals: dict
-    warnings: list = field(default_factory=list)
-    scenario: object = field(
-        default_factory=lambda: SimpleNamespace(
-            agent=SimpleNamespace(name="sevoflurane"), patient=SimpleNamespace(weight=Q_(70, "kg"), age=Q_(40, "year"))
-        )
-    )
-
-
-CASE = StandIn(
-    {
-        "duration": Q_(90, "min"),
-        "oxygen": Q_(60, "L"),
-        "air": Q_(20, "L"),
-        "nitrous_oxide": Q_(0, "L"),
-        "agent_liquid": Q_(12, "mL"),
-        "co2_absorbed": Q_(18, "L"),
-    }
-)
 
 
 def runner(path):
