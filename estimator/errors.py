@@ -7,7 +7,14 @@ would have been valid. The CLI prints ``str(error)`` as a single line and exits 
 from __future__ import annotations
 
 import os
+from collections.abc import Iterator
+from contextlib import contextmanager
+from contextvars import ContextVar
 from pathlib import Path
+
+#: The bytes of each file :func:`read_text_file` read inside :func:`reads_recorded` (resolved path ->
+#: bytes); None outside it, so nothing is kept by a library user who never asks.
+_READS: ContextVar[dict[Path, bytes] | None] = ContextVar("_READS", default=None)
 
 
 class InputError(ValueError):
@@ -70,6 +77,9 @@ def read_text_file(path: str | os.PathLike[str], field: str, expected: str) -> s
         if not p.is_file():  # a folder, a device or a pipe is never read (it could block)
             raise InputError(field, shown, expected)
         raw = p.read_bytes()
+        log = _READS.get()
+        if log is not None:
+            log[p.resolve()] = raw
     except (FileNotFoundError, IsADirectoryError, NotADirectoryError, ValueError):
         raise InputError(field, shown, expected) from None
     except OSError as exc:
@@ -78,3 +88,52 @@ def read_text_file(path: str | os.PathLike[str], field: str, expected: str) -> s
         return raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise InputError(field, shown, f"{expected} in UTF-8 text") from None
+
+
+@contextmanager
+def reads_recorded() -> Iterator[dict[Path, bytes]]:
+    """Keep the bytes of every file :func:`read_text_file` reads in this context.
+
+    The command line runs each verb inside it, so that the provenance of a ``--json`` document
+    digests the bytes the result was computed from, not a second read that could differ.
+
+    Yields
+    ------
+    dict
+        Resolved path -> the bytes read (filled as files are read).
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> with tempfile.TemporaryDirectory() as d, reads_recorded() as log:
+    ...     f = Path(d) / "a.toml"
+    ...     _ = f.write_bytes(b"x = 1")
+    ...     _ = read_text_file(f, "scenario", "an existing TOML file")
+    ...     _ = f.write_bytes(b"x = 2")
+    ...     bytes_read(f)
+    b'x = 1'
+    """
+    log: dict[Path, bytes] = {}
+    token = _READS.set(log)
+    try:
+        yield log
+    finally:
+        _READS.reset(token)
+
+
+def bytes_read(path: str | os.PathLike[str]) -> bytes:
+    """The bytes of ``path`` as :func:`read_text_file` read them inside :func:`reads_recorded`, else
+    the file's bytes now (a file read in blocks, such as an audit log, is not recorded).
+
+    Examples
+    --------
+    >>> bytes_read(Path(__file__)).startswith(b"#") or bytes_read(Path(__file__))[:3] == b'"' * 3
+    True
+    """
+    p = Path(path)
+    log = _READS.get()
+    if log is not None:
+        resolved = p.resolve()
+        if resolved in log:
+            return log[resolved]
+    return p.read_bytes()

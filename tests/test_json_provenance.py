@@ -36,3 +36,32 @@ def test_every_json_output_carries_the_caution_and_its_provenance(tmp_path):
         files = [Path(a) for a in argv[1:] if a.endswith((".toml", ".csv"))]
         assert [i["name"] for i in prov["inputs"]] == [f.name for f in files], verb
         assert [i["sha256"] for i in prov["inputs"]] == [hashlib.sha256(f.read_bytes()).hexdigest() for f in files]
+
+
+def test_provenance_digests_the_bytes_the_result_was_computed_from(tmp_path, capsys, monkeypatch):
+    # A file changed between the verb's read and the JSON output must not be digested a second time:
+    # the digest names the input the numbers came from.
+    import hashlib
+    import json
+    from pathlib import Path
+
+    import estimator.cli.outputs as outputs
+    from estimator.cli import main
+
+    demo = Path(__file__).resolve().parent.parent / "demo_cases" / "kestrel_lap_chole.toml"
+    case = tmp_path / "case.toml"
+    original = demo.read_bytes()
+    case.write_bytes(original)
+    real = outputs.json_text
+
+    def edit_then_write(*args, **kwargs):
+        case.write_bytes(original + b"\n# edited after the run\n")
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr("estimator.cli.case.json_text", edit_then_write)
+    try:
+        main(["case", str(case), "--json"])
+    except SystemExit as exc:
+        assert exc.code in (0, None)
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["provenance"]["inputs"][0]["sha256"] == hashlib.sha256(original).hexdigest()

@@ -16,7 +16,7 @@ import typer
 
 from .. import __version__
 from ..caution import CAUTION  # re-exported for the verbs
-from ..errors import InputError
+from ..errors import InputError, reads_recorded
 
 app = typer.Typer(
     name="lowflow",
@@ -79,7 +79,8 @@ def main(argv: list[str] | None = None) -> None:
 
     announce_first_compile(sys.argv[1:] if argv is None else argv)
     try:
-        rv = app(args=argv, standalone_mode=False)
+        with reads_recorded():  # provenance digests the bytes each result was computed from
+            rv = app(args=argv, standalone_mode=False)
     except InputError as exc:
         fail(str(exc))
     except no_args_is_help as exc:

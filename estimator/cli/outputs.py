@@ -132,16 +132,18 @@ def terminal_progress(label: str) -> Callable[[int, int], None]:
 
 def json_text(result: Any, verb: str, files: dict[str, Path | str | None] | None = None) -> str:
     """The ``--json`` document of a verb: the result, the clinical caution and its provenance (the
-    program, its version, the verb and each input file's name and SHA-256 digest)."""
+    program, its version, the verb and each input file's name and SHA-256 digest, of the bytes the
+    result was computed from when the verb runs inside :func:`estimator.errors.reads_recorded`)."""
     import json
 
     from ..caution import stamp
+    from ..errors import bytes_read
     from ..jsonout import jsonable
 
     doc = jsonable(result)
     if not isinstance(doc, dict):
         doc = {"result": doc}
-    inputs = {Path(p).name: Path(p).read_bytes() for p in (files or {}).values() if p is not None}
+    inputs = {Path(p).name: bytes_read(p) for p in (files or {}).values() if p is not None}
     return json.dumps(stamp(doc, f"lowflow {verb}", inputs), indent=2, allow_nan=False)
 
 
