@@ -24,6 +24,7 @@ from typing import Any
 
 import pint
 
+from .choices import CO2E_BASES
 from .errors import InputError
 from .units import Q_, ureg
 
@@ -39,13 +40,6 @@ CONFIDENCE_CODES = {
 #: Tissue groups of the uptake model, in state order.
 TISSUES = ("vrg", "muscle", "fat", "vpg")
 TISSUE_NAMES = {"vrg": "vessel-rich group", "muscle": "muscle group", "fat": "fat group", "vpg": "vessel-poor group"}
-#: Climate bases: key -> (property name in the data file, label shown beside every figure).
-CO2E_BASES = {
-    "ar6_gwp100": ("gwp100_ar6", "IPCC AR6 GWP100"),
-    "ar6_gwp20": ("gwp20_ar6", "IPCC AR6 GWP20"),
-    "ar5_gwp100": ("gwp100_ar5", "IPCC AR5 GWP100"),
-    "sulbaek2012_gwp100": ("gwp100_sulbaek2012", "Sulbaek Andersen et al. 2012 GWP100"),
-}
 
 
 class DataError(RuntimeError):

@@ -4,16 +4,17 @@ from __future__ import annotations
 
 import typer
 
+from ..choices import FileKind
 from . import app
 
 
 @app.command("schema")
 def schema(
-    kind: str = typer.Argument(..., help="scenario, inventory, case-mix, prices or policy."),
+    kind: FileKind = typer.Argument(..., help="The input file format."),
 ) -> None:
     """The JSON Schema (draft 2020-12) of an input file, for editors and other programs."""
     import json
 
     from ..inputs.schemas import json_schema
 
-    typer.echo(json.dumps(json_schema(kind), indent=2))
+    typer.echo(json.dumps(json_schema(kind.value), indent=2))

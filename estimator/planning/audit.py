@@ -62,6 +62,7 @@ import pandas as pd
 
 from ..accounts import carbon
 from ..accounts.costs import Prices, cost_table
+from ..choices import QUADRATURES
 from ..errors import InputError
 from ..inputs.audit_log import LogData, read_log
 from ..limits import INSPIRED_OXYGEN_FLOOR
@@ -72,7 +73,6 @@ from ..units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERAT
 from .audit_report import AuditResult, group_table, kpi_summary, totals_of
 from .flow_classes import FLOW_CLASS_SOURCE, FLOW_CLASSES, flow_class
 
-QUADRATURES = ("hold", "trapezoid")
 #: Minimum inspired O2 at low flow (the registry's INSPIRED_OXYGEN_FLOOR, Baum and Aitkenhead 1995).
 MIN_INSPIRED_OXYGEN = INSPIRED_OXYGEN_FLOOR
 UNITS = {
