@@ -6,6 +6,7 @@ Imports nothing from the package but its version, so every layer may use it.
 from __future__ import annotations
 
 import hashlib
+from collections.abc import Mapping
 from typing import Any
 
 CAUTION = (
@@ -15,7 +16,7 @@ CAUTION = (
 )
 
 
-def stamp(document: dict[str, Any], made_by: str, inputs: dict[str, bytes | None] | None = None) -> dict[str, Any]:
+def stamp(document: dict[str, Any], made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> dict[str, Any]:
     """A JSON document with the caution and where it came from added (``caution``, ``provenance``).
 
     Parameters
@@ -48,7 +49,7 @@ def stamp(document: dict[str, Any], made_by: str, inputs: dict[str, bytes | None
 PROGRAM = "lowflow-estimator"
 
 
-def provenance(made_by: str, inputs: dict[str, bytes | None] | None = None) -> dict[str, Any]:
+def provenance(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> dict[str, Any]:
     """Who made an output: the program, its version, the verb or page, each input's digest and size.
 
     Examples
@@ -66,7 +67,7 @@ def provenance(made_by: str, inputs: dict[str, bytes | None] | None = None) -> d
     return {"program": PROGRAM, "version": __version__, "made_by": made_by, "inputs": listed}
 
 
-def about_rows(made_by: str, inputs: dict[str, bytes | None] | None = None) -> list[tuple[str, str]]:
+def about_rows(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> list[tuple[str, str]]:
     """The caution and the provenance as (item, value) rows: a workbook's "about" sheet, or with
     :func:`comment_lines` the leading ``#`` lines of a CSV export.
 
@@ -81,7 +82,7 @@ def about_rows(made_by: str, inputs: dict[str, bytes | None] | None = None) -> l
     return rows
 
 
-def comment_lines(made_by: str, inputs: dict[str, bytes | None] | None = None) -> str:
+def comment_lines(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> str:
     """The leading lines of a CSV export, each starting with ``# ``: the caution, the program, its
     version and what made the file, each input's digest; then the table's header line follows.
 

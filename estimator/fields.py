@@ -29,10 +29,10 @@ Examples
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Annotated, Any
 
 import pint
-from pydantic import BaseModel, GetCoreSchemaHandler, GetJsonSchemaHandler
+from pydantic import BaseModel, BeforeValidator, GetCoreSchemaHandler, GetJsonSchemaHandler, WithJsonSchema
 from pydantic_core import CoreSchema, core_schema
 
 from .errors import InputError
@@ -136,8 +136,8 @@ def quantity(
     low: float,
     high: float,
     unit: str,
-    *,
     description: str = "",
+    *,
     low_open: bool = False,
     bare_unit: str | None = None,
     keep_text: bool = False,
@@ -168,6 +168,38 @@ def quantity(
         ``keep_text``); pydantic validates and describes the field through the spec's hooks.
     """
     return QuantitySpec(dimension, float(low), float(high), unit, description, low_open, bare_unit, keep_text)
+
+
+def _end_tidal_target(value: Any) -> pint.Quantity:
+    """An end-tidal hold target: a MAC multiple (above 0 to 3 MAC) or a fraction (above 0 to 20 %)."""
+    try:
+        q = parse_quantity(value, "", "mac")
+        if not 0.0 < q.magnitude <= 3.0:
+            raise ValueError("above 0 to 3 MAC, or a fraction such as '2 %'")
+        return q
+    except InputError:
+        pass
+    try:
+        q = parse_quantity(value, "", "fraction")
+    except InputError:
+        raise ValueError("a target such as '1 MAC' or '2 %'") from None
+    if not 0.0 < q.to("").magnitude <= 0.2:
+        raise ValueError("above 0 to 20 % (or a MAC multiple such as '1 MAC')")
+    return q
+
+
+#: The end-tidal target of a hold phase (a scenario's ``end_tidal_target``): a Quantity in MAC or a fraction.
+EndTidalTarget = Annotated[
+    pint.Quantity,
+    BeforeValidator(_end_tidal_target),
+    WithJsonSchema(
+        {
+            "type": "string",
+            "examples": ["1 MAC", "2 %"],
+            "description": "end-tidal agent to hold: above 0 to 3 MAC, or a fraction above 0 to 20 %",
+        }
+    ),
+]
 
 
 def quantity_spec(model: type[BaseModel], name: str) -> QuantitySpec | None:

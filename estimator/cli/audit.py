@@ -20,6 +20,7 @@ True
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from pathlib import Path
 
@@ -104,7 +105,7 @@ def audit_command(
 
     if prices is not None and demo_prices:
         raise InputError("--demo-prices", True, "either --prices FILE or --demo-prices, not both")
-    manifold_loss = _share(manifold_loss, "--manifold-loss")
+    loss = _share(manifold_loss, "--manifold-loss")
     outputs = output_paths(
         {"--report": report, "--xlsx": xlsx, "--csv": csv_out}, {"LOG": log, "--policy": policy, "--prices": prices}
     )
@@ -118,7 +119,7 @@ def audit_command(
             basis=basis.value,
             quadrature=quadrature.value,
             maintenance_after=maintenance_after,
-            manifold_loss=manifold_loss,
+            manifold_loss=loss,
         )
     if policy is not None:
         from ..planning.audit_policy import counterfactual
@@ -127,7 +128,7 @@ def audit_command(
             result,
             _policy(policy),
             prices=price_table,
-            manifold_loss=manifold_loss,
+            manifold_loss=loss,
             progress=terminal_progress("re-running cases at the policy flow"),
         )
         result = dataclasses.replace(result, counterfactual=cf)
@@ -138,7 +139,7 @@ def audit_command(
         ("--csv", exports.write_csv),
     ):
         if flag in outputs:
-            written.append(str(write_output(flag, outputs[flag], lambda p, w=writer: w(result, p))))
+            written.append(str(write_output(flag, outputs[flag], functools.partial(writer, result))))
     if json_out:
         files = {"LOG": log, "--policy": policy, "--prices": prices}
         typer.echo(json_text(result.to_json(), "audit", files))

@@ -80,7 +80,7 @@ def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
         if name not in SPEC:
             continue
         kind, default, canonical, _ = SPEC[name]
-        if kind == "text":
+        if kind == "text" or default is None:  # text columns have no unit
             if unit:
                 raise InputError(f"log column '{name}'", unit, "no unit (a text column)")
             continue

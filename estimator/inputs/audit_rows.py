@@ -92,7 +92,12 @@ class _Reasons:
         self.bad[idx] = True
         cells = raw() if raw is not None else None
         for i in idx:
-            msg = message(str(cells[i]).strip()) if callable(message) else message
+            if not callable(message):
+                msg = message
+            elif cells is None:
+                raise TypeError("a message made from the cells needs raw")
+            else:
+                msg = message(str(cells[i]).strip())
             self.text.setdefault(int(i), []).append(msg)
 
 

@@ -90,7 +90,7 @@ def parse_policy(data: dict[str, Any]) -> Policy:
     except ValidationError as exc:
         raise input_error_from_validation(exc, "policy", PolicyInput) from None
 
-    def q(value: str, field: str, dim: str, unit: str, lo: float, hi: float) -> float:
+    def q(value: AsGiven, field: str, dim: str, unit: str, lo: float, hi: float) -> float:
         v = parse_quantity(value, f"policy.{field}", dim, default_unit=None if dim == "fraction" else unit)
         check_range(v.to(unit), f"policy.{field}", lo, hi, value=value)
         return float(v.to(unit).magnitude)

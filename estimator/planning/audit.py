@@ -281,7 +281,7 @@ def audit(
             )
         )
 
-    notes = (
+    notes: tuple[str, ...] = (
         f"quadrature: {quadrature} ({'sample and hold, left-rectangle rule' if quadrature == 'hold' else 'trapezoid rule'})",
         "delivered vapour = carrier flow x D/(1 - D); liquid via ideal-gas molar volume at the reference, "
         "molar mass and liquid density",

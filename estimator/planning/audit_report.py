@@ -191,8 +191,8 @@ def _value(key: str, value: Any, basis: str) -> tuple[str, Any]:
     if key == "mac_hours":
         return key, None if value is None else {"magnitude": float(value), "units": "MAC_hour"}
     if key == "co2e_per_mac_hour_kg":
-        q = None if value is None else {"magnitude": float(value), "units": "kilogram / MAC_hour", "basis": basis}
-        return "co2e_per_mac_hour", q
+        per_mac = None if value is None else {"magnitude": float(value), "units": "kilogram / MAC_hour", "basis": basis}
+        return "co2e_per_mac_hour", per_mac
     if unit is None or key.startswith("cost_") or isinstance(value, str):
         return key, value.item() if isinstance(value, np.generic) else value
     name = key[: -len(next(s for s, u in UNIT_OF_SUFFIX if u == unit))]

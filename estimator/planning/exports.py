@@ -26,6 +26,7 @@ from __future__ import annotations
 import html
 import io
 import math
+from collections.abc import Sequence
 from pathlib import Path
 from typing import IO, TYPE_CHECKING, Any
 
@@ -254,7 +255,7 @@ def _page(title: str, body: str) -> str:
 <style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>{body}</body></html>"""
 
 
-def _warning_items(warnings: list[tuple[str, str]] | None) -> str:
+def _warning_items(warnings: Sequence[tuple[str, str]] | None) -> str:
     """List items of (code, message) warnings, escaped; one "None." item when there are none."""
     items = "".join(f"<li><b>{html.escape(c)}</b>: {html.escape(m)}</li>" for c, m in warnings or ())
     return items or "<li>None.</li>"

@@ -67,7 +67,7 @@ class SupplyReport:
         from ..jsonout import jsonable
 
         cols = [c for c in self.depletion.columns if c != "date"]
-        units = {re.sub(r" \[.*\]$", "", c): re.search(r"\[(.*)\]$", c).group(1) for c in cols}
+        units = {re.sub(r" \[.*\]$", "", c): m.group(1) if (m := re.search(r"\[(.*)\]$", c)) else "" for c in cols}
         depletion = {
             "day": self.depletion.index.tolist(),
             "date": [d.isoformat() for d in self.depletion["date"]],
