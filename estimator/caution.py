@@ -83,7 +83,7 @@ def about_rows(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -
 
 
 def comment_lines(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> str:
-    """The leading lines of a CSV export, each starting with ``# ``: the caution, the program, its
+    """The leading lines of a CSV export, each starting with ``#`` and a space: the caution, the program, its
     version and what made the file, each input's digest; then the table's header line follows.
 
     Read such a file with :func:`estimator.planning.exports.read_csv_export` (or ``pandas.read_csv``

@@ -76,7 +76,7 @@ class QuantitySpec:
         return DIMENSIONS[self.dimension][1]
 
     def parse(self, value: Any, field: str = "") -> pint.Quantity:
-        """``value`` as a Quantity within the range, or :class:`InputError` naming ``field``."""
+        """``value`` as a Quantity within the range, or :class:`~estimator.errors.InputError` naming ``field``."""
         if self.dimension == "pressure" and self.keep_text and isinstance(value, str):
             q = parse_pressure(value, field).quantity
         else:
@@ -170,7 +170,7 @@ def quantity(
     return QuantitySpec(dimension, float(low), float(high), unit, description, low_open, bare_unit, keep_text)
 
 
-def _end_tidal_target(value: Any) -> pint.Quantity:
+def parse_end_tidal_target(value: Any) -> pint.Quantity:
     """An end-tidal hold target: a MAC multiple (above 0 to 3 MAC) or a fraction (above 0 to 20 %)."""
     try:
         q = parse_quantity(value, "", "mac")
@@ -191,7 +191,7 @@ def _end_tidal_target(value: Any) -> pint.Quantity:
 #: The end-tidal target of a hold phase (a scenario's ``end_tidal_target``): a Quantity in MAC or a fraction.
 EndTidalTarget = Annotated[
     pint.Quantity,
-    BeforeValidator(_end_tidal_target),
+    BeforeValidator(parse_end_tidal_target),
     WithJsonSchema(
         {
             "type": "string",

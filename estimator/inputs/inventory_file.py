@@ -61,7 +61,8 @@ def _whole(low: int, high: int, what: str = "a whole number") -> AfterValidator:
     return AfterValidator(check)
 
 
-def _clock_check(value: Any) -> Any:
+def clock_check(value: Any) -> Any:
+    """A time of day for pydantic: "HH:MM" text is kept as given, anything else is checked as hours."""
     if isinstance(value, str) and ":" in value:
         m = CLOCK.fullmatch(value)
         if m is None or int(m.group(1)) > 23 or int(m.group(2)) > 59:
@@ -72,7 +73,7 @@ def _clock_check(value: Any) -> Any:
 
 _HOURS = QuantitySpec("time", 0.0, 24.0, "h", bare_unit="h", keep_text=True)
 #: A time of day: "08:30" (00:00 to 23:59) or hours after midnight, "8.5 h".
-Clock = Annotated[Value, BeforeValidator(_clock_check)]
+Clock = Annotated[Value, BeforeValidator(clock_check)]
 #: Concentrator product: an O2 fraction, or [flow, fraction] points of its curve (flows as for
 #: rated_flow); the curve's shape and the argon bound are checked with the rated flow (_purity_curve).
 _PURITY = QuantitySpec("fraction", 0.0, 1.0, "dimensionless", keep_text=True)

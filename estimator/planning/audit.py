@@ -129,7 +129,7 @@ def audit(
     prices : Prices, optional
         Without prices the cost columns are left out (and say so).
     basis : str
-        CO2e basis, a key of :data:`estimator.properties.CO2E_BASES`.
+        CO2e basis, a key of :data:`estimator.choices.CO2E_BASES`.
     quadrature : {"hold", "trapezoid"}
     maintenance_after : [min]
         Maintenance starts this long after a case's first sample.

@@ -104,7 +104,7 @@ def _kpi_rows(result: AuditResult) -> list[tuple[str, Any]]:
 
 
 def csv_text(frame: pd.DataFrame, made_by: str, inputs: dict[str, bytes | None] | None = None) -> str:
-    """A table as CSV text led by ``# `` lines: the caution and who made it (:func:`~estimator.caution.comment_lines`).
+    """A table as CSV text led by ``#`` lines: the caution and who made it (:func:`~estimator.caution.comment_lines`).
 
     Lines end in ``\\n`` on every platform; write the text with ``newline=""`` or as bytes.
 

@@ -45,7 +45,7 @@ class SupplyItem:
 
 @dataclass(frozen=True)
 class SupplyReport:
-    """Answer of :func:`plan_supply`; ``depletion`` has one row a day (start of the day), one column
+    """Answer of :func:`~estimator.planning.supply.plan_supply`; ``depletion`` has one row a day (start of the day), one column
     per stock item (remaining usable amount, units in the column name)."""
 
     title: str
