@@ -18,6 +18,7 @@ from typing import Any
 import typer
 
 from ..choices import Agent
+from ..errors import InputError
 from . import CAUTION, app
 from .outputs import json_text, option_names
 
@@ -143,5 +144,7 @@ def mac_command(
 ) -> None:
     """Age-corrected MAC (Mapleson 1996) and the end-tidal agent for a total MAC with nitrous oxide."""
 
+    if agent is None:  # typer before 0.17 with click 8.2 passes a missing required option as None
+        raise InputError("--agent", "(missing)", "one of " + ", ".join(a.value for a in Agent))
     r = mac_report(agent.value, age, nitrous_oxide, total, ambient_pressure, elevation)
     typer.echo(json_text(r, "mac") if json_out else _human(r))

@@ -5,6 +5,7 @@ from __future__ import annotations
 import typer
 
 from ..choices import FileKind
+from ..errors import InputError
 from . import app
 
 
@@ -17,4 +18,6 @@ def schema(
 
     from ..inputs.schemas import json_schema
 
+    if kind is None:  # typer before 0.17 with click 8.2 passes a missing required argument as None
+        raise InputError("KIND", "(missing)", "one of " + ", ".join(k.value for k in FileKind))
     typer.echo(json.dumps(json_schema(kind.value), indent=2))
