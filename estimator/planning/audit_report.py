@@ -102,7 +102,7 @@ class AuditResult:
 
     def table(self, name: str) -> pd.DataFrame:
         """The ``cases``, ``rooms`` or ``months`` table in the package's table convention: quantity
-        columns named ``name [unit]`` (:func:`unit_columns`), as a case result's ``series`` is."""
+        columns named ``name [unit]`` (:func:`~estimator.planning.audit_report.unit_columns`), as a case result's ``series`` is."""
         if name not in ("cases", "rooms", "months"):
             raise ValueError(f"table: one of cases, rooms, months (got {name!r})")
         return unit_columns(getattr(self, name))
