@@ -10,7 +10,8 @@ the model, so an app can build a number input with its unit, limits and help tex
 source. A field made with ``keep_text=True`` is checked and kept as given (:data:`AsGiven`). The
 type stays a plain ``Annotated`` type, so type checkers read the field's type.
 
-Each range is chosen where the field is declared, with its reason beside it.
+Each range is chosen where the field is declared, with its reason beside it. :data:`EndTidalTarget` is
+the one quantity field of two dimensions (a MAC multiple or an agent fraction).
 
 Examples
 --------
