@@ -54,7 +54,7 @@ def simulate(scenario: Any, **options: Any) -> Any:
     ----------
     scenario : Scenario or dict
         A validated scenario, or a parsed scenario document (validated here). A path or text is
-        refused: read a file with :func:`load_scenario`, parse text with :func:`scenario_from_text`.
+        refused: read a file with :func:`~estimator.inputs.scenario.load_scenario`, parse text with :func:`~estimator.inputs.scenario.scenario_from_text`.
     **options
         Passed on (``rtol``, ``patient``).
 

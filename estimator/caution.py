@@ -6,6 +6,7 @@ Imports nothing from the package but its version, so every layer may use it.
 from __future__ import annotations
 
 import hashlib
+from collections.abc import Mapping
 from typing import Any
 
 CAUTION = (
@@ -15,7 +16,7 @@ CAUTION = (
 )
 
 
-def stamp(document: dict[str, Any], made_by: str, inputs: dict[str, bytes | None] | None = None) -> dict[str, Any]:
+def stamp(document: dict[str, Any], made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> dict[str, Any]:
     """A JSON document with the caution and where it came from added (``caution``, ``provenance``).
 
     Parameters
@@ -39,6 +40,23 @@ def stamp(document: dict[str, Any], made_by: str, inputs: dict[str, bytes | None
     >>> d["provenance"]["program"], d["provenance"]["inputs"][0]["name"], d["caution"][:8]
     ('lowflow-estimator', 'case.toml', 'Planning')
     """
+    document["caution"] = CAUTION
+    document["provenance"] = provenance(made_by, inputs)
+    return document
+
+
+#: The program's name in every provenance record (JSON, CSV comment lines, workbook "about" sheets).
+PROGRAM = "lowflow-estimator"
+
+
+def provenance(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> dict[str, Any]:
+    """Who made an output: the program, its version, the verb or page, each input's digest and size.
+
+    Examples
+    --------
+    >>> sorted(provenance("lowflow case"))
+    ['inputs', 'made_by', 'program', 'version']
+    """
     from . import __version__
 
     listed = [
@@ -46,11 +64,35 @@ def stamp(document: dict[str, Any], made_by: str, inputs: dict[str, bytes | None
         for name, data in (inputs or {}).items()
         if data is not None
     ]
-    document["caution"] = CAUTION
-    document["provenance"] = {
-        "program": "lowflow-estimator",
-        "version": __version__,
-        "made_by": made_by,
-        "inputs": listed,
-    }
-    return document
+    return {"program": PROGRAM, "version": __version__, "made_by": made_by, "inputs": listed}
+
+
+def about_rows(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> list[tuple[str, str]]:
+    """The caution and the provenance as (item, value) rows: a workbook's "about" sheet, or with
+    :func:`comment_lines` the leading ``#`` lines of a CSV export.
+
+    Examples
+    --------
+    >>> [item for item, _ in about_rows("lowflow case", {"case.toml": b"x"})]
+    ['caution', 'made by', 'input']
+    """
+    made = provenance(made_by, inputs)
+    rows = [("caution", CAUTION), ("made by", f"{PROGRAM} {made['version']} ({made_by})")]
+    rows += [("input", f"{i['name']} (sha256 {i['sha256']}, {i['bytes']} bytes)") for i in made["inputs"]]
+    return rows
+
+
+def comment_lines(made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> str:
+    """The leading lines of a CSV export, each starting with ``#`` and a space: the caution, the program, its
+    version and what made the file, each input's digest; then the table's header line follows.
+
+    Read such a file with :func:`estimator.planning.exports.read_csv_export` (or ``pandas.read_csv``
+    with ``comment="#"`` when no text cell holds a ``#``).
+
+    Examples
+    --------
+    >>> print(comment_lines("lowflow case").splitlines()[1][:30])
+    # made by: lowflow-estimator 0
+    """
+    one_line = {ord("\r"): " ", ord("\n"): " "}  # a file name never starts a line of its own
+    return "".join(f"# {item}: {value.translate(one_line)}\n" for item, value in about_rows(made_by, inputs))

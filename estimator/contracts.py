@@ -31,7 +31,7 @@ from .errors import InputError, read_text_file
 
 
 def toml_from_text(text: str, name: str) -> dict[str, Any]:
-    """Parse TOML text, or raise an :class:`InputError` naming ``name`` (never quoting the text).
+    """Parse TOML text, or raise an :class:`~estimator.errors.InputError` naming ``name`` (never quoting the text).
 
     Parameters
     ----------
@@ -65,7 +65,7 @@ def _toml_reason(exc: tomllib.TOMLDecodeError) -> str:
 
 
 def read_toml(path: str | os.PathLike[str], name: str, expected: str) -> dict[str, Any]:
-    """Read and parse a TOML file; every failure is an :class:`InputError` naming ``name``.
+    """Read and parse a TOML file; every failure is an :class:`~estimator.errors.InputError` naming ``name``.
 
     Parameters
     ----------
@@ -88,7 +88,7 @@ def read_toml(path: str | os.PathLike[str], name: str, expected: str) -> dict[st
 
 
 def as_path(value: Any, name: str, expected: str) -> Path:
-    """``value`` as a :class:`~pathlib.Path`, or an :class:`InputError` for anything else."""
+    """``value`` as a :class:`~pathlib.Path`, or an :class:`~estimator.errors.InputError` for anything else."""
     if isinstance(value, bytes):
         value = os.fsdecode(value)
     if not isinstance(value, str | os.PathLike):
@@ -224,7 +224,7 @@ def _model_in(annotation: Any, depth: int = 0) -> type[BaseModel] | None:
 def input_error_from_validation(
     exc: ValidationError, prefix: str = "", model: type[BaseModel] | None = None
 ) -> InputError:
-    """The first error of a pydantic ValidationError as an :class:`InputError`, in our words.
+    """The first error of a pydantic ValidationError as an :class:`~estimator.errors.InputError`, in our words.
 
     The one converter of every contract. A value error raised as ``"key: expected text"`` by a
     model validator names its own key below the model's place.

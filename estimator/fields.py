@@ -3,19 +3,23 @@
 Dimension, unit, range and meaning are metadata a form can read, checked once where the file is
 parsed.
 
-``quantity("flow", 0, 15, "L/min", description=...)`` is a pydantic type: it parses ``"2 L/min"``
-(or a bare number in ``bare_unit``), refuses a wrong dimension or a value outside the range, and
-carries a :class:`QuantitySpec` that :func:`quantity_spec` reads back from the model, so an app can
-build a number input with its unit, limits and help text from the same source.
+``Annotated[Quantity, quantity("flow", 0, 15, "L/min", description=...)]`` is a pydantic field type:
+it parses ``"2 L/min"`` (or a bare number in ``bare_unit``), refuses a wrong dimension or a value
+outside the range, and carries the :class:`QuantitySpec` that :func:`quantity_spec` reads back from
+the model, so an app can build a number input with its unit, limits and help text from the same
+source. A field made with ``keep_text=True`` is checked and kept as given (:data:`AsGiven`). The
+type stays a plain ``Annotated`` type, so type checkers read the field's type.
 
-Each range is chosen where the field is declared, with its reason beside it.
+Each range is chosen where the field is declared, with its reason beside it. :data:`EndTidalTarget` is
+the one quantity field of two dimensions (a MAC multiple or an agent fraction).
 
 Examples
 --------
+>>> from typing import Annotated
 >>> from pydantic import BaseModel, ConfigDict
 >>> class Tank(BaseModel):
 ...     model_config = ConfigDict(arbitrary_types_allowed=True)
-...     flow: quantity("flow", 0, 15, "L/min", description="oxygen flow")
+...     flow: Annotated[Quantity, quantity("flow", 0, 15, "L/min", description="oxygen flow")]
 >>> Tank(flow="2 L/min").flow.to("mL/min").magnitude
 2000.0
 >>> s = quantity_spec(Tank, "flow")
@@ -29,7 +33,8 @@ from dataclasses import dataclass
 from typing import Annotated, Any
 
 import pint
-from pydantic import BaseModel, BeforeValidator, WithJsonSchema
+from pydantic import BaseModel, BeforeValidator, GetCoreSchemaHandler, GetJsonSchemaHandler, WithJsonSchema
+from pydantic_core import CoreSchema, core_schema
 
 from .errors import InputError
 from .units import DIMENSIONS, parse_pressure, parse_quantity, range_text
@@ -72,7 +77,7 @@ class QuantitySpec:
         return DIMENSIONS[self.dimension][1]
 
     def parse(self, value: Any, field: str = "") -> pint.Quantity:
-        """``value`` as a Quantity within the range, or :class:`InputError` naming ``field``."""
+        """``value`` as a Quantity within the range, or :class:`~estimator.errors.InputError` naming ``field``."""
         if self.dimension == "pressure" and self.keep_text and isinstance(value, str):
             q = parse_pressure(value, field).quantity
         else:
@@ -103,6 +108,15 @@ class QuantitySpec:
             "x-low-open": self.low_open,
         }
 
+    def __get_pydantic_core_schema__(self, source: Any, handler: GetCoreSchemaHandler) -> CoreSchema:
+        """The pydantic hook: :meth:`validate`, then a Quantity (or, with ``keep_text``, the value as given)."""
+        kept = core_schema.any_schema() if self.keep_text else core_schema.is_instance_schema(pint.Quantity)
+        return core_schema.no_info_before_validator_function(self.validate, kept)
+
+    def __get_pydantic_json_schema__(self, schema: CoreSchema, handler: GetJsonSchemaHandler) -> dict[str, Any]:
+        """The pydantic hook: :meth:`json_schema`."""
+        return self.json_schema()
+
     def validate(self, value: Any) -> Any:
         """The pydantic hook: the message (without field) becomes the error's expected text."""
         try:
@@ -112,18 +126,24 @@ class QuantitySpec:
         return value if self.keep_text else q
 
 
+#: The type of a quantity field.
+Quantity = pint.Quantity
+#: The type of a ``keep_text`` quantity field: checked, then kept as given (text or a number).
+AsGiven = str | float
+
+
 def quantity(
     dimension: str,
     low: float,
     high: float,
     unit: str,
-    *,
     description: str = "",
+    *,
     low_open: bool = False,
     bare_unit: str | None = None,
     keep_text: bool = False,
-) -> Any:
-    """A pydantic field type: a pint Quantity of ``dimension`` within [low, high] ``unit``.
+) -> QuantitySpec:
+    """The metadata of a quantity field: a pint Quantity of ``dimension`` within [low, high] ``unit``.
 
     Parameters
     ----------
@@ -144,12 +164,43 @@ def quantity(
 
     Returns
     -------
-    typing.Annotated
-        ``Annotated[Quantity, BeforeValidator, QuantitySpec]``.
+    QuantitySpec
+        Written in a model as ``Annotated[Quantity, quantity(...)]`` (``Annotated[AsGiven, ...]`` with
+        ``keep_text``); pydantic validates and describes the field through the spec's hooks.
     """
-    spec = QuantitySpec(dimension, float(low), float(high), unit, description, low_open, bare_unit, keep_text)
-    base = Any if keep_text else pint.Quantity  # kept as given: checked above, parsed again downstream
-    return Annotated[base, BeforeValidator(spec.validate), WithJsonSchema(spec.json_schema()), spec]
+    return QuantitySpec(dimension, float(low), float(high), unit, description, low_open, bare_unit, keep_text)
+
+
+def parse_end_tidal_target(value: Any) -> pint.Quantity:
+    """An end-tidal hold target: a MAC multiple (above 0 to 3 MAC) or a fraction (above 0 to 20 %)."""
+    try:
+        q = parse_quantity(value, "", "mac")
+        if not 0.0 < q.magnitude <= 3.0:
+            raise ValueError("above 0 to 3 MAC, or a fraction such as '2 %'")
+        return q
+    except InputError:
+        pass
+    try:
+        q = parse_quantity(value, "", "fraction")
+    except InputError:
+        raise ValueError("a target such as '1 MAC' or '2 %'") from None
+    if not 0.0 < q.to("").magnitude <= 0.2:
+        raise ValueError("above 0 to 20 % (or a MAC multiple such as '1 MAC')")
+    return q
+
+
+#: The end-tidal target of a hold phase (a scenario's ``end_tidal_target``): a Quantity in MAC or a fraction.
+EndTidalTarget = Annotated[
+    pint.Quantity,
+    BeforeValidator(parse_end_tidal_target),
+    WithJsonSchema(
+        {
+            "type": "string",
+            "examples": ["1 MAC", "2 %"],
+            "description": "end-tidal agent to hold: above 0 to 3 MAC, or a fraction above 0 to 20 %",
+        }
+    ),
+]
 
 
 def quantity_spec(model: type[BaseModel], name: str) -> QuantitySpec | None:

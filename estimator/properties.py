@@ -24,6 +24,7 @@ from typing import Any
 
 import pint
 
+from .choices import CO2E_BASES
 from .errors import InputError
 from .units import Q_, ureg
 
@@ -39,13 +40,6 @@ CONFIDENCE_CODES = {
 #: Tissue groups of the uptake model, in state order.
 TISSUES = ("vrg", "muscle", "fat", "vpg")
 TISSUE_NAMES = {"vrg": "vessel-rich group", "muscle": "muscle group", "fat": "fat group", "vpg": "vessel-poor group"}
-#: Climate bases: key -> (property name in the data file, label shown beside every figure).
-CO2E_BASES = {
-    "ar6_gwp100": ("gwp100_ar6", "IPCC AR6 GWP100"),
-    "ar6_gwp20": ("gwp20_ar6", "IPCC AR6 GWP20"),
-    "ar5_gwp100": ("gwp100_ar5", "IPCC AR5 GWP100"),
-    "sulbaek2012_gwp100": ("gwp100_sulbaek2012", "Sulbaek Andersen et al. 2012 GWP100"),
-}
 
 
 class DataError(RuntimeError):
@@ -103,6 +97,21 @@ class Species:
     def source_of(self, prop: str) -> Sourced:
         """The :class:`Sourced` record behind a property name as written in the data file."""
         return self.records[prop]
+
+
+#: What every volatile agent of the data file must give (the loader refuses an agent without one).
+AGENT_REQUIRED = ("mac40", "liquid_density", "vapour_pressure_20c", "vaporizer_max")
+
+
+@dataclass(frozen=True, kw_only=True)
+class VolatileAgent(Species):
+    """A volatile agent: a :class:`Species` whose MAC, liquid density, vapour pressure and highest dial
+    mark are always known (:data:`AGENT_REQUIRED`)."""
+
+    mac40: pint.Quantity
+    liquid_density: pint.Quantity
+    vapour_pressure_20c: pint.Quantity
+    vaporizer_max: pint.Quantity
 
 
 def _parse_value(name: str, prop: str, raw: Any) -> Any:
@@ -169,12 +178,12 @@ def _raw() -> dict[str, Any]:
     return tomllib.loads(text)
 
 
-def _build(name: str, kind: str, recs: dict[str, Sourced], formula: str) -> Species:
+def _fields(name: str, kind: str, recs: dict[str, Sourced], formula: str) -> dict[str, Any]:
     def val(key: str, default: Any = None) -> Any:
         return recs[key].value if key in recs else default
 
     gwp = {basis: recs[prop].value for basis, (prop, _) in CO2E_BASES.items() if prop in recs}
-    return Species(
+    return dict(
         name=name,
         kind=kind,
         molar_mass=val("molar_mass"),
@@ -192,11 +201,18 @@ def _build(name: str, kind: str, recs: dict[str, Sourced], formula: str) -> Spec
     )
 
 
-def _load() -> tuple[dict[str, Species], dict[str, Species]]:
+def _agent(name: str, recs: dict[str, Sourced], formula: str) -> VolatileAgent:
+    missing = [key for key in AGENT_REQUIRED if key not in recs]
+    if missing:
+        raise DataError(f"agents.toml [agents.{name}]: no {', '.join(missing)}")
+    return VolatileAgent(**_fields(name, "volatile", recs, formula))
+
+
+def _load() -> tuple[dict[str, VolatileAgent], dict[str, Species]]:
     data = _raw()
     recs = validate_records(data)
-    agents = {n: _build(n, p.get("kind", "volatile"), recs[n], p.get("formula", "")) for n, p in data["agents"].items()}
-    gases = {n: _build(n, "gas", recs[n], "") for n in data["gases"]}
+    agents = {n: _agent(n, recs[n], p.get("formula", "")) for n, p in data["agents"].items()}
+    gases = {n: Species(**_fields(n, "gas", recs[n], "")) for n in data["gases"]}
     return agents, gases
 
 
@@ -217,7 +233,7 @@ def _physiology() -> dict[str, dict[str, Sourced]]:
     return validate_records({"sources": _raw()["sources"], "physiology": _raw()["physiology"]})
 
 
-def agent(name: str, field_name: str = "agent.name") -> Species:
+def agent(name: str, field_name: str = "agent.name") -> VolatileAgent:
     """Look up a volatile agent by name (case-insensitive).
 
     Raises

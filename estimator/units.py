@@ -48,7 +48,7 @@ def _registry() -> pint.UnitRegistry:
     start); where that folder cannot be used the registry is built without a cache.
     """
     try:
-        reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
+        reg: pint.UnitRegistry = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
     except Exception:  # noqa: BLE001 - an unusable cache folder must never stop a run
         reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=None)
     reg.define("MAC = [anaesthetic_potency]")
@@ -74,7 +74,8 @@ def _cache_unit_parsing(reg: pint.UnitRegistry) -> None:
             return cached(input_string, as_delta, case_sensitive)
         return parse(input_string, as_delta, case_sensitive)
 
-    reg.parse_units_as_container = parse_units_as_container
+    # On this registry only, not its class (an instance attribute: mypy forbids assigning to a method).
+    setattr(reg, "parse_units_as_container", parse_units_as_container)  # noqa: B010
 
 
 ureg = _registry()
@@ -357,7 +358,7 @@ def parse_pressure(
         g = _GAUGE.match(unit)
         if g:
             marker = (g.group("p") or g.group("s") or g.group("w")).lower()
-            reference = "gauge" if marker.startswith("g") else "absolute"
+            reference: Literal["gauge", "absolute"] = "gauge" if marker.startswith("g") else "absolute"
             base = {"bar": "bar", "kpa": "kPa", "mpa": "MPa", "pa": "Pa", "psi": "psi"}[g.group("unit").lower()]
             return PressureReading(parse_quantity(f"{number} {base}", field, "pressure"), reference)
         if unit.lower().endswith(("g)", "a)")) or re.search(r"\bgram|\bg\b", unit):

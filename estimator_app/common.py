@@ -111,15 +111,19 @@ def show_warnings(warnings: Any, empty: str | None = None) -> None:
         st.success(empty, icon=":material/check_circle:")
 
 
-def xlsx_bytes(sheets: dict[str, pd.DataFrame]) -> bytes:
-    """An XLSX workbook with one sheet per frame; text cells are stored as text, never formulas."""
+def xlsx_bytes(sheets: dict[str, pd.DataFrame], made_by: str = "lowflow app") -> bytes:
+    """An XLSX workbook with one sheet per frame and an "about" sheet (the caution and who made it);
+    text cells are stored as text, never formulas."""
+    import pandas as pd
     from openpyxl import Workbook
 
+    from estimator.caution import about_rows
     from estimator.planning.exports import neutralise
 
     wb = Workbook()
     wb.remove(wb.active)
-    for name, frame in sheets.items():
+    about = pd.DataFrame(about_rows(made_by), columns=["item", "value"])
+    for name, frame in {**sheets, "about": about}.items():
         ws = wb.create_sheet(name[:31])
         ws.append([str(neutralise(str(c))) for c in frame.columns])
         for rec in frame.itertuples(index=False):
@@ -145,17 +149,18 @@ def _cell(v: Any) -> Any:
     return neutralise(str(v))
 
 
-def csv_bytes(frame: pd.DataFrame) -> bytes:
-    """CSV (UTF-8) of a frame with text cells neutralised against spreadsheet formulas."""
+def csv_bytes(frame: pd.DataFrame, made_by: str = "lowflow app") -> bytes:
+    """CSV (UTF-8) of a frame with text cells neutralised against spreadsheet formulas, led by ``#``
+    lines with the caution and who made it."""
     import pandas as pd
 
-    from estimator.planning.exports import neutralise
+    from estimator.planning.exports import csv_text, neutralise
 
     safe = frame.copy()
     for col in safe.columns:
         if not pd.api.types.is_numeric_dtype(safe[col]):
             safe[col] = safe[col].map(lambda v: neutralise(v) if isinstance(v, str) else v)
-    return safe.to_csv(index=False).encode("utf-8")
+    return csv_text(safe, made_by).encode("utf-8")
 
 
 def downloads(
@@ -175,6 +180,7 @@ def downloads(
     ``document`` may be a callable returning the JSON document.
     """
     first = next(iter(sheets.values()))
+    made_by = f"lowflow app: {stem.replace('_', ' ')}"
 
     def as_json() -> bytes:
         from estimator.caution import stamp
@@ -184,7 +190,7 @@ def downloads(
         doc = json.loads(doc) if isinstance(doc, str) else jsonable(doc)  # malformed: a bug, fail here
         if not isinstance(doc, dict):
             doc = {"result": doc}
-        return dumps(stamp(doc, f"lowflow app: {stem.replace('_', ' ')}")).encode("utf-8")
+        return dumps(stamp(doc, made_by)).encode("utf-8")
 
     def as_html() -> bytes:
         from estimator.planning.exports import tables_report_html
@@ -194,8 +200,8 @@ def downloads(
 
     download_row(
         [
-            ("Download CSV", lambda: csv_bytes(first), f"{stem}.csv", "text/csv", ":material/table_view:"),
-            ("Download XLSX", lambda: xlsx_bytes(sheets), f"{stem}.xlsx", XLSX, ":material/grid_on:"),
+            ("Download CSV", lambda: csv_bytes(first, made_by), f"{stem}.csv", "text/csv", ":material/table_view:"),
+            ("Download XLSX", lambda: xlsx_bytes(sheets, made_by), f"{stem}.xlsx", XLSX, ":material/grid_on:"),
             ("Report (HTML)", as_html, f"{stem}.html", "text/html", ":material/description:"),
             ("Download JSON", as_json, f"{stem}.json", "application/json", ":material/data_object:"),
         ],

@@ -136,6 +136,24 @@ def test_exports_are_safe_and_readable():
     assert ws["B3"].value == 2.0
 
 
+def test_downloads_carry_the_caution_and_the_generator():
+    # Issue 18: the CSV leads with "# " lines (caution, program and version); the workbook has an
+    # "about" sheet with the same; the table itself reads back unchanged.
+    import pandas as pd
+    from openpyxl import load_workbook
+
+    from estimator import __version__
+    from estimator.caution import CAUTION
+    from estimator.planning.exports import read_csv_export
+
+    frame = pd.DataFrame({"room": ["OR #2"], "value": [1.5]})
+    text = csv_bytes(frame, "lowflow app: case result").decode("utf-8")
+    assert text.startswith(f"# caution: {CAUTION}\n# made by: lowflow-estimator {__version__} (lowflow app: case")
+    pd.testing.assert_frame_equal(read_csv_export(io.StringIO(text)), frame)
+    about = load_workbook(io.BytesIO(xlsx_bytes({"cases": frame}, "lowflow app: x")))["about"]
+    assert dict(about.iter_rows(values_only=True))["caution"] == CAUTION
+
+
 def test_saved_scenario_is_toml_the_engine_accepts(planner):
     from estimator.inputs.scenario import scenario_from_text
 

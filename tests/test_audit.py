@@ -315,3 +315,22 @@ def test_cli_progress_is_silent_when_piped(capsys):
     show(0, 3)
     show(3, 3)
     assert capsys.readouterr().err == ""
+
+
+def test_audit_results_in_the_package_unit_convention():
+    # Issue 18: results leave the API as pint Quantities (scalars) or tables with "name [unit]" columns,
+    # as a case result does; the suffixed attributes and the JSON keys stay as they were (added, not renamed).
+    from estimator.planning.audit import audit
+
+    r = audit(DATA / "audit_two_rooms.csv")
+    cases = r.table("cases")
+    assert "co2e [kg]" in cases and "mean_maintenance_flow [L/min]" in cases and "co2e_kg" in r.cases
+    assert (cases["co2e [kg]"].to_numpy() == r.cases["co2e_kg"].to_numpy()).all()
+    assert not [c for c in r.table("rooms").columns if c.endswith(("_kg", "_l", "_ml", "_l_min"))]
+    q = r.total_quantities()
+    doc = r.to_json()["totals"]
+    assert q["co2e"].to("kg").magnitude == doc["co2e"]["magnitude"] == r.totals["co2e_kg"]
+    assert q["agent_liquid"].to("mL").magnitude == pytest.approx(r.totals["agent_liquid_ml"])
+    assert q["cases"] == r.totals["cases"] == 2
+    with pytest.raises(ValueError, match="cases, rooms, months"):
+        r.table("totals")

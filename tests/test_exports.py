@@ -33,7 +33,7 @@ def injected():
 def test_csv_export_guards_user_cells(injected, tmp_path):
     path = write_csv(injected, tmp_path / "cases.csv")
     with path.open(encoding="utf-8", newline="") as fh:
-        rows = list(csv.DictReader(fh))
+        rows = list(csv.DictReader(line for line in fh if not line.startswith("#")))
     ids = {r["case id"] for r in rows}
     assert ids == {'\'=HYPERLINK("http://example.invalid")', "'+cmd"}
     assert all(
@@ -44,6 +44,36 @@ def test_csv_export_guards_user_cells(injected, tmp_path):
     )
     assert {r["room"] for r in rows} == {"'@SUM(A1:A2)", "<script>alert(1)</script>"}
     assert any("[kg CO2e, IPCC AR6 GWP100]" in k for k in rows[0])
+
+
+def test_csv_export_leads_with_the_caution_and_the_generator(injected, tmp_path):
+    # Issue 18: CSV exports carry the caution and the generator line (program, version) as leading
+    # "# " lines; the package's own reader and pandas' comment="#" both read the table after them.
+    import pandas as pd
+
+    from estimator import __version__
+    from estimator.caution import CAUTION
+    from estimator.planning.exports import read_csv_export
+
+    path = write_csv(injected, tmp_path / "cases.csv")
+    lines = path.read_text(encoding="utf-8").splitlines()
+    assert lines[0] == f"# caution: {CAUTION}"
+    assert lines[1] == f"# made by: lowflow-estimator {__version__} (lowflow audit)"
+    table = read_csv_export(path)
+    assert "case id" in table.columns and not lines[2].startswith("#")
+    assert len(table) == len(injected.cases)
+    assert len(pd.read_csv(path, comment="#")) == len(injected.cases)
+
+
+def test_xlsx_about_sheet_names_the_generator(injected, tmp_path):
+    from openpyxl import load_workbook
+
+    from estimator import __version__
+    from estimator.caution import CAUTION
+
+    about = dict(load_workbook(write_xlsx(injected, tmp_path / "a.xlsx"))["about"].iter_rows(values_only=True))
+    assert about["caution"] == CAUTION
+    assert about["made by"] == f"lowflow-estimator {__version__} (lowflow audit)"
 
 
 def test_xlsx_export_has_no_formulas(injected, tmp_path):

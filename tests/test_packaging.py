@@ -45,3 +45,26 @@ def test_streamlit_is_required_only_by_the_app_extra(wheel):
     lines = [ln for ln in wheel.read(meta).decode().splitlines() if ln.startswith("Requires-Dist")]
     streamlit = [ln for ln in lines if "streamlit" in ln]
     assert streamlit and all("extra == 'app'" in ln for ln in streamlit)
+
+
+def test_project_urls_name_the_documentation_and_the_changelog(wheel):
+    # Issue 18: [project.urls] reach the package index as Project-URL lines. The project has no public
+    # address yet, so they are placeholders under the reserved .invalid domain (never a stranger's site).
+    urls = PYPROJECT["project"]["urls"]
+    assert {"Homepage", "Documentation", "Changelog", "Source", "Issues"} <= set(urls)
+    assert all(u.startswith("https://") for u in urls.values())
+    assert len({u.split("/")[2] for u in urls.values()}) == 1  # one address for all
+    meta = next(n for n in wheel.namelist() if n.endswith(".dist-info/METADATA"))
+    lines = [ln for ln in wheel.read(meta).decode().splitlines() if ln.startswith("Project-URL")]
+    assert any(ln.startswith("Project-URL: Documentation, ") for ln in lines), lines
+
+
+def test_readme_images_are_files_of_the_repository():
+    # The README shows docs/*.png by relative path: right in a checkout and on the source host. A package
+    # index renders the README without these files; the absolute address replaces the path at release
+    # (DEVELOPERS.md, "Releasing").
+    import re
+
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    images = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", readme)
+    assert images and all((ROOT / p).is_file() for p in images if not p.startswith("https://"))

@@ -157,7 +157,9 @@ def test_cli_case_json_contract(tmp_path, capsys):
         assert len(series[key]) == n and key in series["units"]
     assert "15 degC" in out["gas_volume_reference"]
     assert isinstance(out["warnings"], list)
-    assert csv.read_text().startswith("time [min]")
+    from estimator.planning.exports import read_csv_export
+
+    assert read_csv_export(csv).columns[0] == "time [min]"  # after the "# " caution and provenance lines
 
 
 def test_cli_case_summary_and_errors(tmp_path, capsys):

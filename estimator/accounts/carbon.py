@@ -15,7 +15,7 @@ What is counted
 * **Supply carbon** (optional): making and delivering the oxygen and the absorbent, per unit, from
   ``estimator/data/carbon.toml`` or user factors. It is reported apart from the released gases.
 
-CO2e = mass x GWP, with the GWP of the chosen basis (:data:`estimator.properties.CO2E_BASES`).
+CO2e = mass x GWP, with the GWP of the chosen basis (:data:`estimator.choices.CO2E_BASES`).
 Every figure carries its basis key and label.
 
 Masses from gas volumes use the ideal-gas molar volume at the volume's reference (15 degC,
@@ -332,7 +332,7 @@ def case_carbon(
         15 degC and 101.325 kPa.
     agent_name : str or None
     basis : str
-        A key of :data:`estimator.properties.CO2E_BASES`.
+        A key of :data:`estimator.choices.CO2E_BASES`.
     manifold_loss : float
         Share of supplied N2O lost before use (piped supply), 0 to below 1.
     supply : bool

@@ -2,7 +2,7 @@
 
 One rule (:func:`cost_arrays`) on plain arrays serves a single case (:func:`case_cost`) and many
 (:func:`cost_table`). An item used but not priced is listed in ``unpriced``, never silently costed
-at zero without saying so. The prices themselves (the TOML contract, :class:`Prices`) are read by
+at zero without saying so. The prices themselves (the TOML contract, :class:`~estimator.accounts.prices.Prices`) are read by
 :mod:`estimator.accounts.prices`, whose names stay importable from here.
 
 Cost of agent = liquid mL x price per mL (Dion's vapour-cost formula gives the liquid from dial,

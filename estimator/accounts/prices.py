@@ -24,7 +24,7 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, ValidationError
 
 from ..contracts import input_error_from_validation, read_toml, toml_from_text
 from ..errors import InputError
-from ..fields import quantity
+from ..fields import AsGiven, quantity
 from ..properties import AGENTS
 from ..units import Q_, check_range, parse_quantity
 
@@ -57,7 +57,9 @@ class AgentPriceInput(BaseModel):
     model_config = ConfigDict(extra="forbid", arbitrary_types_allowed=True)
     agent_bottle: Price | None = None
     # Agent bottles hold 1 mL to 5 L (250 mL is usual; practical limits, no source).
-    bottle_volume: quantity("volume", 1.0, 5000.0, "mL", bare_unit="mL", keep_text=True) | None = None
+    bottle_volume: Annotated[AsGiven, quantity("volume", 1.0, 5000.0, "mL", bare_unit="mL", keep_text=True)] | None = (
+        None
+    )
     agent_per_ml: Price | None = None
 
 
@@ -67,7 +69,7 @@ class CylinderPriceInput(BaseModel):
     model_config = ConfigDict(extra="forbid", arbitrary_types_allowed=True)
     price: Price
     # Free gas of one cylinder: 1 L to 100 000 L (the largest bulk cylinders hold about 10 000 L).
-    contents: quantity("volume", 1.0, 100000.0, "L", bare_unit="L", keep_text=True)
+    contents: Annotated[AsGiven, quantity("volume", 1.0, 100000.0, "L", bare_unit="L", keep_text=True)]
 
 
 class PricesInput(AgentPriceInput):

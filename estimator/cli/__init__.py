@@ -68,10 +68,11 @@ def fail(message: str) -> None:
 
 def main(argv: list[str] | None = None) -> None:
     """Console-script entry point; maps every user error to one line and exit status 2."""
-    try:
-        from typer._click import exceptions as click_exc  # typer >= 0.20 vendors click
-    except ImportError:  # pragma: no cover - older typer uses click itself
-        from click import exceptions as click_exc
+    import importlib.util
+
+    # typer >= 0.20 vendors click (typer._click); older typer uses click itself.
+    vendored = importlib.util.find_spec("typer._click") is not None
+    click_exc = importlib.import_module("typer._click.exceptions" if vendored else "click.exceptions")
     # click < 8.2 has no NoArgsIsHelpError (it prints the help and exits 0 itself); () matches nothing.
     no_args_is_help = getattr(click_exc, "NoArgsIsHelpError", ())
 

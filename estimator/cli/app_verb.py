@@ -21,13 +21,14 @@ def app_command(
 
     if not 1024 <= port <= 65535:
         raise InputError("--port", port, "1024 to 65535")
-    if importlib.util.find_spec("streamlit") is None or importlib.util.find_spec("estimator_app") is None:
+    app_spec = importlib.util.find_spec("estimator_app")
+    if importlib.util.find_spec("streamlit") is None or app_spec is None or app_spec.origin is None:
         raise InputError(
             "lowflow app",
             "not installed",
             "the app extra: pip install 'lowflow-estimator[app]' (or uv sync in a checkout)",
         )
-    script = Path(importlib.util.find_spec("estimator_app").origin).parent / "run.py"
+    script = Path(app_spec.origin).parent / "run.py"
     argv = [sys.executable, "-m", "streamlit", "run", str(script), "--server.port", str(port)]
     argv += ["--server.headless", "false" if browser else "true"]
     # Streamlit reads .streamlit/config.toml (theme, upload cap, no error details, no usage

@@ -20,11 +20,13 @@ True
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from pathlib import Path
 
 import typer
 
+from ..choices import Basis, Quadrature
 from ..errors import InputError
 from . import CAUTION, app
 from .outputs import json_text, option_names, output_paths, terminal_progress, write_output
@@ -45,7 +47,7 @@ def _as_option(exc: InputError, name: str, flag: str) -> InputError:
     return InputError(flag, exc.value, exc.expected) if whole else exc
 
 
-def _policy(path: str):
+def _policy(path: Path):
     from ..planning.audit_policy import load_policy
 
     try:
@@ -54,7 +56,7 @@ def _policy(path: str):
         raise _as_option(exc, "policy", "--policy") from None
 
 
-def _prices(path: str):
+def _prices(path: Path):
     from ..accounts.costs import load_prices
 
     try:
@@ -77,18 +79,18 @@ def _fmt(v: float, unit: str = "") -> str:
 
 @app.command("audit")
 def audit_command(
-    log: str = typer.Argument(..., help="Audit log CSV (see the README for the columns and units)."),
-    policy: str | None = typer.Option(None, "--policy", help="Low-flow policy TOML for the counterfactual."),
-    basis: str = typer.Option(
-        "ar6_gwp100", "--basis", help="CO2e basis: ar6_gwp100, ar6_gwp20, ar5_gwp100, sulbaek2012_gwp100."
-    ),
-    prices: str | None = typer.Option(None, "--prices", help="Prices TOML ([prices] table)."),
+    log: Path = typer.Argument(..., help="Audit log CSV (see the README for the columns and units)."),
+    policy: Path | None = typer.Option(None, "--policy", help="Low-flow policy TOML for the counterfactual."),
+    basis: Basis = typer.Option(Basis.AR6_GWP100, "--basis", help="CO2e basis (global warming potential)."),
+    prices: Path | None = typer.Option(None, "--prices", help="Prices TOML ([prices] table)."),
     demo_prices: bool = typer.Option(False, "--demo-prices", help="Use the invented demo prices."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON document."),
-    report: str | None = typer.Option(None, "--report", help="Write a self-contained HTML report."),
-    xlsx: str | None = typer.Option(None, "--xlsx", help="Write an XLSX workbook."),
-    csv_out: str | None = typer.Option(None, "--csv", help="Write the per-case table as CSV."),
-    quadrature: str = typer.Option("hold", "--quadrature", help="hold (sample and hold) or trapezoid."),
+    report: Path | None = typer.Option(None, "--report", help="Write a self-contained HTML report."),
+    xlsx: Path | None = typer.Option(None, "--xlsx", help="Write an XLSX workbook."),
+    csv_out: Path | None = typer.Option(None, "--csv", help="Write the per-case table as CSV."),
+    quadrature: Quadrature = typer.Option(
+        Quadrature.HOLD, "--quadrature", help="hold (sample and hold) or trapezoid rule between samples."
+    ),
     maintenance_after: str = typer.Option(
         "10 min", "--maintenance-after", help="Maintenance starts this long after a case's first sample."
     ),
@@ -103,21 +105,21 @@ def audit_command(
 
     if prices is not None and demo_prices:
         raise InputError("--demo-prices", True, "either --prices FILE or --demo-prices, not both")
-    manifold_loss = _share(manifold_loss, "--manifold-loss")
+    loss = _share(manifold_loss, "--manifold-loss")
     outputs = output_paths(
         {"--report": report, "--xlsx": xlsx, "--csv": csv_out}, {"LOG": log, "--policy": policy, "--prices": prices}
     )
     price_table = _prices(prices) if prices is not None else (DEMO_PRICES if demo_prices else None)
-    if not Path(log).is_file():
-        raise InputError("LOG", log, "an existing CSV file")
+    if not log.is_file():
+        raise InputError("LOG", str(log), "an existing CSV file")
     with option_names(_AUDIT_OPTIONS):
         result = audit(
             log,
             prices=price_table,
-            basis=basis,
-            quadrature=quadrature,
+            basis=basis.value,
+            quadrature=quadrature.value,
             maintenance_after=maintenance_after,
-            manifold_loss=manifold_loss,
+            manifold_loss=loss,
         )
     if policy is not None:
         from ..planning.audit_policy import counterfactual
@@ -126,7 +128,7 @@ def audit_command(
             result,
             _policy(policy),
             prices=price_table,
-            manifold_loss=manifold_loss,
+            manifold_loss=loss,
             progress=terminal_progress("re-running cases at the policy flow"),
         )
         result = dataclasses.replace(result, counterfactual=cf)
@@ -137,7 +139,7 @@ def audit_command(
         ("--csv", exports.write_csv),
     ):
         if flag in outputs:
-            written.append(str(write_output(flag, outputs[flag], lambda p, w=writer: w(result, p))))
+            written.append(str(write_output(flag, outputs[flag], functools.partial(writer, result))))
     if json_out:
         files = {"LOG": log, "--policy": policy, "--prices": prices}
         typer.echo(json_text(result.to_json(), "audit", files))

@@ -37,7 +37,10 @@ def case(
 
         band = simulate_spread(scenario, spread, seed=seed)
     if "--csv" in outputs:
-        write_output("--csv", outputs["--csv"], lambda p: result.series.to_csv(p, index=False))
+        from ..planning.exports import csv_text
+
+        text = csv_text(result.series, "lowflow case", {file.name: file.read_bytes()})
+        write_output("--csv", outputs["--csv"], lambda p: p.write_text(text, encoding="utf-8", newline=""))
     if "--report" in outputs:
         from ..planning.case_plan import case_plan_html
         from ..planning.safety import flow_floor

@@ -17,6 +17,8 @@ from typing import Any
 
 import typer
 
+from ..choices import Agent
+from ..errors import InputError
 from . import CAUTION, app
 from .outputs import json_text, option_names
 
@@ -126,7 +128,7 @@ def _human(r: dict[str, Any]) -> str:
 
 @app.command("mac")
 def mac_command(
-    agent: str = typer.Option(..., "--agent", help="Volatile agent: sevoflurane, isoflurane, desflurane, halothane."),
+    agent: Agent = typer.Option(..., "--agent", case_sensitive=False, help="Volatile agent."),
     age: str = typer.Option(..., "--age", help="Age, e.g. '70' or '70 years' (0 to 120; the fit holds above 1 year)."),
     nitrous_oxide: str | None = typer.Option(None, "--nitrous-oxide", help="End-tidal nitrous oxide, e.g. '67 %'."),
     total: str | None = typer.Option(
@@ -142,5 +144,7 @@ def mac_command(
 ) -> None:
     """Age-corrected MAC (Mapleson 1996) and the end-tidal agent for a total MAC with nitrous oxide."""
 
-    r = mac_report(agent, age, nitrous_oxide, total, ambient_pressure, elevation)
+    if agent is None:  # typer before 0.17 with click 8.2 passes a missing required option as None
+        raise InputError("--agent", "(missing)", "one of " + ", ".join(a.value for a in Agent))
+    r = mac_report(agent.value, age, nitrous_oxide, total, ambient_pressure, elevation)
     typer.echo(json_text(r, "mac") if json_out else _human(r))

@@ -14,7 +14,7 @@ estimator.errors.InputError: --csv: got 'log.csv'; expected a file other than th
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Mapping
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
@@ -86,7 +86,7 @@ def write_output(flag: str, path: Path, writer: Callable[[Path], Any]) -> Any:
 
 
 @contextmanager
-def option_names(mapping: dict[str, str | None]) -> Iterator[None]:
+def option_names(mapping: Mapping[str, str | None]) -> Iterator[None]:
     """Rename an :class:`InputError` about a field set by an option to that option.
 
     Parameters
@@ -130,7 +130,7 @@ def terminal_progress(label: str) -> Callable[[int, int], None]:
     return show
 
 
-def json_text(result: Any, verb: str, files: dict[str, Path | str | None] | None = None) -> str:
+def json_text(result: Any, verb: str, files: Mapping[str, Path | str | None] | None = None) -> str:
     """The ``--json`` document of a verb: the result, the clinical caution and its provenance (the
     program, its version, the verb and each input file's name and SHA-256 digest, of the bytes the
     result was computed from when the verb runs inside :func:`estimator.errors.reads_recorded`)."""

@@ -37,7 +37,7 @@ def render(report: SupplyReport) -> str:
             f"{i.name[:28]:<28} {i.kind:<12} {_amount(i.usable):>16} {_amount(i.draw_per_day):>16} {_runtime(i):>12}"
         )
     lines.append("")
-    if report.bottleneck is None:
+    if report.bottleneck is None or report.days_of_supply is None:
         lines.append("Bottleneck: none - no supply runs out under this plan.")
     else:
         days = report.days_of_supply.to("day").magnitude
@@ -46,7 +46,8 @@ def render(report: SupplyReport) -> str:
         )
         if report.cases_possible is not None:
             lines.append(f"Cases possible before then: {report.cases_possible}")
-        lines.append(f"Reorder by: {report.reorder_by.isoformat()}")
+        if report.reorder_by is not None:
+            lines.append(f"Reorder by: {report.reorder_by.isoformat()}")
     lines.append(f"Gas volumes: {report.gas_volume_reference}.")
     if report.warnings:
         lines += ["", "Warnings:"] + [f"  [{c}] {m}" for c, m in report.warnings]

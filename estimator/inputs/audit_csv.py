@@ -1,7 +1,7 @@
 r"""The CSV layer of the audit log: the header and its units, and the rows of each block.
 
 The header names the columns, each with an optional unit in square brackets. The rows are read
-block by block (:mod:`estimator.audit_source`); each row carries the physical line it starts on (the
+block by block (:mod:`estimator.inputs.audit_source`); each row carries the physical line it starts on (the
 header is line 1), counted the same by the fast C reader and by the csv module: a quoted cell
 spanning lines moves later rows. A block goes to the C reader when it reads one record a line and no
 row has more cells than the header; otherwise the csv module reads it (continuing into the next
@@ -80,7 +80,7 @@ def _header(raw: list[str]) -> tuple[list[str], dict[str, float | str]]:
         if name not in SPEC:
             continue
         kind, default, canonical, _ = SPEC[name]
-        if kind == "text":
+        if kind == "text" or default is None:  # text columns have no unit
             if unit:
                 raise InputError(f"log column '{name}'", unit, "no unit (a text column)")
             continue

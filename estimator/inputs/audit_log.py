@@ -1,13 +1,13 @@
 """Reading and strict validation of a fresh-gas audit log (CSV, one row per sample).
 
 The header names the columns, each with an optional unit in square brackets; file-level problems
-(missing required column, duplicated or unknown-unit column) raise :class:`InputError` naming the
+(missing required column, duplicated or unknown-unit column) raise :class:`~estimator.errors.InputError` naming the
 column. Row problems reject the row with its line number and reason; nothing is dropped silently.
 The accepted rows come back as plain floats in fixed units (minutes, L/min, fractions 0-1, kg,
-years), sorted per case, ready for vectorised integration by :mod:`estimator.audit`.
+years), sorted per case, ready for vectorised integration by :mod:`estimator.planning.audit`.
 
-The log is read in blocks of about ``block_bytes`` [bytes] (:mod:`estimator.audit_source`), so a log
-larger than memory is never held whole: each block's rows are checked (:mod:`estimator.audit_rows`)
+The log is read in blocks of about ``block_bytes`` [bytes] (:mod:`estimator.inputs.audit_source`), so a log
+larger than memory is never held whole: each block's rows are checked (:mod:`estimator.inputs.audit_rows`)
 and only the rows used are kept, as codes and floats. Rows read, used and rejected, line numbers,
 messages and results are the same whatever the block size.
 
@@ -62,7 +62,7 @@ def read_log(source: Any, *, block_bytes: int = BLOCK_BYTES) -> LogData:
     ----------
     source : str, os.PathLike, file object or bytes
         A path (a string is always a path), an open file, or the bytes of an upload. CSV text goes
-        to :func:`log_from_text`.
+        to :func:`~estimator.inputs.audit_log.log_from_text`.
     block_bytes : int
         Bytes read at a time [bytes]; the result does not depend on it.
 

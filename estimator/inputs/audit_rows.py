@@ -1,7 +1,7 @@
 """Row rules of the audit log, applied chunk by chunk with what earlier chunks left behind.
 
-Each chunk of rows (:func:`estimator.audit_csv.chunks`) is checked against the rules of
-:mod:`estimator.audit_log`; the rows used are kept as compact columns (codes for case ids, agents
+Each chunk of rows (:func:`estimator.inputs.audit_csv.chunks`) is checked against the rules of
+:mod:`estimator.inputs.audit_log`; the rows used are kept as compact columns (codes for case ids, agents
 and rooms, floats in the canonical units, minutes for times), the rest are reported with their line
 and reasons. A rule that spans chunks keeps its state here: the one code of each case id, agent and
 room, and the kind of time (elapsed or timestamp) each case started with. A chunked read therefore
@@ -92,7 +92,12 @@ class _Reasons:
         self.bad[idx] = True
         cells = raw() if raw is not None else None
         for i in idx:
-            msg = message(str(cells[i]).strip()) if callable(message) else message
+            if not callable(message):
+                msg = message
+            elif cells is None:
+                raise TypeError("a message made from the cells needs raw")
+            else:
+                msg = message(str(cells[i]).strip())
             self.text.setdefault(int(i), []).append(msg)
 
 

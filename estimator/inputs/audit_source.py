@@ -1,7 +1,7 @@
 r"""The bytes of an audit log, chosen by the type of its source, in blocks cut at line ends.
 
 A log arrives as a path (a string is always a path), an open file, the bytes of an upload, or, through
-:func:`estimator.audit_log.log_from_text`, as CSV text; text is never taken for a path. The log is
+:func:`estimator.inputs.audit_log.log_from_text`, as CSV text; text is never taken for a path. The log is
 read in blocks of about ``block_bytes`` [bytes], each ending at a line end (``\n``, ``\r\n`` or
 ``\r``) or at the end of the log, so a log larger than memory is never held whole. Every block is
 checked as UTF-8 text; leading byte-order marks are dropped.

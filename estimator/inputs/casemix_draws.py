@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any, Literal
+from typing import Any, Literal, overload
 
 import numpy as np
 from scipy.special import ndtr, ndtri
@@ -92,6 +92,10 @@ class Distribution:
         return self.loc
 
 
+@overload
+def quantity_in(value: None, where: str, dim: str, unit: str, lo: float, hi: float) -> None: ...
+@overload
+def quantity_in(value: str | float, where: str, dim: str, unit: str, lo: float, hi: float) -> float: ...
 def quantity_in(value: Any, where: str, dim: str, unit: str, lo: float, hi: float) -> float | None:
     """A case-mix value in ``unit`` checked against ``lo``-``hi`` (None when not given)."""
     if value is None:

@@ -105,7 +105,7 @@ def case_type_rows(text: str, keys: tuple[str, ...], field: str = "case_types_fi
     for i, h in enumerate(header, start=1):
         m = _HEADER.match(h)
         key = m.group(1) if m else ""
-        if key not in keys:
+        if m is None or key not in keys:
             close = difflib.get_close_matches(key.lower(), keys, n=1) if m else []
             hint = f" (did you mean {close[0]}?)" if close else ""
             raise InputError(
@@ -114,7 +114,7 @@ def case_type_rows(text: str, keys: tuple[str, ...], field: str = "case_types_fi
                 f"a case-type key such as 'duration_median [min]'{hint}; keys: " + ", ".join(keys),
             )
         cols.append((key, (m.group(2) or "").strip()))
-    out = []
+    out: list[dict[str, Any]] = []
     try:
         for cells in reader:
             if not any(x.strip() for x in cells):

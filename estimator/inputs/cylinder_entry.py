@@ -24,8 +24,8 @@ def cylinder_from_fields(entry: Any, gas: str, where: str, **options: Any) -> Cy
 
     Nitrous oxide is counted by weight (``gross_weight``, ``tare_weight``, ``reserve_weight``),
     oxygen and air by pressure (``water_capacity``, ``pressure``, ``reserve_pressure``); a missing
-    required field is an InputError naming it. ``options`` go to :func:`nitrous_oxide_cylinder` or
-    :func:`compressed_cylinder` (``count``, ``ambient_pressure``...).
+    required field is an InputError naming it. ``options`` go to :func:`~estimator.physics.cylinders.nitrous_oxide_cylinder` or
+    :func:`~estimator.physics.cylinders.compressed_cylinder` (``count``, ``ambient_pressure``...).
 
     Examples
     --------

@@ -36,7 +36,7 @@ from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Str
 
 from ..contracts import input_error_from_validation, read_toml, toml_from_text
 from ..errors import InputError
-from ..fields import QuantitySpec, quantity
+from ..fields import AsGiven, QuantitySpec, quantity
 from ..physics.cylinder_state import MAX_PRESSURE_BAR, TEMPERATURE_RANGE
 from ..physics.site import ELEVATION_RANGE, PRESSURE_RANGE
 
@@ -50,16 +50,19 @@ MAX_COUNT = 10_000
 CLOCK = re.compile(r"\s*(\d{1,2}):(\d{2})\s*")
 
 
-def _whole(low: int, high: int, what: str = "a whole number") -> Any:
+def _whole(low: int, high: int, what: str = "a whole number") -> AfterValidator:
+    """The range check of a whole-number field, written ``Annotated[StrictInt, _whole(low, high)]``."""
+
     def check(value: int) -> int:
         if not low <= value <= high:
             raise ValueError(f"{what} {low} to {high}")
         return value
 
-    return Annotated[StrictInt, AfterValidator(check)]
+    return AfterValidator(check)
 
 
-def _clock_check(value: Any) -> Any:
+def clock_check(value: Any) -> Any:
+    """A time of day for pydantic: "HH:MM" text is kept as given, anything else is checked as hours."""
     if isinstance(value, str) and ":" in value:
         m = CLOCK.fullmatch(value)
         if m is None or int(m.group(1)) > 23 or int(m.group(2)) > 59:
@@ -70,7 +73,7 @@ def _clock_check(value: Any) -> Any:
 
 _HOURS = QuantitySpec("time", 0.0, 24.0, "h", bare_unit="h", keep_text=True)
 #: A time of day: "08:30" (00:00 to 23:59) or hours after midnight, "8.5 h".
-Clock = Annotated[Value, BeforeValidator(_clock_check)]
+Clock = Annotated[Value, BeforeValidator(clock_check)]
 #: Concentrator product: an O2 fraction, or [flow, fraction] points of its curve (flows as for
 #: rated_flow); the curve's shape and the argon bound are checked with the rated flow (_purity_curve).
 _PURITY = QuantitySpec("fraction", 0.0, 1.0, "dimensionless", keep_text=True)
@@ -106,21 +109,21 @@ def _iso_date(value: Any) -> date | None:
 
 
 #: Hours of a day, 0 to 24 h.
-Hours = quantity("time", 0.0, 24.0, "h", bare_unit="h", keep_text=True, description="hours a day")
+Hours = Annotated[AsGiven, quantity("time", 0.0, 24.0, "h", bare_unit="h", keep_text=True, description="hours a day")]
 #: Days of lead time or safety stock, 0 to 10 years (practical limit, no source).
-Days = quantity("time", 0.0, 3650.0, "day", bare_unit="day", keep_text=True)
-Count = _whole(0, MAX_COUNT)
+Days = Annotated[AsGiven, quantity("time", 0.0, 3650.0, "day", bare_unit="day", keep_text=True)]
+Count = Annotated[StrictInt, _whole(0, MAX_COUNT)]
 #: Cylinder pressures: checked in full (gauge or absolute, against the service pressure) by
 #: estimator.physics.cylinders; here the dimension and a bound of twice the highest working pressure.
-Pressure = quantity("pressure", 0.0, 2 * MAX_PRESSURE_BAR, "bar", keep_text=True)
+Pressure = Annotated[AsGiven, quantity("pressure", 0.0, 2 * MAX_PRESSURE_BAR, "bar", keep_text=True)]
 #: Water capacity of one cylinder: up to 100 L (the largest medical cylinders hold about 50 L).
-WaterCapacity = quantity("volume", 0.0, 100.0, "L", bare_unit="L", low_open=True, keep_text=True)
+WaterCapacity = Annotated[AsGiven, quantity("volume", 0.0, 100.0, "L", bare_unit="L", low_open=True, keep_text=True)]
 #: Cylinder temperature: the service range of medical gas cylinders (estimator.physics.cylinders).
-Temperature = quantity("temperature", *TEMPERATURE_RANGE, "degC", bare_unit="degC", keep_text=True)
+Temperature = Annotated[AsGiven, quantity("temperature", *TEMPERATURE_RANGE, "degC", bare_unit="degC", keep_text=True)]
 #: Cylinder masses up to 200 kg (estimator.physics.cylinders).
-Mass = quantity("mass", 0.0, 200.0, "kg", bare_unit="kg", keep_text=True)
+Mass = Annotated[AsGiven, quantity("mass", 0.0, 200.0, "kg", bare_unit="kg", keep_text=True)]
 #: A flow of ventilation or drive gas; 0 to 200 L/min (estimator.planning.supply).
-SupplyFlow = quantity("flow", 0.0, 200.0, "L/min", bare_unit="L/min", keep_text=True)
+SupplyFlow = Annotated[AsGiven, quantity("flow", 0.0, 200.0, "L/min", bare_unit="L/min", keep_text=True)]
 
 
 class _Strict(BaseModel):
@@ -146,18 +149,22 @@ class BottleEntry(_Strict):
     agent: str
     count: Count = 0
     # A bottle holds up to 5 L of liquid agent (estimator.planning.supply).
-    volume: quantity("volume", 0.0, 5000.0, "mL", bare_unit="mL", low_open=True, keep_text=True) = "250 mL"
-    opened: quantity("volume", 0.0, 5000.0, "mL", bare_unit="mL", keep_text=True) | None = None
+    volume: Annotated[AsGiven, quantity("volume", 0.0, 5000.0, "mL", bare_unit="mL", low_open=True, keep_text=True)] = (
+        "250 mL"
+    )
+    opened: Annotated[AsGiven, quantity("volume", 0.0, 5000.0, "mL", bare_unit="mL", keep_text=True)] | None = None
 
 
 class ConcentratorEntry(_Strict):
     name: str | None = None
     # Rated product flow of one concentrator: above 0 to 100 L/min (bedside units give 5-10 L/min,
     # plant-size ones up to about 100; practical limit, no source).
-    rated_flow: quantity("flow", 0.0, 100.0, "L/min", bare_unit="L/min", low_open=True, keep_text=True)
+    rated_flow: Annotated[
+        AsGiven, quantity("flow", 0.0, 100.0, "L/min", bare_unit="L/min", low_open=True, keep_text=True)
+    ]
     hours_per_day: Hours = "24 h"
     start: Clock = "0 h"
-    count: _whole(0, 100) = 1
+    count: Annotated[StrictInt, _whole(0, 100)] = 1
     purity: Annotated[Value | list[list[Value]], BeforeValidator(_purity_check)] | None = None
 
 
@@ -170,17 +177,19 @@ class PipelineEntry(_Strict):
 class AbsorbentEntry(_Strict):
     name: str = "CO2 absorbent"
     # Up to 10 t of absorbent in stock (estimator.planning.supply).
-    stock: quantity("mass", 0.0, 10000.0, "kg", bare_unit="kg", keep_text=True)
+    stock: Annotated[AsGiven, quantity("mass", 0.0, 10000.0, "kg", bare_unit="kg", keep_text=True)]
     # CO2 a 100 g of absorbent takes up: above 0 to 26 L (the scenario contract's bound).
-    co2_per_100g: quantity("volume", 0.0, 26.0, "L", bare_unit="L", low_open=True, keep_text=True) | None = None
+    co2_per_100g: (
+        Annotated[AsGiven, quantity("volume", 0.0, 26.0, "L", bare_unit="L", low_open=True, keep_text=True)] | None
+    ) = None
 
 
 class CasePlan(_Strict):
     name: str | None = None
     scenario: str
-    per_day: _whole(0, 100)
-    days_per_week: _whole(0, 7) | None = None
-    rooms: _whole(1, 50) = 1
+    per_day: Annotated[StrictInt, _whole(0, 100)]
+    days_per_week: Annotated[StrictInt, _whole(0, 7)] | None = None
+    rooms: Annotated[StrictInt, _whole(1, 50)] = 1
     drive_gas: str = "none"
     drive_multiplier: float | None = None
     minute_ventilation: SupplyFlow | None = None
@@ -193,12 +202,12 @@ class ContinuousDemand(_Strict):
     minute_ventilation: SupplyFlow | None = None
     drive_multiplier: float | None = None
     hours_per_day: Hours = "24 h"
-    days_per_week: _whole(0, 7) = 7
+    days_per_week: Annotated[StrictInt, _whole(0, 7)] = 7
     start: Clock = "8 h"
 
 
 class Demand(_Strict):
-    working_days_per_week: _whole(0, 7) = 5
+    working_days_per_week: Annotated[StrictInt, _whole(0, 7)] = 5
     day_start: Clock = "8 h"
     cases: list[CasePlan] = []
     continuous: list[ContinuousDemand] = []
@@ -208,7 +217,7 @@ class PlanOptions(_Strict):
     start: Annotated[date | None, BeforeValidator(_iso_date)] = None
     lead_time: Days = "0 day"
     safety_stock: Days = "0 day"
-    table_days: _whole(1, 3650) = 365
+    table_days: Annotated[StrictInt, _whole(1, 3650)] = 365
 
 
 class SupplyOptions(_Strict):
@@ -218,8 +227,12 @@ class SupplyOptions(_Strict):
 
 class Site(_Strict):
     # The ISO 2533 troposphere, as in the scenario contract (estimator.physics.site).
-    ambient_pressure: quantity("pressure", *PRESSURE_RANGE, "kPa", bare_unit="kPa", keep_text=True) | None = None
-    elevation: quantity("length", *ELEVATION_RANGE, "m", bare_unit="m", keep_text=True) | None = None
+    ambient_pressure: (
+        Annotated[AsGiven, quantity("pressure", *PRESSURE_RANGE, "kPa", bare_unit="kPa", keep_text=True)] | None
+    ) = None
+    elevation: Annotated[AsGiven, quantity("length", *ELEVATION_RANGE, "m", bare_unit="m", keep_text=True)] | None = (
+        None
+    )
 
 
 class Inventory(_Strict):

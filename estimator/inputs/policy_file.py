@@ -17,13 +17,13 @@ from __future__ import annotations
 
 import os
 from dataclasses import dataclass
-from typing import Any
+from typing import Annotated, Any
 
 from pydantic import BaseModel, ConfigDict, ValidationError
 
 from ..contracts import input_error_from_validation, read_toml, toml_from_text
 from ..errors import InputError
-from ..fields import quantity
+from ..fields import AsGiven, quantity
 from ..limits import SANE_AGE
 from ..units import check_range, parse_quantity
 
@@ -40,19 +40,30 @@ class PolicyInput(BaseModel):
     model_config = ConfigDict(extra="forbid", arbitrary_types_allowed=True)
     name: str = "low-flow policy"
     # The engine's flow range per gas, from 0.1 L/min (below any metered low-flow practice).
-    fresh_gas_flow: quantity(
-        "flow", 0.1, ENGINE_MAX_FLOW, "L/min", bare_unit="L/min", keep_text=True, description="policy fresh-gas flow"
-    ) = "0.5 L/min"
+    fresh_gas_flow: Annotated[
+        AsGiven,
+        quantity(
+            "flow",
+            0.1,
+            ENGINE_MAX_FLOW,
+            "L/min",
+            bare_unit="L/min",
+            keep_text=True,
+            description="policy fresh-gas flow",
+        ),
+    ] = "0.5 L/min"
     # Up to 10 h of recorded wash-in kept as recorded (longer than any induction; no source).
-    maintenance_after: quantity("time", 0.0, 600.0, "min", bare_unit="min", keep_text=True) | None = None
+    maintenance_after: (
+        Annotated[AsGiven, quantity("time", 0.0, 600.0, "min", bare_unit="min", keep_text=True)] | None
+    ) = None
     # 21 % (air) to 100 % oxygen.
-    minimum_oxygen_share: quantity("fraction", 0.21, 1.0, "dimensionless", keep_text=True) = "60 %"
+    minimum_oxygen_share: Annotated[AsGiven, quantity("fraction", 0.21, 1.0, "dimensionless", keep_text=True)] = "60 %"
     # Blocks from 1 min (the log's resolution) to 2 h (practical limits, no source).
-    block: quantity("time", 1.0, 120.0, "min", bare_unit="min", keep_text=True) = "15 min"
+    block: Annotated[AsGiven, quantity("time", 1.0, 120.0, "min", bare_unit="min", keep_text=True)] = "15 min"
     baseline: str = "recorded"
     # The scenario contract's patient ranges.
-    default_weight: quantity("mass", 0.5, 300.0, "kg", bare_unit="kg", keep_text=True) = "70 kg"
-    default_age: quantity("age", *SANE_AGE, "year", bare_unit="year", keep_text=True) = "40 years"
+    default_weight: Annotated[AsGiven, quantity("mass", 0.5, 300.0, "kg", bare_unit="kg", keep_text=True)] = "70 kg"
+    default_age: Annotated[AsGiven, quantity("age", *SANE_AGE, "year", bare_unit="year", keep_text=True)] = "40 years"
     max_cases: int | None = None
 
 
@@ -79,7 +90,7 @@ def parse_policy(data: dict[str, Any]) -> Policy:
     except ValidationError as exc:
         raise input_error_from_validation(exc, "policy", PolicyInput) from None
 
-    def q(value: str, field: str, dim: str, unit: str, lo: float, hi: float) -> float:
+    def q(value: AsGiven, field: str, dim: str, unit: str, lo: float, hi: float) -> float:
         v = parse_quantity(value, f"policy.{field}", dim, default_unit=None if dim == "fraction" else unit)
         check_range(v.to(unit), f"policy.{field}", lo, hi, value=value)
         return float(v.to(unit).magnitude)

@@ -37,23 +37,21 @@ from typing import Annotated, Any, Literal
 import pint
 from pydantic import (
     BaseModel,
-    BeforeValidator,
     ConfigDict,
     PrivateAttr,
     ValidationError,
-    WithJsonSchema,
     model_validator,
 )
 
 from .. import limits as lim
 from ..accounts.accounting import absorbent_capacity as _absorbent_capacity
 from ..contracts import as_path, check_scenario_suffix, input_error_from_validation, read_toml, toml_from_text
-from ..errors import InputError
+from ..fields import EndTidalTarget, Quantity
 from ..fields import quantity as _quantity
 from ..physics.site import ELEVATION_RANGE, PRESSURE_RANGE
 from ..physics.site import TEMPERATURE_RANGE as SITE_TEMPERATURE
 from ..properties import AGENTS, gas
-from ..units import Q_, parse_quantity
+from ..units import Q_
 
 __all__ = [
     "Scenario",
@@ -66,13 +64,15 @@ __all__ = [
 _AIR_O2 = gas("air").records["oxygen_fraction"].value
 
 #: A flowmeter tube per gas reads up to 15 L/min (common practice, no source), the engine's range.
-Flow = _quantity("flow", 0.0, 15.0, "L/min", description="flowmeter flow")
+Flow = Annotated[Quantity, _quantity("flow", 0.0, 15.0, "L/min", "flowmeter flow")]
 #: One case lasts at most a day (the engine's horizon; common practice, no source).
-Duration = _quantity("time", 0.0, 24 * 60.0, "min", description="phase duration")
-Fraction = _quantity("fraction", 0.0, 1.0, "dimensionless")
+Duration = Annotated[Quantity, _quantity("time", 0.0, 24 * 60.0, "min", "phase duration")]
+Fraction = Annotated[Quantity, _quantity("fraction", 0.0, 1.0, "dimensionless")]
 #: Site elevation and measured ambient pressure: the ISO 2533 troposphere (estimator.physics.site).
-Elevation = _quantity("length", *ELEVATION_RANGE, "m", description="site elevation above sea level")
-AmbientPressure = _quantity("pressure", *PRESSURE_RANGE, "kPa", description="measured absolute ambient pressure")
+Elevation = Annotated[Quantity, _quantity("length", *ELEVATION_RANGE, "m", "site elevation above sea level")]
+AmbientPressure = Annotated[
+    Quantity, _quantity("pressure", *PRESSURE_RANGE, "kPa", "measured absolute ambient pressure")
+]
 
 
 class _Model(BaseModel):
@@ -84,18 +84,24 @@ class PatientInput(_Model):
 
     # Ranges: practical limits of the physiology model (a preterm neonate to the heaviest adults;
     # ages of the Mapleson 1996 fit and beyond), no source beyond common practice.
-    weight: _quantity("mass", *lim.SANE_WEIGHT, "kg", description="body weight")
-    age: _quantity("age", *lim.SANE_AGE, "year", description="age") = Q_(40.0, "year")
+    weight: Annotated[Quantity, _quantity("mass", *lim.SANE_WEIGHT, "kg", "body weight")]
+    age: Annotated[Quantity, _quantity("age", *lim.SANE_AGE, "year", "age")] = Q_(40.0, "year")
     # Overrides of the weight-scaled values: from neonatal to heavy exercise (common practice).
-    oxygen_consumption: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VO2") | None = None
-    carbon_dioxide_production: _quantity("flow", 1.0, 2000.0, "mL/min", low_open=True, description="VCO2") | None = None
-    cardiac_output: _quantity("flow", 0.05, 30.0, "L/min", description="cardiac output") | None = None
-    alveolar_ventilation: _quantity("flow", 0.05, 40.0, "L/min", description="alveolar ventilation") | None = None
-    minute_ventilation: _quantity("flow", 0.05, 50.0, "L/min", description="minute ventilation") | None = None
-    frc: _quantity("volume", 0.02, 8.0, "L", description="functional residual capacity") | None = None
+    oxygen_consumption: Annotated[Quantity, _quantity("flow", 1.0, 2000.0, "mL/min", "VO2", low_open=True)] | None = (
+        None
+    )
+    carbon_dioxide_production: (
+        Annotated[Quantity, _quantity("flow", 1.0, 2000.0, "mL/min", "VCO2", low_open=True)] | None
+    ) = None
+    cardiac_output: Annotated[Quantity, _quantity("flow", 0.05, 30.0, "L/min", "cardiac output")] | None = None
+    alveolar_ventilation: Annotated[Quantity, _quantity("flow", 0.05, 40.0, "L/min", "alveolar ventilation")] | None = (
+        None
+    )
+    minute_ventilation: Annotated[Quantity, _quantity("flow", 0.05, 50.0, "L/min", "minute ventilation")] | None = None
+    frc: Annotated[Quantity, _quantity("volume", 0.02, 8.0, "L", "functional residual capacity")] | None = None
     # Target arterial CO2 partial pressure: deliberate hypo- to permissive hypercapnia.
-    target_paco2: _quantity("pressure", 20.0, 80.0, "mmHg", description="target PaCO2") = Q_(40.0, "mmHg")
-    respiratory_rate: _quantity("rate", 2.0, 80.0, "1/min", description="breaths a minute") = Q_(12.0, "1/min")
+    target_paco2: Annotated[Quantity, _quantity("pressure", 20.0, 80.0, "mmHg", "target PaCO2")] = Q_(40.0, "mmHg")
+    respiratory_rate: Annotated[Quantity, _quantity("rate", 2.0, 80.0, "1/min", "breaths a minute")] = Q_(12.0, "1/min")
     initial: Literal["room_air", "preoxygenated"] = "room_air"
 
 
@@ -104,7 +110,9 @@ class AgentInput(_Model):
 
     name: str
     # Highest dial mark: every vaporizer in use reads at most 18 % (desflurane); 25 % bounds typos.
-    vaporizer_max: _quantity("fraction", 0.001, 0.25, "dimensionless", description="highest dial mark") | None = None
+    vaporizer_max: (
+        Annotated[Quantity, _quantity("fraction", 0.001, 0.25, "dimensionless", "highest dial mark")] | None
+    ) = None
     vaporizer_type: Literal["variable_bypass", "heated_pressurised"] | None = None
 
     @model_validator(mode="before")
@@ -122,16 +130,18 @@ class CircuitInput(_Model):
     """``[circuit]``: volume, leak, side-stream sample flow and whether it returns to the circuit."""
 
     # Circle volumes from a paediatric circuit to a large adult one with bag (common practice).
-    volume: _quantity("volume", 0.5, 15.0, "L", description="circle system volume") = Q_(6.0, "L")
-    leak: _quantity("flow", 0.0, 5.0, "L/min", description="circuit leak") = Q_(0.0, "L/min")
+    volume: Annotated[Quantity, _quantity("volume", 0.5, 15.0, "L", "circle system volume")] = Q_(6.0, "L")
+    leak: Annotated[Quantity, _quantity("flow", 0.0, 5.0, "L/min", "circuit leak")] = Q_(0.0, "L/min")
     # Side-stream gas monitors draw 50-250 mL/min (common practice, no source).
-    sample_flow: _quantity("flow", 0.0, 0.5, "L/min", description="side-stream sample flow") = Q_(0.2, "L/min")
+    sample_flow: Annotated[Quantity, _quantity("flow", 0.0, 0.5, "L/min", "side-stream sample flow")] = Q_(0.2, "L/min")
     sample_returned: bool = True
     initial: Literal["room_air", "oxygen"] = "room_air"
-    inspiratory_fraction: _quantity("fraction", 0.0, 0.8, "dimensionless") = Q_(1 / 3, "dimensionless")
+    inspiratory_fraction: Annotated[Quantity, _quantity("fraction", 0.0, 0.8, "dimensionless")] = Q_(
+        1 / 3, "dimensionless"
+    )
     deficit_makeup: Literal["fresh_gas", "room_air"] = "fresh_gas"
     # Up to 26 L, the theoretical capacity of soda lime per 100 g (estimator/data/supply.toml).
-    absorbent_capacity: _quantity("volume", 1.0, 26.0, "L", description="CO2 taken up per 100 g") = (
+    absorbent_capacity: Annotated[Quantity, _quantity("volume", 1.0, 26.0, "L", "CO2 taken up per 100 g")] = (
         _absorbent_capacity()
     )
     """Practical CO2 capacity per 100 g of absorbent (default: the package's one value, estimator.accounts.accounting)."""
@@ -143,48 +153,19 @@ class SiteInput(_Model):
     elevation: Elevation | None = None
     ambient_pressure: AmbientPressure | None = None
     # Room temperatures the site model accepts (estimator.physics.site.TEMPERATURE_RANGE).
-    temperature: _quantity("temperature", *SITE_TEMPERATURE, "degC") = Q_(20.0, "degC")
+    temperature: Annotated[Quantity, _quantity("temperature", *SITE_TEMPERATURE, "degC")] = Q_(20.0, "degC")
     oxygen_source: Literal["cylinder", "pipeline", "concentrator"] = "cylinder"
     # Concentrator product is at least 82 % O2 by the ISO 80601-2-69 alarm limit (from memory); 80 %
     # leaves room for a worn sieve. Argon stays in the product, up to a few percent.
-    oxygen_purity: _quantity("fraction", 0.80, 1.0, "dimensionless", description="O2 in the supply") | None = None
-    argon_fraction: _quantity("fraction", 0.0, 0.2, "dimensionless", description="argon in the supply") | None = None
+    oxygen_purity: Annotated[Quantity, _quantity("fraction", 0.80, 1.0, "dimensionless", "O2 in the supply")] | None = (
+        None
+    )
+    argon_fraction: (
+        Annotated[Quantity, _quantity("fraction", 0.0, 0.2, "dimensionless", "argon in the supply")] | None
+    ) = None
     flowmeter_readings: bool = False
     """Phase flows are readings of float flowmeters, each calibrated for its own gas at 20 degC and
     101.325 kPa; the engine converts them to true flows at the site (estimator.physics.flowmeter)."""
-
-
-def _target(value: Any) -> pint.Quantity:
-    """An end-tidal hold target: a MAC multiple (above 0 to 3 MAC) or a fraction (above 0 to 20 %)."""
-    try:
-        q = parse_quantity(value, "", "mac")
-        if not 0.0 < q.magnitude <= 3.0:
-            raise ValueError("above 0 to 3 MAC, or a fraction such as '2 %'")
-        return q
-    except InputError:
-        pass
-    try:
-        q = parse_quantity(value, "", "fraction")
-    except InputError:
-        raise ValueError("a target such as '1 MAC' or '2 %'") from None
-    if not 0.0 < q.to("").magnitude <= 0.2:
-        raise ValueError("above 0 to 20 % (or a MAC multiple such as '1 MAC')")
-    return q
-
-
-#: Defined above the model that uses it: pydantic 2.6 evaluates the string annotation in a copy of the
-#: module namespace taken when the class is built, so a validator defined below is not found.
-Target = Annotated[
-    pint.Quantity,
-    BeforeValidator(_target),
-    WithJsonSchema(
-        {
-            "type": "string",
-            "examples": ["1 MAC", "2 %"],
-            "description": "end-tidal agent to hold: above 0 to 3 MAC, or a fraction above 0 to 20 %",
-        }
-    ),
-]
 
 
 class PhaseInput(_Model):
@@ -195,12 +176,14 @@ class PhaseInput(_Model):
     air: Flow | None = None
     nitrous_oxide: Flow | None = None
     # From air (21 %) to pure oxygen: a fresh gas below air is hypoxic.
-    oxygen_fraction: _quantity("fraction", 0.21, 1.0, "dimensionless", description="O2 in the fresh gas") | None = None
+    oxygen_fraction: (
+        Annotated[Quantity, _quantity("fraction", 0.21, 1.0, "dimensionless", "O2 in the fresh gas")] | None
+    ) = None
     total_flow: Flow | None = None
     balance: Literal["air", "nitrous_oxide"] | None = None
     # The dial: 0 to 25 % bounds every vaporizer; the agent's own highest mark is checked per phase.
-    vaporizer: _quantity("fraction", 0.0, 0.25, "dimensionless", description="vaporizer dial") | None = None
-    end_tidal_target: Target | None = None
+    vaporizer: Annotated[Quantity, _quantity("fraction", 0.0, 0.25, "dimensionless", "vaporizer dial")] | None = None
+    end_tidal_target: EndTidalTarget | None = None
     label: str = ""
 
     @model_validator(mode="after")
@@ -228,8 +211,9 @@ class PhaseInput(_Model):
     def flows(self) -> tuple[pint.Quantity, pint.Quantity, pint.Quantity]:
         """(oxygen, air, nitrous_oxide) flowmeter flows of the phase [L/min]."""
         zero = Q_(0.0, "L/min")
-        if self.total_flow is None:
-            return tuple((v or zero).to("L/min") for v in (self.oxygen, self.air, self.nitrous_oxide))
+        if self.total_flow is None or self.oxygen_fraction is None:  # the contract gives both or neither
+            o2, air, n2o = ((v or zero).to("L/min") for v in (self.oxygen, self.air, self.nitrous_oxide))
+            return o2, air, n2o
         total = self.total_flow.to("L/min")
         f = self.oxygen_fraction.to("").magnitude
         if (self.balance or "air") == "air":
@@ -242,23 +226,27 @@ class ScaleStep(_Model):
     """One band of a flowmeter scale: settable in ``step`` increments up to ``up_to``."""
 
     up_to: Flow
-    step: _quantity("flow", 0.001, 5.0, "L/min", low_open=True)
+    step: Annotated[Quantity, _quantity("flow", 0.001, 5.0, "L/min", low_open=True)]
 
 
 class FlowFloorInput(_Model):
     """``[flow_floor]``: settings of the flow floor (``lowflow safe-flow``); every key optional."""
 
-    threshold_inspired_oxygen: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(lim.INSPIRED_OXYGEN_FLOOR, "")
+    threshold_inspired_oxygen: Annotated[Quantity, _quantity("fraction", 0.21, 1.0, "dimensionless")] = Q_(
+        lim.INSPIRED_OXYGEN_FLOOR, ""
+    )
     threshold_basis: Literal["fraction", "partial_pressure"] = "fraction"
     """``partial_pressure``: the threshold is read as the sea-level PiO2 it gives (for high sites)."""
-    reach_within: _quantity("time", 0.5, 120.0, "min") = Q_(lim.TARGET_REACH_WITHIN, "min")
-    wash_out_to: _quantity("mac", 0.05, 1.0, "MAC") = Q_(lim.WASH_OUT_TARGET, "MAC")
+    reach_within: Annotated[Quantity, _quantity("time", 0.5, 120.0, "min")] = Q_(lim.TARGET_REACH_WITHIN, "min")
+    wash_out_to: Annotated[Quantity, _quantity("mac", 0.05, 1.0, "MAC")] = Q_(lim.WASH_OUT_TARGET, "MAC")
     """Emergence: end-tidal MAC (agent and N2O) to reach in a phase with the dial at 0."""
-    wash_out_within: _quantity("time", 0.5, 120.0, "min") = Q_(lim.WASH_OUT_WITHIN, "min")
-    basal_oxygen_flow: _quantity("flow", 0.0, 1.0, "L/min") = Q_(0.0, "L/min")
-    minimum_oxygen_share: _quantity("fraction", 0.21, 1.0, "dimensionless") = Q_(lim.MINIMUM_OXYGEN_SHARE, "")
+    wash_out_within: Annotated[Quantity, _quantity("time", 0.5, 120.0, "min")] = Q_(lim.WASH_OUT_WITHIN, "min")
+    basal_oxygen_flow: Annotated[Quantity, _quantity("flow", 0.0, 1.0, "L/min")] = Q_(0.0, "L/min")
+    minimum_oxygen_share: Annotated[Quantity, _quantity("fraction", 0.21, 1.0, "dimensionless")] = Q_(
+        lim.MINIMUM_OXYGEN_SHARE, ""
+    )
     maximum_flow: Flow = Q_(15.0, "L/min")
-    grid_interval: _quantity("time", 1.0, 60.0, "min") = Q_(5.0, "min")
+    grid_interval: Annotated[Quantity, _quantity("time", 1.0, 60.0, "min")] = Q_(5.0, "min")
     scale: list[ScaleStep] | None = None
     policies: list[Literal["sevoflurane_us_label"]] = []
 
@@ -276,7 +264,7 @@ class FlowFloorInput(_Model):
 class OutputInput(_Model):
     """``[output]``: time step of the reported series."""
 
-    interval: _quantity("time", 0.05, 60.0, "min") = Q_(1.0, "min")
+    interval: Annotated[Quantity, _quantity("time", 0.05, 60.0, "min")] = Q_(1.0, "min")
 
 
 class Scenario(_Model):

@@ -6,7 +6,7 @@ Dormand-Prince method of the single-case engine is stability-limited (about 600 
 case at its tolerance). The second-order Runge-Kutta-Chebyshev method RKC2 stretches the real
 stability interval to about ``0.65 s**2`` with ``s`` stages of a Chebyshev recursion, so the step
 is chosen by accuracy and the stage count by the spectral radius, estimated by a nonlinear power
-iteration on the core states at the start of each phase and every :data:`RHO_EVERY` accepted
+iteration on the core states at the start of each phase and every ``RHO_EVERY`` accepted
 steps. Step-size control, stage count, damping (2/13), starting step and error estimate follow the
 authors' code RKC. Being a Runge-Kutta method it keeps every linear invariant, so the species
 balances close to rounding error. The right-hand side is :func:`estimator.physics.circuit.rhs`, the very

@@ -205,7 +205,7 @@ def _flows_at(u, y, p, w, carrier, unet):
     w[W_TARGET] = _target(w[W_FET + N2O], p)
 
 
-#: Convergence of the hold dial: a Newton step |du| <= HOLD_ATOL + HOLD_STEP u (the error after it is about its
+#: Convergence of the hold dial: a Newton step ``|du| <= HOLD_ATOL + HOLD_STEP u`` (the error after it is about its
 #: square), else the residual <= HOLD_ATOL + HOLD_RTOL u, within HOLD_MAXIT trials (numerical choices, no source).
 HOLD_STEP, HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-10, 1e-12, 1e-16, 60
 

@@ -32,7 +32,7 @@ import pint
 
 from ..errors import InputError
 from ..limits import SQUARE_ROOT_LAW_LIMIT
-from ..properties import Species, agent
+from ..properties import VolatileAgent, agent
 from ..units import Q_, check_range, parse_quantity
 from .liquid_agent import (
     DION_CONSTANT,
@@ -102,8 +102,8 @@ def _mag(values: np.ndarray) -> float | np.ndarray:
     return values if values.ndim else float(values)
 
 
-def _agent(name: Any, field: str = "agent.name") -> Species:
-    return name if isinstance(name, Species) else agent(name, field)
+def _agent(name: Any, field: str = "agent.name") -> VolatileAgent:
+    return name if isinstance(name, VolatileAgent) else agent(name, field)
 
 
 def lowe_uptake_coefficient(

@@ -63,7 +63,7 @@ class CylinderContents:
 
 
 def cylinder_temperature(value: Any, field_name: str) -> pint.Quantity:
-    """A cylinder temperature [K], within :data:`TEMPERATURE_RANGE` (given in degC).
+    """A cylinder temperature [K], within ``TEMPERATURE_RANGE`` (given in degC).
 
     >>> round(cylinder_temperature("20 degC", "cylinder.temperature").magnitude, 2)
     293.15

@@ -219,7 +219,7 @@ def true_flow(
     reading : str or pint.Quantity [L/min]
         Scale reading; scalar or array; a bare number is L/min. 0 to 100 L/min.
     calibrated_for, gas_in_use : str or dict
-        Gas names or mixtures, see :func:`resolve_gas`.
+        Gas names or mixtures, see :func:`~estimator.physics.gas_mixtures.resolve_gas`.
     site : Site
         Ambient pressure and room temperature (:func:`estimator.physics.site.site_from_inputs`).
     purity : str or float, optional

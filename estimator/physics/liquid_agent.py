@@ -28,7 +28,7 @@ import numpy as np
 import pint
 
 from ..errors import InputError
-from ..properties import Species, agent
+from ..properties import VolatileAgent, agent
 from ..units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity, ureg
 from .mac_age import parse_fraction
 
@@ -36,8 +36,8 @@ from .mac_age import parse_fraction
 DION_CONSTANT = 2412.0
 
 
-def _species(name: Any, field: str = "agent.name") -> Species:
-    return name if isinstance(name, Species) else agent(name, field)
+def _species(name: Any, field: str = "agent.name") -> VolatileAgent:
+    return name if isinstance(name, VolatileAgent) else agent(name, field)
 
 
 def _dion_inputs(concentration: Any, fresh_gas_flow: Any, duration: Any) -> tuple[float, float, float]:

@@ -35,7 +35,7 @@ import pint
 
 from ..errors import InputError
 from ..limits import HYPOXIC_FRACTION
-from ..properties import Species, agent
+from ..properties import VolatileAgent, agent
 from ..units import Q_, check_range, parse_quantity
 from .mac_age import (
     AGE_RANGE,
@@ -186,7 +186,7 @@ def end_tidal_for_total_mac(
     check_range(m, total_field, Q_(0, "MAC"), Q_(3, "MAC"), value=total)
     want = float(m.to("MAC").magnitude)
     f_n2o = parse_fraction(nitrous_oxide, nitrous_field)
-    sp = name if isinstance(name, Species) else agent(name, agent_field)  # volatile agents only
+    sp = name if isinstance(name, VolatileAgent) else agent(name, agent_field)  # volatile agents only
     am = mac_at_age(sp, age, ambient_pressure, age_field=age_field, agent_field=agent_field)
     if np.ndim(am.mac.magnitude):
         raise InputError(age_field, age, "a single age")

@@ -93,7 +93,7 @@ class Patient:
     tissue_flow : dict of [L/min], blood flow of each compartment
     tissue_diffusion : dict of [L/min]
         Intertissue diffusion clearance into each fat-next-to-lean compartment, in litres of the
-        lean tissue (:data:`DIFFUSION_DONOR`) per minute.
+        lean tissue (``DIFFUSION_DONOR``) per minute.
     arterial_volume, venous_volume : [L] of blood
     alveolar_dead_space_share : float
         Share of end-tidal gas that comes from unperfused alveoli (carries inspired gas).

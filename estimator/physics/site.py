@@ -256,20 +256,20 @@ def site_from_inputs(elevation: Any = None, ambient_pressure: Any = None, temper
         pres = parse_quantity(ambient_pressure, "site.ambient_pressure", "pressure", "kPa").to("kPa")
         check_range(pres, "site.ambient_pressure", *PRESSURE_RANGE, value=ambient_pressure)
 
-    if pres is None and elev is None:
-        return Site(None, STANDARD_ATMOSPHERE.to("kPa"), temp, tuple(notes), "sea level (default)")
     if pres is None:
+        if elev is None:
+            return Site(None, STANDARD_ATMOSPHERE.to("kPa"), temp, tuple(notes), "sea level (default)")
         p_std, _ = standard_atmosphere(elev)
         notes += _height_warning(float(elev.to("m").magnitude))
         return Site(elev, Q_(float(p_std.magnitude), "kPa"), temp, tuple(notes), "standard atmosphere")
     if elev is not None:
-        p_std = float(standard_atmosphere(elev)[0].magnitude)
-        lo, hi = (p_std * k for k in PRESSURE_CONSISTENCY)
+        p_elev = float(standard_atmosphere(elev)[0].magnitude)
+        lo, hi = (p_elev * k for k in PRESSURE_CONSISTENCY)
         if not lo <= float(pres.magnitude) <= hi:
             raise InputError(
                 "site.ambient_pressure",
                 ambient_pressure,
-                f"{lo:.1f} to {hi:.1f} kPa to fit elevation {elev:~P} (standard {p_std:.1f} kPa); "
+                f"{lo:.1f} to {hi:.1f} kPa to fit elevation {elev:~P} (standard {p_elev:.1f} kPa); "
                 "give an absolute pressure, or only one of the two",
             )
     notes += _height_warning(float(pressure_altitude(pres).magnitude))

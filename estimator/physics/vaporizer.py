@@ -55,7 +55,7 @@ import numpy as np
 import pint
 
 from ..errors import InputError
-from ..properties import Species, agent
+from ..properties import VolatileAgent, agent
 from ..units import Q_, STANDARD_ATMOSPHERE
 
 KINDS = ("variable_bypass", "heated_pressurised")
@@ -105,7 +105,7 @@ def _pressure_kpa(ambient_pressure: Any) -> float:
 
 
 def _svp_kpa(agent_spec: Any, p_kpa: float) -> float:
-    sp = agent_spec if isinstance(agent_spec, Species) else agent(agent_spec)
+    sp = agent_spec if isinstance(agent_spec, VolatileAgent) else agent(agent_spec)
     svp = float(sp.vapour_pressure_20c.to("kPa").magnitude)
     if svp >= p_kpa:
         raise InputError(
@@ -147,7 +147,7 @@ def delivered_fraction(
         Dial setting (volume fraction at the calibration pressure 101.325 kPa).
     kind : {"variable_bypass", "heated_pressurised"}
     ambient_pressure : pint.Quantity [kPa]
-    agent_name : str or Species, optional
+    agent_name : str or VolatileAgent, optional
         Needed for ``control="inlet"``; with it a variable-bypass dial at or above SVP/p0 is
         rejected (the chamber output cannot exceed saturation).
     control : {"outlet", "inlet"}
@@ -191,7 +191,7 @@ def delivered_fraction(
 
 
 def _dial_for_fraction(f: np.ndarray, kind: str, p: float, svp: float | None, control: str) -> np.ndarray:
-    if kind == "heated_pressurised":
+    if kind == "heated_pressurised" or svp is None:  # svp is None for a heated vaporizer only
         return f
     if control == "inlet":
         r0, r = svp / (P0 - svp), svp / (p - svp)
@@ -237,7 +237,7 @@ def dial_for_target(
         MAC at 101.325 kPa for this patient (take it from estimator.physics.mac).
     kind, ambient_pressure, control
         As in :func:`delivered_fraction`.
-    agent_name : str or Species
+    agent_name : str or VolatileAgent
         For the vaporizer maximum and the SVP.
 
     Returns
@@ -261,7 +261,7 @@ def dial_for_target(
     t = np.asarray(target, dtype=float)
     if not np.all(np.isfinite(t)) or np.any(t < 0) or np.any(t > 5):
         raise InputError("end_tidal_target", target, "0 to 5 MAC")
-    sp = agent_name if isinstance(agent_name, Species) else agent(agent_name)
+    sp = agent_name if isinstance(agent_name, VolatileAgent) else agent(agent_name)
     kind = vaporizer_kind(kind)
     p = _pressure_kpa(ambient_pressure)
     mac_site = np.asarray(mac_fraction_at_site(mac_one_atmosphere, ambient_pressure))

@@ -62,6 +62,7 @@ import pandas as pd
 
 from ..accounts import carbon
 from ..accounts.costs import Prices, cost_table
+from ..choices import QUADRATURES
 from ..errors import InputError
 from ..inputs.audit_log import LogData, read_log
 from ..limits import INSPIRED_OXYGEN_FLOOR
@@ -72,7 +73,6 @@ from ..units import GAS_VOLUME_REFERENCE, REFERENCE_PRESSURE, REFERENCE_TEMPERAT
 from .audit_report import AuditResult, group_table, kpi_summary, totals_of
 from .flow_classes import FLOW_CLASS_SOURCE, FLOW_CLASSES, flow_class
 
-QUADRATURES = ("hold", "trapezoid")
 #: Minimum inspired O2 at low flow (the registry's INSPIRED_OXYGEN_FLOOR, Baum and Aitkenhead 1995).
 MIN_INSPIRED_OXYGEN = INSPIRED_OXYGEN_FLOOR
 UNITS = {
@@ -129,7 +129,7 @@ def audit(
     prices : Prices, optional
         Without prices the cost columns are left out (and say so).
     basis : str
-        CO2e basis, a key of :data:`estimator.properties.CO2E_BASES`.
+        CO2e basis, a key of :data:`estimator.choices.CO2E_BASES`.
     quadrature : {"hold", "trapezoid"}
     maintenance_after : [min]
         Maintenance starts this long after a case's first sample.
@@ -281,7 +281,7 @@ def audit(
             )
         )
 
-    notes = (
+    notes: tuple[str, ...] = (
         f"quadrature: {quadrature} ({'sample and hold, left-rectangle rule' if quadrature == 'hold' else 'trapezoid rule'})",
         "delivered vapour = carrier flow x D/(1 - D); liquid via ideal-gas molar volume at the reference, "
         "molar mass and liquid density",

@@ -105,7 +105,7 @@ def case_scenarios(result: AuditResult, policy: Policy) -> tuple[list[dict[str, 
         vapour = carrier * d / (1.0 - d)
         et = df["end_tidal"].to_numpy()
         end = float(t[-1])
-        phases = {"policy": [], "recorded": []}
+        phases: dict[str, list[dict[str, str]]] = {"policy": [], "recorded": []}
         for a, b in _blocks(0.0, min(after, end), policy.block) if after > 0 else []:
             f = {g: _held_mean(t, t_end, v, a, b) for g, v in fl.items()}
             v = _held_mean(t, t_end, vapour, a, b)

@@ -100,6 +100,45 @@ class AuditResult:
         """JSON document of the audit (see the README for the keys)."""
         return audit_json(self)
 
+    def table(self, name: str) -> pd.DataFrame:
+        """The ``cases``, ``rooms`` or ``months`` table in the package's table convention: quantity
+        columns named ``name [unit]`` (:func:`~estimator.planning.audit_report.unit_columns`), as a case result's ``series`` is."""
+        if name not in ("cases", "rooms", "months"):
+            raise ValueError(f"table: one of cases, rooms, months (got {name!r})")
+        return unit_columns(getattr(self, name))
+
+    def total_quantities(self) -> dict[str, Any]:
+        """The totals as pint Quantities, named as the JSON document names them (``co2e``, ``agent_liquid``;
+        per agent ``liquid_<agent>``); counts stay whole numbers and costs plain numbers in ``currency``."""
+        out: dict[str, Any] = {}
+        for key, value in self.totals.items():
+            name, shown = _value(key, value, self.basis)
+            is_quantity = isinstance(shown, dict) and "magnitude" in shown
+            out[name] = ureg.Quantity(shown["magnitude"], shown["units"]) if is_quantity else shown
+        return out
+
+
+def unit_columns(df: pd.DataFrame) -> pd.DataFrame:
+    """A copy of an audit table with each suffixed quantity column named ``name [unit]``.
+
+    Text, counts, fractions and costs keep their names (costs are in the audit's currency).
+
+    Examples
+    --------
+    >>> cols = ["room", "cases", "co2e_kg", "mean_maintenance_flow_l_min", "liquid_sevoflurane_ml", "mac_hours"]
+    >>> unit_columns(pd.DataFrame(columns=cols)).columns.tolist()
+    ['room', 'cases', 'co2e [kg]', 'mean_maintenance_flow [L/min]', 'liquid_sevoflurane [mL]', 'mac_hours [MAC_hour]']
+    """
+    special = {"mac_hours": "mac_hours [MAC_hour]", "co2e_per_mac_hour_kg": "co2e_per_mac_hour [kg/MAC_hour]"}
+
+    def named(column: str) -> str:
+        if column in special or column.startswith("cost_"):
+            return special.get(column, column)
+        suffix, unit = next(((s, u) for s, u in SUFFIX_UNITS if column.endswith(s)), ("", ""))
+        return f"{column[: -len(suffix)]} [{unit}]" if suffix else column
+
+    return df.rename(columns=named)
+
 
 def _pooled(df: pd.DataFrame, column: str) -> float:
     """Maintenance-time-weighted mean of a per-case column (cases without maintenance left out)."""
@@ -191,8 +230,8 @@ def _value(key: str, value: Any, basis: str) -> tuple[str, Any]:
     if key == "mac_hours":
         return key, None if value is None else {"magnitude": float(value), "units": "MAC_hour"}
     if key == "co2e_per_mac_hour_kg":
-        q = None if value is None else {"magnitude": float(value), "units": "kilogram / MAC_hour", "basis": basis}
-        return "co2e_per_mac_hour", q
+        per_mac = None if value is None else {"magnitude": float(value), "units": "kilogram / MAC_hour", "basis": basis}
+        return "co2e_per_mac_hour", per_mac
     if unit is None or key.startswith("cost_") or isinstance(value, str):
         return key, value.item() if isinstance(value, np.generic) else value
     name = key[: -len(next(s for s, u in UNIT_OF_SUFFIX if u == unit))]

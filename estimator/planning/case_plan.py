@@ -25,7 +25,8 @@ MONITORING = (
 
 
 def _flows(phase: Any) -> tuple[float, float, float]:
-    return tuple(float(q.to("L/min").magnitude) for q in phase.flows())
+    o2, air, n2o = (float(q.to("L/min").magnitude) for q in phase.flows())
+    return o2, air, n2o
 
 
 def plan_tables(result: Any, floor: Any | None = None, band: Any | None = None) -> dict[str, pd.DataFrame]:

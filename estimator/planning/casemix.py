@@ -308,7 +308,7 @@ def case_types_from_text(text: str, start: int = 0) -> list[CaseTypeInput]:
     >>> rows[0].weight_mean
     '82 kg'
     """
-    out = []
+    out: list[CaseTypeInput] = []
     for row in case_type_rows(str(text), tuple(CaseTypeInput.model_fields), start=start):
         where = f"case_types[{start + len(out)}]"
         try:

@@ -24,13 +24,16 @@ Examples
 from __future__ import annotations
 
 import html
+import io
 import math
+from collections.abc import Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import IO, TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 
+from ..caution import CAUTION, about_rows
 from ..properties import CO2E_BASES
 from ..units import GAS_VOLUME_REFERENCE
 from .audit_report import SUFFIX_UNITS
@@ -100,14 +103,46 @@ def _kpi_rows(result: AuditResult) -> list[tuple[str, Any]]:
     return rows
 
 
-def write_csv(result: AuditResult, path: str | Path) -> Path:
-    """Write the per-case table as CSV (UTF-8)."""
+def csv_text(frame: pd.DataFrame, made_by: str, inputs: dict[str, bytes | None] | None = None) -> str:
+    """A table as CSV text led by ``#`` lines: the caution and who made it (:func:`~estimator.caution.comment_lines`).
+
+    Lines end in ``\\n`` on every platform; write the text with ``newline=""`` or as bytes.
+
+    Examples
+    --------
+    >>> text = csv_text(pd.DataFrame({"a": [1]}), "lowflow case")
+    >>> text.splitlines()[0][:17], text.splitlines()[-2:]
+    ('# caution: Planni', ['a', '1'])
+    """
+    from ..caution import comment_lines
+
+    return comment_lines(made_by, inputs) + frame.to_csv(index=False, lineterminator="\n")
+
+
+def read_csv_export(source: str | Path | IO[str]) -> pd.DataFrame:
+    """Read a CSV export of this package: the leading ``#`` lines are skipped, every other line is data
+    (a text cell may hold ``#``, which ``pandas.read_csv(comment="#")`` would cut).
+
+    Examples
+    --------
+    >>> import io
+    >>> read_csv_export(io.StringIO(csv_text(pd.DataFrame({"room": ["OR #2"]}), "x")))["room"].tolist()
+    ['OR #2']
+    """
+    text = Path(source).read_text(encoding="utf-8") if isinstance(source, str | Path) else source.read()
+    lines = text.splitlines(keepends=True)
+    skip = next((i for i, line in enumerate(lines) if not line.startswith("#")), len(lines))
+    return pd.read_csv(io.StringIO("".join(lines[skip:])))
+
+
+def write_csv(result: AuditResult, path: str | Path, made_by: str = "lowflow audit") -> Path:
+    """Write the per-case table as CSV (UTF-8), led by the caution and the generator line."""
     path = Path(path)
-    export_table(result.cases, result).to_csv(path, index=False)
+    path.write_text(csv_text(export_table(result.cases, result), made_by), encoding="utf-8", newline="")
     return path
 
 
-def write_xlsx(result: AuditResult, path: str | Path) -> Path:
+def write_xlsx(result: AuditResult, path: str | Path, made_by: str = "lowflow audit") -> Path:
     """Write an XLSX workbook: cases, rooms, months, KPIs, rejections and an about sheet."""
     from openpyxl import Workbook
 
@@ -141,17 +176,11 @@ def write_xlsx(result: AuditResult, path: str | Path) -> Path:
         ("currency", neutralise(result.currency or "no prices")),
         *[("note", n) for n in result.notes],
         *[(f"warning {c}", neutralise(m)) for c, m in result.warnings],
-        ("caution", _caution()),
+        *about_rows(made_by),
     ]
     sheet("about", pd.DataFrame(about, columns=["item", "value"]))
     wb.save(path)
     return path
-
-
-def _caution() -> str:
-    from ..caution import CAUTION
-
-    return CAUTION
 
 
 def _cell(v: Any) -> Any:
@@ -226,7 +255,7 @@ def _page(title: str, body: str) -> str:
 <style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>{body}</body></html>"""
 
 
-def _warning_items(warnings: list[tuple[str, str]] | None) -> str:
+def _warning_items(warnings: Sequence[tuple[str, str]] | None) -> str:
     """List items of (code, message) warnings, escaped; one "None." item when there are none."""
     items = "".join(f"<li><b>{html.escape(c)}</b>: {html.escape(m)}</li>" for c, m in warnings or ())
     return items or "<li>None.</li>"
@@ -300,7 +329,7 @@ def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
 <p>Rows read {result.rows["read"]}, used {result.rows["used"]}, rejected {result.rows["rejected"]}.
 CO2e basis: {esc(label)}. Gas volumes: {esc(GAS_VOLUME_REFERENCE)}.
 Costs: {esc(result.currency or "no prices given")}.</p>
-<p class="caution">{esc(_caution())}</p>
+<p class="caution">{esc(CAUTION)}</p>
 <h2>Totals</h2>{_table(totals)}<h2>Key figures</h2>{_table(kpi)}
 <h2>Charts</h2>{"".join(charts)}{cf_html}
 <h2>Rooms</h2>{_table(lab(rooms))}<h2>Months</h2>{_table(lab(months))}
@@ -355,7 +384,7 @@ def tables_report_html(
     return _page(
         title,
         f"""{lines}
-<p class="caution">{esc(_caution())}</p>{sections}
+<p class="caution">{esc(CAUTION)}</p>{sections}
 <h2>Warnings</h2><ul>{warn}</ul>
 """,
     )

@@ -155,9 +155,10 @@ def candidates(phase: PhaseInput, st: Settings) -> list[tuple[float, float, floa
     share = flows / total
     seen, out = set(), []
     for t in st.scale:
-        f = tuple(round_up(t * s, st.scale) if s > 0 else 0.0 for s in share)
-        if None in f or f in seen:
+        o2, air, n2o = (round_up(t * s, st.scale) if s > 0 else 0.0 for s in share)
+        if o2 is None or air is None or n2o is None or (o2, air, n2o) in seen:
             continue
+        f = (o2, air, n2o)
         seen.add(f)
         out.append(f)
     return sorted(out, key=lambda f: (sum(f), f))

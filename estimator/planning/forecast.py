@@ -201,7 +201,7 @@ def forecast(
     check_size(mix, weeks, max_cases)
     seed = mix.seed if seed is None else seed
     if seed is None:
-        seed = int(np.random.SeedSequence().entropy % 2**32)
+        seed = int(np.random.SeedSequence().generate_state(1)[0])  # a fresh 32-bit seed, reported
     if isinstance(seed, bool) or not isinstance(seed, int) or seed < 0:
         raise InputError("seed", seed, "a whole number of 0 or more")
     rng = np.random.default_rng(seed)
@@ -251,7 +251,7 @@ def forecast(
         }
         for key, v in add.items():
             weekly[key] += np.bincount(week, weights=v, minlength=weeks)
-        if cost_weekly is not None and n:
+        if cost_weekly is not None and mix.prices is not None and n:
             usage = pd.DataFrame(
                 {
                     "agent": ct.agent,
@@ -297,7 +297,7 @@ def forecast(
         units[f"{a}_bottles"] = ""
     items = {k: {s: Q_(v, units[k]) for s, v in summary_statistics(weekly[k]).items()} for k in units}
     cost = None
-    if cost_weekly is not None:
+    if cost_weekly is not None and mix.prices is not None:
         cost = {"currency": mix.prices.currency, **summary_statistics(cost_weekly), "unpriced": sorted(unpriced)}
         weekly["cost"] = cost_weekly
     warns = list(mix.warnings) + _warnings(weeks, flag_rows, unpriced)

@@ -128,13 +128,14 @@ class Planner:
         self.agent = scenario.agent.name
         self.search = search  # "stop": a failing trial stops at its first certain failure; "bisect": runs to the end
         self._parameters: dict[tuple, tuple[PhaseInput, np.ndarray]] = {}
+        self._candidates: dict[int, tuple[PhaseInput, list[tuple[float, float, float]]]] = {}
 
     def candidates(self, phase: PhaseInput) -> list[tuple[float, float, float]]:
         """Settable candidates of ``phase`` (:func:`~estimator.planning.floor_settings.candidates`), listed once."""
-        key = ("candidates", id(phase))
-        if key not in self._parameters:
-            self._parameters[key] = (phase, candidates(phase, self.st))
-        return self._parameters[key][1]
+        key = id(phase)  # the phase is kept with its entry, so its id stays its own
+        if key not in self._candidates:
+            self._candidates[key] = (phase, candidates(phase, self.st))
+        return self._candidates[key][1]
 
     def parameters(self, phase: PhaseInput, flows) -> np.ndarray:
         """Kernel parameters of ``phase`` at settable ``flows`` (set up once per phase and flows)."""
@@ -291,7 +292,7 @@ def flow_floor(
         res = pl.floor(ph, y, t, t, t + dur, mac_low)
         planned = tuple(q.to("L/min").magnitude for q in ph.flows())
         chosen = res.flows or planned
-        chk = res.check if res.flows else pl.check(ph, chosen, y, t, t, t + dur, mac_low)
+        chk = res.check if res.flows and res.check is not None else pl.check(ph, chosen, y, t, t, t + dur, mac_low)
         total = float(sum(chosen))
         entry = {
             "index": i,
@@ -328,6 +329,8 @@ def flow_floor(
         )
         if total < LABEL_MIDDLE_FLOW - 1e-9:
             mac_low += chk.mac_minutes / 60
+        if chk.end_state is None:  # the chosen flows are always run to the phase end
+            raise RuntimeError(f"flow floor: phase {i} was not run to its end at the chosen flows")
         y = chk.end_state
         t += dur
     if grid:

@@ -141,7 +141,7 @@ def plan_supply(
         if not pool.items:
             warns.append(("NO_STOCK", f"{key}: the plan uses it but the inventory lists none"))
         fail = fail_at[key]
-        row = {
+        row: dict[str, Any] = {
             "name": key,
             "usable": Q_(total * scale, unit),
             "draw_per_day": Q_(per_day * scale, f"{unit}/day"),
@@ -203,7 +203,7 @@ def plan_supply(
     finite = [i.runtime.magnitude for i in items if i.runtime is not None]
     n_days = min(table_days, int(np.ceil(max(finite))) + 1) if finite else min(table_days, 28)
     t = np.arange(n_days + 1) * 1440.0
-    table = {"date": [day0 + timedelta(days=int(d)) for d in range(n_days + 1)]}
+    table: dict[str, Any] = {"date": [day0 + timedelta(days=int(d)) for d in range(n_days + 1)]}
     for col, (pool, lower, upper, scale) in columns.items():
         table[col] = np.clip(upper - cum_at(pool, t), 0.0, upper - lower) * scale
     depletion = pd.DataFrame(table, index=pd.RangeIndex(n_days + 1, name="day"))

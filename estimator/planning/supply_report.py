@@ -45,7 +45,7 @@ class SupplyItem:
 
 @dataclass(frozen=True)
 class SupplyReport:
-    """Answer of :func:`plan_supply`; ``depletion`` has one row a day (start of the day), one column
+    """Answer of :func:`~estimator.planning.supply.plan_supply`; ``depletion`` has one row a day (start of the day), one column
     per stock item (remaining usable amount, units in the column name)."""
 
     title: str
@@ -67,7 +67,7 @@ class SupplyReport:
         from ..jsonout import jsonable
 
         cols = [c for c in self.depletion.columns if c != "date"]
-        units = {re.sub(r" \[.*\]$", "", c): re.search(r"\[(.*)\]$", c).group(1) for c in cols}
+        units = {re.sub(r" \[.*\]$", "", c): m.group(1) if (m := re.search(r"\[(.*)\]$", c)) else "" for c in cols}
         depletion = {
             "day": self.depletion.index.tolist(),
             "date": [d.isoformat() for d in self.depletion["date"]],

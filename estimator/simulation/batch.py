@@ -137,7 +137,7 @@ def case_template(scenario: Scenario) -> CaseTemplate:
     basis = np.array([[1.0, wt**0.75, wt] for wt in FIT_WEIGHTS])
     fit = np.stack([r[0] for r in runs[:3]])  # (3, k, NP)
     coef = np.linalg.solve(basis, fit.reshape(3, -1)).reshape(fit.shape)
-    initial = runs[0][1]
+    initial: np.ndarray | None = runs[0][1]
     for wt, (ph, y0) in zip(FIT_WEIGHTS + CHECK_WEIGHTS, runs, strict=True):
         model = coef[0] + coef[1] * wt**0.75 + coef[2] * wt
         if not np.allclose(model, ph, rtol=1e-9, atol=1e-12):

@@ -134,4 +134,5 @@ def true_flows(scenario: Scenario, phase: PhaseInput, site: SiteState) -> tuple[
             if reading > 0
             else 0.0
         )
-    return tuple(out)
+    o2, air, n2o = out
+    return o2, air, n2o

@@ -34,7 +34,7 @@ from ..errors import InputError
 from ..inputs.scenario import PhaseInput, Scenario
 from ..physics import circuit as c
 from ..physics.physiology import COMPARTMENT_TISSUE, COMPARTMENTS, DIFFUSION_DONOR, Patient
-from ..properties import Species, gas
+from ..properties import DataError, Species, gas
 from ..properties import agent as agent_properties
 from ..units import Q_
 from .case_site import SiteState, air_fractions, true_flows
@@ -48,6 +48,8 @@ def mac_at_age(species: Species, age_years: float) -> float:
     """MAC as a volume fraction at 1 atm, age-corrected (Mapleson 1996; estimator.physics.mac)."""
     from ..physics.mac import mapleson_factor
 
+    if species.mac40 is None:
+        raise DataError(f"agents.toml [{species.name}]: no mac40")
     return species.mac40.to("").magnitude * mapleson_factor(age_years)
 
 
@@ -156,6 +158,8 @@ def phase_parameters(
     else:
         p[c.P_MODE] = c.MODE_HOLD
         tgt = phase.end_tidal_target
+        if tgt is None:  # the contract gives exactly one of vaporizer and end_tidal_target
+            raise InputError("phases.end_tidal_target", None, "an end-tidal target where no vaporizer dial is given")
         if tgt.check("[anaesthetic_potency]"):
             p[c.P_TARGET_MAC] = tgt.to("MAC").magnitude
         else:

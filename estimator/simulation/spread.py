@@ -33,7 +33,7 @@ from __future__ import annotations
 
 import tomllib
 from dataclasses import dataclass
-from functools import cache
+from functools import cache, partial
 from importlib import resources
 from typing import Any
 
@@ -263,7 +263,7 @@ def simulate_spread(scenario, n: int, *, seed: int | None = None, scale: float =
     if isinstance(n, bool) or not isinstance(n, int | np.integer) or not 1 <= n <= MAX_PATIENTS:
         raise InputError("spread", n, f"a whole number of patients from 1 to {MAX_PATIENTS}")
     if seed is None:
-        seed = int(np.random.SeedSequence().entropy % 2**32)
+        seed = int(np.random.SeedSequence().generate_state(1)[0])  # a fresh 32-bit seed, reported
     if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
         raise InputError("seed", seed, "a whole number of 0 or more")
     rng = np.random.default_rng(seed)
@@ -275,7 +275,7 @@ def simulate_spread(scenario, n: int, *, seed: int | None = None, scale: float =
     # vector) and needs no cost: both are taken out of the loop (about 16 ms a patient).
     plain = scenario.model_copy(update={"prices": None})
     for i, row in enumerate(factors):
-        r = simulate(plain, patient=typical.patient, adjust=lambda p, row=row: apply_factors(p, row))
+        r = simulate(plain, patient=typical.patient, adjust=partial(apply_factors, f=row))
         for key, unit in SPREAD_TOTALS.items():
             totals[key][i] = r.totals[key].to(unit).magnitude
         for col, key in SPREAD_SERIES.items():

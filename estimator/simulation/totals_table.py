@@ -1,7 +1,7 @@
 """The one table of a case's totals, read by ``lowflow case`` and by the app's case planner.
 
 Both faces print the same rows, in the same order, labels and units, from
-:attr:`estimator.simulation.results.CaseResult.totals`; neither keeps its own list.
+``CaseResult.totals`` (:class:`~estimator.simulation.results.CaseResult`); neither keeps its own list.
 """
 
 from __future__ import annotations

@@ -85,7 +85,7 @@ def _file(result: Any, kind: str) -> bytes:
         return report_html(result, "Fresh-gas audit").encode("utf-8")
     with tempfile.TemporaryDirectory() as tmp:
         writer = write_csv if kind == "csv" else write_xlsx
-        return writer(result, Path(tmp) / f"audit.{kind}").read_bytes()
+        return writer(result, Path(tmp) / f"audit.{kind}", "lowflow app: fresh-gas audit").read_bytes()
 
 
 def render() -> None:
