@@ -1,0 +1,224 @@
+"""Calibration files: the TOML contract of a department's uptake factor per agent, with its provenance.
+
+A calibration file is written by ``lowflow audit LOG --calibrate --calibration-out FILE``
+(:mod:`estimator.planning.calibration`) and read by ``lowflow case``, ``safe-flow`` and ``forecast``
+(``--calibration FILE``, or ``calibration = "FILE"`` in a scenario or case-mix file). Each agent
+has an **uptake factor** with its interval: the factor multiplies the agent's uptake from the lungs
+into blood and tissues at any alveolar partial pressure (applied to the agent's blood/gas coefficient
+in the kernel parameters, :func:`estimator.simulation.kernel_parameters.base_parameters`; the
+partial-pressure time course of blood and every tissue stays as published, so at a held end-tidal
+the uptake scales by exactly the factor). The provenance names the log it came from (file name,
+SHA-256, date range of its cases, case count), so a forecast made with it can be traced.
+
+Layout::
+
+    method = "bootstrap over cases: 2000 resamples, seed 20; ..."
+    [provenance]
+    log_name = "kestrel_audit_log.csv"
+    log_sha256 = "<64 hex digits>"
+    first_case = "2026-01-05"
+    last_case = "2026-03-27"
+    cases = 452
+    made = "2026-12-03"
+    program = "lowflow-estimator 0.1.0"
+    [agents.sevoflurane]
+    factor = 1.10
+    low = 1.02
+    high = 1.19
+    cases = 310
+
+Every value is checked: a factor and its interval lie in :data:`FACTOR_RANGE` with
+``low <= factor <= high``, the case count is at least
+:data:`estimator.limits.CALIBRATION_MINIMUM_CASES`, agent names are known agents; unknown keys are
+refused. Errors name the field (``calibration.agents.sevoflurane.factor``), the value and the range.
+
+Examples
+--------
+>>> cal = calibration_from_text('''
+... method = "bootstrap"
+... [provenance]
+... log_name = "log.csv"
+... log_sha256 = "''' + "0" * 64 + '''"
+... first_case = "2026-01-05"
+... last_case = "2026-02-01"
+... cases = 40
+... made = "2026-03-01"
+... program = "lowflow-estimator"
+... [agents.sevoflurane]
+... factor = 1.2
+... low = 1.1
+... high = 1.3
+... cases = 40
+... ''')
+>>> cal.factor("sevoflurane"), cal.factor("isoflurane")
+(1.2, None)
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import os
+import re
+from typing import Any
+
+from pydantic import BaseModel, ConfigDict, ValidationError, field_validator, model_validator
+
+from ..contracts import input_error_from_validation, named_file, read_toml, toml_from_text
+from ..errors import InputError
+from ..limits import CALIBRATION_MINIMUM_CASES
+from ..properties import AGENTS
+
+#: Uptake factors accepted in a file and searched by the calibration (a factor of 0.05 or 20 is a
+#: model that misses the department's agent use twentyfold: our choice, a guard against typing slips).
+FACTOR_RANGE = (0.05, 20.0)
+_SHA256 = re.compile(r"^[0-9a-f]{64}$")
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+class AgentFactor(_Model):
+    """``[agents.<name>]``: the uptake factor, its interval and the cases it rests on."""
+
+    factor: float
+    low: float
+    high: float
+    cases: int
+
+    @model_validator(mode="after")
+    def _in_range(self) -> AgentFactor:
+        lo, hi = FACTOR_RANGE
+        for key in ("factor", "low", "high"):
+            v = getattr(self, key)
+            if not lo <= v <= hi:
+                raise ValueError(f"{key}: {lo:g} to {hi:g} (got {v:g})")
+        if not self.low <= self.factor <= self.high:
+            raise ValueError(
+                f"factor: within its interval low {self.low:g} to high {self.high:g} (got {self.factor:g})"
+            )
+        if self.cases < CALIBRATION_MINIMUM_CASES:
+            raise ValueError(f"cases: at least {CALIBRATION_MINIMUM_CASES} cases (got {self.cases})")
+        return self
+
+
+class Provenance(_Model):
+    """``[provenance]``: where the factors came from."""
+
+    log_name: str
+    log_sha256: str
+    first_case: dt.date | None = None  # none when the log gives elapsed times only
+    last_case: dt.date | None = None
+    cases: int
+    made: dt.date
+    program: str
+
+    @field_validator("log_sha256")
+    @classmethod
+    def _digest(cls, v: str) -> str:
+        if not _SHA256.match(v):
+            raise ValueError("a SHA-256 digest: 64 lower-case hexadecimal digits")
+        return v
+
+    @model_validator(mode="after")
+    def _dates(self) -> Provenance:
+        if (self.first_case is None) != (self.last_case is None):
+            raise ValueError("last_case: given with first_case, or both left out (a log of elapsed times)")
+        if self.first_case is not None and self.last_case < self.first_case:
+            raise ValueError(f"last_case: on or after first_case {self.first_case} (got {self.last_case})")
+        if self.cases < CALIBRATION_MINIMUM_CASES:
+            raise ValueError(f"cases: at least {CALIBRATION_MINIMUM_CASES} cases (got {self.cases})")
+        return self
+
+
+class Calibration(_Model):
+    """A calibration file: the method, the provenance and the factor of each calibrated agent."""
+
+    method: str
+    provenance: Provenance
+    agents: dict[str, AgentFactor]
+
+    @field_validator("agents")
+    @classmethod
+    def _known(cls, v: dict[str, AgentFactor]) -> dict[str, AgentFactor]:
+        if not v:
+            raise ValueError("at least one [agents.<name>] table")
+        for name in v:
+            if name not in AGENTS or AGENTS[name].kind != "volatile":
+                raise ValueError(f"{name}: one of " + ", ".join(volatile_agents()))
+        return v
+
+    def factor(self, agent: str) -> float | None:
+        """The uptake factor of ``agent``, or None when the file has none for it."""
+        entry = self.agents.get(agent)
+        return entry.factor if entry is not None else None
+
+
+def volatile_agents() -> list[str]:
+    """Names of the volatile agents a file may calibrate."""
+    return sorted(k for k, a in AGENTS.items() if a.kind == "volatile")
+
+
+def calibration_from_dict(data: dict[str, Any]) -> Calibration:
+    """Validate a parsed calibration document (InputError naming ``calibration.<field>``)."""
+    try:
+        return Calibration.model_validate(data)
+    except ValidationError as exc:
+        raise input_error_from_validation(exc, "calibration", model=Calibration) from None
+
+
+def calibration_from_text(text: str) -> Calibration:
+    """Parse a calibration from TOML text (never read as a path)."""
+    return calibration_from_dict(toml_from_text(text, "calibration"))
+
+
+def load_calibration(path: str | os.PathLike[str], field: str = "calibration") -> Calibration:
+    """Read a calibration TOML file (the argument is always a path).
+
+    >>> load_calibration("no/such/calibration.toml")
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: calibration: got 'no/such/calibration.toml'; expected an existing calibration TOML file
+    """
+    return calibration_from_dict(read_toml(path, field, "an existing calibration TOML file"))
+
+
+def attach_named(scenario: Any, base_dir: str | os.PathLike[str] | None) -> None:
+    """Read the calibration file a scenario names (relative to ``base_dir``) and attach it in place (at load)."""
+    if base_dir is None:
+        raise InputError("calibration", scenario.calibration, "a calibration file named in a scenario file on disk")
+    scenario._calibration = load_calibration(named_file(scenario.calibration, base_dir, "calibration", (".toml",)))
+
+
+def with_calibration(scenario: Any, calibration: Calibration | None = None, *, at_least: float | None = None) -> Any:
+    """A copy of a :class:`~estimator.inputs.scenario.Scenario` with ``calibration`` attached (None keeps its
+    own) and the factor applied raised to ``at_least`` (the flow floor's safe side: 1)."""
+    out = scenario.model_copy()
+    if calibration is not None:
+        out._calibration = calibration
+    if at_least is not None:
+        out._uptake_at_least = float(at_least)
+    return out
+
+
+def calibration_of(scenario: Any) -> Calibration | None:
+    """The calibration attached to a scenario, or None."""
+    return scenario._calibration
+
+
+class FixedFactor:
+    """A bare uptake factor for every agent, in the place of a calibration file (checks and synthetic logs).
+
+    >>> FixedFactor(1.5).factor("sevoflurane")
+    1.5
+    """
+
+    def __init__(self, value: float):
+        lo, hi = FACTOR_RANGE
+        if not lo <= value <= hi:
+            raise InputError("uptake factor", value, f"{lo:g} to {hi:g}")
+        self.value = float(value)
+
+    def factor(self, agent: str) -> float:
+        """The same factor for any agent."""
+        return self.value

@@ -1,0 +1,64 @@
+"""Synthetic audit logs made by the engine at a known uptake factor (for the calibration tests)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from estimator.inputs.calibration_file import FixedFactor, with_calibration
+from estimator.inputs.scenario import scenario_from_dict
+from estimator.simulation.engine import simulate
+
+HEADER = (
+    "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent,"
+    "patient_weight,patient_age"
+)
+#: Wash-in length [min] of every synthetic case.
+WASH_IN = 10.0
+
+
+def synthetic_log(
+    factor: float,
+    n: int = 24,
+    *,
+    agent: str = "sevoflurane",
+    seed: int = 3,
+    dial_scale: float = 1.0,
+    scatter: float = 0.1,
+):
+    """CSV text of ``n`` cases the engine ran with uptake factor ``factor``: a 10-min wash-in at 4 L/min
+    and a maintenance at 0.5-1.5 L/min, both end-tidal holds; samples every 0.5 min (the dial as the
+    engine set it, times ``dial_scale`` and a lognormal factor per case of SD ``scatter`` in its log,
+    standing in for the scatter between a department's patients)."""
+    rng = np.random.default_rng(seed)
+    rows = [HEADER]
+    for k in range(n):
+        weight, age = float(rng.uniform(50, 110)), float(rng.uniform(20, 80))
+        flow = float(rng.choice([0.5, 0.8, 1.0, 1.5]))
+        target = float(rng.uniform(0.9, 1.1))
+        duration = float(rng.choice([60, 90, 120]))
+        scale = dial_scale * float(np.exp(rng.normal(0.0, scatter))) if scatter else dial_scale
+        doc = {
+            "patient": {"weight": f"{weight} kg", "age": f"{age} years"},
+            "agent": {"name": agent},
+            "phases": [
+                {
+                    "duration": f"{WASH_IN} min",
+                    "oxygen": "2 L/min",
+                    "air": "2 L/min",
+                    "end_tidal_target": f"{target} MAC",
+                },
+                {
+                    "duration": f"{duration - WASH_IN} min",
+                    "oxygen": f"{flow / 2} L/min",
+                    "air": f"{flow / 2} L/min",
+                    "end_tidal_target": f"{target} MAC",
+                },
+            ],
+            "output": {"interval": "0.5 min"},
+        }
+        r = simulate(with_calibration(scenario_from_dict(doc), FixedFactor(factor)))
+        s = r.series.drop_duplicates("time [min]", keep="last")
+        for t, dial, et in zip(s["time [min]"], s["vaporizer_setting [%]"], s["end_tidal_agent [%]"], strict=True):
+            o2 = 2.0 if t < WASH_IN else flow / 2
+            rows.append(f"S{k:03d},{t:.2f},{o2},{o2},0,{agent},{dial * scale:.4f},{et:.4f},{weight:.1f},{age:.1f}")
+    return "\n".join(rows) + "\n"
