@@ -43,10 +43,10 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from ..constants import REFERENCE_TEMPERATURE_C, STANDARD_PRESSURE_KPA
 from ..errors import InputError
 from ..inputs.calibration_file import FACTOR_RANGE, FixedFactor, calibration_from_dict, with_calibration
 from ..limits import CALIBRATION_MINIMUM_CASES, UPTAKE_FACTOR_SUPPORTED
-from ..constants import REFERENCE_TEMPERATURE_C, STANDARD_PRESSURE_KPA
 
 if TYPE_CHECKING:
     from .audit_report import AuditResult
