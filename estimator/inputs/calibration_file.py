@@ -65,7 +65,7 @@ from pydantic import BaseModel, ConfigDict, ValidationError, field_validator, mo
 
 from ..contracts import input_error_from_validation, named_file, read_toml, toml_from_text
 from ..errors import InputError
-from ..limits import CALIBRATION_MINIMUM_CASES
+from ..limits import CALIBRATION_MINIMUM_CASES, UPTAKE_FACTOR_SUPPORTED
 from ..properties import AGENTS
 
 #: Uptake factors accepted in a file and searched by the calibration (a factor of 0.05 or 20 is a
@@ -222,3 +222,81 @@ class FixedFactor:
     def factor(self, agent: str) -> float:
         """The same factor for any agent."""
         return self.value
+
+
+def attach_option(scenario: Any, path: str | os.PathLike[str] | None, flag: str = "--calibration") -> Any:
+    """The scenario with the calibration file given on the command line (``flag``) attached; one source only."""
+    if path is None:
+        return scenario
+    if getattr(scenario, "calibration", None) is not None:
+        raise InputError(flag, str(path), "either --calibration FILE or the file's calibration key, not both")
+    return with_calibration(scenario, load_calibration(path, flag))
+
+
+def calibration_note(calibration: Calibration, agent: str, applied: float) -> dict[str, Any]:
+    """The ``calibration`` object of a case, flow-floor or forecast JSON document for ``agent``.
+
+    ``applied`` is the factor the engine used (the flow floor's may be raised to 1). The interval is
+    always given beside the factor; a factor outside :data:`estimator.limits.UPTAKE_FACTOR_SUPPORTED`
+    carries ``UPTAKE_FACTOR_UNSUPPORTED``, an agent the file lacks ``CALIBRATION_AGENT_ABSENT``.
+    """
+    rec = calibration.agents.get(agent)
+    lo, hi = UPTAKE_FACTOR_SUPPORTED
+    warnings = []
+    if rec is None:
+        warnings.append(
+            {
+                "code": "CALIBRATION_AGENT_ABSENT",
+                "message": f"the calibration file has no factor for {agent}: the published model (factor 1) is used",
+            }
+        )
+    elif not lo <= rec.factor <= hi:
+        warnings.append(
+            {
+                "code": "UPTAKE_FACTOR_UNSUPPORTED",
+                "message": f"{agent}: uptake factor {rec.factor:.2f} (interval {rec.low:.2f}-{rec.high:.2f}) lies "
+                f"outside {lo:.2f}-{hi:.2f}, the range the published checks support",
+            }
+        )
+    values = {k: getattr(rec, k) if rec is not None else None for k in ("factor", "low", "high", "cases")}
+    return {
+        "agent": agent,
+        **values,
+        "applied": applied,
+        "supported": [lo, hi],
+        "method": calibration.method,
+        "provenance": calibration.provenance.model_dump(mode="json"),
+        "warnings": warnings,
+    }
+
+
+def note_text(note: dict[str, Any]) -> str:
+    """One line for a text summary: the factor with its interval and where it came from."""
+    prov = note["provenance"]
+    span = f", {prov['first_case']} to {prov['last_case']}" if prov.get("first_case") else ""
+    source = f"from {prov['log_name']} ({note['cases'] or prov['cases']} cases{span})"
+    if note["factor"] is None:
+        return f"Uptake factor: 1 (the calibration has none for {note['agent']}) {source}"
+    used = "" if note["applied"] == note["factor"] else f"; {note['applied']:g} used here (the safe side)"
+    return f"Uptake factor {note['factor']:.2f} (95 % interval {note['low']:.2f}-{note['high']:.2f}) {source}{used}"
+
+
+def floor_side(scenario: Any) -> tuple[Any, list[tuple[str, str]]]:
+    """The scenario the flow floor runs: the uptake factor at least 1, with a warning when that raised it.
+
+    A higher uptake factor lowers inspired O2 at the same flows (agent taken up is replaced by vapour
+    that dilutes the O2; measured on the demo plans), deepens a volume deficit and slows wash-in and
+    wash-out, so every limit of the floor is at least as strict at max(f, 1) as at 1: a department
+    factor below 1 never lowers a floor below the published model's.
+    """
+    f = scenario.uptake_factor
+    if f >= 1.0:
+        return scenario, []
+    raised = with_calibration(scenario, at_least=1.0)
+    return raised, [
+        (
+            "FLOOR_FACTOR_RAISED",
+            f"the department's uptake factor {f:.2f} is below 1: the flow floor uses 1 (the published model), "
+            "which is never less safe",
+        )
+    ]
