@@ -62,3 +62,45 @@ def synthetic_log(
             o2 = 2.0 if t < WASH_IN else flow / 2
             rows.append(f"S{k:03d},{t:.2f},{o2},{o2},0,{agent},{dial * scale:.4f},{et:.4f},{weight:.1f},{age:.1f}")
     return "\n".join(rows) + "\n"
+
+
+def calibration(factor: float, agent: str = "sevoflurane"):
+    """A valid calibration file's contents with one agent's factor (interval +-5 %, 40 cases)."""
+    from estimator.inputs.calibration_file import calibration_from_text
+
+    return calibration_from_text(
+        f'method = "test"\n[provenance]\nlog_name = "log.csv"\nlog_sha256 = "{"0" * 64}"\n'
+        'first_case = 2026-01-05\nlast_case = 2026-02-01\ncases = 40\nmade = 2026-03-01\nprogram = "test"\n'
+        f"[agents.{agent}]\nfactor = {factor}\nlow = {0.95 * factor}\nhigh = {1.05 * factor}\ncases = 40\n"
+    )
+
+
+def calibration_codes(factor: float, agent: str = "sevoflurane", use: str = "sevoflurane") -> set[str]:
+    """Codes of the calibration note a case of ``use`` gets from a file calibrating ``agent``."""
+    from estimator.inputs.calibration_file import calibration_note
+
+    cal = calibration(factor, agent)
+    return {w["code"] for w in calibration_note(cal, use, cal.factor(use) or 1.0)["warnings"]}
+
+
+def audit_calibration_codes(factor: float) -> set[str]:
+    """Codes of the audit's calibration of a synthetic log made at ``factor``."""
+    from estimator.inputs.audit_log import log_from_text
+    from estimator.planning.audit import audit
+    from estimator.planning.calibration import check_and_calibrate, run_cases
+
+    out = check_and_calibrate(*run_cases(audit(log_from_text(synthetic_log(factor)))))
+    return {w["code"] for w in out["calibration"]["warnings"]}
+
+
+def floor_codes(factor: float) -> set[str]:
+    """Warnings of the flow floor of a small plan run with a department factor."""
+    from estimator.planning.safety import flow_floor
+
+    doc = {
+        "patient": {"weight": "70 kg"},
+        "agent": {"name": "sevoflurane"},
+        "phases": [{"duration": "20 min", "oxygen": "1 L/min", "air": "1 L/min", "end_tidal_target": "1 MAC"}],
+    }
+    sc = with_calibration(scenario_from_dict(doc), FixedFactor(factor))
+    return {c for c, _ in flow_floor(sc, grid=False).warnings}
