@@ -178,3 +178,40 @@ def test_missing_calibration_file_names_the_flag(tmp_path, capsys):
     assert "--calibration" in capsys.readouterr().err
     with pytest.raises(InputError):
         load_calibration(tmp_path / "none.toml")
+
+
+def test_app_audit_page_checks_and_calibrates_an_uploaded_log():
+    from app_helpers import assert_clean, page
+
+    at = page("fresh_gas_audit")
+    text = synthetic_log(FACTOR)
+    at.file_uploader(key="audit.log.upload").set_value(("dept.csv", text.encode(), "text/csv"))
+    at.selectbox(key="audit.prices.demo").set_value("no prices")
+    at.run()
+    at.toggle(key="audit.calibrate").set_value(True).run(timeout=300)
+    assert_clean(at)
+    table = next(df.value for df in at.dataframe if "uptake factor (95 % interval)" in df.value.columns)
+    row = table.iloc[0]
+    assert row["agent"] == "sevoflurane" and row["cases in the fit"] == 24
+    low, high = (float(x) for x in row["uptake factor (95 % interval)"].split("(")[1].rstrip(")").split("-"))
+    assert low <= FACTOR <= high
+    assert "Calibration (TOML)" in {b.label for b in at.get("download_button")}
+
+
+def test_scatter_chart_is_a_valid_vega_lite_spec():
+    import pandas as pd
+
+    from estimator_app.calibration_view import scatter
+
+    frame = pd.DataFrame(
+        {
+            "case_id": ["a", "b"],
+            "agent": ["sevoflurane", "isoflurane"],
+            "recorded_ml": [10.0, 20.0],
+            "predicted_ml": [12.0, 18.0],
+            "ratio": [0.83, 1.11],
+            "in_calibration": [True, False],
+        }
+    )
+    spec = scatter(frame).to_dict()  # altair validates against the Vega-Lite schema
+    assert spec["layer"][0]["encoding"]["x"]["title"] == "predicted liquid agent [mL]"
