@@ -284,10 +284,11 @@ def note_text(note: dict[str, Any]) -> str:
 def floor_side(scenario: Any) -> tuple[Any, list[tuple[str, str]]]:
     """The scenario the flow floor runs: the uptake factor at least 1, with a warning when that raised it.
 
-    A higher uptake factor lowers inspired O2 at the same flows (agent taken up is replaced by vapour
-    that dilutes the O2; measured on the demo plans), deepens a volume deficit and slows wash-in and
-    wash-out, so every limit of the floor is at least as strict at max(f, 1) as at 1: a department
-    factor below 1 never lowers a floor below the published model's.
+    A higher uptake factor lowers inspired O2 at low flow (agent taken up is replaced by vapour that
+    dilutes the O2: 0.15-0.3 percentage points from f = 0.5 to 2 on the low-flow demo plans; +0.003 at
+    65 % O2), deepens a volume deficit and slows wash-in and wash-out, so the limits of the floor are
+    at least as strict at max(f, 1) as at 1: a department factor below 1 never lowers a floor below
+    the published model's (tests/test_calibration_use.py, one-sided).
     """
     f = scenario.uptake_factor
     if f >= 1.0:

@@ -16,8 +16,8 @@ case is run at f = 1 and f = :data:`SECOND_FACTOR` and its delivered agent at an
 (the engine's delivered agent departs from the secant by under 2 % over f = 0.5-2 on the demo plans:
 measured, tests/test_calibration.py). f minimises the sum over cases of the squared log of recorded /
 predicted (errors taken as multiplicative), searched in ``FACTOR_RANGE``; its interval is the 2.5 and
-97.5 percentiles of f refitted on :data:`RESAMPLES` bootstrap resamples of the cases (Efron B,
-Tibshirani RJ. An Introduction to the Bootstrap. Chapman & Hall 1993, ch. 13, percentile interval)
+97.5 percentiles of f refitted on :data:`RESAMPLES` bootstrap resamples of the cases (the percentile
+interval of Efron B, Tibshirani RJ. An Introduction to the Bootstrap. Chapman & Hall 1993; from memory)
 with the fixed seed :data:`SEED`, so a log gives the same interval every time. The interval covers the
 scatter between cases, not a bias the model shares across them.
 
@@ -57,8 +57,8 @@ if TYPE_CHECKING:
 CHECK_BLOCK = "1 min"
 #: The second factor each case is run at; the secant through f = 1 and this gives f in between and near.
 SECOND_FACTOR = 2.0
-#: Bootstrap resamples of the interval, and their fixed seed (our choice: 2000 resamples put the
-#: 2.5 and 97.5 percentiles within about 1 % of their limit, Efron and Tibshirani 1993, ch. 19).
+#: Bootstrap resamples of the interval (common practice, no source: 1000-2000 for a 95 % percentile
+#: interval) and their fixed seed (our choice), so a log always gives the same interval.
 RESAMPLES = 2000
 SEED = 20
 #: Engine warnings that put a case outside the model's validity for the fit (a target not reached is
