@@ -92,13 +92,13 @@ class AgentFactor(_Model):
         for key in ("factor", "low", "high"):
             v = getattr(self, key)
             if not lo <= v <= hi:
-                raise ValueError(f"{key}: {lo:g} to {hi:g} (got {v:g})")
+                raise ValueError(f"{key}: {lo:g} to {hi:g}")
         if not self.low <= self.factor <= self.high:
             raise ValueError(
                 f"factor: within its interval low {self.low:g} to high {self.high:g} (got {self.factor:g})"
             )
         if self.cases < CALIBRATION_MINIMUM_CASES:
-            raise ValueError(f"cases: at least {CALIBRATION_MINIMUM_CASES} cases (got {self.cases})")
+            raise ValueError(f"cases: at least {CALIBRATION_MINIMUM_CASES} cases")
         return self
 
 
@@ -125,9 +125,9 @@ class Provenance(_Model):
         if (self.first_case is None) != (self.last_case is None):
             raise ValueError("last_case: given with first_case, or both left out (a log of elapsed times)")
         if self.first_case is not None and self.last_case < self.first_case:
-            raise ValueError(f"last_case: on or after first_case {self.first_case} (got {self.last_case})")
+            raise ValueError(f"last_case: on or after first_case {self.first_case}")
         if self.cases < CALIBRATION_MINIMUM_CASES:
-            raise ValueError(f"cases: at least {CALIBRATION_MINIMUM_CASES} cases (got {self.cases})")
+            raise ValueError(f"cases: at least {CALIBRATION_MINIMUM_CASES} cases")
         return self
 
 

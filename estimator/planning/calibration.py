@@ -39,6 +39,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import zlib
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
@@ -178,10 +179,10 @@ def check_and_calibrate(cases: list[CaseCheck], skipped: list[dict[str, str]], s
     Returns ``{"prediction_check": ..., "calibration": ...}``; ``calibration.agents.<agent>`` holds
     ``factor``, ``low``, ``high``, ``cases``, ``supported``; agents with too few cases are under ``refused``.
     """
-    rng = np.random.default_rng(seed)
     per_case, summary, agents, refused, warnings = [], {}, {}, {}, []
     for agent in sorted({c.agent for c in cases}):
         mine = [c for c in cases if c.agent == agent]
+        rng = np.random.default_rng([seed, zlib.crc32(agent.encode())])  # an agent's draws of its own
         ratio = np.array([c.recorded / c.at_one if c.at_one > 0 else math.nan for c in mine])
         ok = np.isfinite(ratio) & (ratio > 0)
         med = ratio[ok]
