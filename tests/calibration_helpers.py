@@ -68,11 +68,7 @@ def calibration(factor: float, agent: str = "sevoflurane"):
     """A valid calibration file's contents with one agent's factor (interval +-5 %, 40 cases)."""
     from estimator.inputs.calibration_file import calibration_from_text
 
-    return calibration_from_text(
-        f'method = "test"\n[provenance]\nlog_name = "log.csv"\nlog_sha256 = "{"0" * 64}"\n'
-        'first_case = 2026-01-05\nlast_case = 2026-02-01\ncases = 40\nmade = 2026-03-01\nprogram = "test"\n'
-        f"[agents.{agent}]\nfactor = {factor}\nlow = {0.95 * factor}\nhigh = {1.05 * factor}\ncases = 40\n"
-    )
+    return calibration_from_text(calibration_text(factor, agent))
 
 
 def calibration_codes(factor: float, agent: str = "sevoflurane", use: str = "sevoflurane") -> set[str]:
@@ -104,3 +100,12 @@ def floor_codes(factor: float) -> set[str]:
     }
     sc = with_calibration(scenario_from_dict(doc), FixedFactor(factor))
     return {c for c, _ in flow_floor(sc, grid=False).warnings}
+
+
+def calibration_text(factor: float, agent: str = "sevoflurane") -> str:
+    """The TOML text of a valid calibration file with one agent's factor (interval +-5 %, 40 cases)."""
+    return (
+        f'method = "test"\n[provenance]\nlog_name = "log.csv"\nlog_sha256 = "{"0" * 64}"\n'
+        'first_case = 2026-01-05\nlast_case = 2026-02-01\ncases = 40\nmade = 2026-03-01\nprogram = "test"\n'
+        f"[agents.{agent}]\nfactor = {factor}\nlow = {0.95 * factor}\nhigh = {1.05 * factor}\ncases = 40\n"
+    )

@@ -215,3 +215,18 @@ def test_scatter_chart_is_a_valid_vega_lite_spec():
     )
     spec = scatter(frame).to_dict()  # altair validates against the Vega-Lite schema
     assert spec["layer"][0]["encoding"]["x"]["title"] == "predicted liquid agent [mL]"
+
+
+def test_safe_flow_json_says_the_floor_used_factor_one(tmp_path, capsys):
+    from calibration_helpers import calibration_text
+
+    cal = tmp_path / "low.toml"
+    cal.write_text(calibration_text(0.7), encoding="utf-8")
+    plan = Path(__file__).resolve().parent.parent / "demo_cases" / "kestrel_lap_chole.toml"
+    doc = json.loads(cli(["safe-flow", str(plan), "--json", "--no-grid", "--calibration", str(cal)], capsys))
+    plain = json.loads(cli(["safe-flow", str(plan), "--json", "--no-grid"], capsys))
+    assert doc["calibration"]["factor"] == 0.7 and doc["calibration"]["applied"] == 1.0
+    assert "FLOOR_FACTOR_RAISED" in {w["code"] for w in doc["warnings"]}
+    assert [p["floor"] for p in doc["phases"]] == [p["floor"] for p in plain["phases"]]
+    case = json.loads(cli(["case", str(plan), "--json", "--calibration", str(cal)], capsys))
+    assert case["calibration"]["applied"] == 0.7  # the case itself runs at the department's factor
