@@ -186,7 +186,11 @@ def load_calibration(path: str | os.PathLike[str], field: str = "calibration") -
 def attach_named(scenario: Any, base_dir: str | os.PathLike[str] | None) -> None:
     """Read the calibration file a scenario names (relative to ``base_dir``) and attach it in place (at load)."""
     if base_dir is None:
-        raise InputError("calibration", scenario.calibration, "a calibration file named in a scenario file on disk")
+        raise InputError(
+            "calibration",
+            scenario.calibration,
+            "a calibration file named in a scenario file read from disk (a case mix names its own calibration)",
+        )
     scenario._calibration = load_calibration(named_file(scenario.calibration, base_dir, "calibration", (".toml",)))
 
 
