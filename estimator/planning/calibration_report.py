@@ -45,8 +45,8 @@ def svg_scatter(points: list[tuple[str, float, float, bool]], title: str, *, siz
         f'<line x1="{left}" y1="{top + plot}" x2="{left + plot}" y2="{top}" stroke="#888" stroke-dasharray="4 3">'
         "<title>line of identity</title></line>"
     )
-    for k in range(math.ceil(lo), math.floor(hi) + 1):
-        v = 10.0**k
+    ticks = [m * 10.0**k for k in range(math.floor(lo), math.ceil(hi) + 1) for m in (1, 2, 5)]
+    for v in (t for t in ticks if lo <= math.log10(t) <= hi):
         parts.append(f'<text x="{left + pos(v):.1f}" y="{top + plot + 14}" text-anchor="middle">{v:g}</text>')
         parts.append(f'<text x="{left - 4}" y="{top + plot - pos(v) + 4:.1f}" text-anchor="end">{v:g}</text>')
     for lab, x, y, ok in good:
@@ -56,8 +56,9 @@ def svg_scatter(points: list[tuple[str, float, float, bool]], title: str, *, siz
             f"<title>{html.escape(str(lab))}: predicted {x:.3g} mL, recorded {y:.3g} mL</title></circle>"
         )
     parts.append(
-        f'<text x="{left + plot / 2}" y="{size - 20}" text-anchor="middle">predicted liquid agent [mL] '
-        f"(dashed: line of identity)</text>"
+        f'<text x="{left + plot / 2}" y="{size - 26}" text-anchor="middle">predicted liquid agent [mL]</text>'
+        f'<text x="{left + plot / 2}" y="{size - 8}" text-anchor="middle">dashed: line of identity; '
+        f'<tspan fill="{_COLOURS[0]}">in the fit</tspan>, <tspan fill="{_COLOURS[1]}">left out</tspan></text>'
     )
     parts.append(
         f'<text x="14" y="{top + plot / 2}" transform="rotate(-90 14 {top + plot / 2})" text-anchor="middle">'
@@ -93,7 +94,7 @@ def calibration_html(doc: dict[str, Any]) -> str:
                 for c in check["cases"]
                 if c["agent"] == agent
             ],
-            f"{agent}: recorded against predicted liquid agent (blue: in the fit, red: left out)",
+            f"{agent}: recorded against predicted",
         )
         for agent in check["agents"]
     )
