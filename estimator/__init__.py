@@ -41,6 +41,8 @@ _LAZY = {
     "scenario_from_dict": ("estimator.inputs.scenario", "scenario_from_dict"),
     "flow_floor": ("estimator.planning.safety", "flow_floor"),
     "simulate_spread": ("estimator.simulation.spread", "simulate_spread"),
+    "load_calibration": ("estimator.inputs.calibration_file", "load_calibration"),
+    "with_calibration": ("estimator.inputs.calibration_file", "with_calibration"),
     "InputError": ("estimator.errors", "InputError"),
 }
 

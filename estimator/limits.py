@@ -100,6 +100,14 @@ SANE_AGE = (0.0, 120.0)
 MAPLESON_VALID_FROM = 1.0
 #: Beyond this time [min] the square-root laws are flagged (our choice: 4 h).
 SQUARE_ROOT_LAW_LIMIT = 240.0
+#: Fewest cases with end-tidal data a department's uptake factor may rest on (common practice, no
+#: source: a bootstrap interval over fewer than about 20 cases is itself unstable).
+CALIBRATION_MINIMUM_CASES = 20
+#: Uptake factors the published checks support: the Lowe's-law check of tests/test_engine_world.py
+#: accepts the model's uptake within 45 % (twice the published CV of closed-circuit agent use,
+#: 22.6 %, see README "Patient spread"), so a factor beyond 1/1.45 to 1.45 asks more of the model
+#: than its validation shows (derived).
+UPTAKE_FACTOR_SUPPORTED = (1.0 / 1.45, 1.45)
 #: Below this many simulated weeks the forecast's P99 is flagged as rough (about 1 week in 100 lies above it).
 FEW_WEEKS = 100
 
@@ -255,6 +263,28 @@ _TABLE: tuple[tuple[str, str, str, str, bool], ...] = (
     ("CASES_CUT_SHORT", "warning", "cases ended part-way through the template's fixed phases", "model", False),
     ("UNPRICED_ITEMS", "warning", "items used but not priced", "model", False),
     ("ORDER_SIZE_EMPTY", "warning", "an order unit holds nothing usable", "model", False),
+    # Calibration of the uptake factor on a department's log.
+    (
+        "UPTAKE_FACTOR_UNSUPPORTED",
+        "warning",
+        "the department's uptake factor lies outside the range the published checks support",
+        "derived (Lowe's-law check)",
+        False,
+    ),
+    (
+        "CALIBRATION_AGENT_ABSENT",
+        "warning",
+        "the calibration file has no factor for this agent (1 used)",
+        "model",
+        False,
+    ),
+    (
+        "FLOOR_FACTOR_RAISED",
+        "warning",
+        "the flow floor used uptake factor 1, not the department's lower factor (the safe side)",
+        "model",
+        True,
+    ),
     # Audit log, audit and policy.
     ("UNUSED_COLUMNS", "warning", "log columns not used by the audit", "model", False),
     ("TIME_NOT_ORDERED", "warning", "log samples out of time order (sorted)", "model", False),

@@ -15,6 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 
+from estimator.inputs.calibration_file import FixedFactor, with_calibration
 from estimator.inputs.scenario import scenario_from_dict
 from estimator.numerics import rkc
 from estimator.physics import circuit as c
@@ -64,6 +65,7 @@ VARIANTS = {
         site={"elevation": "2000 m"},
         circuit={"sample_returned": False, "leak": "0.05 L/min"},
     ),
+    "sevoflurane hold, department uptake factor 1.6": with_calibration(_scenario(), FixedFactor(1.6)),
     "volume deficit, room-air make-up": _scenario(
         keep={"oxygen": "0.15 L/min", "end_tidal_target": "0.8 MAC"}, circuit={"deficit_makeup": "room_air"}
     ),

@@ -15,6 +15,7 @@ from collections.abc import Callable
 from pathlib import Path
 
 import pytest
+from calibration_helpers import audit_calibration_codes, calibration_codes, floor_codes
 from code_inputs import (
     AUDIT_HEADER,
     CASES_ONLY,
@@ -272,6 +273,12 @@ PRODUCERS: dict[str, Callable[[], set[str]]] = {
         {"duration": "20 min", "oxygen": "1 L/min", "air": "3 L/min", "vaporizer": "2 %"},
         site={"elevation": "3000 m"},
     ),
+    # calibration: a factor beyond the supported range (audit fit; a file in use), an agent the file lacks,
+    # a factor below 1 raised to 1 for the flow floor
+    "UPTAKE_FACTOR_UNSUPPORTED/calibration": lambda: audit_calibration_codes(1.8),
+    "UPTAKE_FACTOR_UNSUPPORTED/calibration file": lambda: calibration_codes(2.0),
+    "CALIBRATION_AGENT_ABSENT": lambda: calibration_codes(1.2, "isoflurane"),
+    "FLOOR_FACTOR_RAISED": lambda: floor_codes(0.8),
     "SITE_ABOVE_HABITATION/case": case(
         "sevoflurane", {"duration": "10 min", "oxygen": "2 L/min", "vaporizer": "2 %"}, site={"elevation": "7000 m"}
     ),
@@ -304,6 +311,7 @@ SAFE: dict[str, Callable[[], set[str]]] = {
     "SETTING_ABOVE_FLOOR_FAILS": floor(
         "isoflurane", {"duration": "60 min", "oxygen": "0.5 L/min", "air": "0.5 L/min", "end_tidal_target": "1 MAC"}
     ),
+    "FLOOR_FACTOR_RAISED": lambda: floor_codes(1.2),
     "PIO2_BELOW_SEA_LEVEL_THRESHOLD": pio2(0.50, 0.30, 70.0),
     "PIO2_THRESHOLD_UNREACHABLE": pio2(0.50, 0.30, 70.0),
     "OXYGEN_BELOW_AIR": total("sevoflurane", 1.5, "40 years", "50 %"),

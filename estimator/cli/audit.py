@@ -97,6 +97,14 @@ def audit_command(
     manifold_loss: str = typer.Option(
         "0", "--manifold-loss", help="Share of piped N2O lost before use, e.g. '85 %' or 0.85 (0 for cylinders)."
     ),
+    calibrate: bool = typer.Option(
+        False,
+        "--calibrate",
+        help="Check the model's predictions on the recorded cases and fit each agent's uptake factor.",
+    ),
+    calibration_out: str | None = typer.Option(
+        None, "--calibration-out", help="Write the uptake factors as a calibration TOML file (implies --calibrate)."
+    ),
 ) -> None:
     """Fresh-gas audit: agent, gases, CO2e and cost per case, room and month, with KPIs."""
     from ..accounts.costs import DEMO_PRICES
@@ -107,7 +115,8 @@ def audit_command(
         raise InputError("--demo-prices", True, "either --prices FILE or --demo-prices, not both")
     loss = _share(manifold_loss, "--manifold-loss")
     outputs = output_paths(
-        {"--report": report, "--xlsx": xlsx, "--csv": csv_out}, {"LOG": log, "--policy": policy, "--prices": prices}
+        {"--report": report, "--xlsx": xlsx, "--csv": csv_out, "--calibration-out": calibration_out},
+        {"LOG": log, "--policy": policy, "--prices": prices},
     )
     price_table = _prices(prices) if prices is not None else (DEMO_PRICES if demo_prices else None)
     if not log.is_file():
@@ -132,7 +141,9 @@ def audit_command(
             progress=terminal_progress("re-running cases at the policy flow"),
         )
         result = dataclasses.replace(result, counterfactual=cf)
-    written = []
+    if calibrate or calibration_out is not None:
+        result = _calibrated(result, log, outputs.get("--calibration-out"))
+    written = [str(outputs["--calibration-out"])] if "--calibration-out" in outputs else []
     for flag, writer in (
         ("--report", exports.write_html),
         ("--xlsx", exports.write_xlsx),
@@ -145,6 +156,40 @@ def audit_command(
         typer.echo(json_text(result.to_json(), "audit", files))
         return
     _human(result, written)
+
+
+def _calibrated(result, log: str, out: Path | None):
+    """The audit with its prediction check and calibration; the calibration file written to ``out``."""
+    import hashlib
+
+    from ..planning.calibration import calibration_toml, check_and_calibrate, provenance, run_cases
+
+    cases, skipped = run_cases(result, progress=terminal_progress("re-running cases for the calibration"))
+    doc = check_and_calibrate(cases, skipped)
+    digest = hashlib.sha256(Path(log).read_bytes()).hexdigest()
+    used = sum(rec["cases"] for rec in doc["calibration"]["agents"].values())
+    doc["calibration"]["provenance"] = provenance(result, Path(log).name, digest, used)
+    if out is not None:
+        text = calibration_toml(doc["calibration"], doc["calibration"]["provenance"])
+        write_output("--calibration-out", out, lambda p: p.write_text(text, encoding="utf-8"))
+    return dataclasses.replace(result, calibration=doc)
+
+
+def _calibration_lines(doc) -> list[str]:
+    check, cal = doc["prediction_check"], doc["calibration"]
+    lines = ["Prediction check (recorded / predicted liquid agent, median and 95 % interval):"]
+    for agent, s in check["agents"].items():
+        ci = f"{_fmt(s.get('low'))}-{_fmt(s.get('high'))}" if s.get("low") is not None else "n/a"
+        rec = cal["agents"].get(agent)
+        fit = (
+            f"uptake factor {rec['factor']:.2f} (95 % interval {rec['low']:.2f}-{rec['high']:.2f}, {rec['cases']} cases)"
+            if rec
+            else f"not calibrated: {cal['refused'].get(agent, '')}"
+        )
+        lines.append(f"  {agent}: {s['cases']} cases, ratio {_fmt(s['median_ratio'])} ({ci}); {fit}")
+    lines.append(f"  {len(cal['excluded'])} case(s) left out of the fit, {len(check['skipped'])} skipped (see --json)")
+    lines += [f"warning {w['code']}: {w['message']}" for w in cal["warnings"]]
+    return lines
 
 
 def _human(result, written: list[str]) -> None:
@@ -188,6 +233,8 @@ def _human(result, written: list[str]) -> None:
             + (f", {_fmt(s['cost']['total'])} {cf['currency']}" if "cost" in s else "")
             + f" against the {cf['baseline']} baseline"
         )
+    for line in _calibration_lines(result.calibration) if result.calibration else []:
+        echo(line)
     for code, msg in result.warnings:
         echo(f"warning {code}: {msg}")
     for w in (cf or {}).get("warnings", []):

@@ -8,7 +8,7 @@ import typer
 
 from ..simulation.totals_table import totals_rows
 from . import CAUTION, app
-from .outputs import json_text, output_paths, write_output
+from .outputs import calibration_json, calibration_lines, json_text, output_paths, write_output
 
 
 @app.command("case")
@@ -23,13 +23,19 @@ def case(
         0, "--spread", help="Also simulate N patients drawn from published between-patient variation (0 = off)."
     ),
     seed: int | None = typer.Option(None, "--seed", help="Seed of the patient draws (--spread); reported in the JSON."),
+    calibration: Path | None = typer.Option(
+        None,
+        "--calibration",
+        help="A department's calibration TOML (lowflow audit --calibration-out): its uptake factor.",
+    ),
 ) -> None:
     """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
+    from ..inputs.calibration_file import attach_option
     from ..inputs.scenario import load_scenario
     from ..simulation.engine import simulate
 
-    outputs = output_paths({"--csv": csv, "--report": report}, {"FILE": file})
-    scenario = load_scenario(file)
+    outputs = output_paths({"--csv": csv, "--report": report}, {"FILE": file, "--calibration": calibration})
+    scenario = attach_option(load_scenario(file), calibration)
     result = simulate(scenario)
     band = None
     if spread:
@@ -51,7 +57,8 @@ def case(
         out = result.to_json()
         if band is not None:
             out["spread"] = band.to_json()
-        typer.echo(json_text(out, "case", {"FILE": file}))
+        out.update(calibration_json(scenario))
+        typer.echo(json_text(out, "case", {"FILE": file, "--calibration": calibration}))
         return
     typer.echo(summary(result, band))
 
@@ -87,6 +94,7 @@ def summary(result, band=None) -> str:
             when = f"reached at {reached.to('min').magnitude:.0f} min" if reached is not None else "not reached"
             lines.append(f"  phase {ph['index']}: end-tidal hold target {when}")
     lines.append("Gas litres: free gas at 15 degC and 101.325 kPa.")
+    lines += calibration_lines(sc)
     if band is not None:
         lines.append(
             f"P5-P95: {band.n} patients drawn from published between-patient variation (seed {band.seed}); "

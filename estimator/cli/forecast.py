@@ -40,6 +40,11 @@ def forecast(
     patient_spread: bool = typer.Option(
         False, "--patient-spread", help="Draw each case's physiology from published between-patient variation."
     ),
+    calibration: Path | None = typer.Option(
+        None,
+        "--calibration",
+        help="A department's calibration TOML (lowflow audit --calibration-out): its uptake factor.",
+    ),
 ) -> None:
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
     from ..planning.casemix import MAX_WEEKS, load_casemix
@@ -48,6 +53,11 @@ def forecast(
     if not 1 <= max_cases <= CASE_CEILING:
         raise InputError("--max-cases", max_cases, f"a whole number from 1 to {CASE_CEILING}")
     mix = load_casemix(file)
+    if calibration is not None:
+        from ..inputs.calibration_file import load_calibration
+        from ..planning.calibration import calibrated_mix
+
+        mix = calibrated_mix(mix, load_calibration(calibration, "--calibration"), "--calibration")
     span = mix.weeks if weeks is None else weeks
     if 1 <= span <= MAX_WEEKS:  # other week counts are refused by the forecast, naming --weeks
         size = check_size(mix, span, max_cases)
@@ -65,7 +75,29 @@ def forecast(
             patient_spread=patient_spread,
             progress=lambda share: show(round(100 * share), 100),
         )
-    typer.echo(json_text(result.to_json(), "forecast", {"FILE": file}) if json_out else summary(result))
+    files = {"FILE": file, "--calibration": calibration}
+    if json_out:
+        typer.echo(json_text({**result.to_json(), **_calibration(mix)}, "forecast", files))
+        return
+    from ..inputs.calibration_file import note_text
+
+    text = summary(result).rsplit("\n", 1)  # the calibration lines go before the closing caution
+    notes = [
+        line
+        for n in _calibration(mix).get("calibration", {}).values()
+        for line in [note_text(n)] + [f"  [{w['code']}] {w['message']}" for w in n["warnings"]]
+    ]
+    typer.echo("\n".join([text[0], *notes, *text[1:]]))
+
+
+def _calibration(mix) -> dict:
+    """``{"calibration": {agent: note}}`` for the agents of the mix, when a calibration is applied."""
+    from ..inputs.calibration_file import calibration_note
+
+    if mix.calibration is None:
+        return {}
+    agents = sorted({ct.agent for ct in mix.case_types})
+    return {"calibration": {a: calibration_note(mix.calibration, a, mix.calibration.factor(a) or 1.0) for a in agents}}
 
 
 def _fmt(q) -> str:

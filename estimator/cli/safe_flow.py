@@ -7,7 +7,7 @@ from pathlib import Path
 import typer
 
 from . import CAUTION, app
-from .outputs import json_text
+from .outputs import calibration_json, calibration_lines, json_text
 
 
 @app.command("safe-flow")
@@ -18,8 +18,14 @@ def safe_flow(
         None, "--threshold", help="Inspired O2 threshold, '30 %' or 0.30 (21 to 100 %; default 30 %)."
     ),
     no_grid: bool = typer.Option(False, "--no-grid", help="Skip the floor on the time grid."),
+    calibration: Path | None = typer.Option(
+        None,
+        "--calibration",
+        help="A department's calibration TOML (lowflow audit --calibration-out): its uptake factor.",
+    ),
 ) -> None:
     """Lowest safe fresh-gas flow per phase and over time, what limits it, and a settable schedule."""
+    from ..inputs.calibration_file import attach_option
     from ..inputs.scenario import load_scenario
     from ..planning.safety import flow_floor
     from ..units import check_range, parse_quantity
@@ -28,9 +34,11 @@ def safe_flow(
     if threshold is not None:  # the bare-number rule of every fraction: 0.3 is 30 %, 30 is refused
         q = parse_quantity(threshold, "--threshold", "fraction")
         level = float(check_range(q.to(""), "--threshold", 0.21, 1.0, value=threshold).magnitude)
-    result = flow_floor(load_scenario(file), threshold=level, grid=not no_grid)
+    scenario = attach_option(load_scenario(file), calibration)
+    result = flow_floor(scenario, threshold=level, grid=not no_grid)
     if json_out:
-        typer.echo(json_text(result.to_json(), "safe-flow", {"FILE": file}))
+        out = {**result.to_json(), **calibration_json(scenario, result.scenario.uptake_factor)}
+        typer.echo(json_text(out, "safe-flow", {"FILE": file, "--calibration": calibration}))
         return
     lines = [f"Flow floor (inspired O2 threshold {100 * result.settings.threshold:.0f} %):"]
     for ph in result.phases:
@@ -49,6 +57,7 @@ def safe_flow(
                 f"{ph['lowest_oxygen_flow'].to('L/min').magnitude:.2f} L/min"
             )
     lines.append(f"Recommended: {result.schedule_text}")
+    lines += calibration_lines(scenario, result.scenario.uptake_factor)
     cmp_ = result.comparison
     for key, unit, name in (
         ("agent_liquid", "mL", "liquid agent"),

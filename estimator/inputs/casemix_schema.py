@@ -91,3 +91,4 @@ class CaseMixInput(_Strict):
     case_types_file: str | None = None
     prices: dict[str, Any] | None = None
     orders: OrdersInput = OrdersInput()
+    calibration: str | None = None  # a department's calibration TOML, relative to the case-mix file

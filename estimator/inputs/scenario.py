@@ -280,7 +280,10 @@ class Scenario(_Model):
     output: OutputInput = OutputInput()
     flow_floor: FlowFloorInput = FlowFloorInput()
     notes: str = ""
+    calibration: str | None = None
     _price_table: Any = PrivateAttr(default=None)
+    _calibration: Any = PrivateAttr(default=None)
+    _uptake_at_least: float = PrivateAttr(default=0.0)
 
     @model_validator(mode="after")
     def _phases(self) -> Scenario:
@@ -314,9 +317,15 @@ class Scenario(_Model):
             self._price_table = parse_prices(self.prices)  # raises InputError naming prices.<key>
         return self._price_table
 
+    @property
+    def uptake_factor(self) -> float:
+        """The agent's uptake factor the engine applies (:mod:`estimator.inputs.calibration_file`; 1 without)."""
+        f = self._calibration.factor(self.agent.name) if self._calibration is not None else None
+        return max(1.0 if f is None else f, self._uptake_at_least)
 
-def scenario_from_dict(data: dict[str, Any]) -> Scenario:
-    """Validate a parsed scenario document.
+
+def scenario_from_dict(data: dict[str, Any], base_dir: str | os.PathLike[str] | None = None) -> Scenario:
+    """Validate a parsed scenario document; a ``calibration`` file is named relative to ``base_dir``.
 
     Raises
     ------
@@ -327,6 +336,10 @@ def scenario_from_dict(data: dict[str, Any]) -> Scenario:
     except ValidationError as exc:
         raise input_error_from_validation(exc, model=Scenario) from None
     scenario.price_table  # noqa: B018 - read (and checked) once at load
+    if scenario.calibration is not None:
+        from .calibration_file import attach_named
+
+        attach_named(scenario, base_dir)
     return scenario
 
 
@@ -372,4 +385,4 @@ def load_scenario(path: str | os.PathLike[str]) -> Scenario:
     expected = "an existing scenario TOML file"
     p = as_path(path, "scenario", expected)
     check_scenario_suffix(p, "scenario")
-    return scenario_from_dict(read_toml(p, "scenario", expected))
+    return scenario_from_dict(read_toml(p, "scenario", expected), base_dir=p.parent)

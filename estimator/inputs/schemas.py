@@ -23,6 +23,7 @@ from pydantic.json_schema import GenerateJsonSchema
 
 from ..accounts.prices import PricesInput
 from ..errors import InputError
+from .calibration_file import Calibration
 from .casemix_schema import CaseMixInput
 from .inventory_file import Inventory
 from .policy_file import PolicyInput
@@ -35,6 +36,7 @@ KINDS: dict[str, tuple[type[BaseModel], str | None]] = {
     "case-mix": (CaseMixInput, None),
     "prices": (PricesInput, "prices"),
     "policy": (PolicyInput, "policy"),
+    "calibration": (Calibration, None),
 }
 DRAFT = "https://json-schema.org/draft/2020-12/schema"
 

@@ -79,6 +79,8 @@ class AuditResult:
         ``setting``, ``end_tidal``, fractions 0-1), for the counterfactual.
     notes, warnings : tuples
     counterfactual : dict or None
+    calibration : dict or None
+        ``{"prediction_check", "calibration"}`` of :mod:`estimator.planning.calibration` (``--calibrate``).
     """
 
     rows: dict[str, int]
@@ -95,6 +97,7 @@ class AuditResult:
     notes: tuple[str, ...] = ()
     warnings: tuple[tuple[str, str], ...] = ()
     counterfactual: dict[str, Any] | None = None
+    calibration: dict[str, Any] | None = None
 
     def to_json(self) -> dict[str, Any]:
         """JSON document of the audit (see the README for the keys)."""
@@ -316,4 +319,5 @@ def audit_json(result: AuditResult) -> dict[str, Any]:
         "currency": result.currency,
         "notes": list(result.notes),
         "warnings": [{"code": c, "message": m} for c, m in result.warnings],
+        **(result.calibration or {}),  # prediction_check and calibration, with --calibrate only
     }

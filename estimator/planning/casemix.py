@@ -118,6 +118,7 @@ class CaseMix:
     prices: Prices | None
     orders: OrdersInput
     warnings: tuple[tuple[str, str], ...] = field(default=())
+    calibration: Any = None  # a department's Calibration, applied to every template (planning.calibration)
 
 
 _INLINE = (
@@ -296,9 +297,12 @@ def casemix_from_dict(data: dict[str, Any], base_dir: Path | str | None = None, 
         notes += n
     check_orders(raw.orders)
     prices = parse_prices(raw.prices) if raw.prices else None
-    return CaseMix(
+    mix = CaseMix(
         raw.title, raw.weeks, raw.seed, cover, raw.co2e_basis, loss, tuple(types), prices, raw.orders, tuple(notes)
     )
+    from .calibration import calibrated_mix, named_calibration  # a department's uptake factor, if named
+
+    return calibrated_mix(mix, named_calibration(raw.calibration, base, confine)) if raw.calibration else mix
 
 
 def case_types_from_text(text: str, start: int = 0) -> list[CaseTypeInput]:

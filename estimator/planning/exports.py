@@ -331,13 +331,19 @@ CO2e basis: {esc(label)}. Gas volumes: {esc(GAS_VOLUME_REFERENCE)}.
 Costs: {esc(result.currency or "no prices given")}.</p>
 <p class="caution">{esc(CAUTION)}</p>
 <h2>Totals</h2>{_table(totals)}<h2>Key figures</h2>{_table(kpi)}
-<h2>Charts</h2>{"".join(charts)}{cf_html}
+<h2>Charts</h2>{"".join(charts)}{cf_html}{_calibration_section(result)}
 <h2>Rooms</h2>{_table(lab(rooms))}<h2>Months</h2>{_table(lab(months))}
 <h2>Cases</h2>{_table(lab(result.cases))}
 <h2>Rejected rows</h2>{_table(rej) if len(rej) else "<p>None.</p>"}
 <h2>Warnings</h2><ul>{warn}</ul><h2>Method notes</h2><ul>{notes}</ul>
 """,
     )
+
+
+def _calibration_section(result: AuditResult) -> str:
+    from .calibration_report import calibration_html
+
+    return calibration_html(result.calibration) if result.calibration else ""
 
 
 def write_html(result: AuditResult, path: str | Path, title: str = "Fresh-gas audit") -> Path:

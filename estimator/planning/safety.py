@@ -277,9 +277,11 @@ def flow_floor(
     -------
     FloorResult
     """
+    from ..inputs.calibration_file import floor_side
     from .advisories import advisories
     from .audit import FLOW_CLASS_SOURCE, flow_class
 
+    scenario, raised = floor_side(scenario)  # a department's uptake factor, never below 1 here
     st = settings_from(scenario, threshold)
     pl = Planner(scenario, st, _search)
     plan = engine.simulate_setup(pl.case)
@@ -339,7 +341,7 @@ def flow_floor(
     rec_result = engine.simulate(rec)
     comparison = _compare(plan, rec_result)
     result = FloorResult(scenario, st, phases_out, grid_out, schedule, comparison)
-    result.warnings = advisories(scenario, st, plan, phases_out)
+    result.warnings = advisories(scenario, st, plan, phases_out) + raised
     result.schedule_text = schedule_text(schedule)
     return result
 

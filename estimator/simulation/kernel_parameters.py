@@ -113,7 +113,9 @@ def base_parameters(scenario: Scenario, patient: Patient, site: SiteState) -> np
     p[c.P_TAU_L] = HOLD_TAU_LUNG
     p[c.P_TAU_C] = HOLD_TAU_CIRCUIT
     for b, sp in enumerate((gas("nitrogen"), gas("nitrous_oxide"), ag, gas("argon"))):
-        p[c.P_LAMBDA + b] = sp.blood_gas
+        # the department's uptake factor (estimator.inputs.calibration_file) scales the agent's uptake
+        # into blood and tissues at every partial pressure; 1 without a calibration
+        p[c.P_LAMBDA + b] = sp.blood_gas * (scenario.uptake_factor if sp is ag else 1.0)
         for k, t in enumerate(COMPARTMENTS):
             p[c.P_LAMBDA_T + c.NT * b + k] = sp.tissue_blood[COMPARTMENT_TISSUE[t]]
     p[c.P_AIR : c.P_AIR + c.NS] = air_fractions()

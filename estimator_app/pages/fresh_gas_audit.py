@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import tempfile
 from pathlib import Path
 from typing import Any
@@ -180,6 +181,10 @@ def render() -> None:
         if cf["skipped"]:
             st.dataframe(pd.DataFrame(cf["skipped"]), hide_index=True, width="stretch")
         show_warnings(cf["warnings"])
+    from ..calibration_view import render_calibration
+
+    calib = render_calibration(result, (text, prices_text, basis, quad, after), name, text)
+    result = dataclasses.replace(result, calibration=calib) if calib else result  # in the downloads too
     st.subheader("Download the audit")
     from estimator.jsonout import dumps
 
