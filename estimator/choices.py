@@ -64,3 +64,4 @@ class FileKind(StrEnum):
     CASE_MIX = "case-mix"
     PRICES = "prices"
     POLICY = "policy"
+    CALIBRATION = "calibration"

@@ -158,7 +158,7 @@ def audit_command(
     _human(result, written)
 
 
-def _calibrated(result, log: str, out: Path | None):
+def _calibrated(result, log: str | Path, out: Path | None):
     """The audit with its prediction check and calibration; the calibration file written to ``out``."""
     import hashlib
 

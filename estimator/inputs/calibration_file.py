@@ -124,7 +124,7 @@ class Provenance(_Model):
     def _dates(self) -> Provenance:
         if (self.first_case is None) != (self.last_case is None):
             raise ValueError("last_case: given with first_case, or both left out (a log of elapsed times)")
-        if self.first_case is not None and self.last_case < self.first_case:
+        if self.first_case is not None and self.last_case is not None and self.last_case < self.first_case:
             raise ValueError(f"last_case: on or after first_case {self.first_case}")
         if self.cases < CALIBRATION_MINIMUM_CASES:
             raise ValueError(f"cases: at least {CALIBRATION_MINIMUM_CASES} cases")
@@ -194,7 +194,9 @@ def attach_named(scenario: Any, base_dir: str | os.PathLike[str] | None) -> None
     scenario._calibration = load_calibration(named_file(scenario.calibration, base_dir, "calibration", (".toml",)))
 
 
-def with_calibration(scenario: Any, calibration: Calibration | None = None, *, at_least: float | None = None) -> Any:
+def with_calibration(
+    scenario: Any, calibration: Calibration | FixedFactor | None = None, *, at_least: float | None = None
+) -> Any:
     """A copy of a :class:`~estimator.inputs.scenario.Scenario` with ``calibration`` attached (None keeps its
     own) and the factor applied raised to ``at_least`` (the flow floor's safe side: 1)."""
     out = scenario.model_copy()

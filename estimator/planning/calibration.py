@@ -61,6 +61,7 @@ SECOND_FACTOR = 2.0
 #: Bootstrap resamples of the interval (common practice, no source: 1000-2000 for a 95 % percentile
 #: interval) and their fixed seed (our choice), so a log always gives the same interval.
 RESAMPLES = 2000
+#: The bootstrap's fixed seed (our choice).
 SEED = 20
 #: Engine warnings that put a case outside the model's validity for the fit (a target not reached is
 #: not one: a recorded end-tidal that falls faster than the model can wash out at low flow is no
@@ -138,8 +139,8 @@ def run_cases(
             reason = "patient " + " and ".join(item["defaults"]) + " not recorded"
         elif not recorded > 0:
             reason = "no agent recorded"
-        liquid = (float(r.totals["agent_liquid"].to("mL").magnitude) for r in (one, two))
-        out.append(CaseCheck(item["case_id"], item["agent"], recorded, *liquid, reason))
+        at_one, at_two = (float(r.totals["agent_liquid"].to("mL").magnitude) for r in (one, two))
+        out.append(CaseCheck(item["case_id"], item["agent"], recorded, at_one, at_two, reason))
     if progress is not None:
         progress(len(built), len(built))
     return out, skipped
@@ -179,7 +180,11 @@ def check_and_calibrate(cases: list[CaseCheck], skipped: list[dict[str, str]], s
     Returns ``{"prediction_check": ..., "calibration": ...}``; ``calibration.agents.<agent>`` holds
     ``factor``, ``low``, ``high``, ``cases``, ``supported``; agents with too few cases are under ``refused``.
     """
-    per_case, summary, agents, refused, warnings = [], {}, {}, {}, []
+    per_case: list[dict[str, Any]] = []
+    summary: dict[str, dict[str, Any]] = {}
+    agents: dict[str, dict[str, Any]] = {}
+    refused: dict[str, str] = {}
+    warnings: list[dict[str, str]] = []
     for agent in sorted({c.agent for c in cases}):
         mine = [c for c in cases if c.agent == agent]
         rng = np.random.default_rng([seed, zlib.crc32(agent.encode())])  # an agent's draws of its own
@@ -188,7 +193,11 @@ def check_and_calibrate(cases: list[CaseCheck], skipped: list[dict[str, str]], s
         med = ratio[ok]
         summary[agent] = {"cases": int(ok.sum()), "median_ratio": float(np.median(med)) if len(med) else None}
         if len(med) >= 2:
-            summary[agent]["low"], summary[agent]["high"] = _interval(med, lambda i, m=med: np.median(m[i]), rng)
+
+            def median_of(i: np.ndarray, m: np.ndarray = med) -> float:
+                return float(np.median(m[i]))
+
+            summary[agent]["low"], summary[agent]["high"] = _interval(med, median_of, rng)
         use = [c for c in mine if c.excluded is None and c.at_one > 0]
         factor = None
         if len(use) < CALIBRATION_MINIMUM_CASES:
@@ -199,7 +208,11 @@ def check_and_calibrate(cases: list[CaseCheck], skipped: list[dict[str, str]], s
             s = (a2 - a1) / (SECOND_FACTOR - 1.0)
             a = a1 - s
             factor = fit_factor(rec, a, s)
-            low, high = _interval(rec, lambda i, a=a, s=s, r=rec: fit_factor(r[i], a[i], s[i]), rng)
+
+            def refit(i: np.ndarray, a: np.ndarray = a, s: np.ndarray = s, r: np.ndarray = rec) -> float:
+                return fit_factor(r[i], a[i], s[i])
+
+            low, high = _interval(rec, refit, rng)
             low, high = min(low, factor), max(high, factor)
             agents[agent] = {"factor": factor, "low": low, "high": high, "cases": len(use)}
             lo_ok, hi_ok = UPTAKE_FACTOR_SUPPORTED
@@ -326,4 +339,16 @@ def quantities(check: dict[str, Any]) -> list[dict[str, Any]]:
     ]
 
 
-__all__ = ["CaseCheck", "calibration_toml", "check_and_calibrate", "fit_factor", "provenance", "run_cases"]
+__all__ = [
+    "CHECK_BLOCK",
+    "EXCLUDE_CODES",
+    "RESAMPLES",
+    "SECOND_FACTOR",
+    "SEED",
+    "CaseCheck",
+    "calibration_toml",
+    "check_and_calibrate",
+    "fit_factor",
+    "provenance",
+    "run_cases",
+]
