@@ -17,12 +17,14 @@ CAUTION = (
 
 
 def stamp(document: dict[str, Any], made_by: str, inputs: Mapping[str, bytes | None] | None = None) -> dict[str, Any]:
-    """A JSON document with the caution and where it came from added (``caution``, ``provenance``).
+    """A JSON document with the caution and where it came from added (``caution``, ``generator``,
+    ``provenance``).
 
     Parameters
     ----------
     document : dict
-        The result as JSON types (keys ``caution`` and ``provenance`` are set here).
+        The result as JSON types (keys ``caution``, ``generator`` (``name``, ``version``) and
+        ``provenance`` are set here).
     made_by : str
         What made it, e.g. ``"lowflow case"`` or ``"lowflow app: case planner"``.
     inputs : dict, optional
@@ -39,8 +41,13 @@ def stamp(document: dict[str, Any], made_by: str, inputs: Mapping[str, bytes | N
     >>> d = stamp({"x": 1}, "lowflow case", {"case.toml": b"[patient]"})
     >>> d["provenance"]["program"], d["provenance"]["inputs"][0]["name"], d["caution"][:8]
     ('lowflow-estimator', 'case.toml', 'Planning')
+    >>> d["generator"]["name"] == d["provenance"]["program"]
+    True
     """
+    from . import __version__
+
     document["caution"] = CAUTION
+    document["generator"] = {"name": PROGRAM, "version": __version__}
     document["provenance"] = provenance(made_by, inputs)
     return document
 

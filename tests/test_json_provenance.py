@@ -31,6 +31,7 @@ def test_every_json_output_carries_the_caution_and_its_provenance(tmp_path):
         assert out.exit_code == 0, (verb, out.output[-500:])
         doc = json.loads(out.stdout)
         assert doc["caution"] == CAUTION, verb
+        assert doc["generator"]["name"] == "lowflow-estimator" and doc["generator"]["version"], verb
         prov = doc["provenance"]
         assert prov["made_by"] == f"lowflow {verb}" and prov["version"], verb
         files = [Path(a) for a in argv[1:] if a.endswith((".toml", ".csv"))]
@@ -65,3 +66,12 @@ def test_provenance_digests_the_bytes_the_result_was_computed_from(tmp_path, cap
         assert exc.code in (0, None)
     doc = json.loads(capsys.readouterr().out)
     assert doc["provenance"]["inputs"][0]["sha256"] == hashlib.sha256(original).hexdigest()
+
+
+def test_every_json_document_names_its_generator():
+    # The generator key: program name and version, as the package metadata gives them.
+    from estimator import __version__
+    from estimator.caution import stamp
+
+    doc = stamp({"x": 1}, "lowflow case")
+    assert doc["generator"] == {"name": "lowflow-estimator", "version": __version__}
