@@ -123,3 +123,71 @@ def show(chart: alt.Chart | dict[str, Any], where: Any = None) -> None:
     the tests, not on every rerun (validation costs about 20 ms a chart)."""
     spec = chart if isinstance(chart, dict) else chart.to_dict(validate=False)
     (where or st).vega_lite_chart(spec, width="stretch")
+
+
+def class_bars(shares: dict[str, float], y_title: str, height: int = 240) -> dict[str, Any]:
+    """Vega-Lite spec: one bar a flow class in the flow-class ramp, the class name written on each bar.
+
+    ``shares`` maps class name to a value (a share in %), lowest flow first (its colour order).
+    """
+    from estimator.planning.flow_classes import FLOW_CLASS_COLOURS
+
+    names = list(shares)
+    rows = [{"class": n, "value": float(v) if v == v else 0.0} for n, v in shares.items()]
+    x = {"field": "class", "type": "nominal", "sort": names, "title": "flow class (Brattwall et al. 2012)"}
+    y = {"field": "value", "type": "quantitative", "title": y_title}
+    colour = {"field": "class", "type": "nominal", "scale": {"domain": names, "range": list(FLOW_CLASS_COLOURS)}}
+    return {
+        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
+        "height": height,
+        "data": {"values": rows},
+        "layer": [
+            {
+                "mark": {"type": "bar", "stroke": "#1b4d74", "strokeWidth": 0.5},
+                "encoding": {
+                    "x": x,
+                    "y": y,
+                    "color": {**colour, "legend": None},
+                    "tooltip": [{"field": "class", "type": "nominal"}, {**y, "format": ".3g"}],
+                },
+            },
+            {
+                "mark": {"type": "text", "dy": -6, "baseline": "bottom", "color": "#1d2a33", "fontSize": 11},
+                "encoding": {"x": x, "y": y, "text": {"field": "class", "type": "nominal"}},
+            },
+        ],
+    }
+
+
+def case_bars(
+    frame: pd.DataFrame, x: str, y: str, colour: str, x_title: str, y_title: str, domain: list[str] | None = None
+) -> dict[str, Any]:
+    """Vega-Lite spec: one bar a row of ``frame`` (a case), coloured by ``colour`` (the agent), in row order.
+
+    ``domain`` fixes which colour each value gets (the same agent in the same colour on every chart).
+    """
+    cols = [x, y, colour]
+    scale: dict[str, Any] = {"range": list(PALETTE)}
+    if domain is not None:
+        scale["domain"] = domain
+    return {
+        "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
+        "height": 240,
+        "data": {"values": frame[cols].to_dict("records")},
+        "mark": {"type": "bar"},
+        "encoding": {
+            "x": {"field": x, "type": "nominal", "sort": None, "title": x_title, "axis": {"labels": len(frame) <= 40}},
+            "y": {"field": y, "type": "quantitative", "title": y_title},
+            "color": {
+                "field": colour,
+                "type": "nominal",
+                "scale": scale,
+                "legend": {"orient": "top", "title": None},
+            },
+            "tooltip": [
+                {"field": x, "type": "nominal"},
+                {"field": colour, "type": "nominal"},
+                {"field": y, "type": "quantitative", "title": y_title, "format": ".3g"},
+            ],
+        },
+    }

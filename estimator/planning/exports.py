@@ -31,9 +31,13 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
+from ..display import name as human_name
+from ..display import text
 from ..properties import CO2E_BASES
 from ..units import GAS_VOLUME_REFERENCE
 from .audit_report import SUFFIX_UNITS
+from .flow_classes import FLOW_CLASS_COLOURS, FLOW_CLASSES
+from .svg_charts import svg_bars
 
 if TYPE_CHECKING:
     from .audit_report import AuditResult
@@ -69,6 +73,8 @@ def _header(column: str, basis_label: str, currency: str | None) -> str:
         return f"CO2e per MAC-hour [kg CO2e, {basis_label}]"
     if column.startswith("cost_"):
         return f"{column.replace('_', ' ')} [{currency}]"
+    if column.startswith("liquid_") and column.endswith("_ml"):
+        return f"{human_name(column[7:-3])}, liquid [mL]"
     for suffix, unit in SUFFIX_UNITS:
         if column.endswith(suffix):
             name = column[: -len(suffix)].replace("_", " ")
@@ -163,41 +169,6 @@ def _cell(v: Any) -> Any:
 
 
 # ----------------------------------------------------------------------------- HTML report
-def svg_bars(
-    labels: list[str],
-    values: list[float],
-    unit: str,
-    title: str,
-    *,
-    width: int = 640,
-    colours: tuple[str, ...] = ("#3b6e8f",),
-) -> str:
-    """A horizontal bar chart as an inline SVG string (labels escaped).
-
-    >>> "<svg" in svg_bars(["a<b"], [1.0], "mL", "t") and "a&lt;b" in svg_bars(["a<b"], [1.0], "mL", "t")
-    True
-    """
-    vals = [0.0 if v is None or not math.isfinite(v) else float(v) for v in values]
-    top = max([abs(v) for v in vals] + [1e-12])
-    bar_h, gap, left, right = 18, 6, 170, 110
-    height = 28 + len(vals) * (bar_h + gap)
-    parts = [
-        f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
-        f'aria-label="{html.escape(title)}">',
-        f'<text x="0" y="16" class="t">{html.escape(title)}</text>',
-    ]
-    span = width - left - right
-    for i, (lab, v) in enumerate(zip(labels, vals, strict=True)):
-        y = 28 + i * (bar_h + gap)
-        w = span * abs(v) / top
-        fill = colours[i % len(colours)]
-        parts.append(f'<text x="{left - 6}" y="{y + 13}" text-anchor="end">{html.escape(str(lab)[:28])}</text>')
-        parts.append(f'<rect x="{left}" y="{y}" width="{w:.1f}" height="{bar_h}" fill="{fill}"/>')
-        parts.append(f'<text x="{left + w + 4:.1f}" y="{y + 13}">{v:.3g} {html.escape(unit)}</text>')
-    parts.append("</svg>")
-    return "".join(parts)
-
-
 def _table(frame: pd.DataFrame, limit: int = 500) -> str:
     head = "".join(f"<th>{html.escape(str(c))}</th>" for c in frame.columns)
     body = []
@@ -205,8 +176,7 @@ def _table(frame: pd.DataFrame, limit: int = 500) -> str:
         cells = []
         for v in rec:
             v = _cell(v)
-            text = "" if v is None else (f"{v:.4g}" if isinstance(v, float) else str(v))
-            cells.append(f"<td>{html.escape(text)}</td>")
+            cells.append(f"<td>{html.escape(text(v))}</td>")
         body.append("<tr>" + "".join(cells) + "</tr>")
     more = f"<p>{len(frame) - limit} more rows in the CSV/XLSX export.</p>" if len(frame) > limit else ""
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>{more}"
@@ -232,62 +202,95 @@ def _warning_items(warnings: list[tuple[str, str]] | None) -> str:
     return items or "<li>None.</li>"
 
 
-def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
-    """The self-contained HTML report of an audit."""
+def _charts(result: AuditResult) -> list[str]:
+    """The report's charts: each agent's liquid per room, CO2e per month, time per flow class."""
     label = CO2E_BASES[result.basis][1]
-    esc = html.escape
-    k = result.kpis
-    rooms, months = result.rooms, result.months
+    rooms, months, k = result.rooms, result.months, result.kpis
     charts = [
         svg_bars(
-            rooms["room"].astype(str).tolist(),
-            rooms["agent_liquid_ml"].tolist(),
-            "mL",
-            "Liquid agent delivered per room",
+            rooms["room"].astype(str).tolist(), rooms[col].tolist(), "mL", f"{human_name(col[7:-3])} delivered per room"
         )
-        if len(rooms)
-        else "",
-        svg_bars(months["month"].astype(str).tolist(), months["co2e_kg"].tolist(), "kg", f"CO2e per month ({label})")
-        if len(months)
-        else "",
-        svg_bars(
-            list(k["flow_class_shares"]),
-            [100 * (v if v == v else 0.0) for v in k["flow_class_shares"].values()],
-            "%",
-            "Share of maintenance time per flow class (Baum and Aitkenhead 1995; Brattwall et al. 2012)",
-            colours=("#5b8c5a", "#7aa35f", "#a7b94f", "#d9a400", "#d9742b", "#c0392b"),
-        ),
+        for col in _agent_columns(rooms)
     ]
-    cf = result.counterfactual
-    cf_html = ""
-    if cf:
-        t = cf["totals"]
-        names = ["agent liquid [mL]", "fresh gas [L]", f"CO2e [kg, {label}]"]
-        keys = ["agent_liquid", "fresh_gas", "co2e"]
-        vals_b = [t["baseline"][x]["magnitude"] for x in keys]
-        vals_p = [t["policy"][x]["magnitude"] for x in keys]
-        rows = pd.DataFrame(
-            {
-                "quantity": names,
-                cf["baseline"]: vals_b,
-                "policy": vals_p,
-                "saving": [b - p for b, p in zip(vals_b, vals_p, strict=True)],
-            }
-        )
-        cf_html = (
-            f"<h2>Counterfactual: {esc(str(cf['policy']['name']))}</h2><p>{esc(cf['method'])}. "
-            f"Cases re-run: {t['cases']}; skipped: {len(cf['skipped'])}.</p>"
-            + _table(rows)
-            + svg_bars(
-                [f"{n} ({s})" for n in ("agent", "CO2e") for s in (cf["baseline"], "policy")],
-                [vals_b[0], vals_p[0], vals_b[2], vals_p[2]],
-                "",
-                "Baseline against policy",
-                colours=("#3b6e8f", "#5b8c5a"),
+    if len(months):
+        charts.append(
+            svg_bars(
+                months["month"].astype(str).tolist(), months["co2e_kg"].tolist(), "kg", f"CO2e per month ({label})"
             )
         )
+    shares = k["flow_class_shares"]
+    charts.append(
+        svg_bars(
+            [
+                f"up to {b:g} L/min" if math.isfinite(b) else f"over {FLOW_CLASSES[-2][1]:g} L/min"
+                for _, b in FLOW_CLASSES
+            ],
+            [100 * (v if v == v else 0.0) for v in shares.values()],
+            "%",
+            "Share of maintenance time per flow class (Baum and Aitkenhead 1995; Brattwall et al. 2012)",
+            colours=FLOW_CLASS_COLOURS,
+            on_bar=list(shares),
+        )
+    )
+    return charts
+
+
+def _agent_columns(frame: pd.DataFrame) -> list[str]:
+    """Columns of each agent's liquid (``liquid_<agent>_ml``) with some agent in them."""
+    cols = [c for c in frame.columns if c.startswith("liquid_") and c.endswith("_ml")]
+    return [c for c in cols if float(frame[c].sum()) > 0]
+
+
+#: Cases shown on the report's per-case counterfactual chart (the largest savings; all are in the JSON).
+CF_CASES_CHARTED = 20
+
+
+def counterfactual_html(cf: dict[str, Any], basis_label: str) -> str:
+    """The counterfactual section: totals (each agent apart), and the cases with the largest savings."""
+    esc = html.escape
+    t = cf["totals"]
+    quantities = [("Fresh gas [L]", "fresh_gas"), (f"CO2e [kg, {basis_label}]", "co2e")]
+    if "agent_liquid_by_agent" not in t["baseline"]:  # a document of an older version: all agents together
+        quantities.insert(0, ("Liquid agent, all agents [mL]", "agent_liquid"))
+    rows = [
+        (
+            f"{human_name(a)}, liquid [mL]",
+            t["baseline"]["agent_liquid_by_agent"][a]["magnitude"],
+            t["policy"]["agent_liquid_by_agent"][a]["magnitude"],
+        )
+        for a in t["baseline"].get("agent_liquid_by_agent", {})
+    ] + [(q, t["baseline"][key]["magnitude"], t["policy"][key]["magnitude"]) for q, key in quantities]
+    if "cost" in t.get("savings", {}):
+        rows.append((f"Cost [{cf['currency']}]", t["baseline"]["cost"]["total"], t["policy"]["cost"]["total"]))
+    table = pd.DataFrame(
+        [(q, b, p, b - p) for q, b, p in rows], columns=["quantity", f"baseline ({cf['baseline']})", "policy", "saving"]
+    )
+    cases = sorted(cf.get("cases", []), key=lambda c: -c["savings"]["agent_liquid"]["magnitude"])[:CF_CASES_CHARTED]
+    chart = svg_bars(
+        [f"{c['case_id']} ({c['agent']})" for c in cases],
+        [c["savings"]["agent_liquid"]["magnitude"] for c in cases],
+        "mL",
+        f"Liquid agent saved per case: the {len(cases)} largest of {len(cf.get('cases', []))} cases re-run",
+        colours=("#0f6e6e",),
+    )
+    return (
+        f"<h2>Counterfactual: {esc(str(cf['policy']['name']))}</h2><p>{esc(cf['method'])}. "
+        f"Cases re-run: {t['cases']}; skipped: {len(cf['skipped'])}.</p>" + _table(table) + chart
+    )
+
+
+def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
+    """The self-contained HTML report of an audit (with its counterfactual, when it was run)."""
+    label = CO2E_BASES[result.basis][1]
+    esc = html.escape
+    rooms, months = result.rooms, result.months
+    charts = _charts(result)
+    cf = result.counterfactual
+    cf_html = counterfactual_html(cf, label) if cf else ""
+    mixed = ("agent_liquid_ml", "agent_vapour_l")  # all agents added together: in the CSV and JSON only
     totals = pd.DataFrame(
-        [(_header(c, label, result.currency), v) for c, v in result.totals.items()], columns=["total", "value"]
+        [(_header(c, label, result.currency), v) for c, v in result.totals.items() if c not in mixed],
+        columns=["total", "value"],
     )
     kpi = pd.DataFrame(_kpi_rows(result), columns=["kpi", "value"])
     rej = pd.DataFrame(result.rejections, columns=["line", "reason"])
