@@ -13,6 +13,8 @@ Examples
 --------
 >>> text(13539.889, "L"), text(2755.717, "psi"), text(0.5449), text(None), text(float("nan"), "mL")
 ('13\u202f540 L', '2\u202f756 psi', '0.545', '', '')
+>>> text(10, "days"), text(10.0, "days")
+('10 days', '10.0 days')
 >>> number("13\u202f540 L"), number("-0.545 %")
 (13540.0, -0.545)
 >>> name("nitrous_oxide"), name("mac_hours"), unit_label("liter"), unit_label("MAC_hour")
@@ -110,7 +112,10 @@ def text(value: Any, unit: str = "", figures: int = FIGURES) -> str:
         return ""
     if isinstance(x, str | bool):
         return str(x)
-    number = f"{x:,.{decimals(x, figures)}f}".replace(",", THOUSANDS)
+    places = (
+        0 if isinstance(value, int) or (hasattr(value, "dtype") and value.dtype.kind in "iu") else decimals(x, figures)
+    )
+    number = f"{x:,.{places}f}".replace(",", THOUSANDS)
     label = unit_label(unit)
     return f"{number} {label}" if label else number
 

@@ -34,7 +34,7 @@ class Field:
     """One editable key of a document or of a table row.
 
     ``kind`` is ``number`` (a quantity of ``dimension`` shown in ``unit``, or a plain number when
-    ``dimension`` is None), ``integer``, ``text`` or ``select`` (one of ``options``). ``low``/``high``
+    ``dimension`` is None), ``integer``, ``text``, ``select`` (one of ``options``) or ``bool`` (a tick box). ``low``/``high``
     bound the widget (the contract's range, in ``unit``); the loader still checks the value.
     """
 
@@ -59,6 +59,8 @@ class Field:
         """The value the widget shows for a raw file value (None when absent or unreadable)."""
         if raw is None:
             return self.default
+        if self.kind == "bool":
+            return raw if isinstance(raw, bool) else None
         if self.kind in ("text", "select"):
             return str(raw)
         if self.read is not None:
@@ -71,6 +73,8 @@ class Field:
 
     def written(self, value: Any) -> Any:
         """The raw file value of what the widget shows."""
+        if self.kind == "bool":
+            return bool(value)
         if self.kind in ("text", "select"):
             return str(value)
         if self.kind == "integer":
@@ -200,6 +204,8 @@ def frame(rows: list[dict[str, Any]], fields: list[Field]) -> pd.DataFrame:
 def column(f: Field) -> Any:
     """The column config of a field: a number column with its unit, a select or a text column."""
     cc = st.column_config
+    if f.kind == "bool":
+        return cc.CheckboxColumn(f.title, help=f.help)
     if f.kind == "select":
         return cc.SelectboxColumn(f.title, options=list(f.options), help=f.help)
     if f.kind == "text":
