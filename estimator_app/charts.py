@@ -148,7 +148,13 @@ def histogram(values: Any, x_title: str, y_title: str, height: int = 240) -> dic
         "mark": {"type": "bar", "color": PALETTE[0]},
         "encoding": {
             "x": {"field": "v", "type": "quantitative", "bin": {"maxbins": 30}, "title": x_title},
-            "y": {"aggregate": "count", "type": "quantitative", "title": y_title},
+            # Counts of weeks are whole numbers: whole-number ticks only.
+            "y": {
+                "aggregate": "count",
+                "type": "quantitative",
+                "title": y_title,
+                "axis": {"tickMinStep": 1, "format": "d"},
+            },
         },
     }
 

@@ -41,7 +41,7 @@ from __future__ import annotations
 import os
 import re
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -118,6 +118,7 @@ class CaseMix:
     prices: Prices | None
     orders: OrdersInput
     warnings: tuple[tuple[str, str], ...] = field(default=())
+    horizon_weeks: int | None = None  # the planning horizon [weeks], apart from the weeks simulated
 
 
 _INLINE = (
@@ -296,9 +297,10 @@ def casemix_from_dict(data: dict[str, Any], base_dir: Path | str | None = None, 
         notes += n
     check_orders(raw.orders)
     prices = parse_prices(raw.prices) if raw.prices else None
-    return CaseMix(
+    mix = CaseMix(
         raw.title, raw.weeks, raw.seed, cover, raw.co2e_basis, loss, tuple(types), prices, raw.orders, tuple(notes)
     )
+    return replace(mix, horizon_weeks=raw.horizon_weeks)
 
 
 def case_types_from_text(text: str, start: int = 0) -> list[CaseTypeInput]:
