@@ -142,13 +142,14 @@ def name(key: str) -> str:
 
 
 def table(frame: pd.DataFrame, figures: int = FIGURES) -> pd.DataFrame:
-    """A copy of ``frame`` for reading: numbers rounded by the rule, None and NaN blank in text columns.
+    """A copy of ``frame`` for reading: numbers rounded by the rule, blanks for None and NaN.
 
-    Numeric columns stay numeric (sorting still works; a missing number shows as an empty cell).
+    A numeric column stays numeric (it sorts as numbers) unless it has gaps: a table widget writes a
+    missing number as "None", so such a column becomes text by :func:`text`, its gaps blank.
 
     >>> import pandas as pd
-    >>> table(pd.DataFrame({"v": [13539.889, 0.5449], "n": ["a", None]})).values.tolist()
-    [[13540.0, 'a'], [0.545, '']]
+    >>> table(pd.DataFrame({"v": [13539.889, 0.5449], "n": ["a", None], "g": [1.0, None]})).values.tolist()
+    [[13540.0, 'a', '1.00'], [0.545, '', '']]
     """
     import pandas as pd
 
@@ -157,11 +158,24 @@ def table(frame: pd.DataFrame, figures: int = FIGURES) -> pd.DataFrame:
         series = out[col]
         if pd.api.types.is_bool_dtype(series):
             continue
-        if pd.api.types.is_numeric_dtype(series):
+        if pd.api.types.is_numeric_dtype(series) and not series.isna().any():
             out[col] = series.map(lambda v: rounded(v, figures)).astype("float64")
+        elif pd.api.types.is_numeric_dtype(series):
+            out[col] = series.map(lambda v: text(v, figures=figures)).astype(object)
         else:
             out[col] = series.map(lambda v: "" if v is None or (isinstance(v, float) and math.isnan(v)) else v)
     return out
+
+
+def field_path(field: str) -> str:
+    """A dotted field path with rows counted from 1, as a table shows them.
+
+    >>> field_path("demand.cases[0].scenario"), field_path("weeks")
+    ('demand.cases (row 1).scenario', 'weeks')
+    """
+    import re
+
+    return re.sub(r"\[(\d+)\]", lambda m: f" (row {int(m.group(1)) + 1})", field)
 
 
 __all__ = [

@@ -77,8 +77,12 @@ def read_upload(upload: Any, field: str, limit: int = MAX_UPLOAD_BYTES) -> str:
 
 
 def show_error(exc: InputError) -> None:
-    """One readable line for a user error: field, value and what is accepted."""
-    st.error(f"Input not accepted: {exc}", icon=":material/error:")
+    """One readable line for a user error: field (rows counted from 1, as the tables show them), value
+    and what is accepted."""
+    from estimator.display import field_path
+
+    shown = InputError(field_path(exc.field), exc.value, exc.expected) if isinstance(exc, InputError) else exc
+    st.error(f"Input not accepted: {shown}", icon=":material/error:")
 
 
 def warning_pairs(warnings: Any) -> list[tuple[str, str]]:

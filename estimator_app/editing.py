@@ -19,6 +19,7 @@ import pandas as pd
 import streamlit as st
 import tomli_w
 
+from estimator.display import rounded
 from estimator.errors import InputError
 from estimator.units import parse_quantity
 
@@ -67,8 +68,12 @@ class Field:
             return _safe(lambda: self.read(raw))
         if self.dimension is None:
             return _safe(lambda: float(raw))
+        # Shown to four figures (190 bar reads 2756 psi, not 2755.717): an untouched cell is still saved
+        # as loaded, since only a value that differs from what is shown is written back.
         return _safe(
-            lambda: float(parse_quantity(raw, self.key, self.dimension).to(_PINT.get(self.unit, self.unit)).magnitude)
+            lambda: rounded(
+                parse_quantity(raw, self.key, self.dimension).to(_PINT.get(self.unit, self.unit)).magnitude, 4
+            )
         )
 
     def written(self, value: Any) -> Any:

@@ -85,6 +85,8 @@ def _fmt(q) -> str:
 
 def _stats(title: str, items: dict, units: dict, cost: dict | None) -> list[str]:
     """The table of mean, P50, P95 and P99 of each item (a week's or the horizon's)."""
+    from ..display import unit_label
+
     lines = [f"  {title:<26}{'mean':>10}{'P50':>10}{'P95':>10}{'P99':>10}  unit"]
     for key, stats in items.items():
         label = _LABELS.get(key, key.replace("_bottles", " bottles").replace("_", " "))
@@ -92,9 +94,7 @@ def _stats(title: str, items: dict, units: dict, cost: dict | None) -> list[str]
         if key in ("sevoflurane", "isoflurane", "desflurane", "halothane"):
             label += " (liquid)"
         lines.append(
-            f"  {label:<26}"
-            + "".join(_fmt(stats[s]) for s in ("mean", "p50", "p95", "p99"))
-            + f"  {unit.replace('MAC_hour', 'MAC h')}"
+            f"  {label:<26}" + "".join(_fmt(stats[s]) for s in ("mean", "p50", "p95", "p99")) + f"  {unit_label(unit)}"
         )
     if cost:
         lines.append(

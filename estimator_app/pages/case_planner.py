@@ -8,6 +8,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from estimator.display import table as readable
 from estimator.properties import AGENTS
 from estimator.simulation.dial_schedule import dial_schedule, dial_table, dial_text
 from estimator.simulation.totals_table import totals_rows
@@ -213,15 +214,15 @@ def outputs(result: Any) -> None:
             for p in result.phases
         ]
     )
-    st.dataframe(phases, hide_index=True, width="stretch")
+    st.dataframe(readable(phases), hide_index=True, width="stretch")
     totals = totals_frame(result)
     with st.expander("All totals"):
-        st.dataframe(totals, hide_index=True, width="stretch")
+        st.dataframe(readable(totals), hide_index=True, width="stretch")
     schedule = dial_schedule(result.series, result.phases)
     if schedule:
         st.subheader("Vaporizer dial of the end-tidal holds")
         st.caption(" ".join(dial_text(schedule)))
-        st.dataframe(dial_table(schedule), hide_index=True, width="stretch")
+        st.dataframe(readable(dial_table(schedule)), hide_index=True, width="stretch")
 
     st.subheader("Download the results")
     download_row(
