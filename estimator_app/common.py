@@ -115,6 +115,35 @@ def show_warnings(warnings: Any, empty: str | None = None) -> None:
         st.success(empty, icon=":material/check_circle:")
 
 
+def flag(warnings: Any, codes: tuple[str, ...]) -> tuple[str, str] | None:
+    """The most severe of ``codes`` among the warnings, as (``"safety"`` or ``"warning"``, plain meaning).
+
+    A clinical safety code of :mod:`estimator.limits` (``Code.safety``) is ``"safety"``; None when no code is raised.
+    """
+    from estimator.limits import CODES
+
+    raised = [CODES[c] for c, _ in warning_pairs(warnings) if c in codes and c in CODES]
+    if not raised:
+        return None
+    worst = next((c for c in raised if c.safety), raised[0])
+    return ("safety" if worst.safety else "warning", f"{worst.meaning} ({worst.name})")
+
+
+def metric(box: Any, label: str, value: str, flagged: tuple[str, str] | None = None, **kwargs: Any) -> None:
+    """A metric flagged by severity: a safety flag in red with a falling arrow, a warning in grey, with its meaning.
+
+    The same rule as :func:`show_warnings`, so a metric and its warning carry the same severity on every page.
+    """
+    if flagged is None:
+        box.metric(label, value, **kwargs)
+        return
+    severity, meaning = flagged
+    if severity == "safety":
+        box.metric(label, value, delta=f"-{SAFETY_PREFIX} {meaning}", delta_color="normal", border=True, **kwargs)
+    else:
+        box.metric(label, value, delta=meaning, delta_color="off", border=True, **kwargs)
+
+
 def xlsx_bytes(sheets: dict[str, pd.DataFrame]) -> bytes:
     """An XLSX workbook with one sheet per frame; text cells are stored as text, never formulas."""
     from openpyxl import Workbook

@@ -186,7 +186,8 @@ _STYLE = """body{font-family:system-ui,sans-serif;margin:2em;color:#1d2a33;max-w
 h1{font-size:1.5em}h2{font-size:1.15em;border-bottom:1px solid #c7d3db;padding-bottom:.2em;margin-top:1.6em}
 table{border-collapse:collapse;font-size:.82em;margin:.5em 0}td,th{border:1px solid #d5dee4;padding:2px 6px}
 th{background:#eef3f6;text-align:left}svg text{font-size:12px;fill:#1d2a33}svg .t{font-weight:600}
-.caution{background:#fff6e0;border-left:4px solid #d9a400;padding:.6em}"""
+.caution{background:#fff6e0;border-left:4px solid #d9a400;padding:.6em}
+li.safety{color:#8b1a1a;border-left:4px solid #b3261e;padding-left:.4em}li.warn{border-left:4px solid #d08c1b;padding-left:.4em}"""
 
 
 def _page(title: str, body: str) -> str:
@@ -197,9 +198,16 @@ def _page(title: str, body: str) -> str:
 
 
 def _warning_items(warnings: list[tuple[str, str]] | None) -> str:
-    """List items of (code, message) warnings, escaped; one "None." item when there are none."""
-    items = "".join(f"<li><b>{html.escape(c)}</b>: {html.escape(m)}</li>" for c, m in warnings or ())
-    return items or "<li>None.</li>"
+    """List items of (code, message) warnings, escaped, each once; a clinical safety code (estimator.limits)
+    in red and marked "Safety:", as on the app's pages; one "None." item when there are none."""
+    from ..limits import CODES
+
+    items = []
+    for c, m in dict.fromkeys(tuple(w) for w in warnings or ()):
+        safety = c in CODES and CODES[c].safety
+        mark = '<li class="safety">Safety: ' if safety else '<li class="warn">'
+        items.append(f"{mark}<b>{html.escape(c)}</b>: {html.escape(m)}</li>")
+    return "".join(items) or "<li>None.</li>"
 
 
 def _charts(result: AuditResult) -> list[str]:

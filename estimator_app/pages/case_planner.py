@@ -16,7 +16,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import spread_view, state
 from ..charts import show, time_course
-from ..common import download_row, downloads, flow_factor, show_warnings, unit
+from ..common import download_row, downloads, flag, flow_factor, metric, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
 
 
@@ -158,7 +158,8 @@ def outputs(result: Any) -> None:
         f"{cost['total']:.2f}" if cost else "no prices",
         help="At the scenario's [prices] (the demo's prices are invented)",
     )
-    m[3].metric("Lowest inspired O2", f"{100 * result.minimum_inspired_oxygen.magnitude:.1f} %")
+    o2_flag = flag(result.warnings, ("HYPOXIC_INSPIRED_MIXTURE", "INSPIRED_OXYGEN_LOW"))
+    metric(m[3], "Lowest inspired O2", f"{100 * result.minimum_inspired_oxygen.magnitude:.1f} %", o2_flag)
     m[4].metric("Absorbent used", f"{t['absorbent'].to('g').magnitude:.0f} g")
     st.caption(f"Gas volumes: {GAS_VOLUME_REFERENCE}. Flows: ambient litres at the site, as a flowmeter shows.")
     band = spread_view.control()

@@ -34,7 +34,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import contracts, state
 from ..charts import case_bars, date_marks, item_colours, show, time_course
-from ..common import downloads, show_warnings, unit
+from ..common import downloads, flag, metric, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
 
 KIND = "inventory"
@@ -228,7 +228,8 @@ def outputs(report: Any) -> None:
     days = report.days_of_supply
     m = st.columns([2, 1, 1, 1])
     m[0].metric("Bottleneck", report.bottleneck or "none", help=report.bottleneck_supply)
-    m[1].metric("Days of supply", shown(days.to("day").magnitude, "days") if days else "no run-out")
+    short = flag(report.warnings, ("SUPPLY_UNDER_ONE_DAY", "REORDER_OVERDUE"))
+    metric(m[1], "Days of supply", shown(days.to("day").magnitude, "days") if days else "no run-out", short)
     m[2].metric("Cases possible", "-" if report.cases_possible is None else f"{report.cases_possible} cases")
     reorder = report.reorder_text()
     m[3].metric(
