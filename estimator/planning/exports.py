@@ -336,6 +336,7 @@ def tables_report_html(
     notes: list[str] | None = None,
     warnings: list[tuple[str, str]] | None = None,
     limit: int = 500,
+    charts: list[str] | None = None,
 ) -> str:
     """A self-contained HTML report of named tables, with the caution and the warnings.
 
@@ -352,6 +353,9 @@ def tables_report_html(
         Lines shown under the heading (units, references, the scenario's title).
     warnings : list of (code, message), optional
         Model warnings, listed in their own section.
+    charts : list of str, optional
+        Inline SVG charts made by :mod:`estimator.planning.svg_charts` (their labels escaped there),
+        shown after the tables.
 
     Examples
     --------
@@ -363,10 +367,11 @@ def tables_report_html(
     sections = "".join(f"<h2>{esc(str(name))}</h2>{_table(frame, limit)}" for name, frame in tables.items())
     lines = "".join(f"<p>{esc(n)}</p>" for n in notes or ())
     warn = _warning_items(warnings)
+    drawn = f"<h2>Charts</h2>{''.join(charts)}" if charts else ""
     return _page(
         title,
         f"""{lines}
 <p class="caution">{esc(_caution())}</p>{sections}
-<h2>Warnings</h2><ul>{warn}</ul>
+<h2>Warnings</h2><ul>{warn}</ul>{drawn}
 """,
     )

@@ -102,7 +102,7 @@ def svg_lines(
     >>> svg.count("<polyline"), "time [min]" in svg
     (1, True)
     """
-    left, right, top, bottom = 52, 12, 40, 34
+    left, right, top, bottom = 52, 12, 48, 34
     xs = [float(v) for v in x]
     ys_all = [float(v) for vals in series.values() for v in vals if v is not None and math.isfinite(float(v))]
     x0, x1 = (min(xs), max(xs)) if xs else (0.0, 1.0)
@@ -130,7 +130,7 @@ def svg_lines(
         f'<text x="{left}" y="{top + ph + 14}">{esc(text(x0))}</text>',
         f'<text x="{left + pw}" y="{top + ph + 14}" text-anchor="end">{esc(text(x1))}</text>',
         f'<text x="{left + pw / 2:.0f}" y="{height - 4}" text-anchor="middle">{esc(x_title)}</text>',
-        f'<text x="4" y="{top - 6}">{esc(y_title)}</text>',
+        f'<text x="4" y="{top - 10}">{esc(y_title)}</text>',
     ]
     for i, (name, vals) in enumerate(series.items()):
         colour = SERIES[i % len(SERIES)]
@@ -140,9 +140,9 @@ def svg_lines(
             if b is not None and math.isfinite(float(b))
         )
         parts.append(f'<polyline fill="none" stroke="{colour}" stroke-width="2" points="{points}"/>')
-        lx = left + 8 + 150 * i
-        parts.append(f'<rect x="{lx}" y="{top - 16}" width="10" height="3" fill="{colour}"/>')
-        parts.append(f'<text x="{lx + 14}" y="{top - 11}">{esc(name)}</text>')
+        lx = left + 110 + 130 * i
+        parts.append(f'<rect x="{lx}" y="{top - 15}" width="12" height="3" fill="{colour}"/>')
+        parts.append(f'<text x="{lx + 16}" y="{top - 10}">{esc(name)}</text>')
     parts.append("</svg>")
     return "".join(parts)
 
