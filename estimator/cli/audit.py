@@ -172,6 +172,8 @@ def _human(result, written: list[str]) -> None:
             f"Cost {_fmt(t.get('cost_total', 0.0))} {result.currency} (agent {_fmt(t.get('cost_agent', 0.0))}, "
             f"gases {_fmt(t.get('cost_gases', 0.0))})"
         )
+    for note in (n for n in result.notes if n.startswith("prices used")):
+        echo(note[:1].upper() + note[1:])
     echo(
         f"Mean maintenance flow {_fmt(k['mean_maintenance_flow_l_min'], 'L/min')} "
         f"({k['mean_maintenance_flow_class'] or 'no maintenance time'}; after {k['maintenance_after_min']:g} min); "

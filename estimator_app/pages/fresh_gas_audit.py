@@ -150,9 +150,11 @@ def render() -> None:
     c1, c2 = st.columns(2)
     show(class_bars({n: 100 * v for n, v in k["flow_class_shares"].items()}, "maintenance time [%]"), c1)
     show(_liquid_per_case(result.cases), c2)
+    from estimator.planning.exports import export_table
+
     tabs = st.tabs(["Cases", "Rooms", "Months"])
     for tab, frame in zip(tabs, (result.cases, result.rooms, result.months), strict=True):
-        tab.dataframe(readable(frame), hide_index=True, width="stretch")
+        tab.dataframe(readable(export_table(frame, result, spreadsheet=False)), hide_index=True, width="stretch")
     st.caption(f"Gas: {GAS_VOLUME_REFERENCE}. CO2e basis: {CO2E_BASES[basis][1]}.")
     show_warnings(result.warnings)
 
