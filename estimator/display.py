@@ -55,7 +55,9 @@ NAMES = {
 #: Short unit labels of pint's long names (and of the abbreviations the contracts write).
 UNITS = {
     "liter": "L",
+    "l": "L",
     "milliliter": "mL",
+    "ml": "mL",
     "minute": "min",
     "hour": "h",
     "day": "days",
@@ -129,8 +131,18 @@ def number(shown: str) -> float:
 
 
 def unit_label(unit: str) -> str:
-    """Short label of a unit given by pint's long name or already short (``"liter"`` -> ``"L"``)."""
-    return UNITS.get(unit, unit)
+    """Short label of a unit given by pint's long or short name (``"liter / day"`` and ``"l/d"`` -> ``"L/day"``).
+
+    >>> unit_label("liter"), unit_label("l/d"), unit_label("milliliter / day"), unit_label("MAC_hour")
+    ('L', 'L/day', 'mL/day', 'MAC-h')
+    """
+    if unit in UNITS:
+        return UNITS[unit]
+    parts = [p.strip() for p in unit.replace(" / ", "/").split("/")]
+    if len(parts) == 2:
+        per = {"d": "day", "day": "day", "min": "min", "h": "h", "hour": "h", "minute": "min"}
+        return f"{unit_label(parts[0])}/{per.get(parts[1], unit_label(parts[1]))}"
+    return unit
 
 
 def name(key: str) -> str:

@@ -191,8 +191,15 @@ def class_bars(shares: dict[str, float], y_title: str, height: int = 240) -> dic
 
     names = list(shares)
     rows = [{"class": n, "value": float(v) if v == v else 0.0} for n, v in shares.items()]
-    x = {"field": "class", "type": "nominal", "sort": names, "title": "flow class (Brattwall et al. 2012)"}
-    y = {"field": "value", "type": "quantitative", "title": y_title}
+    top = max([r["value"] for r in rows] + [1e-9])
+    x = {
+        "field": "class",
+        "type": "nominal",
+        "sort": names,
+        "title": "flow class (Brattwall et al. 2012)",
+        "axis": {"labels": False, "ticks": False},  # the name is on each bar
+    }
+    y = {"field": "value", "type": "quantitative", "title": y_title, "scale": {"domain": [0, 1.15 * top]}}
     colour = {"field": "class", "type": "nominal", "scale": {"domain": names, "range": list(FLOW_CLASS_COLOURS)}}
     return {
         "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
@@ -205,7 +212,10 @@ def class_bars(shares: dict[str, float], y_title: str, height: int = 240) -> dic
                     "x": x,
                     "y": y,
                     "color": {**colour, "legend": None},
-                    "tooltip": [{"field": "class", "type": "nominal"}, {**y, "format": ".3g"}],
+                    "tooltip": [
+                        {"field": "class", "type": "nominal"},
+                        {"field": "value", "type": "quantitative", "title": y_title, "format": ".3g"},
+                    ],
                 },
             },
             {
@@ -222,29 +232,31 @@ def case_bars(
     """Vega-Lite spec: one bar a row of ``frame`` (a case), coloured by ``colour`` (the agent), in row order.
 
     ``domain`` fixes which colour each value gets (the same agent in the same colour on every chart).
+    Columns are renamed to plain field names: Vega-Lite reads brackets and dots in a field as a path.
     """
-    cols = [x, y, colour]
+    data = frame[[x, y, colour]].set_axis(["x", "y", "c"], axis=1)
     scale: dict[str, Any] = {"range": list(PALETTE)}
     if domain is not None:
         scale["domain"] = domain
     return {
         "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
         "height": 240,
-        "data": {"values": frame[cols].to_dict("records")},
+        "data": {"values": data.to_dict("records")},
         "mark": {"type": "bar"},
         "encoding": {
-            "x": {"field": x, "type": "nominal", "sort": None, "title": x_title, "axis": {"labels": len(frame) <= 40}},
-            "y": {"field": y, "type": "quantitative", "title": y_title},
-            "color": {
-                "field": colour,
+            "x": {
+                "field": "x",
                 "type": "nominal",
-                "scale": scale,
-                "legend": {"orient": "top", "title": None},
+                "sort": None,
+                "title": x_title,
+                "axis": {"labels": len(frame) <= 40, "labelAngle": 0 if len(frame) <= 8 else -45},
             },
+            "y": {"field": "y", "type": "quantitative", "title": y_title},
+            "color": {"field": "c", "type": "nominal", "scale": scale, "legend": {"orient": "top", "title": None}},
             "tooltip": [
-                {"field": x, "type": "nominal"},
-                {"field": colour, "type": "nominal"},
-                {"field": y, "type": "quantitative", "title": y_title, "format": ".3g"},
+                {"field": "x", "type": "nominal", "title": x_title},
+                {"field": "c", "type": "nominal", "title": colour},
+                {"field": "y", "type": "quantitative", "title": y_title, "format": ".3g"},
             ],
         },
     }

@@ -224,7 +224,8 @@ def outputs(result: Any) -> None:
     m = st.columns(4)
     cases = result.items["cases"]
     m[0].metric("Cases a week (mean)", shown(cases["mean"].magnitude))
-    m[1].metric("Cases in a P95 week", shown(cases["p95"].magnitude))
+    p95 = float(cases["p95"].magnitude)
+    m[1].metric("Cases in a P95 week", shown(int(p95) if p95.is_integer() else p95))  # a count: no decimals
     m[2].metric(
         f"Cost a week, P95 [{currency}]" if result.cost else "Cost a week, P95",
         shown(result.cost["p95"]) if result.cost else "no prices",

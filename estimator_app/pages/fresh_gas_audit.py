@@ -210,7 +210,8 @@ def _liquid_per_case(cases: pd.DataFrame) -> dict[str, Any]:
     from estimator.properties import AGENTS
 
     cols = [c for c in cases.columns if c.startswith("liquid_") and c.endswith("_ml")]
-    long = cases.melt("case_id", cols, var_name="agent", value_name="liquid [mL]")
+    long = cases.reset_index().melt(["index", "case_id"], cols, var_name="agent", value_name="liquid [mL]")
+    long = long.sort_values("index", kind="stable")  # the log's case order, not agent by agent
     long = long[long["liquid [mL]"] > 0].assign(agent=lambda f: f["agent"].str[7:-3])
     return case_bars(long, "case_id", "liquid [mL]", "agent", "case", "liquid agent [mL]", sorted(AGENTS))
 
