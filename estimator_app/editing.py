@@ -58,8 +58,8 @@ class Field:
 
     def shown(self, raw: Any) -> Any:
         """The value the widget shows for a raw file value (None when absent or unreadable)."""
-        if raw is None:
-            return self.default
+        if raw is None:  # a text cell shows a blank, not "None"; a blank cell leaves the key out as before
+            return "" if self.default is None and self.kind in ("text", "select") else self.default
         if self.kind == "bool":
             return raw if isinstance(raw, bool) else None
         if self.kind in ("text", "select"):

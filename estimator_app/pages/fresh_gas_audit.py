@@ -18,7 +18,17 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import contracts, demo, prices_editor, state
 from ..charts import case_bars, class_bars, show
-from ..common import MAX_UPLOAD_BYTES, XLSX, download_row, read_upload, show_error, show_warnings, unit
+from ..common import (
+    MAX_UPLOAD_BYTES,
+    XLSX,
+    download_row,
+    flag,
+    metric,
+    read_upload,
+    show_error,
+    show_warnings,
+    unit,
+)
 from ..editing import Field, number
 
 SCENARIO_PRICES = "the scenario's [prices]"
@@ -137,7 +147,12 @@ def render() -> None:
         f"Cost [{currency}]" if "cost_total" in t else "Cost",
         shown(t["cost_total"]) if "cost_total" in t else "no prices",
     )
-    m = st.columns(5)
+    low_o2 = "min_inspired_oxygen" in result.cases
+    m = st.columns(6 if low_o2 else 5)
+    if low_o2:  # the lowest recorded inspired O2 of all cases, flagged as its warning is
+        lowest = result.cases["min_inspired_oxygen"].min()
+        o2_flag = flag(result.warnings, ("INSPIRED_OXYGEN_LOW",))
+        metric(m[5], "Lowest recorded inspired O2", shown(100 * lowest, "%"), o2_flag)
     m[0].metric(
         "Mean maintenance flow",
         shown(k["mean_maintenance_flow_l_min"] * ff, unit("flow")),
