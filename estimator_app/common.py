@@ -115,8 +115,8 @@ def show_warnings(warnings: Any, empty: str | None = None) -> None:
         st.success(empty, icon=":material/check_circle:")
 
 
-def flag(warnings: Any, codes: tuple[str, ...]) -> tuple[str, str] | None:
-    """The most severe of ``codes`` among the warnings, as (``"safety"`` or ``"warning"``, plain meaning).
+def flag(warnings: Any, codes: tuple[str, ...]) -> tuple[str, str, str] | None:
+    """The most severe of ``codes`` among the warnings: (``"safety"`` or ``"warning"``, plain meaning, code).
 
     A clinical safety code of :mod:`estimator.limits` (``Code.safety``) is ``"safety"``; None when no code is raised.
     """
@@ -126,22 +126,31 @@ def flag(warnings: Any, codes: tuple[str, ...]) -> tuple[str, str] | None:
     if not raised:
         return None
     worst = next((c for c in raised if c.safety), raised[0])
-    return ("safety" if worst.safety else "warning", f"{worst.meaning} ({worst.name})")
+    return ("safety" if worst.safety else "warning", worst.meaning, worst.name)
 
 
-def metric(box: Any, label: str, value: str, flagged: tuple[str, str] | None = None, **kwargs: Any) -> None:
-    """A metric flagged by severity: a safety flag in red with a falling arrow, a warning in grey, with its meaning.
+def metric(box: Any, label: str, value: str, flagged: tuple[str, str, str] | None = None, **kwargs: Any) -> None:
+    """A metric flagged by severity: a safety flag in red with a falling arrow, a warning in amber, each
+    with its plain meaning (the full text and the code in the tooltip).
 
-    The same rule as :func:`show_warnings`, so a metric and its warning carry the same severity on every page.
+    The same rule as :func:`show_warnings`, so a metric and its warning carry the same severity on every
+    page. Streamlit releases without coloured deltas show a safety flag as a negative (red) delta.
     """
     if flagged is None:
         box.metric(label, value, **kwargs)
         return
-    severity, meaning = flagged
-    if severity == "safety":
-        box.metric(label, value, delta=f"-{SAFETY_PREFIX} {meaning}", delta_color="normal", border=True, **kwargs)
+    import inspect
+
+    severity, meaning, code = flagged
+    kwargs["help"] = f"{meaning} (`{code}`)" + (f". {kwargs['help']}" if kwargs.get("help") else "")
+    text = f"{SAFETY_PREFIX} {meaning}" if severity == "safety" else meaning
+    if "delta_arrow" in inspect.signature(box.metric).parameters:
+        colour = "red" if severity == "safety" else "orange"
+        box.metric(label, value, delta=text, delta_color=colour, delta_arrow="down", border=True, **kwargs)
+    elif severity == "safety":
+        box.metric(label, value, delta=f"-{text}", delta_color="normal", border=True, **kwargs)
     else:
-        box.metric(label, value, delta=meaning, delta_color="off", border=True, **kwargs)
+        box.metric(label, value, delta=text, delta_color="off", border=True, **kwargs)
 
 
 def xlsx_bytes(sheets: dict[str, pd.DataFrame]) -> bytes:
