@@ -153,6 +153,15 @@ def name(key: str) -> str:
     return words[:1].upper() + words[1:]
 
 
+def sentence(label: str) -> str:
+    """A label as a table's first column reads: first letter up, the rest as written ("CO2e" stays).
+
+    >>> sentence("nitrous oxide"), sentence("CO2 absorbed")
+    ('Nitrous oxide', 'CO2 absorbed')
+    """
+    return label[:1].upper() + label[1:]
+
+
 def table(frame: pd.DataFrame, figures: int = FIGURES) -> pd.DataFrame:
     """A copy of ``frame`` for reading: numbers rounded by the rule, blanks for None and NaN.
 
@@ -199,6 +208,7 @@ __all__ = [
     "name",
     "number",
     "rounded",
+    "sentence",
     "table",
     "text",
     "unit_label",

@@ -13,6 +13,7 @@ from typing import Any
 
 import pandas as pd
 
+from ..display import sentence
 from ..simulation.dial_schedule import dial_schedule, dial_table
 from ..simulation.totals_table import totals_rows
 from .exports import tables_report_html
@@ -69,7 +70,7 @@ def plan_tables(result: Any, floor: Any | None = None, band: Any | None = None) 
     rows = []
     keyed = {"agent_liquid", "oxygen", "nitrous_oxide", "co2e"}
     for r in totals_rows(result):
-        row = {"quantity": r.label, "value": round(r.value, 2), "unit": r.unit}
+        row = {"quantity": sentence(r.label), "value": r.value, "unit": r.unit}
         if band is not None:
             row["P5-P95 over patients"] = band.band_text(r.key) if r.key in keyed else ""
         rows.append(row)

@@ -8,6 +8,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from estimator.display import sentence
 from estimator.display import table as readable
 from estimator.properties import AGENTS
 from estimator.simulation.dial_schedule import dial_schedule, dial_table, dial_text
@@ -115,7 +116,7 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
 def totals_frame(result: Any) -> pd.DataFrame:
     """The totals table of ``lowflow case`` (estimator.simulation.totals_table), flows in the display unit."""
     rows = totals_rows(result, unit("flow"))
-    return pd.DataFrame([{"quantity": r.label, "value": r.value, "unit": r.unit} for r in rows])
+    return pd.DataFrame([{"quantity": sentence(r.label), "value": r.value, "unit": r.unit} for r in rows])
 
 
 def case_plan(result: Any) -> bytes:
