@@ -108,3 +108,15 @@ def test_every_inventory_field_is_editable_and_saved(monkeypatch):
         assert doc[key] == original[key]
     # More absorbent lasts longer: the edit reaches the engine.
     assert number(metric(at, "Days of supply")) > 0
+
+
+def test_the_supply_report_of_the_page_leads_with_the_answer(monkeypatch):
+    # The HTML report's first lines are the headline: bottleneck and days, cases, reorder (issue 19).
+    from estimator_app.pages import supply_duration
+
+    seen = {}
+    monkeypatch.setattr(supply_duration, "downloads", lambda *a, **k: seen.update(k))
+    at = page("supply_duration")
+    assert_clean(at)
+    assert seen["notes"][0].startswith("Bottleneck: isoflurane bottles 1") and seen["notes"][0].endswith("days")
+    assert seen["notes"][1].endswith(" cases") and seen["notes"][2].startswith("Reorder")
