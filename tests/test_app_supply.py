@@ -120,3 +120,16 @@ def test_the_supply_report_of_the_page_leads_with_the_answer(monkeypatch):
     assert_clean(at)
     assert seen["notes"][0].startswith("Bottleneck: isoflurane bottles 1") and seen["notes"][0].endswith("days")
     assert seen["notes"][1].endswith(" cases") and seen["notes"][2].startswith("Reorder")
+
+
+def test_sources_and_left_out_items_are_editable(monkeypatch):
+    saved = capture_saves(monkeypatch)
+    at = page("supply_duration")
+    assert "isoflurane" in metric(at, "Bottleneck").lower()
+    # Leaving isoflurane out of the plan (supply.ignore): another item is the bottleneck.
+    at.multiselect(key="supply.ignore.0").set_value(["isoflurane"]).run()
+    assert_clean(at)
+    assert "isoflurane" not in metric(at, "Bottleneck").lower()
+    doc = tomllib.loads(saved[DEMO].decode())
+    assert doc["supply"]["ignore"] == ["isoflurane"]
+    assert doc["supply"]["priority"] == ["pipelines", "concentrators", "cylinders"]  # untouched, as loaded

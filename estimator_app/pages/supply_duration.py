@@ -168,14 +168,17 @@ def inputs() -> dict[str, Any]:
     number(c2, plan, PLAN[2], f"supply.tabledays.{v}")
     site = doc.get("site") if isinstance(doc.get("site"), dict) else {}
     number(c3, site, contract(Site, "elevation", "Site elevation", "m"), f"supply.elevation.{v}")
-    if site and "site" not in doc:
-        doc["site"] = site
     absorbent = doc.get("absorbent") if isinstance(doc.get("absorbent"), dict) else {}
-    with c4.popover("CO2 absorbent", width="stretch"):
+    with c4.popover("Absorbent, site and sources", width="stretch"):
         for f in ABSORBENT:
             number(st, absorbent, f, f"supply.absorbent.{f.key}.{v}")
+        _text(st, absorbent, "name", "Absorbent name", f"supply.absorbent.name.{v}")
+        number(st, site, contract(Site, "ambient_pressure", "Ambient pressure", "kPa"), f"supply.ambient.{v}")
+        _sources(doc, v)
     if absorbent and "absorbent" not in doc:
         doc["absorbent"] = absorbent
+    if site and "site" not in doc:
+        doc["site"] = site
     st.markdown("**Case plans** - each runs the scenario file it names, given with the inventory")
     names = sorted({*state.files(KIND), *contracts.PLANNER_NAMES[:1], *contracts.referenced(KIND, loaded)})
     demand["cases"] = table(demand.get("cases", []), case_fields(names), f"supply.cases.{v}")
@@ -207,10 +210,33 @@ def inputs() -> dict[str, Any]:
     rest["demand"] = {
         k: val for k, val in demand.items() if k not in ("cases", "continuous", "working_days_per_week", "day_start")
     }
-    rest["site"] = {k: val for k, val in site.items() if k != "elevation"}
+    rest["site"] = {k: val for k, val in site.items() if k not in ("elevation", "ambient_pressure")}
+    rest.pop("supply", None)
     kept_view({k: val for k, val in rest.items() if val != {}}, set())
     state.set_document(doc, KIND)
     return doc
+
+
+def _sources(doc: dict[str, Any], v: int) -> None:
+    """``[supply]``: the order the sources meet a demand, and the items left out; written only if changed."""
+    from estimator.inputs.inventory_file import SOURCE_KINDS
+
+    supply = doc.get("supply") if isinstance(doc.get("supply"), dict) else {}
+    order = list(supply.get("priority", SOURCE_KINDS))
+    chosen = st.multiselect(
+        "Sources, first used first", list(SOURCE_KINDS), order, key=f"supply.priority.{v}", help="The order of use."
+    )
+    if chosen != order:
+        supply["priority"] = chosen
+    ignored = list(supply.get("ignore", []))
+    options = list(dict.fromkeys([*GASES, *sorted(AGENTS), "absorbent", *ignored]))
+    left_out = st.multiselect(
+        "Supplies left out", options, ignored, key=f"supply.ignore.{v}", help="Not tracked by this plan."
+    )
+    if left_out != ignored:
+        supply["ignore"] = left_out
+    if supply and "supply" not in doc:
+        doc["supply"] = supply
 
 
 def _text(box: Any, doc: dict[str, Any], key: str, label: str, widget: str, help: str | None = None) -> None:
