@@ -60,5 +60,5 @@ def test_reports_mark_safety_warnings_as_the_pages_do():
 def test_audit_flags_the_lowest_recorded_inspired_oxygen():
     # The demo log records inspired O2 below 30 % in some cases on purpose (make_audit_log.py).
     at = page("fresh_gas_audit")
-    m = next(m for m in at.metric if m.label == "Lowest recorded inspired O2")
+    m = next(m for m in at.metric if m.label == "Lowest inspired O2")
     assert m.proto.delta.lstrip("-").startswith(SAFETY_PREFIX) and "INSPIRED_OXYGEN_LOW" in m.proto.help

@@ -152,14 +152,15 @@ def render() -> None:
     if low_o2:  # the lowest recorded inspired O2 of all cases, flagged as its warning is
         lowest = result.cases["min_inspired_oxygen"].min()
         o2_flag = flag(result.warnings, ("INSPIRED_OXYGEN_LOW",))
-        metric(m[5], "Lowest recorded inspired O2", shown(100 * lowest, "%"), o2_flag)
+        metric(m[5], "Lowest inspired O2", shown(100 * lowest, "%"), o2_flag, help="lowest recorded in any case")
     m[0].metric(
         "Mean maintenance flow",
         shown(k["mean_maintenance_flow_l_min"] * ff, unit("flow")),
         help=f"class: {k.get('mean_maintenance_flow_class')}",
     )
-    m[1].metric("Maintenance time at <= 1 L/min", shown(100 * k["maintenance_share_le_1"], "%"))
-    m[2].metric("Maintenance time at <= 0.5 L/min", shown(100 * k["maintenance_share_le_0_5"], "%"))
+    share = "share of maintenance time at or below {} L/min"
+    m[1].metric("Time at <= 1 L/min", shown(100 * k["maintenance_share_le_1"], "%"), help=share.format(1))
+    m[2].metric("Time at <= 0.5 L/min", shown(100 * k["maintenance_share_le_0_5"], "%"), help=share.format(0.5))
     m[3].metric("MAC-hours", shown(k.get("mac_hours", 0)))
     m[4].metric("CO2e per MAC-hour", shown(k.get("co2e_per_mac_hour_kg"), "kg"))
     c1, c2 = st.columns(2)
@@ -239,13 +240,13 @@ def _counterfactual(cf: dict[str, Any], currency: str) -> None:
     per_agent = s.get("agent_liquid_by_agent", {})
     m = st.columns(3 + len(per_agent))
     for col, (agent, q) in zip(m, per_agent.items(), strict=False):
-        col.metric(f"{human_name(agent)} saved (liquid)", shown(q["magnitude"], "mL"))
+        col.metric(f"{human_name(agent)} saved", shown(q["magnitude"], "mL"), help="liquid agent")
     m[-3].metric(
         "Fresh gas saved", shown(s["fresh_gas"]["magnitude"], "L"), shown(100 * (share.get("fresh_gas") or 0), "%")
     )
     m[-2].metric("CO2e saved", shown(s["co2e"]["magnitude"], "kg"), shown(100 * (share.get("co2e") or 0), "%"))
     if s.get("cost"):
-        m[-1].metric(f"Cost saved [{currency}]", shown(s["cost"]["total"]))
+        m[-1].metric("Cost saved", shown(s["cost"]["total"]), help=f"in {currency}")
     rows = pd.DataFrame(
         [
             {"case_id": c["case_id"], "agent": c["agent"], "saved [mL]": c["savings"]["agent_liquid"]["magnitude"]}
