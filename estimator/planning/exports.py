@@ -310,7 +310,7 @@ def report_html(result: AuditResult, title: str = "Fresh-gas audit") -> str:
         f"""
 <p>Rows read {result.rows["read"]}, used {result.rows["used"]}, rejected {result.rows["rejected"]}.
 CO2e basis: {esc(label)}. Gas volumes: {esc(GAS_VOLUME_REFERENCE)}.
-Costs: {esc(result.currency or "no prices given")}.</p>
+Costs: {esc(next((n[13:] for n in result.notes if n.startswith("prices used: ")), "no prices given"))}.</p>
 <p class="caution">{esc(_caution())}</p>
 <h2>Totals</h2>{_table(totals)}<h2>Key figures</h2>{_table(kpi)}
 <h2>Charts</h2>{"".join(charts)}{cf_html}

@@ -73,13 +73,13 @@ def svg_bars(
         fill = colours[i % len(colours)]
         parts.append(f'<text x="{left - 6}" y="{y + 13}" text-anchor="end">{html.escape(str(lab)[:28])}</text>')
         parts.append(f'<rect x="{x:.1f}" y="{y}" width="{w:.1f}" height="{bar_h}" fill="{fill}"/>')
-        if on_bar is not None:
-            parts.append(
-                f'<text x="{left + 4}" y="{y + 13}" fill="{ink(fill) if w > 60 else "#1d2a33"}">'
-                f"{html.escape(str(on_bar[i]))}</text>"
-            )
+        label = text(v, unit)
+        if on_bar is not None and w > 7 * len(str(on_bar[i])) + 8:  # the name fits on the bar
+            parts.append(f'<text x="{x + 4:.1f}" y="{y + 13}" fill="{ink(fill)}">{html.escape(str(on_bar[i]))}</text>')
+        elif on_bar is not None:  # a short bar: the name follows its value
+            label = f"{label}  {on_bar[i]}"
         end = max(zero + (scale * v if v > 0 else 0), zero)
-        parts.append(f'<text x="{end + 4:.1f}" y="{y + 13}">{html.escape(text(v, unit))}</text>')
+        parts.append(f'<text x="{end + 4:.1f}" y="{y + 13}">{html.escape(label)}</text>')
     if neg:
         parts.append(f'<line x1="{zero:.1f}" x2="{zero:.1f}" y1="24" y2="{height}" stroke="#8a8f98"/>')
     parts.append("</svg>")
