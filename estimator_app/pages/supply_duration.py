@@ -169,7 +169,7 @@ def inputs() -> dict[str, Any]:
     site = doc.get("site") if isinstance(doc.get("site"), dict) else {}
     number(c3, site, contract(Site, "elevation", "Site elevation", "m"), f"supply.elevation.{v}")
     absorbent = doc.get("absorbent") if isinstance(doc.get("absorbent"), dict) else {}
-    with c4.popover("Absorbent, site and sources", width="stretch"):
+    with c4.popover("Absorbent, site and sources"):
         for f in ABSORBENT:
             number(st, absorbent, f, f"supply.absorbent.{f.key}.{v}")
         _text(st, absorbent, "name", "Absorbent name", f"supply.absorbent.name.{v}")
