@@ -115,7 +115,7 @@ def date_marks(spec: dict[str, Any], marks: list[tuple[str, str]], band: tuple[s
                 },
             }
         )
-    values = [{"at": at, "label": label} for at, label in marks]
+    values = [{"at": at, "label": label, "row": 10 + 14 * i} for i, (at, label) in enumerate(marks)]
     if values:
         layers.append(
             {
@@ -127,16 +127,19 @@ def date_marks(spec: dict[str, Any], marks: list[tuple[str, str]], band: tuple[s
         layers.append(
             {
                 "data": {"values": values},
-                "mark": {"type": "text", "angle": 270, "align": "right", "dx": -4, "dy": -6, "fontSize": 11},
+                # Horizontal labels, one row each from the top (marks a few days apart do not overlap).
+                "mark": {"type": "text", "align": "left", "dx": 4, "fontSize": 11},
                 "encoding": {
                     "x": {"field": "at", "type": "temporal"},
-                    "y": {"value": 4},
+                    "y": {"field": "row", "type": "quantitative", "scale": None},
                     "text": {"field": "label", "type": "nominal"},
                     "color": {"value": "#3b4252"},
                 },
             }
         )
-    return {**spec, "layer": [*layers, *spec["layer"]]}
+    labels = [layer for layer in layers if layer["mark"]["type"] == "text"]  # drawn over the lines
+    under = [layer for layer in layers if layer["mark"]["type"] != "text"]
+    return {**spec, "layer": [*under, *spec["layer"], *labels]}
 
 
 def histogram(values: Any, x_title: str, y_title: str, height: int = 240) -> dict[str, Any]:

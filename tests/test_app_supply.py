@@ -133,3 +133,17 @@ def test_sources_and_left_out_items_are_editable(monkeypatch):
     doc = tomllib.loads(saved[DEMO].decode())
     assert doc["supply"]["ignore"] == ["isoflurane"]
     assert doc["supply"]["priority"] == ["pipelines", "concentrators", "cylinders"]  # untouched, as loaded
+
+
+def test_date_marks_follow_the_vega_lite_schema():
+    from altair.utils.schemapi import validate_jsonschema
+    from altair.vegalite.v6.schema.core import load_schema
+
+    from estimator_app.charts import date_marks, time_course
+
+    frame = pd.DataFrame({"date": pd.date_range("2026-04-06", periods=3).date, "s": [100.0, 60.0, 10.0]})
+    spec = time_course(frame, {"s": "stock"}, "stock [%]", x="date", x_type="temporal", colours={"stock": "#0f6e6e"})
+    marked = date_marks(
+        spec, [("2026-04-06", "reorder by"), ("2026-04-07", "runs out")], ("2026-04-06", "2026-04-07", "lead")
+    )
+    validate_jsonschema(marked, load_schema())
