@@ -253,7 +253,7 @@ def check_range(
 BARE_RULE = "a bare number is a fraction of 1: 0.7 means 70 %; write a percent with its sign, '70 %'"
 
 #: Unit symbols shown to users: pint's short forms that readers misread, and their common names.
-_LABELS = {"a": "years", "d": "days", "wk": "weeks", "l": "L", "ml": "mL", "dl": "dL", "kl": "kL", "MACh": "MAC h"}
+_LABELS = {"a": "years", "d": "days", "wk": "weeks", "l": "L", "ml": "mL", "dl": "dL", "kl": "kL", "MACh": "MAC-h"}
 
 
 def unit_label(units: Any) -> str:

@@ -77,8 +77,12 @@ def read_upload(upload: Any, field: str, limit: int = MAX_UPLOAD_BYTES) -> str:
 
 
 def show_error(exc: InputError) -> None:
-    """One readable line for a user error: field, value and what is accepted."""
-    st.error(f"Input not accepted: {exc}", icon=":material/error:")
+    """One readable line for a user error: field (rows counted from 1, as the tables show them), value
+    and what is accepted."""
+    from estimator.display import field_path
+
+    shown = InputError(field_path(exc.field), exc.value, exc.expected) if isinstance(exc, InputError) else exc
+    st.error(f"Input not accepted: {shown}", icon=":material/error:")
 
 
 def warning_pairs(warnings: Any) -> list[tuple[str, str]]:
@@ -109,6 +113,44 @@ def show_warnings(warnings: Any, empty: str | None = None) -> None:
             st.warning(f"**{title}** - {message} (`{code}`)", icon=":material/report:")
     if not items and empty:
         st.success(empty, icon=":material/check_circle:")
+
+
+def flag(warnings: Any, codes: tuple[str, ...]) -> tuple[str, str, str] | None:
+    """The most severe of ``codes`` among the warnings: (``"safety"`` or ``"warning"``, plain meaning, code).
+
+    A clinical safety code of :mod:`estimator.limits` (``Code.safety``) is ``"safety"``; None when no code is raised.
+    """
+    from estimator.limits import CODES
+
+    raised = [CODES[c] for c, _ in warning_pairs(warnings) if c in codes and c in CODES]
+    if not raised:
+        return None
+    worst = next((c for c in raised if c.safety), raised[0])
+    return ("safety" if worst.safety else "warning", worst.meaning, worst.name)
+
+
+def metric(box: Any, label: str, value: str, flagged: tuple[str, str, str] | None = None, **kwargs: Any) -> None:
+    """A metric flagged by severity: a safety flag in red with a falling arrow, a warning in amber, each
+    with its plain meaning (the full text and the code in the tooltip).
+
+    The same rule as :func:`show_warnings`, so a metric and its warning carry the same severity on every
+    page. Streamlit releases without coloured deltas show a safety flag as a negative (red) delta.
+    """
+    if flagged is None:
+        box.metric(label, value, **kwargs)
+        return
+    import inspect
+
+    severity, meaning, code = flagged
+    kwargs["help"] = f"{meaning} (`{code}`)" + (f". {kwargs['help']}" if kwargs.get("help") else "")
+    text = f"{SAFETY_PREFIX} {meaning}" if severity == "safety" else meaning
+    if "delta_arrow" in inspect.signature(box.metric).parameters:
+        colour = "red" if severity == "safety" else "orange"
+        box.metric(label, value, delta=text, delta_color=colour, delta_arrow="down", border=True, **kwargs)
+    elif severity == "safety":
+        box.metric(label, value, delta=f"-{text}", delta_color="normal", border=True, **kwargs)
+    else:
+        box.metric(label, value, delta=text, delta_color="off", border=True, **kwargs)
 
 
 def xlsx_bytes(sheets: dict[str, pd.DataFrame], made_by: str = "lowflow app") -> bytes:
@@ -193,7 +235,7 @@ def downloads(
         return dumps(stamp(doc, made_by)).encode("utf-8")
 
     def as_html() -> bytes:
-        from estimator.planning.exports import tables_report_html
+        from estimator.planning.html_report import tables_report_html
 
         pairs = warning_pairs(warnings)
         return tables_report_html(title or stem.replace("_", " "), sheets, notes=notes, warnings=pairs).encode("utf-8")

@@ -19,6 +19,7 @@ import pandas as pd
 import streamlit as st
 import tomli_w
 
+from estimator.display import rounded
 from estimator.errors import InputError
 from estimator.units import parse_quantity
 
@@ -34,7 +35,7 @@ class Field:
     """One editable key of a document or of a table row.
 
     ``kind`` is ``number`` (a quantity of ``dimension`` shown in ``unit``, or a plain number when
-    ``dimension`` is None), ``integer``, ``text`` or ``select`` (one of ``options``). ``low``/``high``
+    ``dimension`` is None), ``integer``, ``text``, ``select`` (one of ``options``) or ``bool`` (a tick box). ``low``/``high``
     bound the widget (the contract's range, in ``unit``); the loader still checks the value.
     """
 
@@ -57,20 +58,28 @@ class Field:
 
     def shown(self, raw: Any) -> Any:
         """The value the widget shows for a raw file value (None when absent or unreadable)."""
-        if raw is None:
-            return self.default
+        if raw is None:  # a text cell shows a blank, not "None"; a blank cell leaves the key out as before
+            return "" if self.default is None and self.kind in ("text", "select") else self.default
+        if self.kind == "bool":
+            return raw if isinstance(raw, bool) else None
         if self.kind in ("text", "select"):
             return str(raw)
         if self.read is not None:
             return _safe(lambda: self.read(raw))
         if self.dimension is None:
             return _safe(lambda: float(raw))
+        # Shown to four figures (190 bar reads 2756 psi, not 2755.717): an untouched cell is still saved
+        # as loaded, since only a value that differs from what is shown is written back.
         return _safe(
-            lambda: float(parse_quantity(raw, self.key, self.dimension).to(_PINT.get(self.unit, self.unit)).magnitude)
+            lambda: rounded(
+                parse_quantity(raw, self.key, self.dimension).to(_PINT.get(self.unit, self.unit)).magnitude, 4
+            )
         )
 
     def written(self, value: Any) -> Any:
         """The raw file value of what the widget shows."""
+        if self.kind == "bool":
+            return bool(value)
         if self.kind in ("text", "select"):
             return str(value)
         if self.kind == "integer":
@@ -200,6 +209,8 @@ def frame(rows: list[dict[str, Any]], fields: list[Field]) -> pd.DataFrame:
 def column(f: Field) -> Any:
     """The column config of a field: a number column with its unit, a select or a text column."""
     cc = st.column_config
+    if f.kind == "bool":
+        return cc.CheckboxColumn(f.title, help=f.help)
     if f.kind == "select":
         return cc.SelectboxColumn(f.title, options=list(f.options), help=f.help)
     if f.kind == "text":

@@ -11,6 +11,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from estimator.display import table as readable
 from estimator.errors import InputError
 
 from . import state
@@ -83,7 +84,7 @@ def totals_table(band: Any) -> pd.DataFrame:
 def show_totals(band: Any) -> None:
     """P5-P95 beside each total with a spread."""
     st.markdown(f"**P5-P95 over {band.n} simulated patients** (seed {band.seed})")
-    st.dataframe(totals_table(band), hide_index=True, width="stretch")
+    st.dataframe(readable(totals_table(band)), hide_index=True, width="stretch")
     with st.expander("Between-patient distributions and their sources"):
         st.dataframe(distributions_table(band.agent), hide_index=True, width="stretch")
 

@@ -31,7 +31,10 @@ def metric(at: AppTest, label: str) -> str:
 
 
 def number(text: str) -> float:
-    return float(text.split()[0].replace(",", ""))
+    """The number a metric shows (estimator.display.text: thousands set apart by a narrow space)."""
+    from estimator.display import number as leading
+
+    return leading(text.replace(",", ""))
 
 
 def assert_clean(at: AppTest) -> None:

@@ -57,7 +57,7 @@ def test_supply_inventory_upload_with_its_scenario_and_a_misspelt_key():
     # An inventory whose case plan names a file not given with it is refused, naming the file.
     at.get("file_uploader")[0].set_value([("alone.toml", tomli_w.dumps(demo.inventory()).encode(), "text/plain")])
     at.run()
-    assert any("demand.cases[0].scenario" in e and "highland_mobile_team.toml" in e for e in faults(at))
+    assert any("demand.cases (row 1).scenario" in e and "highland_mobile_team.toml" in e for e in faults(at))
 
 
 def test_supply_empty_concentrator_table_takes_a_typed_rated_flow():
@@ -110,7 +110,7 @@ def test_a_fault_in_a_page_is_one_line_never_a_traceback():
     assert not at.exception
     assert len(faults(at)) == 2
     assert "ZeroDivisionError" in faults(at)[0] and "Traceback" not in faults(at)[0]
-    assert "cylinders[0].pressure" in faults(at)[1] and "0 to 300 bar" in faults(at)[1]
+    assert "cylinders (row 1).pressure" in faults(at)[1] and "0 to 300 bar" in faults(at)[1]
     config = tomllib.loads((ROOT / ".streamlit" / "config.toml").read_text(encoding="utf-8"))
     assert config["client"]["showErrorDetails"] is False
 
@@ -140,7 +140,11 @@ def test_forecast_upload_refuses_a_misspelt_key_as_the_cli_does():
         casemix_from_text(text)
     at.file_uploader(key="forecast.upload").set_value([("mix.toml", text.encode(), "application/toml")])
     at.run()
-    assert faults(at) == [f"Input not accepted: {cli.value}"]
+    # The command line's error, rows counted from 1 as the page's tables show them.
+    from estimator.display import field_path
+
+    same = InputError(field_path(cli.value.field), cli.value.value, cli.value.expected)
+    assert faults(at) == [f"Input not accepted: {same}"]
     assert "weigth_mean" in faults(at)[0]
     assert at.session_state["forecast.doc"] == demo.casemix()  # the loaded case mix stays
 
@@ -208,9 +212,9 @@ def test_forecast_upload_with_the_scenario_file_it_names():
     at.file_uploader(key="forecast.upload").set_value(files)
     at.run()
     assert_clean(at)
-    assert metric(at, "Cases a week (mean)") == "5.0"
+    assert metric(at, "Cases a week (mean)") == "5.00"
     assert at.session_state["forecast.doc"] == mix
     mix["case_types"][0]["scenario"] = "../../etc/lap.toml"
     at.file_uploader(key="forecast.upload").set_value([("bad.toml", tomli_w.dumps(mix).encode(), "text/plain")])
     at.run()
-    assert len(faults(at)) == 1 and "case_types[0].scenario" in faults(at)[0]
+    assert len(faults(at)) == 1 and "case_types (row 1).scenario" in faults(at)[0]

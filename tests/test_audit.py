@@ -334,3 +334,23 @@ def test_audit_results_in_the_package_unit_convention():
     assert q["cases"] == r.totals["cases"] == 2
     with pytest.raises(ValueError, match="cases, rooms, months"):
         r.table("totals")
+
+
+def test_counterfactual_keeps_each_agents_liquid_apart():
+    # Issue 19: millilitres of sevoflurane and desflurane are two stocks; the totals give each agent's
+    # baseline, policy and saving, and they add up to the (kept) all-agent total.
+    text = (
+        "case_id,time,oxygen_flow,air_flow,nitrous_oxide_flow,agent,vaporizer_setting,end_tidal_agent\n"
+        "A,0,2,2,0,sevoflurane,2,2\nA,10,2,2,0,sevoflurane,2,2\nA,70,2,2,0,sevoflurane,2,2\n"
+        "D,0,2,2,0,desflurane,6,5\nD,10,2,2,0,desflurane,6,5\nD,70,2,2,0,desflurane,6,5\n"
+    )
+    cf = counterfactual(audit(text), parse_policy({"fresh_gas_flow": "0.5 L/min"}), runner=_stand_in)
+    t = cf["totals"]
+    for side in ("baseline", "policy", "savings"):
+        per = t[side]["agent_liquid_by_agent"]
+        assert set(per) == {"sevoflurane", "desflurane"}
+        assert sum(q["magnitude"] for q in per.values()) == pytest.approx(t[side]["agent_liquid"]["magnitude"])
+    case_a = next(c for c in cf["cases"] if c["case_id"] == "A")
+    assert t["savings"]["agent_liquid_by_agent"]["sevoflurane"]["magnitude"] == pytest.approx(
+        case_a["savings"]["agent_liquid"]["magnitude"]
+    )

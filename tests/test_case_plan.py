@@ -50,3 +50,23 @@ def test_app_offers_the_plan():
 
     at = page("case_planner", demo.scenario())
     assert "Case plan (printable HTML)" in {b.label for b in at.get("download_button")}
+
+
+def test_the_printable_plan_ends_with_its_charts_as_inline_svg():
+    # Issue 19 item 1: the charts after the tables, drawn as SVG in the page (no script, no library).
+    import estimator
+    from estimator.planning.case_plan import case_plan_html
+
+    sc = estimator.scenario_from_dict(
+        {
+            "patient": {"weight": "70 kg"},
+            "agent": {"name": "sevoflurane"},
+            "phases": [{"duration": "20 min", "oxygen": "1 L/min", "air": "1 L/min", "end_tidal_target": "1 MAC"}],
+        }
+    )
+    page = case_plan_html(estimator.simulate(sc))
+    charts = page[page.index("<h2>Charts</h2>") :]
+    assert page.index("Dial every 10 min") < page.index("<h2>Charts</h2>")
+    assert charts.count("<svg") == 4 and "<script" not in page
+    for title in ("Agent: end-tidal, inspired and the vaporizer dial", "Oxygen: inspired and end-tidal"):
+        assert title in charts

@@ -9,7 +9,9 @@ import pytest
 
 from estimator.accounts.costs import DEMO_PRICES
 from estimator.planning.audit import audit
-from estimator.planning.exports import neutralise, report_html, svg_bars, write_csv, write_html, write_xlsx
+from estimator.planning.exports import neutralise, write_csv, write_xlsx
+from estimator.planning.html_report import report_html, write_html
+from estimator.planning.svg_charts import svg_bars
 
 DATA = Path(__file__).parent / "data"
 
@@ -130,7 +132,7 @@ def test_tables_report_escapes_everything_and_carries_the_caution():
     import pandas as pd
 
     from estimator.caution import CAUTION
-    from estimator.planning.exports import tables_report_html
+    from estimator.planning.html_report import tables_report_html
 
     evil = "<script>alert(1)</script>"
     page = tables_report_html(

@@ -20,7 +20,19 @@ ROOT = Path(__file__).resolve().parent.parent
 #: Layers from the bottom up; each but the base and the faces is a folder of ``estimator``.
 LAYERS = ("base", "physics", "numerics", "accounts", "inputs", "simulation", "planning", "faces")
 #: The base: modules every layer may use, at the top of the package (a new one must be named here).
-BASE = ("constants", "errors", "choices", "caution", "limits", "units", "jsonout", "contracts", "fields", "properties")
+BASE = (
+    "constants",
+    "errors",
+    "choices",
+    "caution",
+    "limits",
+    "units",
+    "jsonout",
+    "contracts",
+    "fields",
+    "properties",
+    "display",
+)
 #: Face modules of the package itself (the app's modules are faces too).
 FACES = ("__init__", "__main__", "cli")
 

@@ -30,10 +30,11 @@ def test_cli_prints_every_row_of_the_table(result):
 
 def test_app_shows_the_same_table(result):
     pytest.importorskip("streamlit")
+    from estimator.display import sentence
     from estimator_app.pages.case_planner import totals_frame
 
     frame = totals_frame(result)
     rows = totals_rows(result)
-    assert list(frame["quantity"]) == [r.label for r in rows]
+    assert list(frame["quantity"]) == [sentence(r.label) for r in rows]  # first letter up for reading
     assert list(frame["value"]) == [r.value for r in rows]
     assert len(rows) == len(TOTAL_ROWS) + 2

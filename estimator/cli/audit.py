@@ -74,7 +74,9 @@ def _share(text: str, flag: str) -> float:
 
 
 def _fmt(v: float, unit: str = "") -> str:
-    return "n/a" if v is None or not math.isfinite(v) else f"{v:.4g}{(' ' + unit) if unit else ''}"
+    from ..display import text
+
+    return "n/a" if v is None or not math.isfinite(v) else text(v, unit)
 
 
 @app.command("audit")
@@ -108,7 +110,7 @@ def audit_command(
 ) -> None:
     """Fresh-gas audit: agent, gases, CO2e and cost per case, room and month, with KPIs."""
     from ..accounts.costs import DEMO_PRICES
-    from ..planning import exports
+    from ..planning import exports, html_report
     from ..planning.audit import audit
 
     if prices is not None and demo_prices:
@@ -145,7 +147,7 @@ def audit_command(
         result = _calibrated(result, log, outputs.get("--calibration-out"))
     written = [str(outputs["--calibration-out"])] if "--calibration-out" in outputs else []
     for flag, writer in (
-        ("--report", exports.write_html),
+        ("--report", html_report.write_html),
         ("--xlsx", exports.write_xlsx),
         ("--csv", exports.write_csv),
     ):
@@ -204,8 +206,11 @@ def _human(result, written: list[str]) -> None:
         echo(f"  ... {len(result.rejections) - 20} more rejected rows (see --json or the exports)")
     label = CO2E_BASES[result.basis][1]
     echo(f"Cases {t.get('cases', 0)}; duration {_fmt(t.get('duration_min', 0.0), 'min')}")
+    liquid = [(k[7:-3], v) for k, v in t.items() if k.startswith("liquid_") and k.endswith("_ml") and v > 0]
     echo(
-        f"Liquid agent {_fmt(t.get('agent_liquid_ml', 0.0), 'mL')}; O2 {_fmt(t.get('oxygen_l', 0.0), 'L')}, "
+        "Liquid agent "
+        + (", ".join(f"{a} {_fmt(v, 'mL')}" for a, v in liquid) or "none")
+        + f"; O2 {_fmt(t.get('oxygen_l', 0.0), 'L')}, "
         f"air {_fmt(t.get('air_l', 0.0), 'L')}, N2O {_fmt(t.get('nitrous_oxide_l', 0.0), 'L')}"
     )
     echo(f"CO2e {_fmt(t.get('co2e_kg', 0.0), 'kg')} ({label})")
@@ -214,6 +219,8 @@ def _human(result, written: list[str]) -> None:
             f"Cost {_fmt(t.get('cost_total', 0.0))} {result.currency} (agent {_fmt(t.get('cost_agent', 0.0))}, "
             f"gases {_fmt(t.get('cost_gases', 0.0))})"
         )
+    for note in (n for n in result.notes if n.startswith("prices used")):
+        echo(note[:1].upper() + note[1:])
     echo(
         f"Mean maintenance flow {_fmt(k['mean_maintenance_flow_l_min'], 'L/min')} "
         f"({k['mean_maintenance_flow_class'] or 'no maintenance time'}; after {k['maintenance_after_min']:g} min); "
@@ -229,7 +236,9 @@ def _human(result, written: list[str]) -> None:
         s = cf["totals"]["savings"]
         echo(
             f"Policy '{cf['policy']['name']}' ({cf['totals']['cases']} cases re-run, {len(cf['skipped'])} skipped): "
-            f"saves {_fmt(s['agent_liquid']['magnitude'], 'mL')} agent, {_fmt(s['co2e']['magnitude'], 'kg')} CO2e"
+            "saves "
+            + ", ".join(f"{_fmt(q['magnitude'], 'mL')} {a}" for a, q in s.get("agent_liquid_by_agent", {}).items())
+            + f", {_fmt(s['co2e']['magnitude'], 'kg')} CO2e"
             + (f", {_fmt(s['cost']['total'])} {cf['currency']}" if "cost" in s else "")
             + f" against the {cf['baseline']} baseline"
         )

@@ -29,6 +29,12 @@ _LABELS = {
 def forecast(
     file: Path = typer.Argument(..., help="Case-mix file, TOML or CSV (see the README)."),
     weeks: int | None = typer.Option(None, "--weeks", help="Weeks to simulate (default: the file's, else 52)."),
+    horizon_weeks: int | None = typer.Option(
+        None,
+        "--horizon-weeks",
+        help="Planning horizon in weeks (13 for a quarter): its totals and orders, apart from the weeks simulated "
+        "(default: the file's horizon_weeks, else none).",
+    ),
     seed: int | None = typer.Option(None, "--seed", help="Random seed, for a repeatable run."),
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
     max_cases: int = typer.Option(
@@ -49,6 +55,7 @@ def forecast(
     """Demand forecast: weekly gas, agent and absorbent demand of a case mix, P50/P95/P99, orders."""
     from ..planning.casemix import MAX_WEEKS, load_casemix
     from ..planning.forecast import forecast as run
+    from ..planning.forecast_horizon import plan_horizon
 
     if not 1 <= max_cases <= CASE_CEILING:
         raise InputError("--max-cases", max_cases, f"a whole number from 1 to {CASE_CEILING}")
@@ -75,6 +82,8 @@ def forecast(
             patient_spread=patient_spread,
             progress=lambda share: show(round(100 * share), 100),
         )
+    with option_names({"horizon_weeks": "--horizon-weeks" if horizon_weeks is not None else None}):
+        result = plan_horizon(result, mix, horizon_weeks)
     files = {"FILE": file, "--calibration": calibration}
     if json_out:
         typer.echo(json_text({**result.to_json(), **_calibration(mix)}, "forecast", files))
@@ -101,8 +110,45 @@ def _calibration(mix) -> dict:
 
 
 def _fmt(q) -> str:
-    mag = q.magnitude
-    return f"{mag:10.0f}" if abs(mag) >= 1000 else f"{mag:10.2f}" if abs(mag) < 100 else f"{mag:10.1f}"
+    from ..display import text
+
+    return f"{text(q.magnitude if hasattr(q, 'magnitude') else q):>10}"
+
+
+def _stats(title: str, items: dict, units: dict, cost: dict | None) -> list[str]:
+    """The table of mean, P50, P95 and P99 of each item (a week's or the horizon's)."""
+    from ..display import unit_label
+
+    lines = [f"  {title:<26}{'mean':>10}{'P50':>10}{'P95':>10}{'P99':>10}  unit"]
+    for key, stats in items.items():
+        label = _LABELS.get(key, key.replace("_bottles", " bottles").replace("_", " "))
+        unit = units[key] or ("bottles" if key.endswith("_bottles") else "")
+        if key in ("sevoflurane", "isoflurane", "desflurane", "halothane"):
+            label += " (liquid)"
+        lines.append(
+            f"  {label:<26}" + "".join(_fmt(stats[s]) for s in ("mean", "p50", "p95", "p99")) + f"  {unit_label(unit)}"
+        )
+    if cost:
+        lines.append(
+            f"  {'cost (' + cost['currency'] + ')':<26}" + "".join(_fmt(cost[s]) for s in ("mean", "p50", "p95", "p99"))
+        )
+    return lines
+
+
+def _orders(title: str, orders: list, units: dict) -> list[str]:
+    """Whole cylinders, bottles and packs, one line an item."""
+    from ..display import text
+
+    if not orders:
+        return []
+    lines = [title]
+    for o in orders:
+        lines.append(
+            f"  {o['item'].replace('_', ' '):<16}{o['count']:5d} {o['unit']}(s) of "
+            f"{text(o['per_unit'].magnitude, units[o['item']])} usable "
+            f"(need {text(o['need'].magnitude, units[o['item']])})"
+        )
+    return lines
 
 
 def summary(result) -> str:
@@ -116,33 +162,15 @@ def summary(result) -> str:
             f"  {c['name']}: {c['mean_per_week']:g} a week ({c['count']}), {c['agent']}, "
             f"mean {c['mean_duration'].to('min').magnitude:.0f} min"
         )
-    lines.append(f"  {'per week':<26}{'mean':>10}{'P50':>10}{'P95':>10}{'P99':>10}  unit")
-    for key, stats in result.items.items():
-        label = _LABELS.get(key, key.replace("_bottles", " bottles").replace("_", " "))
-        unit = result.units[key] or ("bottles" if key.endswith("_bottles") else "")
-        if key in ("sevoflurane", "isoflurane", "desflurane", "halothane"):
-            label += " (liquid)"
-        lines.append(
-            f"  {label:<26}"
-            + "".join(_fmt(stats[s]) for s in ("mean", "p50", "p95", "p99"))
-            + f"  {unit.replace('MAC_hour', 'MAC h')}"
+    lines += _stats("per week", result.items, result.units, result.cost)
+    lines += _orders(f"Orders that cover a P{100 * result.cover:g} week:", result.orders, result.units)
+    h = result.horizon
+    if h:
+        lines.append(f"Planning horizon: {h['weeks']} weeks - {h['method']}")
+        lines += _stats(f"over {h['weeks']} weeks", h["items"], result.units, h["cost"])
+        lines += _orders(
+            f"Orders that cover a P{100 * result.cover:g} horizon of {h['weeks']} weeks:", h["orders"], result.units
         )
-    if result.cost:
-        cost = result.cost
-        lines.append(
-            f"  {'cost (' + cost['currency'] + ')':<26}"
-            + "".join(
-                f"{cost[s]:10.0f}" if cost[s] >= 1000 else f"{cost[s]:10.2f}" for s in ("mean", "p50", "p95", "p99")
-            )
-        )
-    if result.orders:
-        lines.append(f"Orders that cover a P{100 * result.cover:g} week:")
-        for o in result.orders:
-            lines.append(
-                f"  {o['item'].replace('_', ' '):<16}{o['count']:5d} {o['unit']}(s) of "
-                f"{o['per_unit'].magnitude:.4g} {result.units[o['item']]} usable "
-                f"(need {o['need'].magnitude:.4g} {result.units[o['item']]})"
-            )
     lines.append(f"Gas litres: free gas at 15 degC and 101.325 kPa. CO2e basis: {result.to_json()['co2e_basis']}.")
     if result.warnings:
         lines.append("Warnings:")

@@ -15,21 +15,26 @@ if TYPE_CHECKING:
 
 
 def _amount(q) -> str:  # noqa: ANN001 - pint quantity or None
+    from ..display import text
+
     if q is None:
         return "-"
     unit = f"{q.units:~P}".replace("ml", "mL").replace("l", "L").replace("/d", "/day")
-    return f"{q.magnitude:,.1f} {unit}"
+    return text(q.magnitude, unit)
 
 
 def _runtime(item) -> str:  # noqa: ANN001
+    from ..display import text
+
     if item.runtime is None:
         return item.status
-    return f"{item.runtime.to('day').magnitude:.1f} d" + (" (empty)" if item.status == "empty" else "")
+    return text(item.runtime.to("day").magnitude, "days") + (" (empty)" if item.status == "empty" else "")
 
 
 def render(report: SupplyReport) -> str:
     """Readable text of a :class:`~estimator.planning.supply.SupplyReport`, ending with the caution."""
     lines = [f"Supply duration{': ' + report.title if report.title else ''} (from {report.start.isoformat()})", ""]
+    lines += [*report.headline(), ""]  # the answer first: bottleneck, days, cases, reorder
     header = f"{'item':<28} {'kind':<12} {'usable':>16} {'draw a day':>16} {'lasts':>12}"
     lines += [header, "-" * len(header)]
     for i in report.items:
@@ -37,17 +42,6 @@ def render(report: SupplyReport) -> str:
             f"{i.name[:28]:<28} {i.kind:<12} {_amount(i.usable):>16} {_amount(i.draw_per_day):>16} {_runtime(i):>12}"
         )
     lines.append("")
-    if report.bottleneck is None or report.days_of_supply is None:
-        lines.append("Bottleneck: none - no supply runs out under this plan.")
-    else:
-        days = report.days_of_supply.to("day").magnitude
-        lines.append(
-            f"Bottleneck: {report.bottleneck} ({report.bottleneck_supply}) - the supply fails after {days:.1f} days."
-        )
-        if report.cases_possible is not None:
-            lines.append(f"Cases possible before then: {report.cases_possible}")
-        if report.reorder_by is not None:
-            lines.append(f"Reorder by: {report.reorder_by.isoformat()}")
     lines.append(f"Gas volumes: {report.gas_volume_reference}.")
     if report.warnings:
         lines += ["", "Warnings:"] + [f"  [{c}] {m}" for c, m in report.warnings]

@@ -11,13 +11,33 @@ Examples
 
 from __future__ import annotations
 
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, StrictInt
+from pydantic import AfterValidator, BaseModel, ConfigDict, StrictInt
 
 Value = str | int | float
 #: Bottle size used for orders when none is given: 250 mL (common practice, no source).
 DEFAULT_BOTTLE = "250 mL"
+
+
+#: Longest planning horizon: ten years of weeks (practical limit, no source).
+MAX_HORIZON_WEEKS = 520
+
+
+def check_horizon_weeks(value: int) -> int:
+    """The planning horizon's range check [weeks]: 1 to :data:`MAX_HORIZON_WEEKS`.
+
+    >>> check_horizon_weeks(13)
+    13
+    """
+    if not 1 <= value <= MAX_HORIZON_WEEKS:
+        raise ValueError(f"a whole number of weeks, 1 to {MAX_HORIZON_WEEKS}")
+    return value
+
+
+#: The planning horizon in whole weeks (13 for a quarter): its totals and orders are given apart
+#: from the weeks simulated for the statistics.
+HorizonWeeks = Annotated[StrictInt, AfterValidator(check_horizon_weeks)]
 
 
 class _Strict(BaseModel):
@@ -83,6 +103,7 @@ class CaseMixInput(_Strict):
 
     title: str = ""
     weeks: StrictInt = 52
+    horizon_weeks: HorizonWeeks | None = None
     seed: StrictInt | None = None
     cover: Value = "95 %"
     co2e_basis: str = "ar6_gwp100"

@@ -295,6 +295,8 @@ def audit(
     )
     if prices is None:
         notes += ("no prices given: costs not computed",)
+    else:
+        notes += (f"prices used: {prices.currency}" + (f" ({prices.note})" if prices.note else ""),)
     kpis = kpi_summary(cases, class_time, after)
     return AuditResult(
         rows=dict(log.rows),

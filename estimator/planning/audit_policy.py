@@ -189,7 +189,9 @@ def _side(
     return out
 
 
-def _quantities(side: dict[str, float], basis: str, currency: str | None) -> dict[str, Any]:
+def _quantities(
+    side: dict[str, float], basis: str, currency: str | None, by_agent: dict[str, float] | None = None
+) -> dict[str, Any]:
     out: dict[str, Any] = {
         "agent_liquid": {"magnitude": side["agent_liquid_ml"], "units": "milliliter"},
         "fresh_gas": {"magnitude": side["fresh_gas_l"], "units": "liter"},
@@ -197,6 +199,8 @@ def _quantities(side: dict[str, float], basis: str, currency: str | None) -> dic
     }
     if "cost_total" in side:
         out["cost"] = {"currency": currency, "total": side["cost_total"]}
+    if by_agent is not None:  # liquid of each agent apart: millilitres of two agents are not one stock
+        out["agent_liquid_by_agent"] = {a: {"magnitude": v, "units": "milliliter"} for a, v in sorted(by_agent.items())}
     return out
 
 
@@ -217,6 +221,7 @@ def counterfactual(
     keys = ["agent_liquid_ml", "fresh_gas_l", "co2e_kg"] + (["cost_total"] if prices is not None else [])
     cases, warnings = [], []
     sums = {side: dict.fromkeys(keys, 0.0) for side in ("baseline", "policy")}
+    by_agent: dict[str, dict[str, float]] = {"baseline": {}, "policy": {}}
     if policy.max_cases is not None and len(built) > policy.max_cases:
         skipped += [
             {"case_id": b["case_id"], "reason": f"beyond policy.max_cases = {policy.max_cases}"}
@@ -246,6 +251,8 @@ def counterfactual(
         for k in keys:
             sums["baseline"][k] += base[k]
             sums["policy"][k] += pol[k]
+        for side, values in (("baseline", base), ("policy", pol)):
+            by_agent[side][item["agent"]] = by_agent[side].get(item["agent"], 0.0) + values["agent_liquid_ml"]
         case_warn = [{"code": c, "message": m} for c, m in res_p.warnings]
         if item["defaults"]:
             case_warn.append(
@@ -276,6 +283,7 @@ def counterfactual(
     if skipped:
         warnings.append({"code": "CASES_SKIPPED", "message": f"{len(skipped)} case(s) not re-run (see skipped)"})
     savings = {k: sums["baseline"][k] - sums["policy"][k] for k in keys}
+    by_agent["savings"] = {a: v - by_agent["policy"][a] for a, v in by_agent["baseline"].items()}
     currency = prices.currency if prices is not None else None
     share = {k: (savings[k] / sums["baseline"][k] if sums["baseline"][k] > 0 else None) for k in keys}
     if progress is not None:
@@ -288,9 +296,9 @@ def counterfactual(
         "cases": cases,
         "skipped": skipped,
         "totals": {
-            "baseline": _quantities(sums["baseline"], result.basis, currency),
-            "policy": _quantities(sums["policy"], result.basis, currency),
-            "savings": _quantities(savings, result.basis, currency),
+            "baseline": _quantities(sums["baseline"], result.basis, currency, by_agent["baseline"]),
+            "policy": _quantities(sums["policy"], result.basis, currency, by_agent["policy"]),
+            "savings": _quantities(savings, result.basis, currency, by_agent["savings"]),
             "savings_share": {k.rsplit("_", 1)[0]: v for k, v in share.items()},
             "cases": len(cases),
         },

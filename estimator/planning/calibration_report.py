@@ -1,6 +1,6 @@
 """The prediction check and calibration of an audit as HTML: a scatter of recorded against predicted, and tables.
 
-Rendered into the audit's HTML report (:func:`estimator.planning.exports.report_html`) when the audit
+Rendered into the audit's HTML report (:func:`estimator.planning.html_report.report_html`) when the audit
 ran with ``--calibrate``; the app's audit page draws the same scatter with altair.
 
 Examples

@@ -2,8 +2,9 @@
 
 Order: the phases with their flows and the vaporizer dial (start, typical, end), the flow floor of
 each phase and what limits it, the totals (with P5-P95 when a patient spread was run), the warnings
-and the monitoring advice, then the dial every 10 minutes. Every text is escaped; the page carries
-the clinical caution (:func:`estimator.planning.exports.tables_report_html`).
+and the monitoring advice, then the dial every 10 minutes, then the charts (agent, O2, fresh-gas flow,
+liquid used) as inline SVG. Every text is escaped; the page carries the clinical caution
+(:func:`estimator.planning.html_report.tables_report_html`).
 """
 
 from __future__ import annotations
@@ -12,9 +13,11 @@ from typing import Any
 
 import pandas as pd
 
+from ..display import sentence
 from ..simulation.dial_schedule import dial_schedule, dial_table
 from ..simulation.totals_table import totals_rows
-from .exports import tables_report_html
+from .html_report import tables_report_html
+from .svg_charts import svg_lines
 
 #: What the page says about monitoring, whatever the plan (the caution of the tool, made concrete).
 MONITORING = (
@@ -68,13 +71,41 @@ def plan_tables(result: Any, floor: Any | None = None, band: Any | None = None) 
     rows = []
     keyed = {"agent_liquid", "oxygen", "nitrous_oxide", "co2e"}
     for r in totals_rows(result):
-        row = {"quantity": r.label, "value": round(r.value, 2), "unit": r.unit}
+        row = {"quantity": sentence(r.label), "value": r.value, "unit": r.unit}
         if band is not None:
             row["P5-P95 over patients"] = band.band_text(r.key) if r.key in keyed else ""
         rows.append(row)
     tables["Totals"] = pd.DataFrame(rows)
     tables["Dial every 10 min"] = dial_table(list(dials.values()))
     return tables
+
+
+#: The plan's charts: title, y-axis title and series (column of ``CaseResult.series`` -> legend name).
+CHARTS = (
+    (
+        "Agent: end-tidal, inspired and the vaporizer dial",
+        "agent [%]",
+        {"end_tidal_agent [%]": "end-tidal", "inspired_agent [%]": "inspired", "vaporizer_setting [%]": "dial"},
+    ),
+    (
+        "Oxygen: inspired and end-tidal",
+        "O2 [%]",
+        {"inspired_oxygen [%]": "inspired", "end_tidal_oxygen [%]": "end-tidal"},
+    ),
+    ("Fresh-gas flow", "flow [L/min]", {"fresh_gas_flow [L/min]": "fresh gas"}),
+    ("Liquid agent used", "liquid [mL]", {"agent_liquid_cumulative [mL]": "liquid agent"}),
+)
+
+
+def plan_charts(result: Any) -> list[str]:
+    """The plan's charts as inline SVG (no library, no script): agent, O2, fresh-gas flow, liquid used."""
+    s = result.series
+    out = []
+    for title, y_title, columns in CHARTS:
+        shown = {name: s[col].tolist() for col, name in columns.items() if col in s and s[col].notna().any()}
+        if shown:
+            out.append(svg_lines(s["time [min]"].tolist(), shown, "time [min]", y_title, title))
+    return out
 
 
 def case_plan_html(result: Any, floor: Any | None = None, band: Any | None = None) -> str:
@@ -102,5 +133,9 @@ def case_plan_html(result: Any, floor: Any | None = None, band: Any | None = Non
         notes.append(f"Recommended settable schedule: {floor.schedule_text}.")
     notes.append("Gas litres: free gas at 15 degC and 101.325 kPa; flows as a flowmeter at the site shows them.")
     return tables_report_html(
-        f"Case plan: {sc.title or sc.agent.name}", plan_tables(result, floor, band), notes=notes, warnings=warnings
+        f"Case plan: {sc.title or sc.agent.name}",
+        plan_tables(result, floor, band),
+        notes=notes,
+        warnings=warnings,
+        charts=plan_charts(result),
     )

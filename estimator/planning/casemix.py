@@ -41,7 +41,7 @@ from __future__ import annotations
 import os
 import re
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -119,6 +119,7 @@ class CaseMix:
     orders: OrdersInput
     warnings: tuple[tuple[str, str], ...] = field(default=())
     calibration: Any = None  # a department's Calibration, applied to every template (planning.calibration)
+    horizon_weeks: int | None = None  # the planning horizon [weeks], apart from the weeks simulated
 
 
 _INLINE = (
@@ -297,9 +298,8 @@ def casemix_from_dict(data: dict[str, Any], base_dir: Path | str | None = None, 
         notes += n
     check_orders(raw.orders)
     prices = parse_prices(raw.prices) if raw.prices else None
-    mix = CaseMix(
-        raw.title, raw.weeks, raw.seed, cover, raw.co2e_basis, loss, tuple(types), prices, raw.orders, tuple(notes)
-    )
+    mix = CaseMix(raw.title, raw.weeks, raw.seed, cover, raw.co2e_basis, loss, tuple(types), prices, raw.orders)
+    mix = replace(mix, warnings=tuple(notes), horizon_weeks=raw.horizon_weeks)
     from .calibration import calibrated_mix, named_calibration  # a department's uptake factor, if named
 
     return calibrated_mix(mix, named_calibration(raw.calibration, base, confine)) if raw.calibration else mix

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from ..display import unit_label
 from ..errors import InputError
 
 #: Totals compared, with the unit shown (keys of ``CaseResult.totals``).
@@ -65,7 +66,7 @@ def compare_results(results: dict[str, Any]) -> dict[str, Any]:
         row(
             key,
             label,
-            unit.replace("MAC_hour", "MAC h"),
+            unit_label(unit),
             {n: float(results[n].totals[key].to(unit).magnitude) for n in names},
         )
         for key, label, unit in COMPARED

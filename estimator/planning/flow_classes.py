@@ -33,6 +33,11 @@ FLOW_CLASSES = (
 )
 FLOW_CLASS_SOURCE = "Baum and Aitkenhead 1995; Brattwall et al. 2012"
 
+#: Colours of the flow classes, lowest flow first: one blue hue (206 degrees) whose lightness falls
+#: step by step with the flow (91 to 28 %), so the order reads in greyscale and with any colour-vision
+#: deficiency (no red-green pair). Our own ramp; every flow-class chart uses it, the name on each bar.
+FLOW_CLASS_COLOURS = ("#ddeaf4", "#b4cfe4", "#89b2d1", "#5b91bb", "#356f9c", "#1b4d74")
+
 
 def flow_class(flow_l_min: Any) -> Any:
     """Flow class name(s) of fresh-gas flow(s) [L/min] (Brattwall et al. 2012).
@@ -47,4 +52,4 @@ def flow_class(flow_l_min: Any) -> Any:
     return out if np.ndim(out) else str(out)
 
 
-__all__ = ["FLOW_CLASSES", "FLOW_CLASS_SOURCE", "flow_class"]
+__all__ = ["FLOW_CLASSES", "FLOW_CLASS_COLOURS", "FLOW_CLASS_SOURCE", "flow_class"]

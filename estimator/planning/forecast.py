@@ -51,10 +51,7 @@ import numpy as np
 import pandas as pd
 import pint
 
-from ..accounts.carbon import (
-    basis_label,
-    totals_co2e,
-)
+from ..accounts.carbon import basis_label, totals_co2e
 from ..accounts.costs import cost_table
 from ..errors import InputError
 from ..inputs.casemix_orders import absorbent_pack_kg, bottle_ml, cylinder_usable
@@ -105,6 +102,7 @@ class ForecastResult:
     co2e_basis: str
     warnings: list[tuple[str, str]] = field(default_factory=list)
     solver: dict[str, float] = field(default_factory=dict)
+    horizon: dict[str, Any] | None = None  # totals and orders of the planning horizon (forecast_horizon)
 
     def to_json(self) -> dict[str, Any]:
         """The ``lowflow forecast --json`` contract (see the README)."""
@@ -123,6 +121,7 @@ class ForecastResult:
                 "co2e_basis": basis_label(self.co2e_basis),
                 "warnings": [{"code": c, "message": m} for c, m in self.warnings],
                 "solver": self.solver,
+                "horizon": self.horizon,
                 "gas_volume_reference": GAS_VOLUME_REFERENCE,
             }
         )

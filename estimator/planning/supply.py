@@ -220,4 +220,6 @@ def plan_supply(
         reorder,
         depletion,
         warns,
+        lead_time_days=lead,
+        safety_stock_days=safety,
     )

@@ -61,6 +61,44 @@ class SupplyReport:
     depletion: pd.DataFrame
     warnings: list[tuple[str, str]]
     gas_volume_reference: str = GAS_VOLUME_REFERENCE
+    lead_time_days: float = 0.0
+    safety_stock_days: float = 0.0
+
+    def order_now(self, today: date | None = None) -> bool:
+        """True when the reorder date is today or already past: order now."""
+        return self.reorder_by is not None and self.reorder_by <= (today or date.today())
+
+    def reorder_text(self, today: date | None = None) -> str:
+        """The reorder date as a reader needs it: "Order now" once it is today or past, else the date."""
+        if self.reorder_by is None:
+            return "no reorder needed"
+        return "Order now" if self.order_now(today) else self.reorder_by.isoformat()
+
+    def headline(self, today: date | None = None) -> list[str]:
+        """The answer first: the bottleneck, its days of supply, the cases possible and the reorder date.
+
+        >>> import pandas as pd
+        >>> from estimator.units import Q_
+        >>> r = SupplyReport("", date(2026, 4, 6), [], [], "isoflurane", "isoflurane", Q_(12.4, "day"), 44, {},
+        ...                  date(2026, 4, 6), pd.DataFrame(), [])
+        >>> r.headline(today=date(2026, 12, 3))
+        ['Bottleneck: isoflurane (isoflurane) - runs out after 12.4 days', 'Cases possible before then: 44 cases', 'Reorder: Order now (the reorder date 2026-04-06 has passed or is today)']
+        """
+        from ..display import text
+
+        if self.bottleneck is None or self.days_of_supply is None:
+            return ["Bottleneck: none - no supply runs out under this plan"]
+        lines = [
+            f"Bottleneck: {self.bottleneck} ({self.bottleneck_supply}) - runs out after "
+            f"{text(self.days_of_supply.to('day').magnitude, 'days')}"
+        ]
+        if self.cases_possible is not None:
+            lines.append(f"Cases possible before then: {self.cases_possible} cases")
+        if self.reorder_by is not None and self.order_now(today):
+            lines.append(f"Reorder: Order now (the reorder date {self.reorder_by.isoformat()} has passed or is today)")
+        elif self.reorder_by is not None:
+            lines.append(f"Reorder by: {self.reorder_by.isoformat()}")
+        return lines
 
     def to_json(self) -> dict[str, Any]:
         """JSON shape of ``lowflow supply --json`` (``depletion`` as columns)."""

@@ -78,7 +78,7 @@ def dial_schedule(series: pd.DataFrame, phases: list[dict[str, Any]], step: floa
 
 
 def dial_table(schedule: list[dict[str, Any]]) -> pd.DataFrame:
-    """The rows of every hold phase's table as one frame: phase, time [min], dial [%], end-tidal [%].
+    """The rows of every hold phase's table as one frame: phase (from 1), time [min], dial [%], end-tidal [%].
 
     >>> t = dial_table([{"index": 1, "table": [{"time": 8.0, "dial": 4.016, "end_tidal": 1.733}]}])
     >>> list(t.columns), t["dial [%]"].tolist(), t["end-tidal [%]"].tolist()
@@ -87,7 +87,7 @@ def dial_table(schedule: list[dict[str, Any]]) -> pd.DataFrame:
     return pd.DataFrame(
         [
             {
-                "phase": d["index"],
+                "phase": d["index"] + 1,  # numbered from 1, as the phases table shows them
                 "time [min]": r["time"],
                 "dial [%]": round(r["dial"], 2),
                 "end-tidal [%]": round(r["end_tidal"], 2),

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from typing import Any, NamedTuple
 
+from ..display import unit_label
+
 #: key of ``CaseResult.totals``, label, unit shown (pint unit text).
 TOTAL_ROWS: tuple[tuple[str, str, str], ...] = (
     ("agent_liquid", "liquid agent", "mL"),
@@ -47,7 +49,7 @@ def totals_rows(result: Any, flow_unit: str = "L/min") -> list[TotalRow]:
     Returns
     -------
     list of TotalRow
-        Values in the unit of each row; MAC-hours shown as "MAC h", inspired O2 in %.
+        Values in the unit of each row; MAC-hours shown as "MAC-h", inspired O2 in %.
 
     Examples
     --------
@@ -60,7 +62,7 @@ def totals_rows(result: Any, flow_unit: str = "L/min") -> list[TotalRow]:
     """
     t = result.totals
     rows = [
-        TotalRow(key, label, float(t[key].to(unit).magnitude), unit.replace("MAC_hour", "MAC h"))
+        TotalRow(key, label, float(t[key].to(unit).magnitude), unit_label(unit))
         for key, label, unit in TOTAL_ROWS
         if key in t
     ]

@@ -8,6 +8,8 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from estimator.display import sentence
+from estimator.display import table as readable
 from estimator.properties import AGENTS
 from estimator.simulation.dial_schedule import dial_schedule, dial_table, dial_text
 from estimator.simulation.totals_table import totals_rows
@@ -15,7 +17,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import spread_view, state
 from ..charts import show, time_course
-from ..common import download_row, downloads, flow_factor, show_warnings, unit
+from ..common import download_row, downloads, flag, flow_factor, metric, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
 
 
@@ -114,7 +116,7 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
 def totals_frame(result: Any) -> pd.DataFrame:
     """The totals table of ``lowflow case`` (estimator.simulation.totals_table), flows in the display unit."""
     rows = totals_rows(result, unit("flow"))
-    return pd.DataFrame([{"quantity": r.label, "value": r.value, "unit": r.unit} for r in rows])
+    return pd.DataFrame([{"quantity": sentence(r.label), "value": r.value, "unit": r.unit} for r in rows])
 
 
 def case_plan(result: Any) -> bytes:
@@ -157,7 +159,8 @@ def outputs(result: Any) -> None:
         f"{cost['total']:.2f}" if cost else "no prices",
         help="At the scenario's [prices] (the demo's prices are invented)",
     )
-    m[3].metric("Lowest inspired O2", f"{100 * result.minimum_inspired_oxygen.magnitude:.1f} %")
+    o2_flag = flag(result.warnings, ("HYPOXIC_INSPIRED_MIXTURE", "INSPIRED_OXYGEN_LOW"))
+    metric(m[3], "Lowest inspired O2", f"{100 * result.minimum_inspired_oxygen.magnitude:.1f} %", o2_flag)
     m[4].metric("Absorbent used", f"{t['absorbent'].to('g').magnitude:.0f} g")
     st.caption(f"Gas volumes: {GAS_VOLUME_REFERENCE}. Flows: ambient litres at the site, as a flowmeter shows.")
     band = spread_view.control()
@@ -213,15 +216,15 @@ def outputs(result: Any) -> None:
             for p in result.phases
         ]
     )
-    st.dataframe(phases, hide_index=True, width="stretch")
+    st.dataframe(readable(phases), hide_index=True, width="stretch")
     totals = totals_frame(result)
     with st.expander("All totals"):
-        st.dataframe(totals, hide_index=True, width="stretch")
+        st.dataframe(readable(totals), hide_index=True, width="stretch")
     schedule = dial_schedule(result.series, result.phases)
     if schedule:
         st.subheader("Vaporizer dial of the end-tidal holds")
         st.caption(" ".join(dial_text(schedule)))
-        st.dataframe(dial_table(schedule), hide_index=True, width="stretch")
+        st.dataframe(readable(dial_table(schedule)), hide_index=True, width="stretch")
 
     st.subheader("Download the results")
     download_row(

@@ -7,6 +7,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from estimator.display import table as readable
 from estimator.errors import InputError
 
 from .. import demo, state
@@ -55,7 +56,7 @@ def render() -> None:
         show_error(exc)
         return
     table = frame(c)
-    st.dataframe(table, hide_index=True, width="stretch")
+    st.dataframe(readable(table), hide_index=True, width="stretch")
     st.caption(
         "Agents: " + ", ".join(f"{n}: {a}" for n, a in c["agents"].items()) + ". Gas volumes: free gas at "
         "15 degC and 101.325 kPa. Cost only when every plan is priced in one currency."

@@ -11,6 +11,10 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from estimator.display import name as human_name
+from estimator.display import table as readable
+from estimator.display import text as shown
+from estimator.display import unit_label
 from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE
 
@@ -55,7 +59,15 @@ def case_fields(names: list[str], fu: str, mu: str) -> list[Field]:
 
 
 SETTINGS = [
-    Field("weeks", "Weeks to simulate", "integer", low=1, high=1040, default=52),
+    Field("weeks", "Weeks to simulate", "integer", low=1, high=1040, default=52, help="For the statistics"),
+    Field(
+        "horizon_weeks",
+        "Planning horizon [weeks]",
+        "integer",
+        low=1,
+        high=520,
+        help="13 for a quarter: its totals and orders, apart from the weeks simulated. Blank: none.",
+    ),
     Field("seed", "Random seed", "integer", low=0, high=2**31 - 1, help="The same seed gives the same weeks"),
     Field("cover", "Orders cover the percentile", dimension="fraction", unit="%", low=50.0, high=99.9, default=95.0),
 ]
@@ -76,10 +88,12 @@ def run_forecast(
 ) -> Any:
     """Forecast of a case mix: the command line's loader and forecast; named files are the ones given with it."""
     from estimator.planning.forecast import forecast
+    from estimator.planning.forecast_horizon import plan_horizon
 
     files = dict(named)
     with contracts.folder(files, files.get(contracts.PLANNER_NAMES[0])) as base:
-        return forecast(contracts.load_casemix_text(mix_text, base), progress=progress)
+        mix = contracts.load_casemix_text(mix_text, base)
+        return plan_horizon(forecast(mix, progress=progress), mix)
 
 
 def named_files(doc: dict[str, Any]) -> tuple[tuple[str, str], ...]:
@@ -125,7 +139,7 @@ def inputs() -> dict[str, Any]:
     loaded = state.document(KIND)
     doc = copy.deepcopy(loaded)
     v, fu, mu = state.version(KIND), unit("flow"), unit("mass")
-    cols = st.columns(3)
+    cols = st.columns(len(SETTINGS))
     for box, field in zip(cols, SETTINGS, strict=True):
         number(box, doc, field, f"forecast.{field.key}.{v}")
     st.markdown(
@@ -136,71 +150,112 @@ def inputs() -> dict[str, Any]:
     doc["case_types"] = table(doc.get("case_types", []), case_fields(names, fu, mu), f"forecast.types.{v}.{fu}.{mu}")
     if not doc["case_types"] and "case_types" not in loaded:
         del doc["case_types"]
-    kept_view(doc, {"weeks", "seed", "cover", "case_types"})
+    kept_view(doc, {"weeks", "horizon_weeks", "seed", "cover", "case_types"})
     state.set_document(doc, KIND)
     return doc
 
 
+def stats_table(items: dict[str, Any], units: dict[str, str]) -> pd.DataFrame:
+    """Mean, P50, P95 and P99 of each item, human names, rounded for reading."""
+    return readable(
+        pd.DataFrame(
+            [
+                {
+                    "item": human_name(k),
+                    "unit": unit_label(units.get(k, "")) or ("bottles" if k.endswith("_bottles") else ""),
+                    **{s: float(q[s].magnitude) for s in ("mean", "p50", "p95", "p99")},
+                }
+                for k, q in items.items()
+            ]
+        )
+    )
+
+
+def orders_table(orders: list[dict[str, Any]]) -> pd.DataFrame:
+    """Whole cylinders, bottles and packs to order, with the need they cover."""
+    return readable(
+        pd.DataFrame(
+            [
+                {
+                    "item": human_name(o["item"]),
+                    "order": o.get("count"),
+                    "unit": o.get("unit"),
+                    "covers": o.get("covers"),
+                    "need": None if o.get("need") is None else float(o["need"].magnitude),
+                    "need unit": "" if o.get("need") is None else unit_label(f"{o['need'].units}"),
+                    "each holds": None if o.get("per_unit") is None else float(o["per_unit"].magnitude),
+                }
+                for o in orders
+            ]
+        )
+    )
+
+
+def horizon(result: Any, currency: str) -> dict[str, pd.DataFrame]:
+    """The planning horizon first: its totals and what to order for it (when the mix sets one)."""
+    h = result.horizon
+    if not h:
+        return {}
+    st.subheader(f"Planning horizon: {h['weeks']} weeks")
+    st.caption(f"Totals over the horizon: {h['method']}.")
+    m = st.columns(3)
+    cases = h["items"]["cases"]
+    m[0].metric(f"Cases in {h['weeks']} weeks (mean)", shown(cases["mean"].magnitude))
+    m[1].metric(
+        f"Cost over {h['weeks']} weeks, P95" + (f" [{currency}]" if h["cost"] else ""),
+        shown(h["cost"]["p95"]) if h["cost"] else "no prices",
+    )
+    m[2].metric(f"CO2e over {h['weeks']} weeks (P95)", shown(h["items"]["co2e"]["p95"].to("kg").magnitude, "kg"))
+    totals = stats_table(h["items"], result.units)
+    totals.insert(0, "horizon [weeks]", h["weeks"])
+    orders = orders_table(h["orders"])
+    c1, c2 = st.columns([3, 2])
+    c1.dataframe(totals, hide_index=True, width="stretch")
+    c2.markdown(f"**Order for the {h['weeks']} weeks**")
+    c2.dataframe(orders, hide_index=True, width="stretch")
+    return {"horizon totals": totals, "horizon orders": orders}
+
+
 def outputs(result: Any) -> None:
     currency = unit("currency") or (result.cost or {}).get("currency", "")
-    items = pd.DataFrame(
-        [
-            {
-                "item": k.replace("_", " "),
-                "unit": result.units.get(k, ""),
-                **{s: float(q[s].magnitude) for s in ("mean", "p50", "p95", "p99")},
-            }
-            for k, q in result.items.items()
-        ]
-    )
+    planned = horizon(result, currency)
+    items = stats_table(result.items, result.units)
+    st.subheader(f"A week: statistics over {result.weeks} simulated weeks")
     m = st.columns(4)
     cases = result.items["cases"]
-    m[0].metric("Cases a week (mean)", f"{cases['mean'].magnitude:.1f}")
-    m[1].metric("Cases in a P95 week", f"{cases['p95'].magnitude:.0f}")
+    m[0].metric("Cases a week (mean)", shown(cases["mean"].magnitude))
+    p95 = float(cases["p95"].magnitude)
+    m[1].metric("Cases in a P95 week", shown(int(p95) if p95.is_integer() else p95))  # a count: no decimals
     m[2].metric(
         f"Cost a week, P95 [{currency}]" if result.cost else "Cost a week, P95",
-        f"{result.cost['p95']:.0f}" if result.cost else "no prices",
+        shown(result.cost["p95"]) if result.cost else "no prices",
     )
-    m[3].metric("CO2e a week (P95)", f"{result.items['co2e']['p95'].to('kg').magnitude:.0f} kg")
-    st.subheader("Weekly demand")
+    m[3].metric("CO2e a week (P95)", shown(result.items["co2e"]["p95"].to("kg").magnitude, "kg"))
     st.dataframe(items, hide_index=True, width="stretch")
     st.caption(f"Gas: {GAS_VOLUME_REFERENCE}. Nitrous oxide in kg (it is bought by weight).")
     choices = [k for k in result.weekly if k != "cases"]
     pick = st.selectbox(
-        "Distribution over the simulated weeks of",
-        choices,
-        key="forecast.pick",
-        format_func=lambda k: k.replace("_", " "),
+        "Distribution over the simulated weeks of", choices, key="forecast.pick", format_func=human_name
     )
-    unit_ = result.units.get(pick, "")
-    title = f"{pick.replace('_', ' ')} a week" + (f" [{unit_}]" if unit_ else "")
+    unit_ = unit_label(result.units.get(pick, ""))
+    title = f"{human_name(pick)} a week" + (f" [{unit_}]" if unit_ else "")
     show(histogram(result.weekly[pick], title, "weeks"))
-    st.subheader("Orders")
-    orders = pd.DataFrame(
-        [
-            {
-                "item": o["item"].replace("_", " "),
-                "order": o.get("count"),
-                "unit": o.get("unit"),
-                "covers": o.get("covers"),
-                "need": None if o.get("need") is None else float(o["need"].magnitude),
-                "need unit": "" if o.get("need") is None else f"{o['need'].units:~P}",
-                "each holds": None if o.get("per_unit") is None else float(o["per_unit"].magnitude),
-            }
-            for o in result.orders
-        ]
-    )
+    st.markdown("**Orders that cover a bad week**")
+    orders = orders_table(result.orders)
     st.dataframe(orders, hide_index=True, width="stretch")
     st.subheader("Warnings")
     show_warnings(result.warnings, empty="No forecast warnings.")
     weekly = pd.DataFrame({"week": range(1, result.weeks + 1), **{k: v for k, v in result.weekly.items()}})
+    notes = [f"{result.weeks} simulated weeks. Gas volumes: {GAS_VOLUME_REFERENCE}."]
+    if result.horizon:
+        notes.insert(0, f"Planning horizon: {result.horizon['weeks']} weeks ({result.horizon['method']}).")
     downloads(
         "demand_forecast",
-        {"items": items, "orders": orders, "weekly": weekly},
+        {**planned, "items": items, "orders": orders, "weekly": weekly},
         result.to_json,
         "forecast",
         title="Demand forecast",
-        notes=[f"{result.weeks} simulated weeks. Gas volumes: {GAS_VOLUME_REFERENCE}."],
+        notes=notes,
         warnings=result.warnings,
     )
 

@@ -10,6 +10,7 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
+from estimator.display import table as readable
 from estimator.errors import InputError
 from estimator.units import GAS_VOLUME_REFERENCE
 
@@ -252,7 +253,7 @@ def render() -> None:
     )
     for col, (key, label, u, digits, help_text) in zip(m[1:], USE_METRICS, strict=True):
         col.metric(*use_metric(cmp_, key, label, u, digits), delta_color="off", help=help_text)
-    st.dataframe(schedule_table(result), hide_index=True, width="stretch")
+    st.dataframe(readable(schedule_table(result)), hide_index=True, width="stretch")
     if st.button(
         "Use this schedule on the case planner",
         key="floor.apply",
@@ -263,7 +264,7 @@ def render() -> None:
         st.success("The case planner now uses the recommended schedule.", icon=":material/check:")
     st.subheader("Lowest safe flow per phase")
     table = phase_table(result)
-    st.dataframe(table, hide_index=True, width="stretch")
+    st.dataframe(readable(table), hide_index=True, width="stretch")
     st.subheader("Flow floor over time")
     show(chart(result, plan))
     st.caption(
