@@ -147,3 +147,22 @@ def test_date_marks_follow_the_vega_lite_schema():
         spec, [("2026-04-06", "reorder by"), ("2026-04-07", "runs out")], ("2026-04-06", "2026-04-07", "lead")
     )
     validate_jsonschema(marked, load_schema())
+
+
+def test_a_kept_stock_compares_with_the_stock_as_edited():
+    # "This month's stock or next": keep the stock, add absorbent, and the page shows the kept stock
+    # beside the edited one with the figures `lowflow compare --stock` gives (compare_stocks).
+    at = page("supply_duration")
+    assert_clean(at)
+    at.button(key="supply.keep").click().run()
+    before = number(metric(at, "Days of supply"))
+    at.number_input(key="supply.absorbent.stock.0").set_value(20.0).run()
+    assert_clean(at)
+    table = at.dataframe[-1].value
+    days = table[table["quantity"] == "days of supply"].iloc[0]
+    assert number(str(days["kept"])) == pytest.approx(before, rel=0.01)
+    assert number(str(days["now"])) >= number(str(days["kept"]))  # more absorbent never shortens the supply
+    absorbent = table[table["quantity"].str.contains("absorbent")].iloc[0]
+    assert number(str(absorbent["now"])) > number(str(absorbent["kept"]))
+    at.button(key="supply.forget").click().run()
+    assert_clean(at)

@@ -1,7 +1,9 @@
-"""Compare plans: two or more cases side by side (``estimator.planning.compare``, as ``lowflow compare``)."""
+"""Compare plans: two or more cases side by side (``estimator.planning.compare``, as ``lowflow compare``);
+and, on the supply page, a kept stock beside the stock as it now stands (as ``lowflow compare --stock``)."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 import pandas as pd
@@ -14,6 +16,8 @@ from .. import demo, state
 from ..common import downloads, show_error, show_warnings
 
 PLANNER = "case planner"
+#: Session key of the stock kept on the supply page: (inventory text, the scenario texts it names).
+KEPT_STOCK = "supply.kept"
 
 
 def frame(c: dict[str, Any]) -> pd.DataFrame:
@@ -21,13 +25,41 @@ def frame(c: dict[str, Any]) -> pd.DataFrame:
     names = c["plans"]
     rows = []
     for r in [*c["rows"], *([c["cost"]] if c["cost"] else [])]:
-        row = {"quantity": r["label"], "unit": r["unit"], **{n: round(r["values"][n], 2) for n in names}}
+        row = {"quantity": r["label"], "unit": r["unit"], **{n: _rounded(r["values"][n]) for n in names}}
         for n in names[1:]:
-            row[f"{n} - {names[0]}"] = round(r["change"][n], 2)
+            row[f"{n} - {names[0]}"] = _rounded(r["change"][n])
             pct = r["change_percent"][n]
             row[f"{n} - {names[0]} [%]"] = None if pct is None else round(pct, 1)
         rows.append(row)
     return pd.DataFrame(rows)
+
+
+def _rounded(v: float | None) -> float | None:
+    return None if v is None else round(v, 2)
+
+
+def stock_comparison(current: tuple[str, tuple[tuple[str, str], ...]], report: Any, run: Callable[..., Any]) -> None:
+    """The supply page's comparison: keep the stock as it stands, change it (next month's deliveries, a
+    cylinder more), and see days of supply, cases possible and each item's days beside the kept stock."""
+    from estimator.planning.compare import compare_stocks
+
+    st.subheader("Compare with a kept stock")
+    c1, c2 = st.columns(2)
+    if c1.button("Keep this stock for comparison", key="supply.keep"):
+        st.session_state[KEPT_STOCK] = current
+    kept = st.session_state.get(KEPT_STOCK)
+    if kept is not None and c2.button("Forget the kept stock", key="supply.forget"):
+        del st.session_state[KEPT_STOCK]
+        kept = None
+    if kept is None:
+        st.caption("Keep the stock as it stands, change it (next month's deliveries), and the difference shows here.")
+        return
+    c = compare_stocks({"kept": run(*kept), "now": report})
+    st.dataframe(readable(frame(c)), hide_index=True, width="stretch")
+    st.caption(
+        "; ".join(f"{n}: bottleneck {c['bottleneck'][n] or 'none'}, reorder {c['reorder'][n]}" for n in c["plans"])
+        + ". The same supply plan as `lowflow supply` and `lowflow compare --stock`."
+    )
 
 
 def texts(chosen: list[str]) -> dict[str, str]:

@@ -352,8 +352,12 @@ def render() -> None:
     )
     doc = inputs()
     state.save_button(st, KIND, doc)
-    report = run_supply(
+    current = (
         contracts.toml_text(doc),
         tuple(sorted(contracts.case_scenarios(doc, state.files(KIND), state.toml_text()).items())),
     )
+    report = run_supply(*current)
     outputs(report)
+    from .compare_plans import stock_comparison
+
+    stock_comparison(current, report, run_supply)
