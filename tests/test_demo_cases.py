@@ -123,27 +123,28 @@ def end_tidal_to_fresh_gas(doc: dict, start: float, end: float) -> float:
 
 
 # ------------------------------------------------------------------ headline numbers of the cases
-#: file -> pinned totals, cost total (None: no prices), lowest inspired O2, warning codes.
+#: file -> pinned totals, cost total (None: no prices), lowest inspired O2 (from the first minute on, as the
+#: warnings judge it), warning codes.
 HEADLINES = {
     "kestrel_lap_chole.toml": (
         {"agent_liquid": 13.47, "oxygen": 91.41, "air": 37.35, "co2e": 3.947, "mac_hours": 1.319},
         6.683,
-        0.334,
+        0.3375,
         [],
     ),
     "kestrel_desflurane_bariatric.toml": (
         {"agent_liquid": 43.12, "oxygen": 119.9, "co2e": 163.6},
         29.86,
-        0.266,
+        0.364,
         [],
     ),
     "kestrel_nitrous_dental.toml": (
         {"nitrous_oxide": 68.81, "oxygen": 74.70, "agent_liquid": 5.691, "co2e": 39.56},
         3.295,
-        0.253,
+        0.274,
         ["INSPIRED_OXYGEN_LOW"],
     ),
-    "highland_mobile_team.toml": ({"agent_liquid": 13.22, "oxygen": 103.6}, None, 0.428, ["FLOWMETER_ACCURACY"]),
+    "highland_mobile_team.toml": ({"agent_liquid": 13.22, "oxygen": 103.6}, None, 0.652, ["FLOWMETER_ACCURACY"]),
     "paediatric_4y_16kg.toml": ({"agent_liquid": 15.02, "oxygen": 60.45, "mac_hours": 0.945}, None, 0.556, []),
     "paediatric_infant_warning.toml": (
         {"agent_liquid": 9.147},

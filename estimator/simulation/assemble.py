@@ -179,7 +179,7 @@ def build_result(case: CaseSetup, segments: list[Segment]) -> CaseResult:
         totals,
         series,
         warns,
-        Q_(float(fio2.min()), "dimensionless"),
+        Q_(float(fio2[judged].min()), "dimensionless"),  # judged as the warnings and the batch judge it
         phases,
         balance,
         steps,

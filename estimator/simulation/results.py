@@ -28,8 +28,8 @@ if TYPE_CHECKING:
 #: Water-vapour pressure of inspired gas warmed to 37 degC, for PiO2 [kPa] (estimator.constants).
 P_H2O = WATER_VAPOUR_37C_KPA
 #: Inspired O2 is judged from this case time on [min]: over the first minute a circuit of room air is
-#: still filling with fresh gas at any flow (a modelling choice; the minimum over the whole series is
-#: still reported as ``minimum_inspired_oxygen``).
+#: still filling with fresh gas at any flow (a modelling choice). The warnings, ``minimum_inspired_oxygen``
+#: of a case and of the batch engine (estimator.numerics.rkc) all use it, so they name one value.
 SETTLE = 1.0
 #: Default inspired O2 advisory threshold at low flow (the registry's INSPIRED_OXYGEN_FLOOR).
 FIO2_ADVISORY = INSPIRED_OXYGEN_FLOOR
@@ -80,6 +80,8 @@ class CaseResult:
     warnings : list[tuple[str, str]]
         ``(code, message)`` pairs.
     minimum_inspired_oxygen : pint.Quantity
+        Lowest inspired O2 fraction from :data:`SETTLE` on (the first minute of a room-air circuit is
+        left out, as the warnings leave it out) [dimensionless].
     phases : list[dict]
         Per phase: index, start, end and, for an end-tidal hold, when the target was reached.
     balance : dict[str, dict[str, float]]
