@@ -79,7 +79,7 @@ def integrate_phase(y0, p, t_out, rtol, atol, h0, max_steps):
     ys = np.empty((m, NY))
     ys[0] = y0
     stats = np.zeros(3, dtype=np.int64)
-    w = np.empty(NW)
+    w = np.zeros(NW)
     k = np.empty((7, NY))
     y = y0.copy()
     ytmp = np.empty(NY)

@@ -99,7 +99,7 @@ def rkc_phase(y, p, span, rtol, atol, h, work, z, stats):
     the last accepted step [min].
     """
     n = c.NY
-    w = np.empty(c.NW)
+    w = np.zeros(c.NW)
     yn, fn, yjm1, yjm2, ynew, fnew, v = work[0], work[1], work[2], work[3], work[4], work[5], work[6]
     fz = np.empty(n)
     c.rhs(y, p, w, fn)
@@ -162,12 +162,12 @@ def rkc_phase(y, p, span, rtol, atol, h, work, z, stats):
             c.rhs(yjm1, p, w, fnew)
             for i in range(n):
                 ynew[i] = mu * yjm1[i] + nu * yjm2[i] + (1.0 - mu - nu) * yn[i] + h * mus * (fnew[i] - ajm1 * fn[i])
-                yjm2[i] = yjm1[i]
-                yjm1[i] = ynew[i]
+            yjm2, yjm1, ynew = yjm1, ynew, yjm2  # the three stage buffers rotate instead of being copied
             bjm2, bjm1 = bjm1, bj
             zjm2, zjm1 = zjm1, zj
             dzjm2, dzjm1 = dzjm1, dzj
             d2zjm2, d2zjm1 = d2zjm1, d2zj
+        ynew, yjm1 = yjm1, ynew  # the last stage is the new solution
         c.rhs(ynew, p, w, fnew)  # also leaves the flows of the new state in w
         stats[2] += m
         err = 0.0
