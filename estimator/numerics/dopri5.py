@@ -28,7 +28,7 @@ import numpy as np
 
 from ..physics.circuit import NW, NY, rhs
 
-_jit = numba.njit(cache=True, fastmath=False, nogil=True)
+_jit = numba.njit(cache=True, fastmath=False, nogil=True, error_model="numpy")
 
 #: Dormand-Prince 5(4) tableau (Dormand and Prince 1980; Hairer et al. 1993, Table II.5.2).
 _C = np.array([0.0, 1 / 5, 3 / 10, 4 / 5, 8 / 9, 1.0, 1.0])

@@ -119,7 +119,7 @@ MODE_DIAL, MODE_HOLD = 0.0, 1.0
 #: at any FA,O2 above 0.05 the limiter is exactly 1 to 1e-4).
 O2_LIMIT_SCALE = 0.005
 
-_jit = numba.njit(cache=True, fastmath=False, nogil=True)
+_jit = numba.njit(cache=True, fastmath=False, nogil=True, error_model="numpy")  # no zero-division checks
 
 
 @_jit
