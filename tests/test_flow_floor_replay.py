@@ -21,7 +21,7 @@ from test_safety_search import LONG, NITROUS_CONCENTRATOR
 from estimator.inputs.scenario import load_scenario, scenario_from_dict
 from estimator.limits import TARGET_BAND
 from estimator.physics import circuit as c
-from estimator.planning import floor_grid, safety
+from estimator.planning import floor_grid, floor_settings, safety
 from estimator.planning.floor_settings import settings_from, with_flows
 from estimator.simulation import engine
 from estimator.simulation.case_setup import prepare
@@ -190,3 +190,16 @@ def test_the_engine_check_catches_a_grid_left_unmended(monkeypatch):
         assert repairs == 0
         seen |= {code for b in broken for code in b}
     assert {"INSPIRED_O2", "TARGET_REACH"} <= seen, seen
+
+
+def test_a_step_that_no_raise_mends_reports_no_floor_and_the_limit(monkeypatch):
+    # With the search at the lowest setting and every raise refused, a failing step is not published
+    # with a floor: it reports none and the limit its replay breaks, and judging starts after it.
+    monkeypatch.setattr(floor_grid.PhaseGrid, "_search", lambda self, y, t0, t1, mac: (0, "FLOWMETER_MINIMUM"))
+    monkeypatch.setattr(floor_grid.PhaseGrid, "_raise", lambda self, s: False)
+    sc = dict(SHORT)["kestrel_lap_chole"]
+    pl = safety.Planner(sc, settings_from(sc))
+    ph = sc.phases[0]
+    steps = floor_grid.PhaseGrid(pl, ph, pl.y0, 0.0, ph.duration.to("min").magnitude).steps()
+    failed = [s for s in steps if s.idx is None]
+    assert failed and all(s.binding in floor_settings.LIMITS for s in failed)

@@ -56,6 +56,10 @@ from .floor_settings import CHECK_INTERVAL, Window, judge, static_failures
 #: value only sets how often the replay has to raise a step (it does not make the floor safe: the
 #: replay does); chosen as a round value, common practice, no source.
 LOOK_AHEAD = 30.0
+#: Raises allowed per grid step of a phase, plus twice the number of candidates, before the repair gives
+#: up (the step then reports no floor): keeps the replay linear where no setting mends a phase (a
+#: numerical bound, no source).
+REPAIRS_PER_STEP = 4
 _LABEL = "sevoflurane_us_label"
 
 
@@ -110,6 +114,7 @@ class PhaseGrid:
         self.edges = edges
         self.y0 = y0
         self.repairs = 0
+        self.cap = REPAIRS_PER_STEP * len(edges) + 2 * len(self.cands)
 
     # -- the search of one step ------------------------------------------------------------------
     def _horizon(self, t1: float) -> float:
@@ -195,7 +200,7 @@ class PhaseGrid:
         j = k
         while failed:
             self.repairs += 1
-            if self._raise(steps[j]):
+            if self.repairs <= self.cap and self._raise(steps[j]):
                 steps[j].binding = failed[0]
                 for i in range(j, k + 1):  # replay from the raised step with the later steps as they are
                     if i > j:
@@ -203,7 +208,7 @@ class PhaseGrid:
                     self._play(steps[i])
                 failed = self._failures(steps, origin, final)
                 j = k
-            elif j > origin and steps[j - 1].idx is not None:
+            elif self.repairs <= self.cap and j > origin and steps[j - 1].idx is not None:
                 j -= 1
             else:  # no raise mends it: the last step reports no floor and judging starts after it
                 steps[k].idx, steps[k].binding = None, failed[0]
