@@ -28,7 +28,7 @@ import numpy as np
 
 from ..physics.circuit import NW, NY, rhs
 
-_jit = numba.njit(cache=True, fastmath=False, nogil=True)
+_jit = numba.njit(cache=True, fastmath=False, nogil=True, error_model="numpy")
 
 #: Dormand-Prince 5(4) tableau (Dormand and Prince 1980; Hairer et al. 1993, Table II.5.2).
 _C = np.array([0.0, 1 / 5, 3 / 10, 4 / 5, 8 / 9, 1.0, 1.0])
@@ -79,10 +79,11 @@ def integrate_phase(y0, p, t_out, rtol, atol, h0, max_steps):
     ys = np.empty((m, NY))
     ys[0] = y0
     stats = np.zeros(3, dtype=np.int64)
-    w = np.empty(NW)
+    w = np.zeros(NW)
     k = np.empty((7, NY))
     y = y0.copy()
     ytmp = np.empty(NY)
+    e_i = np.empty(NY)  # error terms
     t = t_out[0]
     rhs(y, p, w, k[0])
     stats[2] += 1
@@ -116,23 +117,28 @@ def integrate_phase(y0, p, t_out, rtol, atol, h0, max_steps):
         if t + h >= t_next - tiny:
             h = t_next - t
             last = True
+        # Loops over the states innermost (vectorised), summing the stages in the same order as before.
         for s in range(1, 7):
             for i in range(NY):
-                acc = y[i]
-                for r in range(s):
-                    acc += h * _A[s, r] * k[r, i]
-                ytmp[i] = acc
+                ytmp[i] = y[i]
+            for r in range(s):
+                a = h * _A[s, r]
+                for i in range(NY):
+                    ytmp[i] += a * k[r, i]
             rhs(ytmp, p, w, k[s])
         stats[2] += 6
         # The 7th stage is evaluated at the 5th-order solution (first same as last).
+        for i in range(NY):
+            e_i[i] = 0.0
+        for r in range(7):
+            for i in range(NY):
+                e_i[i] += _E[r] * k[r, i]
+        for i in range(NY):
+            e = e_i[i] * h / (atol[i] + rtol * max(abs(y[i]), abs(ytmp[i])))
+            e_i[i] = e * e
         err = 0.0
         for i in range(NY):
-            e = 0.0
-            for r in range(7):
-                e += _E[r] * k[r, i]
-            e *= h
-            sc = atol[i] + rtol * max(abs(y[i]), abs(ytmp[i]))
-            err += (e / sc) ** 2
+            err += e_i[i]
         err = math.sqrt(err / NY)
         if err <= 1.0:
             t = t_next if last else t + h

@@ -119,7 +119,7 @@ MODE_DIAL, MODE_HOLD = 0.0, 1.0
 #: at any FA,O2 above 0.05 the limiter is exactly 1 to 1e-4).
 O2_LIMIT_SCALE = 0.005
 
-_jit = numba.njit(cache=True, fastmath=False, nogil=True)
+_jit = numba.njit(cache=True, fastmath=False, nogil=True, error_model="numpy")  # no zero-division checks
 
 
 @_jit
@@ -207,7 +207,7 @@ def _flows_at(u, y, p, w, carrier, unet):
 
 #: Convergence of the hold dial: a Newton step ``|du| <= HOLD_ATOL + HOLD_STEP u`` (the error after it is about its
 #: square), else the residual <= HOLD_ATOL + HOLD_RTOL u, within HOLD_MAXIT trials (numerical choices, no source).
-HOLD_STEP, HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-10, 1e-12, 1e-16, 60
+HOLD_STEP, HOLD_RTOL, HOLD_ATOL, HOLD_MAXIT = 1e-6, 1e-12, 1e-16, 60
 
 
 @_jit
@@ -219,8 +219,8 @@ def _hold_dial(y, p, w, carrier, unet):
     ``law(u)`` that moves the inspired fraction there with time constant ``tau_C``. The flows depend on ``u`` itself
     (the agent adds to the fresh-gas flow), so the dial is the root of ``min(max(law(u), 0), umax) - u`` on [0, umax]
     (>= 0 at 0, <= 0 at umax). Solved by Newton steps in ``x = u / (1 - u)``, in which the fresh-gas flow and every
-    inspired, expired and end-tidal fraction are linear; where that root is not inside (0, umax), or another branch
-    of the law holds there, by the Illinois method on the bracket [0, umax].
+    inspired, expired and end-tidal fraction are linear, from the dial ``w`` last held (a neighbouring state's); where
+    that root is not inside (0, umax), or another branch of the law holds there, by the Illinois method on [0, umax].
     """
     umax, va, vdalv, va_out, fc, fa = p[P_UMAX], p[P_VA], p[P_VDALV], w[W_VAOUT], y[Y_FC + AGENT], y[Y_FA + AGENT]
     vd, nc_t, k = vdalv + p[P_VDANAT], p[P_NC] / p[P_TAU_C], p[P_NL] / (p[P_TAU_L] * va)
@@ -239,7 +239,7 @@ def _hold_dial(y, p, w, carrier, unet):
         t0, t1 = p[P_TARGET_MAC] * p[P_MAC_AGENT] - mac * fet0, mac * vdalv * a * fcn * inv_et
     s0, s1 = c0 + c1 * t0 - c2 * (fc - a), c1 * t1 - c2 * a * (1.0 - fc)
     air_gain, n_back, cf = 1.0 - p[P_MAKEUP_AIR], va + vd + leaks, (1.0 - kf) * carrier
-    x = 0.0
+    x = w[W_U] / (1.0 - w[W_U]) if 0.0 < w[W_U] < umax else 0.0  # from the workspace's last dial (0 when fresh)
     for _ in range(HOLD_MAXIT):
         v = 1.0 + x
         inv_d, keep, needed = 1.0 / (1.0 - e0 - e1 * v), 1.0 - a * v, n_back - carrier * v  # 1 / (1 - fe_co2)
@@ -374,7 +374,7 @@ def derived_series(ys, p):
     """Flows and fractions (``W_*`` layout) at every stored state, shape (m, NW)."""
     m = ys.shape[0]
     out = np.empty((m, NW))
-    w = np.empty(NW)
+    w = np.zeros(NW)
     for i in range(m):
         flows(ys[i], p, w)
         out[i] = w

@@ -20,15 +20,17 @@ which every limit holds from the start to the end of the phase:
   at most 2 MAC-hours at 1 to < 2 L/min.
 
 Phases are taken in order: each phase's floor starts from the state the previous phase left *at its
-floor*, so the floors together form the recommended schedule. On a time grid (default 5 min) the
-floor at time t answers "from t, how low may I go until the phase ends?" on the user's own plan.
+floor*, so the floors together form the recommended schedule. On a time grid (default 5 min) each
+phase of the user's own plan gets a floor schedule (:mod:`estimator.planning.floor_grid`): from the
+state the plan reaches at the phase start, the lowest setting at every grid time, each step found by
+look-ahead trials and the whole phase then replayed end to end (a step whose replay breaks a limit
+is raised), so the cost grows linearly with the case length.
 Limits are monotone in total flow (more flow: less deficit, faster wash-in), so each floor is
 found by bisection over the settable candidates; the binding limit is the one that fails at the
 next setting below the floor. Inspired O2 is not always monotone along the candidates: rounding to
-the scale can add N2O or air at the same O2 flow, so a setting may fail above one that passes. The
-floor is therefore never taken from a neighbouring grid point's floor (that could report a lower
-floor than the bisection, with a failing setting above it); a failing trial is stopped at its first
-failure no later minute can undo, a passing one always runs to the phase end.
+the scale can add N2O or air at the same O2 flow, so a setting may fail above one that passes (each
+phase reports such settings in ``failing_above``). A failing trial is stopped at its first failure
+no later minute can undo, a passing one always runs to the end of its phase (or its look-ahead).
 
 References
 ----------
@@ -53,6 +55,7 @@ from ..simulation import engine
 from ..simulation.assemble import Segment
 from ..simulation.case_setup import prepare
 from ..units import Q_
+from .floor_grid import flow_floor_grid
 from .floor_settings import (  # noqa: F401 (re-exported: the scale helpers, settings_from, Check, CHECK_INTERVAL)
     CHECK_INTERVAL,
     DEFAULT_SCALE,
@@ -336,7 +339,7 @@ def flow_floor(
         y = chk.end_state
         t += dur
     if grid:
-        grid_out = _grid(pl, scenario, live)
+        grid_out = flow_floor_grid(pl, live)
     rec = scenario.model_copy(update={"phases": new_phases})
     rec_result = engine.simulate(rec)
     comparison = _compare(plan, rec_result)
@@ -344,26 +347,6 @@ def flow_floor(
     result.warnings = advisories(scenario, st, plan, phases_out) + raised
     result.schedule_text = schedule_text(schedule)
     return result
-
-
-def _grid(pl: Planner, scenario: Scenario, live) -> list[dict[str, Any]]:
-    """Floor from each grid time to the end of its phase, on the user's planned trajectory."""
-    out, y, t = [], pl.y0.copy(), 0.0
-    for _, ph in live:
-        dur = ph.duration.to("min").magnitude
-        seg = pl.run(ph, y, t, t + dur, pl.st.grid)
-        times, ys = seg.times, seg.states
-        for tg, yg in zip(times[:-1], ys[:-1], strict=True):
-            res = pl.floor(ph, yg, tg, t, t + dur, need="first")
-            out.append(
-                {
-                    "time": Q_(float(tg), "min"),
-                    "floor": Q_(float(sum(res.flows)), "L/min") if res.flows else None,
-                    "binding": res.binding[0] if res.binding else None,
-                }
-            )
-        y, t = ys[-1].copy(), t + dur
-    return out
 
 
 def _compare(plan, rec) -> dict[str, Any]:

@@ -156,7 +156,7 @@ def reference_solve(
     model = c if model is None else model
     case = prepare(scenario)
     y = case.initial
-    w = np.empty(c.NW)
+    w = np.zeros(c.NW)  # the hold dial's Newton starts from the last dial held here
     derived = []
     for ph in case.phases:
         p = ph.parameters

@@ -182,7 +182,7 @@ def chart(result: Any, plan: Any) -> alt.Chart:
             {
                 "time": g["time"].to("min").magnitude,
                 "value": None if g["floor"] is None else g["floor"].to("L/min").magnitude * f,
-                "series": "flow floor from this time",
+                "series": "floor schedule on the plan",
                 "binding": g["binding"] or "-",
             }
             for g in result.grid
