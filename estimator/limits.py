@@ -48,6 +48,10 @@ INSPIRED_OXYGEN_FLOOR = 0.30
 #: Below room air a mixture is hypoxic (HYPOXIC_INSPIRED_MIXTURE); no flow-floor threshold may go
 #: below it (definition: the O2 fraction of dry room air, 0.2095, rounded).
 HYPOXIC_FRACTION = 0.21
+#: Inspired O2 is judged from this case time on [min]: over the first minute a circuit of room air is
+#: still filling with fresh gas at any flow (a modelling choice). The warnings, a case's lowest inspired
+#: O2, the batch engine (estimator.numerics.rkc) and the flow floor all judge from it.
+INSPIRED_OXYGEN_SETTLE = 1.0
 #: End-tidal within this share of the hold target counts as reached (common practice, no source:
 #: agent analysers read to about +-0.1 vol% or 5 % of reading, ISO 80601-2-55).
 TARGET_BAND = 0.02

@@ -1,5 +1,6 @@
-"""``lowflow compare A.toml B.toml ...``: plans (or, with ``--stock``, stocks) side by side, with their
-differences from the first."""
+"""``lowflow compare A.toml B.toml ...``: plans, or stocks with ``--stock``, side by side.
+
+Each with its differences from the first (the baseline)."""
 
 from __future__ import annotations
 

@@ -33,6 +33,7 @@ import math
 import numba
 import numpy as np
 
+from ..limits import INSPIRED_OXYGEN_SETTLE
 from ..physics import circuit as c
 
 #: States the right-hand side reads (circuit, lungs, blood, tissues); the rest are running totals.
@@ -205,7 +206,7 @@ def rkc_phase(y, p, span, rtol, atol, h, work, z, stats):
         for i in range(n):
             y[i] = ynew[i]
             fn[i] = fnew[i]
-        if work[7, 1] >= 1.0 and w[c.W_FI + c.O2] < work[7, 0]:
+        if work[7, 1] >= INSPIRED_OXYGEN_SETTLE and w[c.W_FI + c.O2] < work[7, 0]:
             work[7, 0] = w[c.W_FI + c.O2]
         fac = 10.0
         if first:

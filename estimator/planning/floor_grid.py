@@ -72,9 +72,10 @@ class _Step:
     start: np.ndarray
     idx: int | None
     binding: str | None
-    times: np.ndarray | None = None
-    ws: np.ndarray | None = None
-    end: np.ndarray | None = None
+    # the replay (set by ``_play``; empty until then)
+    times: np.ndarray = dataclasses.field(default_factory=lambda: np.empty(0))
+    ws: np.ndarray = dataclasses.field(default_factory=lambda: np.empty(0))
+    end: np.ndarray = dataclasses.field(default_factory=lambda: np.empty(0))
     mac: float = 0.0  # MAC-minutes over the step
 
 

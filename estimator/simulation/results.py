@@ -17,7 +17,7 @@ import pint
 
 from ..accounts.accounting import litres_per_mmol  # noqa: F401 (re-exported)
 from ..constants import WATER_VAPOUR_37C_KPA
-from ..limits import INSPIRED_OXYGEN_FLOOR, TARGET_BAND  # noqa: F401 (TARGET_BAND re-exported)
+from ..limits import INSPIRED_OXYGEN_FLOOR, INSPIRED_OXYGEN_SETTLE, TARGET_BAND  # noqa: F401 (TARGET_BAND re-exported)
 from ..properties import CO2E_BASES
 from ..units import GAS_VOLUME_REFERENCE
 
@@ -27,10 +27,8 @@ if TYPE_CHECKING:
 
 #: Water-vapour pressure of inspired gas warmed to 37 degC, for PiO2 [kPa] (estimator.constants).
 P_H2O = WATER_VAPOUR_37C_KPA
-#: Inspired O2 is judged from this case time on [min]: over the first minute a circuit of room air is
-#: still filling with fresh gas at any flow (a modelling choice). The warnings, ``minimum_inspired_oxygen``
-#: of a case and of the batch engine (estimator.numerics.rkc) all use it, so they name one value.
-SETTLE = 1.0
+#: Inspired O2 is judged from this case time on [min] (estimator.limits.INSPIRED_OXYGEN_SETTLE).
+SETTLE = INSPIRED_OXYGEN_SETTLE
 #: Default inspired O2 advisory threshold at low flow (the registry's INSPIRED_OXYGEN_FLOOR).
 FIO2_ADVISORY = INSPIRED_OXYGEN_FLOOR
 

@@ -1,5 +1,6 @@
-"""Compare plans: two or more cases side by side (``estimator.planning.compare``, as ``lowflow compare``);
-and, on the supply page, a kept stock beside the stock as it now stands (as ``lowflow compare --stock``)."""
+"""Compare plans: two or more cases side by side (``estimator.planning.compare``, as ``lowflow compare``).
+
+Also, for the supply page, a kept stock beside the stock as it now stands (as ``lowflow compare --stock``)."""
 
 from __future__ import annotations
 
