@@ -78,7 +78,7 @@ class CaseResult:
     warnings : list[tuple[str, str]]
         ``(code, message)`` pairs.
     minimum_inspired_oxygen : pint.Quantity
-        Lowest inspired O2 fraction from :data:`SETTLE` on (the first minute of a room-air circuit is
+        Lowest inspired O2 fraction from ``SETTLE`` on (the first minute of a room-air circuit is
         left out, as the warnings leave it out) [dimensionless].
     phases : list[dict]
         Per phase: index, start, end and, for an end-tidal hold, when the target was reached.
