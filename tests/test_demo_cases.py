@@ -478,7 +478,10 @@ def test_high_site_flow_floor_threshold(cli):
     )
     assert [p["floor"]["magnitude"] for p in doc["phases"]] == pytest.approx([2.0, 0.4, 2.5], abs=1e-9)
     codes = {w["code"] for w in doc["warnings"]}
-    assert {"ARGON_ACCUMULATION", "INSPIRED_OXYGEN_LOW"} <= codes
+    assert "ARGON_ACCUMULATION" in codes
+    # The plan holds inspired O2 near 65 % from the first minute on (the room-air circuit of minute 0 is
+    # not judged, as the case's own warnings do not judge it): no low-O2 advisory.
+    assert "INSPIRED_OXYGEN_LOW" not in codes and mag(doc, "threshold_inspired_oxygen") < 0.65
 
 
 # ------------------------------------------------------------------ paediatric list

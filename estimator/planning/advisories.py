@@ -22,6 +22,7 @@ import numpy as np
 from ..limits import (
     ARGON_LIMIT,
     COMPOUND_A_FLOW,
+    INSPIRED_OXYGEN_SETTLE,
     LABEL_MAC_HOURS,
     LABEL_MIDDLE_FLOW,
     LABEL_MINIMUM_FLOW,
@@ -36,16 +37,18 @@ def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[s
     """Advisories for a plan given its simulated result and its flow floors."""
     out: list[tuple[str, str]] = []
     s = plan.series
-    fio2 = s["inspired_oxygen [%]"].to_numpy() / 100
     fgf = s["fresh_gas_flow [L/min]"].to_numpy()
     t = s["time [min]"].to_numpy()
+    judged = t >= INSPIRED_OXYGEN_SETTLE  # as the case's own warnings judge it (the first minute left out)
+    judged[-1] = True
+    fio2 = s["inspired_oxygen [%]"].to_numpy()[judged] / 100
     codes = {c for c, _ in plan.warnings}
     if fio2.min() < st.threshold:
         out.append(
             (
                 "INSPIRED_OXYGEN_LOW",
                 f"the plan lets inspired O2 fall to {100 * fio2.min():.1f} % (threshold {100 * st.threshold:.0f} %) "
-                f"at {t[np.argmin(fio2)]:.0f} min. Raise the O2 share or the flow; monitor inspired O2 "
+                f"at {t[judged][np.argmin(fio2)]:.0f} min. Raise the O2 share or the flow; monitor inspired O2 "
                 f"continuously with its low alarm set. {LOCAL}",
             )
         )
