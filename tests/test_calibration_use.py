@@ -81,6 +81,24 @@ def test_report_has_the_scatter(made, tmp_path):
     assert "Prediction check and calibration" in html and "line of identity" in html and "<circle" in html
 
 
+def test_workbook_has_the_prediction_check_and_the_factors(made, tmp_path):
+    # The XLSX export carries what the JSON and the report carry: one row a case checked, one an agent.
+    import pandas as pd
+
+    _, log, _ = made
+    book = tmp_path / "audit.xlsx"
+    main_ok(["audit", str(log), "--calibrate", "--xlsx", str(book)])
+    sheets = pd.read_excel(book, sheet_name=None)
+    check, agents = sheets["prediction check"], sheets["calibration"]
+    assert len(check) == 24 and set(check["agent"]) == {"sevoflurane"}
+    assert (check["recorded / predicted"] - check["recorded [mL]"] / check["predicted [mL]"]).abs().max() < 1e-9
+    row = agents.set_index("agent").loc["sevoflurane"]
+    assert row["factor, 95 % low"] <= FACTOR <= row["factor, 95 % high"] and row["cases in the fit"] == 24
+    plain = tmp_path / "plain.xlsx"
+    main_ok(["audit", str(log), "--xlsx", str(plain)])
+    assert "calibration" not in pd.read_excel(plain, sheet_name=None)
+
+
 def main_ok(args):
     try:
         main(args)

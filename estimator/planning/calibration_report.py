@@ -107,3 +107,61 @@ def calibration_html(doc: dict[str, Any]) -> str:
         f"{len(check['skipped'])}. The interval covers the scatter between cases, not a bias shared by all.</p>"
         + (f"<ul>{warn}</ul>" if warn else "")
     )
+
+
+def calibration_frames(doc: dict[str, Any]) -> dict[str, Any]:
+    """Spreadsheet tables of ``{"prediction_check": ..., "calibration": ...}``: one row a case checked, one
+    row an agent (its median ratio and, when calibrated, the factor with its interval).
+
+    Examples
+    --------
+    >>> doc = {"prediction_check": {"agents": {}, "cases": []}, "calibration": {"agents": {}, "refused": {}}}
+    >>> sorted(calibration_frames(doc))
+    ['calibration', 'prediction check']
+    """
+    import pandas as pd
+
+    check, cal = doc["prediction_check"], doc["calibration"]
+    cases = pd.DataFrame(
+        [
+            {
+                "case_id": c["case_id"],
+                "agent": c["agent"],
+                "recorded [mL]": c["recorded"]["magnitude"],
+                "predicted [mL]": c["predicted"]["magnitude"],
+                "predicted, calibrated [mL]": (c["predicted_calibrated"] or {}).get("magnitude"),
+                "recorded / predicted": c["ratio"],
+                "in the calibration": c["in_calibration"],
+                "left out because": c["excluded"] or "",
+            }
+            for c in check["cases"]
+        ],
+        columns=[
+            "case_id",
+            "agent",
+            "recorded [mL]",
+            "predicted [mL]",
+            "predicted, calibrated [mL]",
+            "recorded / predicted",
+            "in the calibration",
+            "left out because",
+        ],
+    )
+    agents = pd.DataFrame(
+        [
+            {
+                "agent": agent,
+                "cases checked": s["cases"],
+                "median recorded / predicted": s["median_ratio"],
+                "median, 95 % low": s.get("low"),
+                "median, 95 % high": s.get("high"),
+                "uptake factor": (cal["agents"].get(agent) or {}).get("factor"),
+                "factor, 95 % low": (cal["agents"].get(agent) or {}).get("low"),
+                "factor, 95 % high": (cal["agents"].get(agent) or {}).get("high"),
+                "cases in the fit": (cal["agents"].get(agent) or {}).get("cases"),
+                "not calibrated because": cal["refused"].get(agent, ""),
+            }
+            for agent, s in check["agents"].items()
+        ]
+    )
+    return {"prediction check": cases, "calibration": agents}

@@ -167,6 +167,11 @@ def write_xlsx(result: AuditResult, path: str | Path, made_by: str = "lowflow au
     sheet(
         "rejections", pd.DataFrame([(line, neutralise(r)) for line, r in result.rejections], columns=["line", "reason"])
     )
+    if result.calibration:  # audit --calibrate: the prediction check and the uptake factors
+        from .calibration_report import calibration_frames
+
+        for name, frame in calibration_frames(result.calibration).items():
+            sheet(name, frame)
     about = [
         ("rows read", result.rows["read"]),
         ("rows used", result.rows["used"]),
