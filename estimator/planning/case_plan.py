@@ -193,7 +193,7 @@ def case_plan(result: Any, floor: Any | None = None, band: Any | None = None) ->
     )
     notes = [
         f"{sc.title or 'Case plan'}: {sc.agent.name}, {result.totals['duration'].to('min').magnitude:.0f} min, "
-        f"patient {sc.patient.weight.to('kg').magnitude:g} kg, {sc.patient.age.to('year').magnitude:g} years."
+        f"patient {sc.patient.weight.to('kg').magnitude:g} kg, {sc.patient.age.to('year').magnitude:.3g} years."
     ]
     if floor is not None:
         notes.append(f"Recommended settable schedule: {floor.schedule_text}.")

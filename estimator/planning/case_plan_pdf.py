@@ -41,6 +41,9 @@ PDF_EXTRA = 'pip install "lowflow-estimator[pdf]"'
 #: Page margins [mm] and the height kept free for the footer (caution and page number) [mm].
 MARGIN, FOOTER = 15.0, 22.0
 
+#: Height of one chart [mm]: the plan's four fit on one A4 page under their heading.
+CHART_HEIGHT = 56.0
+
 #: Characters outside Latin-1 that the plans use, and what the PDF writes for them.
 _ASCII = {
     "\u202f": " ",  # narrow no-break space: thousands separator of estimator.display
@@ -122,8 +125,9 @@ def _para(
     pdf.multi_cell(0, size * 0.45, latin1(line), align="L", new_x=XPos.LMARGIN, new_y=YPos.NEXT)
 
 
-def _heading(pdf: FPDF, name: str) -> None:
-    if pdf.will_page_break(18):  # a heading never ends a page without what it heads
+def _heading(pdf: FPDF, name: str, room: float = 18.0) -> None:
+    """A section heading, on a new page when less than ``room`` [mm] of what it heads would follow it."""
+    if pdf.will_page_break(room):
         pdf.add_page()
     pdf.ln(3)
     _para(pdf, name, 11.0, "B")
@@ -169,6 +173,7 @@ def _table(pdf: FPDF, frame: pd.DataFrame) -> None:
     pdf.set_font("Helvetica", "", size)
     pdf.set_text_color(29, 42, 51)
     pdf.set_draw_color(213, 222, 228)
+    pdf.set_fill_color(255, 255, 255)  # cells on white (fpdf2 fills with the colour last set)
     pad = 2 * pdf.c_margin + 1.0  # the cell's inner margins, and some air
     wide = [max(pdf.get_string_width(r[j]) for r in rows[1:]) for j in range(len(rows[0]))]
     pdf.set_font("Helvetica", "B", size)  # the header row: bold, wrapped between words at most
@@ -208,22 +213,24 @@ def _rgb(colour: str) -> tuple[int, int, int]:
     return int(colour[1:3], 16), int(colour[3:5], 16), int(colour[5:7], 16)
 
 
-def _chart(pdf: FPDF, chart: PlanChart, height: float = 62.0) -> None:
+def _chart(pdf: FPDF, chart: PlanChart, height: float = CHART_HEIGHT) -> None:
     """One time course: title, legend, axes with their end values, one line a series (as the SVG)."""
-    if pdf.will_page_break(height + 4):
+    if pdf.will_page_break(height + 2):
         pdf.add_page()
     x_left, top = pdf.l_margin, pdf.get_y() + 2
     left, width = x_left + 16, pdf.epw - 18
-    plot_top, plot_h = top + 11, height - 22
+    plot_top, plot_h = top + 12, height - 23
     pdf.set_text_color(29, 42, 51)
     pdf.set_font("Helvetica", "B", 9)
     pdf.text(x_left, top + 3, latin1(chart.title))
     pdf.set_font("Helvetica", "", 7.5)
+    pdf.text(x_left, top + 8.5, latin1(chart.y_title))  # the y axis' title, then the legend on its row
+    lx = max(left + 20, x_left + pdf.get_string_width(latin1(chart.y_title)) + 8)
     for i, name in enumerate(chart.series):
-        lx = left + 38 * i
         pdf.set_fill_color(*_rgb(SERIES[i % len(SERIES)]))
-        pdf.rect(lx, top + 6.3, 5, 1.2, style="F")
-        pdf.text(lx + 6.5, top + 7.6, latin1(name))
+        pdf.rect(lx, top + 7.2, 5, 1.2, style="F")
+        pdf.text(lx + 6.5, top + 8.5, latin1(name))
+        lx += pdf.get_string_width(latin1(name)) + 16
     xs = [float(v) for v in chart.x]
     ys = [float(v) for vals in chart.series.values() for v in vals if v is not None and math.isfinite(float(v))]
     x0, x1 = (min(xs), max(xs)) if xs else (0.0, 1.0)
@@ -243,7 +250,6 @@ def _chart(pdf: FPDF, chart: PlanChart, height: float = 62.0) -> None:
     pdf.line(left, plot_top + plot_h, left + width, plot_top + plot_h)
     for label, y in ((shown(y1), py(y1) + 1), (shown(y0), py(y0))):
         pdf.text(left - 1.5 - pdf.get_string_width(latin1(label)), y, latin1(label))
-    pdf.text(x_left, plot_top - 1.5, latin1(chart.y_title))
     base = plot_top + plot_h + 3.5
     pdf.text(left, base, latin1(shown(x0)))
     pdf.text(left + width - pdf.get_string_width(latin1(shown(x1))), base, latin1(shown(x1)))
@@ -302,7 +308,7 @@ def plan_pdf(plan: CasePlan, *, compress: bool = True) -> bytes:
         _heading(pdf, name)
         _table(pdf, frame)
     if plan.charts:
-        _heading(pdf, "Charts")
+        _heading(pdf, "Charts", CHART_HEIGHT + 14)
         for chart in plan.charts:
             _chart(pdf, chart)
     return bytes(pdf.output())
