@@ -171,8 +171,8 @@ def case_plan(result: Any, floor: Any | None = None, band: Any | None = None) ->
         The simulated case.
     floor : estimator.planning.safety.FloorResult, optional
         Its flow floor (``flow_floor(scenario, grid=False)``): the floor table and the recommended schedule.
-    band : estimator.simulation.spread.SpreadBand, optional
-        Its patient spread: the P5-P95 column of the totals.
+    band : estimator.simulation.spread.SpreadResult, optional
+        Its patient spread (``simulate_spread``): the P5-P95 column of the totals.
 
     Returns
     -------
