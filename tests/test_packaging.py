@@ -14,11 +14,13 @@ ROOT = Path(__file__).resolve().parent.parent
 PYPROJECT = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))
 
 
-def test_the_checkouts_dev_group_carries_the_app_extra_with_the_same_bounds():
-    app = set(PYPROJECT["project"]["optional-dependencies"]["app"])
-    assert app <= set(PYPROJECT["dependency-groups"]["dev"])
+@pytest.mark.parametrize("extra", ["app", "pdf"])
+def test_the_checkouts_dev_group_carries_each_extra_with_the_same_bounds(extra):
+    wanted = set(PYPROJECT["project"]["optional-dependencies"][extra])
+    assert wanted and wanted <= set(PYPROJECT["dependency-groups"]["dev"])
     base = " ".join(PYPROJECT["project"]["dependencies"])
-    assert "streamlit" not in base and "altair" not in base  # the command line and API need none of it
+    # The command line and API need none of it (the PDF plan is the only use of fpdf2).
+    assert not any(req.split(">")[0].split("=")[0] in base for req in wanted)
 
 
 @pytest.fixture(scope="module")
@@ -40,11 +42,12 @@ def test_wheel_carries_the_app_and_what_it_reads(wheel):
     assert "estimator/data/real_gas_table.npz" in names
 
 
-def test_streamlit_is_required_only_by_the_app_extra(wheel):
+@pytest.mark.parametrize(("package", "extra"), [("streamlit", "app"), ("fpdf2", "pdf")])
+def test_an_extras_package_is_required_only_by_that_extra(wheel, package, extra):
     meta = next(n for n in wheel.namelist() if n.endswith(".dist-info/METADATA"))
     lines = [ln for ln in wheel.read(meta).decode().splitlines() if ln.startswith("Requires-Dist")]
-    streamlit = [ln for ln in lines if "streamlit" in ln]
-    assert streamlit and all("extra == 'app'" in ln for ln in streamlit)
+    required = [ln for ln in lines if f" {package}" in ln]
+    assert required and all(f"extra == '{extra}'" in ln for ln in required)
 
 
 def test_project_urls_name_the_documentation_and_the_changelog(wheel):

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from ..errors import InputError
 from ..simulation.totals_table import totals_rows
 from . import CAUTION, app
 from .outputs import calibration_json, calibration_lines, json_text, output_paths, write_output
@@ -17,7 +18,10 @@ def case(
     json_out: bool = typer.Option(False, "--json", help="Print the JSON contract instead of a summary."),
     csv: Path | None = typer.Option(None, "--csv", help="Write the time series to this CSV file."),
     report: Path | None = typer.Option(
-        None, "--report", help="Write a printable case plan (HTML: phases and dial, flow floor, totals, warnings)."
+        None,
+        "--report",
+        help="Write a printable case plan (phases and dial, flow floor, totals, warnings, charts): "
+        "HTML for a .html or .htm file, PDF for a .pdf file (the pdf extra).",
     ),
     spread: int = typer.Option(
         0, "--spread", help="Also simulate N patients drawn from published between-patient variation (0 = off)."
@@ -35,6 +39,7 @@ def case(
     from ..simulation.engine import simulate
 
     outputs = output_paths({"--csv": csv, "--report": report}, {"FILE": file, "--calibration": calibration})
+    kind = report_kind(outputs["--report"]) if "--report" in outputs else None
     scenario = attach_option(load_scenario(file), calibration)
     result = simulate(scenario)
     band = None
@@ -48,11 +53,18 @@ def case(
         text = csv_text(result.series, "lowflow case", {file.name: file.read_bytes()})
         write_output("--csv", outputs["--csv"], lambda p: p.write_text(text, encoding="utf-8", newline=""))
     if "--report" in outputs:
-        from ..planning.case_plan import case_plan_html
+        from ..planning.case_plan import case_plan, plan_html
         from ..planning.safety import flow_floor
 
-        page = case_plan_html(result, flow_floor(scenario, grid=False), band)
-        write_output("--report", outputs["--report"], lambda p: p.write_text(page, encoding="utf-8"))
+        plan = case_plan(result, flow_floor(scenario, grid=False), band)
+        if kind == "pdf":
+            from ..planning.case_plan_pdf import plan_pdf
+
+            data = plan_pdf(plan)
+            write_output("--report", outputs["--report"], lambda p: p.write_bytes(data))
+        else:
+            page = plan_html(plan)
+            write_output("--report", outputs["--report"], lambda p: p.write_text(page, encoding="utf-8"))
     if json_out:
         out = result.to_json()
         if band is not None:
@@ -61,6 +73,36 @@ def case(
         typer.echo(json_text(out, "case", {"FILE": file, "--calibration": calibration}))
         return
     typer.echo(summary(result, band))
+
+
+#: File suffix of ``--report`` -> the plan it writes.
+REPORT_KINDS = {".html": "html", ".htm": "html", ".pdf": "pdf"}
+
+
+def report_kind(path: Path) -> str:
+    """``"html"`` or ``"pdf"``: the plan ``--report`` writes, chosen by the file's suffix (any case).
+
+    A PDF needs fpdf2 (the ``pdf`` extra); without it, or with another suffix, an error naming
+    ``--report`` before the run.
+
+    >>> report_kind(Path("plan.HTM"))
+    'html'
+    >>> report_kind(Path("plan.txt"))
+    Traceback (most recent call last):
+    ...
+    estimator.errors.InputError: --report: got 'plan.txt'; expected a file ending in .html or .htm (HTML plan) or .pdf (PDF plan)
+    """
+    kind = REPORT_KINDS.get(path.suffix.lower())
+    if kind is None:
+        raise InputError("--report", str(path), "a file ending in .html or .htm (HTML plan) or .pdf (PDF plan)")
+    if kind == "pdf":
+        from ..planning.case_plan_pdf import PDF_EXTRA, pdf_available
+
+        if not pdf_available():
+            raise InputError(
+                "--report", str(path), f"the pdf extra for a PDF plan: {PDF_EXTRA} (or write a .html plan)"
+            )
+    return kind
 
 
 def summary(result, band=None) -> str:

@@ -62,14 +62,23 @@ def _page(title: str, body: str) -> str:
 <style>{_STYLE}</style></head><body><h1>{esc(title)}</h1>{body}</body></html>"""
 
 
+def marked_warnings(warnings: Sequence[tuple[str, str]] | None) -> list[tuple[str, str, bool]]:
+    """(code, message, safety) of each distinct warning, in order; ``safety`` when the code is a clinical
+    safety code of :data:`estimator.limits.CODES` (the reports mark those, as the app's pages do).
+
+    >>> marked_warnings([("X", "a"), ("X", "a")])
+    [('X', 'a', False)]
+    """
+    from ..limits import CODES
+
+    return [(c, m, c in CODES and CODES[c].safety) for c, m in dict.fromkeys(tuple(w) for w in warnings or ())]
+
+
 def _warning_items(warnings: Sequence[tuple[str, str]] | None) -> str:
     """List items of (code, message) warnings, escaped, each once; a clinical safety code (estimator.limits)
     in red and marked "Safety:", as on the app's pages; one "None." item when there are none."""
-    from ..limits import CODES
-
     items = []
-    for c, m in dict.fromkeys(tuple(w) for w in warnings or ()):
-        safety = c in CODES and CODES[c].safety
+    for c, m, safety in marked_warnings(warnings):
         mark = '<li class="safety">Safety: ' if safety else '<li class="warn">'
         items.append(f"{mark}<b>{html.escape(c)}</b>: {html.escape(m)}</li>")
     return "".join(items) or "<li>None.</li>"
@@ -208,6 +217,8 @@ def tables_report_html(
     warnings: list[tuple[str, str]] | None = None,
     limit: int = 500,
     charts: list[str] | None = None,
+    advice: list[str] | None = None,
+    after: dict[str, pd.DataFrame] | None = None,
 ) -> str:
     """A self-contained HTML report of named tables, with the caution and the warnings.
 
@@ -226,7 +237,11 @@ def tables_report_html(
         Model warnings, listed in their own section.
     charts : list of str, optional
         Inline SVG charts made by :mod:`estimator.planning.svg_charts` (their labels escaped there),
-        shown after the tables.
+        shown last.
+    advice : list of str, optional
+        Paragraphs under a "Monitoring" heading after the warnings.
+    after : dict of str to pandas.DataFrame, optional
+        Tables shown after the warnings and the advice (before the charts).
 
     Examples
     --------
@@ -236,13 +251,15 @@ def tables_report_html(
     """
     esc = html.escape
     sections = "".join(f"<h2>{esc(str(name))}</h2>{_table(frame, limit)}" for name, frame in tables.items())
+    later = "".join(f"<h2>{esc(str(name))}</h2>{_table(frame, limit)}" for name, frame in (after or {}).items())
     lines = "".join(f"<p>{esc(n)}</p>" for n in notes or ())
     warn = _warning_items(warnings)
+    told = "<h2>Monitoring</h2>" + "".join(f"<p>{esc(a)}</p>" for a in advice) if advice else ""
     drawn = f"<h2>Charts</h2>{''.join(charts)}" if charts else ""
     return _page(
         title,
         f"""{lines}
 <p class="caution">{esc(CAUTION)}</p>{sections}
-<h2>Warnings</h2><ul>{warn}</ul>{drawn}
+<h2>Warnings</h2><ul>{warn}</ul>{told}{later}{drawn}
 """,
     )

@@ -10,6 +10,7 @@ import streamlit as st
 
 from estimator.display import sentence
 from estimator.display import table as readable
+from estimator.planning.case_plan_pdf import pdf_available
 from estimator.properties import AGENTS
 from estimator.simulation.dial_schedule import dial_schedule, dial_table, dial_text
 from estimator.simulation.totals_table import totals_rows
@@ -119,12 +120,18 @@ def totals_frame(result: Any) -> pd.DataFrame:
     return pd.DataFrame([{"quantity": sentence(r.label), "value": r.value, "unit": r.unit} for r in rows])
 
 
-def case_plan(result: Any) -> bytes:
-    """The printable plan of ``lowflow case --report`` (built when the button is pressed)."""
-    from estimator.planning.case_plan import case_plan_html
+def case_plan(result: Any, pdf: bool = False) -> bytes:
+    """The printable plan of ``lowflow case --report``, HTML or PDF (built when the button is pressed)."""
+    from estimator.planning.case_plan import case_plan as gather
+    from estimator.planning.case_plan import plan_html
     from estimator.planning.safety import flow_floor
 
-    return case_plan_html(result, flow_floor(result.scenario, grid=False)).encode("utf-8")
+    plan = gather(result, flow_floor(result.scenario, grid=False))
+    if pdf:
+        from estimator.planning.case_plan_pdf import plan_pdf
+
+        return plan_pdf(plan)
+    return plan_html(plan).encode("utf-8")
 
 
 def dial_frame(result: Any) -> pd.DataFrame | None:
@@ -227,18 +234,20 @@ def outputs(result: Any) -> None:
         st.dataframe(readable(dial_table(schedule)), hide_index=True, width="stretch")
 
     st.subheader("Download the results")
-    download_row(
-        [
+    plans = [
+        ("Case plan (printable HTML)", lambda: case_plan(result), "case_plan.html", "text/html", ":material/print:")
+    ]
+    if pdf_available():  # the pdf extra (fpdf2)
+        plans.append(
             (
-                "Case plan (printable HTML)",
-                lambda: case_plan(result),
-                "case_plan.html",
-                "text/html",
-                ":material/print:",
+                "Case plan (PDF)",
+                lambda: case_plan(result, pdf=True),
+                "case_plan.pdf",
+                "application/pdf",
+                ":material/picture_as_pdf:",
             )
-        ],
-        "case.plan",
-    )
+        )
+    download_row(plans, "case.plan")
     downloads(
         "case_result",
         {"series": result.series, "totals": totals, "phases": phases},
