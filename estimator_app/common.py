@@ -95,19 +95,21 @@ SAFETY_PREFIX = "Safety:"
 
 
 def show_warnings(warnings: Any, empty: str | None = None) -> None:
-    """Model warnings as (code, message) pairs, or dicts with code and message, each once.
+    """Model warnings as (code, message) pairs, or dicts with code and message, each code once (its
+    distinct messages joined, as in the reports: :func:`estimator.planning.html_report.marked_warnings`).
 
     The title is the code's plain meaning from :mod:`estimator.limits`, the code follows in the text
     (and in every file). A clinical safety code (``Code.safety``, such as an inspired O2 below its
     threshold) is shown in red, every other warning in amber: the same on every page.
     """
     from estimator.limits import CODES
+    from estimator.planning.html_report import marked_warnings
 
-    items = list(dict.fromkeys(warning_pairs(warnings)))
-    for code, message in items:
+    items = marked_warnings(warning_pairs(warnings))
+    for code, message, safety in items:
         entry = CODES.get(code)
         title = entry.meaning[:1].upper() + entry.meaning[1:] if entry else code
-        if entry is not None and entry.safety:
+        if safety:
             st.error(f"{SAFETY_PREFIX} **{title}** - {message} (`{code}`)", icon=":material/emergency_home:")
         else:
             st.warning(f"**{title}** - {message} (`{code}`)", icon=":material/report:")

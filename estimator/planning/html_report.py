@@ -63,15 +63,20 @@ def _page(title: str, body: str) -> str:
 
 
 def marked_warnings(warnings: Sequence[tuple[str, str]] | None) -> list[tuple[str, str, bool]]:
-    """(code, message, safety) of each distinct warning, in order; ``safety`` when the code is a clinical
-    safety code of :data:`estimator.limits.CODES` (the reports mark those, as the app's pages do).
+    """(code, message, safety) of each code once, in order of first appearance: the distinct messages
+    of one code (the model's and the flow floor's, say) joined by "; "; ``safety`` when the code is a
+    clinical safety code of :data:`estimator.limits.CODES` (the reports mark those, as the app's pages do).
 
-    >>> marked_warnings([("X", "a"), ("X", "a")])
-    [('X', 'a', False)]
+    >>> marked_warnings([("X", "a"), ("X", "a"), ("X", "b")])
+    [('X', 'a; b', False)]
     """
     from ..limits import CODES
 
-    return [(c, m, c in CODES and CODES[c].safety) for c, m in dict.fromkeys(tuple(w) for w in warnings or ())]
+    by_code: dict[str, list[str]] = {}
+    for c, m in warnings or ():
+        if m not in by_code.setdefault(c, []):
+            by_code[c].append(m)
+    return [(c, "; ".join(ms), c in CODES and CODES[c].safety) for c, ms in by_code.items()]
 
 
 def _warning_items(warnings: Sequence[tuple[str, str]] | None) -> str:
