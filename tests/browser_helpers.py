@@ -41,12 +41,13 @@ def require_chromium() -> None:
 
 
 def wait_for_run(page: Any, timeout: float = TIMEOUT_MS) -> None:
-    """Wait until the app is connected and its script has finished running."""
+    """Wait until the app is connected, its script has finished running and no widget is still a placeholder."""
     from playwright.sync_api import expect
 
     app = page.get_by_test_id("stApp")
     expect(app).to_have_attribute("data-test-connection-state", "CONNECTED", timeout=timeout)
     expect(app).to_have_attribute("data-test-script-state", "notRunning", timeout=timeout)
+    expect(page.get_by_test_id("stSkeleton")).to_have_count(0, timeout=timeout)  # lazily loaded widgets drawn
 
 
 def open_page(page: Any, url: str, heading: str, ready: str | None = None) -> None:
@@ -170,7 +171,7 @@ def choose(page: Any, label: str, option: str) -> None:
     box.locator("input").click()
     expect(page.get_by_role("option", name=option)).to_be_visible(timeout=TIMEOUT_MS)
     page.get_by_role("option", name=option).click()
-    expect(box).to_contain_text(option, timeout=TIMEOUT_MS)
+    expect(box.get_by_role("combobox")).to_have_value(option, timeout=TIMEOUT_MS)
     wait_for_run(page)
 
 

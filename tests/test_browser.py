@@ -58,16 +58,44 @@ def test_change_a_fresh_gas_flow_and_see_the_totals_change(app_url, chromium_bro
     page.close()
 
 
-def test_every_page_opens_with_the_caution(app_url, chromium_browser):
-    page = new_page(chromium_browser, 1000)
-    for path, title in (
-        ("flow-floor", "Flow floor"),
-        ("compare-plans", "Compare plans"),
-        ("supply-duration", "Supply duration"),
-        ("demand-forecast", "Demand forecast"),
-        ("fresh-gas-audit", "Fresh-gas audit"),
-        ("site-and-flowmeter", "Site and flowmeter"),
-        ("methods-and-sources", "Methods and sources"),
-    ):
-        open_page(page, f"{app_url}/{path}", title)  # the heading, the caution, the run done, no exception
+#: Metrics cut off at 1440 px (issue 19, item 6), found by this test and not yet fixed in the app.
+CUT_OFF = {
+    "fresh-gas-audit": "'Mean maintenance flow' and 'Lowest inspired O2' (six metrics in a row)",
+    "site-and-flowmeter": "'Band from tube accuracy'",
+}
+PAGES = (
+    ("", "Case planner"),
+    ("flow-floor", "Flow floor"),
+    ("compare-plans", "Compare plans"),
+    ("supply-duration", "Supply duration"),
+    ("demand-forecast", "Demand forecast"),
+    ("fresh-gas-audit", "Fresh-gas audit"),
+    ("site-and-flowmeter", "Site and flowmeter"),
+    ("methods-and-sources", "Methods and sources"),
+)
+
+
+@pytest.mark.parametrize(
+    ("path", "title"),
+    [
+        pytest.param(
+            path,
+            title,
+            marks=pytest.mark.xfail(path in CUT_OFF, reason=f"cut off: {CUT_OFF.get(path)}", strict=True),
+            id=path or "case-planner",
+        )
+        for path, title in PAGES
+    ],
+)
+def test_every_page_opens_with_the_caution_and_no_metric_cut_off(app_url, chromium_browser, path, title):
+    page = new_page(chromium_browser)  # 1440 px wide
+    open_page(page, f"{app_url}/{path}", title)  # the heading, the caution, the run done, no exception
+    cut = page.evaluate(CUT_OFF_JS)
     page.close()
+    assert not cut, cut
+
+
+#: Each metric's label, value or delta whose text is wider than its box (shown with an ellipsis).
+CUT_OFF_JS = """() => [...document.querySelectorAll('[data-testid=stMetric] *')]
+    .filter(e => e.scrollWidth > e.clientWidth + 1 && e.innerText.trim())
+    .map(e => e.innerText.trim())"""
