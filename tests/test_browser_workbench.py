@@ -18,14 +18,13 @@ from browser_helpers import (
     assert_tables_read_well,
     choose,
     cli_json,
+    expect_metric,
     grid_rows,
     is_red,
     mag,
     metric,
-    metric_text,
     new_page,
     open_page,
-    plain,
     require_chromium,
     wait_for_run,
 )
@@ -66,7 +65,7 @@ def test_case_planner_dial_table_and_printable_plan(app_url, page):
     assert "<html" in html.lower() and "maintenance" in html
     assert_tables_read_well(page)
     cli = cli_json("case", CASE)
-    assert metric_text(page, "Liquid agent") == f"{mag(cli['totals']['agent_liquid']):.1f} mL"
+    expect_metric(page, "Liquid agent", f"{mag(cli['totals']['agent_liquid']):.1f} mL")
 
 
 def test_compare_plans_table_as_lowflow_compare(app_url, page):
@@ -91,7 +90,7 @@ def test_flow_floor_schedule_and_apply(app_url, page):
     assert [r["phase"] for r in schedule] == ["wash-in", "maintenance", "emergence"]
     cli = cli_json("safe-flow", CASE)
     mean = mag(cli["comparison"]["recommended"]["mean_fresh_gas_flow"])
-    assert metric_text(page, "Mean flow at the floor") == f"{mean:.2f} L/min"
+    expect_metric(page, "Mean flow at the floor", f"{mean:.2f} L/min")
     assert_tables_read_well(page)
     page.get_by_role("button", name="Use this schedule on the case planner").click()
     expect(page.get_by_text("The case planner now uses the recommended schedule.")).to_be_visible()
@@ -109,21 +108,24 @@ def test_flow_floor_schedule_and_apply(app_url, page):
 
 def test_safety_warning_in_red(app_url, page):
     """Item 5: the nitrous-oxide dental demo's low inspired O2, in red on its warning and on its metric."""
+    from playwright.sync_api import expect
+
+    cli = cli_json("case", "demo_cases/kestrel_nitrous_dental.toml")
+    o2_codes = {w["code"] for w in cli["warnings"]} & {"HYPOXIC_INSPIRED_MIXTURE", "INSPIRED_OXYGEN_LOW"}
+    assert o2_codes, cli["warnings"]
     open_page(page, app_url, "Case planner", ready="Liquid agent")
     choose(page, "Demo scenario", "kestrel_nitrous_dental.toml")
-    alert = page.get_by_test_id("stAlert").filter(has_text="Safety:").first
-    colour = alert.evaluate(ALERT_COLOUR)
-    assert is_red(colour), colour
+    expect_metric(page, "Lowest inspired O2", f"{100 * mag(cli['minimum_inspired_oxygen']):.1f} %")
+    wait_for_run(page)
+    for code in o2_codes:  # a plain-language title, the code in the text, in red
+        alert = page.get_by_test_id("stAlert").filter(has_text=code).first
+        expect(alert).to_contain_text("Safety:")
+        assert is_red(alert.evaluate(ALERT_COLOUR)), alert.evaluate(ALERT_COLOUR)
     caution = page.get_by_test_id("stAlert").filter(has_text="Planning and audit aid only").first  # amber, not red
     assert not is_red(caution.evaluate(ALERT_COLOUR))
-    cli = cli_json("case", "demo_cases/kestrel_nitrous_dental.toml")
-    codes = {w["code"] for w in cli["warnings"]}
-    assert codes & {"HYPOXIC_INSPIRED_MIXTURE", "INSPIRED_OXYGEN_LOW"}, codes
-    assert any(c in alert.inner_text() for c in codes)
-    o2 = page.get_by_test_id("stMetric").filter(has_text="Lowest inspired O2").first
-    assert metric_text(page, "Lowest inspired O2") == f"{100 * mag(cli['minimum_inspired_oxygen']):.1f} %"
-    delta = o2.get_by_test_id("stMetricDelta")
-    assert "Safety:" in delta.inner_text()
+    box = page.get_by_test_id("stMetric").filter(has=page.get_by_test_id("stMetricLabel").filter(has_text="Lowest"))
+    delta = box.first.get_by_test_id("stMetricDelta")
+    expect(delta).to_contain_text("Safety:")
     assert is_red(delta.evaluate("e => getComputedStyle(e).color"))
 
 
@@ -134,8 +136,8 @@ def test_supply_order_now_and_depletion_chart(app_url, page):
     open_page(page, f"{app_url}/supply-duration", "Supply duration", ready="Days of supply")
     cli = cli_json("supply", "demo_cases/highland_clinic_inventory.toml")
     reorder = date.fromisoformat(cli["reorder_by"])
-    assert metric_text(page, "Reorder") == ("Order now" if reorder <= date.today() else f"by {cli['reorder_by']}")
-    assert plain(metric_text(page, "Days of supply")) == plain(shown(mag(cli["days_of_supply"]), "days"))
+    expect_metric(page, "Reorder", "Order now" if reorder <= date.today() else f"by {cli['reorder_by']}")
+    expect_metric(page, "Days of supply", shown(mag(cli["days_of_supply"]), "days"))
     expect(after(page, "Depletion", "stVegaLiteChart")).to_be_visible()
     expect(after(page, "Depletion", "stVegaLiteChart").locator("canvas, svg").first).to_be_visible()
     assert_tables_read_well(page)
@@ -147,7 +149,7 @@ def test_forecast_planning_horizon(app_url, page):
     weeks = cli["horizon"]["weeks"]
     open_page(page, f"{app_url}/demand-forecast", "Demand forecast", ready=f"Planning horizon: {weeks} weeks")
     co2e = mag(cli["horizon"]["items"]["co2e"]["p95"])
-    assert plain(metric_text(page, f"CO2e over {weeks} weeks (P95)")) == plain(shown(co2e, "kg"))
+    expect_metric(page, f"CO2e over {weeks} weeks (P95)", shown(co2e, "kg"))
     totals = grid_rows(after(page, f"Planning horizon: {weeks} weeks"))
     assert {r["horizon [weeks]"] for r in totals} == {str(weeks)}
     assert_tables_read_well(page)
@@ -162,7 +164,7 @@ def test_audit_prices_liquid_per_agent_and_counterfactual(app_url, page):
     expect(page.get_by_role("spinbutton", name="Oxygen per m3")).to_be_visible()
     cli = cli_json("audit", "demo_cases/kestrel_audit_log.csv", "--prices", "demo_cases/kestrel_prices.toml")
     for agent, q in cli["totals"]["agent_liquid_by_agent"].items():
-        assert plain(metric_text(page, f"{agent.capitalize()} (liquid)")) == plain(shown(mag(q), "mL")), agent
+        expect_metric(page, f"{agent.capitalize()} (liquid)", shown(mag(q), "mL"))
     assert_tables_read_well(page)
     charts = page.get_by_test_id("stVegaLiteChart")
     before = charts.count()
