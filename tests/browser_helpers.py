@@ -101,6 +101,11 @@ def after(page: Any, heading: str, testid: str = "stDataFrame") -> Any:
     return head.locator(f'xpath=following::*[@data-testid="{testid}"][1]')
 
 
+def chart_texts(chart: Any) -> list[str]:
+    """The texts drawn in a chart's SVG (axis titles, labels, marks' text)."""
+    return chart.locator("svg text").evaluate_all("ts => ts.map(t => t.textContent.trim())")
+
+
 def grid_rows(grid: Any) -> list[dict[str, str]]:
     """The header and cell texts of a data grid's accessible table, one dict a row (the rows drawn)."""
     from playwright.sync_api import expect

@@ -16,6 +16,7 @@ import pytest
 from browser_helpers import (
     after,
     assert_tables_read_well,
+    chart_texts,
     choose,
     cli_json,
     expect_metric,
@@ -130,7 +131,8 @@ def test_safety_warning_in_red(app_url, page):
 
 
 def test_supply_order_now_and_depletion_chart(app_url, page):
-    """Item 7: "Order now" for a past reorder date, the depletion chart; days of supply as the CLI."""
+    """Item 7: "Order now" for a past reorder date, the depletion chart with the reorder date, lead time and
+    run-out marked; days of supply as the CLI."""
     from playwright.sync_api import expect
 
     open_page(page, f"{app_url}/supply-duration", "Supply duration", ready="Days of supply")
@@ -138,8 +140,12 @@ def test_supply_order_now_and_depletion_chart(app_url, page):
     reorder = date.fromisoformat(cli["reorder_by"])
     expect_metric(page, "Reorder", "Order now" if reorder <= date.today() else f"by {cli['reorder_by']}")
     expect_metric(page, "Days of supply", shown(mag(cli["days_of_supply"]), "days"))
-    expect(after(page, "Depletion", "stVegaLiteChart")).to_be_visible()
-    expect(after(page, "Depletion", "stVegaLiteChart").locator("canvas, svg").first).to_be_visible()
+    depletion = after(page, "Depletion", "stVegaLiteChart")
+    expect(depletion.locator("svg").first).to_be_visible()
+    marks = chart_texts(depletion)  # the reorder date, the lead time and the run-out marked on the chart
+    assert any(t.startswith("reorder") for t in marks), marks
+    assert any("lead" in t for t in marks), marks
+    assert f"{cli['bottleneck']} runs out" in marks, marks
     assert_tables_read_well(page)
 
 
@@ -156,7 +162,8 @@ def test_forecast_planning_horizon(app_url, page):
 
 
 def test_audit_prices_liquid_per_agent_and_counterfactual(app_url, page):
-    """Item 9: the prices input, the liquid of each agent as the CLI, the counterfactual chart when asked."""
+    """Items 9 and 10: the prices input, the liquid of each agent as the CLI, the flow-class ramp, the
+    counterfactual chart when asked."""
     from playwright.sync_api import expect
 
     open_page(page, f"{app_url}/fresh-gas-audit", "Fresh-gas audit", ready="Mean maintenance flow")
@@ -166,6 +173,7 @@ def test_audit_prices_liquid_per_agent_and_counterfactual(app_url, page):
     for agent, q in cli["totals"]["agent_liquid_by_agent"].items():
         expect_metric(page, f"{agent.capitalize()} (liquid)", shown(mag(q), "mL"))
     assert_tables_read_well(page)
+    flow_classes(page)
     charts = page.get_by_test_id("stVegaLiteChart")
     before = charts.count()
     page.get_by_test_id("stCheckbox").filter(has_text="Run the counterfactual").locator("label").click()
@@ -173,3 +181,19 @@ def test_audit_prices_liquid_per_agent_and_counterfactual(app_url, page):
     wait_for_run(page, timeout=300_000)
     expect(charts).to_have_count(before + 1)
     expect(after(page, "Counterfactual: the same cases at the policy flow", "stVegaLiteChart")).to_be_visible()
+
+
+def flow_classes(page) -> None:
+    """Item 10: the flow-class bars carry their class names and one hue, lighter to darker with the flow."""
+    import colorsys
+
+    chart = page.get_by_test_id("stVegaLiteChart").filter(has_text="flow class").first
+    names = chart_texts(chart)
+    assert {"metabolic", "minimal", "low", "medium", "high", "very high"} <= set(names), names
+    fills = chart.locator("g.mark-rect path").evaluate_all("ps => ps.map(p => p.getAttribute('fill'))")
+    hls = [colorsys.rgb_to_hls(*(int(f[i : i + 2], 16) / 255 for i in (1, 3, 5))) for f in fills]
+    assert len(hls) == 6, fills
+    hues = [360 * h for h, _, _ in hls]
+    assert max(hues) - min(hues) < 30, fills  # one hue: no green-to-red traffic light
+    lightness = [v for _, v, _ in hls]
+    assert lightness == sorted(lightness, reverse=True), fills  # sequential: darker as the flow class rises
