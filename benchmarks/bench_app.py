@@ -56,18 +56,16 @@ def _one_run(browser) -> tuple[float, float, float, float]:
 
 def _rerun_seconds(page) -> float:
     """Server-side seconds of the rerun after the maintenance O2 flow changes (the app's timing line)."""
-    from test_browser import edit_cell, metric_value  # the browser test's own cell editing
+    from browser_helpers import edit_cell, metric, wait_for_run  # the browser tests' own cell editing
+    from playwright.sync_api import expect
 
     stamp = page.get_by_text(re.compile(r"Page computed in \d+ ms")).first
     stamp.wait_for(timeout=90_000)
-    before = metric_value(page, "Liquid agent")
-    edit_cell(page, 1, 2, "1.6")
-    deadline = time.monotonic() + 60
-    while metric_value(page, "Liquid agent") == before:  # the rerun that ran the engine
-        if time.monotonic() > deadline:
-            raise SystemExit("the totals did not change after the flow edit")
-        page.wait_for_timeout(20)
-    page.wait_for_timeout(300)  # the stamp is the last element of the page
+    wait_for_run(page)
+    before = metric(page, "Liquid agent").inner_text()
+    edit_cell(page, page.get_by_test_id("stDataFrame").first, 1, 2, "1.6")
+    expect(metric(page, "Liquid agent")).not_to_have_text(before, timeout=60_000)  # the rerun that ran the engine
+    wait_for_run(page)  # the stamp is the last element of the page
     return float(re.search(r"computed in (\d+) ms", stamp.inner_text()).group(1)) / 1000.0
 
 

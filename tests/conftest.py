@@ -20,3 +20,30 @@ DEMO_DIR = Path(__file__).resolve().parent.parent / "demo_cases"
 def demo_dir() -> Path:
     """Folder of the demo cases."""
     return DEMO_DIR
+
+
+@pytest.fixture(scope="session")
+def app_url():
+    """URL of one live ``streamlit run app.py`` shared by the browser tests (tests/app_server.py); stopped at the end."""
+    import app_server
+
+    try:
+        proc, url = app_server.start(120.0, poll=0.3)
+    except RuntimeError as exc:
+        pytest.fail(str(exc))
+    yield url
+    app_server.stop(proc)
+
+
+@pytest.fixture(scope="session")
+def chromium_browser():
+    """Debian's chromium under Playwright, headless and off the network (never a downloaded browser)."""
+    import shutil
+
+    import app_server
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=shutil.which("chromium"), args=app_server.FLAGS, headless=True)
+        yield browser
+        browser.close()
