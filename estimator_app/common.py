@@ -131,6 +131,10 @@ def flag(warnings: Any, codes: tuple[str, ...]) -> tuple[str, str, str] | None:
     return ("safety" if worst.safety else "warning", worst.meaning, worst.name)
 
 
+#: Longest note under a metric [characters]: a third of a 1440 px page shows it whole (measured in chromium).
+METRIC_NOTE_CHARS = 36
+
+
 def metric(box: Any, label: str, value: str, flagged: tuple[str, str, str] | None = None, **kwargs: Any) -> None:
     """A metric flagged by severity: a safety flag in red with a falling arrow, a warning in amber, each
     with its plain meaning (the full text and the code in the tooltip).
@@ -145,7 +149,9 @@ def metric(box: Any, label: str, value: str, flagged: tuple[str, str, str] | Non
 
     severity, meaning, code = flagged
     kwargs["help"] = f"{meaning} (`{code}`)" + (f". {kwargs['help']}" if kwargs.get("help") else "")
-    text = f"{SAFETY_PREFIX} {meaning}" if severity == "safety" else meaning
+    short = meaning.split(" (")[0]  # the full meaning and the code are in the tooltip
+    short = short if len(short) <= METRIC_NOTE_CHARS else "see the warning below"
+    text = f"{SAFETY_PREFIX} {short}" if severity == "safety" else short
     if "delta_arrow" in inspect.signature(box.metric).parameters:
         colour = "red" if severity == "safety" else "orange"
         box.metric(label, value, delta=text, delta_color=colour, delta_arrow="down", border=True, **kwargs)

@@ -58,11 +58,8 @@ def test_change_a_fresh_gas_flow_and_see_the_totals_change(app_url, chromium_bro
     page.close()
 
 
-#: Metrics cut off at 1440 px (issue 19, item 6), found by this test and not yet fixed in the app.
-CUT_OFF = {
-    "fresh-gas-audit": "'Mean maintenance flow' and 'Lowest inspired O2' (six metrics in a row)",
-    "site-and-flowmeter": "'Band from tube accuracy'",
-}
+#: Metrics cut off at 1440 px (issue 19, item 6) that this test found and the app has not fixed yet.
+CUT_OFF: dict[str, str] = {}
 PAGES = (
     ("", "Case planner"),
     ("flow-floor", "Flow floor"),

@@ -150,7 +150,7 @@ def render() -> None:
         shown(t["cost_total"]) if "cost_total" in t else "no prices",
     )
     low_o2 = "min_inspired_oxygen" in result.cases
-    m = st.columns(6 if low_o2 else 5)
+    m = [*st.columns(3), *st.columns(3)]  # two rows of three: no metric cut off at 1440 px
     if low_o2:  # the lowest recorded inspired O2 of all cases, flagged as its warning is
         lowest = result.cases["min_inspired_oxygen"].min()
         o2_flag = flag(result.warnings, ("INSPIRED_OXYGEN_LOW",))

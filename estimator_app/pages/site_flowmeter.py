@@ -71,7 +71,7 @@ def flowmeter_section(site: Any) -> dict[str, Any]:
     if use == "concentrator":
         purity = f"{c4.number_input('Concentrator O2 [%]', 80.0, 95.7, 93.0, 0.5, key='fm.purity'):g} %"
     r = true_flow(Q_(reading / ff, "L/min"), cal, use, site, purity=purity)
-    m = st.columns(4)
+    m = [*st.columns(2), *st.columns(2)]  # two rows of two: no metric cut off at 1440 px
     m[0].metric(
         "True flow at the site",
         f"{r.true_flow_ambient.to('L/min').magnitude * ff:.3g} {fu}",
