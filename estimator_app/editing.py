@@ -243,7 +243,15 @@ def table(rows: list[dict[str, Any]], fields: list[Field], key: str) -> list[dic
         KEPT, disabled=True, help="Keys this page does not edit; saved unchanged."
     )
     config[_ROW] = None  # hidden: which loaded row an edited row came from
-    edited = st.data_editor(seed, key=key, num_rows="dynamic", hide_index=True, width="stretch", column_config=config)
+    edited = st.data_editor(
+        seed,
+        key=key,
+        num_rows="dynamic",
+        hide_index=True,
+        width="stretch",
+        column_config=config,
+        placeholder="",  # an empty cell reads blank, not "None" (the value stays missing)
+    )
     return rows_back(edited, st.session_state[rows_key], fields, seed)
 
 

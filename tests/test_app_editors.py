@@ -218,3 +218,21 @@ def test_forecast_upload_with_the_scenario_file_it_names():
     at.file_uploader(key="forecast.upload").set_value([("bad.toml", tomli_w.dumps(mix).encode(), "text/plain")])
     at.run()
     assert len(faults(at)) == 1 and "case_types (row 1).scenario" in faults(at)[0]
+
+
+@pytest.mark.parametrize("name", ["case_planner", "supply_duration"])
+def test_empty_editor_cells_read_blank_not_none(monkeypatch, name):
+    # Issue 19, item 6: a missing value in an editable table shows blank; the value stays missing.
+    import streamlit
+
+    calls = []
+    real = streamlit.data_editor
+
+    def spy(*args, **kwargs):
+        calls.append(kwargs)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(streamlit, "data_editor", spy)
+    at = page(name)
+    assert_clean(at)
+    assert calls and all(kw.get("placeholder") == "" for kw in calls)
