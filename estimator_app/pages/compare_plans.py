@@ -21,16 +21,22 @@ PLANNER = "case planner"
 KEPT_STOCK = "supply.kept"
 
 
+def letters(c: dict[str, Any]) -> dict[str, str]:
+    """Plan name -> its letter (A the baseline), as ``lowflow compare`` letters them."""
+    return {n: chr(ord("A") + i) for i, n in enumerate(c["plans"])}
+
+
 def frame(c: dict[str, Any]) -> pd.DataFrame:
-    """One row a total: the value of each plan, then each plan's change from the first (and in %)."""
-    names = c["plans"]
+    """One row a total: the value of each plan, then each plan's change from the first (and in %); the
+    change columns are headed by letters ("B - A"), so the table fits a 1440 px page."""
+    names, key = c["plans"], letters(c)
     rows = []
     for r in [*c["rows"], *([c["cost"]] if c["cost"] else [])]:
         row = {"quantity": r["label"], "unit": r["unit"], **{n: _rounded(r["values"][n]) for n in names}}
         for n in names[1:]:
-            row[f"{n} - {names[0]}"] = _rounded(r["change"][n])
+            row[f"{key[n]} - A"] = _rounded(r["change"][n])
             pct = r["change_percent"][n]
-            row[f"{n} - {names[0]} [%]"] = None if pct is None else round(pct, 1)
+            row[f"{key[n]} - A [%]"] = None if pct is None else round(pct, 1)
         rows.append(row)
     return pd.DataFrame(rows)
 
@@ -58,7 +64,8 @@ def stock_comparison(current: tuple[str, tuple[tuple[str, str], ...]], report: A
     c = compare_stocks({"kept": run(*kept), "now": report})
     st.dataframe(readable(frame(c)), hide_index=True, width="stretch")
     st.caption(
-        "; ".join(f"{n}: bottleneck {c['bottleneck'][n] or 'none'}, reorder {c['reorder'][n]}" for n in c["plans"])
+        "A = kept, B = now. "
+        + "; ".join(f"{n}: bottleneck {c['bottleneck'][n] or 'none'}, reorder {c['reorder'][n]}" for n in c["plans"])
         + ". The same supply plan as `lowflow supply` and `lowflow compare --stock`."
     )
 
@@ -91,7 +98,10 @@ def render() -> None:
     table = frame(c)
     st.dataframe(readable(table), hide_index=True, width="stretch")
     st.caption(
-        "Agents: " + ", ".join(f"{n}: {a}" for n, a in c["agents"].items()) + ". Gas volumes: free gas at "
+        ", ".join(f"{k} = {n}" for n, k in letters(c).items())
+        + ". Agents: "
+        + ", ".join(f"{n}: {a}" for n, a in c["agents"].items())
+        + ". Gas volumes: free gas at "
         "15 degC and 101.325 kPa. Cost only when every plan is priced in one currency."
     )
     for n, r in results.items():
