@@ -107,7 +107,6 @@ def phase_table(result: Any) -> pd.DataFrame:
                 f"air [{fu}]": flow(fl.get("air")),
                 f"N2O [{fu}]": flow(fl.get("nitrous_oxide")),
                 "binding limit": p["binding"] or "-",
-                "why": p["binding_text"],
                 "flow class": p["flow_class"],
             }
         )
@@ -265,11 +264,15 @@ def render() -> None:
     st.subheader("Lowest safe flow per phase")
     table = phase_table(result)
     st.dataframe(readable(table), hide_index=True, width="stretch")
+    why = [f"{p['label']}: {p['binding_text']}" for p in result.phases if p.get("binding_text")]
+    if why:  # the binding limit in words, under the table (a column of sentences would not fit 1440 px)
+        st.caption("Why: " + "; ".join(why) + ".")
     st.subheader("Flow floor over time")
     show(chart(result, plan))
     st.caption(
-        "The floor at a time answers: from here to the end of this phase, how low may the flow go on the "
-        "planned course so far. Flows are settable values on the flowmeter scale."
+        "The floor schedule on the plan: from the state the plan reaches at each phase start, the lowest "
+        "setting at each grid time with the steps before it at their floor, every step replayed end to end. "
+        "Flows are settable values on the flowmeter scale."
     )
     st.subheader("Advisories")
     show_warnings(result.warnings, empty="No flow-floor advisories.")
