@@ -12,6 +12,7 @@ import streamlit as st
 
 from estimator.display import table as readable
 from estimator.errors import InputError
+from estimator.planning.flow_classes import FLOW_CLASS_SOURCE
 from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import state
@@ -107,7 +108,7 @@ def phase_table(result: Any) -> pd.DataFrame:
                 f"air [{fu}]": flow(fl.get("air")),
                 f"N2O [{fu}]": flow(fl.get("nitrous_oxide")),
                 "binding limit": p["binding"] or "-",
-                "flow class": p["flow_class"],
+                "flow class": p["flow_class"].split(" (")[0],  # the classes' source is in the caption
             }
         )
     return pd.DataFrame(rows)
@@ -266,7 +267,7 @@ def render() -> None:
     st.dataframe(readable(table), hide_index=True, width="stretch")
     why = [f"{p['label']}: {p['binding_text']}" for p in result.phases if p.get("binding_text")]
     if why:  # the binding limit in words, under the table (a column of sentences would not fit 1440 px)
-        st.caption("Why: " + "; ".join(why) + ".")
+        st.caption("Why: " + "; ".join(why) + f". Flow classes: {FLOW_CLASS_SOURCE}.")
     st.subheader("Flow floor over time")
     show(chart(result, plan))
     st.caption(
