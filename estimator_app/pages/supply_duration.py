@@ -316,6 +316,11 @@ def _charts(report: Any, items: pd.DataFrame, colours: dict[str, str]) -> None:
     spec = time_course(
         share, labels, "stock remaining [% of start]", height=300, step=True, x="date", x_type="temporal", colours=named
     )
+    for layer in spec["layer"]:  # headroom above 100 % for the date labels, so they never sit on a curve
+        y = layer.get("encoding", {}).get("y", {})
+        if y.get("field") == "value":
+            y["scale"] = {"zero": True, "domain": [0, 140]}
+            y["axis"] = {"values": [0, 20, 40, 60, 80, 100]}
     marks, band = [], None
     if report.reorder_by is not None:
         lead = dt.timedelta(days=float(report.lead_time_days or 0.0))
