@@ -81,12 +81,14 @@ def latin1(value: str) -> str:
 
 
 def pdf_available() -> bool:
-    """True when fpdf2 (the ``pdf`` extra) can be imported."""
+    """True when fpdf2 (the ``pdf`` extra) is installed; found without importing it (the import takes
+    about a second, which the app's first page would otherwise wait for)."""
+    from importlib.util import find_spec
+
     try:
-        import fpdf  # noqa: F401
-    except ImportError:
+        return find_spec("fpdf") is not None
+    except (ImportError, ValueError):
         return False
-    return True
 
 
 def _require() -> None:
