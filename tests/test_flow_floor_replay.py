@@ -12,11 +12,10 @@ never below a limit.
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 import pytest
-from test_safety_search import LONG, NITROUS_CONCENTRATOR
+from test_safety_search import DEMOS, LONG, NITROUS_CONCENTRATOR
+from test_safety_search import PLANS as DEMO_PLANS
 
 from estimator.inputs.scenario import load_scenario, scenario_from_dict
 from estimator.limits import TARGET_BAND
@@ -28,8 +27,6 @@ from estimator.simulation.case_setup import prepare
 from estimator.simulation.results import SETTLE
 from estimator.units import Q_
 
-DEMOS = Path(__file__).resolve().parents[1] / "demo_cases"
-DEMO_PLANS = ("kestrel_lap_chole", "kestrel_nitrous_dental", "highland_mobile_team", "kestrel_desflurane_bariatric")
 DAY_NITROUS = {
     "title": "24 h O2/N2O 50 % at 1 L/min with an end-tidal hold, then emergence",
     "patient": {"weight": "90 kg", "age": "60 years"},

@@ -22,13 +22,13 @@ import numpy as np
 from ..limits import (
     ARGON_LIMIT,
     COMPOUND_A_FLOW,
-    INSPIRED_OXYGEN_SETTLE,
     LABEL_MAC_HOURS,
     LABEL_MIDDLE_FLOW,
     LABEL_MINIMUM_FLOW,
     LOW_FLOW,
     NITROGEN_LIMIT,
 )
+from ..simulation.results import judged_samples
 
 LOCAL = "Follow local practice and the agent's local labelling."
 
@@ -39,8 +39,7 @@ def advisories(scenario, st, plan, floors: list[dict[str, Any]]) -> list[tuple[s
     s = plan.series
     fgf = s["fresh_gas_flow [L/min]"].to_numpy()
     t = s["time [min]"].to_numpy()
-    judged = t >= INSPIRED_OXYGEN_SETTLE  # as the case's own warnings judge it (the first minute left out)
-    judged[-1] = True
+    judged = judged_samples(t)  # as the case's own warnings judge it (the first minute left out)
     fio2 = s["inspired_oxygen [%]"].to_numpy()[judged] / 100
     codes = {c for c, _ in plan.warnings}
     if fio2.min() < st.threshold:

@@ -24,7 +24,7 @@ from ..properties import agent as agent_properties
 from ..units import GAS_VOLUME_REFERENCE, Q_
 from .case_setup import CaseSetup, PhaseSetup
 from .kernel_parameters import vaporizer_type
-from .results import FIO2_ADVISORY, P_H2O, SETTLE, TARGET_BAND, CaseResult, litres_per_mmol
+from .results import FIO2_ADVISORY, P_H2O, TARGET_BAND, CaseResult, judged_samples, litres_per_mmol
 
 _NAMES = {
     c.O2: "oxygen",
@@ -147,9 +147,7 @@ def build_result(case: CaseSetup, segments: list[Segment]) -> CaseResult:
     )[0]
     totals, balance = _totals(case, segments[0].states[0], segments[-1].states[-1], gas_l)
     fio2 = series["inspired_oxygen [%]"].to_numpy() / 100
-    judged = series["time [min]"].to_numpy() >= SETTLE
-    if not judged.any():  # a case shorter than the settling minute: judge its last sample
-        judged[-1] = True
+    judged = judged_samples(series["time [min]"].to_numpy())
     _gas_warnings(series, fio2, judged, totals, warns)
     if site.ambient_pressure_kpa < 101.325 - 1e-6:
         from ..physics.site import check_inspired_oxygen

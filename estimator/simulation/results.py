@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
+import numpy as np
 import pandas as pd
 import pint
 
@@ -29,6 +30,21 @@ if TYPE_CHECKING:
 P_H2O = WATER_VAPOUR_37C_KPA
 #: Inspired O2 is judged from this case time on [min] (estimator.limits.INSPIRED_OXYGEN_SETTLE).
 SETTLE = INSPIRED_OXYGEN_SETTLE
+
+
+def judged_samples(times: np.ndarray) -> np.ndarray:
+    """Which samples inspired O2 is judged at: from ``SETTLE`` on, or the last sample of a case
+    shorter than that.
+
+    >>> judged_samples(np.array([0.0, 0.5, 1.0, 2.0])).tolist(), judged_samples(np.array([0.0, 0.5])).tolist()
+    ([False, False, True, True], [False, True])
+    """
+    judged = np.asarray(times) >= SETTLE
+    if not judged.any():
+        judged[-1] = True
+    return judged
+
+
 #: Default inspired O2 advisory threshold at low flow (the registry's INSPIRED_OXYGEN_FLOOR).
 FIO2_ADVISORY = INSPIRED_OXYGEN_FLOOR
 
