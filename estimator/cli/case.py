@@ -34,13 +34,16 @@ def case(
     ),
 ) -> None:
     """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
-    from ..inputs.calibration_file import attach_option
     from ..inputs.scenario import load_scenario
     from ..simulation.engine import simulate
 
     outputs = output_paths({"--csv": csv, "--report": report}, {"FILE": file, "--calibration": calibration})
     kind = report_kind(outputs["--report"]) if "--report" in outputs else None
-    scenario = attach_option(load_scenario(file), calibration)
+    scenario = load_scenario(file)
+    if calibration is not None:  # the calibration code loads only when a calibration is given
+        from ..inputs.calibration_file import attach_option
+
+        scenario = attach_option(scenario, calibration)
     result = simulate(scenario)
     band = None
     if spread:
@@ -129,7 +132,7 @@ def summary(result, band=None) -> str:
         )
     from ..simulation.dial_schedule import dial_schedule, dial_text
 
-    lines += [f"  {line}" for line in dial_text(dial_schedule(result.series, result.phases))]
+    lines += [f"  {line}" for line in dial_text(dial_schedule(result.columns, result.phases))]
     for ph in result.phases:
         if ph.get("mode") == "end_tidal_hold":
             reached = ph.get("target_reached")
