@@ -10,6 +10,7 @@ from ..errors import InputError
 from ..simulation.totals_table import totals_rows
 from . import CAUTION, app
 from .outputs import calibration_json, calibration_lines, json_text, output_paths, write_output
+from .process import loading
 
 
 @app.command("case")
@@ -34,17 +35,18 @@ def case(
     ),
 ) -> None:
     """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
-    from ..inputs.scenario import load_scenario
-    from ..simulation.engine import simulate
-
     outputs = output_paths({"--csv": csv, "--report": report}, {"FILE": file, "--calibration": calibration})
     kind = report_kind(outputs["--report"]) if "--report" in outputs else None
-    scenario = load_scenario(file)
-    if calibration is not None:  # the calibration code loads only when a calibration is given
-        from ..inputs.calibration_file import attach_option
+    with loading():  # the libraries and the compiled model load here (estimator.cli.process)
+        from ..inputs.scenario import load_scenario
+        from ..simulation.engine import simulate
 
-        scenario = attach_option(scenario, calibration)
-    result = simulate(scenario)
+        scenario = load_scenario(file)
+        if calibration is not None:  # the calibration code loads only when a calibration is given
+            from ..inputs.calibration_file import attach_option
+
+            scenario = attach_option(scenario, calibration)
+        result = simulate(scenario)
     band = None
     if spread:
         from ..simulation.spread import simulate_spread
