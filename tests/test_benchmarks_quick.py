@@ -21,6 +21,7 @@ QUICK = {
     "bench_batch.py": "batch speed-up",
     "bench_flow_floor.py": "ratio to the",
     "bench_spread.py": "ratio to the run without spread",
+    "bench_startup.py": "x the numpy+pandas import",
 }
 
 

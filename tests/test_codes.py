@@ -362,8 +362,8 @@ def _code_literals() -> dict[str, list[str]]:
     return found
 
 
-#: Upper-snake literals that are environment variables read by the package, not codes.
-ENVIRONMENT_NAMES = {"NUMBA_CACHE_DIR"}
+#: Upper-snake literals that are environment variables the package reads or sets, not codes.
+ENVIRONMENT_NAMES = {"NUMBA_CACHE_DIR", "OPENBLAS_NUM_THREADS"}
 
 
 def test_every_code_literal_in_the_package_is_registered():

@@ -67,7 +67,22 @@ def fail(message: str) -> None:
 
 
 def main(argv: list[str] | None = None) -> None:
-    """Console-script entry point; maps every user error to one line and exit status 2."""
+    """Console-script entry point; maps every user error to one line and exit status 2.
+
+    Without ``argv`` (the ``lowflow`` script, ``python -m estimator``) this is the process's entry point,
+    and the process settings of :mod:`estimator.cli.process` apply.
+    """
+    from . import process
+
+    if argv is None:
+        process.begin()
+    try:
+        _dispatch(argv)
+    finally:
+        process.finish()
+
+
+def _dispatch(argv: list[str] | None) -> None:
     import importlib.util
 
     # typer >= 0.20 vendors click (typer._click); older typer uses click itself.

@@ -10,6 +10,7 @@ from ..errors import InputError
 from ..simulation.totals_table import totals_rows
 from . import CAUTION, app
 from .outputs import calibration_json, calibration_lines, json_text, output_paths, write_output
+from .process import loading
 
 
 @app.command("case")
@@ -34,14 +35,18 @@ def case(
     ),
 ) -> None:
     """Simulate one case: agent and gas use, inspired O2, end-tidal agent and MAC, warnings."""
-    from ..inputs.calibration_file import attach_option
-    from ..inputs.scenario import load_scenario
-    from ..simulation.engine import simulate
-
     outputs = output_paths({"--csv": csv, "--report": report}, {"FILE": file, "--calibration": calibration})
     kind = report_kind(outputs["--report"]) if "--report" in outputs else None
-    scenario = attach_option(load_scenario(file), calibration)
-    result = simulate(scenario)
+    with loading():  # the libraries and the compiled model load here (estimator.cli.process)
+        from ..inputs.scenario import load_scenario
+        from ..simulation.engine import simulate
+
+        scenario = load_scenario(file)
+        if calibration is not None:  # the calibration code loads only when a calibration is given
+            from ..inputs.calibration_file import attach_option
+
+            scenario = attach_option(scenario, calibration)
+        result = simulate(scenario)
     band = None
     if spread:
         from ..simulation.spread import simulate_spread
@@ -129,7 +134,7 @@ def summary(result, band=None) -> str:
         )
     from ..simulation.dial_schedule import dial_schedule, dial_text
 
-    lines += [f"  {line}" for line in dial_text(dial_schedule(result.series, result.phases))]
+    lines += [f"  {line}" for line in dial_text(dial_schedule(result.columns, result.phases))]
     for ph in result.phases:
         if ph.get("mode") == "end_tidal_hold":
             reached = ph.get("target_reached")

@@ -168,20 +168,20 @@ def announce_first_compile(argv: list[str]) -> None:
 
 def calibration_json(scenario: Any, applied: float | None = None) -> dict[str, Any]:
     """``{"calibration": ...}`` for a JSON document when a department calibration is attached (else empty)."""
-    from ..inputs.calibration_file import calibration_note, calibration_of
-
-    cal = calibration_of(scenario)
-    if cal is None:
+    cal = scenario.attached_calibration
+    if cal is None:  # the calibration code loads only when a calibration is attached
         return {}
+    from ..inputs.calibration_file import calibration_note
+
     used = scenario.uptake_factor if applied is None else applied
     return {"calibration": calibration_note(cal, scenario.agent.name, used)}
 
 
 def calibration_lines(scenario: Any, applied: float | None = None) -> list[str]:
     """The text summary's lines on an attached calibration: the factor, its interval, its source, warnings."""
-    from ..inputs.calibration_file import note_text
-
     doc = calibration_json(scenario, applied).get("calibration")
     if doc is None:
         return []
+    from ..inputs.calibration_file import note_text
+
     return [note_text(doc)] + [f"  [{w['code']}] {w['message']}" for w in doc["warnings"]]

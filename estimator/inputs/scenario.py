@@ -318,6 +318,11 @@ class Scenario(_Model):
         return self._price_table
 
     @property
+    def attached_calibration(self) -> Any:
+        """The department calibration attached (:mod:`estimator.inputs.calibration_file`), or None."""
+        return self._calibration
+
+    @property
     def uptake_factor(self) -> float:
         """The agent's uptake factor the engine applies (:mod:`estimator.inputs.calibration_file`; 1 without)."""
         f = self._calibration.factor(self.agent.name) if self._calibration is not None else None

@@ -14,7 +14,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-import pandas as pd
 
 from ..accounts.accounting import DELTA_TOTAL_UNITS, fresh_gas_litres, totals_from_deltas
 from ..accounts.carbon import totals_co2e
@@ -137,7 +136,7 @@ def build_result(case: CaseSetup, segments: list[Segment]) -> CaseResult:
         if hold:
             info.update(_hold_report(index, times, ws, p, warns))
         phases.append(info)
-    series = pd.DataFrame({k: np.concatenate([f[k] for f in frames]) for k in frames[0]})
+    series = {k: np.concatenate([f[k] for f in frames]) for k in frames[0]}  # a DataFrame only on demand
     gas_l = fresh_gas_litres(
         np.array([[seg.times[-1] - seg.times[0] for seg in segments]]),
         [seg.phase.true_flows for seg in segments],
@@ -146,8 +145,8 @@ def build_result(case: CaseSetup, segments: list[Segment]) -> CaseResult:
         base[c.P_MAKEUP_AIR] != 0.0,
     )[0]
     totals, balance = _totals(case, segments[0].states[0], segments[-1].states[-1], gas_l)
-    fio2 = series["inspired_oxygen [%]"].to_numpy() / 100
-    judged = judged_samples(series["time [min]"].to_numpy())
+    fio2 = series["inspired_oxygen [%]"] / 100
+    judged = judged_samples(series["time [min]"])
     _gas_warnings(series, fio2, judged, totals, warns)
     if site.ambient_pressure_kpa < 101.325 - 1e-6:
         from ..physics.site import check_inspired_oxygen
@@ -278,10 +277,12 @@ def _totals(case: CaseSetup, y0: np.ndarray, y1: np.ndarray, gas_l: np.ndarray) 
     return totals, balance
 
 
-def _gas_warnings(series: pd.DataFrame, fio2_all: np.ndarray, judged: np.ndarray, totals: dict, warns: list) -> None:
-    t = series["time [min]"].to_numpy()[judged]
+def _gas_warnings(
+    series: dict[str, np.ndarray], fio2_all: np.ndarray, judged: np.ndarray, totals: dict, warns: list
+) -> None:
+    t = series["time [min]"][judged]
     fio2 = fio2_all[judged]
-    deficit = series["volume_deficit_flow [L/min]"].to_numpy()[judged]
+    deficit = series["volume_deficit_flow [L/min]"][judged]
     if totals["volume_deficit"].magnitude > 1e-9:
         first = t[np.argmax(deficit > 0)] if np.any(deficit > 0) else t[0]
         warns.append(

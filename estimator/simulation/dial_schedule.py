@@ -7,23 +7,29 @@ case's series, so it is exactly what the model did.
 
 from __future__ import annotations
 
-from typing import Any
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 #: Spacing of the rows of the table [min]: one setting every 10 minutes is what a hand can follow
 #: (common practice, no source).
 STEP_MIN = 10.0
 
 
-def dial_schedule(series: pd.DataFrame, phases: list[dict[str, Any]], step: float = STEP_MIN) -> list[dict[str, Any]]:
+def dial_schedule(
+    series: Mapping[str, Any] | pd.DataFrame, phases: list[dict[str, Any]], step: float = STEP_MIN
+) -> list[dict[str, Any]]:
     """Per end-tidal hold phase: the dial at its start, its median, at its end, and every ``step`` minutes.
 
     Parameters
     ----------
-    series : DataFrame
-        The case's series (``time [min]``, ``phase``, ``vaporizer_setting [%]``, ``end_tidal_agent [%]``).
+    series : DataFrame or dict of arrays
+        The case's series (``time [min]``, ``phase``, ``vaporizer_setting [%]``, ``end_tidal_agent [%]``):
+        :attr:`~estimator.simulation.results.CaseResult.columns` or the frame.
     phases : list of dict
         The case's phase reports (``index``, ``start``, ``end``, ``mode``).
     step : float
@@ -38,22 +44,22 @@ def dial_schedule(series: pd.DataFrame, phases: list[dict[str, Any]], step: floa
 
     Examples
     --------
-    >>> s = pd.DataFrame({"time [min]": [0.0, 5.0, 10.0], "vaporizer_setting [%]": [4.0, 3.0, 2.0],
-    ...                   "end_tidal_agent [%]": [0.5, 1.5, 1.8]})
+    >>> s = {"time [min]": [0.0, 5.0, 10.0], "vaporizer_setting [%]": [4.0, 3.0, 2.0],
+    ...      "end_tidal_agent [%]": [0.5, 1.5, 1.8]}
     >>> d = dial_schedule(s, [{"index": 0, "start": 0.0, "end": 10.0, "mode": "end_tidal_hold"}], step=5)
     >>> d[0]["dial_start"], d[0]["dial_median"], d[0]["dial_end"], [r["dial"] for r in d[0]["table"]]
     (4.0, 3.0, 2.0, [4.0, 3.0, 2.0])
     """
-    t = series["time [min]"].to_numpy(dtype=float)
-    dial = series["vaporizer_setting [%]"].to_numpy(dtype=float)
-    et = series["end_tidal_agent [%]"].to_numpy(dtype=float)
+    t = np.asarray(series["time [min]"], dtype=float)
+    dial = np.asarray(series["vaporizer_setting [%]"], dtype=float)
+    et = np.asarray(series["end_tidal_agent [%]"], dtype=float)
     out = []
     for ph in phases:
         if ph.get("mode") != "end_tidal_hold":
             continue
         t0, t1 = _minutes(ph["start"]), _minutes(ph["end"])
         if "phase" in series:  # a boundary time has a row in each phase: take this phase's rows
-            sel = np.flatnonzero(series["phase"].to_numpy() == ph["index"])
+            sel = np.flatnonzero(np.asarray(series["phase"]) == ph["index"])
         else:
             sel = np.flatnonzero((t >= t0 - 1e-9) & (t <= t1 + 1e-9))
         if sel.size == 0:
@@ -84,6 +90,8 @@ def dial_table(schedule: list[dict[str, Any]]) -> pd.DataFrame:
     >>> list(t.columns), t["dial [%]"].tolist(), t["end-tidal [%]"].tolist()
     (['phase', 'time [min]', 'dial [%]', 'end-tidal [%]'], [4.02], [1.73])
     """
+    import pandas as pd
+
     return pd.DataFrame(
         [
             {

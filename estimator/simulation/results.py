@@ -1,4 +1,4 @@
-"""Results of one case: totals as pint quantities, the series as a DataFrame, warnings, JSON.
+"""Results of one case: totals as pint quantities, the series (a DataFrame on demand), warnings, JSON.
 
 The result type and the thresholds it is judged by. :func:`estimator.simulation.assemble.build_result` turns
 the raw states of :mod:`estimator.physics.circuit` into a :class:`CaseResult`; this module does not load the
@@ -13,7 +13,6 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 import pint
 
 from ..accounts.accounting import litres_per_mmol  # noqa: F401 (re-exported)
@@ -23,6 +22,8 @@ from ..properties import CO2E_BASES
 from ..units import GAS_VOLUME_REFERENCE
 
 if TYPE_CHECKING:
+    import pandas as pd
+
     from ..inputs.scenario import Scenario
     from ..physics.physiology import Patient
 
@@ -89,8 +90,12 @@ class CaseResult:
     patient : Patient
     totals : dict[str, pint.Quantity]
         See the README ("lowflow case") for the keys.
+    columns : dict[str, numpy.ndarray]
+        The series as plain arrays, one per column: what the summary, the warnings and the JSON read.
     series : pandas.DataFrame
-        One row per output time; column names carry units in brackets.
+        The same columns as a frame (a property, built at first use: pandas is imported only when a
+        caller wants the frame, so ``lowflow case`` without ``--csv`` never loads it). One row per
+        output time; column names carry units in brackets.
     warnings : list[tuple[str, str]]
         ``(code, message)`` pairs.
     minimum_inspired_oxygen : pint.Quantity
@@ -105,7 +110,7 @@ class CaseResult:
     scenario: Scenario
     patient: Patient
     totals: dict[str, pint.Quantity]
-    series: pd.DataFrame
+    columns: dict[str, np.ndarray]
     warnings: list[tuple[str, str]]
     minimum_inspired_oxygen: pint.Quantity
     phases: list[dict[str, Any]]
@@ -113,6 +118,21 @@ class CaseResult:
     solver: dict[str, int] = field(default_factory=dict)
     cost: dict[str, Any] | None = None
     flow_reference: str = "ambient litres at 101.325 kPa and 20 degC"
+    _frame: Any = field(default=None, init=False, repr=False, compare=False)
+
+    @property
+    def series(self) -> pd.DataFrame:
+        """The series as a DataFrame, built once from :attr:`columns` at first use."""
+        if self._frame is None:
+            import pandas as pd
+
+            self._frame = pd.DataFrame(self.columns)
+        return self._frame
+
+    @series.setter
+    def series(self, frame: pd.DataFrame) -> None:
+        self._frame = frame
+        self.columns = {str(k): frame[k].to_numpy() for k in frame.columns}
 
     def mass_balance(self) -> dict[str, float]:
         """Relative mass-balance error per species.
@@ -135,7 +155,7 @@ class CaseResult:
         from ..jsonout import jsonable
         from .dial_schedule import dial_schedule
 
-        s = self.series
+        s = self.columns
         units = {k: v for k, v in SERIES_UNITS.items()}
         series = {"units": units}
         for key in SERIES_UNITS:
@@ -150,7 +170,7 @@ class CaseResult:
                 "cost": self.cost,
                 "warnings": [{"code": code, "message": msg} for code, msg in self.warnings],
                 "phases": self.phases,
-                "dial_schedule": dial_schedule(self.series, self.phases),
+                "dial_schedule": dial_schedule(self.columns, self.phases),
                 "series": series,
                 "gas_volume_reference": GAS_VOLUME_REFERENCE,
                 "flow_reference": self.flow_reference,
