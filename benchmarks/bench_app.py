@@ -15,9 +15,10 @@ put on the page:
 * the demo case's totals (target 2.5 s on a 2-core machine), also counted from the start command;
 * the five time-course charts drawn (for information: they may follow the totals);
 
-and after one input changes (the maintenance O2 flow in the phase table), the redraw a user sees:
-from the key press that commits the cell to the totals showing the new value (target 250 ms); the
-server's own timing line is printed beside it. The machine's load average is printed before and
+and after one input changes, the redraw a user sees: from the key press that commits the input to the
+totals showing the new value (target 250 ms), for a cell of the phase table (the maintenance O2 flow;
+Streamlit's table editor itself waits 150 ms before it sends an edit) and for a number box (the
+patient's weight); the server's own timing line is printed beside it. The machine's load average is printed before and
 after (a shared machine slows every figure). Prints the medians and their ratios to the targets.
 Needs chromium on the PATH.
 """
@@ -85,29 +86,42 @@ def _one_run(browser, via: str) -> dict[str, float]:
         marks = page.evaluate("() => window.__lowflowMarks")
         out = {k: marks[k] / 1000.0 for k in ("caution", "totals", "charts")}
         out["command"] = requested - started + out["totals"]
-        out["rerun"], out["server"] = _rerun_seconds(page)
+        out["rerun"], out["box"], out["server"] = _rerun_seconds(page)
         context.close()
         return out
     finally:
         app_server.stop(proc)
 
 
-def _rerun_seconds(page) -> tuple[float, float]:
-    """Seconds from the key press that commits a new maintenance O2 flow to the new totals on screen, and
-    the server-side seconds of that rerun (the app's timing line)."""
+def _rerun_seconds(page) -> tuple[float, float, float]:
+    """Seconds from the key press that commits an input to the new totals on screen: a cell of the phase
+    table (the maintenance O2 flow; Streamlit's table editor waits 150 ms after an edit before it sends
+    it) and a number box (the patient's weight); and the server-side seconds of the table's rerun (the
+    app's timing line)."""
     from browser_helpers import edit_cell, wait_for_run  # the browser tests' own cell editing
 
     stamp = page.get_by_text(re.compile(r"Page computed in \d+ ms")).first
     stamp.wait_for(timeout=90_000)
     wait_for_run(page)
     edit_cell(page, page.get_by_test_id("stDataFrame").first, 1, 2, "1.6", commit=False)
-    page.evaluate("() => window.__lowflowArm()")
+    table = _commit(page)
+    server = float(re.search(r"computed in (\d+) ms", stamp.inner_text()).group(1)) / 1000.0
+    weight = page.get_by_role("spinbutton", name=re.compile("^Weight"))
+    weight.fill(str(float(weight.input_value()) + 15.0))
+    box = _commit(page)
+    return table, box, server
+
+
+def _commit(page) -> float:
+    """Press Enter on the input being edited; seconds until the totals show a new value."""
+    from browser_helpers import wait_for_run
+
+    page.evaluate("() => { const m = window.__lowflowMarks; delete m.enter; delete m.redrawn; window.__lowflowArm(); }")
     page.keyboard.press("Enter")
     page.wait_for_function("() => window.__lowflowMarks.redrawn !== undefined", timeout=60_000)
     marks = page.evaluate("() => window.__lowflowMarks")
     wait_for_run(page)  # the stamp is the last element of the page
-    server = float(re.search(r"computed in (\d+) ms", stamp.inner_text()).group(1)) / 1000.0
-    return (marks["redrawn"] - marks["enter"]) / 1000.0, server
+    return (marks["redrawn"] - marks["enter"]) / 1000.0
 
 
 def _load() -> str:
@@ -147,8 +161,9 @@ def main() -> None:
         for k, r in enumerate(found, 1):
             print(
                 f"  run {k}: caution {r['caution']:5.2f} s, totals {r['totals']:5.2f} s (from the command "
-                f"{r['command']:5.2f} s), charts {r['charts']:5.2f} s, rerun {1e3 * r['rerun']:4.0f} ms on screen "
-                f"({1e3 * r['server']:4.0f} ms on the server)"
+                f"{r['command']:5.2f} s), charts {r['charts']:5.2f} s; rerun on screen {1e3 * r['rerun']:4.0f} ms "
+                f"after a table cell ({1e3 * r['server']:4.0f} ms on the server), {1e3 * r['box']:4.0f} ms after a "
+                "number box"
             )
         med = {k: statistics.median(r[k] for r in found) for k in found[0]}
         print(f"  page request to caution  median {med['caution']:5.2f} s")
@@ -159,9 +174,13 @@ def main() -> None:
         print(f"  page request to charts   median {med['charts']:5.2f} s  (for information)")
         print(f"  command to totals        median {med['command']:5.2f} s  (server start included; for information)")
         print(
-            f"  rerun after one input    median {1e3 * med['rerun']:5.0f} ms on screen, target <= "
-            f"{1e3 * RERUN_TARGET:g} ms, ratio to target {med['rerun'] / RERUN_TARGET:5.2f} "
-            f"(server {1e3 * med['server']:.0f} ms)"
+            f"  rerun after one input    median {1e3 * med['rerun']:5.0f} ms on screen after a table cell "
+            f"(150 ms of it the editor's wait; server {1e3 * med['server']:.0f} ms), target <= "
+            f"{1e3 * RERUN_TARGET:g} ms, ratio to target {med['rerun'] / RERUN_TARGET:5.2f}"
+        )
+        print(
+            f"                           median {1e3 * med['box']:5.0f} ms on screen after a number box, "
+            f"ratio to target {med['box'] / RERUN_TARGET:5.2f}"
         )
 
 

@@ -24,7 +24,7 @@ def main(options: list[str] | None = None) -> None:
 
     from . import warmup
 
-    warmup.start()
+    warmup.start(wait=True)  # once the server listens: its own start is not slowed
     sys.argv = ["streamlit", "run", str(SCRIPT), *(sys.argv[1:] if options is None else options)]
     cli.main(prog_name="streamlit")
 

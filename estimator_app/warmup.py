@@ -3,10 +3,11 @@
 Streamlit runs every page script in the server's own process, so a module imported here is the one
 the page uses, and a kernel loaded here is loaded for every session. Two starts:
 
-* ``lowflow app`` (:mod:`estimator_app.serve`) starts it with the server, before a browser connects:
-  the browser spends its first 0.7-0.9 s loading the page's scripts, while the server would
-  otherwise wait idle, so the first page's imports and the kernels' cache load (about 1.1 s) are
-  mostly done before the page's script runs (measured in benchmarks/bench_app.py).
+* ``lowflow app`` (:mod:`estimator_app.serve`) starts it as soon as the server listens, before a
+  browser connects: the browser spends its first 0.7-1.2 s loading the page's scripts (on the other
+  core) while the server would otherwise wait idle, so the first page's imports and the kernels'
+  cache load (about 1.1-1.5 s) are mostly done before the page's script runs. Started before the
+  server listens, it only shared the interpreter lock with the server's own start.
 * ``streamlit run app.py`` has no hook before the first page, so :func:`start` runs after that page
   is drawn (started before it, both would share one interpreter lock and the page would come later);
   the first change of an input is then answered as fast as later ones.
@@ -23,8 +24,23 @@ _started = threading.Event()
 FIRST_PAGE = ("estimator_app.shell", "estimator_app.pages.case_planner")
 
 
-def _load() -> None:
+def _server_up(timeout: float = 10.0, poll: float = 0.02) -> None:
+    """Wait until Streamlit's runtime has started (its server listens), at most ``timeout`` seconds."""
+    import time
+
+    from streamlit.runtime import Runtime
+
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if Runtime.exists() and Runtime.instance().state.name != "INITIAL":
+            return
+        time.sleep(poll)
+
+
+def _load(wait: bool = False) -> None:
     try:
+        if wait:
+            _server_up()
         for module in FIRST_PAGE:
             importlib.import_module(module)
         from estimator.inputs.scenario import scenario_from_dict
@@ -37,11 +53,12 @@ def _load() -> None:
         pass
 
 
-def start() -> threading.Thread | None:
-    """Start the warm-up once per server process; the thread, or None if it was started before."""
+def start(wait: bool = False) -> threading.Thread | None:
+    """Start the warm-up once per server process (``wait``: once the server listens); the thread, or
+    None if it was started before."""
     if _started.is_set():
         return None
     _started.set()
-    thread = threading.Thread(target=_load, name="lowflow-warmup", daemon=True)
+    thread = threading.Thread(target=_load, args=(wait,), name="lowflow-warmup", daemon=True)
     thread.start()
     return thread
