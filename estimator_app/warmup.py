@@ -19,6 +19,7 @@ import importlib
 import threading
 
 _started = threading.Event()
+_ready = threading.Event()
 
 #: Modules the first page (the case planner) imports; loading them early is what the early start saves.
 FIRST_PAGE = ("estimator_app.shell", "estimator_app.pages.case_planner")
@@ -49,8 +50,14 @@ def _load(wait: bool = False) -> None:
         from . import demo
 
         simulate(scenario_from_dict(demo.scenario()))  # loads each compiled kernel from numba's cache
+        _ready.set()
     except Exception:  # noqa: BLE001 - a failed warm-up only costs time; the page reports real errors
         pass
+
+
+def ready() -> bool:
+    """True once the warm-up has run the demo case: a case now takes milliseconds."""
+    return _ready.is_set()
 
 
 def start(wait: bool = False) -> threading.Thread | None:
