@@ -86,6 +86,7 @@ def _one_run(browser, via: str) -> dict[str, float]:
         marks = page.evaluate("() => window.__lowflowMarks")
         out = {k: marks[k] / 1000.0 for k in ("caution", "totals", "charts")}
         out["command"] = requested - started + out["totals"]
+        out["first"] = _server_seconds(page)
         out["rerun"], out["box"], out["server"] = _rerun_seconds(page)
         context.close()
         return out
@@ -100,16 +101,24 @@ def _rerun_seconds(page) -> tuple[float, float, float]:
     app's timing line)."""
     from browser_helpers import edit_cell, wait_for_run  # the browser tests' own cell editing
 
-    stamp = page.get_by_text(re.compile(r"Page computed in \d+ ms")).first
-    stamp.wait_for(timeout=90_000)
     wait_for_run(page)
     edit_cell(page, page.get_by_test_id("stDataFrame").first, 1, 2, "1.6", commit=False)
     table = _commit(page)
-    server = float(re.search(r"computed in (\d+) ms", stamp.inner_text()).group(1)) / 1000.0
+    server = _server_seconds(page)
     weight = page.get_by_role("spinbutton", name=re.compile("^Weight"))
     weight.fill(str(float(weight.input_value()) + 15.0))
     box = _commit(page)
     return table, box, server
+
+
+def _server_seconds(page) -> float:
+    """Seconds the last run took on the server (the app's timing line, the last element of the page)."""
+    from browser_helpers import wait_for_run
+
+    stamp = page.get_by_text(re.compile(r"Page computed in \d+ ms")).first
+    stamp.wait_for(timeout=90_000)
+    wait_for_run(page)
+    return float(re.search(r"computed in (\d+) ms", stamp.inner_text()).group(1)) / 1000.0
 
 
 def _commit(page) -> float:
@@ -161,7 +170,7 @@ def main() -> None:
         for k, r in enumerate(found, 1):
             print(
                 f"  run {k}: caution {r['caution']:5.2f} s, totals {r['totals']:5.2f} s (from the command "
-                f"{r['command']:5.2f} s), charts {r['charts']:5.2f} s; rerun on screen {1e3 * r['rerun']:4.0f} ms "
+                f"{r['command']:5.2f} s; {1e3 * r['first']:4.0f} ms on the server), charts {r['charts']:5.2f} s; rerun on screen {1e3 * r['rerun']:4.0f} ms "
                 f"after a table cell ({1e3 * r['server']:4.0f} ms on the server), {1e3 * r['box']:4.0f} ms after a "
                 "number box"
             )
@@ -171,6 +180,7 @@ def main() -> None:
             f"  page request to totals   median {med['totals']:5.2f} s  target <= {FIRST_RENDER_TARGET:g} s  "
             f"ratio to target {med['totals'] / FIRST_RENDER_TARGET:5.2f}"
         )
+        print(f"  first page on the server median {1e3 * med['first']:5.0f} ms (the app's timing line)")
         print(f"  page request to charts   median {med['charts']:5.2f} s  (for information)")
         print(f"  command to totals        median {med['command']:5.2f} s  (server start included; for information)")
         print(

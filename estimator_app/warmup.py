@@ -3,7 +3,7 @@
 Streamlit runs every page script in the server's own process, so a module imported here is the one
 the page uses, and a kernel loaded here is loaded for every session. Two starts:
 
-* ``lowflow app`` (:mod:`estimator_app.serve`) starts it as soon as the server listens, before a
+* ``lowflow app`` (:mod:`estimator_app.serve`) runs it as soon as the server listens, before a
   browser connects: the browser spends its first 0.7-1.2 s loading the page's scripts (on the other
   core) while the server would otherwise wait idle, so the first page's imports and the kernels'
   cache load (about 1.1-1.5 s) are mostly done before the page's script runs. Started before the
@@ -25,23 +25,8 @@ _ready = threading.Event()
 FIRST_PAGE = ("estimator_app.shell", "estimator_app.pages.case_planner")
 
 
-def _server_up(timeout: float = 10.0, poll: float = 0.02) -> None:
-    """Wait until Streamlit's runtime has started (its server listens), at most ``timeout`` seconds."""
-    import time
-
-    from streamlit.runtime import Runtime
-
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        if Runtime.exists() and Runtime.instance().state.name != "INITIAL":
-            return
-        time.sleep(poll)
-
-
-def _load(wait: bool = False) -> None:
+def _load() -> None:
     try:
-        if wait:
-            _server_up()
         for module in FIRST_PAGE:
             importlib.import_module(module)
         from estimator.inputs.scenario import scenario_from_dict
@@ -60,12 +45,18 @@ def ready() -> bool:
     return _ready.is_set()
 
 
-def start(wait: bool = False) -> threading.Thread | None:
-    """Start the warm-up once per server process (``wait``: once the server listens); the thread, or
-    None if it was started before."""
+def run() -> None:
+    """Run the warm-up in the calling thread, once per process (a later :func:`start` does nothing)."""
+    if not _started.is_set():
+        _started.set()
+        _load()
+
+
+def start() -> threading.Thread | None:
+    """Start the warm-up in a thread, once per process; the thread, or None if it was started before."""
     if _started.is_set():
         return None
     _started.set()
-    thread = threading.Thread(target=_load, args=(wait,), name="lowflow-warmup", daemon=True)
+    thread = threading.Thread(target=_load, name="lowflow-warmup", daemon=True)
     thread.start()
     return thread

@@ -43,7 +43,7 @@ def test_app_starts_its_server_with_the_engine_warm_up(monkeypatch):
     out = CliRunner().invoke(app, ["app", "--no-browser", "--port", "8600"])
     assert out.exit_code == 0, out.stdout
     argv = started[0]
-    assert argv[1:3] == ["-m", "estimator_app.serve"] and argv[3:] == [
+    assert argv[1] == str(serve.SCRIPT.with_name("serve.py")) and argv[2:] == [
         "--server.port",
         "8600",
         "--server.headless",
@@ -55,7 +55,6 @@ def test_app_starts_its_server_with_the_engine_warm_up(monkeypatch):
 def test_warm_up_runs_the_demo_case_and_starts_once():
     from estimator_app import warmup
 
-    warmup._load(wait=False)  # synchronously, as its thread does
+    warmup.run()  # in this thread, as lowflow app's server runs it
     assert warmup.ready()
-    warmup._started.set()  # as after a first start: a second start is refused
-    assert warmup.start() is None
+    assert warmup.start() is None  # once per process: the page's later start does nothing
