@@ -1,13 +1,11 @@
-"""Load the engine (numba's compiled kernels) and the first page's modules in a background thread.
+"""Load the engine (numba's compiled kernels) and the first page's modules, once per server process.
 
 Streamlit runs every page script in the server's own process, so a module imported here is the one
 the page uses, and a kernel loaded here is loaded for every session. Two starts:
 
-* ``lowflow app`` (:mod:`estimator_app.serve`) runs it as soon as the server listens, before a
-  browser connects: the browser spends its first 0.7-1.2 s loading the page's scripts (on the other
-  core) while the server would otherwise wait idle, so the first page's imports and the kernels'
-  cache load (about 1.1-1.5 s) are mostly done before the page's script runs. Started before the
-  server listens, it only shared the interpreter lock with the server's own start.
+* ``lowflow app`` (:mod:`estimator_app.serve`) runs it before the server listens, so the first
+  browser that connects meets a warm engine (the first page's imports and the kernels' cache load,
+  1-2 s, are no longer part of its wait).
 * ``streamlit run app.py`` has no hook before the first page, so :func:`start` runs after that page
   is drawn (started before it, both would share one interpreter lock and the page would come later);
   the first change of an input is then answered as fast as later ones.
