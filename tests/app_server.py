@@ -33,7 +33,7 @@ def free_port() -> int:
 
 def command(port: int, via: str = "streamlit") -> list[str]:
     """The command that starts the app: ``streamlit run app.py``, or ``lowflow app`` (``via="lowflow"``,
-    the README's command: the engine loads as the server starts)."""
+    the README's command: the model is loaded before the server listens)."""
     if via == "lowflow":
         lowflow = Path(sys.executable).with_name("lowflow")
         return [str(lowflow), "app", "--no-browser", "--port", str(port)]
