@@ -270,11 +270,19 @@ def rows_back(edited: pd.DataFrame, rows: list[dict[str, Any]], fields: list[Fie
 
 
 def kept_view(doc: dict[str, Any], edited: set[str], title: str = "Keys this page does not edit") -> None:
-    """The document's keys outside ``edited`` (read-only TOML), saved back unchanged."""
+    """The document's keys outside ``edited`` (read-only TOML), saved back unchanged.
+
+    The TOML is drawn only while the expander is open: a code block makes the browser load its
+    syntax highlighter (about 1.5 MB of script), which delayed the first page's results.
+    """
     rest = {k: v for k, v in doc.items() if k not in edited}
     if not rest:
         return
-    with st.expander(f"{title} ({len(rest)}, kept as loaded and saved unchanged)"):
+    label = f"{title} ({len(rest)}, kept as loaded and saved unchanged)"
+    box = st.expander(label, key=f"kept.{title}", on_change="rerun")
+    if not box.open:
+        return
+    with box:
         try:
             st.code(tomli_w.dumps(rest), language="toml")
         except TypeError:

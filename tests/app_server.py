@@ -1,5 +1,5 @@
-"""Start and stop ``streamlit run app.py`` on a free loopback port (the browser test and
-benchmarks/bench_app.py share it)."""
+"""Start and stop the app on a free loopback port: ``streamlit run app.py`` (the browser tests) or
+``lowflow app`` (benchmarks/bench_app.py measures both)."""
 
 from __future__ import annotations
 
@@ -31,29 +31,29 @@ def free_port() -> int:
         return s.getsockname()[1]
 
 
-def start(timeout: float = 90.0, poll: float = 0.1) -> tuple[subprocess.Popen, str]:
-    """A fresh app server and its URL, once its health endpoint answers.
+def command(port: int, via: str = "streamlit") -> list[str]:
+    """The command that starts the app: ``streamlit run app.py``, or ``lowflow app`` (``via="lowflow"``,
+    the README's command: the model is loaded before the server listens)."""
+    if via == "lowflow":
+        lowflow = Path(sys.executable).with_name("lowflow")
+        return [str(lowflow), "app", "--no-browser", "--port", str(port)]
+    return [sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true", "--server.port", str(port)]
+
+
+def start(timeout: float = 90.0, poll: float = 0.1, via: str = "streamlit") -> tuple[subprocess.Popen, str]:
+    """A fresh app server started by :func:`command` and its URL, once its health endpoint answers.
 
     Raises RuntimeError with the end of the server's output if it does not start within ``timeout``.
     """
     port = free_port()
-    env = {**os.environ, "STREAMLIT_BROWSER_GATHER_USAGE_STATS": "false"}
+    env = {
+        **os.environ,
+        "STREAMLIT_BROWSER_GATHER_USAGE_STATS": "false",
+        "STREAMLIT_SERVER_ADDRESS": "127.0.0.1",
+        "STREAMLIT_SERVER_FILE_WATCHER_TYPE": "none",
+    }
     proc = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "streamlit",
-            "run",
-            "app.py",
-            "--server.headless",
-            "true",
-            "--server.port",
-            str(port),
-            "--server.address",
-            "127.0.0.1",
-            "--server.fileWatcherType",
-            "none",
-        ],
+        command(port, via),
         cwd=ROOT,
         env=env,
         stdout=subprocess.PIPE,

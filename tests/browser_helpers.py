@@ -146,8 +146,9 @@ def assert_tables_read_well(page: Any) -> None:
     assert not bad, bad
 
 
-def edit_cell(page: Any, grid: Any, row: int, col: int, text: str, attempts: int = 4) -> None:
-    """Type ``text`` into the cell of data row ``row`` and column ``col`` (both from 0) of a data editor.
+def edit_cell(page: Any, grid: Any, row: int, col: int, text: str, attempts: int = 4, commit: bool = True) -> None:
+    """Type ``text`` into the cell of data row ``row`` and column ``col`` (both from 0) of a data editor;
+    ``commit=False`` leaves the typed text in the open editor (the caller presses Enter).
 
     Selects the first cell, checks in the grid's accessible table that it is selected, moves with the
     arrow keys, checks the target is selected and that the cell editor opens on the target's text, then
@@ -179,7 +180,8 @@ def edit_cell(page: Any, grid: Any, row: int, col: int, text: str, attempts: int
                 raise
             page.keyboard.press("Escape")
     editor.fill(text)
-    page.keyboard.press("Enter")
+    if commit:
+        page.keyboard.press("Enter")
 
 
 def choose(page: Any, label: str, option: str) -> None:

@@ -236,3 +236,16 @@ def test_empty_editor_cells_read_blank_not_none(monkeypatch, name):
     at = page(name)
     assert_clean(at)
     assert calls and all(kw.get("placeholder") == "" for kw in calls)
+
+
+def test_kept_keys_are_shown_as_toml_only_while_their_expander_is_open():
+    # A code block makes the browser load its syntax highlighter (about 1.5 MB of script), so the
+    # closed expander draws none; opened, it shows the keys as loaded (benchmarks/bench_app.py).
+    at = page("case_planner")
+    label = next(e.label for e in at.expander if e.label.startswith("Keys this page does not edit"))
+    assert "kept as loaded and saved unchanged" in label and not at.code
+    at.session_state["kept.Keys this page does not edit"] = True
+    at.run(timeout=TIMEOUT)
+    assert_clean(at)
+    shown = tomllib.loads(at.code[0].value)
+    assert shown["prices"] == demo.scenario()["prices"]

@@ -28,3 +28,33 @@ def test_app_entry_script_and_its_files_are_found():
 
     assert (Path(estimator_app.__file__).parent / "run.py").is_file()
     assert any(DEMO_DIR.glob("*.toml")) and VALIDATION_REPORT.is_file()
+
+
+def test_app_starts_its_server_with_the_engine_warm_up(monkeypatch):
+    # lowflow app runs estimator_app.serve: `streamlit run` on the entry script, with the warm-up
+    # started in the server's process (its effect is measured in benchmarks/bench_app.py).
+    import os
+
+    from estimator_app import serve
+
+    started = []
+    monkeypatch.setattr(os, "execv", lambda exe, argv: started.append(argv))
+    monkeypatch.setattr(os, "chdir", lambda path: None)
+    out = CliRunner().invoke(app, ["app", "--no-browser", "--port", "8600"])
+    assert out.exit_code == 0, out.stdout
+    argv = started[0]
+    assert argv[1] == str(serve.SCRIPT.with_name("serve.py")) and argv[2:] == [
+        "--server.port",
+        "8600",
+        "--server.headless",
+        "true",
+    ]
+    assert serve.SCRIPT.name == "run.py" and serve.SCRIPT.is_file()
+
+
+def test_warm_up_runs_the_demo_case_and_starts_once():
+    from estimator_app import warmup
+
+    warmup.run()  # in this thread, as lowflow app's server runs it
+    assert warmup.ready()
+    assert warmup.start() is None  # once per process: the page's later start does nothing

@@ -35,7 +35,7 @@ def wheel(tmp_path_factory) -> zipfile.ZipFile:
 
 def test_wheel_carries_the_app_and_what_it_reads(wheel):
     names = set(wheel.namelist())
-    assert {"estimator_app/run.py", "estimator_app/shell.py", "estimator/py.typed"} <= names
+    assert {"estimator_app/run.py", "estimator_app/serve.py", "estimator_app/shell.py", "estimator/py.typed"} <= names
     assert {"estimator_app/docs/VALIDATION.md", "estimator_app/.streamlit/config.toml"} <= names
     demo = {p.name for p in (ROOT / "demo_cases").glob("*.toml")}
     assert demo <= {Path(n).name for n in names if n.startswith("estimator_app/demo_cases/")}

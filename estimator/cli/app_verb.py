@@ -29,7 +29,8 @@ def app_command(
             "the app extra: pip install 'lowflow-estimator[app]' (or uv sync in a checkout)",
         )
     script = Path(app_spec.origin).parent / "run.py"
-    argv = [sys.executable, "-m", "streamlit", "run", str(script), "--server.port", str(port)]
+    # serve.py is `streamlit run` on that script, with the engine loading as the server starts.
+    argv = [sys.executable, str(script.with_name("serve.py")), "--server.port", str(port)]
     argv += ["--server.headless", "false" if browser else "true"]
     # Streamlit reads .streamlit/config.toml (theme, upload cap, no error details, no usage
     # statistics) from the working folder: the checkout's root, or its copy in the installed package.
