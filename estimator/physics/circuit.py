@@ -116,7 +116,7 @@ NW = 37
 
 MODE_DIAL, MODE_HOLD = 0.0, 1.0
 #: O2 fraction scale of the hypoxic limiter of O2 uptake (keeps amounts non-negative when a circuit runs out of O2;
-#: at any FA,O2 above 0.05 the limiter is exactly 1 to 1e-4).
+#: at any FA,O2 above 0.05 the limiter is 1 to 1e-4, above 40 scales exactly 1.0 in doubles: exp(-40) < 2**-54).
 O2_LIMIT_SCALE = 0.005
 
 _jit = numba.njit(cache=True, fastmath=False, nogil=True, error_model="numpy")  # no zero-division checks
@@ -133,7 +133,7 @@ def _lungs(y, p, w):
         pv = y[Y_BODY + NBODYSTATE * b + 1]
         w[W_UPT + s] = q * p[P_LAMBDA + b] * ca * (y[Y_FA + s] - pv)
     fo2 = y[Y_FA + O2]
-    lim = 1.0 - math.exp(-fo2 / O2_LIMIT_SCALE) if fo2 > 0.0 else 0.0
+    lim = 1.0 if fo2 > 40.0 * O2_LIMIT_SCALE else (1.0 - math.exp(-fo2 / O2_LIMIT_SCALE) if fo2 > 0.0 else 0.0)
     w[W_UPT + O2], w[W_UPT + CO2] = p[P_VO2] * lim, -p[P_VCO2]
     unet = 0.0
     for s in range(NS):
