@@ -112,7 +112,7 @@ W_UPT = 16  # uptake rates [6]
 W_MAC, W_TARGET, W_DIRECT, W_CO2ABS = 22, 23, 24, 25
 W_FE = 26  # mixed-expired fractions [6]
 W_ABS, W_SPILL, W_OUTC, W_METAB, W_VAOUT = 32, 33, 34, 35, 36
-NW = 37
+W_FFG, NW = 37, 43  # fresh-gas fractions [6] (the agent's is the dial), then the workspace size
 
 MODE_DIAL, MODE_HOLD = 0.0, 1.0
 #: O2 fraction scale of the hypoxic limiter of O2 uptake (keeps amounts non-negative when a circuit runs out of O2;
@@ -192,7 +192,8 @@ def _flows_at(u, y, p, w, carrier, unet):
     w[W_U], w[W_FGF], w[W_DIRECT] = u, fgf, direct
     e_out = vi - unet
     for s in range(NS):
-        fi = alpha * _fresh_fraction(s, u, fgf, p) + (1.0 - alpha) * y[Y_FC + s]
+        w[W_FFG + s] = ffg = _fresh_fraction(s, u, fgf, p)
+        fi = alpha * ffg + (1.0 - alpha) * y[Y_FC + s]
         w[W_FI + s] = fi
         w[W_FE + s] = _mixed(va_out, y[Y_FA + s], vd, fi, e_out)
         w[W_FET + s] = _mixed(va_out, y[Y_FA + s], vdalv, fi, va_out + vdalv)
@@ -321,19 +322,17 @@ def rhs(y, p, w, dy):
     """Time derivative of the state ``y`` into ``dy`` (``w`` is scratch for the flows)."""
     flows(y, p, w)
     fgf, direct, makeup, absorber, spill, out_c = w[W_FGF], w[W_DIRECT], w[W_MAKEUP], w[W_ABS], w[W_SPILL], w[W_OUTC]
-    va, va_out, leak, sample, u = p[P_VA], w[W_VAOUT], p[P_LEAK], p[P_SAMPLE], w[W_U]
+    va, va_out, leak, sample = p[P_VA], w[W_VAOUT], p[P_LEAK], p[P_SAMPLE]
     inv_nc, inv_nl, q = 1.0 / p[P_NC], 1.0 / p[P_NL], p[P_Q]
     # make-up gas: fresh-gas composition, or room air with an air-entrainment valve or when no fresh
     # gas flows at all (the circuit then draws room air through its negative-pressure relief)
     room_air = p[P_MAKEUP_AIR] > 0.0 or fgf <= 0.0
     for s in range(NS):
-        ffg = _fresh_fraction(s, u, fgf, p)
+        ffg = w[W_FFG + s]  # as _flows_at found it (one division fewer a species)
         fmk = p[P_AIR + s] if room_air else ffg
         fc = y[Y_FC + s]
         fe = w[W_FE + s]
-        into = (fgf - direct) * ffg + absorber * fe + makeup * fmk
-        if s == CO2:
-            into -= w[W_CO2ABS]
+        into = (fgf - direct) * ffg + absorber * fe + makeup * fmk - (w[W_CO2ABS] if s == CO2 else 0.0)
         dy[Y_FC + s] = (into - out_c * fc) * inv_nc
         dy[Y_FA + s] = (va * w[W_FI + s] - va_out * y[Y_FA + s] - w[W_UPT + s]) * inv_nl
         dy[Y_FGIN + s] = fgf * ffg
