@@ -57,7 +57,11 @@ _jit = numba.njit(cache=True, nogil=True, error_model="numpy")
 
 @intrinsic
 def _unowned(typingctx, arr):
-    """A view of ``arr`` that carries no reference count (the caller keeps ``arr`` alive)."""
+    """A view of ``arr`` that carries no reference count, so passing it on costs no atomic count updates.
+
+    Valid only while ``arr`` lives: numba frees an array after its last use, so the caller must use ``arr``
+    itself after the last use of the view (or ``arr`` must be an argument of the caller's caller).
+    """
 
     def codegen(context, builder, sig, args):
         ary = context.make_array(sig.args[0])(context, builder, value=args[0])
@@ -303,7 +307,7 @@ def integrate_cases(y0, params, durations, rtol, atol, y_end, makeup, extra, sta
         y = y0[i].copy()
         st = np.zeros(5, dtype=np.int64)
         h = 0.0
-        yu, wu = _unowned(y), _unowned(work)
+        yu, wu = _unowned(y), _unowned(work)  # y and work are read after the phases: they outlive the views
         for k in range(nph):
             dur = durations[i, k]
             if dur <= 0.0:
