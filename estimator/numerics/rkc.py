@@ -298,8 +298,8 @@ def integrate_cases(y0, params, durations, rtol, atol, y_end, makeup, extra, sta
     n = y0.shape[0]
     nph = durations.shape[1]
     # The arrays handed to the right-hand side are views without reference counts (the owners outlive them): the
-    # atomic increments and decrements of the counts at every call cost a fifth of the run on one core, and more
-    # on two, where the threads share the count of ``params``.
+    # atomic increments and decrements of the counts at every call were the hottest instructions of a profile,
+    # and on two cores the threads shared the count of ``params``.
     cheb = chebyshev_table()
     for i in numba.prange(n):
         work = np.zeros((WORK_ROWS, c.NY))
