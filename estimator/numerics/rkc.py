@@ -32,6 +32,8 @@ import math
 
 import numba
 import numpy as np
+from numba.core import cgutils
+from numba.extending import intrinsic
 
 from ..limits import INSPIRED_OXYGEN_SETTLE
 from ..physics import circuit as c
@@ -44,10 +46,30 @@ RHO_SAFETY = 1.2
 RHO_EVERY = 25
 RHO_ITERATIONS = 20
 MAX_STAGES = 200
+#: Rows of a case's scratch array: 0-6 stage vectors, 7 the case's running extras, 8 the eigenvector estimate
+#: (carried from phase to phase), 9 a spare derivative, 10 the flows workspace (``NW`` entries).
+WORK_ROWS = 11
 
 #: Divisions compile without Python's zero-divisor check (numpy's error model: IEEE results, the same for every
 #: non-zero divisor), which lets the compiler vectorise the loops.
 _jit = numba.njit(cache=True, nogil=True, error_model="numpy")
+
+
+@intrinsic
+def _unowned(typingctx, arr):
+    """A view of ``arr`` that carries no reference count, so passing it on costs no atomic count updates.
+
+    Valid only while ``arr`` lives: numba frees an array after its last use, so the caller must use ``arr``
+    itself after the last use of the view (or ``arr`` must be an argument of the caller's caller).
+    """
+
+    def codegen(context, builder, sig, args):
+        ary = context.make_array(sig.args[0])(context, builder, value=args[0])
+        ary.meminfo = cgutils.get_null_value(ary.meminfo.type)
+        ary.parent = cgutils.get_null_value(ary.parent.type)
+        return ary._getvalue()
+
+    return arr(arr), codegen
 
 
 @_jit
@@ -83,6 +105,7 @@ def spectral_radius(y, p, f0, w, v, z, fz):
     """
     ynrm = _norm(y, NCORE)
     znrm = _norm(z, NCORE)
+    least = 2 if znrm > 0.0 else 3  # iterations before the convergence test: fewer from a carried eigenvector
     if znrm == 0.0:
         for i in range(NCORE):
             z[i] = 1.0 + 0.1 * i / NCORE
@@ -102,24 +125,41 @@ def spectral_radius(y, p, f0, w, v, z, fz):
         znrm = _norm(z, NCORE)
         rold = rho
         rho = znrm / dy
-        if znrm == 0.0 or (it > 2 and abs(rho - rold) < 0.01 * rho):
+        if znrm == 0.0 or (it >= least and abs(rho - rold) < 0.01 * rho):
             break
     return RHO_SAFETY * rho, it
 
 
 @_jit
-def rkc_phase(y, p, span, rtol, atol, h, work, z, stats):
+def chebyshev_table():
+    """``w0`` and ``w1`` of the RKC2 recursion for every stage count ``m`` (rows; Sommeijer et al. 1998, eq. 2.8).
+
+    They depend on ``m`` only, so the batch computes them once instead of at every step.
+    """
+    out = np.zeros((MAX_STAGES + 1, 2))
+    for m in range(2, MAX_STAGES + 1):
+        w0 = 1.0 + 2.0 / (13.0 * m * m)
+        t1 = w0 * w0 - 1.0
+        t2 = math.sqrt(t1)
+        arg = m * math.log(w0 + t2)
+        out[m, 0] = w0
+        out[m, 1] = math.sinh(arg) * t1 / (math.cosh(arg) * m * t2 - w0 * math.sinh(arg))
+    return out
+
+
+@_jit
+def rkc_phase(y, p, span, rtol, atol, h, work, stats, cheb):
     """Integrate one phase of ``span`` minutes in place on ``y`` with RKC2.
 
-    ``work`` is float64[8, NY] scratch, ``z`` the eigenvector estimate, ``stats`` int64[5]
-    (accepted, rejected, evaluations, phases, failures); also tracks in ``work[7, 0]`` the lowest
-    inspired O2 at step ends after the first minute (``work[7, 1]`` is the case time). Returns
-    the last accepted step [min].
+    ``work`` is float64[WORK_ROWS, NY] scratch (see :func:`integrate_cases`), ``stats`` int64[5] (accepted,
+    rejected, evaluations, phases, failures), ``cheb`` the :func:`chebyshev_table`. Also tracks in ``work[7, 0]``
+    the lowest inspired O2 at step ends after the first minute (``work[7, 1]`` is the case time). Returns the
+    last accepted step [min].
     """
     n = c.NY
-    w = np.zeros(c.NW)
     yn, fn, yjm1, yjm2, ynew, fnew, v = work[0], work[1], work[2], work[3], work[4], work[5], work[6]
-    fz = np.empty(n)
+    z, fz, w = work[8], work[9], work[10, : c.NW]
+    w[:] = 0.0  # the flows workspace starts each phase afresh (the hold dial's first guess is 0)
     c.rhs(y, p, w, fn)
     rho, k = spectral_radius(y, p, fn, w, v, z, fz)
     stats[2] += 1 + k
@@ -140,7 +180,7 @@ def rkc_phase(y, p, span, rtol, atol, h, work, z, stats):
         if 0.1 * h < span * math.sqrt(est):
             h = max(0.1 * h / math.sqrt(est), 1e-9)
     h = min(h, span)
-    errold = 0.0
+    e3old = 0.0
     hold = h
     since = 0
     first = True
@@ -156,11 +196,7 @@ def rkc_phase(y, p, span, rtol, atol, h, work, z, stats):
         for i in range(n):
             yn[i] = y[i]
         # Chebyshev recursion of RKC (Sommeijer et al. 1998, eqs. 2.5-2.9), damping eps = 2/13.
-        w0 = 1.0 + 2.0 / (13.0 * m * m)
-        t1 = w0 * w0 - 1.0
-        t2 = math.sqrt(t1)
-        arg = m * math.log(w0 + t2)
-        w1 = math.sinh(arg) * t1 / (math.cosh(arg) * m * t2 - w0 * math.sinh(arg))
+        w0, w1 = cheb[m, 0], cheb[m, 1]
         bjm1 = 1.0 / (4.0 * w0 * w0)
         bjm2 = bjm1
         mus = w1 * bjm1
@@ -205,24 +241,26 @@ def rkc_phase(y, p, span, rtol, atol, h, work, z, stats):
         work[7, 1] += h
         for i in range(n):
             y[i] = ynew[i]
-            fn[i] = fnew[i]
+        fn, fnew = fnew, fn  # the new derivative becomes the step's start (a swap of buffers, not a copy)
         if work[7, 1] >= INSPIRED_OXYGEN_SETTLE and w[c.W_FI + c.O2] < work[7, 0]:
             work[7, 0] = w[c.W_FI + c.O2]
         fac = 10.0
+        e3 = err ** (1.0 / 3.0)  # one power a step: it is also the next step's errold ** (1/3)
         if first:
-            e3 = err ** (1.0 / 3.0)
             if 0.8 < fac * e3:
                 fac = 0.8 / e3
         else:
-            a = 0.8 * h * errold ** (1.0 / 3.0)
-            b = hold * err ** (2.0 / 3.0)
+            a = 0.8 * h * e3old
+            b = hold * (e3 * e3)
             if a < fac * b:
                 fac = a / b
         first = False
         hold = h
-        errold = err
+        e3old = e3
         h = max(0.1, fac) * h
         since += 1
+        # re-estimated every RHO_EVERY steps even while two stages suffice: skipping those estimates left a stale,
+        # low estimate that held 300-kg day-long cases at short two-stage steps (ten times the evaluations; measured)
         if since >= RHO_EVERY and t < span:
             rho, k = spectral_radius(y, p, fn, w, v, z, fz)
             stats[2] += k
@@ -259,13 +297,17 @@ def integrate_cases(y0, params, durations, rtol, atol, y_end, makeup, extra, sta
     """
     n = y0.shape[0]
     nph = durations.shape[1]
+    # The arrays handed to the right-hand side are views without reference counts (the owners outlive them): the
+    # atomic increments and decrements of the counts at every call were the hottest instructions of a profile,
+    # and on two cores the threads shared the count of ``params``.
+    cheb = chebyshev_table()
     for i in numba.prange(n):
-        work = np.zeros((8, c.NY))
+        work = np.zeros((WORK_ROWS, c.NY))
         work[7, 0] = 1.0
-        z = np.zeros(c.NY)
         y = y0[i].copy()
         st = np.zeros(5, dtype=np.int64)
         h = 0.0
+        yu, wu = _unowned(y), _unowned(work)  # y and work are read after the phases: they outlive the views
         for k in range(nph):
             dur = durations[i, k]
             if dur <= 0.0:
@@ -274,7 +316,7 @@ def integrate_cases(y0, params, durations, rtol, atol, y_end, makeup, extra, sta
             for s in range(c.NS):
                 if s != c.AGENT:
                     m0 -= y[c.Y_MAKEUP + s]
-            h = rkc_phase(y, params[i, k], dur, rtol, atol, h, work, z, st)
+            h = rkc_phase(yu, _unowned(params[i, k]), dur, rtol, atol, h, wu, st, cheb)
             for s in range(c.NS):
                 if s != c.AGENT:
                     m0 += y[c.Y_MAKEUP + s]
