@@ -34,10 +34,6 @@ def time_course(
     Written as a plain spec rather than through altair's objects: building and validating those
     costs about 30 ms a chart on every rerun; the tests validate these specs against the schema.
     """
-    data = frame[[x, *columns]].rename(columns={x: "time", **columns})
-    if x_type == "temporal":  # dates as ISO text, which Vega-Lite parses
-        data["time"] = data["time"].astype(str)
-    long = data.melt("time", var_name="series", value_name="value").dropna()
     line = {
         "mark": {"type": "line", "strokeWidth": 2.2, "interpolate": "step-after" if step else "linear"},
         "encoding": {
@@ -88,9 +84,40 @@ def time_course(
     return {
         "$schema": "https://vega.github.io/schema/vega-lite/v6.json",
         "height": height,
-        "data": {"values": long.to_dict("records")},
+        "data": {"values": long_records(frame, x, columns, temporal=x_type == "temporal")},
         "layer": layers,
     }
+
+
+def long_records(frame: pd.DataFrame, x: str, columns: dict[str, str], temporal: bool = False) -> list[dict]:
+    """Rows ``{"time", "series", "value"}`` of ``columns`` (frame column -> series name) against column
+    ``x``, one series after another, rows with a missing value left out (a gap in the line).
+
+    Float columns are read straight from their arrays (a tenth of the time of pandas' melt, about 1.5 ms
+    a chart on every rerun); other columns through melt, whose records these equal.
+
+    >>> import pandas as pd
+    >>> long_records(pd.DataFrame({"t": [0.0, 1.0], "a": [1.5, float("nan")]}), "t", {"a": "A"})
+    [{'time': 0.0, 'series': 'A', 'value': 1.5}]
+    """
+    data = frame[[x, *columns]]
+    if temporal:  # dates as ISO text, which Vega-Lite parses
+        times = data[x].astype(str).tolist()
+    elif data[x].dtype.kind == "f":
+        times = data[x].tolist()
+    else:
+        times = None
+    if times is None or any(data[c].dtype.kind != "f" for c in columns) or len(set(columns.values())) < len(columns):
+        long = data.rename(columns={x: "time", **columns})
+        if temporal:
+            long["time"] = times
+        return long.melt("time", var_name="series", value_name="value").dropna().to_dict("records")
+    return [
+        {"time": t, "series": name, "value": v}
+        for column, name in columns.items()
+        for t, v in zip(times, data[column].tolist(), strict=True)
+        if v == v and t == t  # NaN is the one value unequal to itself
+    ]
 
 
 def item_colours(names: list[str]) -> dict[str, str]:
