@@ -29,7 +29,7 @@ def dial_schedule(
     ----------
     series : DataFrame or dict of arrays
         The case's series (``time [min]``, ``phase``, ``vaporizer_setting [%]``, ``end_tidal_agent [%]``):
-        :attr:`~estimator.simulation.results.CaseResult.columns` or the frame.
+        ``CaseResult.columns`` (:class:`~estimator.simulation.results.CaseResult`) or the frame.
     phases : list of dict
         The case's phase reports (``index``, ``start``, ``end``, ``mode``).
     step : float

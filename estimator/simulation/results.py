@@ -122,7 +122,7 @@ class CaseResult:
 
     @property
     def series(self) -> pd.DataFrame:
-        """The series as a DataFrame, built once from :attr:`columns` at first use."""
+        """The series as a DataFrame, built once from ``columns`` (the arrays) at first use."""
         if self._frame is None:
             import pandas as pd
 
