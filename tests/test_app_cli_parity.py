@@ -119,6 +119,12 @@ def test_case_planner_with_a_calibration_and_lowflow_case_calibration_agree(cali
     at = load_calibration_upload(open_page("case_planner", "scenario.demo", name), calibration_file)
     assert_case_totals(at, cli)
     assert cli_json("case", str(DEMO / name))["totals"] != cli["totals"]  # the factor changes the numbers
+    # The page's JSON download carries the verb's calibration object.
+    from estimator_app.calibration_use import notes
+
+    assert notes(calibration_file.read_text(encoding="utf-8"), [("sevoflurane", 1.3)]) == {
+        "sevoflurane": cli["calibration"]
+    }
     # A scenario naming the file (its calibration key, beside it on disk): the same numbers once the
     # file is loaded in the app, and the key kept in the file saved.
     doc = tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
