@@ -35,8 +35,9 @@ def named_message(name: str, label: str) -> str:
     """
     return (
         f'This {label} names a calibration file: {contracts.CALIBRATION_KEY} = "{name}". Load {name} under '
-        f"'Department calibration' to run it with the department's uptake factor (the command line reads it "
-        f"beside the {label} file); the key is kept when you save the {label}."
+        "'Department calibration' (case planner, flow floor or demand forecast) to run it with the department's "
+        f"uptake factor (the command line reads it beside the {label} file); the key is kept when you save the "
+        f"{label}."
     )
 
 

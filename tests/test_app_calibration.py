@@ -130,6 +130,20 @@ def test_forecast_upload_with_the_calibration_it_names():
     assert at.session_state["forecast.doc"]["calibration"] == "dept.toml"
 
 
+def test_compare_plans_runs_the_planner_case_with_the_calibration_it_names():
+    doc = demo.scenario()
+    doc["calibration"] = "dept.toml"
+    at = page("compare_plans", doc)
+    assert_clean(at)
+    assert 'calibration = "dept.toml"' in warnings_text(at) and not at.dataframe
+    at.session_state[CAL] = {"name": "dept.toml", "text": calibration_text(1.3)}
+    at.run()
+    assert_clean(at)
+    del doc["calibration"]
+    plain = page("compare_plans", doc)
+    assert not at.dataframe[0].value.equals(plain.dataframe[0].value)  # the planner's case at factor 1.3
+
+
 @pytest.mark.parametrize("module", ["case_planner", "flow_floor", "demand_forecast"])
 def test_every_planning_page_offers_the_calibration(module):
     at = page(module)

@@ -241,8 +241,8 @@ def render() -> None:
     except InputError as exc:
         show_error(exc)
         return
-    applied = calibration_use.notes(calibration, [(result.scenario.agent.name, result.scenario.uptake_factor)])
-    calibration_use.show_applied(applied, result.warnings)
+    used = calibration_use.notes(calibration, [(result.scenario.agent.name, result.scenario.uptake_factor)])
+    calibration_use.show_applied(used, result.warnings)
     st.success(f"Recommended schedule: {result.schedule_text}", icon=":material/trending_down:")
     cmp_ = result.comparison
     m = st.columns(4)
@@ -297,7 +297,7 @@ def render() -> None:
     downloads(
         "flow_floor",
         {"phases": table, "grid": grid},
-        lambda: {**result.to_json(), **({"calibration": next(iter(applied.values()))} if applied else {})},
+        lambda: {**result.to_json(), **({"calibration": next(iter(used.values()))} if used else {})},
         "floor",
         title="Flow floor",
         notes=[
