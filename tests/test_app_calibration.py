@@ -128,6 +128,13 @@ def test_forecast_upload_with_the_calibration_it_names():
     assert metric(at, "Cases a week (mean)") == "5.00"
     assert "Uptake factor 1.20" in " ".join(c.value for c in at.caption)
     assert at.session_state["forecast.doc"]["calibration"] == "dept.toml"
+    # A bad calibration given with the mix refuses the upload, naming the field; what was loaded stays.
+    mix["weeks"] = 3
+    files[0] = ("mix.toml", tomli_w.dumps(mix).encode(), "application/toml")
+    files[2] = ("dept.toml", calibration_text(50.0).encode(), "text/plain")
+    at.file_uploader(key="forecast.upload").set_value(files).run()
+    assert any("calibration.agents.sevoflurane" in e.value for e in at.error)
+    assert at.session_state["forecast.doc"]["weeks"] == 2 and "factor = 1.2" in at.session_state[CAL]["text"]
 
 
 def test_compare_plans_runs_the_planner_case_with_the_calibration_it_names():
