@@ -200,6 +200,30 @@ def test_forecast_page_and_lowflow_forecast_agree(name, saved):
     assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
 
 
+def test_forecast_with_a_calibration_and_lowflow_forecast_calibration_agree(calibration_file):
+    folder = calibration_file.parent
+    mix = {
+        "weeks": 3,
+        "seed": 7,
+        "case_types": [{"name": "lap chole", "per_week": 4, "count": "fixed", "scenario": "lap.toml"}],
+    }
+    (folder / "lap.toml").write_text((DEMO / "kestrel_lap_chole.toml").read_text(encoding="utf-8"), encoding="utf-8")
+    (folder / "mix.toml").write_text(tomli_w.dumps(mix), encoding="utf-8")
+    cli = cli_json("forecast", str(folder / "mix.toml"), "--calibration", str(calibration_file))
+    assert cli["calibration"]["sevoflurane"]["applied"] == 1.3
+    at = open_page("demand_forecast")
+    at.file_uploader(key="forecast.upload").set_value(
+        [(n, (folder / n).read_bytes(), "application/toml") for n in ("mix.toml", "lap.toml")]
+    )
+    at = load_calibration_upload(at.run(), calibration_file)
+    weekly = next(d.value for d in at.dataframe if "p50" in d.value.columns)
+    app = dict(zip(weekly["item"], weekly["p50"], strict=True))
+    for key, stats in cli["items"].items():
+        assert app[human_name(key)] == rounded(mag(stats["p50"])), key
+    plain = cli_json("forecast", str(folder / "mix.toml"))
+    assert plain["items"]["sevoflurane"] != cli["items"]["sevoflurane"]  # the factor changes the agent
+
+
 def test_audit_page_and_lowflow_audit_agree():
     # The page opens on the demo log with the demo prices and the demo policy (their demo_cases files).
     at = open_page("fresh_gas_audit")
