@@ -151,6 +151,24 @@ def test_compare_plans_runs_the_planner_case_with_the_calibration_it_names():
     assert not at.dataframe[0].value.equals(plain.dataframe[0].value)  # the planner's case at factor 1.3
 
 
+def test_supply_runs_the_planner_case_with_the_calibration_it_names():
+    inventory, _ = demo.document("highland_clinic_inventory.toml")
+    inventory["demand"]["cases"][0]["scenario"] = "case planner"
+    doc = demo.scenario()
+    doc["calibration"] = "dept.toml"
+    at = page("supply_duration", doc)
+    at.session_state["supply.doc"] = inventory
+    at.session_state["supply.doc.files"] = {}
+    at.session_state["supply.version"] = 1  # the page's editors show the new document
+    at.run()
+    assert_clean(at)
+    assert 'calibration = "dept.toml"' in warnings_text(at) and not at.metric
+    at.session_state[CAL] = {"name": "dept.toml", "text": calibration_text(1.3)}
+    at.run()
+    assert_clean(at)
+    assert metric(at, "Days of supply")
+
+
 @pytest.mark.parametrize("module", ["case_planner", "flow_floor", "demand_forecast"])
 def test_every_planning_page_offers_the_calibration(module):
     at = page(module)

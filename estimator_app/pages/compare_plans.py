@@ -17,7 +17,8 @@ from .. import calibration_use, contracts, demo, state
 from ..common import downloads, show_error, show_warnings
 
 PLANNER = "case planner"
-#: Session key of the stock kept on the supply page: (inventory text, the scenario texts it names).
+#: Session key of the stock kept on the supply page: (inventory text, the scenario texts it names, the
+#: calibration text of the case planner's scenario or None).
 KEPT_STOCK = "supply.kept"
 
 
@@ -45,7 +46,7 @@ def _rounded(v: float | None) -> float | None:
     return None if v is None else round(v, 2)
 
 
-def stock_comparison(current: tuple[str, tuple[tuple[str, str], ...]], report: Any, run: Callable[..., Any]) -> None:
+def stock_comparison(current: tuple[Any, ...], report: Any, run: Callable[..., Any]) -> None:
     """The supply page's comparison: keep the stock as it stands, change it (next month's deliveries, a
     cylinder more), and see days of supply, cases possible and each item's days beside the kept stock."""
     from estimator.planning.compare import compare_stocks
