@@ -183,3 +183,18 @@ def test_named_message_names_the_key_and_the_file():
     text = named_message("a/b.toml", "case mix")
     assert 'calibration = "a/b.toml"' in text and "Load a/b.toml" in text and "case mix" in text
     assert Path("a/b.toml").name in text
+
+
+def test_the_patient_spread_runs_with_the_calibration_as_case_spread_does():
+    from estimator.inputs.calibration_file import calibration_from_text, with_calibration
+    from estimator.inputs.scenario import scenario_from_text
+    from estimator.simulation.spread import simulate_spread
+    from estimator_app.contracts import toml_text
+    from estimator_app.spread_view import run_spread
+
+    text = toml_text(demo.scenario())
+    cal = calibration_text(1.3)
+    app = run_spread(text, 4, 1, cal).to_json()
+    cli = simulate_spread(with_calibration(scenario_from_text(text), calibration_from_text(cal)), 4, seed=1).to_json()
+    assert app == cli
+    assert run_spread(text, 4, 1).to_json() != app
