@@ -55,6 +55,7 @@ def scatter(frame: pd.DataFrame) -> Any:
 def render_calibration(result: Any, key: tuple, log_name: str, log_text: str) -> dict[str, Any] | None:
     """The section of the audit page; returns the check and calibration when run (for the downloads)."""
     from estimator.planning.calibration import calibration_toml, quantities
+    from estimator.planning.calibration_report import calibration_rows
 
     st.subheader("How well does the model predict our agent use?")
     st.caption(
@@ -70,21 +71,19 @@ def render_calibration(result: Any, key: tuple, log_name: str, log_text: str) ->
         show_error(exc)
         return None
     check, cal = doc["prediction_check"], doc["calibration"]
-    rows = []
-    for agent, s in check["agents"].items():
-        rec = cal["agents"].get(agent)
-        rows.append(
-            {
-                "agent": agent,
-                "cases checked": s["cases"],
-                "median recorded / predicted": s["median_ratio"],
-                "ratio 95 % interval": f"{s['low']:.2f}-{s['high']:.2f}" if s.get("low") is not None else "n/a",
-                "uptake factor (95 % interval)": f"{rec['factor']:.2f} ({rec['low']:.2f}-{rec['high']:.2f})"
-                if rec
-                else f"not calibrated: {cal['refused'].get(agent, '')}",
-                "cases in the fit": rec["cases"] if rec else 0,
-            }
-        )
+    rows = [
+        {
+            "agent": r.agent,
+            "cases checked": r.checked,
+            "median recorded / predicted": r.median_ratio,
+            "ratio 95 % interval": f"{r.ratio_low:.2f}-{r.ratio_high:.2f}" if r.ratio_low is not None else "n/a",
+            "uptake factor (95 % interval)": f"{r.factor:.2f} ({r.low:.2f}-{r.high:.2f})"
+            if r.factor is not None
+            else f"not calibrated: {r.reason}",
+            "cases in the fit": r.cases or 0,
+        }
+        for r in calibration_rows(doc)
+    ]
     st.dataframe(pd.DataFrame(rows), hide_index=True, width="stretch")
     frame = pd.DataFrame(quantities(check))
     if len(frame):
@@ -95,4 +94,14 @@ def render_calibration(result: Any, key: tuple, log_name: str, log_text: str) ->
         download_row(
             [("Calibration (TOML)", text.encode("utf-8"), "calibration.toml", "application/toml", None)], "cal"
         )
+        if st.button(
+            "Use this calibration for planning",
+            key="audit.cal.use",
+            help="The case planner, flow floor and demand forecast run with these uptake factors until it is removed.",
+            icon=":material/input:",
+        ):
+            from . import state
+
+            state.set_calibration("calibration.toml", text)
+            st.success("The planning pages now use this calibration.", icon=":material/check:")
     return doc

@@ -93,29 +93,18 @@ def long_records(frame: pd.DataFrame, x: str, columns: dict[str, str], temporal:
     """Rows ``{"time", "series", "value"}`` of ``columns`` (frame column -> series name) against column
     ``x``, one series after another, rows with a missing value left out (a gap in the line).
 
-    Float columns are read straight from their arrays (a tenth of the time of pandas' melt, about 1.5 ms
-    a chart on every rerun); other columns through melt, whose records these equal.
+    Read straight from the columns' arrays as floats (a tenth of the time of pandas' melt, about 1.5 ms
+    a chart on every rerun); every caller's series are numbers (the app tests reach no other kind).
 
     >>> import pandas as pd
     >>> long_records(pd.DataFrame({"t": [0.0, 1.0], "a": [1.5, float("nan")]}), "t", {"a": "A"})
     [{'time': 0.0, 'series': 'A', 'value': 1.5}]
     """
-    data = frame[[x, *columns]]
-    if temporal:  # dates as ISO text, which Vega-Lite parses
-        times = data[x].astype(str).tolist()
-    elif data[x].dtype.kind == "f":
-        times = data[x].tolist()
-    else:
-        times = None
-    if times is None or any(data[c].dtype.kind != "f" for c in columns) or len(set(columns.values())) < len(columns):
-        long = data.rename(columns={x: "time", **columns})
-        if temporal:
-            long["time"] = times
-        return long.melt("time", var_name="series", value_name="value").dropna().to_dict("records")
+    times = frame[x].astype(str).tolist() if temporal else frame[x].tolist()  # dates as ISO text for Vega-Lite
     return [
         {"time": t, "series": name, "value": v}
         for column, name in columns.items()
-        for t, v in zip(times, data[column].tolist(), strict=True)
+        for t, v in zip(times, frame[column].to_numpy(dtype=float).tolist(), strict=True)
         if v == v and t == t  # NaN is the one value unequal to itself
     ]
 

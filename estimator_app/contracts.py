@@ -34,6 +34,9 @@ def _shipped(*parts: str) -> Path:
 #: The demo inputs the app opens on: the demo_cases/ folder (invented sites and cases).
 DEMO_DIR = _shipped("demo_cases")
 
+#: The top-level key of a scenario or case mix naming a department's calibration file.
+CALIBRATION_KEY = "calibration"
+
 #: A case plan or case type naming one of these runs the case on the case planner page.
 PLANNER_NAMES = ("case planner", "case_planner.toml")
 
@@ -97,11 +100,34 @@ def folder(files: dict[str, str], planner_text: str | None = None) -> Iterator[P
         yield base
 
 
-def load_scenario_text(text: str) -> Any:
-    """The scenario of TOML text: :func:`estimator.inputs.scenario.scenario_from_text`, as ``lowflow case`` reads it."""
+def named_calibration(doc: dict[str, Any]) -> str | None:
+    """The calibration file a scenario or case mix names (its top-level ``calibration`` key), or None."""
+    name = doc.get(CALIBRATION_KEY)
+    return name if isinstance(name, str) and name else None
+
+
+def run_text(doc: dict[str, Any]) -> str:
+    """TOML text of a document as the engine runs it in the app: without its ``calibration`` key, whose
+    file the user uploads (the key stays in the document and in the file saved)."""
+    return toml_text({k: v for k, v in doc.items() if k != CALIBRATION_KEY})
+
+
+def calibration_text(text: str) -> Any:
+    """The calibration of TOML text (:func:`estimator.inputs.calibration_file.calibration_from_text`)."""
+    from estimator.inputs.calibration_file import calibration_from_text
+
+    return calibration_from_text(text)
+
+
+def load_scenario_text(text: str, calibration: str | None = None) -> Any:
+    """The scenario of TOML text: :func:`estimator.inputs.scenario.scenario_from_text`, as ``lowflow case`` reads it,
+    with a calibration's text attached as ``--calibration`` attaches its file
+    (:func:`estimator.inputs.calibration_file.with_calibration`)."""
+    from estimator.inputs.calibration_file import with_calibration
     from estimator.inputs.scenario import scenario_from_text
 
-    return scenario_from_text(text)
+    scenario = scenario_from_text(text)
+    return scenario if calibration is None else with_calibration(scenario, calibration_text(calibration))
 
 
 def load_inventory_text(text: str, base_dir: Path | None = None) -> Any:
@@ -111,11 +137,18 @@ def load_inventory_text(text: str, base_dir: Path | None = None) -> Any:
     return inventory_from_text(text, base_dir=base_dir)
 
 
-def load_casemix_text(text: str, base_dir: Path) -> Any:
-    """The case mix of TOML text: :func:`estimator.planning.casemix.casemix_from_text`; named files only inside ``base_dir``."""
+def load_casemix_text(text: str, base_dir: Path, calibration: str | None = None) -> Any:
+    """The case mix of TOML text: :func:`estimator.planning.casemix.casemix_from_text`; named files only inside
+    ``base_dir``; a calibration's text applied as ``lowflow forecast --calibration`` applies its file
+    (:func:`estimator.planning.calibration.calibrated_mix`)."""
     from estimator.planning.casemix import casemix_from_text
 
-    return casemix_from_text(text, base_dir, confine=True)
+    mix = casemix_from_text(text, base_dir, confine=True)
+    if calibration is None:
+        return mix
+    from estimator.planning.calibration import calibrated_mix
+
+    return calibrated_mix(mix, calibration_text(calibration))
 
 
 def load_prices_text(text: str) -> Any:
@@ -160,7 +193,7 @@ def case_scenarios(doc: dict[str, Any], files: dict[str, str], planner_text: str
 
 def check(kind: str, doc: dict[str, Any], files: dict[str, str], planner_text: str) -> None:
     """Run the command line's loader of ``kind`` on a document: InputError exactly where the CLI gives one."""
-    text = toml_text(doc)
+    text = run_text(doc)  # a named calibration file is the app's own upload (estimator_app.calibration_use)
     if kind == "scenario":
         load_scenario_text(text)
     elif kind == "inventory":

@@ -14,7 +14,7 @@ import streamlit as st
 from estimator.display import table as readable
 from estimator.errors import InputError
 
-from . import state
+from . import contracts, state
 from .charts import PALETTE, show, time_course
 from .common import show_error
 
@@ -32,16 +32,15 @@ _LABELS = {
 
 
 @st.cache_data(max_entries=32, show_spinner="Simulating patients drawn from published variation...")
-def run_spread(text: str, n: int, seed: int) -> Any:
-    """Spread of a scenario's TOML text (cached on text, n and seed)."""
-    from estimator.inputs.scenario import scenario_from_text
+def run_spread(text: str, n: int, seed: int, calibration: str | None = None) -> Any:
+    """Spread of a scenario's TOML text with a calibration's text, if any (cached on all four)."""
     from estimator.simulation.spread import simulate_spread
 
-    return simulate_spread(scenario_from_text(text), n, seed=seed)
+    return simulate_spread(contracts.load_scenario_text(text, calibration), n, seed=seed)
 
 
-def control() -> Any:
-    """The patients control and, when on, the spread of the current scenario (or None)."""
+def control(calibration: str | None = None) -> Any:
+    """The patients control and, when on, the spread of the current scenario with ``calibration`` (or None)."""
     n = st.number_input(
         "Patient spread: simulated patients (0 = off)",
         0,
@@ -55,7 +54,7 @@ def control() -> Any:
     if not n:
         return None
     try:
-        return run_spread(state.toml_text(), int(n), SEED)
+        return run_spread(state.run_text(), int(n), SEED, calibration)
     except InputError as exc:
         show_error(exc)
         return None

@@ -64,16 +64,54 @@ def set_document(doc: dict[str, Any], kind: str = "scenario") -> None:
 
 
 def toml_text(doc: dict[str, Any] | None = None) -> str:
-    """TOML text of a scenario document (the current one by default; the cache key of the engine run)."""
+    """TOML text of a scenario document (the current one by default), every key as loaded (what is saved)."""
     return contracts.toml_text(document() if doc is None else doc)
 
 
+def run_text(doc: dict[str, Any] | None = None) -> str:
+    """TOML text of a scenario document as the engine runs it (the cache key of the run): without a
+    ``calibration`` key, whose file is the calibration the user loaded (:func:`calibration`)."""
+    return contracts.run_text(document() if doc is None else doc)
+
+
+#: Session key of the department calibration the planning pages share: ``{"name", "text"}``.
+CALIBRATION = "calibration.file"
+
+
+def calibration() -> dict[str, str] | None:
+    """The department calibration loaded for planning (``{"name": file name, "text": TOML}``), or None."""
+    return st.session_state.get(CALIBRATION)
+
+
+def calibration_text() -> str | None:
+    """TOML text of the loaded calibration, or None."""
+    cal = calibration()
+    return None if cal is None else cal["text"]
+
+
+def set_calibration(name: str, text: str) -> None:
+    """Load a calibration for the planning pages if its contract accepts the text (InputError if not)."""
+    contracts.calibration_text(text)
+    st.session_state[CALIBRATION] = {"name": name, "text": text}
+
+
+def clear_calibration() -> None:
+    """Stop applying the loaded calibration."""
+    st.session_state.pop(CALIBRATION, None)
+
+
 def accept(kind: str, text: str, name: str, named: dict[str, str]) -> None:
-    """Make TOML text the current document of ``kind`` if the command line's loader accepts it."""
+    """Make TOML text the current document of ``kind`` if the command line's loader accepts it.
+
+    A calibration file the document names, given with it, becomes the planning pages' calibration.
+    """
     doc = contracts.parse_toml(text, KINDS[kind][2])
     wanted = set(contracts.referenced(kind, doc))
     given = {k: v for k, v in named.items() if k in wanted}
-    contracts.check(kind, doc, given, toml_text())
+    contracts.check(kind, doc, given, run_text())
+    cal = contracts.named_calibration(doc)
+    if cal is not None and cal in named:
+        set_calibration(cal, named[cal])
     doc_key, version_key, files_key = _keys(kind)
     document(kind)
     st.session_state[doc_key] = doc
@@ -150,9 +188,10 @@ def _main_file(kind: str, texts: dict[str, str]) -> str:
     named = set()
     for text in texts.values():
         try:
-            named.update(contracts.referenced(kind, contracts.parse_toml(text, KINDS[kind][2])))
+            doc = contracts.parse_toml(text, KINDS[kind][2])
         except InputError:
             continue
+        named.update([*contracts.referenced(kind, doc), contracts.named_calibration(doc)])
     roots = [n for n in texts if n not in named and n.lower().endswith(".toml")]
     if len(roots) != 1:
         raise InputError(KINDS[kind][2], ", ".join(texts), f"one {KINDS[kind][2]} file and the files it names")
@@ -160,29 +199,30 @@ def _main_file(kind: str, texts: dict[str, str]) -> str:
 
 
 @st.cache_data(max_entries=128, show_spinner=False)
-def _cached_case(text: str) -> Any:
+def _cached_case(text: str, calibration: str | None) -> Any:
     from estimator.simulation.engine import simulate
 
-    return simulate(contracts.load_scenario_text(text))
+    return simulate(contracts.load_scenario_text(text, calibration))
 
 
-def run_case(text: str) -> Any:
-    """Engine result of a scenario's TOML text (cached on the text): the command line's loader and engine.
+def run_case(text: str, calibration: str | None = None) -> Any:
+    """Engine result of a scenario's TOML text with a calibration's text, if any (cached on both): the
+    command line's loader and engine, as ``lowflow case FILE --calibration CAL``.
 
     A spinner is offered only while the engine may still be loading (:mod:`estimator_app.warmup`):
     a warm case takes milliseconds, well under the spinner's 0.5 s delay, and each spinner starts a
     timer thread on every rerun (37 ms of one rerun profiled on a busy machine, well under 1 ms idle).
     """
     if warmup.ready():
-        return _cached_case(text)
+        return _cached_case(text, calibration)
     with st.spinner("Running the circle-system model..."):
-        return _cached_case(text)
+        return _cached_case(text, calibration)
 
 
-def current_result() -> Any:
-    """Engine result of the current scenario, or None after showing why it could not run."""
+def current_result(calibration: str | None = None) -> Any:
+    """Engine result of the current scenario (with a calibration's text), or None after showing why it could not run."""
     try:
-        return run_case(toml_text())
+        return run_case(run_text(), calibration)
     except InputError as exc:
         show_error(exc)
         return None

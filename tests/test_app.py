@@ -363,12 +363,12 @@ def test_demand_forecast_draws_a_progress_bar_while_it_runs(monkeypatch):
     seen = []
     real = page_module.run_forecast
 
-    def spy(mix_text, named, progress=None):
+    def spy(mix_text, named, progress=None, calibration=None):
         def wrapped(fraction):
             seen.append(fraction)
             progress(fraction)
 
-        return real(mix_text + "\n# progress test\n", named, progress=wrapped)
+        return real(mix_text + "\n# progress test\n", named, progress=wrapped, calibration=calibration)
 
     monkeypatch.setattr(page_module, "run_forecast", spy)
     page_module._kept().clear()

@@ -18,6 +18,7 @@ from datetime import date
 from pathlib import Path
 
 import pytest
+import tomli_w
 
 ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:  # app.py runs from the repository root; estimator_app is not installed
@@ -76,6 +77,13 @@ def mag(q: dict) -> float:
 def test_case_planner_and_lowflow_case_agree(name, saved):
     at = open_page("case_planner", "scenario.demo", name)
     cli = cli_json("case", str(DEMO / name))
+    assert_case_totals(at, cli)
+    # Saving without an edit gives the file back: the same parsed document.
+    assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+
+
+def assert_case_totals(at: AppTest, cli: dict) -> None:
+    """The planner's totals as ``lowflow case --json`` gives them, at the page's precision."""
     t = cli["totals"]
     assert metric(at, "Liquid agent") == f"{mag(t['agent_liquid']):.1f} mL"
     assert metric(at, "Oxygen") == f"{mag(t['oxygen']):.0f} L"
@@ -87,8 +95,62 @@ def test_case_planner_and_lowflow_case_agree(name, saved):
     assert metric(at, "Lowest inspired O2") == f"{100 * mag(cli['minimum_inspired_oxygen']):.1f} %"
     if cli["cost"]:
         assert metric(at, "Cost") == f"{cli['cost']['total']:.2f}"
-    # Saving without an edit gives the file back: the same parsed document.
-    assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+
+
+def load_calibration_upload(at: AppTest, path: Path) -> AppTest:
+    """The page's calibration upload given a calibration file's bytes (as a browser sends them)."""
+    at.file_uploader(key="calibration.upload.0").set_value((path.name, path.read_bytes(), "application/toml"))
+    return at.run()
+
+
+@pytest.fixture
+def calibration_file(tmp_path) -> Path:
+    from calibration_helpers import calibration_text
+
+    path = tmp_path / "dept_calibration.toml"
+    path.write_text(calibration_text(1.3), encoding="utf-8")
+    return path
+
+
+def test_case_planner_with_a_calibration_and_lowflow_case_calibration_agree(calibration_file, saved):
+    name = "kestrel_lap_chole.toml"
+    cli = cli_json("case", str(DEMO / name), "--calibration", str(calibration_file))
+    assert cli["calibration"]["applied"] == 1.3
+    at = load_calibration_upload(open_page("case_planner", "scenario.demo", name), calibration_file)
+    assert_case_totals(at, cli)
+    assert cli_json("case", str(DEMO / name))["totals"] != cli["totals"]  # the factor changes the numbers
+    # The page's JSON download carries the verb's calibration object.
+    from estimator_app.calibration_use import notes
+
+    assert notes(calibration_file.read_text(encoding="utf-8"), [("sevoflurane", 1.3)]) == {
+        "sevoflurane": cli["calibration"]
+    }
+    # A scenario naming the file (its calibration key, beside it on disk): the same numbers once the
+    # file is loaded in the app, and the key kept in the file saved.
+    doc = tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+    doc["calibration"] = calibration_file.name
+    named = calibration_file.parent / "named.toml"
+    named.write_text(tomli_w.dumps(doc), encoding="utf-8")
+    at = open_page("case_planner")
+    at.sidebar.file_uploader(key="scenario.upload").set_value(("named.toml", named.read_bytes(), "application/toml"))
+    at = load_calibration_upload(at.run(), calibration_file)
+    assert_case_totals(at, cli_json("case", str(named)))
+    assert tomllib.loads(saved["named.toml"].decode()) == doc
+
+
+def test_flow_floor_with_a_calibration_and_lowflow_safe_flow_calibration_agree(calibration_file):
+    name = "kestrel_lap_chole.toml"
+    cli = cli_json("safe-flow", str(DEMO / name), "--calibration", str(calibration_file))
+    plain = cli_json("safe-flow", str(DEMO / name))
+    assert cli["comparison"]["recommended"] != plain["comparison"]["recommended"]
+    at = load_calibration_upload(open_page("flow_floor", "scenario.demo", name), calibration_file)
+    rec = cli["comparison"]["recommended"]
+    assert metric(at, "Mean flow at the floor") == f"{mag(rec['mean_fresh_gas_flow']):.2f} L/min"
+    assert metric(at, "Liquid agent at the schedule") == f"{mag(rec['agent_liquid']):.1f} mL"
+    assert metric(at, "Oxygen at the schedule") == f"{mag(rec['oxygen']):.0f} L"
+    assert metric(at, "CO2e at the schedule") == f"{mag(rec['co2e']):.2f} kg"
+    table = next(d.value for d in at.dataframe if "settable" in d.value.columns)
+    assert list(table["total [L/min]"]) == [round(mag(s["total"]), 3) for s in cli["schedule"]]
 
 
 def test_save_writes_exactly_what_is_on_screen(saved):
@@ -136,6 +198,30 @@ def test_forecast_page_and_lowflow_forecast_agree(name, saved):
         for key, stats in cli["horizon"]["items"].items():
             assert app[human_name(key)] == rounded(mag(stats["p95"])), key
     assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+
+
+def test_forecast_with_a_calibration_and_lowflow_forecast_calibration_agree(calibration_file):
+    folder = calibration_file.parent
+    mix = {
+        "weeks": 3,
+        "seed": 7,
+        "case_types": [{"name": "lap chole", "per_week": 4, "count": "fixed", "scenario": "lap.toml"}],
+    }
+    (folder / "lap.toml").write_text((DEMO / "kestrel_lap_chole.toml").read_text(encoding="utf-8"), encoding="utf-8")
+    (folder / "mix.toml").write_text(tomli_w.dumps(mix), encoding="utf-8")
+    cli = cli_json("forecast", str(folder / "mix.toml"), "--calibration", str(calibration_file))
+    assert cli["calibration"]["sevoflurane"]["applied"] == 1.3
+    at = open_page("demand_forecast")
+    at.file_uploader(key="forecast.upload").set_value(
+        [(n, (folder / n).read_bytes(), "application/toml") for n in ("mix.toml", "lap.toml")]
+    )
+    at = load_calibration_upload(at.run(), calibration_file)
+    weekly = next(d.value for d in at.dataframe if "p50" in d.value.columns)
+    app = dict(zip(weekly["item"], weekly["p50"], strict=True))
+    for key, stats in cli["items"].items():
+        assert app[human_name(key)] == rounded(mag(stats["p50"])), key
+    plain = cli_json("forecast", str(folder / "mix.toml"))
+    assert plain["items"]["sevoflurane"] != cli["items"]["sevoflurane"]  # the factor changes the agent
 
 
 def test_audit_page_and_lowflow_audit_agree():

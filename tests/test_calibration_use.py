@@ -214,6 +214,13 @@ def test_app_audit_page_checks_and_calibrates_an_uploaded_log():
     low, high = (float(x) for x in row["uptake factor (95 % interval)"].split("(")[1].rstrip(")").split("-"))
     assert low <= FACTOR <= high
     assert "Calibration (TOML)" in {b.label for b in at.get("download_button")}
+    # Offered to the planning pages: the same file, shared through the app's state.
+    at.button(key="audit.cal.use").click().run(timeout=300)
+    assert_clean(at)
+    from estimator.inputs.calibration_file import calibration_from_text
+
+    used = calibration_from_text(at.session_state["calibration.file"]["text"]).agents["sevoflurane"]
+    assert used.low <= FACTOR <= used.high and used.cases == 24
 
 
 def test_scatter_chart_is_a_valid_vega_lite_spec():

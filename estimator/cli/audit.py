@@ -73,7 +73,7 @@ def _share(text: str, flag: str) -> float:
     return float(check_range(q, flag, 0.0, 0.999, value=text).magnitude)
 
 
-def _fmt(v: float, unit: str = "") -> str:
+def _fmt(v: float | None, unit: str = "") -> str:
     from ..display import text
 
     return "n/a" if v is None or not math.isfinite(v) else text(v, unit)
@@ -178,17 +178,18 @@ def _calibrated(result, log: str | Path, out: Path | None):
 
 
 def _calibration_lines(doc) -> list[str]:
+    from ..planning.calibration_report import calibration_rows
+
     check, cal = doc["prediction_check"], doc["calibration"]
     lines = ["Prediction check (recorded / predicted liquid agent, median and 95 % interval):"]
-    for agent, s in check["agents"].items():
-        ci = f"{_fmt(s.get('low'))}-{_fmt(s.get('high'))}" if s.get("low") is not None else "n/a"
-        rec = cal["agents"].get(agent)
+    for r in calibration_rows(doc):
+        ci = f"{_fmt(r.ratio_low)}-{_fmt(r.ratio_high)}" if r.ratio_low is not None else "n/a"
         fit = (
-            f"uptake factor {rec['factor']:.2f} (95 % interval {rec['low']:.2f}-{rec['high']:.2f}, {rec['cases']} cases)"
-            if rec
-            else f"not calibrated: {cal['refused'].get(agent, '')}"
+            f"uptake factor {r.factor:.2f} (95 % interval {r.low:.2f}-{r.high:.2f}, {r.cases} cases)"
+            if r.factor is not None
+            else f"not calibrated: {r.reason}"
         )
-        lines.append(f"  {agent}: {s['cases']} cases, ratio {_fmt(s['median_ratio'])} ({ci}); {fit}")
+        lines.append(f"  {r.agent}: {r.checked} cases, ratio {_fmt(r.median_ratio)} ({ci}); {fit}")
     lines.append(f"  {len(cal['excluded'])} case(s) left out of the fit, {len(check['skipped'])} skipped (see --json)")
     lines += [f"warning {w['code']}: {w['message']}" for w in cal["warnings"]]
     return lines

@@ -14,7 +14,10 @@ from __future__ import annotations
 
 import html
 import math
+from dataclasses import dataclass
 from typing import Any
+
+from ..limits import UPTAKE_FACTOR_SUPPORTED
 
 #: Colours of the scatter: cases in the fit, cases left out.
 _COLOURS = ("#3b6e8f", "#c0392b")
@@ -68,21 +71,109 @@ def svg_scatter(points: list[tuple[str, float, float, bool]], title: str, *, siz
     return "".join(parts)
 
 
+@dataclass(frozen=True)
+class CalibrationRow:
+    """One agent of a calibration summary, as values each face formats (text, HTML, spreadsheet, app).
+
+    ``checked``, ``median_ratio``, ``ratio_low`` and ``ratio_high`` are the prediction check's (None for a
+    calibration file, which holds no check); ``factor``, ``low``, ``high`` and ``cases`` the uptake factor,
+    its 95 % interval and the cases of its fit (None when the agent is not calibrated, ``reason`` says why);
+    ``code`` is ``UPTAKE_FACTOR_UNSUPPORTED`` for a factor outside
+    :data:`estimator.limits.UPTAKE_FACTOR_SUPPORTED`, else None.
+    """
+
+    agent: str
+    checked: int | None
+    median_ratio: float | None
+    ratio_low: float | None
+    ratio_high: float | None
+    factor: float | None
+    low: float | None
+    high: float | None
+    cases: int | None
+    code: str | None
+    reason: str
+
+    @property
+    def status(self) -> str:
+        """``"calibrated"`` or ``"not calibrated"``."""
+        return "not calibrated" if self.factor is None else "calibrated"
+
+
+def _code(factor: float | None, supported: Any = UPTAKE_FACTOR_SUPPORTED) -> str | None:
+    lo, hi = supported
+    return None if factor is None or lo <= factor <= hi else "UPTAKE_FACTOR_UNSUPPORTED"
+
+
+def calibration_rows(doc: dict[str, Any]) -> list[CalibrationRow]:
+    """One row an agent checked, of ``{"prediction_check": ..., "calibration": ...}``
+    (:func:`estimator.planning.calibration.check_and_calibrate`).
+
+    Examples
+    --------
+    >>> doc = {"prediction_check": {"agents": {"sevoflurane": {"cases": 3, "median_ratio": 1.1}}},
+    ...        "calibration": {"agents": {}, "refused": {"sevoflurane": "3 usable case(s)"}}}
+    >>> row = calibration_rows(doc)[0]
+    >>> row.status, row.reason, row.ratio_low
+    ('not calibrated', '3 usable case(s)', None)
+    """
+    check, cal = doc["prediction_check"], doc["calibration"]
+    rows = []
+    for agent, s in check["agents"].items():
+        rec = cal["agents"].get(agent) or {}
+        rows.append(
+            CalibrationRow(
+                agent=agent,
+                checked=s["cases"],
+                median_ratio=s["median_ratio"],
+                ratio_low=s.get("low"),
+                ratio_high=s.get("high"),
+                factor=rec.get("factor"),
+                low=rec.get("low"),
+                high=rec.get("high"),
+                cases=rec.get("cases"),
+                code=_code(rec.get("factor"), rec.get("supported", UPTAKE_FACTOR_SUPPORTED)),
+                reason=cal["refused"].get(agent, ""),
+            )
+        )
+    return rows
+
+
+def file_rows(calibration: Any) -> list[CalibrationRow]:
+    """One row an agent of a calibration file (:class:`estimator.inputs.calibration_file.Calibration`).
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace as NS
+    >>> cal = NS(agents={"desflurane": NS(factor=2.4, low=2.1, high=2.8, cases=30)})
+    >>> row = file_rows(cal)[0]
+    >>> row.factor, row.code
+    (2.4, 'UPTAKE_FACTOR_UNSUPPORTED')
+    """
+    return [
+        CalibrationRow(agent, None, None, None, None, a.factor, a.low, a.high, a.cases, _code(a.factor), "")
+        for agent, a in calibration.agents.items()
+    ]
+
+
+def fit_text(row: CalibrationRow, sep: str = ", ") -> str:
+    """The uptake factor with its interval and cases, or why the agent is not calibrated (text and HTML faces)."""
+    if row.factor is None:
+        return f"not calibrated: {row.reason}"
+    return f"{row.factor:.2f} ({row.low:.2f}-{row.high:.2f}{sep}{row.cases} cases)"
+
+
 def calibration_html(doc: dict[str, Any]) -> str:
     """The report section of ``{"prediction_check": ..., "calibration": ...}`` (every text escaped)."""
     esc = html.escape
     check, cal = doc["prediction_check"], doc["calibration"]
     rows = []
-    for agent, s in check["agents"].items():
-        ci = f"{s['low']:.2f}-{s['high']:.2f}" if s.get("low") is not None else "n/a"
-        med = f"{s['median_ratio']:.2f}" if s["median_ratio"] is not None else "n/a"
-        rec = cal["agents"].get(agent)
-        factor = (
-            f"{rec['factor']:.2f} ({rec['low']:.2f}-{rec['high']:.2f}; {rec['cases']} cases)"
-            if rec
-            else f"not calibrated: {cal['refused'].get(agent, '')}"
+    for r in calibration_rows(doc):
+        ci = f"{r.ratio_low:.2f}-{r.ratio_high:.2f}" if r.ratio_low is not None else "n/a"
+        med = f"{r.median_ratio:.2f}" if r.median_ratio is not None else "n/a"
+        rows.append(
+            f"<tr><td>{esc(r.agent)}</td><td>{r.checked}</td><td>{med} ({ci})</td><td>{esc(fit_text(r, '; '))}</td></tr>"
         )
-        rows.append(f"<tr><td>{esc(agent)}</td><td>{s['cases']}</td><td>{med} ({ci})</td><td>{esc(factor)}</td></tr>")
     table = (
         "<table><thead><tr><th>agent</th><th>cases checked</th><th>median recorded / predicted (95 % interval)</th>"
         f"<th>uptake factor (95 % interval)</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
@@ -121,7 +212,7 @@ def calibration_frames(doc: dict[str, Any]) -> dict[str, Any]:
     """
     import pandas as pd
 
-    check, cal = doc["prediction_check"], doc["calibration"]
+    check = doc["prediction_check"]
     cases = pd.DataFrame(
         [
             {
@@ -150,18 +241,18 @@ def calibration_frames(doc: dict[str, Any]) -> dict[str, Any]:
     agents = pd.DataFrame(
         [
             {
-                "agent": agent,
-                "cases checked": s["cases"],
-                "median recorded / predicted": s["median_ratio"],
-                "median, 95 % low": s.get("low"),
-                "median, 95 % high": s.get("high"),
-                "uptake factor": (cal["agents"].get(agent) or {}).get("factor"),
-                "factor, 95 % low": (cal["agents"].get(agent) or {}).get("low"),
-                "factor, 95 % high": (cal["agents"].get(agent) or {}).get("high"),
-                "cases in the fit": (cal["agents"].get(agent) or {}).get("cases"),
-                "not calibrated because": cal["refused"].get(agent, ""),
+                "agent": r.agent,
+                "cases checked": r.checked,
+                "median recorded / predicted": r.median_ratio,
+                "median, 95 % low": r.ratio_low,
+                "median, 95 % high": r.ratio_high,
+                "uptake factor": r.factor,
+                "factor, 95 % low": r.low,
+                "factor, 95 % high": r.high,
+                "cases in the fit": r.cases,
+                "not calibrated because": r.reason,
             }
-            for agent, s in check["agents"].items()
+            for r in calibration_rows(doc)
         ]
     )
     return {"prediction check": cases, "calibration": agents}

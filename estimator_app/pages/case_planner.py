@@ -16,7 +16,7 @@ from estimator.simulation.dial_schedule import dial_schedule, dial_table, dial_t
 from estimator.simulation.totals_table import totals_rows
 from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import spread_view, state
+from .. import calibration_use, spread_view, state
 from ..charts import show, time_course
 from ..common import download_row, downloads, flag, flow_factor, metric, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
@@ -140,7 +140,7 @@ def dial_frame(result: Any) -> pd.DataFrame | None:
     return table if len(table) else None
 
 
-def outputs(result: Any) -> None:
+def outputs(result: Any, calibration: str | None = None) -> None:
     t = result.totals
     fu = unit("flow")
     cost = result.cost  # the engine prices the case at the scenario's [prices], as for lowflow case
@@ -170,7 +170,9 @@ def outputs(result: Any) -> None:
     metric(m[3], "Lowest inspired O2", f"{100 * result.minimum_inspired_oxygen.magnitude:.1f} %", o2_flag)
     m[4].metric("Absorbent used", f"{t['absorbent'].to('g').magnitude:.0f} g")
     st.caption(f"Gas volumes: {GAS_VOLUME_REFERENCE}. Flows: ambient litres at the site, as a flowmeter shows.")
-    band = spread_view.control()
+    applied = calibration_use.notes(calibration, [(result.scenario.agent.name, result.scenario.uptake_factor)])
+    calibration_use.show_applied(applied)
+    band = spread_view.control(calibration)
     if band is not None:
         spread_view.show_totals(band)
 
@@ -251,7 +253,7 @@ def outputs(result: Any) -> None:
     downloads(
         "case_result",
         {"series": result.series, "totals": totals, "phases": phases},
-        result.to_json,
+        lambda: {**result.to_json(), **({"calibration": next(iter(applied.values()))} if applied else {})},
         "case",
         title=f"Case plan: {result.scenario.title or result.scenario.agent.name}",
         notes=[
@@ -270,6 +272,9 @@ def render() -> None:
     )
     new = inputs(state.document())
     state.set_document(new)
-    result = state.current_result()
+    calibration, runs = calibration_use.panel("scenario")
+    if not runs:
+        return
+    result = state.current_result(calibration)
     if result is not None:
-        outputs(result)
+        outputs(result, calibration)

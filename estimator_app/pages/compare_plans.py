@@ -13,11 +13,12 @@ import streamlit as st
 from estimator.display import table as readable
 from estimator.errors import InputError
 
-from .. import demo, state
+from .. import calibration_use, contracts, demo, state
 from ..common import downloads, show_error, show_warnings
 
 PLANNER = "case planner"
-#: Session key of the stock kept on the supply page: (inventory text, the scenario texts it names).
+#: Session key of the stock kept on the supply page: (inventory text, the scenario texts it names, the
+#: calibration text of the case planner's scenario or None).
 KEPT_STOCK = "supply.kept"
 
 
@@ -45,7 +46,7 @@ def _rounded(v: float | None) -> float | None:
     return None if v is None else round(v, 2)
 
 
-def stock_comparison(current: tuple[str, tuple[tuple[str, str], ...]], report: Any, run: Callable[..., Any]) -> None:
+def stock_comparison(current: tuple[Any, ...], report: Any, run: Callable[..., Any]) -> None:
     """The supply page's comparison: keep the stock as it stands, change it (next month's deliveries, a
     cylinder more), and see days of supply, cases possible and each item's days beside the kept stock."""
     from estimator.planning.compare import compare_stocks
@@ -71,8 +72,8 @@ def stock_comparison(current: tuple[str, tuple[tuple[str, str], ...]], report: A
 
 
 def texts(chosen: list[str]) -> dict[str, str]:
-    """TOML text of each chosen plan: the case planner's scenario or a demo file."""
-    return {n: state.toml_text() if n == PLANNER else demo.text(n) for n in chosen}
+    """TOML text of each chosen plan: the case planner's scenario (as the engine runs it) or a demo file."""
+    return {n: state.run_text() if n == PLANNER else demo.text(n) for n in chosen}
 
 
 def render() -> None:
@@ -89,8 +90,13 @@ def render() -> None:
         return
     from estimator.planning.compare import compare_results
 
+    named = contracts.named_calibration(state.document())  # as lowflow compare reads the file a scenario names
+    if PLANNER in chosen and named is not None and state.calibration() is None:
+        st.warning(calibration_use.named_message(named, "scenario"), icon=":material/warning:")
+        return
+    own = state.calibration_text() if named is not None else None
     try:
-        results = {n: state.run_case(text) for n, text in texts(chosen).items()}
+        results = {n: state.run_case(text, own if n == PLANNER else None) for n, text in texts(chosen).items()}
         c = compare_results(results)
     except InputError as exc:
         show_error(exc)

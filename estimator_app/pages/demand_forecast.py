@@ -18,7 +18,7 @@ from estimator.display import unit_label
 from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import contracts, state
+from .. import calibration_use, contracts, state
 from ..charts import histogram, show
 from ..common import downloads, show_warnings, unit
 from ..editing import Field, kept_view, number, table
@@ -79,20 +79,24 @@ _LOCK = threading.Lock()
 
 
 @st.cache_resource
-def _kept() -> OrderedDict[tuple[str, str], Any]:
+def _kept() -> OrderedDict[tuple[Any, ...], Any]:
     return OrderedDict()
 
 
 def run_forecast(
-    mix_text: str, named: tuple[tuple[str, str], ...], progress: Callable[[float], None] | None = None
+    mix_text: str,
+    named: tuple[tuple[str, str], ...],
+    progress: Callable[[float], None] | None = None,
+    calibration: str | None = None,
 ) -> Any:
-    """Forecast of a case mix: the command line's loader and forecast; named files are the ones given with it."""
+    """Forecast of a case mix: the command line's loader and forecast; named files are the ones given with it,
+    a calibration's text applied as ``lowflow forecast FILE --calibration CAL`` applies its file."""
     from estimator.planning.forecast import forecast
     from estimator.planning.forecast_horizon import plan_horizon
 
     files = dict(named)
     with contracts.folder(files, files.get(contracts.PLANNER_NAMES[0])) as base:
-        mix = contracts.load_casemix_text(mix_text, base)
+        mix = contracts.load_casemix_text(mix_text, base, calibration)
         return plan_horizon(forecast(mix, progress=progress), mix)
 
 
@@ -100,16 +104,16 @@ def named_files(doc: dict[str, Any]) -> tuple[tuple[str, str], ...]:
     """The files the case mix names, and the planner's case (for rows naming it), as a cache key."""
     files = dict(state.files(KIND))
     if any(n in contracts.PLANNER_NAMES for n in contracts.referenced(KIND, doc)):
-        files[contracts.PLANNER_NAMES[0]] = state.toml_text()
+        files[contracts.PLANNER_NAMES[0]] = state.run_text()
     return tuple(sorted(files.items()))
 
 
-def cached_forecast(mix_text: str, named: tuple[tuple[str, str], ...]) -> Any:
+def cached_forecast(mix_text: str, named: tuple[tuple[str, str], ...], calibration: str | None = None) -> Any:
     """The forecast from the server's store, or computed with a progress bar and kept.
 
     Not ``st.cache_data``: a cached function cannot draw the progress bar of its own run.
     """
-    store, key = _kept(), (mix_text, named)
+    store, key = _kept(), (mix_text, named, calibration)
     with _LOCK:
         if key in store:
             store.move_to_end(key)
@@ -124,7 +128,7 @@ def cached_forecast(mix_text: str, named: tuple[tuple[str, str], ...]) -> Any:
             bar.progress(percent / 100, text=f"Simulating the weeks: {percent} % of the cases")
 
     try:
-        result = run_forecast(mix_text, named, progress=report)
+        result = run_forecast(mix_text, named, progress=report, calibration=calibration)
     finally:
         bar.empty()
     with _LOCK:
@@ -216,7 +220,7 @@ def horizon(result: Any, currency: str) -> dict[str, pd.DataFrame]:
     return {"horizon totals": totals, "horizon orders": orders}
 
 
-def outputs(result: Any) -> None:
+def outputs(result: Any, calibration: str | None = None) -> None:
     currency = unit("currency") or (result.cost or {}).get("currency", "")
     planned = horizon(result, currency)
     items = stats_table(result.items, result.units)
@@ -245,6 +249,8 @@ def outputs(result: Any) -> None:
     st.dataframe(orders, hide_index=True, width="stretch")
     st.subheader("Warnings")
     show_warnings(result.warnings, empty="No forecast warnings.")
+    applied = calibration_use.notes(calibration, [(a, None) for a in sorted({c["agent"] for c in result.cases})])
+    calibration_use.show_applied(applied)
     weekly = pd.DataFrame({"week": range(1, result.weeks + 1), **{k: v for k, v in result.weekly.items()}})
     notes = [f"{result.weeks} simulated weeks. Gas volumes: {GAS_VOLUME_REFERENCE}."]
     if result.horizon:
@@ -252,7 +258,7 @@ def outputs(result: Any) -> None:
     downloads(
         "demand_forecast",
         {**planned, "items": items, "orders": orders, "weekly": weekly},
-        result.to_json,
+        lambda: {**result.to_json(), **({"calibration": applied} if applied else {})},
         "forecast",
         title="Demand forecast",
         notes=notes,
@@ -277,4 +283,6 @@ def render() -> None:
     )
     doc = inputs()
     state.save_button(st, KIND, doc)
-    outputs(cached_forecast(contracts.toml_text(doc), named_files(doc)))
+    calibration, runs = calibration_use.panel(KIND)
+    if runs:
+        outputs(cached_forecast(contracts.run_text(doc), named_files(doc), calibration), calibration)

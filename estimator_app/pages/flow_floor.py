@@ -15,7 +15,7 @@ from estimator.errors import InputError
 from estimator.planning.flow_classes import FLOW_CLASS_SOURCE
 from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import state
+from .. import calibration_use, contracts, state
 from ..charts import PALETTE, show
 from ..common import downloads, flow_factor, placeholder, show_error, show_warnings, unit
 from ..editing import Field, contract, number
@@ -30,11 +30,10 @@ def model() -> Any:
 
 
 @st.cache_data(max_entries=32, show_spinner="Searching the lowest safe flow, phase by phase...")
-def run_floor(text: str) -> Any:
-    """Flow floor of a scenario's TOML text (cached on the text)."""
-    from estimator.inputs.scenario import scenario_from_text
-
-    return model()(scenario_from_text(text))
+def run_floor(text: str, calibration: str | None = None) -> Any:
+    """Flow floor of a scenario's TOML text with a calibration's text, if any (cached on both), as
+    ``lowflow safe-flow FILE --calibration CAL`` runs it."""
+    return model()(contracts.load_scenario_text(text, calibration))
 
 
 def fields(fu: str, scale: float) -> list[tuple[int, str, Field]]:
@@ -233,12 +232,17 @@ def render() -> None:
     if not doc["flow_floor"] and "flow_floor" not in state.document():
         del doc["flow_floor"]
     state.set_document(doc)
+    calibration, runs = calibration_use.panel("scenario")
+    if not runs:
+        return
     try:
-        result = run_floor(state.toml_text())
-        plan = state.run_case(state.toml_text())
+        result = run_floor(state.run_text(), calibration)
+        plan = state.run_case(state.run_text(), calibration)
     except InputError as exc:
         show_error(exc)
         return
+    used = calibration_use.notes(calibration, [(result.scenario.agent.name, result.scenario.uptake_factor)])
+    calibration_use.show_applied(used, result.warnings)
     st.success(f"Recommended schedule: {result.schedule_text}", icon=":material/trending_down:")
     cmp_ = result.comparison
     m = st.columns(4)
@@ -293,7 +297,7 @@ def render() -> None:
     downloads(
         "flow_floor",
         {"phases": table, "grid": grid},
-        result.to_json,
+        lambda: {**result.to_json(), **({"calibration": next(iter(used.values()))} if used else {})},
         "floor",
         title="Flow floor",
         notes=[

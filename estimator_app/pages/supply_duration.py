@@ -32,7 +32,7 @@ from estimator.inputs.inventory_file import (
 from estimator.properties import AGENTS
 from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import contracts, state
+from .. import calibration_use, contracts, state
 from ..charts import case_bars, date_marks, item_colours, show, time_course
 from ..common import downloads, flag, metric, show_warnings, unit
 from ..editing import Field, contract, kept_view, number, table
@@ -136,14 +136,18 @@ WORK = Field("working_days_per_week", "Working days a week", "integer", low=0, h
 
 
 @st.cache_data(max_entries=32, show_spinner="Laying out the week and the stocks...")
-def run_supply(inventory_text: str, scenarios: tuple[tuple[str, str], ...]) -> Any:
-    """Supply report: the command line's loader and planner; each case plan runs the scenario it names."""
+def run_supply(
+    inventory_text: str, scenarios: tuple[tuple[str, str], ...], planner_calibration: str | None = None
+) -> Any:
+    """Supply report: the command line's loader and planner; each case plan runs the scenario it names (the
+    case planner's with the calibration file its scenario names, loaded on a planning page)."""
     from estimator.planning.supply import plan_supply
 
     texts = dict(scenarios)
 
     def runner(path: str) -> Any:
-        return state.run_case(texts[Path(path).name])
+        name = Path(path).name
+        return state.run_case(texts[name], planner_calibration if name in contracts.PLANNER_NAMES else None)
 
     return plan_supply(contracts.load_inventory_text(inventory_text), runner=runner)
 
@@ -357,9 +361,15 @@ def render() -> None:
     )
     doc = inputs()
     state.save_button(st, KIND, doc)
+    named = contracts.named_calibration(state.document())  # as lowflow supply reads the file a scenario names
+    if named is not None and any(n in contracts.PLANNER_NAMES for n in contracts.referenced(KIND, doc)):
+        if state.calibration() is None:
+            st.warning(calibration_use.named_message(named, "scenario"), icon=":material/warning:")
+            return
     current = (
         contracts.toml_text(doc),
-        tuple(sorted(contracts.case_scenarios(doc, state.files(KIND), state.toml_text()).items())),
+        tuple(sorted(contracts.case_scenarios(doc, state.files(KIND), state.run_text()).items())),
+        state.calibration_text() if named is not None else None,
     )
     report = run_supply(*current)
     outputs(report)
