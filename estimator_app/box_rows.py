@@ -5,7 +5,7 @@ it sends it; a number box sends its value at once, so a page whose table is edit
 row of boxes per table row instead. The rules are the table editor's: a value the user did not touch
 is saved exactly as loaded (same text, same unit), a blank box removes the key (the contract's default
 applies), a loaded value outside a box's range widens the box (the loader judges it), a row's keys
-that no box shows are kept and listed read-only beside it, and rows may be added and removed in place
+that no box shows are kept and listed read-only under it, and rows may be added and removed in place
 (the order is kept).
 """
 
@@ -17,8 +17,8 @@ import streamlit as st
 
 from .editing import Field, kept_text, merge, number
 
-#: Width of a text box against a number box, and of the kept keys' note and the remove button.
-_TEXT, _KEPT, _REMOVE = 1.3, 1.6, 0.45
+#: Width of a text box and of the remove button against a number box.
+_TEXT, _REMOVE = 1.3, 0.45
 
 
 def box(col: Any, row: dict[str, Any], field: Field, key: str, **kwargs: Any) -> None:
@@ -75,15 +75,13 @@ def rows(loaded: list[dict[str, Any]], fields: list[Field], key: str, noun: str 
             del out[ids.index(op)]
             ids.remove(op)
     st.session_state[f"{key}.ids"] = ids
-    kept = [kept_text(r, fields) for r in out]
-    widths = [_TEXT if f.kind == "text" else 1.0 for f in fields] + ([_KEPT] if any(kept) else []) + [_REMOVE]
-    for n, (row_id, row, note) in enumerate(zip(ids, out, kept, strict=True)):
+    widths = [_TEXT if f.kind == "text" else 1.0 for f in fields] + [_REMOVE]
+    for n, (row_id, row) in enumerate(zip(ids, out, strict=True)):
+        note = kept_text(row, fields)  # before the edits: what the boxes cannot show, as loaded
         cols = st.columns(widths, gap="small", vertical_alignment="bottom")
         shown = "visible" if n == 0 else "collapsed"
         for col, f in zip(cols, fields, strict=False):
             box(col, row, f, f"{key}.{row_id}.{f.key}", label_visibility=shown)
-        if any(kept):
-            cols[len(fields)].caption(f"kept as loaded: {note}" if note else "")
         cols[-1].button(
             "",
             icon=":material/delete:",
@@ -92,5 +90,7 @@ def rows(loaded: list[dict[str, Any]], fields: list[Field], key: str, noun: str 
             on_click=_queue,
             args=(key, row_id),
         )
+        if note:  # under its row, the whole width: the keys no box shows, read-only and saved unchanged
+            st.caption(f"{noun.capitalize()} {n + 1}, kept as loaded: {note}")
     st.button(f"Add a {noun}", icon=":material/add:", key=f"{key}.add", on_click=_queue, args=(key, None))
     return out

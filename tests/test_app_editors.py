@@ -157,8 +157,9 @@ def test_planner_keeps_a_phase_given_by_oxygen_fraction_and_total_flow(saved):
     assert_clean(at)
     original = tomllib.loads((ROOT / "demo_cases" / name).read_text(encoding="utf-8"))
     k = next(i for i, p in enumerate(original["phases"]) if "total_flow" in p)
-    kept = [c.value for c in at.caption if c.value.startswith("kept as loaded")]
+    kept = [c.value for c in at.caption if "kept as loaded:" in c.value]
     assert len(kept) == sum(1 for p in original["phases"] if "total_flow" in p)
+    assert kept[0].startswith(f"Phase {k + 1}, kept as loaded:")
     assert f'total_flow = "{original["phases"][k]["total_flow"]}"' in kept[0] and "label =" not in kept[0]
     at.number_input(key="case.weight.1.kg").set_value(71.0).run()
     doc = tomllib.loads(saved[name].decode())
