@@ -5,7 +5,7 @@ it sends it; a number box sends its value at once, so a page whose table is edit
 row of boxes per table row instead. The rules are the table editor's: a value the user did not touch
 is saved exactly as loaded (same text, same unit), a blank box removes the key (the contract's default
 applies), a loaded value outside a box's range widens the box (the loader judges it), a row's keys
-that no box shows are kept and listed read-only under it, and rows may be added and removed in place
+that no box shows are kept and listed read-only under the rows, and rows may be added and removed in place
 (the order is kept).
 """
 
@@ -75,13 +75,17 @@ def rows(loaded: list[dict[str, Any]], fields: list[Field], key: str, noun: str 
             del out[ids.index(op)]
             ids.remove(op)
     st.session_state[f"{key}.ids"] = ids
+    notes = [kept_text(r, fields) for r in out]  # before the edits: what the boxes cannot show, as loaded
+    # One block of columns, each holding its field's box of every row (rows line up: every box is one
+    # line high and the columns align at the bottom, below the headings of the first row). A column
+    # per field, not a block per row: each element is one more message the browser draws on every rerun.
     widths = [_TEXT if f.kind == "text" else 1.0 for f in fields] + [_REMOVE]
-    for n, (row_id, row) in enumerate(zip(ids, out, strict=True)):
-        note = kept_text(row, fields)  # before the edits: what the boxes cannot show, as loaded
-        cols = st.columns(widths, gap="small", vertical_alignment="bottom")
-        shown = "visible" if n == 0 else "collapsed"
-        for col, f in zip(cols, fields, strict=False):
+    cols = st.columns(widths, gap="small", vertical_alignment="bottom")
+    for col, f in zip(cols, fields, strict=False):
+        for n, (row_id, row) in enumerate(zip(ids, out, strict=True)):
+            shown = "visible" if n == 0 else "collapsed"
             box(col, row, f, f"{key}.{row_id}.{f.key}", label_visibility=shown)
+    for row_id in ids:
         cols[-1].button(
             "",
             icon=":material/delete:",
@@ -90,7 +94,9 @@ def rows(loaded: list[dict[str, Any]], fields: list[Field], key: str, noun: str 
             on_click=_queue,
             args=(key, row_id),
         )
-        if note:  # under its row, the whole width: the keys no box shows, read-only and saved unchanged
-            st.caption(f"{noun.capitalize()} {n + 1}, kept as loaded: {note}")
+    for n, note in enumerate(notes):
+        if note:  # the keys no box shows, read-only and saved unchanged; the row named by its text boxes
+            name = ", ".join(str(out[n][f.key]) for f in fields if f.kind == "text" and out[n].get(f.key))
+            st.caption(f"{noun.capitalize()} {n + 1}{f' ({name})' if name else ''}, kept as loaded: {note}")
     st.button(f"Add a {noun}", icon=":material/add:", key=f"{key}.add", on_click=_queue, args=(key, None))
     return out

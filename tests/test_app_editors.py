@@ -81,10 +81,11 @@ def test_supply_empty_concentrator_table_takes_a_typed_rated_flow():
         assert number(metric(at, "Days of supply")) > without
 
 
-@pytest.mark.parametrize("name", ["case_planner", "supply_duration", "demand_forecast", "flow_floor"])
+@pytest.mark.parametrize("name", ["supply_duration", "demand_forecast", "flow_floor"])
 def test_every_numeric_editor_column_is_a_number_column(name):
     # Issue 14 item 11: a column holding numbers (or a unit in its label) is a number column with a
     # lower bound, whether its table starts empty or not, so the browser never sends text for it.
+    # (The case planner's phases are number boxes: tests/test_app_phase_boxes.py.)
     at = page(name)
     assert_clean(at)
     editors = [e for e in at.dataframe if e.key]
@@ -159,7 +160,7 @@ def test_planner_keeps_a_phase_given_by_oxygen_fraction_and_total_flow(saved):
     k = next(i for i, p in enumerate(original["phases"]) if "total_flow" in p)
     kept = [c.value for c in at.caption if "kept as loaded:" in c.value]
     assert len(kept) == sum(1 for p in original["phases"] if "total_flow" in p)
-    assert kept[0].startswith(f"Phase {k + 1}, kept as loaded:")
+    assert kept[0].startswith(f"Phase {k + 1} ({original['phases'][k]['label']}), kept as loaded:")
     assert f'total_flow = "{original["phases"][k]["total_flow"]}"' in kept[0] and "label =" not in kept[0]
     at.number_input(key="case.weight.1.kg").set_value(71.0).run()
     doc = tomllib.loads(saved[name].decode())
