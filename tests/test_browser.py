@@ -57,7 +57,8 @@ def test_change_a_fresh_gas_flow_and_see_the_totals_change(app_url, chromium_bro
     assert after_agent > before_agent
     assert number(metric_text(page, "Oxygen")) > before_o2
     # A box emptied removes its key (the contract's default, no air): the maintenance's 0.2 L/min of air
-    # over 70 min (14 L) leave the air total.
+    # over 70 min (14 L at the flowmeter) leave the air total, which is shown in whole litres of free gas
+    # at 15 degC and 101.325 kPa (the rounding of two shown values and a few per cent of conversion).
     before_air_text = metric_text(page, "Air")
     air = phase_box(page, 1, "air [L/min]")
     edit_box(page, air, "")
