@@ -11,6 +11,7 @@ that no box shows are kept and listed read-only under the rows, and rows may be 
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Any
 
 import streamlit as st
@@ -83,8 +84,8 @@ def rows(loaded: list[dict[str, Any]], fields: list[Field], key: str, noun: str 
     cols = st.columns(widths, gap="small", vertical_alignment="bottom")
     for col, f in zip(cols, fields, strict=False):
         for n, (row_id, row) in enumerate(zip(ids, out, strict=True)):
-            shown = "visible" if n == 0 else "collapsed"
-            box(col, row, f, f"{key}.{row_id}.{f.key}", label_visibility=shown)
+            shown = "visible" if n == 0 else "collapsed"  # heading and help once, on the first row
+            box(col, row, f if n == 0 else replace(f, help=None), f"{key}.{row_id}.{f.key}", label_visibility=shown)
     for row_id in ids:
         cols[-1].button(
             "",
