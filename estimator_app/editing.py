@@ -155,8 +155,12 @@ def merge(target: dict[str, Any], field: Field, raw: Any, seed: Any, value: Any)
             target[field.key] = str(value)  # the loader names the field and what it accepts
 
 
-def number(box: Any, doc: dict[str, Any], field: Field, key: str, **kwargs: Any) -> None:
-    """A number widget for ``doc[field.key]``, kept as written until the user changes it."""
+def number(box: Any, doc: dict[str, Any], field: Field, key: str, clearable: bool = False, **kwargs: Any) -> None:
+    """A number widget for ``doc[field.key]``, kept as written until the user changes it.
+
+    ``clearable``: the box may be emptied (a blank removes the key). Streamlit reads an emptied box as
+    its ``value`` argument, so such a box starts from session state instead, with no ``value``.
+    """
     raw = doc.get(field.key)
     seed = field.shown(raw)
     low, high = field.low, field.high
@@ -165,11 +169,16 @@ def number(box: Any, doc: dict[str, Any], field: Field, key: str, **kwargs: Any)
         high = None if high is None else max(high, seed)
     integer = field.kind == "integer"
     cast = int if integer else float
+    start = None if seed is None else cast(seed)
+    if clearable:
+        if key not in st.session_state:
+            st.session_state[key] = start
+        start = None
     value = box.number_input(
         field.title,
         min_value=None if low is None else cast(low),
         max_value=None if high is None else cast(high),
-        value=None if seed is None else cast(seed),
+        value=start,
         step=cast(field.step) if field.step is not None else (1 if integer else None),
         help=field.help,
         key=key,

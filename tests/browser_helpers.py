@@ -1,5 +1,5 @@
 """What the real-browser tests share: the skip rule, waiting for a Streamlit run, reading and editing
-the data grids, and the command line's JSON for the same demo file.
+the data grids and the case planner's phase boxes, and the command line's JSON for the same demo file.
 
 Every wait is a Playwright auto-waiting locator or ``expect`` with a generous timeout, never a sleep:
 a page is ready when the app's script state is ``notRunning`` and a known element shows. A data grid
@@ -182,6 +182,35 @@ def edit_cell(page: Any, grid: Any, row: int, col: int, text: str, attempts: int
     editor.fill(text)
     if commit:
         page.keyboard.press("Enter")
+
+
+def phase_box(page: Any, row: int, heading: str) -> Any:
+    """The number box under ``heading`` (e.g. "O2 [L/min]") of the case planner's phase ``row`` (from 0).
+
+    Every phase row's boxes carry their column's heading as their accessible name (shown on the first row).
+    """
+    return page.get_by_role("spinbutton", name=heading, exact=True).nth(row)
+
+
+def phase_rows(page: Any, headings: tuple[str, ...] = ()) -> list[dict[str, str]]:
+    """The case planner's phases as shown: the phase label and the boxes under ``headings``, one dict a phase."""
+    from playwright.sync_api import expect
+
+    labels = page.get_by_role("textbox", name="phase", exact=True)
+    expect(labels.first).to_be_visible(timeout=TIMEOUT_MS)
+    rows = [{"phase": labels.nth(n).input_value()} for n in range(labels.count())]
+    for n, row in enumerate(rows):
+        row.update({h: phase_box(page, n, h).input_value() for h in headings})
+    return rows
+
+
+def edit_box(page: Any, box: Any, text: str, commit: bool = True) -> None:
+    """Type ``text`` into a number box (its old text replaced); press Enter unless ``commit=False``."""
+    wait_for_run(page)
+    box.scroll_into_view_if_needed()
+    box.fill(text)
+    if commit:
+        box.press("Enter")
 
 
 def choose(page: Any, label: str, option: str) -> None:

@@ -53,8 +53,8 @@ def test_case_planner_shows_engine_totals_and_downloads(planner):
     assert 70 / 60 < number(metric(planner, "MAC-hours")) < 86 / 60
     labels = {b.label for b in planner.get("download_button")}
     assert {"Download CSV", "Download XLSX", "Download JSON", "Save scenario (TOML)"} <= labels
-    phases = planner.dataframe[0].value
-    assert list(phases["phase"]) == ["wash-in", "maintenance", "emergence"]
+    phases = [t.value for t in planner.text_input if t.key.startswith("case.phases")]
+    assert phases == ["wash-in", "maintenance", "emergence"]
 
 
 def test_heavier_patient_takes_up_more_agent(planner):

@@ -81,10 +81,11 @@ def test_supply_empty_concentrator_table_takes_a_typed_rated_flow():
         assert number(metric(at, "Days of supply")) > without
 
 
-@pytest.mark.parametrize("name", ["case_planner", "supply_duration", "demand_forecast", "flow_floor"])
+@pytest.mark.parametrize("name", ["supply_duration", "demand_forecast", "flow_floor"])
 def test_every_numeric_editor_column_is_a_number_column(name):
     # Issue 14 item 11: a column holding numbers (or a unit in its label) is a number column with a
     # lower bound, whether its table starts empty or not, so the browser never sends text for it.
+    # (The case planner's phases are number boxes: tests/test_app_phase_boxes.py.)
     at = page(name)
     assert_clean(at)
     editors = [e for e in at.dataframe if e.key]
@@ -155,10 +156,12 @@ def test_planner_keeps_a_phase_given_by_oxygen_fraction_and_total_flow(saved):
     at = page("case_planner")
     at.selectbox(key="scenario.demo").set_value(name).run()
     assert_clean(at)
-    phases = next(d.value for d in at.dataframe if d.key and d.key.startswith("case.phases"))
     original = tomllib.loads((ROOT / "demo_cases" / name).read_text(encoding="utf-8"))
     k = next(i for i, p in enumerate(original["phases"]) if "total_flow" in p)
-    assert "total_flow" in phases["other keys (kept as loaded)"].iloc[k]
+    kept = [c.value for c in at.caption if "kept as loaded:" in c.value]
+    assert len(kept) == sum(1 for p in original["phases"] if "total_flow" in p)
+    assert kept[0].startswith(f"Phase {k + 1} ({original['phases'][k]['label']}), kept as loaded:")
+    assert f'total_flow = "{original["phases"][k]["total_flow"]}"' in kept[0] and "label =" not in kept[0]
     at.number_input(key="case.weight.1.kg").set_value(71.0).run()
     doc = tomllib.loads(saved[name].decode())
     assert doc["phases"] == original["phases"]
@@ -186,11 +189,10 @@ def test_an_edit_undone_gives_the_file_back(saved):
     at = page("case_planner")
     name = demo.DEFAULT["scenario"]
     original = tomllib.loads((ROOT / "demo_cases" / name).read_text(encoding="utf-8"))
-    key = next(d.key for d in at.dataframe if d.key and d.key.startswith("case.phases"))
-    at = edit_table(at, key, {"edited_rows": {"1": {"O2 [L/min]": 0.5}}})
+    at.number_input(key="case.phases.0.L/min.1.oxygen").set_value(0.5).run()
     assert_clean(at)
     assert tomllib.loads(saved[name].decode())["phases"][1]["oxygen"] == "0.5 L/min"
-    at = edit_table(at, key, {"edited_rows": {"1": {"O2 [L/min]": 0.3}}})
+    at.number_input(key="case.phases.0.L/min.1.oxygen").set_value(0.3).run()
     assert_clean(at)
     assert tomllib.loads(saved[name].decode()) == original
 
@@ -220,8 +222,7 @@ def test_forecast_upload_with_the_scenario_file_it_names():
     assert len(faults(at)) == 1 and "case_types (row 1).scenario" in faults(at)[0]
 
 
-@pytest.mark.parametrize("name", ["case_planner", "supply_duration"])
-def test_empty_editor_cells_read_blank_not_none(monkeypatch, name):
+def test_empty_editor_cells_read_blank_not_none(monkeypatch):
     # Issue 19, item 6: a missing value in an editable table shows blank; the value stays missing.
     import streamlit
 
@@ -233,9 +234,12 @@ def test_empty_editor_cells_read_blank_not_none(monkeypatch, name):
         return real(*args, **kwargs)
 
     monkeypatch.setattr(streamlit, "data_editor", spy)
-    at = page(name)
+    at = page("supply_duration")
     assert_clean(at)
     assert calls and all(kw.get("placeholder") == "" for kw in calls)
+    at = page("case_planner")  # its phases are boxes: an absent value is an empty box
+    assert not [t.key for t in at.text_input if t.value in ("None", "nan")]
+    assert [n.value for n in at.number_input if n.key.endswith(".0.nitrous_oxide")] == [None]
 
 
 def test_kept_keys_are_shown_as_toml_only_while_their_expander_is_open():

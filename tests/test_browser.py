@@ -1,7 +1,7 @@
 """The app in a real browser: Debian's chromium driven by Playwright against a live Streamlit server.
 
 Starts ``streamlit run app.py`` on a free loopback port (the session fixture ``app_url``), opens the
-case planner, changes the maintenance fresh-gas flow in the phase table, and checks that the totals
+case planner, changes the first phase's O2 flow in its number box, and checks that the totals
 change the way the model says they must (more flow, more agent delivered); then opens every page.
 With CI=true the tests must run; elsewhere they are skipped when chromium is missing. Never downloads
 a browser. Waits are Playwright's auto-waiting locators and ``expect`` (tests/browser_helpers.py).
@@ -13,13 +13,14 @@ import time
 
 import pytest
 from browser_helpers import (
-    edit_cell,
-    grid_rows,
+    edit_box,
     metric,
     metric_text,
     new_page,
     number,
     open_page,
+    phase_box,
+    phase_rows,
     require_chromium,
     wait_for_run,
 )
@@ -37,19 +38,34 @@ def test_change_a_fresh_gas_flow_and_see_the_totals_change(app_url, chromium_bro
     first_totals = time.monotonic() - t0
     before_agent_text = metric_text(page, "Liquid agent")
     before_agent, before_o2 = number(before_agent_text), number(metric_text(page, "Oxygen"))
-    grid = page.get_by_test_id("stDataFrame").first  # the phase table
-    assert [r["phase"] for r in grid_rows(grid)] == ["wash-in", "maintenance", "emergence"]
-    # Maintenance (row 1), O2 column (col 2): 0.3 -> 1.6 L/min. Dion 1992, Baum and Aitkenhead 1995:
-    # at the same end-tidal hold more fresh gas delivers and vents more agent.
+    phases = phase_rows(page, ("O2 [L/min]",))
+    assert phases == [
+        {"phase": "wash-in", "O2 [L/min]": "3"},
+        {"phase": "maintenance", "O2 [L/min]": "0.3"},
+        {"phase": "emergence", "O2 [L/min]": "6"},
+    ]
+    # The wash-in's O2 box (the first phase): 3 -> 6 L/min. Dion 1992, Baum and Aitkenhead 1995: at the
+    # same end-tidal hold more fresh gas delivers and vents more agent.
     t1 = time.monotonic()
-    edit_cell(page, grid, 1, 2, "1.6")
-    expect(grid.get_by_test_id("glide-cell-3-1")).to_have_text("1.6")
+    box = phase_box(page, 0, "O2 [L/min]")
+    edit_box(page, box, "6")
+    expect(box).to_have_value("6")
     expect(metric(page, "Liquid agent")).not_to_have_text(before_agent_text, timeout=120_000)
     wait_for_run(page)
     rerun = time.monotonic() - t1
     after_agent = number(metric_text(page, "Liquid agent"))
     assert after_agent > before_agent
     assert number(metric_text(page, "Oxygen")) > before_o2
+    # A box emptied removes its key (the contract's default, no air): the maintenance's 0.2 L/min of air
+    # over 70 min (14 L at the flowmeter) leave the air total, which is shown in whole litres of free gas
+    # at 15 degC and 101.325 kPa (the rounding of two shown values and a few per cent of conversion).
+    before_air_text = metric_text(page, "Air")
+    air = phase_box(page, 1, "air [L/min]")
+    edit_box(page, air, "")
+    expect(metric(page, "Air")).not_to_have_text(before_air_text, timeout=120_000)
+    wait_for_run(page)
+    expect(air).to_have_value("")
+    assert number(metric_text(page, "Air")) == pytest.approx(number(before_air_text) - 14, abs=1.5)
     page.screenshot(path=str(tmp_path / "case_planner_after_edit.png"), full_page=True)
     print(
         f"first totals {first_totals:.2f} s, rerun after a flow edit {rerun:.2f} s "

@@ -26,6 +26,7 @@ from browser_helpers import (
     metric,
     new_page,
     open_page,
+    phase_rows,
     require_chromium,
     wait_for_run,
 )
@@ -99,11 +100,12 @@ def test_flow_floor_schedule_and_apply(app_url, page):
     page.get_by_test_id("stSidebarNav").get_by_role("link", name="Case planner").click()  # the same session
     expect(page.get_by_role("heading", name="Case planner").first).to_be_visible()
     wait_for_run(page)
-    phases = grid_rows(page.get_by_test_id("stDataFrame").first)
+    flows = ("O2 [L/min]", "air [L/min]", "N2O [L/min]")
+    phases = phase_rows(page, flows)
     for s in cli["schedule"]:
         if s["settable"]:
             row = phases[s["index"]]
-            total = sum(float(row[c] or 0) for c in ("O2 [L/min]", "air [L/min]", "N2O [L/min]"))
+            total = sum(float(row[c] or 0) for c in flows)
             assert total == pytest.approx(mag(s["total"]), abs=1e-6), (row, s)
 
 

@@ -16,14 +16,14 @@ from estimator.simulation.dial_schedule import dial_schedule, dial_table, dial_t
 from estimator.simulation.totals_table import totals_rows
 from estimator.units import GAS_VOLUME_REFERENCE
 
-from .. import calibration_use, spread_view, state
+from .. import box_rows, calibration_use, spread_view, state
 from ..charts import show, time_course
 from ..common import download_row, downloads, flag, flow_factor, metric, show_warnings, unit
-from ..editing import Field, contract, kept_view, number, table
+from ..editing import Field, contract, kept_view, number
 
 
 def phase_fields(fu: str) -> list[Field]:
-    """Columns of the phase table (flows in ``fu``), ranges from the scenario contract; other phase keys
+    """Boxes of a phase (flows in ``fu``), ranges from the scenario contract; other phase keys
     (total_flow, oxygen_fraction, balance...) are kept and shown read-only."""
     from estimator.inputs.scenario import PhaseInput as P
 
@@ -106,9 +106,10 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
             del doc[k]
     st.markdown(
         "**Phases** - fresh-gas flows per phase, and either a vaporizer dial or an end-tidal hold target; "
-        "a blank cell leaves the key out"
+        "a blank box leaves the key out"
     )
-    doc["phases"] = table(doc.get("phases", []), phase_fields(fu), f"case.phases.{v}.{fu}")
+    # Number boxes, not a table editor: a box sends its value on Enter at once, the table editor 150 ms later.
+    doc["phases"] = box_rows.rows(doc.get("phases", []), phase_fields(fu), f"case.phases.{v}.{fu}", "phase")
     # room for other views of the same scenario (e.g. a patient-spread band) below this line
     kept_view(doc, {"title", "patient", "agent", "circuit", "phases"})
     return doc
