@@ -1,0 +1,117 @@
+"""Consistency: every public function of the model layers has complete numpydoc docstrings.
+
+The project standard (DEVELOPERS.md): Parameters and Returns with the unit in brackets, a References
+section citing the source of the formula or values, and an Examples section with a doctest. A function
+may go without a section only through ``ALLOWED`` below, with the reason beside it; an entry that is no
+longer needed (the function is gone, or now has the section) fails, so the list stays short.
+"""
+
+from __future__ import annotations
+
+import ast
+import re
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1] / "estimator"
+#: Layer folders whose public functions are held to the standard.
+FOLDERS = ("physics", "accounts")
+
+_KERNEL = "numba kernel of the hot loop: a doctest would compile it (seconds); the layout is in the module docstring"
+_BOOKKEEPING = "bookkeeping, no published formula"
+_ARRAYS = "numba kernel at the 400-line limit of circuit.py; arguments are the state and parameter arrays"
+
+#: "folder/module.py:function" -> {section: reason it is left out}.
+ALLOWED: dict[str, dict[str, str]] = {
+    "physics/circuit.py:flows": {"Parameters": _ARRAYS, "Returns": _ARRAYS, "References": _ARRAYS, "Examples": _KERNEL},
+    "physics/circuit.py:rhs": {"Parameters": _ARRAYS, "Returns": _ARRAYS, "References": _ARRAYS, "Examples": _KERNEL},
+    "physics/circuit.py:derived_series": {
+        "Parameters": _ARRAYS,
+        "Returns": _ARRAYS,
+        "References": _ARRAYS,
+        "Examples": _KERNEL,
+    },
+    "physics/circuit.py:running_totals": {
+        "Parameters": _ARRAYS,
+        "Returns": _ARRAYS,
+        "References": _ARRAYS,
+        "Examples": _KERNEL,
+    },
+    "physics/cylinder_state.py:cylinder_temperature": {"References": _BOOKKEEPING + " (input check)"},
+    "physics/cylinder_state.py:cylinder_count": {"References": _BOOKKEEPING + " (input check)"},
+    "physics/supply_values.py:supply_data": {"References": "file reader; each value's source is in supply.toml"},
+    "physics/real_gas.py:fluid_name": {"References": _BOOKKEEPING + " (a name lookup)"},
+    "physics/real_gas.py:gas_key": {"References": _BOOKKEEPING + " (a name lookup)"},
+    "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
+    "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
+}
+
+_SECTION = re.compile(r"^\s*([A-Z][A-Za-z ]+)\n\s*-{3,}\s*$", re.MULTILINE)
+_NEEDED = ("Parameters", "Returns", "References", "Examples")
+
+
+def _public_functions() -> list[tuple[str, ast.FunctionDef]]:
+    out = []
+    for folder in FOLDERS:
+        for path in sorted((ROOT / folder).rglob("*.py")):
+            for node in ast.parse(path.read_text(encoding="utf-8")).body:
+                if isinstance(node, ast.FunctionDef) and not node.name.startswith("_"):
+                    out.append((f"{path.relative_to(ROOT).as_posix()}:{node.name}", node))
+    return out
+
+
+def _sections(doc: str) -> dict[str, str]:
+    """Section title -> body of a numpydoc docstring."""
+    marks = list(_SECTION.finditer(doc))
+    return {
+        m.group(1).strip(): doc[m.end() : (marks[i + 1].start() if i + 1 < len(marks) else len(doc))]
+        for i, m in enumerate(marks)
+    }
+
+
+def _missing(node: ast.FunctionDef) -> list[str]:
+    sections = _sections(ast.get_docstring(node) or "")
+    has_arguments = bool(node.args.args or node.args.kwonlyargs or node.args.vararg or node.args.kwarg)
+    missing = []
+    for name in _NEEDED:
+        if name == "Parameters" and not has_arguments:
+            continue
+        if name == "Returns" and "Yields" in sections:
+            continue
+        if name not in sections or (name == "Examples" and ">>>" not in sections[name]):
+            missing.append(name)
+    return missing
+
+
+FUNCTIONS = _public_functions()
+
+
+@pytest.mark.parametrize(("name", "node"), FUNCTIONS, ids=[n for n, _ in FUNCTIONS])
+def test_public_function_has_every_section(name: str, node: ast.FunctionDef) -> None:
+    allowed = ALLOWED.get(name, {})
+    missing = [s for s in _missing(node) if s not in allowed]
+    assert not missing, f"{name}: docstring lacks {', '.join(missing)} (numpydoc; or allow-list it with a reason)"
+
+
+def test_allow_list_is_current() -> None:
+    known = dict(FUNCTIONS)
+    for name, sections in ALLOWED.items():
+        assert name in known, f"{name} is allow-listed but is no public function of {FOLDERS}"
+        assert all(reason.strip() for reason in sections.values()), f"{name}: every entry needs a reason"
+        stale = set(sections) - set(_missing(known[name]))
+        assert not stale, f"{name} now has {', '.join(sorted(stale))}: remove it from ALLOWED"
+
+
+_QUANTITY_TYPE = re.compile(r"\b(Quantity|float|ndarray)\b")
+_UNIT = re.compile(r"\[[^\]]+\]|dimensionless")
+
+
+@pytest.mark.parametrize(("name", "node"), FUNCTIONS, ids=[n for n, _ in FUNCTIONS])
+def test_quantity_parameters_name_a_unit(name: str, node: ast.FunctionDef) -> None:
+    body = _sections(ast.get_docstring(node) or "").get("Parameters", "")
+    entries = re.split(r"\n(?=\S)", body.strip("\n")) if body.strip() else []
+    for entry in entries:
+        head = entry.splitlines()[0]
+        if " : " in head and _QUANTITY_TYPE.search(head.split(" : ", 1)[1]):
+            assert _UNIT.search(entry), f"{name}: parameter {head.split(' : ')[0].strip()!r} names no unit in brackets"
