@@ -43,6 +43,8 @@ ALLOWED: dict[str, dict[str, str]] = {
     "physics/supply_values.py:supply_data": {"References": "file reader; each value's source is in supply.toml"},
     "physics/real_gas.py:fluid_name": {"References": _BOOKKEEPING + " (a name lookup)"},
     "physics/real_gas.py:gas_key": {"References": _BOOKKEEPING + " (a name lookup)"},
+    "physics/mac_age.py:parse_ambient_pressure": {"References": _BOOKKEEPING + " (input check)"},
+    "physics/mac_age.py:parse_fraction": {"References": _BOOKKEEPING + " (input check)"},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
