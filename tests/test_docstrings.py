@@ -80,6 +80,11 @@ ALLOWED: dict[str, dict[str, str]] = {
     "accounts/carbon.py:released_co2e": {"Parameters": _CARBON, "References": _CARBON},
     "accounts/carbon.py:totals_co2e": {"Parameters": _CARBON, "Returns": _CARBON, "References": _CARBON},
     "accounts/carbon.py:case_carbon": {"References": _CARBON},
+    "accounts/costs.py:period_cost": {"References": _BOOKKEEPING + " (sums of case costs)"},
+    "accounts/costs.py:compare_costs": {"References": _BOOKKEEPING + " (differences of costs)"},
+    "accounts/prices.py:parse_prices": {"References": _BOOKKEEPING + " (the prices contract)"},
+    "accounts/prices.py:prices_from_text": {"References": _BOOKKEEPING + " (the prices contract)"},
+    "accounts/prices.py:load_prices": {"References": _BOOKKEEPING + " (the prices contract)"},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
