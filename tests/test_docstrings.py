@@ -16,7 +16,7 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1] / "estimator"
 #: Layer folders whose public functions are held to the standard.
-FOLDERS = ("physics", "accounts")
+FOLDERS = ("physics", "accounts", "numerics")
 
 _KERNEL = "numba kernel of the hot loop: a doctest would compile it (seconds); the layout is in the module docstring"
 _SITE = "site.py is at the 400-line limit; its sources (ISO 2533, ICAO Doc 7488/3, West) are in the module References"
@@ -85,6 +85,10 @@ ALLOWED: dict[str, dict[str, str]] = {
     "accounts/prices.py:parse_prices": {"References": _BOOKKEEPING + " (the prices contract)"},
     "accounts/prices.py:prices_from_text": {"References": _BOOKKEEPING + " (the prices contract)"},
     "accounts/prices.py:load_prices": {"References": _BOOKKEEPING + " (the prices contract)"},
+    "numerics/dopri5.py:integrate_phase": {"Examples": _KERNEL},
+    "numerics/rkc.py:spectral_radius": {"Examples": _KERNEL},
+    "numerics/rkc.py:rkc_phase": {"Examples": _KERNEL},
+    "numerics/rkc.py:integrate_cases": {"Examples": _KERNEL},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
