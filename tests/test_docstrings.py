@@ -89,6 +89,7 @@ ALLOWED: dict[str, dict[str, str]] = {
     "numerics/rkc.py:spectral_radius": {"Examples": _KERNEL},
     "numerics/rkc.py:rkc_phase": {"Examples": _KERNEL},
     "numerics/rkc.py:integrate_cases": {"Examples": _KERNEL},
+    "simulation/kernel_parameters.py:vaporizer_type": {"References": _BOOKKEEPING + " (a default)"},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
