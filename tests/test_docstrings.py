@@ -90,6 +90,9 @@ ALLOWED: dict[str, dict[str, str]] = {
     "numerics/rkc.py:rkc_phase": {"Examples": _KERNEL},
     "numerics/rkc.py:integrate_cases": {"Examples": _KERNEL},
     "simulation/kernel_parameters.py:vaporizer_type": {"References": _BOOKKEEPING + " (a default)"},
+    "simulation/case_setup.py:prepare": {"References": _BOOKKEEPING + " (the set-up; each value cites its own)"},
+    "simulation/case_setup.py:phase_times": {"References": _BOOKKEEPING + " (output times)"},
+    "simulation/engine.py:absolute_tolerance": {"References": _BOOKKEEPING + " (tolerance choice)"},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
