@@ -93,6 +93,16 @@ ALLOWED: dict[str, dict[str, str]] = {
     "simulation/case_setup.py:prepare": {"References": _BOOKKEEPING + " (the set-up; each value cites its own)"},
     "simulation/case_setup.py:phase_times": {"References": _BOOKKEEPING + " (output times)"},
     "simulation/engine.py:absolute_tolerance": {"References": _BOOKKEEPING + " (tolerance choice)"},
+    "simulation/assemble.py:build_result": {
+        "References": _BOOKKEEPING + " (assembly; accounts/ cites the conversions)"
+    },
+    "simulation/results.py:judged_samples": {
+        "References": "the settling time is the package's choice (estimator.limits)"
+    },
+    "simulation/dial_schedule.py:dial_schedule": {"References": _BOOKKEEPING + " (a table of the series)"},
+    "simulation/dial_schedule.py:dial_table": {"References": _BOOKKEEPING + " (a table of the series)"},
+    "simulation/dial_schedule.py:dial_text": {"References": _BOOKKEEPING + " (text of the table)"},
+    "simulation/totals_table.py:totals_rows": {"References": _BOOKKEEPING + " (a table of the totals)"},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
