@@ -103,6 +103,8 @@ ALLOWED: dict[str, dict[str, str]] = {
     "simulation/dial_schedule.py:dial_table": {"References": _BOOKKEEPING + " (a table of the series)"},
     "simulation/dial_schedule.py:dial_text": {"References": _BOOKKEEPING + " (text of the table)"},
     "simulation/totals_table.py:totals_rows": {"References": _BOOKKEEPING + " (a table of the totals)"},
+    "simulation/spread.py:sources": {"References": "file reader; the citations are what it returns"},
+    "simulation/spread.py:apply_factors": {"References": _BOOKKEEPING + " (factors applied to the parameters)"},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
