@@ -105,6 +105,10 @@ ALLOWED: dict[str, dict[str, str]] = {
     "simulation/totals_table.py:totals_rows": {"References": _BOOKKEEPING + " (a table of the totals)"},
     "simulation/spread.py:sources": {"References": "file reader; the citations are what it returns"},
     "simulation/spread.py:apply_factors": {"References": _BOOKKEEPING + " (factors applied to the parameters)"},
+    "simulation/batch.py:single_case_scenario": {"References": _BOOKKEEPING + " (a scenario for checks)"},
+    "simulation/batch.py:phase_durations": {"References": _BOOKKEEPING + " (durations cut or stretched)"},
+    "simulation/batch.py:absolute_tolerance": {"References": _BOOKKEEPING + " (tolerance choice)"},
+    "simulation/batch.py:run_batch": {"Examples": "the module docstring runs it (compiles the parallel RKC kernel)"},
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }
