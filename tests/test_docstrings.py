@@ -16,7 +16,7 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1] / "estimator"
 #: Layer folders whose public functions are held to the standard.
-FOLDERS = ("physics", "accounts", "numerics")
+FOLDERS = ("physics", "accounts", "numerics", "simulation")
 
 _KERNEL = "numba kernel of the hot loop: a doctest would compile it (seconds); the layout is in the module docstring"
 _SITE = "site.py is at the 400-line limit; its sources (ISO 2533, ICAO Doc 7488/3, West) are in the module References"
