@@ -109,6 +109,10 @@ ALLOWED: dict[str, dict[str, str]] = {
     "simulation/batch.py:phase_durations": {"References": _BOOKKEEPING + " (durations cut or stretched)"},
     "simulation/batch.py:absolute_tolerance": {"References": _BOOKKEEPING + " (tolerance choice)"},
     "simulation/batch.py:run_batch": {"Examples": "the module docstring runs it (compiles the parallel RKC kernel)"},
+    "physics/real_gas.py:props_si": {"Examples": "imports CoolProp (about 2 s); tests/test_real_gas_table.py calls it"},
+    "simulation/engine.py:reference_solve": {
+        "Examples": "solve_ivp calling the kernel from Python takes about 0.2 s; tests/test_engine_world.py checks it"
+    },
     "physics/gas_mixtures.py:load_records": {"References": "data-file check; each value's source is in flowmeter.toml"},
     "physics/gas_mixtures.py:data_value": {"References": "data-file lookup; each value's source is in flowmeter.toml"},
 }

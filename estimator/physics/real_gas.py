@@ -46,11 +46,6 @@ def props_si() -> Any:
     References
     ----------
     Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
-
-    Examples
-    --------
-    >>> round(props_si()("Tcrit", "NitrousOxide"), 2)
-    309.52
     """
     from CoolProp.CoolProp import PropsSI
 

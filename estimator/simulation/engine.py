@@ -197,16 +197,6 @@ def reference_solve(
     ----------
     Virtanen P et al. SciPy 1.0. Nat Methods 2020;17:261-72. Hairer E, Norsett SP, Wanner G. Solving
     Ordinary Differential Equations I, 2nd ed. Springer 1993 (DOP853).
-
-    Examples
-    --------
-    >>> from estimator.inputs.scenario import scenario_from_dict
-    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
-    ...     "phases": [{"duration": "2 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
-    >>> derived, y_end = reference_solve(s, rtol=1e-6, atol=1e-9)
-    >>> mac = simulate(s).columns["end_tidal_mac [MAC]"]
-    >>> derived.shape[0], bool(np.allclose(derived[:, c.W_MAC], mac, rtol=1e-4)), y_end.shape == (c.NY,)
-    (3, True, True)
     """
     from scipy.integrate import solve_ivp
 

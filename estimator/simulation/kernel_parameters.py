@@ -146,8 +146,8 @@ def base_parameters(scenario: Scenario, patient: Patient, site: SiteState) -> np
     References
     ----------
     Values of ``data/agents.toml``: blood/gas (Katoh T et al. Br J Anaesth 1992;69:259; Eger EI. Anesth
-    Analg 1992;75:S3), tissue/blood (Yasuda N et al. Anesth Analg 1989;69:370; Eger EI II 1974), MAC at
-    40 years (Mapleson WW. Br J Anaesth 1996;76:179, Table 2); R of CODATA 2018.
+    Analg 1992;75:S3), tissue/blood (Yasuda N et al. Anesth Analg 1989;69:370; Eger EI II 1974, from
+    memory), MAC at 40 years (Mapleson WW. Br J Anaesth 1996;76:179, Table 2); R of CODATA 2018.
 
     Examples
     --------

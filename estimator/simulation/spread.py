@@ -125,7 +125,8 @@ def distributions(agent: str) -> dict[str, Spread]:
     ----------
     ``data/spread.toml``: Esper T et al. Anesth Analg 2015;120:45-50 and Katoh T et al. Br J Anaesth
     1992;69:259 (blood/gas); Carlsson M et al. J Cardiovasc Magn Reson 2012;14:51 (cardiac output);
-    Briesenick L et al. Anesth Analg 2023 (metabolic rate); Kelly TL et al. PLoS One 2009;4:e7038 (fat).
+    Briesenick L et al. Anesth Analg 2023 (metabolic rate); Kelly TL et al. PLoS One 2009;4:e7038 (fat;
+    its SD from memory).
 
     Examples
     --------
@@ -308,7 +309,8 @@ def simulate_spread(scenario, n: int, *, seed: int | None = None, scale: float =
     ----------
     ``data/spread.toml``: Esper T et al. Anesth Analg 2015;120:45-50 and Katoh T et al. Br J Anaesth
     1992;69:259 (blood/gas); Carlsson M et al. J Cardiovasc Magn Reson 2012;14:51 (cardiac output);
-    Briesenick L et al. Anesth Analg 2023 (metabolic rate); Kelly TL et al. PLoS One 2009;4:e7038 (fat).
+    Briesenick L et al. Anesth Analg 2023 (metabolic rate); Kelly TL et al. PLoS One 2009;4:e7038 (fat;
+    its SD from memory).
 
     Examples
     --------
