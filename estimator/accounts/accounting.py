@@ -40,6 +40,16 @@ from ..units import Q_, REFERENCE_PRESSURE, REFERENCE_TEMPERATURE
 def litres_per_mmol() -> float:
     """Free-gas litres at the package reference (15 degC, 101.325 kPa) per mmol, ideal gas.
 
+    Returns
+    -------
+    float [L/mmol]
+
+    References
+    ----------
+    Ideal gas, R of CODATA 2018 (Tiesinga E et al. Rev Mod Phys 2021;93:025010).
+
+    Examples
+    --------
     >>> round(litres_per_mmol(), 5)
     0.02365
     """
@@ -50,6 +60,17 @@ def litres_per_mmol() -> float:
 def absorbent_capacity() -> pint.Quantity:
     """CO2 taken up per 100 g of absorbent [L free gas], the package default (``supply.toml``).
 
+    Returns
+    -------
+    pint.Quantity [L] of CO2 per 100 g of absorbent
+
+    References
+    ----------
+    Practical CO2 capacity of soda-lime-type absorbents, 10-15 L per 100 g: anaesthesia equipment texts,
+    from memory (``supply.toml``, the lower end).
+
+    Examples
+    --------
     >>> absorbent_capacity()
     <Quantity(10, 'liter')>
     """
@@ -61,7 +82,26 @@ def absorbent_capacity() -> pint.Quantity:
 def absorbent_mass(co2_l: Any, capacity_l: Any = None) -> np.ndarray:
     """Absorbent [g] exhausted by ``co2_l`` litres of CO2 at ``capacity_l`` litres per 100 g.
 
-    ``capacity_l`` defaults to :func:`absorbent_capacity`; floats or arrays.
+    Parameters
+    ----------
+    co2_l : float or numpy.ndarray [L]
+        CO2 absorbed, free gas.
+    capacity_l : float or numpy.ndarray, optional [L]
+        CO2 per 100 g of absorbent; default :func:`absorbent_capacity`.
+
+    Returns
+    -------
+    numpy.ndarray [g]
+
+    References
+    ----------
+    Practical CO2 capacity of soda-lime-type absorbents, 10-15 L per 100 g: anaesthesia equipment texts,
+    from memory (``supply.toml``, the lower end).
+
+    Examples
+    --------
+    >>> float(absorbent_mass(30.0, 15.0))
+    200.0
     """
     cap = absorbent_capacity().magnitude if capacity_l is None else capacity_l
     return np.asarray(co2_l, dtype=float) / cap * 100.0
@@ -72,6 +112,21 @@ def molar_volume(
 ) -> pint.Quantity:
     """Ideal-gas molar volume RT/p [L/mol], by default at the package reference (15 degC, 101.325 kPa).
 
+    Parameters
+    ----------
+    temperature : pint.Quantity [K]
+    pressure : pint.Quantity [kPa], absolute
+
+    Returns
+    -------
+    pint.Quantity [L/mol]
+
+    References
+    ----------
+    Ideal gas, R of CODATA 2018 (Tiesinga E et al. Rev Mod Phys 2021;93:025010).
+
+    Examples
+    --------
     >>> round(molar_volume().to("L/mol").magnitude, 3)
     23.645
     """
@@ -93,9 +148,19 @@ def vapour_to_mass(
     volume : Quantity [L] (scalar or array magnitude)
     species : str
         An agent of ``agents.toml`` or a gas (``nitrous_oxide``, ``oxygen``...).
-    temperature, pressure : Quantity
+    temperature, pressure : Quantity [K], [kPa]
         Reference of the volume; default 15 degC and 101.325 kPa.
 
+    Returns
+    -------
+    pint.Quantity [g]
+
+    References
+    ----------
+    Ideal gas, R of CODATA 2018; molar masses from ``data/agents.toml`` (CRC Handbook).
+
+    Examples
+    --------
     >>> round(vapour_to_mass(Q_(23.645, "L"), "nitrous_oxide").to("g").magnitude, 2)
     44.01
     """
@@ -109,6 +174,23 @@ def vapour_to_mass(
 def liquid_to_mass(volume: pint.Quantity, agent_name: str) -> pint.Quantity:
     """Mass [g] of liquid agent: volume x liquid density at 20 degC.
 
+    Parameters
+    ----------
+    volume : pint.Quantity [mL]
+    agent_name : str
+        An agent of ``agents.toml``.
+
+    Returns
+    -------
+    pint.Quantity [g]
+
+    References
+    ----------
+    Liquid densities of ``data/agents.toml``: Biro P. Acta Anaesthesiol Scand 2014;58:968 (desflurane:
+    Eger EI. Anesth Analg 1992;75(4 Suppl):S3, from memory).
+
+    Examples
+    --------
     >>> round(liquid_to_mass(Q_(250, "mL"), "desflurane").to("g").magnitude, 1)
     366.2
     """
@@ -157,6 +239,13 @@ def fresh_gas_litres(
     makeup_air : bool
         The make-up gas is room air (a ventilator that entrains air), not fresh gas.
 
+    Returns
+    -------
+    numpy.ndarray, shape (n, 3) [L]
+        O2, air and N2O at ambient conditions.
+
+    Examples
+    --------
     >>> fresh_gas_litres(np.array([[10.0, 50.0]]), [(1.0, 1.0, 0.0), (0.5, 0.0, 0.0)],
     ...                  np.array([[0.0, 42.0]]), 42.0, False).tolist()
     [[36.0, 10.0, 0.0]]
@@ -185,10 +274,10 @@ def totals_from_deltas(
         ``co2_absorbed``, ``makeup`` [mmol] and ``mac_minutes`` [MAC x min].
     gas_litres : float64[3] or float64[n, 3] [ambient L]
         O2, air and N2O drawn (:func:`fresh_gas_litres`).
-    mmol_per_litre : float
-        Gas amount per ambient litre at the site [mmol/L].
+    mmol_per_litre : float [mmol/L]
+        Gas amount per ambient litre at the site.
     agent_name : str
-    capacity_l : float
+    capacity_l : float [L]
         CO2 the absorbent takes per 100 g [L].
 
     Returns
@@ -196,6 +285,13 @@ def totals_from_deltas(
     dict
         The keys of :data:`DELTA_TOTAL_UNITS`, in those units, as floats or arrays like ``run``.
 
+    References
+    ----------
+    Ideal gas, R of CODATA 2018; molar masses and liquid densities of ``data/agents.toml`` (CRC Handbook;
+    Biro 2014); absorbent capacity as :func:`absorbent_capacity`.
+
+    Examples
+    --------
     >>> run = {"agent_delivered": 100.0, "agent_uptake": 40.0, "agent_metabolised": 1.0, "co2_absorbed": 500.0,
     ...        "nitrous_oxide_delivered": 0.0, "makeup": 0.0, "mac_minutes": 60.0}
     >>> t = totals_from_deltas(run, np.array([10.0, 5.0, 0.0]), 42.0, "sevoflurane", 10.0)

@@ -2,26 +2,20 @@
 
 What is counted
 ---------------
-* **Released agent** = all agent delivered by the vaporizer less the small share the body
-  metabolises. What the patient takes up is breathed out again after the case and reaches the
-  atmosphere through the scavenging system, so uptake is *not* subtracted; only metabolism is.
-  The metabolised share is a fraction of uptake (``hepatic_extraction`` in ``agents.toml``); when
-  uptake is not known it is taken as that fraction of the delivered agent, an upper bound on
-  metabolism, so the released figure is then low by at most that fraction (3 % for sevoflurane).
-* **Released nitrous oxide** = all nitrous oxide delivered (metabolism of N2O is negligible), plus,
-  for piped supply, what the manifold loses before use: delivered / (1 - loss). Thomas et al. 2024
-  found 80-98 % of supplied N2O lost in hospital manifolds; the default loss is 0 (cylinders at the
-  point of use).
+* **Released agent** = agent delivered less the share the body metabolises: what the patient takes
+  up is breathed out after the case and reaches the atmosphere, so uptake is *not* subtracted. The
+  metabolised share is a fraction of uptake (``hepatic_extraction`` in ``agents.toml``), or, uptake not
+  known, of the delivered agent (an upper bound: released is then low by at most it, 3 % for sevoflurane).
+* **Released nitrous oxide** = all N2O delivered (its metabolism is negligible), over (1 - loss) for
+  piped supply: Thomas et al. 2024 found 80-98 % lost in hospital manifolds; default 0 (cylinders).
 * **Supply carbon** (optional): making and delivering the oxygen and the absorbent, per unit, from
   ``estimator/data/carbon.toml`` or user factors. It is reported apart from the released gases.
 
 CO2e = mass x GWP, with the GWP of the chosen basis (:data:`estimator.choices.CO2E_BASES`).
 Every figure carries its basis key and label.
 
-Masses from gas volumes use the ideal-gas molar volume at the volume's reference (15 degC,
-101.325 kPa unless stated); real vapours give up to 3 % more vapour per mole (Anesth Analg
-1979;58:322), and nitrous oxide at 1 atm has Z of about 0.994 (CoolProp), so the ideal figure is
-within 1 % for N2O.
+Masses from gas volumes are ideal-gas (15 degC, 101.325 kPa unless stated): real vapours give up to
+3 % more per mole (Anesth Analg 1979;58:322); N2O at 1 atm has Z about 0.994 (CoolProp).
 
 References
 ----------
@@ -30,14 +24,6 @@ References
 .. [2] Ryan SM, Nielsen CJ. Global warming potential of inhaled anesthetics: application to
    clinical use. Anesth Analg 2010;111:92 (CO2e per MAC-hour = agent mass x GWP).
 .. [3] Thomas MAF et al., Br J Anaesth 2024;133:1427 (nitrous oxide manifold losses).
-
-Examples
---------
->>> mass = liquid_to_mass(Q_(10, "mL"), "sevoflurane")
->>> round(mass.to("g").magnitude, 1)
-15.2
->>> round(co2e(mass, "sevoflurane", "ar6_gwp100").to("kg").magnitude, 2)
-2.96
 """
 
 from __future__ import annotations
@@ -91,6 +77,12 @@ def basis_label(basis: str) -> str:
 def gwp(species: str, basis: str = "ar6_gwp100") -> float:
     """Global warming potential of an agent or of nitrous oxide on a basis (kg CO2e per kg).
 
+    References
+    ----------
+    GWP of ``agents.toml``: IPCC AR6 WG1 Table 7.SM.7; IPCC AR5 WG1 Table 8.A.1; Sulbaek Andersen 2012.
+
+    Examples
+    --------
     >>> gwp("desflurane", "ar5_gwp100")
     1790.0
     """
@@ -106,6 +98,12 @@ def gwp(species: str, basis: str = "ar6_gwp100") -> float:
 def co2e(mass: pint.Quantity, species: str, basis: str = "ar6_gwp100") -> pint.Quantity:
     """CO2-equivalent [kg] of a released mass on a basis.
 
+    References
+    ----------
+    Ryan SM, Nielsen CJ. Anesth Analg 2010;111:92 (CO2e = mass x GWP); GWP as :func:`gwp`.
+
+    Examples
+    --------
     >>> round(co2e(Q_(1, "kg"), "nitrous_oxide", "ar6_gwp100").to("kg").magnitude)
     273
     """
@@ -115,6 +113,13 @@ def co2e(mass: pint.Quantity, species: str, basis: str = "ar6_gwp100") -> pint.Q
 def metabolised_fraction(agent_name: str) -> float:
     """Share of agent uptake the body metabolises (``hepatic_extraction`` of ``agents.toml``).
 
+    References
+    ----------
+    Shiraishi Y, Ikeda K. J Clin Anesth 1990;2:381 (sevoflurane); Carpenter RL et al. Anesthesiology
+    1986;65:201 (isoflurane, halothane); Eger EI. Anesth Analg 1992;75:S3 (desflurane); all from memory.
+
+    Examples
+    --------
     >>> metabolised_fraction("sevoflurane")
     0.03
     """
@@ -139,6 +144,12 @@ def released_agent_mass(delivered_g: Any, agent_name: str, uptake_g: Any = None)
 def nitrous_oxide_released(delivered_l: Any, manifold_loss: float = 0.0) -> np.ndarray:
     """N2O reaching the atmosphere [L]: delivered / (1 - manifold loss).
 
+    References
+    ----------
+    Thomas MAF et al. Br J Anaesth 2024;133:1427 (80-98 % lost in hospital manifolds).
+
+    Examples
+    --------
     >>> round(float(nitrous_oxide_released(100.0, 0.8)), 6)
     500.0
     """
@@ -333,7 +344,7 @@ def case_carbon(
     agent_name : str or None
     basis : str
         A key of :data:`estimator.choices.CO2E_BASES`.
-    manifold_loss : float
+    manifold_loss : float [-]
         Share of supplied N2O lost before use (piped supply), 0 to below 1.
     supply : bool
         Also count supply carbon of oxygen (``carbon.toml``) and of absorbent (only with
@@ -367,12 +378,8 @@ def case_carbon(
         if absorbent_factor is not None:
             supply_out["absorbent"] = (Q_(absorbent_g, "g") * absorbent_factor).to("kg")
         elif absorbent_g > 0:
-            warnings.append(
-                (
-                    "ABSORBENT_SUPPLY_NOT_COUNTED",
-                    "no sourced supply-carbon factor for absorbent is held; give one to count it",
-                )
-            )
+            msg = "no sourced supply-carbon factor for absorbent is held; give one to count it"
+            warnings.append(("ABSORBENT_SUPPLY_NOT_COUNTED", msg))
         notes.append("supply carbon of air is not counted")
     total = r["co2e_kg"] + sum(v.magnitude for v in supply_out.values())
     return CarbonResult(

@@ -57,8 +57,9 @@ def cost_table(usage: pd.DataFrame, prices: Prices) -> pd.DataFrame:
     Parameters
     ----------
     usage : DataFrame
-        Columns ``agent`` (name or empty), ``agent_liquid_ml``, ``oxygen_l``, ``air_l``,
-        ``nitrous_oxide_l`` and optionally ``absorbent_g``; missing gas columns count as 0.
+        Columns ``agent`` (name or empty), ``agent_liquid_ml`` [mL], ``oxygen_l``, ``air_l``,
+        ``nitrous_oxide_l`` [L] and optionally ``absorbent_g`` [g]; missing gas columns count as 0.
+    prices : Prices
 
     Returns
     -------
@@ -66,6 +67,12 @@ def cost_table(usage: pd.DataFrame, prices: Prices) -> pd.DataFrame:
         ``agent``, ``gases``, ``absorbent``, ``total`` (plain floats) and ``unpriced`` (text list
         of the items used but not priced, joined by ``;``), same index.
 
+    References
+    ----------
+    Dion P. Can J Anaesth 1992;39:633 (agent cost = liquid volume x price per mL); gases priced per litre.
+
+    Examples
+    --------
     >>> t = cost_table(pd.DataFrame({"agent": ["sevoflurane"], "agent_liquid_ml": [10.0],
     ...                              "oxygen_l": [100.0]}), DEMO_PRICES)
     >>> float(t["total"].iloc[0])
@@ -94,9 +101,29 @@ def cost_arrays(
     """The cost rule on plain arrays (one entry a case): what :func:`cost_table` and
     :func:`case_cost` both compute with.
 
-    Returns ``agent``, ``gases``, ``absorbent``, ``total`` [currency] as arrays and ``unpriced``, a
-    list (one a case) of the items used but not priced.
+    Parameters
+    ----------
+    agents : sequence of str
+        Agent name of each case (empty for none).
+    liquid_ml : numpy.ndarray [mL]
+        Liquid agent of each case.
+    gases_l : mapping of str -> numpy.ndarray [L]
+        Free gas of each case by gas (15 degC, 101.325 kPa); a gas not given counts as 0.
+    absorbent_g : numpy.ndarray [g]
+    prices : Prices
 
+    Returns
+    -------
+    dict
+        ``agent``, ``gases``, ``absorbent``, ``total`` [currency] as arrays and ``unpriced``, a list
+        (one a case) of the items used but not priced.
+
+    References
+    ----------
+    Dion P. Can J Anaesth 1992;39:633 (agent cost = liquid volume x price per mL); gases priced per litre.
+
+    Examples
+    --------
     >>> c = cost_arrays(["sevoflurane"], np.array([10.0]), {"oxygen": np.array([100.0])}, np.zeros(1), DEMO_PRICES)
     >>> float(c["total"][0]), c["unpriced"]
     (4.4, [[]])
@@ -154,6 +181,16 @@ def case_cost(totals: Mapping[str, Any], prices: Prices, agent: str | None = Non
     dict
         ``currency``, ``agent``, ``gases``, ``absorbent``, ``total`` (plain floats in the currency),
         ``gas_detail`` (per gas) and ``unpriced`` (items used but without a price).
+
+    References
+    ----------
+    Dion P. Can J Anaesth 1992;39:633 (agent cost = liquid volume x price per mL); gases priced per litre.
+
+    Examples
+    --------
+    >>> c = case_cost({"agent_liquid": Q_(10, "mL"), "oxygen": Q_(100, "L")}, DEMO_PRICES, "sevoflurane")
+    >>> c["agent"], c["total"]
+    (4.0, 4.4)
     """
     litres = {g: _mag(totals.get(g), "L") for g in GASES_PRICED}
     t = cost_arrays(
@@ -175,6 +212,19 @@ def case_cost(totals: Mapping[str, Any], prices: Prices, agent: str | None = Non
 def period_cost(costs: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
     """Sum of case costs (all in one currency) over a period.
 
+    Parameters
+    ----------
+    costs : sequence of mapping
+        Case costs as :func:`case_cost` returns them [currency].
+
+    Returns
+    -------
+    dict
+        ``currency``, ``cases`` and the summed ``agent``, ``gases``, ``absorbent``, ``total``
+        [currency], with ``unpriced`` (every item used but not priced).
+
+    Examples
+    --------
     >>> period_cost([{"currency": "EUR", "agent": 1.0, "gases": 2.0, "absorbent": 0.0, "total": 3.0},
     ...              {"currency": "EUR", "agent": 1.5, "gases": 0.5, "absorbent": 0.0, "total": 2.0}])["total"]
     5.0
@@ -192,9 +242,19 @@ def period_cost(costs: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
 def compare_costs(scenarios: Mapping[str, Mapping[str, Any]]) -> pd.DataFrame:
     """Side-by-side comparison of scenario costs; the first scenario is the baseline.
 
-    Returns a DataFrame with one column per scenario plus ``change vs <first>`` columns, rows
-    ``agent``, ``gases``, ``absorbent``, ``total``.
+    Parameters
+    ----------
+    scenarios : mapping of str -> mapping
+        Scenario name -> cost as :func:`case_cost` or :func:`period_cost` returns it [currency].
 
+    Returns
+    -------
+    DataFrame
+        One column per scenario plus ``change vs <first>: <name>`` columns [currency]; rows
+        ``agent``, ``gases``, ``absorbent``, ``total``.
+
+    Examples
+    --------
     >>> df = compare_costs({"2 L/min": {"currency": "EUR", "agent": 8.0, "gases": 1.0, "absorbent": 0.5, "total": 9.5},
     ...                     "0.5 L/min": {"currency": "EUR", "agent": 3.0, "gases": 0.3, "absorbent": 1.0, "total": 4.3}})
     >>> float(df.loc["total", "change vs 2 L/min: 0.5 L/min"])

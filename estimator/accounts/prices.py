@@ -154,12 +154,28 @@ def _per_ml(p: AgentPriceInput, where: str) -> float | None:
 def parse_prices(data: Mapping[str, Any], where: str = "prices") -> Prices:
     """Validate a ``[prices]`` mapping into :class:`Prices`.
 
+    Parameters
+    ----------
+    data : mapping
+        ``currency`` (a label, never converted), agent prices per mL [currency/mL] or per bottle with
+        its volume [mL], gas prices per m3 [currency/m^3] or per cylinder with its contents [L],
+        ``absorbent_per_kg`` [currency/kg].
+    where : str
+        Name of the table, for error messages.
+
+    Returns
+    -------
+    Prices
+        Plain floats per mL of agent, per litre of free gas and per gram of absorbent.
+
     Raises
     ------
     InputError
         On an unknown key, a negative or non-numeric price, a bottle price without volume, an
         unknown agent or gas, or a gas priced both per m3 and per cylinder.
 
+    Examples
+    --------
     >>> parse_prices({"currency": "EUR", "agent_per_ml": 0.3}).agent_price("isoflurane")
     0.3
     """
@@ -205,6 +221,17 @@ def parse_prices(data: Mapping[str, Any], where: str = "prices") -> Prices:
 def prices_from_text(text: str) -> Prices:
     """Parse prices from TOML text: its ``[prices]`` table, or the top level if none.
 
+    Parameters
+    ----------
+    text : str
+        TOML text (never taken for a path).
+
+    Returns
+    -------
+    Prices
+
+    Examples
+    --------
     >>> prices_from_text('[prices]\\ncurrency = "EUR"\\nair_per_m3 = 2.0').gas_per_litre["air"]
     0.002
     """
@@ -214,7 +241,25 @@ def prices_from_text(text: str) -> Prices:
 
 def load_prices(path: str | os.PathLike[str]) -> Prices:
     """Read prices from a TOML file (always a path, never text): its ``[prices]`` table, or the top
-    level if none."""
+    level if none.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        An existing TOML file.
+
+    Returns
+    -------
+    Prices
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> f = pathlib.Path(tempfile.mkdtemp(), "prices.toml")
+    >>> _ = f.write_text('[prices]\\ncurrency = "EUR"\\noxygen_per_m3 = 5.0\\n', encoding="utf-8")
+    >>> load_prices(f).gas_per_litre["oxygen"]
+    0.005
+    """
     data = read_toml(path, "prices", "an existing prices TOML file")
     return parse_prices(data.get("prices", data))
 

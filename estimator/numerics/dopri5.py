@@ -59,8 +59,8 @@ def integrate_phase(y0, p, t_out, rtol, atol, h0, max_steps):
         Parameters of the phase.
     t_out : float64[m]
         Increasing output times [min]; the first is the start of the phase.
-    rtol, atol : float
-        Relative tolerance and absolute-tolerance vector (float64[NY]).
+    rtol, atol : float [-], float64[NY] [fraction or mmol, as the state]
+        Relative tolerance and absolute-tolerance vector (in the units of the state).
     h0 : float
         First step to try [min] (the last accepted step of the previous phase, or 0 to choose).
     max_steps : int
@@ -73,7 +73,12 @@ def integrate_phase(y0, p, t_out, rtol, atol, h0, max_steps):
     stats : int64[3]
         Accepted steps, rejected steps, right-hand-side evaluations (negative accepted = failure).
     h : float
-        Last step size.
+        Last step size [min].
+
+    References
+    ----------
+    Dormand JR, Prince PJ. J Comput Appl Math 1980;6:19-26; Hairer E, Norsett SP, Wanner G. Solving
+    Ordinary Differential Equations I, 2nd ed. Springer 1993, sec. II.4-5 and IV.2.
     """
     m = t_out.shape[0]
     ys = np.empty((m, NY))

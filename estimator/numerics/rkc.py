@@ -101,7 +101,30 @@ def spectral_radius(y, p, f0, w, v, z, fz):
 
     Works on the core states only (the running totals have zero eigenvalues); ``z`` carries the
     eigenvector estimate from call to call, so later calls converge in a few iterations.
-    Returns the estimate times :data:`RHO_SAFETY` and the number of right-hand-side evaluations.
+
+    Parameters
+    ----------
+    y : float64[NY]
+        State (units of :mod:`estimator.physics.circuit`).
+    p : float64[NP]
+        Parameters of the phase.
+    f0 : float64[NY]
+        Right-hand side at ``y`` [state unit/min].
+    w, v, fz : float64[NW], float64[NY], float64[NY]
+        Scratch.
+    z : float64[NY]
+        In and out: eigenvector estimate (zero on the first call).
+
+    Returns
+    -------
+    rho : float [1/min]
+        The estimate times :data:`RHO_SAFETY`.
+    evaluations : int
+        Right-hand-side evaluations used.
+
+    References
+    ----------
+    Sommeijer BP et al. J Comput Appl Math 1998;88:315-26; Verwer JG. Appl Numer Math 1996;22:359-79.
     """
     ynrm = _norm(y, NCORE)
     znrm = _norm(z, NCORE)
@@ -135,6 +158,21 @@ def chebyshev_table():
     """``w0`` and ``w1`` of the RKC2 recursion for every stage count ``m`` (rows; Sommeijer et al. 1998, eq. 2.8).
 
     They depend on ``m`` only, so the batch computes them once instead of at every step.
+
+    Returns
+    -------
+    float64[MAX_STAGES + 1, 2] [-]
+        ``w0`` and ``w1`` by stage count (rows 0 and 1 unused).
+
+    References
+    ----------
+    Sommeijer BP et al. J Comput Appl Math 1998;88:315-26; Verwer JG. Appl Numer Math 1996;22:359-79.
+
+    Examples
+    --------
+    >>> t = chebyshev_table.py_func()  # the Python function: no compilation in a doctest
+    >>> round(float(t[2, 0]), 6), t.shape == (MAX_STAGES + 1, 2)
+    (1.038462, True)
     """
     out = np.zeros((MAX_STAGES + 1, 2))
     for m in range(2, MAX_STAGES + 1):
@@ -151,10 +189,34 @@ def chebyshev_table():
 def rkc_phase(y, p, span, rtol, atol, h, work, stats, cheb):
     """Integrate one phase of ``span`` minutes in place on ``y`` with RKC2.
 
-    ``work`` is float64[WORK_ROWS, NY] scratch (see :func:`integrate_cases`), ``stats`` int64[5] (accepted,
-    rejected, evaluations, phases, failures), ``cheb`` the :func:`chebyshev_table`. Also tracks in ``work[7, 0]``
-    the lowest inspired O2 at step ends after the first minute (``work[7, 1]`` is the case time). Returns the
-    last accepted step [min].
+    Also tracks in ``work[7, 0]`` the lowest inspired O2 at step ends after the first minute
+    (``work[7, 1]`` is the case time).
+
+    Parameters
+    ----------
+    y : float64[NY]
+        In and out: the state.
+    p : float64[NP]
+        Parameters of the phase.
+    span : float [min]
+    rtol, atol : float [-], float64[NY] [fraction or mmol, as the state]
+    h : float [min]
+        First step to try (0 to choose).
+    work : float64[WORK_ROWS, NY]
+        Scratch (see :func:`integrate_cases`).
+    stats : int64[5]
+        In and out: accepted, rejected, evaluations, phases, failures.
+    cheb : float64[MAX_STAGES + 1, 2]
+        :func:`chebyshev_table`.
+
+    Returns
+    -------
+    float
+        Last accepted step [min].
+
+    References
+    ----------
+    Sommeijer BP et al. J Comput Appl Math 1998;88:315-26; Verwer JG. Appl Numer Math 1996;22:359-79.
     """
     n = c.NY
     yn, fn, yjm1, yjm2, ynew, fnew, v = work[0], work[1], work[2], work[3], work[4], work[5], work[6]
@@ -283,8 +345,8 @@ def integrate_cases(y0, params, durations, rtol, atol, y_end, makeup, extra, sta
         Parameters of each case's ``k`` phases.
     durations : float64[n, k]
         Phase durations [min]; phases of 0 min are skipped.
-    rtol : float
-    atol : float64[NY]
+    rtol : float [-]
+    atol : float64[NY] [fraction or mmol, as the state]
     y_end : float64[n, NY]
         Out: final states.
     makeup : float64[n, k]
@@ -294,6 +356,15 @@ def integrate_cases(y0, params, durations, rtol, atol, y_end, makeup, extra, sta
         end of the last phase (NaN without a MAC target).
     stats : int64[n, 5]
         Out: accepted and rejected steps, evaluations, phases, failures.
+
+    Returns
+    -------
+    None
+        The results are written into ``y_end``, ``makeup``, ``extra`` and ``stats``.
+
+    References
+    ----------
+    Sommeijer BP et al. J Comput Appl Math 1998;88:315-26; Verwer JG. Appl Numer Math 1996;22:359-79.
     """
     n = y0.shape[0]
     nph = durations.shape[1]

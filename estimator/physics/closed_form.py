@@ -126,9 +126,9 @@ def lowe_uptake_coefficient(
     age : [year]
         For Mapleson's age-corrected MAC.
     cardiac_output : optional [L/min]
-    mac_multiple : float
+    mac_multiple : float [-]
         Multiple of MAC aimed at; multiplies f.
-    factor : float
+    factor : float [-]
         Lowe's f, about 1.3. The arterial target is f x mac_multiple x MAC(age).
 
     Returns
@@ -172,6 +172,19 @@ def lowe_uptake_rate(name: Any, t: Any, **kw: Any) -> Estimate:
 
     ``t`` [min] above 0, scalar or array; other keywords as :func:`lowe_uptake_coefficient`.
 
+    Parameters
+    ----------
+    name : str
+        Volatile agent.
+    t : pint.Quantity, str or array [min], time since the start of uptake, above 0
+    **kw
+        ``weight``, ``age``, ``cardiac_output``, ``mac_multiple``, ``factor`` as :func:`lowe_uptake_coefficient`.
+
+    Returns
+    -------
+    Estimate
+        ``value`` [mL/min], the shape of ``t``; warnings from the patient, age and time checks.
+
     References
     ----------
     Lowe HJ, Ernst EA 1981.
@@ -189,6 +202,19 @@ def lowe_uptake_rate(name: Any, t: Any, **kw: Any) -> Estimate:
 
 def lowe_cumulative_uptake(name: Any, t: Any, **kw: Any) -> Estimate:
     """Cumulative agent uptake by Lowe's law, 2 f MAC lambda Q sqrt(t) [mL vapour].
+
+    Parameters
+    ----------
+    name : str
+        Volatile agent.
+    t : pint.Quantity, str or array [min], time since the start of uptake, 0 or more
+    **kw
+        ``weight``, ``age``, ``cardiac_output``, ``mac_multiple``, ``factor`` as :func:`lowe_uptake_coefficient`.
+
+    Returns
+    -------
+    Estimate
+        ``value`` [mL] of vapour, the shape of ``t``; warnings from the patient, age and time checks.
 
     References
     ----------
@@ -211,6 +237,18 @@ def lowe_unit_dose(name: Any, **kw: Any) -> Estimate:
     Equal unit doses are taken up in 0-1, 1-4, 4-9, ... min (the n-th ends at n^2 min; see
     :func:`lowe_dose_times`).
 
+    Parameters
+    ----------
+    name : str
+        Volatile agent.
+    **kw
+        ``weight``, ``age``, ``cardiac_output``, ``mac_multiple``, ``factor`` as :func:`lowe_uptake_coefficient`.
+
+    Returns
+    -------
+    Estimate
+        ``value`` [mL] of vapour; warnings from the patient, age and time checks.
+
     References
     ----------
     Lowe HJ, Ernst EA 1981.
@@ -226,6 +264,16 @@ def lowe_unit_dose(name: Any, **kw: Any) -> Estimate:
 
 def lowe_dose_times(count: int) -> pint.Quantity:
     """End times n^2 min of the first ``count`` unit-dose intervals (1, 4, 9, ... min).
+
+    Parameters
+    ----------
+    count : int
+        Number of intervals, 1 to 10000 [-].
+
+    Returns
+    -------
+    pint.Quantity
+        End times [min], an array of length ``count``.
 
     References
     ----------
@@ -272,6 +320,18 @@ def severinghaus_uptake_rate(t: Any, *, weight: Any = "70 kg", inspired: Any = "
     Both scalings are ours, not Severinghaus's; outside 60-80 kg or 65-75 % inspired the result
     carries a warning.
 
+    Parameters
+    ----------
+    t : pint.Quantity, str or array [min], time since the start of nitrous oxide, above 0
+    weight : pint.Quantity or str [kg]
+    inspired : pint.Quantity or str [%]
+        Inspired nitrous oxide fraction.
+
+    Returns
+    -------
+    Estimate
+        ``value`` [mL/min], the shape of ``t``; scaling warnings.
+
     References
     ----------
     Severinghaus JW. J Clin Invest 1954;33:1183-9.
@@ -289,6 +349,18 @@ def severinghaus_uptake_rate(t: Any, *, weight: Any = "70 kg", inspired: Any = "
 
 def severinghaus_cumulative_uptake(t: Any, *, weight: Any = "70 kg", inspired: Any = "70 %") -> Estimate:
     """Cumulative nitrous oxide uptake about 2000 sqrt(t) mL, scaled as :func:`severinghaus_uptake_rate`.
+
+    Parameters
+    ----------
+    t : pint.Quantity, str or array [min], time since the start of nitrous oxide, 0 or more
+    weight : pint.Quantity or str [kg]
+    inspired : pint.Quantity or str [%]
+        Inspired nitrous oxide fraction.
+
+    Returns
+    -------
+    Estimate
+        ``value`` [mL], the shape of ``t``; scaling warnings.
 
     References
     ----------

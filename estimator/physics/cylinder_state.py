@@ -65,6 +65,25 @@ class CylinderContents:
 def cylinder_temperature(value: Any, field_name: str) -> pint.Quantity:
     """A cylinder temperature [K], within ``TEMPERATURE_RANGE`` (given in degC).
 
+    Parameters
+    ----------
+    value : pint.Quantity, str or float
+        Temperature of the cylinder [degC] when given without a unit.
+    field_name : str
+        Name of the input field, for the error message.
+
+    Returns
+    -------
+    pint.Quantity
+        Temperature [K].
+
+    Raises
+    ------
+    InputError
+        Outside -40 to 65 degC (service range of medical gas cylinders: common practice, no source).
+
+    Examples
+    --------
     >>> round(cylinder_temperature("20 degC", "cylinder.temperature").magnitude, 2)
     293.15
     """
@@ -75,7 +94,25 @@ def cylinder_temperature(value: Any, field_name: str) -> pint.Quantity:
 
 
 def cylinder_count(value: Any, field_name: str) -> int:
-    """A number of cylinders: a whole number, 0 or more (``True`` is not a number here)."""
+    """A number of cylinders: a whole number, 0 or more (``True`` is not a number here).
+
+    Parameters
+    ----------
+    value : int
+        Number of identical cylinders [-].
+    field_name : str
+        Name of the input field, for the error message.
+
+    Returns
+    -------
+    int
+        The count, unchanged [-].
+
+    Examples
+    --------
+    >>> cylinder_count(2, "cylinders[0].count")
+    2
+    """
     if isinstance(value, bool) or not isinstance(value, int) or value < 0:
         raise InputError(field_name, value, "a whole number of cylinders, 0 or more")
     return value

@@ -111,6 +111,11 @@ def annulus_flow(
     dict with ``flow`` [m3/s at tube conditions], ``gap`` [m], ``viscous_share`` [-], ``reynolds``
     and ``transition_reynolds`` [-] (arrays).
 
+    References
+    ----------
+    White FM. Viscous Fluid Flow, 3rd ed. 2006 (plane Poiseuille flow; from memory); ISO 5167-1:2003
+    (orifice equation; from memory).
+
     Examples
     --------
     >>> out = annulus_flow(1e-4, (1.2, 1.8e-5), (1.2, 1.8e-5))
@@ -147,7 +152,23 @@ def annulus_flow(
 
 
 def regime_of(viscous_share: Any) -> Any:
-    """``"laminar"``, ``"transitional"`` or ``"turbulent"`` from the viscous share of the drop."""
+    """``"laminar"``, ``"transitional"`` or ``"turbulent"`` from the viscous share of the drop.
+
+    Parameters
+    ----------
+    viscous_share : float or numpy.ndarray [-]
+        Share of the float's pressure drop carried by the viscous term, 0 to 1.
+
+    Returns
+    -------
+    str or numpy.ndarray of str
+        Laminar at 80 % or more, turbulent at 20 % or less (the package's naming), else transitional.
+
+    Examples
+    --------
+    >>> regime_of(0.9), regime_of(0.5), regime_of(0.1)
+    ('laminar', 'transitional', 'turbulent')
+    """
     s = np.asarray(viscous_share, dtype=float)
     out = np.where(s >= LAMINAR_SHARE, "laminar", np.where(s <= TURBULENT_SHARE, "turbulent", "transitional"))
     return str(out) if out.ndim == 0 else out
@@ -222,12 +243,12 @@ def true_flow(
         Gas names or mixtures, see :func:`~estimator.physics.gas_mixtures.resolve_gas`.
     site : Site
         Ambient pressure and room temperature (:func:`estimator.physics.site.site_from_inputs`).
-    purity : str or float, optional
+    purity : str or float, optional [%]
         Oxygen fraction of ``"concentrator"`` product (default 93 %).
     back_pressure : str or pint.Quantity [kPa], optional
         Gauge pressure at the tube outlet above ambient, 0 to 20 kPa (default 0).
     geometry : FlowmeterGeometry, optional
-    accuracy : str or float, optional
+    accuracy : str or float, optional [%]
         Accuracy of reading of the tube (default 2.5 %, common practice, no source).
 
     Returns

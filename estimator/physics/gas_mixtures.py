@@ -72,10 +72,27 @@ def _data() -> dict[str, dict[str, Sourced]]:
 def load_records(raw: dict[str, Any]) -> dict[str, dict[str, Sourced]]:
     """Validate the flowmeter data table: every value with a known source, a code and its dimension.
 
+    Parameters
+    ----------
+    raw : dict
+        The parsed TOML of ``data/flowmeter.toml`` (its ``[sources]`` table included).
+
+    Returns
+    -------
+    dict of str -> dict of str -> Sourced
+        Section -> property -> value (a pint quantity in the file's unit) with its source and code.
+
     Raises
     ------
     DataError
         On a missing or unknown source, a bad confidence code or a value of the wrong dimension.
+
+    Examples
+    --------
+    >>> raw = {"sources": {"crc": "CRC Handbook"}, "concentrator": {"argon_to_oxygen": {
+    ...     "value": 0.04459, "source": "crc", "confidence": "D"}}}
+    >>> load_records(raw)["concentrator"]["argon_to_oxygen"].value.magnitude
+    0.04459
     """
     sources = raw.get("sources", {})
     sections = {k: v for k, v in raw.items() if k not in ("sources", "lennard_jones")}
@@ -98,12 +115,49 @@ def load_records(raw: dict[str, Any]) -> dict[str, dict[str, Sourced]]:
 
 
 def data_value(section: str, prop: str, unit: str) -> float:
+    """One value of ``data/flowmeter.toml`` as a plain float in ``unit``.
+
+    Parameters
+    ----------
+    section : str
+        Section of the file, e.g. ``"concentrator"`` or ``"lennard_jones.nitrous_oxide"``.
+    prop : str
+        Property name within the section.
+    unit : str
+        Unit of the result (``""`` for a dimensionless value).
+
+    Returns
+    -------
+    float
+        The value [unit].
+
+    Examples
+    --------
+    >>> data_value("lennard_jones.nitrous_oxide", "epsilon_over_k", "K")
+    232.4
+    """
     return float(_data()[section][prop].value.to(unit).magnitude)
 
 
 def concentrator_composition(purity: Any) -> dict[str, float]:
     """Oxygen concentrator product: O2 at ``purity``, argon in its air ratio to O2, rest nitrogen.
 
+    Parameters
+    ----------
+    purity : pint.Quantity or str [%]
+        Oxygen fraction of the product, 21 % to about 95.7 %.
+
+    Returns
+    -------
+    dict of str -> float
+        Mole fractions [-] of oxygen, argon and nitrogen.
+
+    References
+    ----------
+    CRC Handbook of Chemistry and Physics (composition of dry air: Ar/O2 = 0.00934 / 0.20946 by volume).
+
+    Examples
+    --------
     >>> {k: round(v, 4) for k, v in concentrator_composition("93 %").items()}
     {'oxygen': 0.93, 'argon': 0.0415, 'nitrogen': 0.0285}
     """
@@ -123,6 +177,26 @@ def resolve_gas(spec: Any, purity: Any = None, field_name: str = "gas") -> dict[
     fractions must sum to 1 within 0.001 (they are then scaled to sum exactly); air in a mixture
     counts as its N2, O2 and Ar.
 
+    Parameters
+    ----------
+    spec : str or dict of str -> fraction
+        Gas name, ``"concentrator"``, or mixture of mole fractions [-] or [%].
+    purity : pint.Quantity or str, optional [%]
+        Oxygen purity of concentrator product; default 93 %.
+    field_name : str
+        Name of the input field, for the error message.
+
+    Returns
+    -------
+    dict of str -> float
+        Mole fractions [-] summing to 1.
+
+    References
+    ----------
+    CRC Handbook of Chemistry and Physics (composition of dry air, for air inside a mixture).
+
+    Examples
+    --------
     >>> resolve_gas("oxygen=0.3, nitrous_oxide=70 %")
     {'oxygen': 0.3, 'nitrous_oxide': 0.7}
     """
@@ -165,12 +239,24 @@ def chapman_enskog_viscosity(t: float, sigma: float, epsilon_over_k: float, mola
 
     Parameters
     ----------
-    t : [K]; sigma : [angstrom]; epsilon_over_k : [K]; molar_mass : [g/mol]
+    t : float [K]
+    sigma : float [angstrom]
+        Lennard-Jones collision diameter.
+    epsilon_over_k : float [K]
+        Lennard-Jones well depth over Boltzmann's constant.
+    molar_mass : float [g/mol]
+
+    Returns
+    -------
+    float
+        Viscosity [Pa s].
 
     References
     ----------
     Poling, Prausnitz, O'Connell 2001, eq. 9-3.9; collision integral of Neufeld et al. 1972.
 
+    Examples
+    --------
     >>> round(chapman_enskog_viscosity(293.15, 3.467, 106.7, 31.999) * 1e6, 1)
     20.2
     """
@@ -183,6 +269,25 @@ def chapman_enskog_viscosity(t: float, sigma: float, epsilon_over_k: float, mola
 def pure_gas_properties(name: str, t: float, p: float) -> tuple[float, float, float]:
     """Density [kg/m3], viscosity [Pa s] and molar mass [kg/mol] of a pure gas at t [K], p [Pa].
 
+    Parameters
+    ----------
+    name : str
+        A key of ``COOLPROP_NAMES``.
+    t : float [K]
+    p : float [Pa], absolute
+
+    Returns
+    -------
+    tuple of float
+        Density [kg/m^3], viscosity [Pa s], molar mass [kg/mol].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp); nitrous oxide viscosity by
+    :func:`chapman_enskog_viscosity` with Lennard-Jones parameters of Svehla 1962 (NASA TR R-132).
+
+    Examples
+    --------
     >>> rho, mu, m = pure_gas_properties("oxygen", 293.15, 101325.0)
     >>> round(rho, 3), round(mu * 1e6, 2)
     (1.331, 20.27)
@@ -217,8 +322,24 @@ def wilke_viscosity(x: Any, mu: Any, m: Any) -> float:
 
     Parameters
     ----------
-    x, mu, m : sequences of mole fraction [-], viscosity [Pa s], molar mass [any one unit]
+    x : array_like [-]
+        Mole fractions.
+    mu : array_like [Pa s]
+        Viscosities of the components.
+    m : array_like [g/mol]
+        Molar masses (any one unit: only their ratios enter).
 
+    Returns
+    -------
+    float
+        Mixture viscosity [Pa s].
+
+    References
+    ----------
+    Wilke CR. J Chem Phys 1950;18:517-9.
+
+    Examples
+    --------
     >>> round(wilke_viscosity([1.0], [2e-5], [32.0]) * 1e5, 6)
     2.0
     """
@@ -234,6 +355,28 @@ def mixture_properties(composition: dict[str, float], t: float, p: float) -> tup
 
     Density: molar mass average with the mole-fraction average of the components' Z (real gas,
     adequate at these pressures where Z - 1 is of order 1e-3); viscosity: Wilke (1950).
+
+    Parameters
+    ----------
+    composition : dict of str -> float
+        Mole fractions [-], as :func:`resolve_gas` returns them.
+    t : float [K]
+    p : float [Pa], absolute
+
+    Returns
+    -------
+    tuple of float
+        Density [kg/m^3] and viscosity [Pa s].
+
+    References
+    ----------
+    Wilke CR. J Chem Phys 1950;18:517-9; Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp).
+
+    Examples
+    --------
+    >>> rho, mu = mixture_properties({"oxygen": 0.3, "nitrous_oxide": 0.7}, 293.15, 101325.0)
+    >>> round(rho, 3), round(mu * 1e6, 2)
+    (1.687, 15.87)
     """
     names = list(composition)
     if len(names) == 1:

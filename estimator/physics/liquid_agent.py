@@ -86,6 +86,21 @@ def dion_liquid_volume(concentration: Any, fresh_gas_flow: Any, duration: Any, n
 def dion_cost(concentration: Any, fresh_gas_flow: Any, duration: Any, name: Any, price_per_ml: float) -> float:
     """Cost of the liquid agent by Dion's formula: liquid mL x price per mL (in the price's currency).
 
+    Parameters
+    ----------
+    concentration : pint.Quantity or str [%]
+        Delivered agent fraction (``"1 %"``).
+    fresh_gas_flow : pint.Quantity or str [L/min]
+    duration : pint.Quantity or str [min]
+    name : str
+        Volatile agent.
+    price_per_ml : float [currency/mL]
+
+    Returns
+    -------
+    float
+        Cost [currency].
+
     References
     ----------
     Dion P. Can J Anaesth 1992;39:633-4.
@@ -106,6 +121,16 @@ def dion_cost(concentration: Any, fresh_gas_flow: Any, duration: Any, name: Any,
 
 def molar_volume(temperature: Any = "20 degC", pressure: Any = STANDARD_ATMOSPHERE) -> pint.Quantity:
     """Ideal-gas molar volume R T / p [L/mol] at a stated temperature and absolute pressure.
+
+    Parameters
+    ----------
+    temperature : pint.Quantity or str [degC], -100 to 100 degC
+    pressure : pint.Quantity or str [kPa], absolute, 10 to 1000 kPa
+
+    Returns
+    -------
+    pint.Quantity
+        Molar volume [L/mol].
 
     References
     ----------
@@ -139,6 +164,22 @@ def liquid_volume_at(
     ``temperature`` [degC] and ``pressure`` [kPa, absolute] are those of the gas the flow is
     measured in; the other parameters as :func:`dion_liquid_volume`.
 
+    Parameters
+    ----------
+    concentration : pint.Quantity or str [%]
+        Delivered agent fraction (``"1 %"``).
+    fresh_gas_flow : pint.Quantity or str [L/min]
+    duration : pint.Quantity or str [min]
+    name : str
+        Volatile agent.
+    temperature : pint.Quantity or str [degC]
+    pressure : pint.Quantity or str [kPa], absolute
+
+    Returns
+    -------
+    pint.Quantity
+        Liquid agent [mL].
+
     References
     ----------
     Dion P. Can J Anaesth 1992;39:633-4; ideal gas law.
@@ -163,8 +204,17 @@ def vaporizer_vapour_output(carrier_flow: Any, dial: Any) -> pint.Quantity:
     D / (1 - D) of the carrier, not D of it: Dion's formula applied to a flowmeter reading
     understates the vapour by the factor 1 / (1 - D) (2 % at 2 %, 6.4 % at 6 %).
 
-    ``carrier_flow`` [L/min] is the gas entering the vaporizer (the flowmeter total), ``dial`` a
-    fraction 0 to below 100 %; returns the vapour flow [L/min].
+    Parameters
+    ----------
+    carrier_flow : pint.Quantity or str [L/min]
+        Gas entering the vaporizer (the flowmeter total).
+    dial : pint.Quantity or str [%]
+        Dial setting, 0 to below 100 %.
+
+    Returns
+    -------
+    pint.Quantity
+        Vapour flow [L/min].
 
     References
     ----------
@@ -189,7 +239,17 @@ def vapour_per_liquid(name: Any, temperature: Any = "20 degC", pressure: Any = S
     Ideal gas. Real vapours give up to 3 % more (Anesth Analg 1979;58:322); the liquid density is
     taken at 20 degC whatever the gas temperature.
 
-    Parameters: agent ``name``, ``temperature`` [degC], ``pressure`` [kPa, absolute]; returns [mL/mL].
+    Parameters
+    ----------
+    name : str
+        Volatile agent.
+    temperature : pint.Quantity or str [degC]
+    pressure : pint.Quantity or str [kPa], absolute
+
+    Returns
+    -------
+    pint.Quantity
+        Vapour per liquid [mL/mL].
 
     References
     ----------

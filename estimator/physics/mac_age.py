@@ -78,7 +78,7 @@ def parse_age(age: Any, field: str = "patient.age") -> tuple[np.ndarray, list[Wa
     Parameters
     ----------
     age : str, float, numpy.ndarray or pint.Quantity
-        A bare number (or array) is years.
+        Age [year]; a bare number (or array) is years.
     field : str
         Field name for error messages.
 
@@ -90,6 +90,10 @@ def parse_age(age: Any, field: str = "patient.age") -> tuple[np.ndarray, list[Wa
     ------
     InputError
         Outside 0 to 120 years, or not an age.
+
+    References
+    ----------
+    Mapleson WW. Br J Anaesth 1996;76:179-85 (the age correction was fitted above 1 year).
 
     Examples
     --------
@@ -126,6 +130,18 @@ def parse_ambient_pressure(pressure: Any, field: str = "site.ambient_pressure") 
 
     The range and the warning above the limit of habitation are those of
     :func:`estimator.physics.site.site_from_inputs`; errors name ``field``.
+
+    Parameters
+    ----------
+    pressure : pint.Quantity, str, float or None [kPa]
+        Absolute ambient pressure; None for 101.325 kPa.
+    field : str
+        Field name for error messages.
+
+    Returns
+    -------
+    tuple of (float, list of (code, message))
+        Pressure [kPa] and the site warnings.
 
     Examples
     --------
@@ -249,6 +265,20 @@ def mac_at_age(
 def parse_fraction(value: Any, field: str) -> float:
     """A volume fraction 0 to 100 % as a float 0 to 1, or InputError naming ``field``.
 
+    Parameters
+    ----------
+    value : pint.Quantity, str or float [%]
+        A bare number is a fraction [-].
+    field : str
+        Field name for error messages.
+
+    Returns
+    -------
+    float
+        Fraction [-], 0 to 1.
+
+    Examples
+    --------
     >>> parse_fraction("67 %", "nitrous_oxide")
     0.67
     """

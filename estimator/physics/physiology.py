@@ -9,19 +9,10 @@ References
 .. [2] Lowe HJ, Ernst EA. The Quantitative Practice of Anesthesia: Use of Closed Circuit.
    Williams & Wilkins, Baltimore 1981 (VO2 = 10 kg^0.75, VCO2 = 8 kg^0.75 mL/min, Q = 2 kg^0.75 dL/min).
 .. [3] Eger EI II. Anesthetic Uptake and Action. Williams & Wilkins 1974 (tissue groups of a 70 kg adult).
-.. [4] West JB. Respiratory Physiology: The Essentials (alveolar ventilation equation,
-   VA = 0.863 VCO2 / PaCO2 with VA in L/min BTPS, VCO2 in mL/min STPD, PaCO2 in mmHg).
+.. [4] West JB. Respiratory Physiology: The Essentials (alveolar ventilation equation, VA = 0.863 VCO2 / PaCO2).
 .. [5] Levitt DG. Heterogeneity of human adipose blood flow. BMC Clin Pharmacol 2007;7:1.
 .. [6] Eger EI II, Saidman LJ. Illustrations of inhaled anesthetic uptake, including intertissue
    diffusion to and from fat. Anesth Analg 2005;100:1020-33.
-
-Examples
---------
->>> p = patient_parameters(70)
->>> round(p.oxygen_consumption.to("mL/min").magnitude)
-242
->>> round(p.cardiac_output.to("L/min").magnitude, 2)
-4.84
 """
 
 from __future__ import annotations
@@ -83,20 +74,16 @@ class Patient:
     ----------
     weight : [kg]
     age : [year]
-    oxygen_consumption : [mL/min] STPD
-    carbon_dioxide_production : [mL/min] STPD
+    oxygen_consumption, carbon_dioxide_production : [mL/min] STPD
     cardiac_output : [L/min]
     alveolar_ventilation : [L/min] BTPS, perfused alveoli only
     minute_ventilation : [L/min] BTPS, what the ventilator delivers from the circuit
     frc : [L] BTPS
-    tissue_volume : dict of [L], one entry per model compartment (:data:`COMPARTMENTS`)
-    tissue_flow : dict of [L/min], blood flow of each compartment
+    tissue_volume, tissue_flow : dict of [L], [L/min] (blood flow), per compartment (:data:`COMPARTMENTS`)
     tissue_diffusion : dict of [L/min]
-        Intertissue diffusion clearance into each fat-next-to-lean compartment, in litres of the
-        lean tissue (``DIFFUSION_DONOR``) per minute.
+        Intertissue diffusion clearance into each fat-next-to-lean compartment [L of lean tissue/min].
     arterial_volume, venous_volume : [L] of blood
-    alveolar_dead_space_share : float
-        Share of end-tidal gas that comes from unperfused alveoli (carries inspired gas).
+    alveolar_dead_space_share : float [-], share of end-tidal gas from unperfused alveoli (inspired gas)
     respiratory_rate : [1/min]
     warnings : list of (code, message)
     """
@@ -127,6 +114,20 @@ class Patient:
 def brody_oxygen_consumption(weight_kg: float) -> float:
     """O2 consumption under anaesthesia [mL/min STPD] = 10 kg^0.75 (Brody; Lowe and Ernst 1981).
 
+    Parameters
+    ----------
+    weight_kg : float [kg]
+
+    Returns
+    -------
+    float [mL/min] STPD
+
+    References
+    ----------
+    Lowe HJ, Ernst EA 1981 (from memory), after Brody S. Bioenergetics and Growth, 1945.
+
+    Examples
+    --------
     >>> round(brody_oxygen_consumption(70), 1)
     242.0
     """
@@ -136,6 +137,20 @@ def brody_oxygen_consumption(weight_kg: float) -> float:
 def brody_carbon_dioxide_production(weight_kg: float) -> float:
     """CO2 production [mL/min STPD] = 8 kg^0.75 (Lowe and Ernst 1981), respiratory quotient 0.8.
 
+    Parameters
+    ----------
+    weight_kg : float [kg]
+
+    Returns
+    -------
+    float [mL/min] STPD
+
+    References
+    ----------
+    Lowe HJ, Ernst EA 1981 (from memory), after Brody S. Bioenergetics and Growth, 1945.
+
+    Examples
+    --------
     >>> round(brody_carbon_dioxide_production(70), 1)
     193.6
     """
@@ -145,6 +160,20 @@ def brody_carbon_dioxide_production(weight_kg: float) -> float:
 def brody_cardiac_output(weight_kg: float) -> float:
     """Cardiac output [L/min] = 2 kg^0.75 dL/min (Lowe and Ernst 1981).
 
+    Parameters
+    ----------
+    weight_kg : float [kg]
+
+    Returns
+    -------
+    float [L/min]
+
+    References
+    ----------
+    Lowe HJ, Ernst EA 1981 (from memory), after Brody S. Bioenergetics and Growth, 1945.
+
+    Examples
+    --------
     >>> round(brody_cardiac_output(70), 2)
     4.84
     """
@@ -154,9 +183,23 @@ def brody_cardiac_output(weight_kg: float) -> float:
 def alveolar_ventilation(vco2_ml_min: float, paco2_mmhg: float = 40.0) -> float:
     """Alveolar ventilation [L/min BTPS] from the alveolar ventilation equation.
 
-    VA = 0.863 VCO2 / PaCO2 (VCO2 mL/min STPD, PaCO2 mmHg). The constant converts STPD to BTPS and
-    does not depend on barometric pressure, so it holds at altitude.
+    VA = 0.863 VCO2 / PaCO2; the constant converts STPD to BTPS and holds at any barometric pressure.
 
+    Parameters
+    ----------
+    vco2_ml_min : float [mL/min] STPD
+    paco2_mmhg : float [mmHg]
+
+    Returns
+    -------
+    float [L/min] BTPS
+
+    References
+    ----------
+    West JB. Respiratory Physiology: The Essentials (from memory).
+
+    Examples
+    --------
     >>> round(alveolar_ventilation(193.6, 40), 2)
     4.18
     """
@@ -168,24 +211,25 @@ def alveolar_ventilation(vco2_ml_min: float, paco2_mmhg: float = 40.0) -> float:
 def fat_split(fat_volume: float, fat_flow: float, weight_kg: float) -> dict[str, tuple[float, float, float]]:
     """Split Eger's fat group into the compartments of the late-uptake structure.
 
-    Fat next to the vessel-rich organs and next to muscle (reference-man volumes, a share of the fat
-    group) is unperfused and fed by intertissue diffusion from that lean tissue (Eger and Saidman
-    2005); its clearance is the sourced rate per litre of adjacent fat, scaled with mass^0.75 like a
-    flow. The rest of the fat is perfused in two compartments with Levitt's (2007) blood flows per
-    kg (a litre of fat taken as a kilogram); their split is chosen so that at the 70 kg reference they carry Eger's fat-group flow. The
-    shares are fixed at the reference, so volumes stay proportional to the fat volume and flows to
-    the fat flow (mass and mass^0.75 for the Brody patient).
+    Fat next to the vessel-rich organs and muscle (reference-man volumes) is unperfused, fed by diffusion
+    from that lean tissue (clearance scaled with mass^0.75); the rest is perfused in two compartments with
+    Levitt's flows per kg (1 L fat as 1 kg), split to carry Eger's fat-group flow at 70 kg.
 
     Parameters
     ----------
-    fat_volume : [L] of the fat group.
-    fat_flow : [L/min] of the fat group.
-    weight_kg : body mass [kg] (scales the diffusion clearances).
+    fat_volume : float [L] of the fat group
+    fat_flow : float [L/min] of the fat group
+    weight_kg : float [kg], body mass (scales the diffusion clearances)
 
     Returns
     -------
     dict
         compartment -> (volume [L], blood flow [L/min], diffusion clearance [L/min]).
+
+    References
+    ----------
+    Levitt DG. BMC Clin Pharmacol 2007;7:1; Eger EI II, Saidman LJ. Anesth Analg 2005;100:1020-33; ICRP
+    Publication 23, 1975 (fat by site; from memory). The diffusion rate is fitted, no published value.
 
     Examples
     --------
@@ -232,9 +276,9 @@ def patient_parameters(
 
     Parameters
     ----------
-    weight : str, float or Quantity
+    weight : str, float or Quantity [kg]
         Body mass; a bare number is kg. 0.5 to 300 kg accepted; outside 10 to 150 kg a warning.
-    age : str, float or Quantity
+    age : str, float or Quantity [year]
         Age; a bare number is years (used for MAC, not for scaling).
     oxygen_consumption, carbon_dioxide_production : optional [mL/min] STPD overrides.
     cardiac_output : optional [L/min].
@@ -249,6 +293,10 @@ def patient_parameters(
     Returns
     -------
     Patient
+
+    References
+    ----------
+    Lowe HJ, Ernst EA 1981 and Brody 1945 (flows); Eger EI II 1974 (tissue groups); West JB (alveolar ventilation).
 
     Examples
     --------

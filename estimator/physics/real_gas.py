@@ -36,7 +36,17 @@ COOLPROP_FLUIDS = {"oxygen": "Oxygen", "air": "Air", "nitrous_oxide": "NitrousOx
 
 
 def props_si() -> Any:
-    """CoolProp's PropsSI, imported lazily so that the app starts fast."""
+    """CoolProp's PropsSI, imported lazily so that the app starts fast.
+
+    Returns
+    -------
+    callable
+        ``PropsSI(output, name1, value1, name2, value2, fluid)`` in SI units [K, Pa, mol/m^3].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+    """
     from CoolProp.CoolProp import PropsSI
 
     return PropsSI
@@ -45,6 +55,20 @@ def props_si() -> Any:
 def fluid_name(gas: str, field_name: str = "gas") -> str:
     """CoolProp name of a cylinder gas; an InputError for any other gas.
 
+    Parameters
+    ----------
+    gas : str
+        ``"oxygen"``, ``"air"`` or ``"nitrous_oxide"`` (case and surrounding spaces ignored).
+    field_name : str
+        Name of the input field, for the error message.
+
+    Returns
+    -------
+    str
+        CoolProp fluid name.
+
+    Examples
+    --------
     >>> fluid_name("nitrous_oxide")
     'NitrousOxide'
     """
@@ -57,6 +81,20 @@ def fluid_name(gas: str, field_name: str = "gas") -> str:
 def gas_key(gas: str, field_name: str = "gas") -> str:
     """The package's key of a cylinder gas (lower case); an InputError for any other gas.
 
+    Parameters
+    ----------
+    gas : str
+        Cylinder gas name, any case.
+    field_name : str
+        Name of the input field, for the error message.
+
+    Returns
+    -------
+    str
+        ``"oxygen"``, ``"air"`` or ``"nitrous_oxide"``.
+
+    Examples
+    --------
     >>> gas_key(" Oxygen ")
     'oxygen'
     """
@@ -67,6 +105,17 @@ def gas_key(gas: str, field_name: str = "gas") -> str:
 def reference_molar_volume() -> pint.Quantity:
     """Ideal molar volume at the package reference, R T_ref / p_ref [L/mol].
 
+    Returns
+    -------
+    pint.Quantity
+        Molar volume at 15 degC and 101.325 kPa [L/mol].
+
+    References
+    ----------
+    CODATA 2018 (Tiesinga E et al. Rev Mod Phys 2021;93:025010): molar gas constant R.
+
+    Examples
+    --------
     >>> round(reference_molar_volume().to("L/mol").magnitude, 3)
     23.645
     """
@@ -78,6 +127,23 @@ def reference_molar_volume() -> pint.Quantity:
 def molar_density(gas: str, temperature: pint.Quantity, pressure: pint.Quantity) -> pint.Quantity:
     """Real-gas molar density from CoolProp at a temperature and an *absolute* pressure [mol/L].
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    temperature : pint.Quantity [K]
+    pressure : pint.Quantity [kPa], absolute
+
+    Returns
+    -------
+    pint.Quantity
+        Molar density [mol/L].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
     >>> round(molar_density("oxygen", Q_(15, "degC"), Q_(1, "atm")).to("mol/L").magnitude, 4)
     0.0423
     """
@@ -91,6 +157,23 @@ def molar_density(gas: str, temperature: pint.Quantity, pressure: pint.Quantity)
 def pressure_at(gas: str, temperature: pint.Quantity, density: pint.Quantity) -> pint.Quantity:
     """Absolute pressure of a gas at a temperature and a molar density [kPa] (single phase).
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    temperature : pint.Quantity [K]
+    density : pint.Quantity [mol/L]
+
+    Returns
+    -------
+    pint.Quantity
+        Absolute pressure [kPa].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
     >>> rho = molar_density("oxygen", Q_(40, "degC"), Q_(200, "bar"))
     >>> round(pressure_at("oxygen", Q_(40, "degC"), rho).to("bar").magnitude, 6)
     200.0
@@ -106,6 +189,23 @@ def pressure_at(gas: str, temperature: pint.Quantity, density: pint.Quantity) ->
 def compressibility(gas: str, temperature: pint.Quantity, pressure: pint.Quantity) -> float:
     """Compressibility factor Z = p / (rho R T) from CoolProp (absolute pressure).
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    temperature : pint.Quantity [K]
+    pressure : pint.Quantity [kPa], absolute
+
+    Returns
+    -------
+    float
+        Z [-].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
     >>> round(compressibility("air", Q_(15, "degC"), Q_(300, "bar")), 3)
     1.101
     """
@@ -116,6 +216,22 @@ def compressibility(gas: str, temperature: pint.Quantity, pressure: pint.Quantit
 def vapour_pressure(gas: str, temperature: pint.Quantity) -> pint.Quantity | None:
     """Saturation (vapour) pressure from CoolProp, or None above the critical temperature [kPa].
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    temperature : pint.Quantity [K]
+
+    Returns
+    -------
+    pint.Quantity or None
+        Vapour pressure [kPa]; None at or above the critical temperature.
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
     >>> round(vapour_pressure("nitrous_oxide", Q_(20, "degC")).to("bar").magnitude, 1)
     50.5
     >>> vapour_pressure("nitrous_oxide", Q_(40, "degC")) is None
@@ -132,6 +248,24 @@ def vapour_pressure(gas: str, temperature: pint.Quantity) -> pint.Quantity | Non
 def saturated_density(gas: str, temperature: pint.Quantity, phase: str) -> pint.Quantity:
     """Molar density of the saturated ``"liquid"`` or ``"vapour"`` below the critical temperature [mol/L].
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    temperature : pint.Quantity [K], below the critical temperature
+    phase : str
+        ``"liquid"`` or ``"vapour"``.
+
+    Returns
+    -------
+    pint.Quantity
+        Molar density of the saturated phase [mol/L].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
     >>> round(saturated_density("nitrous_oxide", Q_(20, "degC"), "vapour").to("mol/L").magnitude, 3)
     3.59
     """
@@ -143,13 +277,47 @@ def saturated_density(gas: str, temperature: pint.Quantity, phase: str) -> pint.
 
 
 def critical_temperature(gas: str) -> pint.Quantity:
-    """Critical temperature from CoolProp (tabulated) [K] (nitrous oxide about 309.5 K, 36.4 degC)."""
+    """Critical temperature from CoolProp (tabulated) [K] (nitrous oxide about 309.5 K, 36.4 degC).
+
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+
+    Returns
+    -------
+    pint.Quantity
+        Critical temperature [K].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
+    >>> round(critical_temperature("nitrous_oxide").to("degC").magnitude, 1)
+    36.4
+    """
     return Q_(table_constant(gas_key(gas), "critical_temperature"), "K")
 
 
 def molar_mass(gas: str) -> pint.Quantity:
     """Molar mass from CoolProp (tabulated) [kg/mol].
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+
+    Returns
+    -------
+    pint.Quantity
+        Molar mass [kg/mol].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
     >>> round(molar_mass("nitrous_oxide").to("g/mol").magnitude, 3)
     44.013
     """
@@ -168,6 +336,25 @@ def litres_per_kg(
     molar volume at (``temperature``, ``pressure``) over the molar mass; with ``real_gas=True`` it is
     1 kg over CoolProp's real-gas mass density at that state (nitrous oxide at 1 atm: Z about 0.994).
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    temperature : pint.Quantity [K], default 15 degC
+    pressure : pint.Quantity [kPa], absolute; default 101.325 kPa
+    real_gas : bool
+        Real-gas density instead of the ideal molar volume.
+
+    Returns
+    -------
+    pint.Quantity
+        Free-gas volume per mass [L/kg].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp; the equations of state in the module notes).
+
+    Examples
+    --------
     >>> round(litres_per_kg("nitrous_oxide").to("L/kg").magnitude)
     537
     >>> round(litres_per_kg("nitrous_oxide", real_gas=True).to("L/kg").magnitude)
@@ -182,5 +369,24 @@ def litres_per_kg(
 
 
 def free_gas(moles: pint.Quantity) -> pint.Quantity:
-    """Moles as free gas at the package reference [L]."""
+    """Moles as free gas at the package reference [L].
+
+    Parameters
+    ----------
+    moles : pint.Quantity [mol]
+
+    Returns
+    -------
+    pint.Quantity
+        Ideal free-gas volume at 15 degC and 101.325 kPa [L].
+
+    References
+    ----------
+    CODATA 2018 (Tiesinga E et al. Rev Mod Phys 2021;93:025010): molar gas constant R.
+
+    Examples
+    --------
+    >>> round(free_gas(Q_(2, "mol")).to("L").magnitude, 2)
+    47.29
+    """
     return (moles * reference_molar_volume()).to("L")

@@ -42,7 +42,23 @@ _EDGE = 1e-12
 
 @cache
 def table() -> dict[str, Any]:
-    """The arrays of the table, loaded once."""
+    """The arrays of the table, loaded once.
+
+    Returns
+    -------
+    dict of str -> numpy.ndarray
+        Grids in SI units: temperature [K], pressure [Pa], Z [-], viscosity [Pa s], molar densities
+        [mol/m^3], molar mass [kg/mol]; keyed ``"<gas>.<field>"``.
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp, the source of every tabulated value).
+
+    Examples
+    --------
+    >>> float(table()["gas_constant"])
+    8.314462618
+    """
     with resources.files("estimator").joinpath("data/real_gas_table.npz").open("rb") as fh:
         with np.load(fh, allow_pickle=False) as npz:
             data = {key: npz[key] for key in npz.files}
@@ -54,6 +70,17 @@ def table() -> dict[str, Any]:
 def coolprop_version() -> str:
     """Version of CoolProp that made the table.
 
+    Returns
+    -------
+    str
+        CoolProp version, e.g. ``"8.0.0"``.
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp, the source of every tabulated value).
+
+    Examples
+    --------
     >>> coolprop_version().count(".") >= 1
     True
     """
@@ -100,7 +127,28 @@ def _grid(key: str, fields: tuple[str, ...], t: float, p: float) -> list[float |
 
 
 def table_z(gas: str, t: float, p: float) -> float | None:
-    """Z = p / (rho R T) of a gas at t [K] and absolute p [Pa] from the table; None outside it."""
+    """Z = p / (rho R T) of a gas at t [K] and absolute p [Pa] from the table; None outside it.
+
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    t : float [K]
+    p : float [Pa], absolute
+
+    Returns
+    -------
+    float or None
+        Compressibility factor [-]; None outside the table.
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp, the source of every tabulated value).
+
+    Examples
+    --------
+    >>> round(table_z("oxygen", 288.15, 200e5), 4)
+    0.9311
+    """
     found = _grid(gas, ("z",), t, p)
     return None if found is None else found[0]
 
@@ -109,6 +157,24 @@ def table_flow_gas(name: str, t: float, p: float) -> tuple[float, float | None, 
     """Z, viscosity [Pa s] (None where CoolProp has no model) and molar mass [kg/mol] of a
     flowmeter gas (:mod:`estimator.physics.gas_mixtures`) at t [K] and p [Pa] up to 1.5 bar; None outside.
 
+    Parameters
+    ----------
+    name : str
+        Flowmeter gas name (``"oxygen"``, ``"nitrogen"``...).
+    t : float [K]
+    p : float [Pa], absolute
+
+    Returns
+    -------
+    tuple of (float, float or None, float) or None
+        Z [-], viscosity [Pa s] and molar mass [kg/mol]; None outside the table.
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp, the source of every tabulated value).
+
+    Examples
+    --------
     >>> z, mu, m = table_flow_gas("oxygen", 293.15, 101325.0)
     >>> round(mu * 1e6, 2), round(m * 1000, 3)
     (20.27, 31.999)
@@ -124,6 +190,23 @@ def table_pressure(gas: str, t: float, rho: float) -> float | None:
 
     Solves p = rho R T Z(T, p) by fixed-point iteration (a contraction: p dZ/dp is well below Z here).
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    t : float [K]
+    rho : float [mol/m^3]
+
+    Returns
+    -------
+    float or None
+        Absolute pressure [Pa]; None outside the table.
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp, the source of every tabulated value).
+
+    Examples
+    --------
     >>> p = table_pressure("oxygen", 288.15, 200e5 / (table_z("oxygen", 288.15, 200e5) * GAS_CONSTANT * 288.15))
     >>> round(p / 1e5, 9)
     200.0
@@ -149,6 +232,23 @@ def table_saturation(gas: str, t: float) -> tuple[float, float, float] | None:
     None outside the tabulated two-phase range (below -45 degC, at or above the critical
     temperature) or for a gas without a saturation table.
 
+    Parameters
+    ----------
+    gas : str
+        ``"nitrous_oxide"`` (the one gas with a saturation table).
+    t : float [K]
+
+    Returns
+    -------
+    tuple of float or None
+        Pressure [Pa], liquid and vapour molar densities [mol/m^3].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp, the source of every tabulated value).
+
+    Examples
+    --------
     >>> p, liquid, vapour = table_saturation("nitrous_oxide", 293.15)
     >>> round(p / 1e5, 1), liquid > vapour
     (50.5, True)
@@ -171,6 +271,22 @@ def table_saturation(gas: str, t: float) -> tuple[float, float, float] | None:
 def table_constant(gas: str, name: str) -> float:
     """A tabulated constant: ``molar_mass`` [kg/mol] or ``critical_temperature`` [K].
 
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    name : {"molar_mass", "critical_temperature"}
+
+    Returns
+    -------
+    float
+        The constant [kg/mol] or [K].
+
+    References
+    ----------
+    Bell IH et al. Ind Eng Chem Res 2014;53:2498 (CoolProp, the source of every tabulated value).
+
+    Examples
+    --------
     >>> round(table_constant("nitrous_oxide", "critical_temperature"), 2)
     309.52
     """

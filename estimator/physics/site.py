@@ -7,35 +7,22 @@ Ambient pressure follows the troposphere of the ISO 2533 / ICAO standard atmosph
 with :math:`p_0` = 101 325 Pa, :math:`T_0` = 288.15 K, lapse rate :math:`L` = 0.0065 K/m,
 :math:`g_0` = 9.80665 m/s2, molar mass of air :math:`M` = 0.0289644 kg/mol and
 :math:`R^*` = 8.31432 J/(mol K), so the exponent is 5.25588. :math:`H` is the *geopotential*
-height; a site elevation (geometric height above mean sea level, as on a map) converts by
-:math:`H = r h / (r + h)` with the standard earth radius :math:`r` = 6 356 766 m. The formula holds
-from -500 m to 11 000 m (the tropopause); elevations outside are rejected, and above 6000 m (no
-permanent habitation) a result carries a warning.
+height, :math:`H = r h / (r + h)` of a geometric elevation h (earth radius :math:`r` = 6 356 766 m).
+The formula holds from -500 m to 11 000 m (the tropopause); elevations outside are rejected, and
+above 6000 m (no permanent habitation) a result carries a warning.
 
-The standard atmosphere is a yearly mean: weather moves the pressure at a site by a few per cent.
-Where a barometer reading is at hand, give ``ambient_pressure`` instead. If both an elevation and a
-pressure are given, the **pressure is used** (a measurement beats a model) and the elevation serves
-as a check: a pressure outside 0.85 to 1.08 times the standard value for that elevation (wider than
-the recorded extremes of sea-level pressure, about 870 to 1085 hPa) is rejected as a likely mistake
-(gauge reading, wrong unit, wrong site).
-
-The room temperature (default 20 degC, the calibration temperature of flowmeters) is the
-temperature of the gas in the machine; it is not the standard-atmosphere temperature of the
-outside air, which :func:`standard_atmosphere` also returns.
+The standard atmosphere is a yearly mean (weather moves a site's pressure by a few per cent): give a
+barometer reading as ``ambient_pressure`` where one is at hand. If both are given, the **pressure is
+used** and the elevation is a check: a pressure outside 0.85 to 1.08 times the standard value there
+(wider than the recorded sea-level extremes, about 870 to 1085 hPa) is rejected as a likely mistake.
+The room temperature (default 20 degC, the flowmeters' calibration temperature) is that of the gas in
+the machine, not the outside air's standard-atmosphere temperature.
 
 References
 ----------
 .. [1] ISO 2533:1975 Standard Atmosphere (troposphere, geopotential height, constants).
 .. [2] ICAO Doc 7488/3, Manual of the ICAO Standard Atmosphere, 3rd ed. 1993 (same values to 32 km).
 .. [3] West JB. Respiratory Physiology: The Essentials (PiO2 = FiO2 (PB - 47 mmHg) at 37 degC).
-
-Examples
---------
->>> round(standard_atmosphere(Q_(3000, "m"), geopotential=True)[0].to("kPa").magnitude, 3)
-70.109
->>> s = site_from_inputs(elevation="2400 m")
->>> round(s.ambient_pressure.to("kPa").magnitude, 1)
-75.6
 """
 
 from __future__ import annotations
@@ -112,7 +99,21 @@ class Site:
 
 
 def geopotential_height(h: Any) -> Any:
-    """Geopotential height H = r h / (r + h) [m] of a geometric height h [m] (ISO 2533)."""
+    """Geopotential height H = r h / (r + h) [m] of a geometric height h [m] (ISO 2533).
+
+    Parameters
+    ----------
+    h : float or numpy.ndarray [m]
+
+    Returns
+    -------
+    numpy.ndarray [m]
+
+    Examples
+    --------
+    >>> round(float(geopotential_height(3000.0)), 1)
+    2998.6
+    """
     h = np.asarray(h, dtype=float)
     return EARTH_RADIUS * h / (EARTH_RADIUS + h)
 
@@ -164,6 +165,16 @@ def ambient_pressure_at(elevation_m: Any) -> Any:
 
     The plain-number form of :func:`standard_atmosphere` for the engine's inner code.
 
+    Parameters
+    ----------
+    elevation_m : float or numpy.ndarray [m]
+
+    Returns
+    -------
+    float or numpy.ndarray [kPa]
+
+    Examples
+    --------
     >>> round(ambient_pressure_at(3000.0), 3)
     70.121
     """
@@ -173,6 +184,16 @@ def ambient_pressure_at(elevation_m: Any) -> Any:
 def pressure_altitude(pressure: pint.Quantity) -> pint.Quantity:
     """Geometric elevation [m] at which the standard troposphere has ``pressure``.
 
+    Parameters
+    ----------
+    pressure : pint.Quantity [kPa], absolute
+
+    Returns
+    -------
+    pint.Quantity [m]
+
+    Examples
+    --------
     >>> round(pressure_altitude(Q_(70.121, "kPa")).to("m").magnitude)
     3000
     """
@@ -223,20 +244,15 @@ def site_from_inputs(elevation: Any = None, ambient_pressure: Any = None, temper
     <Quantity(70.0, 'kilopascal')>
     >>> site_from_inputs().basis
     'sea level (default)'
+    >>> round(site_from_inputs(elevation="2400 m").ambient_pressure.to("kPa").magnitude, 1)
+    75.6
     """
     notes: list[tuple[str, str]] = []
-    temp = (
-        DEFAULT_TEMPERATURE
-        if temperature is None
-        else parse_quantity(temperature, "site.temperature", "temperature", "degC")
-    )
-    check_range(
-        temp.to("degC"),
-        "site.temperature",
-        Q_(TEMPERATURE_RANGE[0], "degC"),
-        Q_(TEMPERATURE_RANGE[1], "degC"),
-        value=temperature,
-    )
+    temp = DEFAULT_TEMPERATURE
+    if temperature is not None:
+        temp = parse_quantity(temperature, "site.temperature", "temperature", "degC")
+    t_lo, t_hi = (Q_(t, "degC") for t in TEMPERATURE_RANGE)
+    check_range(temp.to("degC"), "site.temperature", t_lo, t_hi, value=temperature)
     t_c = float(temp.to("degC").magnitude)
     if not TEMPERATURE_USUAL[0] <= t_c <= TEMPERATURE_USUAL[1]:
         notes.append(
@@ -288,9 +304,13 @@ def inspired_oxygen_partial_pressure(fio2: Any, ambient: pint.Quantity, water_va
     water_vapour : bool
         Subtract the saturated water vapour pressure at 37 degC (47 mmHg, 6.27 kPa), i.e. tracheal gas.
 
+    Returns
+    -------
+    pint.Quantity [kPa]
+
     References
     ----------
-    West JB. Respiratory Physiology: The Essentials.
+    West JB. Respiratory Physiology: The Essentials (PiO2 = FiO2 (PB - 47 mmHg); from memory).
 
     Examples
     --------
@@ -305,8 +325,11 @@ def inspired_oxygen_partial_pressure(fio2: Any, ambient: pint.Quantity, water_va
 def sea_level_equivalent_fraction(fio2: Any, ambient: pint.Quantity) -> Any:
     """The oxygen fraction that gives, at sea level, the PiO2 that ``fio2`` gives at ``ambient``.
 
-    >>> round(float(sea_level_equivalent_fraction(0.30, Q_(70.109, "kPa"))), 3)
-    0.201
+    Parameters
+    ----------
+    fio2 : float or numpy.ndarray [-]
+    ambient : pint.Quantity [kPa]
+
     """
     sea = inspired_oxygen_partial_pressure(1.0, STANDARD_ATMOSPHERE)
     return (inspired_oxygen_partial_pressure(fio2, ambient) / sea).to("dimensionless").magnitude
@@ -315,8 +338,11 @@ def sea_level_equivalent_fraction(fio2: Any, ambient: pint.Quantity) -> Any:
 def fraction_for_sea_level_threshold(threshold: Any, ambient: pint.Quantity) -> Any:
     """The oxygen fraction needed at ``ambient`` to match the sea-level PiO2 of ``threshold``.
 
-    >>> round(float(fraction_for_sea_level_threshold(0.30, Q_(70.109, "kPa"))), 3)
-    0.447
+    Parameters
+    ----------
+    threshold : float or numpy.ndarray [-]
+    ambient : pint.Quantity [kPa]
+
     """
     return np.asarray(threshold, dtype=float) / sea_level_equivalent_fraction(1.0, ambient)
 

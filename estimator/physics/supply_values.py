@@ -23,6 +23,11 @@ from ..properties import CONFIDENCE_CODES, DataError
 def supply_data() -> dict[str, dict[str, Any]]:
     """Values of ``estimator/data/supply.toml`` (section -> key -> value), each checked for a source.
 
+    Returns
+    -------
+    dict of str -> dict of str -> value
+        Section -> key -> value, in the unit the file names beside each key.
+
     Raises
     ------
     DataError

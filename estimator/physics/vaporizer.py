@@ -74,7 +74,25 @@ P0 = float(STANDARD_ATMOSPHERE.to("kPa").magnitude)
 
 
 def vaporizer_kind(kind: str, field_name: str = "vaporizer.kind") -> str:
-    """Canonical vaporizer kind name (``variable_bypass`` or ``heated_pressurised``)."""
+    """Canonical vaporizer kind name (``variable_bypass`` or ``heated_pressurised``).
+
+    Parameters
+    ----------
+    kind : str
+        A kind or one of its aliases (case, hyphens and spaces ignored).
+    field_name : str
+        Name of the input field, for the error message.
+
+    Returns
+    -------
+    str
+        ``"variable_bypass"`` or ``"heated_pressurised"``.
+
+    Examples
+    --------
+    >>> vaporizer_kind("Variable-bypass")
+    'variable_bypass'
+    """
     key = str(kind).strip().lower().replace("-", "_").replace(" ", "_")
     if key not in _KIND_ALIASES:
         raise InputError(field_name, kind, "one of " + ", ".join(KINDS))
@@ -130,6 +148,16 @@ def mac_fraction_at_site(mac_one_atmosphere: Any, ambient_pressure: Any) -> Any:
         MAC at 101.325 kPa (age-corrected by the caller, e.g. estimator.physics.mac).
     ambient_pressure : pint.Quantity [kPa]
 
+    Returns
+    -------
+    float or numpy.ndarray [fraction]
+
+    References
+    ----------
+    MAC as a partial pressure at reduced ambient pressure: common practice, no source.
+
+    Examples
+    --------
     >>> round(mac_fraction_at_site("1.8 %", Q_(70.109, "kPa")), 5)
     0.02601
     """
@@ -162,6 +190,11 @@ def delivered_fraction(
     InputError
         Unknown kind or control, dial outside 0 to < 1, pressure outside 22.6 to 108.5 kPa, or a
         variable-bypass vaporizer whose agent would boil at this pressure.
+
+    References
+    ----------
+    Dalton's law of partial pressures; SVP at 20 degC from ``data/agents.toml`` (Biro P. Acta Anaesthesiol
+    Scand 2014;58:968; desflurane: Eger EI. Anesth Analg 1992;75(4 Suppl):S3); outlet control from memory.
 
     Examples
     --------
@@ -245,6 +278,10 @@ def dial_for_target(
     DialSetting
         Warning ``DIAL_ABOVE_VAPORIZER_MAX`` where the needed dial exceeds the agent's maximum,
         ``DIAL_UNREACHABLE`` where no dial below 100 % delivers the target.
+
+    References
+    ----------
+    As :func:`delivered_fraction`; vaporizer maximum dials from ``data/agents.toml`` (common practice).
 
     Examples
     --------

@@ -81,7 +81,30 @@ class Segment:
 
 
 def build_result(case: CaseSetup, segments: list[Segment]) -> CaseResult:
-    """Assemble totals, series and warnings from the integrated phases of ``case``."""
+    """Assemble totals, series and warnings from the integrated phases of ``case``.
+
+    Parameters
+    ----------
+    case : CaseSetup
+    segments : list of Segment
+        One integrated phase each, in order (states in the internal units of :mod:`estimator.physics.circuit`).
+
+    Returns
+    -------
+    CaseResult
+        Totals as pint quantities (gas litres free gas at 15 degC and 101.325 kPa), series with units in
+        the column names, and warnings.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> from estimator.simulation.engine import simulate
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> r = simulate(s)  # integrates each phase, then calls build_result
+    >>> round(float(r.totals["oxygen"].to("L").magnitude), 2), len(r.columns["time [min]"])
+    (9.83, 11)
+    """
     scenario, patient, site, base = case.scenario, case.patient, case.site, case.base
     amb = case.mmol_per_litre
     lpm = litres_per_mmol()

@@ -126,11 +126,35 @@ def _engine_parameters(scenario: Scenario, site: SiteState, weight: float, age: 
 def case_template(scenario: Scenario) -> CaseTemplate:
     """Prepare a scenario so that the batch engine can run it for any weight, age and duration.
 
+    Parameters
+    ----------
+    scenario : Scenario
+
+    Returns
+    -------
+    CaseTemplate
+        Coefficients of ``c + a kg**0.75 + b kg`` per parameter entry [internal units], phase
+        durations [min] and true flows [L/min].
+
     Raises
     ------
     RuntimeError
         If the engine's parameters are no longer ``c + a kg**0.75 + b kg`` (checked at seven
         weights to 1e-9 relative) or depend on age other than through the MAC entries.
+
+    References
+    ----------
+    Brody S. Bioenergetics and Growth, 1945 (power laws of body mass; from memory); Mapleson WW. Br J
+    Anaesth 1996;76:179-85 (age factor of MAC).
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> t = case_template(s)
+    >>> t.phase_durations.tolist(), t.coefficients.shape[0]
+    ([10.0], 3)
     """
     site = site_state(scenario)
     age = float(scenario.patient.age.to("year").magnitude)
@@ -166,6 +190,26 @@ def single_case_scenario(template: CaseTemplate, weight: float, age: float, dura
 
     Every phase is cut or stretched as in :func:`phase_durations`; phases of 0 min are kept (the
     engine skips them too).
+
+    Parameters
+    ----------
+    template : CaseTemplate
+    weight : float [kg]
+    age : float [year]
+    duration : float [min]
+
+    Returns
+    -------
+    Scenario
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> one = single_case_scenario(case_template(s), 90.0, 60.0, 25.0)
+    >>> float(one.patient.weight.to("kg").magnitude), float(one.phases[0].duration.to("min").magnitude)
+    (90.0, 25.0)
     """
     sc = _scenario_at(template.scenario, weight, age)
     d = phase_durations(template, np.array([float(duration)]))[0]
@@ -177,6 +221,19 @@ def phase_durations(template: CaseTemplate, total: np.ndarray) -> np.ndarray:
     """Phase durations [min] of cases lasting ``total`` minutes: the last phase stretches, or
     shorter cases end part-way through the earlier phases (shape (n, k)).
 
+    Parameters
+    ----------
+    template : CaseTemplate
+        Only its ``phase_durations`` [min] are read.
+    total : numpy.ndarray [min]
+        Case durations.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, k) [min]
+
+    Examples
+    --------
     >>> from types import SimpleNamespace
     >>> phase_durations(SimpleNamespace(phase_durations=np.array([10.0, 50.0])), np.array([90.0, 6.0]))
     array([[10., 80.],
@@ -192,7 +249,35 @@ def phase_durations(template: CaseTemplate, total: np.ndarray) -> np.ndarray:
 
 
 def parameters(template: CaseTemplate, weights: np.ndarray, ages: np.ndarray) -> np.ndarray:
-    """Phase parameter vectors of many patients, shape (n, k, NP)."""
+    """Phase parameter vectors of many patients, shape (n, k, NP).
+
+    Parameters
+    ----------
+    template : CaseTemplate
+    weights : numpy.ndarray [kg]
+    ages : numpy.ndarray [year]
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, k, NP)
+        In the internal units of :mod:`estimator.physics.circuit`.
+
+    References
+    ----------
+    Brody S. Bioenergetics and Growth, 1945 (power laws of body mass; from memory); Mapleson WW. Br J
+    Anaesth 1996;76:179-85 (age factor of MAC).
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> from estimator.simulation.case_setup import prepare
+    >>> p = parameters(case_template(s), np.array([90.0]), np.array([40.0]))
+    >>> one = prepare(single_case_scenario(case_template(s), 90.0, 40.0, 10.0)).phases[0].parameters
+    >>> bool(np.allclose(p[0, 0], one, rtol=1e-9))
+    True
+    """
     kg = np.asarray(weights, dtype=float)[:, None, None]
     cf = template.coefficients
     p = cf[0][None] + cf[1][None] * kg**0.75 + cf[2][None] * kg
@@ -208,7 +293,19 @@ def _initial_states(template: CaseTemplate, params: np.ndarray) -> np.ndarray:
 
 
 def absolute_tolerance() -> np.ndarray:
-    """Absolute tolerance per state of the batch integrator (fractions, then amounts [mmol])."""
+    """Absolute tolerance per state of the batch integrator (fractions, then amounts [mmol]).
+
+    Returns
+    -------
+    numpy.ndarray, float64[NY]
+        ``ATOL_FRACTION`` [-] for the core states, ``ATOL_AMOUNT`` [mmol] for the running totals.
+
+    Examples
+    --------
+    >>> a = absolute_tolerance()
+    >>> bool(a[0] < a[-1])
+    True
+    """
     atol = np.full(c.NY, ATOL_AMOUNT)
     atol[:NCORE] = ATOL_FRACTION
     return atol
@@ -230,9 +327,9 @@ def run_batch(
     Parameters
     ----------
     template : CaseTemplate
-    weights : [kg], ages : [year], durations : [min]
+    weights, ages, durations : sequence of float [kg], [year], [min]
         One entry per case (validated by the caller: the case-mix reader checks the ranges).
-    rtol : float
+    rtol : float [-]
         Relative tolerance (default :data:`RTOL`).
     chunk : int
         Cases integrated at a time.
@@ -249,6 +346,10 @@ def run_batch(
     dict of numpy arrays
         The keys and units of :data:`TOTAL_UNITS` (gas litres free gas at 15 degC and 101.325 kPa,
         as in :func:`estimator.simulation.engine.simulate`), plus ``evaluations`` per case and ``steps``.
+
+    References
+    ----------
+    Sommeijer BP et al. J Comput Appl Math 1998;88:315-26 (RKC); patient scaling as :func:`parameters`.
     """
     wt = np.asarray(weights, dtype=float)
     ag = np.asarray(ages, dtype=float)

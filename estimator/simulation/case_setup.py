@@ -139,6 +139,16 @@ def prepare(
     Returns
     -------
     CaseSetup
+        Parameters and state in the internal units of :mod:`estimator.physics.circuit` (mmol, L, min).
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> case = prepare(s)
+    >>> case.phases[0].true_flows, case.interval
+    ((1.0, 0.0, 0.0), 1.0)
     """
     if patient is None:
         patient = patient_from_scenario(scenario)
@@ -160,7 +170,28 @@ def prepare(
 
 
 def patient_from_scenario(scenario: Scenario) -> Patient:
-    """Brody-scaled patient with the scenario's overrides."""
+    """Brody-scaled patient with the scenario's overrides.
+
+    Parameters
+    ----------
+    scenario : Scenario
+
+    Returns
+    -------
+    Patient
+
+    References
+    ----------
+    As :func:`estimator.physics.physiology.patient_parameters` (Brody 1945; Lowe and Ernst 1981; Eger 1974).
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> round(patient_from_scenario(s).cardiac_output.to("L/min").magnitude, 2)
+    4.84
+    """
     pt = scenario.patient
     return patient_parameters(
         pt.weight,
@@ -177,7 +208,36 @@ def patient_from_scenario(scenario: Scenario) -> Patient:
 
 
 def initial_state(scenario: Scenario, base: np.ndarray, site: SiteState) -> np.ndarray:
-    """Patient equilibrated with room air (lungs optionally pre-oxygenated); circuit of room air or O2."""
+    """Patient equilibrated with room air (lungs optionally pre-oxygenated); circuit of room air or O2.
+
+    Alveolar fractions are the steady state of the lungs' mass balance, F_A = (V_A F_I - uptake) /
+    (V_A - VO2 + VCO2); blood and tissues start at the room-air alveolar fractions.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    base : numpy.ndarray, float64[NP]
+        From :func:`estimator.simulation.kernel_parameters.base_parameters` [internal units].
+    site : SiteState
+
+    Returns
+    -------
+    numpy.ndarray, float64[NY]
+        Fractions [-] and running totals (0) [mmol] in the layout of :mod:`estimator.physics.circuit`.
+
+    References
+    ----------
+    West JB. Respiratory Physiology: The Essentials (alveolar gas equation; from memory).
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> y = prepare(s).initial
+    >>> round(float(y[c.Y_FA + c.CO2]), 4), float(y[c.Y_FC + c.O2]) < 0.21
+    (0.0569, True)
+    """
     y = np.zeros(c.NY)
     air = air_fractions()
     o2_supply = np.zeros(c.NS)
@@ -201,6 +261,16 @@ def initial_state(scenario: Scenario, base: np.ndarray, site: SiteState) -> np.n
 def phase_times(start: float, duration: float, interval: float) -> np.ndarray:
     """Output times of a phase: every ``interval`` from ``start`` and its end [min].
 
+    Parameters
+    ----------
+    start, duration, interval : float [min]
+
+    Returns
+    -------
+    numpy.ndarray [min]
+
+    Examples
+    --------
     >>> phase_times(10.0, 2.5, 1.0).tolist()
     [10.0, 11.0, 12.0, 12.5]
     """

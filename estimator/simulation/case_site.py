@@ -61,6 +61,17 @@ class SiteState:
 def air_fractions() -> np.ndarray:
     """Dry room air as model species fractions (CO2 of air lumped with N2), sum 1.
 
+    Returns
+    -------
+    numpy.ndarray, float64[NS] [-]
+        Fractions in the species order of :mod:`estimator.physics.circuit`.
+
+    References
+    ----------
+    CRC Handbook of Chemistry and Physics (composition of dry air, ``data/agents.toml``).
+
+    Examples
+    --------
     >>> round(float(air_fractions().sum()), 12)
     1.0
     """
@@ -77,6 +88,27 @@ def site_state(scenario: Scenario) -> SiteState:
 
     Concentrator product defaults to 93 % O2 with argon in its air ratio to O2 and nitrogen the rest
     (estimator.physics.gas_mixtures); cylinder and pipeline oxygen are pure unless a purity is given.
+
+    Parameters
+    ----------
+    scenario : Scenario
+
+    Returns
+    -------
+    SiteState
+        Pressure [kPa], temperature [K], elevation [m] and the oxygen supply's (O2, N2, Ar) fractions [-].
+
+    References
+    ----------
+    ISO 2533:1975 Standard Atmosphere (from memory); dry-air argon to oxygen ratio of the CRC Handbook.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "site": {"elevation": "1500 m"}, "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> round(site_state(s).ambient_pressure_kpa, 1)
+    84.6
     """
     from ..physics.gas_mixtures import concentrator_composition
     from ..physics.site import site_from_inputs
@@ -107,7 +139,31 @@ def site_state(scenario: Scenario) -> SiteState:
 def flowmeter_correction(
     gas: str, reading: float, ambient_kpa: float, temperature_k: float, purity: float | None
 ) -> float:
-    """True ambient flow per unit reading of a tube calibrated for its own gas (estimator.physics.flowmeter)."""
+    """True ambient flow per unit reading of a tube calibrated for its own gas (estimator.physics.flowmeter).
+
+    Parameters
+    ----------
+    gas : {"oxygen", "air", "nitrous_oxide"}
+    reading : float [L/min]
+    ambient_kpa : float [kPa]
+    temperature_k : float [K]
+    purity : float or None [-]
+        Oxygen fraction of concentrator product flowing in an oxygen tube; None for the tube's own gas.
+
+    Returns
+    -------
+    float [-]
+        True flow over reading.
+
+    References
+    ----------
+    As :func:`estimator.physics.flowmeter.true_flow` (slot Poiseuille flow, orifice equation, Wilke 1950).
+
+    Examples
+    --------
+    >>> round(flowmeter_correction("oxygen", 10.0, 70.0, 293.15, None), 3)
+    1.198
+    """
     from ..physics.flowmeter import true_flow
     from ..physics.site import site_from_inputs
 
@@ -120,6 +176,29 @@ def true_flows(scenario: Scenario, phase: PhaseInput, site: SiteState) -> tuple[
     """(O2, air, N2O) true flows at the site [ambient L/min] of a phase.
 
     Without ``site.flowmeter_readings`` the phase flows are taken as true flows already.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    phase : PhaseInput
+    site : SiteState
+
+    Returns
+    -------
+    tuple of float [L/min]
+        O2, air and N2O at ambient conditions.
+
+    References
+    ----------
+    As :func:`flowmeter_correction` when the flows are flowmeter readings.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "site": {"elevation": "1500 m"}, "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> true_flows(s, s.phases[0], site_state(s))
+    (1.0, 0.0, 0.0)
     """
     flows = tuple(q.to("L/min").magnitude for q in phase.flows())
     if not scenario.site.flowmeter_readings:

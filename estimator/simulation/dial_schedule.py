@@ -86,6 +86,18 @@ def dial_schedule(
 def dial_table(schedule: list[dict[str, Any]]) -> pd.DataFrame:
     """The rows of every hold phase's table as one frame: phase (from 1), time [min], dial [%], end-tidal [%].
 
+    Parameters
+    ----------
+    schedule : list of dict
+        As :func:`dial_schedule` returns it (times [min], dial and end-tidal [%]).
+
+    Returns
+    -------
+    DataFrame
+        Columns ``phase``, ``time [min]``, ``dial [%]``, ``end-tidal [%]`` (percentages to 0.01).
+
+    Examples
+    --------
     >>> t = dial_table([{"index": 1, "table": [{"time": 8.0, "dial": 4.016, "end_tidal": 1.733}]}])
     >>> list(t.columns), t["dial [%]"].tolist(), t["end-tidal [%]"].tolist()
     (['phase', 'time [min]', 'dial [%]', 'end-tidal [%]'], [4.02], [1.73])
@@ -114,6 +126,17 @@ def _minutes(value: Any) -> float:
 def dial_text(schedule: list[dict[str, Any]]) -> list[str]:
     """One line per hold phase: where the dial starts, where it ends, its median.
 
+    Parameters
+    ----------
+    schedule : list of dict
+        As :func:`dial_schedule` returns it (times [min], dials [%]).
+
+    Returns
+    -------
+    list of str
+
+    Examples
+    --------
     >>> dial_text([{"index": 1, "start": 10.0, "end": 78.0, "dial_start": 3.2, "dial_median": 1.9,
     ...             "dial_end": 1.65, "table": []}])
     ['phase 1 dial: 3.2 % at 10 min, 1.65 % by 78 min (median 1.9 %)']

@@ -61,7 +61,19 @@ ATOL_AMOUNT = 1e-9
 
 
 def absolute_tolerance() -> np.ndarray:
-    """Absolute tolerance per state: fractions versus accumulated amounts [mmol]."""
+    """Absolute tolerance per state: fractions versus accumulated amounts [mmol].
+
+    Returns
+    -------
+    numpy.ndarray, float64[NY]
+        ``ATOL_FRACTION`` [-] for the fractions, ``ATOL_AMOUNT`` [mmol] for the running totals.
+
+    Examples
+    --------
+    >>> a = absolute_tolerance()
+    >>> float(a[0]), float(a[-1])
+    (1e-12, 1e-09)
+    """
     atol = np.full(c.NY, ATOL_AMOUNT)
     atol[: c.Y_FGIN] = ATOL_FRACTION
     return atol
@@ -80,7 +92,7 @@ def simulate(
     ----------
     scenario : Scenario
         A validated scenario (see :func:`estimator.inputs.scenario.load_scenario`).
-    rtol : float
+    rtol : float [-]
         Relative tolerance of the integrator (default 1e-8).
     patient : Patient, optional
         Overrides the patient built from ``scenario.patient``.
@@ -92,6 +104,19 @@ def simulate(
     -------
     CaseResult
         Totals as pint quantities, the series as a DataFrame, and warnings.
+
+    References
+    ----------
+    Dormand JR, Prince PJ. J Comput Appl Math 1980;6:19-26 (the integrator); the model's sources are in
+    :mod:`estimator.physics`.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> round(float(simulate(s).totals["agent_liquid"].to("mL").magnitude), 2)
+    1.12
     """
     return simulate_setup(prepare(scenario, patient=patient, adjust=adjust), rtol=rtol)
 
@@ -100,6 +125,28 @@ def simulate_setup(case: CaseSetup, *, rtol: float = RTOL) -> CaseResult:
     """Run a prepared case (:func:`estimator.simulation.case_setup.prepare`) through the circle-system model.
 
     The body of :func:`simulate`, for callers that hold the set-up already (the flow floor).
+
+    Parameters
+    ----------
+    case : CaseSetup
+    rtol : float [-]
+
+    Returns
+    -------
+    CaseResult
+
+    References
+    ----------
+    Dormand JR, Prince PJ. J Comput Appl Math 1980;6:19-26 (the integrator); the model's sources are in
+    :mod:`estimator.physics`.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "sevoflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "2 %"}]})
+    >>> bool(simulate_setup(prepare(s)).totals["agent_liquid"] == simulate(s).totals["agent_liquid"])
+    True
     """
     scenario = case.scenario
     y, h = case.initial, 0.0
@@ -133,7 +180,7 @@ def reference_solve(
     scenario : Scenario
     method : str
         A ``solve_ivp`` method (default ``"DOP853"``, Hairer's 8th-order Dormand-Prince).
-    rtol, atol : float
+    rtol, atol : float [-], [fraction or mmol, as the state]
         Tolerances; ``atol`` is scaled by ``max(1, |y0|)`` per state entry.
     model : module, optional
         Provides ``rhs(y, p, w, dy)`` (default :mod:`estimator.physics.circuit`).

@@ -45,7 +45,28 @@ HOLD_TAU_CIRCUIT = 0.5
 
 
 def mac_at_age(species: Species, age_years: float) -> float:
-    """MAC as a volume fraction at 1 atm, age-corrected (Mapleson 1996; estimator.physics.mac)."""
+    """MAC as a volume fraction at 1 atm, age-corrected (Mapleson 1996; estimator.physics.mac).
+
+    Parameters
+    ----------
+    species : Species
+        An agent or gas of ``agents.toml`` with a MAC at 40 years.
+    age_years : float [year]
+
+    Returns
+    -------
+    float [-]
+
+    References
+    ----------
+    Mapleson WW. Br J Anaesth 1996;76:179-85 (Table 2, MAC at 40 years; age factor).
+
+    Examples
+    --------
+    >>> from estimator.properties import agent
+    >>> round(mac_at_age(agent("sevoflurane"), 40.0), 4)
+    0.018
+    """
     from ..physics.mac import mapleson_factor
 
     if species.mac40 is None:
@@ -54,7 +75,25 @@ def mac_at_age(species: Species, age_years: float) -> float:
 
 
 def vaporizer_type(scenario: Scenario) -> str:
-    """Variable-bypass unless given, or desflurane (heated pressurised)."""
+    """Variable-bypass unless given, or desflurane (heated pressurised).
+
+    Parameters
+    ----------
+    scenario : Scenario
+
+    Returns
+    -------
+    str
+        ``"variable_bypass"`` or ``"heated_pressurised"``.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "desflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "6 %"}]})
+    >>> vaporizer_type(s)
+    'heated_pressurised'
+    """
     if scenario.agent.vaporizer_type:
         return scenario.agent.vaporizer_type
     return "heated_pressurised" if scenario.agent.name == "desflurane" else "variable_bypass"
@@ -65,6 +104,25 @@ def delivered_fraction(dial: float, kind: str, ambient_kpa: float) -> float:
 
     A variable-bypass vaporizer delivers a partial pressure (dial x 101.325 kPa), a heated
     pressurised one a volume fraction.
+
+    Parameters
+    ----------
+    dial : float [-]
+    kind : {"variable_bypass", "heated_pressurised"}
+    ambient_kpa : float [kPa]
+
+    Returns
+    -------
+    float [-]
+
+    References
+    ----------
+    Dalton's law of partial pressures (see :func:`estimator.physics.vaporizer.delivered_fraction`).
+
+    Examples
+    --------
+    >>> round(delivered_fraction(0.02, "variable_bypass", 50.6625), 6)
+    0.04
     """
     from ..physics.vaporizer import delivered_fraction as at_site
 
@@ -72,7 +130,36 @@ def delivered_fraction(dial: float, kind: str, ambient_kpa: float) -> float:
 
 
 def base_parameters(scenario: Scenario, patient: Patient, site: SiteState) -> np.ndarray:
-    """Parameters shared by all phases (patient, circuit, agent solubilities)."""
+    """Parameters shared by all phases (patient, circuit, agent solubilities).
+
+    Parameters
+    ----------
+    scenario : Scenario
+    patient : Patient
+    site : SiteState
+
+    Returns
+    -------
+    numpy.ndarray, float64[NP]
+        In the layout and internal units of :mod:`estimator.physics.circuit` (mmol, L, min).
+
+    References
+    ----------
+    Values of ``data/agents.toml``: blood/gas (Katoh T et al. Br J Anaesth 1992;69:259; Eger EI. Anesth
+    Analg 1992;75:S3), tissue/blood (Yasuda N et al. Anesth Analg 1989;69:370; Eger EI II 1974, from
+    memory), MAC at 40 years (Mapleson WW. Br J Anaesth 1996;76:179, Table 2); R of CODATA 2018.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "desflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "6 %"}]})
+    >>> from estimator.simulation.case_setup import patient_from_scenario
+    >>> from estimator.simulation.case_site import site_state
+    >>> base = base_parameters(s, patient_from_scenario(s), site_state(s))
+    >>> round(float(base[c.P_Q]), 2)
+    4.84
+    """
     p = np.zeros(c.NP)
     pamb = site.ambient_pressure_kpa
     t_amb = site.temperature_k
@@ -131,8 +218,34 @@ def phase_parameters(
 ) -> np.ndarray:
     """Copy of ``base`` with the phase's fresh-gas flows and vaporizer or hold settings.
 
-    ``flows`` are the phase's true (O2, air, N2O) flows [ambient L/min] if already known
-    (:func:`estimator.simulation.case_site.true_flows` otherwise).
+    Parameters
+    ----------
+    base : numpy.ndarray, float64[NP]
+        From :func:`base_parameters` [internal units].
+    scenario : Scenario
+    phase : PhaseInput
+    site : SiteState
+    flows : tuple of float, optional [L/min]
+        The phase's true (O2, air, N2O) flows at ambient conditions if already known
+        (:func:`estimator.simulation.case_site.true_flows` otherwise).
+
+    Returns
+    -------
+    numpy.ndarray, float64[NP]
+
+    References
+    ----------
+    Vaporizer output as :func:`delivered_fraction`; dry-air fractions of the CRC Handbook.
+
+    Examples
+    --------
+    >>> from estimator.inputs.scenario import scenario_from_dict
+    >>> s = scenario_from_dict({"patient": {"weight": "70 kg"}, "agent": {"name": "desflurane"},
+    ...     "phases": [{"duration": "10 min", "oxygen": "1 L/min", "vaporizer": "6 %"}]})
+    >>> from estimator.simulation.case_site import site_state
+    >>> p = phase_parameters(np.zeros(c.NP), s, s.phases[0], site_state(s))
+    >>> round(float(p[c.P_UFIXED]), 4), round(float(p[c.P_CARRIER + c.O2]), 2)
+    (0.06, 41.57)
     """
     p = base.copy()
     amb = site.mmol_per_litre

@@ -37,6 +37,17 @@ def judged_samples(times: np.ndarray) -> np.ndarray:
     """Which samples inspired O2 is judged at: from ``SETTLE`` on, or the last sample of a case
     shorter than that.
 
+    Parameters
+    ----------
+    times : numpy.ndarray [min]
+        Case times of the samples.
+
+    Returns
+    -------
+    numpy.ndarray of bool
+
+    Examples
+    --------
     >>> judged_samples(np.array([0.0, 0.5, 1.0, 2.0])).tolist(), judged_samples(np.array([0.0, 0.5])).tolist()
     ([False, False, True, True], [False, True])
     """

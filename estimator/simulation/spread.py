@@ -94,13 +94,42 @@ def _data() -> dict[str, Any]:
 
 
 def sources() -> dict[str, str]:
-    """Source keys of the spread data file and their full citations."""
+    """Source keys of the spread data file and their full citations.
+
+    Returns
+    -------
+    dict of str -> str
+
+    Examples
+    --------
+    >>> sources()["esper2015"].split(".")[0]
+    'Esper T, Wehner M, Meinecke CD, Rueffert H'
+    """
     return dict(_data()["sources"])
 
 
 def distributions(agent: str) -> dict[str, Spread]:
     """The distributions used for a patient receiving ``agent``, in :data:`FACTORS` order.
 
+    Parameters
+    ----------
+    agent : str
+        An agent with a blood/gas spread in ``spread.toml``.
+
+    Returns
+    -------
+    dict of str -> Spread
+        Each factor's coefficient of variation [-] with its source.
+
+    References
+    ----------
+    ``data/spread.toml``: Esper T et al. Anesth Analg 2015;120:45-50 and Katoh T et al. Br J Anaesth
+    1992;69:259 (blood/gas); Carlsson M et al. J Cardiovasc Magn Reson 2012;14:51 (cardiac output);
+    Briesenick L et al. Anesth Analg 2023 (metabolic rate); Kelly TL et al. PLoS One 2009;4:e7038 (fat;
+    its SD from memory).
+
+    Examples
+    --------
     >>> d = distributions("desflurane")
     >>> d["blood_gas"].cv, d["blood_gas"].source
     (0.07, 'esper2015')
@@ -123,12 +152,28 @@ def draw_factors(agent: str, n: int, rng: np.random.Generator, scale: float = 1.
     agent : str
     n : int
     rng : numpy.random.Generator
-    scale : float
+    scale : float [-]
         Multiplies every sigma (0 = every patient typical, 1 = the published spreads).
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, 5) [-]
+        Factors in :data:`FACTORS` order.
 
     Notes
     -----
     Standard normal draws beyond the file's ``truncate`` (3 SD) are drawn again, a stated truncation.
+
+    References
+    ----------
+    Limpert E, Stahel WA, Abbt M. BioScience 2001;51:341-52 (sigma of the log = sqrt(ln(1 + CV^2)));
+    coefficients of variation as :func:`distributions`.
+
+    Examples
+    --------
+    >>> f = draw_factors("sevoflurane", 3, np.random.default_rng(0), scale=0.0)
+    >>> f.tolist() == np.ones((3, 5)).tolist()
+    True
     """
     if not SCALE_RANGE[0] <= scale <= SCALE_RANGE[1]:
         raise InputError("spread.scale", scale, f"{SCALE_RANGE[0]:g} to {SCALE_RANGE[1]:g}")
@@ -150,8 +195,21 @@ def apply_factors(p: np.ndarray, f: np.ndarray) -> np.ndarray:
     blood/gas and tissue/blood coefficients scale; every fat compartment grows or shrinks (with the
     diffusion clearance of the fat next to lean tissue, which is per litre of that fat) and the muscle
     group gives up or takes the same volume; fat blood flows keep their share of cardiac output.
-    Returns a new array.
 
+    Parameters
+    ----------
+    p : numpy.ndarray, shape (..., NP)
+        Parameter vectors [internal units of :mod:`estimator.physics.circuit`].
+    f : numpy.ndarray, shape (..., 5) [-]
+        Factors in :data:`FACTORS` order.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., NP)
+        A new array.
+
+    Examples
+    --------
     >>> from estimator.physics.circuit import NP, P_Q
     >>> p = np.ones(NP)
     >>> float(apply_factors(p, np.array([1.2, 1, 1, 1, 1]))[P_Q])
@@ -240,12 +298,19 @@ def simulate_spread(scenario, n: int, *, seed: int | None = None, scale: float =
         Patients, 1 to :data:`MAX_PATIENTS`.
     seed : int, optional
         Seed of the random generator; without one a fresh seed is drawn and reported.
-    scale : float
+    scale : float [-]
         Multiplies every spread (1 = as published, 0 = every patient typical).
 
     Returns
     -------
     SpreadResult
+
+    References
+    ----------
+    ``data/spread.toml``: Esper T et al. Anesth Analg 2015;120:45-50 and Katoh T et al. Br J Anaesth
+    1992;69:259 (blood/gas); Carlsson M et al. J Cardiovasc Magn Reson 2012;14:51 (cardiac output);
+    Briesenick L et al. Anesth Analg 2023 (metabolic rate); Kelly TL et al. PLoS One 2009;4:e7038 (fat;
+    its SD from memory).
 
     Examples
     --------
@@ -288,7 +353,32 @@ def simulate_spread(scenario, n: int, *, seed: int | None = None, scale: float =
 
 def forecast_adjuster(agent: str, n: int, rng: np.random.Generator):
     """An ``adjust`` callable for :func:`estimator.simulation.batch.run_batch`: ``n`` patients' factors drawn
-    now from ``rng``, applied to each chunk of parameter arrays (shape (m, phases, NP))."""
+    now from ``rng``, applied to each chunk of parameter arrays (shape (m, phases, NP)).
+
+    Parameters
+    ----------
+    agent : str
+    n : int
+        Patients (cases) of the batch.
+    rng : numpy.random.Generator
+
+    Returns
+    -------
+    callable
+        ``adjust(p, rows)``: parameter arrays of the cases ``rows`` with their patients' factors.
+
+    References
+    ----------
+    As :func:`draw_factors`.
+
+    Examples
+    --------
+    >>> from estimator.physics.circuit import NP, P_Q
+    >>> adjust = forecast_adjuster("sevoflurane", 4, np.random.default_rng(0))
+    >>> out = adjust(np.ones((2, 1, NP)), slice(0, 2))
+    >>> out.shape == (2, 1, NP), bool(out[0, 0, P_Q] != 1.0)
+    (True, True)
+    """
     factors = draw_factors(agent, n, rng)
 
     def adjust(p: np.ndarray, rows: slice) -> np.ndarray:
