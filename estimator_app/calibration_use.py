@@ -96,19 +96,29 @@ def panel(kind: str) -> tuple[str | None, bool]:
     label = state.KINDS[kind][2]
     named = contracts.named_calibration(state.document(kind))
     loaded = state.calibration() is not None
-    with st.expander("Department calibration (uptake factor)", expanded=bool(named) or loaded) as box:
-        _upload(box)
-        cal = state.calibration()
-        if cal is None:
-            st.caption("None loaded: the published model (uptake factor 1).")
-        else:
-            parsed = contracts.calibration_text(cal["text"])
-            st.caption(source_text(cal["name"], parsed))
-            st.dataframe(file_table(parsed), hide_index=True, width="stretch")
-            if st.button("Remove the calibration", key=f"calibration.remove.{kind}", icon=":material/delete:"):
-                state.clear_calibration()
-                st.session_state[_GENERATION] = int(st.session_state.get(_GENERATION, 0)) + 1
-                st.rerun()
+    cal = state.calibration()
+    # Drawn only while open (its file box and table are script the first page need not load); open from
+    # the start when a calibration is loaded or the document names one.
+    box = st.expander(
+        "Department calibration (uptake factor)",
+        expanded=bool(named) or loaded,
+        key=f"calibration.panel.{kind}",
+        on_change="rerun",
+    )
+    if box.open:
+        with box:
+            _upload(box)
+            cal = state.calibration()
+            if cal is None:
+                st.caption("None loaded: the published model (uptake factor 1).")
+            else:
+                parsed = contracts.calibration_text(cal["text"])
+                st.caption(source_text(cal["name"], parsed))
+                st.dataframe(file_table(parsed), hide_index=True, width="stretch")
+                if st.button("Remove the calibration", key=f"calibration.remove.{kind}", icon=":material/delete:"):
+                    state.clear_calibration()
+                    st.session_state[_GENERATION] = int(st.session_state.get(_GENERATION, 0)) + 1
+                    st.rerun()
     if named is not None and cal is None:
         st.warning(named_message(named, label), icon=":material/warning:")
         return None, False

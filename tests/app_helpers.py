@@ -45,6 +45,13 @@ def assert_clean(at: AppTest) -> None:
     assert not errors, errors
 
 
+def open_calibration_panel(at: AppTest) -> AppTest:
+    """Open a planning page's calibration panel (it draws its file box only while open) and run."""
+    for kind in ("scenario", "casemix"):
+        at.session_state[f"calibration.panel.{kind}"] = True
+    return at.run()
+
+
 def edit_table(at: AppTest, key: str, edits: dict) -> AppTest:
     """Send a data editor the edit a browser sends (AppTest has no data-editor API): the editor's
     JSON state of edited, added and deleted rows, with the other widgets as they stand."""

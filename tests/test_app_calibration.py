@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 import tomli_w
-from app_helpers import ROOT, assert_clean, capture_saves, metric, page
+from app_helpers import ROOT, assert_clean, capture_saves, metric, open_calibration_panel, page
 from calibration_helpers import calibration_text
 
 from estimator_app import demo
@@ -19,6 +19,7 @@ CAL = "calibration.file"
 
 
 def upload_calibration(at, text: str, name: str = "dept.toml"):
+    open_calibration_panel(at)
     at.file_uploader(key="calibration.upload.0").set_value((name, text.encode(), "application/toml")).run()
     return at
 
@@ -173,6 +174,9 @@ def test_supply_runs_the_planner_case_with_the_calibration_it_names():
 def test_every_planning_page_offers_the_calibration(module):
     at = page(module)
     assert_clean(at)
+    assert any(e.label == "Department calibration (uptake factor)" for e in at.expander)
+    assert not any(u.key == "calibration.upload.0" for u in at.get("file_uploader"))  # drawn only while open
+    open_calibration_panel(at)
     assert at.file_uploader(key="calibration.upload.0") is not None
     assert any("published model (uptake factor 1)" in c.value for c in at.caption)
 

@@ -24,7 +24,7 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:  # app.py runs from the repository root; estimator_app is not installed
     sys.path.insert(0, str(ROOT))
 
-from app_helpers import capture_saves  # noqa: E402
+from app_helpers import capture_saves, open_calibration_panel  # noqa: E402
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
 from estimator.cli import main  # noqa: E402
@@ -99,6 +99,7 @@ def assert_case_totals(at: AppTest, cli: dict) -> None:
 
 def load_calibration_upload(at: AppTest, path: Path) -> AppTest:
     """The page's calibration upload given a calibration file's bytes (as a browser sends them)."""
+    open_calibration_panel(at)
     at.file_uploader(key="calibration.upload.0").set_value((path.name, path.read_bytes(), "application/toml"))
     return at.run()
 
