@@ -97,15 +97,15 @@ def panel(kind: str) -> tuple[str | None, bool]:
     named = contracts.named_calibration(state.document(kind))
     loaded = state.calibration() is not None
     cal = state.calibration()
-    # Drawn only while open (its file box and table are script the first page need not load); open from
-    # the start when a calibration is loaded or the document names one.
-    box = st.expander(
+    # The file box and table are drawn only when asked for (script the first page need not load), or
+    # when a calibration is loaded or the document names one.
+    asked = st.toggle(
         "Department calibration (uptake factor)",
-        expanded=bool(named) or loaded,
         key=f"calibration.panel.{kind}",
-        on_change="rerun",
+        help="Load a calibration file written by lowflow audit --calibrate --calibration-out (or the audit page).",
     )
-    if box.open:
+    if asked or loaded or named is not None:
+        box = st.container(border=True)
         with box:
             _upload(box)
             cal = state.calibration()

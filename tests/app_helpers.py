@@ -46,9 +46,10 @@ def assert_clean(at: AppTest) -> None:
 
 
 def open_calibration_panel(at: AppTest) -> AppTest:
-    """Open a planning page's calibration panel (it draws its file box only while open) and run."""
-    for kind in ("scenario", "casemix"):
-        at.session_state[f"calibration.panel.{kind}"] = True
+    """Switch on a planning page's calibration panel (it draws its file box only when asked for) and run."""
+    for toggle in at.toggle:
+        if toggle.key is not None and toggle.key.startswith("calibration.panel."):
+            toggle.set_value(True)
     return at.run()
 
 

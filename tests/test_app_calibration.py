@@ -174,7 +174,7 @@ def test_supply_runs_the_planner_case_with_the_calibration_it_names():
 def test_every_planning_page_offers_the_calibration(module):
     at = page(module)
     assert_clean(at)
-    assert any(e.label == "Department calibration (uptake factor)" for e in at.expander)
+    assert any(t.label == "Department calibration (uptake factor)" for t in at.toggle)
     assert not any(u.key == "calibration.upload.0" for u in at.get("file_uploader"))  # drawn only while open
     open_calibration_panel(at)
     assert at.file_uploader(key="calibration.upload.0") is not None
