@@ -95,7 +95,6 @@ def panel(kind: str) -> tuple[str | None, bool]:
     may run: not while its document names a calibration file that is not loaded)."""
     label = state.KINDS[kind][2]
     named = contracts.named_calibration(state.document(kind))
-    loaded = state.calibration() is not None
     cal = state.calibration()
     # The file box and table are drawn only when asked for (script the first page need not load), or
     # when a calibration is loaded or the document names one.
@@ -104,7 +103,7 @@ def panel(kind: str) -> tuple[str | None, bool]:
         key=f"calibration.panel.{kind}",
         help="Load a calibration file written by lowflow audit --calibrate --calibration-out (or the audit page).",
     )
-    if asked or loaded or named is not None:
+    if asked or cal is not None or named is not None:
         box = st.container(border=True)
         with box:
             _upload(box)
