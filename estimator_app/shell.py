@@ -83,6 +83,7 @@ def main() -> None:
     after()  # the save button holds the scenario as the page left it: what is on screen
     stamp(started)
     warmup.start()  # after the first page is drawn, so it does not compete with it
+    warmup.settle()  # once, after a page drawn with the engine loaded
 
 
 def page_main(module: str) -> None:
