@@ -53,6 +53,12 @@ def open_calibration_panel(at: AppTest) -> AppTest:
     return at.run()
 
 
+def show_view(at: AppTest, label: str, key: str = "case.view") -> AppTest:
+    """Choose the tab ``label`` of a page's views (only the chosen view is drawn) and run the page."""
+    at.session_state[key] = label
+    return at.run()
+
+
 def edit_table(at: AppTest, key: str, edits: dict) -> AppTest:
     """Send a data editor the edit a browser sends (AppTest has no data-editor API): the editor's
     JSON state of edited, added and deleted rows, with the other widgets as they stand."""

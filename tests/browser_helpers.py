@@ -95,6 +95,16 @@ def number(text: str) -> float:
     return float(re.sub(r"[,\u202f\u00a0]", "", found.group(0)))
 
 
+def choose_tab(page: Any, label: str) -> None:
+    """Choose the tab ``label`` of a page's views (drawn when chosen: a rerun) and wait for the run."""
+    from playwright.sync_api import expect
+
+    tab = page.get_by_role("tab", name=label)
+    tab.click()
+    expect(tab).to_have_attribute("aria-selected", "true", timeout=TIMEOUT_MS)
+    wait_for_run(page)
+
+
 def after(page: Any, heading: str, testid: str = "stDataFrame") -> Any:
     """The first element with ``testid`` after the heading ``heading`` (a table or chart under a subheader)."""
     head = page.get_by_role("heading", name=heading).first

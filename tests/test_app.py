@@ -18,7 +18,7 @@ if str(Path(__file__).resolve().parents[1]) not in sys.path:  # app.py runs from
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 import tomli_w  # noqa: E402
-from app_helpers import ROOT, TIMEOUT, assert_clean, metric, number, page  # noqa: E402
+from app_helpers import ROOT, TIMEOUT, assert_clean, metric, number, page, show_view  # noqa: E402
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
 from estimator.cli import CAUTION  # noqa: E402
@@ -51,8 +51,13 @@ def test_case_planner_shows_engine_totals_and_downloads(planner):
     # maintenance, then washes out for 8 min with the dial at 0: MAC-hours above (78 - 8)/60 = 1.17 (the
     # wash-in takes minutes) and below 86/60 = 1.43 (end-tidal never exceeds the 1 MAC hold).
     assert 70 / 60 < number(metric(planner, "MAC-hours")) < 86 / 60
+    assert [t.label for t in planner.tabs] == ["Time course", "Phases and dial", "All totals", "Downloads"]
+    assert {b.label for b in planner.get("download_button")} == {"Save scenario (TOML)"}  # the views are drawn lazily
+    show_view(planner, "Downloads")
+    assert_clean(planner)
     labels = {b.label for b in planner.get("download_button")}
     assert {"Download CSV", "Download XLSX", "Download JSON", "Save scenario (TOML)"} <= labels
+    show_view(planner, "Time course")
     phases = [t.value for t in planner.text_input if t.key.startswith("case.phases")]
     assert phases == ["wash-in", "maintenance", "emergence"]
 
@@ -350,6 +355,8 @@ def test_every_page_offers_csv_xlsx_html_and_json(name):
     # Issue contract: results download as CSV, XLSX, JSON and an HTML report on every page (the
     # audit page has its own four, tested above).
     at = page(name)
+    if name == "case_planner":  # its downloads are one of its views, drawn when chosen
+        show_view(at, "Downloads")
     assert_clean(at)
     labels = {b.label for b in at.get("download_button")}
     assert {"Download CSV", "Download XLSX", "Report (HTML)", "Download JSON"} <= labels, labels

@@ -18,6 +18,7 @@ from browser_helpers import (
     assert_tables_read_well,
     chart_texts,
     choose,
+    choose_tab,
     cli_json,
     expect_metric,
     grid_rows,
@@ -54,10 +55,13 @@ def test_case_planner_dial_table_and_printable_plan(app_url, page):
     from playwright.sync_api import expect
 
     open_page(page, app_url, "Case planner", ready="Liquid agent")
+    choose_tab(page, "Phases and dial")
     dial = grid_rows(after(page, "Vaporizer dial of the end-tidal holds"))
     assert dial, "no dial schedule rows"
     assert {r["phase"] for r in dial} == {"1", "2"}, dial  # the two end-tidal holds: wash-in, maintenance
     assert all(r["dial [%]"] for r in dial), dial
+    assert_tables_read_well(page)
+    choose_tab(page, "Downloads")
     button = page.get_by_role("button", name="Case plan (printable HTML)")
     expect(button).to_be_visible()
     with page.expect_download() as got:
@@ -65,7 +69,6 @@ def test_case_planner_dial_table_and_printable_plan(app_url, page):
     html = got.value.path().read_text(encoding="utf-8")
     assert got.value.suggested_filename == "case_plan.html"
     assert "<html" in html.lower() and "maintenance" in html
-    assert_tables_read_well(page)
     cli = cli_json("case", CASE)
     expect_metric(page, "Liquid agent", f"{mag(cli['totals']['agent_liquid']):.1f} mL")
 

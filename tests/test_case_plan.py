@@ -45,11 +45,11 @@ def test_cli_report_writes_the_plan(tmp_path):
 
 def test_app_offers_the_plan():
     pytest.importorskip("streamlit")
-    from app_helpers import page
+    from app_helpers import page, show_view
 
     from estimator_app import demo
 
-    at = page("case_planner", demo.scenario())
+    at = show_view(page("case_planner", demo.scenario()), "Downloads")
     labels = [b.label for b in at.get("download_button")]
     assert "Case plan (printable HTML)" in labels
     # The PDF beside it when fpdf2 (the pdf extra) is installed, as in the checkout.

@@ -179,8 +179,18 @@ def outputs(result: Any, calibration: str | None = None) -> None:
 
     st.subheader("Warnings")
     show_warnings(result.warnings, empty="No model warnings for this case.")
+    # Only the chosen view is drawn (a rerun when another is chosen): every element is one more
+    # message the browser applies on each rerun, and these follow the totals (benchmarks/bench_app.py).
+    tabs = st.tabs(list(VIEWS), key="case.view", on_change="rerun")
+    for tab, draw in zip(tabs, VIEWS.values(), strict=True):
+        if tab.open:
+            with tab:
+                draw(result, band, applied)
 
-    st.subheader("Time course")
+
+def time_course_view(result: Any, band: Any, applied: dict[str, Any]) -> None:
+    """The time-course charts (with the patient-spread band when one is drawn)."""
+    fu = unit("flow")
     s = result.series.copy()
     s["fresh_gas_flow [display]"] = s["fresh_gas_flow [L/min]"] * flow_factor()
     c1, c2 = st.columns(2)
@@ -210,8 +220,10 @@ def outputs(result: Any, calibration: str | None = None) -> None:
     if band is not None:
         spread_view.cumulative_chart(s, band)
 
-    st.subheader("Phases")
-    phases = pd.DataFrame(
+
+def phases_frame(result: Any) -> pd.DataFrame:
+    """One row a phase: its label, start and end [min], agent control and when its target was reached."""
+    return pd.DataFrame(
         [
             {
                 "phase": p["index"] + 1,
@@ -226,17 +238,25 @@ def outputs(result: Any, calibration: str | None = None) -> None:
             for p in result.phases
         ]
     )
-    st.dataframe(readable(phases), hide_index=True, width="stretch")
-    totals = totals_frame(result)
-    with st.expander("All totals"):
-        st.dataframe(readable(totals), hide_index=True, width="stretch")
+
+
+def phases_view(result: Any, band: Any, applied: dict[str, Any]) -> None:
+    """The phases as run, and the dial of each end-tidal hold every 10 min."""
+    st.dataframe(readable(phases_frame(result)), hide_index=True, width="stretch")
     schedule = dial_schedule(result.series, result.phases)
     if schedule:
         st.subheader("Vaporizer dial of the end-tidal holds")
         st.caption(" ".join(dial_text(schedule)))
         st.dataframe(readable(dial_table(schedule)), hide_index=True, width="stretch")
 
-    st.subheader("Download the results")
+
+def totals_view(result: Any, band: Any, applied: dict[str, Any]) -> None:
+    """Every total of ``lowflow case``, flows in the display unit."""
+    st.dataframe(readable(totals_frame(result)), hide_index=True, width="stretch")
+
+
+def downloads_view(result: Any, band: Any, applied: dict[str, Any]) -> None:
+    """The printable plan (HTML, and PDF with the pdf extra) and the results as CSV, XLSX, HTML, JSON."""
     plans = [
         ("Case plan (printable HTML)", lambda: case_plan(result), "case_plan.html", "text/html", ":material/print:")
     ]
@@ -253,7 +273,7 @@ def outputs(result: Any, calibration: str | None = None) -> None:
     download_row(plans, "case.plan")
     downloads(
         "case_result",
-        {"series": result.series, "totals": totals, "phases": phases},
+        {"series": result.series, "totals": totals_frame(result), "phases": phases_frame(result)},
         lambda: {**result.to_json(), **({"calibration": next(iter(applied.values()))} if applied else {})},
         "case",
         title=f"Case plan: {result.scenario.title or result.scenario.agent.name}",
@@ -263,6 +283,15 @@ def outputs(result: Any, calibration: str | None = None) -> None:
         ],
         warnings=result.warnings,
     )
+
+
+#: The views below the warnings, one a tab; the first is shown when the page opens.
+VIEWS = {
+    "Time course": time_course_view,
+    "Phases and dial": phases_view,
+    "All totals": totals_view,
+    "Downloads": downloads_view,
+}
 
 
 def render() -> None:
