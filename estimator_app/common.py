@@ -135,18 +135,6 @@ def flag(warnings: Any, codes: tuple[str, ...]) -> tuple[str, str, str] | None:
 METRIC_NOTE_CHARS = 36
 
 
-def metric_row(count: int) -> list[Any]:
-    """``count`` places for metrics side by side, equal widths, filled in order (one row of the page).
-
-    One horizontal container rather than ``st.columns``: each block is one more message the browser
-    applies on every rerun (a block of five columns is six), and the browser handles the page's
-    messages one after another, so fewer elements ahead of the totals show them sooner
-    (benchmarks/bench_app.py). Metrics must be added in the order of the places.
-    """
-    row = st.container(horizontal=True, gap="medium")
-    return [row] * count
-
-
 def metric(box: Any, label: str, value: str, flagged: tuple[str, str, str] | None = None, **kwargs: Any) -> None:
     """A metric flagged by severity: a safety flag in red with a falling arrow, a warning in amber, each
     with its plain meaning (the full text and the code in the tooltip).
@@ -280,7 +268,9 @@ def download_row(buttons: list[tuple[str, Any, str, str, str | None]], key: str)
     Callables run only when their button is pressed (deferred data), so reruns stay fast; the key of
     each button is ``key`` and the file's extension.
     """
-    row = st.container(horizontal=True)  # one element, not a block of columns (see :func:`metric_row`)
+    # One horizontal container, not a block of columns: each block is one more message the browser
+    # applies on every rerun (a block of four columns is five).
+    row = st.container(horizontal=True)
     for label, data, name, mime, icon in buttons:
         row.download_button(
             label,

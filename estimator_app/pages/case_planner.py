@@ -18,7 +18,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import box_rows, calibration_use, spread_view, state
 from ..charts import show, time_course
-from ..common import download_row, downloads, flag, flow_factor, metric, metric_row, show_warnings, unit
+from ..common import download_row, downloads, flag, flow_factor, metric, show_warnings, unit
 from ..editing import Field, contract, kept_view, number
 
 
@@ -147,7 +147,7 @@ def outputs(result: Any, calibration: str | None = None) -> None:
     cost = result.cost  # the engine prices the case at the scenario's [prices], as for lowflow case
     currency = unit("currency") or (cost or {}).get("currency", "")
     st.subheader("Totals")
-    m = metric_row(5)
+    m = st.columns(5)
     m[0].metric(
         "Liquid agent",
         f"{t['agent_liquid'].to('mL').magnitude:.1f} mL",
@@ -159,7 +159,7 @@ def outputs(result: Any, calibration: str | None = None) -> None:
     m[4].metric(
         "Mean fresh-gas flow", f"{t['mean_fresh_gas_flow'].to(fu).magnitude:.{2 if fu == 'L/min' else 0}f} {fu}"
     )
-    m = metric_row(5)
+    m = st.columns(5)
     m[0].metric("MAC-hours", f"{t['mac_hours'].to('MAC_hour').magnitude:.2f}")
     m[1].metric("CO2e", f"{t['co2e'].to('kg').magnitude:.2f} kg", help="IPCC AR6 GWP100, agent and N2O released")
     m[2].metric(

@@ -20,7 +20,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import calibration_use, contracts, state
 from ..charts import histogram, show
-from ..common import downloads, metric_row, show_warnings, unit
+from ..common import downloads, show_warnings, unit
 from ..editing import Field, kept_view, number, table
 
 KIND = "casemix"
@@ -202,7 +202,7 @@ def horizon(result: Any, currency: str) -> dict[str, pd.DataFrame]:
         return {}
     st.subheader(f"Planning horizon: {h['weeks']} weeks")
     st.caption(f"Totals over the horizon: {h['method']}.")
-    m = metric_row(3)
+    m = st.columns(3)
     cases = h["items"]["cases"]
     m[0].metric(f"Cases in {h['weeks']} weeks (mean)", shown(cases["mean"].magnitude))
     m[1].metric(
@@ -225,7 +225,7 @@ def outputs(result: Any, calibration: str | None = None) -> None:
     planned = horizon(result, currency)
     items = stats_table(result.items, result.units)
     st.subheader(f"A week: statistics over {result.weeks} simulated weeks")
-    m = metric_row(4)
+    m = st.columns(4)
     cases = result.items["cases"]
     m[0].metric("Cases a week (mean)", shown(cases["mean"].magnitude))
     p95 = float(cases["p95"].magnitude)

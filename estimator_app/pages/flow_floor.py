@@ -17,7 +17,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 
 from .. import calibration_use, contracts, state
 from ..charts import PALETTE, show
-from ..common import downloads, flow_factor, metric_row, placeholder, show_error, show_warnings, unit
+from ..common import downloads, flow_factor, placeholder, show_error, show_warnings, unit
 from ..editing import Field, contract, number
 
 
@@ -245,7 +245,7 @@ def render() -> None:
     calibration_use.show_applied(used, result.warnings)
     st.success(f"Recommended schedule: {result.schedule_text}", icon=":material/trending_down:")
     cmp_ = result.comparison
-    m = metric_row(4)
+    m = st.columns(4)
     fu, f = unit("flow"), flow_factor()
     mean_rec = cmp_["recommended"]["mean_fresh_gas_flow"].to("L/min").magnitude * f
     mean_plan = cmp_["plan"]["mean_fresh_gas_flow"].to("L/min").magnitude * f

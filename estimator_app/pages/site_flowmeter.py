@@ -14,7 +14,7 @@ from estimator.units import GAS_VOLUME_REFERENCE, Q_
 
 from .. import state
 from ..charts import show, time_course
-from ..common import downloads, flow_factor, metric_row, show_error, show_warnings, unit
+from ..common import downloads, flow_factor, show_error, show_warnings, unit
 from ..editing import contract
 
 GAS_CHOICES = ("oxygen", "air", "nitrous_oxide", "concentrator")
@@ -43,7 +43,7 @@ def site_inputs() -> Any:
     t = contract(SiteInput, "temperature", "Room temperature", "degC")
     temp = c3.number_input(t.title, t.low, t.high, t.default, 1.0, key="site.temperature", help=t.help)
     site = site_from_inputs(temperature=f"{temp:g} degC", **kwargs)
-    m = metric_row(3)
+    m = st.columns(3)
     m[0].metric("Ambient pressure", f"{site.ambient_pressure.to(pu).magnitude:.3g} {pu}", help=site.basis)
     m[1].metric("Pressure altitude", f"{site.pressure_altitude.to('m').magnitude:,.0f} m")
     from estimator.physics.site import inspired_oxygen_partial_pressure
@@ -71,7 +71,7 @@ def flowmeter_section(site: Any) -> dict[str, Any]:
     if use == "concentrator":
         purity = f"{c4.number_input('Concentrator O2 [%]', 80.0, 95.7, 93.0, 0.5, key='fm.purity'):g} %"
     r = true_flow(Q_(reading / ff, "L/min"), cal, use, site, purity=purity)
-    m = [*metric_row(2), *metric_row(2)]  # two rows of two: no metric cut off at 1440 px
+    m = [*st.columns(2), *st.columns(2)]  # two rows of two: no metric cut off at 1440 px
     m[0].metric(
         "True flow at the site",
         f"{r.true_flow_ambient.to('L/min').magnitude * ff:.3g} {fu}",
@@ -142,7 +142,7 @@ def vaporizer_section(site: Any) -> dict[str, Any]:
     mac1 = mac_at_age(agent, age)
     f = float(delivered_fraction(dial / 100, kind, site.ambient_pressure))
     need = dial_for_target(target, mac1.mac, kind, site.ambient_pressure, agent)
-    m = metric_row(4)
+    m = st.columns(4)
     m[0].metric("Delivered at the site", f"{100 * f:.2f} %", help="Volume fraction in the vaporizer output")
     m[1].metric("Agent partial pressure", f"{f * site.ambient_pressure.to('kPa').magnitude:.2f} kPa")
     m[2].metric(
