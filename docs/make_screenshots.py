@@ -24,7 +24,7 @@ from browser_helpers import TIMEOUT_MS, open_page  # noqa: E402
 #: (url path, file, heading, a text shown once the results are, charts to wait for, viewport height,
 #: a selector of what to scroll to the top of the view, or None)
 PAGES = (
-    ("", "case_planner.png", "Case planner", "Liquid agent", 5, 1560, None),
+    ("", "case_planner.png", "Case planner", "Liquid agent", 5, 2200, None),
     ("flow-floor", "flow_floor.png", "Flow floor", "Recommended schedule", 1, 1500, None),
     ("compare-plans", "compare.png", "Compare plans", "Agents:", 0, 900, None),
     (
