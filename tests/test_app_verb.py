@@ -62,3 +62,34 @@ def test_warm_up_runs_the_demo_case_and_starts_once():
     import gc
 
     assert gc.get_freeze_count() > 0
+
+
+def test_settle_collects_and_freezes_once_after_the_engine_is_loaded(monkeypatch):
+    # After a page drawn with the engine loaded, one collection then a freeze, a second later and once
+    # per process (estimator_app/warmup.py: a full collection had run on nearly every rerun).
+    from estimator_app import warmup
+
+    calls: list[str] = []
+    timers: list[tuple[float, object]] = []
+
+    class Timer:  # records what would run, runs it when the test says
+        def __init__(self, delay: float, function) -> None:  # noqa: ANN001 - threading.Timer's signature
+            timers.append((delay, function))
+            self.daemon = False
+
+        def start(self) -> None:
+            pass
+
+    monkeypatch.setattr(warmup, "_settled", False)
+    monkeypatch.setattr(warmup.threading, "Timer", Timer)
+    monkeypatch.setattr(warmup.gc, "collect", lambda: calls.append("collect"))
+    monkeypatch.setattr(warmup.gc, "freeze", lambda: calls.append("freeze"))
+    monkeypatch.setattr(warmup._ready, "is_set", lambda: False)
+    warmup.settle()  # the engine not loaded yet: nothing
+    assert timers == []
+    monkeypatch.setattr(warmup._ready, "is_set", lambda: True)
+    warmup.settle()
+    warmup.settle()  # once per process
+    assert [d for d, _ in timers] == [warmup.SETTLE_DELAY]
+    timers[0][1]()
+    assert calls == ["collect", "freeze"]
