@@ -3,8 +3,10 @@
 For each of ``--runs`` cold servers per start command (a fresh server process; numba's on-disk cache
 is warm, as after the first run on any machine; the libraries' bytecode compiled at install, as
 ``[tool.uv] compile-bytecode`` in pyproject.toml makes ``uv sync`` do) it opens the case planner in a
-fresh browser context of Debian's chromium (an empty HTTP cache; Playwright, never a downloaded
-browser) as soon as the server answers, as ``lowflow app`` opens its browser tab. Two start commands:
+fresh browser context of Debian's chromium (an empty HTTP cache: a first visit; Playwright, never a
+downloaded browser) as soon as the server answers, as ``lowflow app`` opens its browser tab;
+``--browser returning`` keeps one browser profile that has opened the app before (its HTTP cache and
+compiled-script cache warm, as for a user who comes back). Two start commands:
 ``lowflow app`` (the README's; the engine loads as the server starts, estimator_app/warmup.py) and
 ``streamlit run app.py`` (no hook before the first page).
 
@@ -36,6 +38,7 @@ import re
 import shutil
 import statistics
 import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -45,6 +48,8 @@ import app_server  # noqa: E402  the browser test's server start
 
 FIRST_RENDER_TARGET = 2.5  # s, page request to the totals
 RERUN_TARGET = 0.250  # s, key press to the new totals on screen
+#: The browser window (CSS pixels): the totals and the five charts in view.
+VIEWPORT = {"width": 1400, "height": 1800}
 #: The case planner's time-course charts (no patient spread).
 CHARTS = 5
 
@@ -100,11 +105,16 @@ MARKS = """
 
 def _one_run(browser, via: str, more: int = 4) -> dict[str, float]:
     """Seconds from the page request to the caution, the totals and the charts; from the start command
-    to the totals; the visible rerun and the server's rerun; the median of ``more`` pairs of later edits."""
+    to the totals; the visible rerun and the server's rerun; the median of ``more`` pairs of later edits.
+
+    ``browser`` is a browser (each run in a fresh context: an empty HTTP cache, a first visit) or one
+    persistent context (a returning browser: its HTTP cache and compiled-script cache kept between runs).
+    """
     started = time.monotonic()
     proc, url = app_server.start(via=via)
     try:
-        context = browser.new_context(viewport={"width": 1400, "height": 1800})  # an empty HTTP cache
+        returning = not hasattr(browser, "new_context")
+        context = browser if returning else browser.new_context(viewport=VIEWPORT)
         page = context.new_page()
         page.add_init_script(MARKS)
         requested = time.monotonic()
@@ -118,7 +128,7 @@ def _one_run(browser, via: str, more: int = 4) -> dict[str, float]:
         out["command"] = requested - started + out["totals"]
         out["first"] = _server_seconds(page)
         out.update(_rerun_seconds(page, more))
-        context.close()
+        (page if returning else context).close()
         return out
     finally:
         app_server.stop(proc)
@@ -211,6 +221,13 @@ def main() -> None:
     parser.add_argument(
         "--via", choices=("both", "lowflow", "streamlit"), default="both", help="start command(s) to measure"
     )
+    parser.add_argument(
+        "--browser",
+        choices=("fresh", "returning"),
+        default="fresh",
+        help="fresh: every run in a new browser context (a first visit, the default); returning: one browser "
+        "profile kept between runs, which has opened the app before (its script caches warm)",
+    )
     args = parser.parse_args()
     if args.quick:
         args.runs = 1
@@ -221,19 +238,25 @@ def main() -> None:
 
     vias = ("lowflow", "streamlit") if args.via == "both" else (args.via,)
     print(f"before: {_load()}")
-    with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=chromium, args=app_server.FLAGS, headless=True)
-        if not args.quick:
+    with sync_playwright() as p, tempfile.TemporaryDirectory() as profile:
+        if args.browser == "returning":
+            browser = p.chromium.launch_persistent_context(
+                profile, executable_path=chromium, args=app_server.FLAGS, headless=True, viewport=VIEWPORT
+            )
+        else:
+            browser = p.chromium.launch(executable_path=chromium, args=app_server.FLAGS, headless=True)
+        if not args.quick or args.browser == "returning":
             # One start first, not counted: it writes numba's on-disk cache if this machine never
-            # compiled the kernels (10-20 s once, not what a user meets again).
-            _one_run(browser, vias[0])
+            # compiled the kernels (10-20 s once, not what a user meets again), and a returning
+            # browser has then opened the app before.
+            _one_run(browser, vias[0], 1)
         more = 1 if args.quick else 4
         runs = {via: [_run_once_more_on_failure(browser, via, more) for _ in range(args.runs)] for via in vias}
         browser.close()
     print(f"after:  {_load()}")
     names = {"lowflow": "lowflow app", "streamlit": "streamlit run app.py"}
     for via, found in runs.items():
-        print(f"{names[via]}: {args.runs} cold server(s)")
+        print(f"{names[via]}: {args.runs} cold server(s), {args.browser} browser")
         for k, r in enumerate(found, 1):
             print(
                 f"  run {k}: caution {r['caution']:5.2f} s, totals {r['totals']:5.2f} s (from the command "

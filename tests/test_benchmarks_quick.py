@@ -36,17 +36,18 @@ def test_benchmark_quick_mode_runs(script):
 
 
 @pytest.mark.skipif(shutil.which("chromium") is None, reason="the app benchmark drives Debian's chromium")
-def test_app_benchmark_quick_mode_runs():
+@pytest.mark.parametrize("options", [(), ("--via", "lowflow", "--browser", "returning")])
+def test_app_benchmark_quick_mode_runs(options):
     pytest.importorskip("playwright")
     run = subprocess.run(
-        [sys.executable, str(BENCH / "bench_app.py"), "--quick"],
+        [sys.executable, str(BENCH / "bench_app.py"), "--quick", *options],
         capture_output=True,
         text=True,
         timeout=600,
         cwd=BENCH.parent,
     )
     assert run.returncode == 0, run.stderr[-2000:]
-    assert "rerun after one input" in run.stdout, run.stdout
+    assert "rerun after one input" in run.stdout and "where it goes" in run.stdout, run.stdout
 
 
 def test_bench_audit_quick_prints_its_figures():
