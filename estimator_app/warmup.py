@@ -53,11 +53,11 @@ def settle() -> None:
     """Once per process, after a page has been drawn with the engine loaded: collect, then freeze what
     is alive (the server's own objects and the first session's, made after the warm-up's freeze).
 
-    Without it, a full collection ran on nearly every rerun (the warm-up's freeze leaves the collector
-    so few long-lived objects that its 25 % rule for a full pass is met at once), each walking those
-    objects: 16-29 ms of every rerun of the case planner on a 2-core machine (measured with
-    ``gc.callbacks``; after this, none over 3 ms in the reruns measured). Costs one such pass, once,
-    a second after the page (in a timer thread, so not while the page's last messages are sent).
+    Streamlit runs a full collection after every script run (its ``runner.postScriptGC``, on by
+    default), while the run's last messages are still being sent; it walked those objects: 16-29 ms
+    of every rerun of the case planner on a 2-core machine (measured with ``gc.callbacks``; after
+    this, no collection over 3 ms in the reruns measured). Costs one such pass, once, a second after
+    the page (in a timer thread, so not while the page's last messages are sent).
     """
     global _settled
     if _settled or not _ready.is_set():

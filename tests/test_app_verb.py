@@ -66,7 +66,7 @@ def test_warm_up_runs_the_demo_case_and_starts_once():
 
 def test_settle_collects_and_freezes_once_after_the_engine_is_loaded(monkeypatch):
     # After a page drawn with the engine loaded, one collection then a freeze, a second later and once
-    # per process (estimator_app/warmup.py: a full collection had run on nearly every rerun).
+    # per process (estimator_app/warmup.py: Streamlit's collection after every run walked those objects).
     from estimator_app import warmup
 
     calls: list[str] = []
