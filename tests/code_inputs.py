@@ -80,7 +80,7 @@ def site(**kw):
 
 
 def pio2(fio2, threshold, kpa):
-    from estimator.physics.site import check_inspired_oxygen
+    from estimator.physics.inspired_oxygen import check_inspired_oxygen
 
     return lambda: warning_codes(check_inspired_oxygen(fio2, threshold, Q_(kpa, "kPa")))
 
@@ -122,7 +122,7 @@ def patient(weight):
 
 
 def carbon_supply(absorbent_g):
-    from estimator.accounts.carbon import case_carbon
+    from estimator.accounts.carbon_totals import case_carbon
 
     totals = {"agent_liquid": Q_(10, "mL"), "oxygen": Q_(100, "L"), "absorbent": Q_(absorbent_g, "g")}
     return lambda: warning_codes(case_carbon(totals, "sevoflurane", supply=True).warnings)

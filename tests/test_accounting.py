@@ -7,7 +7,8 @@ import pytest
 from engine_helpers import scenario
 
 from estimator.accounts.accounting import absorbent_capacity
-from estimator.accounts.carbon import case_carbon, released_co2e, totals_co2e
+from estimator.accounts.carbon import released_co2e
+from estimator.accounts.carbon_totals import case_carbon, totals_co2e
 from estimator.inputs.audit_log import log_from_text
 from estimator.inputs.inventory_file import inventory_from_text
 from estimator.inputs.scenario import scenario_from_dict

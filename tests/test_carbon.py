@@ -7,7 +7,7 @@ import pytest
 import scipy.constants
 from validation import record
 
-from estimator.accounts import carbon
+from estimator.accounts import carbon, carbon_totals
 from estimator.errors import InputError
 from estimator.units import Q_
 
@@ -132,7 +132,7 @@ def test_ideal_gas_nitrous_oxide_within_one_percent_of_coolprop():
 def test_released_agent_is_delivered_less_metabolised_share():
     # Definition stated by the module; metabolised share of sevoflurane uptake 3 % (Shiraishi and
     # Ikeda 1990, agents.toml, from memory). 20 mL x 1.52 g/mL (Biro 2014) = 30.4 g delivered.
-    r = carbon.case_carbon({"agent_liquid": Q_(20, "mL")}, "sevoflurane", "ar6_gwp100")
+    r = carbon_totals.case_carbon({"agent_liquid": Q_(20, "mL")}, "sevoflurane", "ar6_gwp100")
     assert r.agent_delivered.to("g").magnitude == pytest.approx(30.4, rel=1e-9)
     assert r.agent_released.to("g").magnitude == pytest.approx(30.4 * 0.97, rel=1e-9)
     assert r.agent_co2e.to("kg").magnitude == pytest.approx(30.4 * 0.97 * 195 / 1000, rel=1e-9)
@@ -143,7 +143,7 @@ def test_uptake_given_limits_metabolism_to_share_of_uptake():
     # With uptake known, metabolised = 3 % of uptake (not of delivered): the release is larger.
     vm = carbon.molar_volume().to("L/mol").magnitude
     uptake_l = 2.0
-    r = carbon.case_carbon({"agent_liquid": Q_(20, "mL"), "agent_uptake": Q_(uptake_l, "L")}, "sevoflurane")
+    r = carbon_totals.case_carbon({"agent_liquid": Q_(20, "mL"), "agent_uptake": Q_(uptake_l, "L")}, "sevoflurane")
     uptake_g = uptake_l / vm * 200.05
     assert r.agent_metabolised.to("g").magnitude == pytest.approx(0.03 * uptake_g, rel=1e-9)
 
@@ -153,8 +153,8 @@ def test_nitrous_oxide_manifold_loss_thomas_2024():
     # share L, supply = used / (1 - L), all of it released.
     assert float(carbon.nitrous_oxide_released(100.0, 0.8)) == pytest.approx(500.0)
     low, high = (
-        carbon.factors()["nitrous_oxide_manifold_loss_low"],
-        carbon.factors()["nitrous_oxide_manifold_loss_high"],
+        carbon_totals.factors()["nitrous_oxide_manifold_loss_low"],
+        carbon_totals.factors()["nitrous_oxide_manifold_loss_high"],
     )
     assert (low.value, high.value) == (0.80, 0.98)
     with pytest.raises(InputError):
@@ -163,7 +163,7 @@ def test_nitrous_oxide_manifold_loss_thomas_2024():
 
 def test_nitrous_oxide_co2e_ar6():
     # 1000 L of N2O at 15 degC is 1000/23.645 mol x 44.013 g/mol = 1.8614 kg (ideal gas), x 273 (AR6).
-    r = carbon.case_carbon({"nitrous_oxide": Q_(1000, "L")}, None, "ar6_gwp100")
+    r = carbon_totals.case_carbon({"nitrous_oxide": Q_(1000, "L")}, None, "ar6_gwp100")
     expected = 1000 / (scipy.constants.R * 288.15 / 101325 * 1000) * 44.013 / 1000 * 273
     assert r.nitrous_oxide_co2e.to("kg").magnitude == pytest.approx(expected, rel=1e-4)
 
@@ -172,7 +172,7 @@ def test_nitrous_oxide_co2e_ar6():
 def test_oxygen_supply_carbon_tariq_2024():
     # Supply carbon of bulk O2 about 0.17 kg CO2e per m3 (derived from Tariq et al., J Clean Prod
     # 2024, volume and page not read; secondary): 2000 L -> 0.34 kg.
-    r = carbon.case_carbon({"oxygen": Q_(2000, "L"), "absorbent": Q_(100, "g")}, None, supply=True)
+    r = carbon_totals.case_carbon({"oxygen": Q_(2000, "L"), "absorbent": Q_(100, "g")}, None, supply=True)
     o2e = r.supply_co2e["oxygen"].to("kg").magnitude
     record(
         "supply CO2e of 2000 L oxygen",
@@ -188,7 +188,7 @@ def test_oxygen_supply_carbon_tariq_2024():
 
 
 def test_every_co2e_figure_carries_its_basis():
-    r = carbon.case_carbon(
+    r = carbon_totals.case_carbon(
         {"agent_liquid": Q_(5, "mL"), "nitrous_oxide": Q_(10, "L")}, "desflurane", "ar5_gwp100", supply=True
     )
     doc = r.to_json()

@@ -19,11 +19,6 @@ ROOT = Path(__file__).resolve().parents[1] / "estimator"
 FOLDERS = ("physics", "accounts", "numerics", "simulation")
 
 _KERNEL = "numba kernel of the hot loop: a doctest would compile it (seconds); the layout is in the module docstring"
-_SITE = "site.py is at the 400-line limit; its sources (ISO 2533, ICAO Doc 7488/3, West) are in the module References"
-_CARBON = (
-    "carbon.py is at the 400-line limit (the one CO2e rule and its result); the rule, units and sources are in "
-    "its module docstring, and gwp, co2e, metabolised_fraction and nitrous_oxide_released cite theirs"
-)
 _BOOKKEEPING = "bookkeeping, no published formula"
 _ARRAYS = "numba kernel at the 400-line limit of circuit.py; arguments are the state and parameter arrays"
 
@@ -55,34 +50,9 @@ ALLOWED: dict[str, dict[str, str]] = {
     "physics/real_gas.py:fluid_name": {"References": _BOOKKEEPING + " (a name lookup)"},
     "physics/real_gas.py:gas_key": {"References": _BOOKKEEPING + " (a name lookup)"},
     "physics/real_gas.py:props_si": {"Examples": "imports CoolProp (about 2 s); tests/test_real_gas_table.py calls it"},
-    "physics/site.py:ambient_pressure_at": {"References": _SITE},
-    "physics/site.py:check_inspired_oxygen": {"References": _SITE},
-    "physics/site.py:fraction_for_sea_level_threshold": {
-        "References": _SITE,
-        "Returns": "site.py is at the 400-line limit; the summary line says it returns an oxygen fraction [-]",
-        "Examples": "site.py is at the 400-line limit; check_inspired_oxygen's doctest runs it",
-    },
-    "physics/site.py:geopotential_height": {"References": _SITE},
-    "physics/site.py:pressure_altitude": {"References": _SITE},
-    "physics/site.py:sea_level_equivalent_fraction": {
-        "References": _SITE,
-        "Returns": "site.py is at the 400-line limit; the summary line says it returns an oxygen fraction [-]",
-        "Examples": "site.py is at the 400-line limit; check_inspired_oxygen's doctest runs it",
-    },
-    "physics/site.py:site_from_inputs": {"References": _SITE},
     "physics/supply_values.py:supply_data": {"References": "file reader; each value's source is in supply.toml"},
     "physics/vaporizer.py:vaporizer_kind": {"References": _BOOKKEEPING + " (a name lookup)"},
     "accounts/accounting.py:fresh_gas_litres": {"References": _BOOKKEEPING + " (flow x duration per phase)"},
-    "accounts/carbon.py:basis_label": {"Parameters": _CARBON, "Returns": _CARBON, "References": _CARBON},
-    "accounts/carbon.py:case_carbon": {"References": _CARBON},
-    "accounts/carbon.py:co2e": {"Parameters": _CARBON, "Returns": _CARBON},
-    "accounts/carbon.py:factors": {"Returns": _CARBON, "References": _CARBON},
-    "accounts/carbon.py:gwp": {"Parameters": _CARBON, "Returns": _CARBON},
-    "accounts/carbon.py:metabolised_fraction": {"Parameters": _CARBON, "Returns": _CARBON},
-    "accounts/carbon.py:nitrous_oxide_released": {"Parameters": _CARBON, "Returns": _CARBON},
-    "accounts/carbon.py:released_agent_mass": {"Parameters": _CARBON, "Returns": _CARBON, "References": _CARBON},
-    "accounts/carbon.py:released_co2e": {"Parameters": _CARBON, "References": _CARBON},
-    "accounts/carbon.py:totals_co2e": {"Parameters": _CARBON, "Returns": _CARBON, "References": _CARBON},
     "accounts/costs.py:compare_costs": {"References": _BOOKKEEPING + " (differences of costs)"},
     "accounts/costs.py:period_cost": {"References": _BOOKKEEPING + " (sums of case costs)"},
     "accounts/prices.py:load_prices": {"References": _BOOKKEEPING + " (the prices contract)"},

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from estimator.accounts.carbon import case_carbon
+from estimator.accounts.carbon_totals import case_carbon
 from estimator.accounts.costs import case_cost
 from estimator.errors import InputError
 from estimator.physics.cylinders import compressed_cylinder
@@ -59,7 +59,7 @@ agent_per_ml = 0.3
 def test_point_collapse_equals_single_cases_times_counts():
     # With every distribution a point and counts fixed, each week is exactly 4 x case A + 2 x case B
     # of the single-case engine (within the batch agreement), cost from estimator.accounts.costs and CO2e
-    # from estimator.accounts.carbon of those engine totals.
+    # from estimator.accounts.carbon_totals of those engine totals.
     mix = casemix_from_text(POINT)
     r = forecast(mix)
     refs = []

@@ -7,15 +7,13 @@ from hypothesis import strategies as st
 from validation import record
 
 from estimator.errors import InputError
-from estimator.physics.site import (
+from estimator.physics.inspired_oxygen import (
     check_inspired_oxygen,
     fraction_for_sea_level_threshold,
     inspired_oxygen_partial_pressure,
-    pressure_altitude,
     sea_level_equivalent_fraction,
-    site_from_inputs,
-    standard_atmosphere,
 )
+from estimator.physics.site import pressure_altitude, site_from_inputs, standard_atmosphere
 from estimator.units import Q_
 
 

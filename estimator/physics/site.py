@@ -1,4 +1,4 @@
-"""Site conditions: ambient pressure from elevation (standard atmosphere) and inspired oxygen.
+"""Site conditions: ambient pressure from elevation (ISO 2533 standard atmosphere) and room temperature.
 
 Ambient pressure follows the troposphere of the ISO 2533 / ICAO standard atmosphere,
 
@@ -18,11 +18,14 @@ used** and the elevation is a check: a pressure outside 0.85 to 1.08 times the s
 The room temperature (default 20 degC, the flowmeters' calibration temperature) is that of the gas in
 the machine, not the outside air's standard-atmosphere temperature.
 
+The oxygen the patient receives at the site's pressure (PiO2) is in
+:mod:`estimator.physics.inspired_oxygen`.
+
 References
 ----------
-.. [1] ISO 2533:1975 Standard Atmosphere (troposphere, geopotential height, constants).
-.. [2] ICAO Doc 7488/3, Manual of the ICAO Standard Atmosphere, 3rd ed. 1993 (same values to 32 km).
-.. [3] West JB. Respiratory Physiology: The Essentials (PiO2 = FiO2 (PB - 47 mmHg) at 37 degC).
+.. [1] ISO 2533:1975 Standard Atmosphere (troposphere, geopotential height, constants; from memory).
+.. [2] ICAO Doc 7488/3, Manual of the ICAO Standard Atmosphere, 3rd ed. 1993 (same values to 32 km;
+   from memory).
 """
 
 from __future__ import annotations
@@ -33,7 +36,6 @@ from typing import Any
 import numpy as np
 import pint
 
-from ..constants import WATER_VAPOUR_37C_KPA
 from ..errors import InputError
 from ..limits import HABITATION_LIMIT, TEMPERATURE_USUAL
 from ..units import Q_, STANDARD_ATMOSPHERE, check_range, parse_quantity
@@ -65,8 +67,6 @@ PRESSURE_CONSISTENCY = (0.85, 1.08)
 #: Room temperature [degC] accepted; outside TEMPERATURE_USUAL (estimator.limits) a warning.
 TEMPERATURE_RANGE = (-20.0, 50.0)
 DEFAULT_TEMPERATURE = Q_(20.0, "degC")
-#: Saturated water vapour pressure at 37 degC, 47 mmHg = 6.27 kPa (West; estimator.constants).
-WATER_VAPOUR_37C = Q_(WATER_VAPOUR_37C_KPA, "kPa")
 
 
 @dataclass(frozen=True)
@@ -104,10 +104,18 @@ def geopotential_height(h: Any) -> Any:
     Parameters
     ----------
     h : float or numpy.ndarray [m]
+        Geometric height above mean sea level.
 
     Returns
     -------
     numpy.ndarray [m]
+        Geopotential height, with the earth radius r = 6 356 766 m of the standard; a 0-d array for a
+        scalar ``h``.
+
+    References
+    ----------
+    ISO 2533:1975 Standard Atmosphere (geopotential height and earth radius); ICAO Doc 7488/3, 3rd ed.
+    1993 (the same definition); both from memory.
 
     Examples
     --------
@@ -130,7 +138,10 @@ def standard_atmosphere(elevation: pint.Quantity, geopotential: bool = False) ->
 
     Returns
     -------
-    (pressure [kPa], temperature [K])
+    pressure : pint.Quantity [kPa]
+        Absolute pressure of the standard troposphere; a plain float magnitude for a scalar elevation.
+    temperature : pint.Quantity [K]
+        Air temperature of the standard troposphere (288.15 K less 6.5 K per km of geopotential height).
 
     Raises
     ------
@@ -139,7 +150,9 @@ def standard_atmosphere(elevation: pint.Quantity, geopotential: bool = False) ->
 
     References
     ----------
-    ISO 2533:1975; ICAO Doc 7488/3 (1993).
+    ISO 2533:1975 Standard Atmosphere (troposphere: constants, lapse rate, pressure formula); ICAO
+    Doc 7488/3, Manual of the ICAO Standard Atmosphere, 3rd ed. 1993 (same values); both from memory.
+    tests/test_site.py checks the result against the tables at 0 to 11 000 m.
 
     Examples
     --------
@@ -168,10 +181,22 @@ def ambient_pressure_at(elevation_m: Any) -> Any:
     Parameters
     ----------
     elevation_m : float or numpy.ndarray [m]
+        Geometric elevation above mean sea level, -500 to 11 000 m.
 
     Returns
     -------
     float or numpy.ndarray [kPa]
+        Absolute pressure of the standard troposphere.
+
+    Raises
+    ------
+    InputError
+        As :func:`standard_atmosphere`.
+
+    References
+    ----------
+    ISO 2533:1975 Standard Atmosphere; ICAO Doc 7488/3, 3rd ed. 1993 (both from memory), as
+    :func:`standard_atmosphere`.
 
     Examples
     --------
@@ -186,11 +211,19 @@ def pressure_altitude(pressure: pint.Quantity) -> pint.Quantity:
 
     Parameters
     ----------
-    pressure : pint.Quantity [kPa], absolute
+    pressure : pint.Quantity [kPa]
+        Absolute pressure; scalar or array.
 
     Returns
     -------
     pint.Quantity [m]
+        Geometric elevation: the troposphere formula inverted for geopotential height H, then
+        h = r H / (r - H). Not range-checked (the callers check the pressure).
+
+    References
+    ----------
+    ISO 2533:1975 Standard Atmosphere; ICAO Doc 7488/3, 3rd ed. 1993 (the pressure formula and the
+    geopotential height, inverted here; both from memory).
 
     Examples
     --------
@@ -230,13 +263,19 @@ def site_from_inputs(elevation: Any = None, ambient_pressure: Any = None, temper
     Returns
     -------
     Site
-        With neither elevation nor pressure: sea level, 101.325 kPa.
+        Ambient pressure [kPa], temperature [degC], warnings and basis. With neither elevation nor
+        pressure: sea level, 101.325 kPa.
 
     Raises
     ------
     InputError
         Elevation outside -500 to 11 000 m, pressure outside 22.6 to 108.5 kPa, a pressure that
         does not fit the given elevation, or a temperature outside -20 to 50 degC.
+
+    References
+    ----------
+    ISO 2533:1975 Standard Atmosphere; ICAO Doc 7488/3, 3rd ed. 1993 (pressure from elevation; both from
+    memory). The accepted ranges and the consistency band are the package's (see the module notes).
 
     Examples
     --------
@@ -290,109 +329,3 @@ def site_from_inputs(elevation: Any = None, ambient_pressure: Any = None, temper
             )
     notes += _height_warning(float(pressure_altitude(pres).magnitude))
     return Site(elev, pres, temp, tuple(notes), "measured pressure")
-
-
-def inspired_oxygen_partial_pressure(fio2: Any, ambient: pint.Quantity, water_vapour: bool = True) -> pint.Quantity:
-    """Inspired oxygen partial pressure PiO2 = FiO2 (PB - PH2O) [kPa].
-
-    Parameters
-    ----------
-    fio2 : float, array or pint.Quantity [fraction]
-        Dry-gas oxygen fraction.
-    ambient : pint.Quantity [kPa]
-        Barometric pressure.
-    water_vapour : bool
-        Subtract the saturated water vapour pressure at 37 degC (47 mmHg, 6.27 kPa), i.e. tracheal gas.
-
-    Returns
-    -------
-    pint.Quantity [kPa]
-
-    References
-    ----------
-    West JB. Respiratory Physiology: The Essentials (PiO2 = FiO2 (PB - 47 mmHg); from memory).
-
-    Examples
-    --------
-    >>> round(inspired_oxygen_partial_pressure(0.30, Q_(101.325, "kPa")).magnitude, 2)
-    28.52
-    """
-    f = fio2.to("dimensionless").magnitude if isinstance(fio2, pint.Quantity) else np.asarray(fio2, dtype=float)
-    dry = ambient.to("kPa").magnitude - (WATER_VAPOUR_37C.magnitude if water_vapour else 0.0)
-    return Q_(_out(f * dry), "kPa")
-
-
-def sea_level_equivalent_fraction(fio2: Any, ambient: pint.Quantity) -> Any:
-    """The oxygen fraction that gives, at sea level, the PiO2 that ``fio2`` gives at ``ambient``.
-
-    Parameters
-    ----------
-    fio2 : float or numpy.ndarray [-]
-    ambient : pint.Quantity [kPa]
-
-    """
-    sea = inspired_oxygen_partial_pressure(1.0, STANDARD_ATMOSPHERE)
-    return (inspired_oxygen_partial_pressure(fio2, ambient) / sea).to("dimensionless").magnitude
-
-
-def fraction_for_sea_level_threshold(threshold: Any, ambient: pint.Quantity) -> Any:
-    """The oxygen fraction needed at ``ambient`` to match the sea-level PiO2 of ``threshold``.
-
-    Parameters
-    ----------
-    threshold : float or numpy.ndarray [-]
-    ambient : pint.Quantity [kPa]
-
-    """
-    return np.asarray(threshold, dtype=float) / sea_level_equivalent_fraction(1.0, ambient)
-
-
-def check_inspired_oxygen(fio2: Any, threshold: Any, ambient: pint.Quantity) -> list[tuple[str, str]]:
-    """Warn when an oxygen fraction that meets ``threshold`` at sea level falls short at this site.
-
-    The threshold (for example FiO2 0.30 at low flow) is read as a sea-level PiO2. A fraction at or
-    above the threshold whose PiO2 here is below that sea-level PiO2 gets code
-    ``PIO2_BELOW_SEA_LEVEL_THRESHOLD``; a site where even pure oxygen cannot reach it gets
-    ``PIO2_THRESHOLD_UNREACHABLE``. Fractions already below the threshold are the caller's
-    ordinary low-oxygen finding and are not repeated here.
-
-    Parameters
-    ----------
-    fio2, threshold : float or array [fraction]
-    ambient : pint.Quantity [kPa]
-
-    Returns
-    -------
-    list of (code, message)
-
-    Examples
-    --------
-    >>> [c for c, _ in check_inspired_oxygen(0.35, 0.30, Q_(70.109, "kPa"))]
-    ['PIO2_BELOW_SEA_LEVEL_THRESHOLD']
-    >>> check_inspired_oxygen(0.35, 0.30, Q_(101.325, "kPa"))
-    []
-    """
-    f = np.asarray(fio2, dtype=float)
-    thr = float(threshold)
-    need = float(fraction_for_sea_level_threshold(thr, ambient))
-    sea_pio2 = float(inspired_oxygen_partial_pressure(thr, STANDARD_ATMOSPHERE).magnitude)
-    out: list[tuple[str, str]] = []
-    if need > 1.0:
-        out.append(
-            (
-                "PIO2_THRESHOLD_UNREACHABLE",
-                f"at {ambient.to('kPa').magnitude:.1f} kPa even 100 % oxygen "
-                f"gives a PiO2 below {sea_pio2:.1f} kPa, the sea-level PiO2 of FiO2 {thr:.2f}",
-            )
-        )
-    short = (f >= thr) & (f < need)
-    if np.any(short):
-        out.append(
-            (
-                "PIO2_BELOW_SEA_LEVEL_THRESHOLD",
-                f"FiO2 {float(np.min(f[short])):.2f} meets the {thr:.2f} threshold but at "
-                f"{ambient.to('kPa').magnitude:.1f} kPa gives PiO2 below {sea_pio2:.1f} kPa (its sea-level value); "
-                f"FiO2 {min(need, 1.0):.2f} is needed for the same PiO2",
-            )
-        )
-    return out

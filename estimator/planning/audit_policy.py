@@ -42,7 +42,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from ..accounts import carbon
+from ..accounts import carbon_totals
 from ..accounts.costs import Prices, case_cost
 from ..errors import InputError
 from ..inputs.policy_file import (
@@ -178,7 +178,7 @@ def _side(
         ("agent_uptake", "agent_metabolised") if engine else ()
     )
     q = {k: totals[k] for k in keep if k in totals}
-    co2e = carbon.case_carbon(q, agent, basis, manifold_loss=loss).released_co2e.to("kg").magnitude
+    co2e = carbon_totals.case_carbon(q, agent, basis, manifold_loss=loss).released_co2e.to("kg").magnitude
     out = {
         "agent_liquid_ml": float(q["agent_liquid"].to("mL").magnitude),
         "fresh_gas_l": float(sum(q[g].to("L").magnitude for g in ("oxygen", "air", "nitrous_oxide") if g in q)),

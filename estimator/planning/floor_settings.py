@@ -84,7 +84,7 @@ def settings_from(scenario: Scenario, threshold: float | None = None) -> Setting
     if not HYPOXIC_FRACTION <= thr <= 1.0:
         raise InputError("flow_floor.threshold_inspired_oxygen", thr, "0.21 to 1 (never below room air)")
     if ff.threshold_basis == "partial_pressure":
-        from ..physics.site import fraction_for_sea_level_threshold
+        from ..physics.inspired_oxygen import fraction_for_sea_level_threshold
 
         ambient = site_state(scenario).ambient_pressure_kpa
         at_site = float(fraction_for_sea_level_threshold(thr, Q_(ambient, "kPa")))

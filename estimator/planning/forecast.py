@@ -51,7 +51,8 @@ import numpy as np
 import pandas as pd
 import pint
 
-from ..accounts.carbon import basis_label, totals_co2e
+from ..accounts.carbon import basis_label
+from ..accounts.carbon_totals import totals_co2e
 from ..accounts.costs import cost_table
 from ..errors import InputError
 from ..inputs.casemix_orders import absorbent_pack_kg, bottle_ml, cylinder_usable
@@ -139,7 +140,7 @@ def summary_statistics(values: np.ndarray) -> dict[str, float]:
 
 
 def case_co2e(totals: dict[str, np.ndarray], agent: str, basis: str, manifold_loss: float = 0.0) -> np.ndarray:
-    """CO2e per case [kg] from batch totals: :func:`estimator.accounts.carbon.totals_co2e`, the rule of the case."""
+    """CO2e per case [kg] from batch totals: :func:`estimator.accounts.carbon_totals.totals_co2e`, the rule of the case."""
     return totals_co2e(totals, agent, basis, manifold_loss)["co2e_kg"]
 
 

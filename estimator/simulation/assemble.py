@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 from ..accounts.accounting import DELTA_TOTAL_UNITS, fresh_gas_litres, totals_from_deltas
-from ..accounts.carbon import totals_co2e
+from ..accounts.carbon_totals import totals_co2e
 from ..limits import HYPOXIC_FRACTION
 from ..physics import circuit as c
 from ..properties import agent as agent_properties
@@ -172,7 +172,7 @@ def build_result(case: CaseSetup, segments: list[Segment]) -> CaseResult:
     judged = judged_samples(series["time [min]"])
     _gas_warnings(series, fio2, judged, totals, warns)
     if site.ambient_pressure_kpa < 101.325 - 1e-6:
-        from ..physics.site import check_inspired_oxygen
+        from ..physics.inspired_oxygen import check_inspired_oxygen
 
         warns += [
             (code, msg)

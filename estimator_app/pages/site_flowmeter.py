@@ -46,7 +46,7 @@ def site_inputs() -> Any:
     m = st.columns(3)
     m[0].metric("Ambient pressure", f"{site.ambient_pressure.to(pu).magnitude:.3g} {pu}", help=site.basis)
     m[1].metric("Pressure altitude", f"{site.pressure_altitude.to('m').magnitude:,.0f} m")
-    from estimator.physics.site import inspired_oxygen_partial_pressure
+    from estimator.physics.inspired_oxygen import inspired_oxygen_partial_pressure
 
     pio2 = inspired_oxygen_partial_pressure(0.21, site.ambient_pressure)
     m[2].metric(
