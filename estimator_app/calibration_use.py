@@ -41,6 +41,19 @@ def named_message(name: str, label: str) -> str:
     )
 
 
+def given_message(scenario: str, name: str) -> str:
+    """What the supply page says when a scenario file given with the inventory names a calibration file not given.
+
+    >>> given_message("list.toml", "dept.toml")[:62]
+    'The scenario file list.toml names a calibration file: calibrat'
+    """
+    return (
+        f'The scenario file {scenario} names a calibration file: {contracts.CALIBRATION_KEY} = "{name}". Load '
+        f"{name} together with the inventory and its scenario files to run its case plans with the department's "
+        "uptake factor (lowflow supply reads it beside the scenario file)."
+    )
+
+
 def _upload(box: Any) -> None:
     """The calibration upload; a new file replaces the loaded calibration if its contract accepts it."""
     generation = int(st.session_state.get(_GENERATION, 0))

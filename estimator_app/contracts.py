@@ -11,6 +11,7 @@ demo folder's files for a demo), by name; a name is never opened as a path on th
 
 from __future__ import annotations
 
+import functools
 import tempfile
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -113,10 +114,66 @@ def run_text(doc: dict[str, Any]) -> str:
 
 
 def calibration_text(text: str) -> Any:
-    """The calibration of TOML text (:func:`estimator.inputs.calibration_file.calibration_from_text`)."""
+    """The calibration of TOML text (:func:`estimator.inputs.calibration_file.calibration_from_text`), parsed
+    once per distinct text; each call gets its own copy (the parsed file is shared by every session)."""
+    return _calibration(text).model_copy(deep=True)
+
+
+@functools.lru_cache(maxsize=32)
+def _calibration(text: str) -> Any:
     from estimator.inputs.calibration_file import calibration_from_text
 
     return calibration_from_text(text)
+
+
+@functools.lru_cache(maxsize=64)
+def _scenario_parts(text: str) -> tuple[str, str | None]:
+    """A scenario file's text as the engine runs it in the app (without its ``calibration`` key) and the
+    calibration file it names; the text as given if it names none or is not TOML (the run names the fault)."""
+    try:
+        doc = parse_toml(text, "scenario")
+    except InputError:
+        return text, None
+    name = named_calibration(doc)
+    return (text, None) if name is None else (run_text(doc), name)
+
+
+def calibrations_named(files: dict[str, str]) -> dict[str, str]:
+    """The calibration file each scenario file among ``files`` names (scenario file -> calibration file)."""
+    out = {}
+    for name, text in files.items():
+        cal = _scenario_parts(text)[1] if name.lower().endswith(".toml") else None
+        if cal is not None:
+            out[name] = cal
+    return out
+
+
+def given_files(kind: str, doc: dict[str, Any], named: dict[str, str]) -> dict[str, str]:
+    """The files among ``named`` (name -> text) that a document names, with the calibration files its
+    scenario files name (as ``lowflow supply`` reads the file beside each scenario)."""
+    wanted = set(referenced(kind, doc))
+    given = {k: v for k, v in named.items() if k in wanted}
+    if kind == "inventory":
+        wanted.update(calibrations_named(given).values())
+    return {k: v for k, v in named.items() if k in wanted}
+
+
+def missing_calibrations(scenarios: dict[str, str], files: dict[str, str]) -> dict[str, str]:
+    """Scenario file -> the calibration file it names, for each one not among ``files``."""
+    return {s: cal for s, cal in calibrations_named(scenarios).items() if cal not in files}
+
+
+def case_runs(scenarios: dict[str, str], files: dict[str, str]) -> tuple[tuple[str, str, str | None], ...]:
+    """Each scenario of an inventory's case plans as the app runs it, sorted by file name: (name, text without
+    its ``calibration`` key, text of the calibration file it names among ``files``, or None); InputError
+    naming a calibration file not given (never a run without it)."""
+    runs = []
+    for name, text in sorted(scenarios.items()):
+        run, cal = _scenario_parts(text)
+        if cal is not None and cal not in files:
+            raise InputError(f"{name}: {CALIBRATION_KEY}", cal, "the calibration file it names, given with it")
+        runs.append((name, run, None if cal is None else files[cal]))
+    return tuple(runs)
 
 
 def load_scenario_text(text: str, calibration: str | None = None) -> Any:
@@ -198,7 +255,9 @@ def check(kind: str, doc: dict[str, Any], files: dict[str, str], planner_text: s
         load_scenario_text(text)
     elif kind == "inventory":
         load_inventory_text(text)
-        case_scenarios(doc, files, planner_text)
+        for cal in calibrations_named(case_scenarios(doc, files, planner_text)).values():
+            if cal in files:  # a calibration given with the inventory: its contract, at load
+                calibration_text(files[cal])
     elif kind == "casemix":
         with folder(files, planner_text) as base:
             load_casemix_text(text, base)

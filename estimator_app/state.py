@@ -103,11 +103,11 @@ def clear_calibration() -> None:
 def accept(kind: str, text: str, name: str, named: dict[str, str]) -> None:
     """Make TOML text the current document of ``kind`` if the command line's loader accepts it.
 
-    A calibration file the document names, given with it, becomes the planning pages' calibration.
+    A calibration file the document names, given with it, becomes the planning pages' calibration; one
+    that an inventory's scenario files name stays with the inventory's files.
     """
     doc = contracts.parse_toml(text, KINDS[kind][2])
-    wanted = set(contracts.referenced(kind, doc))
-    given = {k: v for k, v in named.items() if k in wanted}
+    given = contracts.given_files(kind, doc, named)
     contracts.check(kind, doc, given, run_text())
     cal = contracts.named_calibration(doc)
     if cal is not None and cal in named:

@@ -171,14 +171,44 @@ def test_save_writes_exactly_what_is_on_screen(saved):
 def test_supply_page_and_lowflow_supply_agree(name, saved):
     at = open_page("supply_duration", "supply.doc.demo", name)
     cli = cli_json("supply", str(DEMO / name))
-    assert metric(at, "Bottleneck") == (cli["bottleneck"] or "none")
-    assert metric(at, "Days of supply") == shown(mag(cli["days_of_supply"]), "days")
-    assert metric(at, "Cases possible") == f"{cli['cases_possible']} cases"
+    assert_supply_metrics(at, cli)
     reorder = date.fromisoformat(cli["reorder_by"])  # "Order now" once the date is today or past (issue 19)
     assert metric(at, "Reorder") == ("Order now" if reorder <= date.today() else f"by {cli['reorder_by']}")
     # Every key of the file survives the page: concentrator start and purity, cylinder temperature
     # and service pressure included.
     assert tomllib.loads(saved[name].decode()) == tomllib.loads((DEMO / name).read_text(encoding="utf-8"))
+
+
+def assert_supply_metrics(at: AppTest, cli: dict) -> None:
+    assert metric(at, "Bottleneck") == (cli["bottleneck"] or "none")
+    assert metric(at, "Days of supply") == shown(mag(cli["days_of_supply"]), "days")
+    assert metric(at, "Cases possible") == f"{cli['cases_possible']} cases"
+
+
+def test_supply_page_with_the_calibration_a_scenario_names_and_lowflow_supply_agree(tmp_path):
+    from calibration_helpers import calibration_text
+
+    inventory, scenario = "highland_clinic_inventory.toml", "highland_mobile_team.toml"  # isoflurane cases
+    doc = tomllib.loads((DEMO / scenario).read_text(encoding="utf-8"))
+    doc["calibration"] = "dept_calibration.toml"
+    (tmp_path / inventory).write_text((DEMO / inventory).read_text(encoding="utf-8"), encoding="utf-8")
+    (tmp_path / scenario).write_text(tomli_w.dumps(doc), encoding="utf-8")
+    (tmp_path / "dept_calibration.toml").write_text(calibration_text(1.3, "isoflurane"), encoding="utf-8")
+    cli = cli_json("supply", str(tmp_path / inventory))
+    plain = cli_json("supply", str(DEMO / inventory))
+    assert mag(cli["days_of_supply"]) < mag(plain["days_of_supply"])  # the factor changes the numbers
+    at = open_page("supply_duration")
+    at.file_uploader(key="supply.upload").set_value(
+        [(p.name, p.read_bytes(), "application/toml") for p in sorted(tmp_path.iterdir())]
+    )
+    at = at.run()
+    assert not at.exception and not [e.value for e in at.error if not e.value.startswith("Safety:")]
+    assert_supply_metrics(at, cli)
+    items = next(d.value for d in at.dataframe if "lasts [days]" in d.value.columns)
+    app = dict(zip(items["item"], items["lasts [days]"], strict=True))
+    for item in cli["items"]:  # each item's days, as the page rounds them for reading
+        if item["runtime"] is not None:
+            assert app[item["name"]] == shown(mag(item["runtime"])), item["name"]
 
 
 @pytest.mark.parametrize("name", demo.files_of("casemix"))

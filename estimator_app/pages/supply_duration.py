@@ -2,7 +2,8 @@
 
 The page edits the loaded inventory in place (``estimator_app.editing``) and runs it through the
 command line's loader and ``plan_supply``; each case plan runs the scenario file it names, given with
-the inventory (or the case planner's case for ``scenario = "case planner"``).
+the inventory (or the case planner's case for ``scenario = "case planner"``), with the calibration file
+that scenario names, given with them as ``lowflow supply`` reads it beside the scenario file.
 """
 
 from __future__ import annotations
@@ -137,17 +138,19 @@ WORK = Field("working_days_per_week", "Working days a week", "integer", low=0, h
 
 @st.cache_data(max_entries=32, show_spinner="Laying out the week and the stocks...")
 def run_supply(
-    inventory_text: str, scenarios: tuple[tuple[str, str], ...], planner_calibration: str | None = None
+    inventory_text: str, scenarios: tuple[tuple[str, str, str | None], ...], planner_calibration: str | None = None
 ) -> Any:
-    """Supply report: the command line's loader and planner; each case plan runs the scenario it names (the
-    case planner's with the calibration file its scenario names, loaded on a planning page)."""
+    """Supply report: the command line's loader and planner; each case plan runs the scenario it names with
+    the calibration file that scenario names (:func:`estimator_app.contracts.case_runs`; the case planner's
+    with the calibration loaded on a planning page)."""
     from estimator.planning.supply import plan_supply
 
-    texts = dict(scenarios)
+    runs = {name: (text, cal) for name, text, cal in scenarios}
 
     def runner(path: str) -> Any:
         name = Path(path).name
-        return state.run_case(texts[name], planner_calibration if name in contracts.PLANNER_NAMES else None)
+        text, cal = runs[name]
+        return state.run_case(text, planner_calibration if name in contracts.PLANNER_NAMES else cal)
 
     return plan_supply(contracts.load_inventory_text(inventory_text), runner=runner)
 
@@ -184,7 +187,9 @@ def inputs() -> dict[str, Any]:
     if site and "site" not in doc:
         doc["site"] = site
     st.markdown("**Case plans** - each runs the scenario file it names, given with the inventory")
-    names = sorted({*state.files(KIND), *contracts.PLANNER_NAMES[:1], *contracts.referenced(KIND, loaded)})
+    given = state.files(KIND)
+    scenarios = set(given) - set(contracts.calibrations_named(given).values())  # not the calibration files
+    names = sorted({*scenarios, *contracts.PLANNER_NAMES[:1], *contracts.referenced(KIND, loaded)})
     demand["cases"] = table(demand.get("cases", []), case_fields(names), f"supply.cases.{v}")
     st.markdown("**Continuous use** - oxygen or air drawn through the day outside the cases (recovery, ventilators)")
     demand["continuous"] = table(demand.get("continuous", []), CONTINUOUS_FIELDS, f"supply.cont.{v}")
@@ -355,8 +360,9 @@ def render() -> None:
         KIND,
         "Load an inventory (TOML) with the scenario files it names",
         "supply.upload",
-        "Stocks, sources and demand as in the README, and each scenario file its case plans name; at most 20 MB "
-        "each. A case plan with scenario = 'case planner' runs the case on the case planner page.",
+        "Stocks, sources and demand as in the README, each scenario file its case plans name and the calibration "
+        "file a scenario names; at most 20 MB each. A case plan with scenario = 'case planner' runs the case on "
+        "the case planner page.",
         c2,
     )
     doc = inputs()
@@ -366,12 +372,18 @@ def render() -> None:
         if state.calibration() is None:
             st.warning(calibration_use.named_message(named, "scenario"), icon=":material/warning:")
             return
-    current = (
-        contracts.toml_text(doc),
-        tuple(sorted(contracts.case_scenarios(doc, state.files(KIND), state.run_text()).items())),
-        state.calibration_text() if named is not None else None,
-    )
+    files = state.files(KIND)
+    scenarios = contracts.case_scenarios(doc, files, state.run_text())
+    missing = contracts.missing_calibrations(scenarios, files)
+    for scenario, cal in missing.items():  # as lowflow supply, never run without the file the scenario names
+        st.warning(calibration_use.given_message(scenario, cal), icon=":material/warning:")
+    if missing:
+        return
+    runs = contracts.case_runs(scenarios, files)
+    current = (contracts.toml_text(doc), runs, state.calibration_text() if named is not None else None)
     report = run_supply(*current)
+    if used := contracts.calibrations_named(scenarios):
+        st.caption("Department calibration: " + "; ".join(f"{s} runs with {c}" for s, c in sorted(used.items())))
     outputs(report)
     from .compare_plans import stock_comparison
 
