@@ -11,6 +11,7 @@ that no box shows are kept and listed read-only under the rows, and rows may be 
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import replace
 from typing import Any
 
@@ -58,12 +59,19 @@ def _queue(key: str, row_id: int | None) -> None:
     st.session_state.setdefault(f"{key}.ops", []).append(row_id)
 
 
-def rows(loaded: list[dict[str, Any]], fields: list[Field], key: str, noun: str = "row") -> list[dict[str, Any]]:
+def rows(
+    loaded: list[dict[str, Any]],
+    fields: list[Field],
+    key: str,
+    noun: str = "row",
+    on_edit: Callable[[int, Field, str], None] | None = None,
+) -> list[dict[str, Any]]:
     """Rows of boxes over ``loaded`` (one row a document row, one column a field); returns the rows as
     they now stand (untouched values as loaded, other keys kept, rows added and removed in place).
 
     ``key`` must change when a new document is loaded or the display unit changes (the boxes start again
-    from the document). Column headings are shown on the first row only.
+    from the document). Column headings are shown on the first row only. ``on_edit(row, field, key)``,
+    if given, is each number box's change callback (Streamlit runs it before the page's next run).
     """
     out = [dict(r) for r in loaded]
     ids = _ids(key, len(out))
@@ -85,7 +93,11 @@ def rows(loaded: list[dict[str, Any]], fields: list[Field], key: str, noun: str 
     for col, f in zip(cols, fields, strict=False):
         for n, (row_id, row) in enumerate(zip(ids, out, strict=True)):
             shown = "visible" if n == 0 else "collapsed"  # heading and help once, on the first row
-            box(col, row, f if n == 0 else replace(f, help=None), f"{key}.{row_id}.{f.key}", label_visibility=shown)
+            box_key = f"{key}.{row_id}.{f.key}"
+            changed = {} if on_edit is None or f.kind not in ("number", "integer") else {"on_change": on_edit}
+            if changed:
+                changed["args"] = (n, f, box_key)
+            box(col, row, f if n == 0 else replace(f, help=None), box_key, label_visibility=shown, **changed)
     for row_id in ids:
         cols[-1].button(
             "",

@@ -19,7 +19,7 @@ from estimator.units import GAS_VOLUME_REFERENCE
 from .. import box_rows, calibration_use, spread_view, state
 from ..charts import show, time_course
 from ..common import download_row, downloads, flag, flow_factor, metric, show_warnings, unit
-from ..editing import Field, contract, kept_view, number
+from ..editing import Field, contract, kept_view, merge, number
 
 
 def phase_fields(fu: str) -> list[Field]:
@@ -39,6 +39,29 @@ def phase_fields(fu: str) -> list[Field]:
     ]
 
 
+def edited(path: tuple[str | int, ...], field: Field, key: str) -> None:
+    """A number box's change callback: its new value written into the scenario before the page runs,
+    by the box's own rule (:func:`estimator_app.editing.merge`), so the page can run the case and send
+    the totals ahead of the boxes (:func:`render`)."""
+    doc = copy.deepcopy(state.document())
+    target: Any = doc
+    for step in path:
+        target = target.setdefault(step, {}) if isinstance(step, str) else target[step]
+    raw = target.get(field.key)
+    merge(target, field, raw, field.shown(raw), st.session_state.get(key))
+    state.set_document(doc)
+
+
+def edited_phase(row: int, field: Field, key: str) -> None:
+    """A phase box's change callback (:func:`edited` on the phase ``row`` as drawn)."""
+    edited(("phases", row), field, key)
+
+
+def early(section: dict[str, Any], name: str, field: Field, key: str, fmt: str | None = None) -> None:
+    """A number box of the scenario's ``name`` section whose edit reaches the scenario before the page runs."""
+    number(st, section, field, key, on_change=edited, args=((name,), field, key), **({"format": fmt} if fmt else {}))
+
+
 def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
     """The planner's inputs; returns the scenario as the widgets now stand (other keys kept as loaded)."""
     from estimator.inputs.scenario import CircuitInput, PatientInput
@@ -53,20 +76,14 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
     c1, c2, c3, c4 = st.columns([1, 1, 1, 1.2])
     with c1:
         st.markdown("**Patient**")
-        number(
-            st,
+        early(
             patient,
+            "patient",
             contract(PatientInput, "weight", "Weight", mu, step=1.0),
             f"case.weight.{v}.{mu}",
-            format="%.1f",
+            "%.1f",
         )
-        number(
-            st,
-            patient,
-            contract(PatientInput, "age", "Age", "years", step=1.0),
-            f"case.age.{v}",
-            format="%.0f",
-        )
+        early(patient, "patient", contract(PatientInput, "age", "Age", "years", step=1.0), f"case.age.{v}", "%.0f")
     with c2:
         st.markdown("**Agent**")
         names = sorted(AGENTS)
@@ -78,26 +95,12 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
             agent["name"] = pick
     with c3:
         st.markdown("**Circuit**")
-        number(
-            st,
-            circuit,
-            contract(CircuitInput, "volume", "Circuit volume", "L", step=0.5),
-            f"case.volume.{v}",
-        )
-        number(
-            st,
-            circuit,
-            contract(CircuitInput, "leak", "Leak", fu, step=0.01 * scale),
-            f"case.leak.{v}.{fu}",
-        )
+        early(circuit, "circuit", contract(CircuitInput, "volume", "Circuit volume", "L", step=0.5), f"case.volume.{v}")
+        early(circuit, "circuit", contract(CircuitInput, "leak", "Leak", fu, step=0.01 * scale), f"case.leak.{v}.{fu}")
     with c4:
         st.markdown("**Gas sampling**")
-        number(
-            st,
-            circuit,
-            contract(CircuitInput, "sample_flow", "Sample flow", fu, step=0.01 * scale),
-            f"case.sample.{v}.{fu}",
-        )
+        sample = contract(CircuitInput, "sample_flow", "Sample flow", fu, step=0.01 * scale)
+        early(circuit, "circuit", sample, f"case.sample.{v}.{fu}")
         returned = bool(circuit.get("sample_returned", CircuitInput.model_fields["sample_returned"].default))
         if st.checkbox("Sample gas returned to the circuit", returned, key=f"case.returned.{v}") != returned:
             circuit["sample_returned"] = not returned
@@ -109,7 +112,9 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
         "a blank box leaves the key out"
     )
     # Number boxes, not a table editor: a box sends its value on Enter at once, the table editor 150 ms later.
-    doc["phases"] = box_rows.rows(doc.get("phases", []), phase_fields(fu), f"case.phases.{v}.{fu}", "phase")
+    doc["phases"] = box_rows.rows(
+        doc.get("phases", []), phase_fields(fu), f"case.phases.{v}.{fu}", "phase", on_edit=edited_phase
+    )
     # room for other views of the same scenario (e.g. a patient-spread band) below this line
     kept_view(doc, {"title", "patient", "agent", "circuit", "phases"})
     return doc
@@ -285,6 +290,9 @@ def downloads_view(result: Any, band: Any, applied: dict[str, Any]) -> None:
     )
 
 
+#: Session key: the page is running again after an edit its boxes' callbacks did not write.
+AGAIN = "case.again"
+
 #: The views below the warnings, one a tab; the first is shown when the page opens.
 VIEWS = {
     "Time course": time_course_view,
@@ -300,11 +308,22 @@ def render() -> None:
         "Plan one case: patient, agent, circuit and phases in; agent and gas use, inspired O2, "
         "end-tidal agent and MAC, the dial, cost and CO2e out."
     )
-    new = inputs(state.document())
-    state.set_document(new)
-    calibration, runs = calibration_use.panel("scenario")
-    if not runs:
+    doc = state.document()  # with this run's edit of a number box already in (its change callback)
+    boxes, below = st.container(), st.container()
+    with below:  # drawn first: the totals' messages reach the browser ahead of the boxes' (bench_app.py)
+        calibration, runs = calibration_use.panel("scenario")
+        result = state.current_result(calibration) if runs else None
+        if result is not None:
+            outputs(result, calibration)
+    with boxes:
+        new = inputs(doc)
+    if new == doc:
+        st.session_state.pop(AGAIN, None)
         return
-    result = state.current_result(calibration)
-    if result is not None:
-        outputs(result, calibration)
+    # An edit no callback wrote (the title, the agent, a phase added or removed...): run again, so the
+    # totals on screen are always those of the inputs on screen.
+    state.set_document(new)
+    if st.session_state.pop(AGAIN, False):
+        raise RuntimeError("the case planner's inputs changed the scenario twice in a row")
+    st.session_state[AGAIN] = True
+    st.rerun()
