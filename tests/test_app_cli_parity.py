@@ -291,3 +291,54 @@ def test_every_demo_file_is_covered():
     }
     inputs = {p.name for p in DEMO.iterdir() if p.suffix in (".toml", ".csv")}
     assert inputs == covered
+
+
+def test_case_planner_totals_after_edits_are_those_of_the_saved_file(saved, tmp_path):
+    """The page runs the case before it redraws its boxes (a box writes its edit in its change callback);
+    an edit no callback writes (a phase added, the agent) makes the page run again. Either way the totals
+    on screen are ``lowflow case`` on the file the page saves."""
+    at = open_page("case_planner")
+    name = "kestrel_lap_chole.toml"
+
+    def agrees() -> None:
+        assert not at.exception and not [e.value for e in at.error if not e.value.startswith("Safety:")]
+        path = tmp_path / name
+        path.write_bytes(saved[name])
+        assert_case_totals(at, cli_json("case", str(path)))
+
+    o2 = next(w for w in at.number_input if w.key.startswith("case.phases") and w.key.endswith(".oxygen"))
+    before = metric(at, "Liquid agent")
+    at.number_input(key=o2.key).set_value(1.2).run()  # the first maintenance box: a callback edit
+    assert metric(at, "Liquid agent") != before
+    agrees()
+    weight = next(w for w in at.number_input if w.key.startswith("case.weight"))
+    weight.set_value(95.0).run()
+    agrees()
+    at.selectbox(key=next(s.key for s in at.selectbox if s.key.startswith("case.agent"))).set_value("desflurane").run()
+    assert metric(at, "Liquid agent").endswith("mL")
+    agrees()
+    at.button(key=next(b.key for b in at.button if b.key.endswith(".add"))).click().run()  # a phase added
+    assert any("duration" in e.value for e in at.error)  # a new phase needs its duration: said, not run
+    boxes = [w.key for w in at.number_input if w.key.startswith("case.phases")]
+    at.number_input(key=[k for k in boxes if k.endswith(".duration")][-1]).set_value(10.0).run()
+    at.number_input(key=[k for k in boxes if k.endswith(".oxygen")][-1]).set_value(1.0).run()
+    at.number_input(key=[k for k in boxes if k.endswith(".vaporizer")][-1]).set_value(2.0).run()
+    agrees()
+
+
+def test_case_planner_that_keeps_changing_its_scenario_says_so(monkeypatch):
+    """The page's guard: inputs that change the scenario on two runs in a row are a fault, not a loop."""
+    from estimator_app.pages import case_planner
+
+    real = case_planner.inputs
+
+    def restless(loaded):  # noqa: ANN001, ANN202 - the page's own signature
+        doc = real(loaded)
+        doc["runs"] = int(doc.get("runs", 0)) + 1  # a key no widget shows, different on every run
+        return doc
+
+    monkeypatch.setattr(case_planner, "inputs", restless)
+    at = AppTest.from_string(
+        "from estimator_app.shell import page_main\npage_main('case_planner')", default_timeout=TIMEOUT
+    ).run()
+    assert any("internal error" in e.value for e in at.error), [e.value for e in at.error]
