@@ -54,6 +54,11 @@ def _ids(key: str, count: int) -> list[int]:
     return list(ids)
 
 
+def pending(key: str) -> bool:
+    """True if a row of the editor ``key`` is to be added or removed in this run (a button was pressed)."""
+    return bool(st.session_state.get(f"{key}.ops"))
+
+
 def _queue(key: str, row_id: int | None) -> None:
     """Button callback: remove the row ``row_id``, or add a row when it is None (applied at the next run)."""
     st.session_state.setdefault(f"{key}.ops", []).append(row_id)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+from collections.abc import Callable
 from typing import Any
 
 import pandas as pd
@@ -39,27 +40,59 @@ def phase_fields(fu: str) -> list[Field]:
     ]
 
 
-def edited(path: tuple[str | int, ...], field: Field, key: str) -> None:
-    """A number box's change callback: its new value written into the scenario before the page runs,
-    by the box's own rule (:func:`estimator_app.editing.merge`), so the page can run the case and send
-    the totals ahead of the boxes (:func:`render`)."""
+def write(path: tuple[str | int, ...], rule: Callable[[dict[str, Any], Any], None], key: str) -> None:
+    """A widget's change callback: ``rule(section, value)`` writes the widget's new value into the
+    scenario's section at ``path`` before the page runs (the rule the page applies as it draws the
+    widget), so the page can run the case and send the totals ahead of the inputs (:func:`render`)."""
     doc = copy.deepcopy(state.document())
     target: Any = doc
     for step in path:
         target = target.setdefault(step, {}) if isinstance(step, str) else target[step]
-    raw = target.get(field.key)
-    merge(target, field, raw, field.shown(raw), st.session_state.get(key))
+    rule(target, st.session_state.get(key))
     state.set_document(doc)
 
 
+def box_rule(field: Field) -> Callable[[dict[str, Any], Any], None]:
+    """A number box's rule (:func:`estimator_app.editing.merge`): a value unlike the one shown is written."""
+
+    def rule(section: dict[str, Any], value: Any) -> None:
+        raw = section.get(field.key)
+        merge(section, field, raw, field.shown(raw), value)
+
+    return rule
+
+
 def edited_phase(row: int, field: Field, key: str) -> None:
-    """A phase box's change callback (:func:`edited` on the phase ``row`` as drawn)."""
-    edited(("phases", row), field, key)
+    """A phase box's change callback (:func:`write` on the phase ``row`` as drawn)."""
+    write(("phases", row), box_rule(field), key)
+
+
+def set_title(doc: dict[str, Any], value: str) -> None:
+    if value != doc.get("title", ""):
+        doc["title"] = value
+
+
+def set_agent(agent: dict[str, Any], value: str) -> None:
+    if value != str(agent.get("name", "sevoflurane")).lower():
+        agent["name"] = value
+
+
+def set_returned(circuit: dict[str, Any], value: bool) -> None:
+    from estimator.inputs.scenario import CircuitInput
+
+    if bool(value) != bool(circuit.get("sample_returned", CircuitInput.model_fields["sample_returned"].default)):
+        circuit["sample_returned"] = bool(value)
+
+
+def phases_key() -> str:
+    """The phases' box rows (new boxes for a new document or a new flow unit)."""
+    return f"case.phases.{state.version()}.{unit('flow')}"
 
 
 def early(section: dict[str, Any], name: str, field: Field, key: str, fmt: str | None = None) -> None:
     """A number box of the scenario's ``name`` section whose edit reaches the scenario before the page runs."""
-    number(st, section, field, key, on_change=edited, args=((name,), field, key), **({"format": fmt} if fmt else {}))
+    changed = {"on_change": write, "args": ((name,), box_rule(field), key)}
+    number(st, section, field, key, **changed, **({"format": fmt} if fmt else {}))
 
 
 def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
@@ -69,9 +102,9 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
     v, fu, mu = state.version(), unit("flow"), unit("mass")
     scale = 1000.0 if fu == "mL/min" else 1.0
     doc = copy.deepcopy(loaded)
-    title = st.text_input("Case", doc.get("title", ""), key=f"case.title.{v}")
-    if title != doc.get("title", ""):
-        doc["title"] = title
+    key = f"case.title.{v}"
+    title = st.text_input("Case", doc.get("title", ""), key=key, on_change=write, args=((), set_title, key))
+    set_title(doc, title)
     patient, agent, circuit = (doc.setdefault(k, {}) for k in ("patient", "agent", "circuit"))
     c1, c2, c3, c4 = st.columns([1, 1, 1, 1.2])
     with c1:
@@ -88,11 +121,16 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
         st.markdown("**Agent**")
         names = sorted(AGENTS)
         current = str(agent.get("name", "sevoflurane")).lower()
+        key = f"case.agent.{v}"
         pick = st.selectbox(
-            "Volatile agent", names, names.index(current) if current in names else 0, key=f"case.agent.{v}"
+            "Volatile agent",
+            names,
+            names.index(current) if current in names else 0,
+            key=key,
+            on_change=write,
+            args=(("agent",), set_agent, key),
         )
-        if pick != current:
-            agent["name"] = pick
+        set_agent(agent, pick)
     with c3:
         st.markdown("**Circuit**")
         early(circuit, "circuit", contract(CircuitInput, "volume", "Circuit volume", "L", step=0.5), f"case.volume.{v}")
@@ -102,8 +140,15 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
         sample = contract(CircuitInput, "sample_flow", "Sample flow", fu, step=0.01 * scale)
         early(circuit, "circuit", sample, f"case.sample.{v}.{fu}")
         returned = bool(circuit.get("sample_returned", CircuitInput.model_fields["sample_returned"].default))
-        if st.checkbox("Sample gas returned to the circuit", returned, key=f"case.returned.{v}") != returned:
-            circuit["sample_returned"] = not returned
+        key = f"case.returned.{v}"
+        ticked = st.checkbox(
+            "Sample gas returned to the circuit",
+            returned,
+            key=key,
+            on_change=write,
+            args=(("circuit",), set_returned, key),
+        )
+        set_returned(circuit, ticked)
     for k in ("patient", "agent", "circuit"):
         if not doc[k] and k not in loaded:
             del doc[k]
@@ -112,9 +157,7 @@ def inputs(loaded: dict[str, Any]) -> dict[str, Any]:
         "a blank box leaves the key out"
     )
     # Number boxes, not a table editor: a box sends its value on Enter at once, the table editor 150 ms later.
-    doc["phases"] = box_rows.rows(
-        doc.get("phases", []), phase_fields(fu), f"case.phases.{v}.{fu}", "phase", on_edit=edited_phase
-    )
+    doc["phases"] = box_rows.rows(doc.get("phases", []), phase_fields(fu), phases_key(), "phase", on_edit=edited_phase)
     # room for other views of the same scenario (e.g. a patient-spread band) below this line
     kept_view(doc, {"title", "patient", "agent", "circuit", "phases"})
     return doc
@@ -308,20 +351,30 @@ def render() -> None:
         "Plan one case: patient, agent, circuit and phases in; agent and gas use, inspired O2, "
         "end-tidal agent and MAC, the dial, cost and CO2e out."
     )
-    doc = state.document()  # with this run's edit of a number box already in (its change callback)
+    doc = state.document()  # with this run's edit of an input already in (its change callback)
     boxes, below = st.container(), st.container()
-    with below:  # drawn first: the totals' messages reach the browser ahead of the boxes' (bench_app.py)
+    # The totals first (their messages reach the browser ahead of the boxes', bench_app.py), unless a
+    # phase is being added or removed: that edit is made as the boxes are drawn, so they come first.
+    first = not box_rows.pending(phases_key())
+    if not first:
+        with boxes:
+            doc = inputs(doc)
+        state.set_document(doc)
+    with below:
         calibration, runs = calibration_use.panel("scenario")
         result = state.current_result(calibration) if runs else None
         if result is not None:
             outputs(result, calibration)
+    if not first:
+        st.session_state.pop(AGAIN, None)
+        return
     with boxes:
         new = inputs(doc)
     if new == doc:
         st.session_state.pop(AGAIN, None)
         return
-    # An edit no callback wrote (the title, the agent, a phase added or removed...): run again, so the
-    # totals on screen are always those of the inputs on screen.
+    # An edit no callback wrote (none is known): run again, so the totals on screen are always those
+    # of the inputs on screen.
     state.set_document(new)
     if st.session_state.pop(AGAIN, False):
         raise RuntimeError("the case planner's inputs changed the scenario twice in a row")
