@@ -68,16 +68,19 @@ def edited_phase(row: int, field: Field, key: str) -> None:
 
 
 def set_title(doc: dict[str, Any], value: str) -> None:
+    """The case title box's rule: a title unlike the file's is written (an emptied box writes "")."""
     if value != doc.get("title", ""):
         doc["title"] = value
 
 
 def set_agent(agent: dict[str, Any], value: str) -> None:
+    """The agent picker's rule: an agent other than the file's (sevoflurane when it names none) is written."""
     if value != str(agent.get("name", "sevoflurane")).lower():
         agent["name"] = value
 
 
 def set_returned(circuit: dict[str, Any], value: bool) -> None:
+    """The sample-return tick box's rule: a tick unlike the file's (or the contract's default) is written."""
     from estimator.inputs.scenario import CircuitInput
 
     if bool(value) != bool(circuit.get("sample_returned", CircuitInput.model_fields["sample_returned"].default)):
